@@ -1,0 +1,135 @@
+"""Command line: argument parsing and printing only; the stages live in their modules."""
+
+import argparse
+import sys
+from pathlib import Path
+
+from . import __version__, build, export, library
+from .errors import ThermoledgerError
+from .findings import ERROR, INFO, WARNING, format_finding
+from .settings import FitSettings
+
+
+def _parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(
+        prog="thermoledger",
+        description="Curate heat-capacity tables (raw/) into a fitted coefficient library "
+                    "(curated/).")
+    p.add_argument("--version", action="version", version=f"thermoledger {__version__}")
+    sub = p.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    b = sub.add_parser("build", help="read raw/, validate, fit, write curated/",
+                       description="Read every source under --raw, validate its tables, fit "
+                                   "nasa7 coefficients and write library.json, library.parquet "
+                                   "and findings.json into --out.")
+    b.add_argument("--raw", type=Path, default=Path("raw"), help="raw sources folder (raw)")
+    b.add_argument("--out", type=Path, default=Path("curated"), help="output folder (curated)")
+    b.add_argument("--strict", action="store_true",
+                   help="exit 1 if any table was quarantined (for maintainers' CI)")
+    b.add_argument("--breakpoint", type=float, default=FitSettings.breakpoint,
+                   help="conventional breakpoint [K] used when the data straddle it (1000)")
+
+    c = sub.add_parser("check", help="ingest and validate only; print the findings",
+                       description="Read and validate raw/ without fitting or writing; exit 1 "
+                                   "when any error is found.")
+    c.add_argument("--raw", type=Path, default=Path("raw"), help="raw sources folder (raw)")
+    c.add_argument("--all", action="store_true", help="also print info findings")
+
+    q = sub.add_parser("props", help="evaluate Cp, H, S and G from a curated library",
+                       description="Print Cp, H, S and G = H - TS of one species at the given "
+                                   "temperatures [K].")
+    q.add_argument("library", type=Path, help="library.json or a curated folder")
+    q.add_argument("species", help="species id such as CO2(g), or a name such as CO2")
+    q.add_argument("temperatures", nargs="+", type=float, metavar="T",
+                   help="temperatures [K]")
+    return p
+
+
+def _print_findings(findings, *, show_info=False, out=sys.stdout):
+    by_file = {}
+    for f in sorted(findings, key=lambda f: f.sort_key()):
+        if f.severity == INFO and not show_info:
+            continue
+        by_file.setdefault(f.file or f.source or "(raw)", []).append(f)
+    for file, items in by_file.items():
+        print(f"{file}", file=out)
+        for f in items:
+            print(f"  {format_finding(f)}", file=out)
+
+
+def cmd_build(args) -> int:
+    settings = FitSettings(breakpoint=args.breakpoint)
+    result = build.build(args.raw, args.out, settings)
+    n_err = sum(1 for f in result.findings if f.severity == ERROR)
+    n_warn = sum(1 for f in result.findings if f.severity == WARNING)
+    print(f"thermoledger build: {len(result.fitted)} species fitted, "
+          f"{len(result.quarantined)} table(s) quarantined, {n_err} error(s), "
+          f"{n_warn} warning(s)")
+    for sp in result.document["species"]:
+        q = sp["quality"]
+        flag = "  extrapolated: " + ", ".join(f"{e['t_min']:g}-{e['t_max']:g} K"
+                                               for e in sp["extrapolated"]) if sp["extrapolated"] else ""
+        print(f"  fitted      {sp['id']:14s} {sp['ranges'][0]['t_min']:7.2f}-"
+              f"{sp['ranges'][-1]['t_max']:<7g} K  max |dCp/Cp| {100 * q['cp_max_rel_dev']:.3f} %  "
+              f"from {sp['sources'][0]['file']}{flag}")
+    for entry in result.document["quarantined"]:
+        first = entry["reasons"][0]
+        where = entry["file"] + (f":{first['line']}" if first["line"] is not None else "")
+        col = f" [{first['column']}]" if first["column"] else ""
+        more = f" (+{len(entry['reasons']) - 1} more)" if len(entry["reasons"]) > 1 else ""
+        print(f"  QUARANTINED {entry['id']:14s} {where}{col}: {first['code']} "
+              f"{first['message']}{more}")
+    print(f"wrote {', '.join(str(p) for p in result.written)}")
+    print(f"caution: {export.NOTICE}")
+    if args.strict and result.quarantined:
+        return 1
+    return 0
+
+
+def cmd_check(args) -> int:
+    result = build.check(args.raw)
+    _print_findings(result.findings, show_info=args.all)
+    n_err = sum(1 for f in result.findings if f.severity == ERROR)
+    n_warn = sum(1 for f in result.findings if f.severity == WARNING)
+    print(f"thermoledger check: {len(result.tables)} table(s) read, {n_err} error(s), "
+          f"{n_warn} warning(s)")
+    return 1 if n_err else 0
+
+
+def cmd_props(args) -> int:
+    doc = library.load(args.library)
+    sp = library.find_species(doc, args.species)
+    values = library.evaluate(sp, args.temperatures)
+    print(f"{sp['id']}  {sp['form']}, {sp['ranges'][0]['t_min']:g}-{sp['ranges'][-1]['t_max']:g} K"
+          f", from {args.library}")
+    print(f"{'T [K]':>10} {'Cp [J/(mol*K)]':>15} {'H [kJ/mol]':>12} {'S [J/(mol*K)]':>14} "
+          f"{'G [kJ/mol]':>12}")
+    for i, t in enumerate(args.temperatures):
+        note = "  extrapolated" if values["extrapolated"][i] else ""
+        print(f"{t:10.2f} {values['Cp'][i]:15.4f} {values['H'][i] / 1000:12.4f} "
+              f"{values['S'][i]:14.4f} {values['G'][i] / 1000:12.4f}{note}")
+    print("H on the assigned-enthalpy scale (H(298.15 K) = enthalpy of formation); S at 1 bar.")
+    return 0
+
+
+COMMANDS = {"build": cmd_build, "check": cmd_check, "props": cmd_props}
+
+
+def main(argv=None) -> int:
+    args = _parser().parse_args(argv)
+    try:
+        return COMMANDS[args.command](args)
+    except ThermoledgerError as exc:
+        print(f"thermoledger {args.command}: error: {exc}", file=sys.stderr)
+        return 2
+    except OSError as exc:
+        print(f"thermoledger {args.command}: error: cannot read or write "
+              f"{exc.filename or ''}: {exc.strerror or exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print(f"thermoledger {args.command}: interrupted", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":
+    sys.exit(main())

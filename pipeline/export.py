@@ -1,0 +1,160 @@
+"""Export stage: the curated library as JSON and Parquet, schema-checked, atomic, deterministic.
+
+``library_document`` turns fitted species into the library.json document;
+``write_outputs`` checks it against schemas/library.schema.json and writes
+library.json, library.parquet and findings.json. Floats are written with
+Python's shortest round-trip repr, keys in a fixed order, no timestamps, so the
+same inputs give byte-identical files.
+"""
+
+import io
+import json
+from functools import lru_cache
+from pathlib import Path
+
+import pyarrow as pa
+import pyarrow.parquet as pq
+
+from . import __version__, constants
+from .errors import OutputError
+from .paths import schema_path, write_atomic
+
+NOTICE = ("Curated property data for engineering use must be reviewed by a qualified person "
+          "before use in design. Intervals marked 'extrapolated' lie outside the source data. "
+          "Local codes and licensed engineering practice govern.")
+
+UNITS = {"temperature": "K", "enthalpy": "J/mol", "entropy": "J/(mol*K)",
+         "heat_capacity": "J/(mol*K)", "pressure": "Pa", "molar_mass": "g/mol",
+         "coefficients": "published kelvin form named by 'form'; Cp/R, H/(RT), S/R dimensionless"}
+
+
+def species_entry(fitted) -> dict:
+    """library.json entry of one FittedSpecies."""
+    meta, fit = fitted.table.meta, fitted.fit
+    extrapolated = []
+    if fit.ranges[0].t_min < fit.data_t_min:
+        extrapolated.append({"t_min": fit.ranges[0].t_min, "t_max": fit.data_t_min})
+    if fit.ranges[-1].t_max > fit.data_t_max:
+        extrapolated.append({"t_min": fit.data_t_max, "t_max": fit.ranges[-1].t_max})
+    sources = [_source_ref(meta, True)] + [_source_ref(m, False) for m in fitted.alternatives]
+    return {
+        "id": meta.species_id,
+        "formula": meta.formula,
+        "phase": meta.phase,
+        "geometry": meta.geometry,
+        "molar_mass": meta.molar_mass,
+        "enthalpy_of_formation_298": meta.enthalpy_of_formation_298,
+        "entropy_298": meta.entropy_298,
+        "form": fit.form,
+        "ranges": [{"t_min": r.t_min, "t_max": r.t_max, "coefficients": list(r.coefficients)}
+                   for r in fit.ranges],
+        "data_range": {"t_min": fit.data_t_min, "t_max": fit.data_t_max},
+        "extrapolated": extrapolated,
+        "quality": {"cp_max_rel_dev": fit.cp_max_rel_dev, "cp_rms_rel_dev": fit.cp_rms_rel_dev,
+                    "points": fit.points, "worst_t": fit.worst_t, "weighting": fit.weighting},
+        "sources": sources,
+        "conversions": list(meta.notes),
+        "findings": [f.to_dict() for f in sorted(fitted.findings, key=lambda f: f.sort_key())],
+    }
+
+
+def _source_ref(meta, used: bool) -> dict:
+    return {"source": meta.source.source, "file": meta.file, "sha256": meta.sha256,
+            "used": used, "priority": meta.source.priority, "citation": meta.source.citation}
+
+
+def library_document(fitted, quarantined, inputs_sha256: str, settings: dict) -> dict:
+    """The whole library.json document.
+
+    ``quarantined`` is a sequence of (TableMeta, findings) for tables left out.
+    """
+    return {
+        "library_format": 1,
+        "notice": NOTICE,
+        "gas_constant": constants.GAS_CONSTANT,
+        "reference_temperature": constants.REFERENCE_TEMPERATURE,
+        "standard_pressure": constants.STANDARD_PRESSURE,
+        "units": UNITS,
+        "build": {"pipeline_version": __version__, "inputs_sha256": inputs_sha256,
+                  "settings": settings},
+        "species": [species_entry(s) for s in sorted(fitted, key=lambda s: s.table.meta.species_id)],
+        "quarantined": [
+            {"id": meta.species_id, "source": meta.source.source, "file": meta.file,
+             "reasons": [f.to_dict() for f in sorted(reasons, key=lambda f: f.sort_key())]}
+            for meta, reasons in sorted(quarantined, key=lambda q: (q[0].source.source, q[0].file))
+        ],
+    }
+
+
+@lru_cache(maxsize=1)
+def _library_validator():
+    from jsonschema import Draft202012Validator
+
+    schema = json.loads(schema_path("library.schema.json").read_text(encoding="utf-8"))
+    Draft202012Validator.check_schema(schema)
+    return Draft202012Validator(schema)
+
+
+def check_library(doc: dict) -> None:
+    """Raise OutputError naming the first field where ``doc`` breaks the library schema."""
+    errors = sorted(_library_validator().iter_errors(doc), key=lambda e: list(map(str, e.path)))
+    if errors:
+        e = errors[0]
+        path = "/".join(map(str, e.absolute_path)) or "(top level)"
+        raise OutputError(f"library.json would break schemas/library.schema.json at {path}: "
+                          f"{e.message} ({len(errors)} problem(s))")
+
+
+def json_bytes(doc) -> bytes:
+    return (json.dumps(doc, indent=1, ensure_ascii=False, allow_nan=False) + "\n").encode("utf-8")
+
+
+def parquet_bytes(doc: dict) -> bytes:
+    """library.parquet: one row per species and range; build metadata as key-value metadata."""
+    cols = {k: [] for k in ("id", "formula", "phase", "geometry", "molar_mass",
+                            "enthalpy_of_formation_298", "entropy_298", "form", "range_index",
+                            "t_min", "t_max", "a1", "a2", "a3", "a4", "a5", "a6", "a7",
+                            "data_t_min", "data_t_max", "cp_max_rel_dev", "cp_rms_rel_dev",
+                            "points", "sources", "findings")}
+    for sp in doc["species"]:
+        for j, r in enumerate(sp["ranges"]):
+            row = {"id": sp["id"], "formula": sp["formula"], "phase": sp["phase"],
+                   "geometry": sp["geometry"], "molar_mass": sp["molar_mass"],
+                   "enthalpy_of_formation_298": sp["enthalpy_of_formation_298"],
+                   "entropy_298": sp["entropy_298"], "form": sp["form"], "range_index": j,
+                   "t_min": r["t_min"], "t_max": r["t_max"],
+                   "data_t_min": sp["data_range"]["t_min"], "data_t_max": sp["data_range"]["t_max"],
+                   "cp_max_rel_dev": sp["quality"]["cp_max_rel_dev"],
+                   "cp_rms_rel_dev": sp["quality"]["cp_rms_rel_dev"],
+                   "points": sp["quality"]["points"],
+                   "sources": json.dumps(sp["sources"], ensure_ascii=False),
+                   "findings": json.dumps(sp["findings"], ensure_ascii=False)}
+            for k in range(7):
+                row[f"a{k + 1}"] = r["coefficients"][k]
+            for k, v in row.items():
+                cols[k].append(v)
+    types = {"range_index": pa.int32(), "points": pa.int32()}
+    arrays = {k: pa.array(v, type=types.get(k, pa.string() if k in (
+        "id", "formula", "phase", "geometry", "form", "sources", "findings") else pa.float64()))
+        for k, v in cols.items()}
+    meta = {k: json.dumps(doc[k], ensure_ascii=False) for k in (
+        "library_format", "notice", "gas_constant", "reference_temperature", "standard_pressure",
+        "units", "build")}
+    table = pa.table(arrays).replace_schema_metadata({f"thermoledger.{k}": v
+                                                      for k, v in meta.items()})
+    buf = io.BytesIO()
+    pq.write_table(table, buf, compression="zstd", write_statistics=True)
+    return buf.getvalue()
+
+
+def write_outputs(out_dir: Path, doc: dict, findings_doc: dict) -> list[Path]:
+    """Check and write library.json, library.parquet and findings.json into ``out_dir``."""
+    check_library(doc)
+    out_dir = Path(out_dir)
+    files = {"library.json": json_bytes(doc), "library.parquet": parquet_bytes(doc),
+             "findings.json": json_bytes(findings_doc)}
+    written = []
+    for name, data in files.items():
+        write_atomic(out_dir / name, data)
+        written.append(out_dir / name)
+    return written

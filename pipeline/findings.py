@@ -1,0 +1,152 @@
+"""The registry of findings codes (our own) and the Finding record.
+
+Every problem the pipeline reports is a Finding with a code from CODES. The
+code fixes the severity and a default one-line fix, so the CLI, the docs and
+the tests all read the same registry.
+
+Severities: ``error`` quarantines the table; ``warning`` travels with the
+species into the library; ``info`` records a decision (for example which
+source was preferred).
+"""
+
+from dataclasses import asdict, dataclass, field, replace
+
+ERROR, WARNING, INFO = "error", "warning", "info"
+SEVERITY_ORDER = {ERROR: 0, WARNING: 1, INFO: 2}
+
+
+@dataclass(frozen=True)
+class Code:
+    code: str
+    severity: str
+    summary: str
+    fix: str
+
+
+_CODES = [
+    # --- sources and files
+    Code("SRC-UNREADABLE", ERROR, "source.json cannot be read as JSON",
+         "save source.json as UTF-8 JSON"),
+    Code("SRC-SCHEMA", ERROR, "source.json does not match schemas/source.schema.json",
+         "correct the named field as the schema expects"),
+    Code("SRC-QUANTITY", ERROR, "a quantity in source.json has no unit or the wrong dimension",
+         "write the value with its unit, e.g. \"-393.51 kJ/mol\""),
+    Code("SRC-FORMULA", ERROR, "the formula cannot be parsed into elements",
+         "write a Hill-style formula such as CO2 or CH4"),
+    Code("SRC-PATH", ERROR, "a table path leaves its source folder or is a link",
+         "keep each table as a plain file inside its source folder"),
+    Code("SRC-DUPLICATE-ID", ERROR, "two source folders declare the same source id",
+         "give every source a unique id"),
+    Code("TAB-MISSING", ERROR, "a table listed in source.json does not exist",
+         "add the file or remove its entry"),
+    Code("TAB-UNLISTED", WARNING, "a CSV file in a source folder is not listed in source.json",
+         "list it under tables or move it out of raw/"),
+    Code("TAB-ENCODING", ERROR, "the table is not valid UTF-8 text",
+         "save the table as UTF-8"),
+    Code("TAB-SYNTAX", ERROR, "the file cannot be split into CSV rows",
+         "save the table as plain comma-separated text"),
+    Code("SRC-NO-METADATA", WARNING, "a folder under raw/ has no source.json; skipped",
+         "add source.json or move the folder out of raw/"),
+    Code("TAB-EMPTY", ERROR, "the table has no header or no data rows",
+         "add the header row and the data rows"),
+    # --- header and cells
+    Code("COL-NO-UNIT", ERROR, "a column name has no [unit]",
+         "write the unit in brackets, e.g. 'Cp [J/(mol*K)]'"),
+    Code("COL-UNKNOWN", WARNING, "a column name is not one of T, Cp, H-H298, S, u(Cp); ignored",
+         "rename the column or remove it"),
+    Code("COL-REPEATED", ERROR, "a column appears twice", "keep one column of each quantity"),
+    Code("COL-REQUIRED", ERROR, "a required column (T or Cp) is missing",
+         "add the column with its unit"),
+    Code("UNIT-UNKNOWN", ERROR, "a unit cannot be read", "use a unit such as K, degC, J/(mol*K)"),
+    Code("UNIT-DIMENSION", ERROR, "a unit has the wrong dimension for its column",
+         "use a unit of the expected dimension"),
+    Code("ROW-WIDTH", ERROR, "a row has a different number of cells than the header",
+         "give every row one cell per column"),
+    Code("CELL-NOT-NUMBER", ERROR, "a cell is not a finite decimal number",
+         "write a plain finite number"),
+    Code("CELL-EMPTY", ERROR, "a required cell is empty", "fill in the value or remove the row"),
+    Code("UCP-PARTIAL", ERROR, "u(Cp) is given for some rows but not all",
+         "give u(Cp) on every row or on none"),
+    # --- structure of the clean table
+    Code("T-NOT-POSITIVE", ERROR, "a temperature is not above 0 K",
+         "check the temperature unit and value"),
+    Code("CP-NOT-POSITIVE", ERROR, "a heat capacity is not above zero",
+         "check the sign and the value"),
+    Code("UCP-NOT-POSITIVE", ERROR, "an uncertainty u(Cp) is not above zero",
+         "give a positive standard uncertainty"),
+    Code("T-DUPLICATE", ERROR, "the same temperature appears twice",
+         "remove or merge the repeated row"),
+    Code("TOO-FEW-POINTS", ERROR, "fewer points than the fit needs",
+         "add data points"),
+    Code("ANCHOR-OUT-OF-REACH", ERROR, "the data start too far above 298.15 K to anchor H and S",
+         "add data down to 298.15 K"),
+    Code("RANGE-EXTENDED", WARNING, "the fitted range was extended past the data to reach 298.15 K",
+         "add data down to 298.15 K"),
+    # --- selection and fit
+    Code("SEL-SUPERSEDED", INFO, "a table was not fitted because a higher-priority source has the species",
+         "none needed; raise the priority to prefer this source"),
+    Code("SEL-TIE", WARNING, "two sources of equal priority have the species; the first by id was used",
+         "give the sources different priorities"),
+    Code("FIT-FAILED", ERROR, "the fit could not be carried out", "see the message"),
+]
+
+CODES: dict[str, Code] = {c.code: c for c in _CODES}
+
+
+@dataclass(frozen=True)
+class Finding:
+    """One reported problem or decision.
+
+    ``line`` is the line number in the file (the header is line 1); ``column``
+    is a CSV column name or a source.json field path.
+    """
+
+    code: str
+    severity: str
+    message: str
+    source: str = ""
+    file: str = ""
+    line: int | None = None
+    column: str = ""
+    seen: str = ""
+    expected: str = ""
+    fix: str = ""
+    extra: dict = field(default_factory=dict, compare=False)
+
+    def sort_key(self):
+        return (self.source, self.file, self.line if self.line is not None else -1,
+                SEVERITY_ORDER[self.severity], self.code, self.column, self.message)
+
+    def to_dict(self) -> dict:
+        d = asdict(self)
+        d.pop("extra")
+        return d
+
+    def located(self, **fields) -> "Finding":
+        return replace(self, **fields)
+
+
+def finding(code: str, message: str, **fields) -> Finding:
+    """Build a Finding whose severity and default fix come from the registry."""
+    entry = CODES[code]  # KeyError here is a programming error: unknown code
+    fields.setdefault("fix", entry.fix)
+    return Finding(code=code, severity=entry.severity, message=message, **fields)
+
+
+def has_error(items) -> bool:
+    return any(f.severity == ERROR for f in items)
+
+
+def format_finding(f: Finding) -> str:
+    """One readable line: where, code, message, seen/expected, fix."""
+    where = f.file or f.source
+    if f.line is not None:
+        where += f":{f.line}"
+    if f.column:
+        where += f" [{f.column}]"
+    text = f"{f.severity.upper():7s} {f.code:20s} {where}: {f.message}"
+    if f.seen or f.expected:
+        text += f" (seen {f.seen or '-'}; expected {f.expected or '-'})"
+    if f.fix:
+        text += f" -> fix: {f.fix}"
+    return text

@@ -1,0 +1,230 @@
+"""Ingest stage: discover raw sources, read source.json and the CSV tables.
+
+``ingest(raw_dir)`` -> IngestResult: every table that could be read (in SI
+units, with provenance), every input file with its hash, and a finding for
+each problem. Nothing under raw/ is ever written; paths are confined to it.
+"""
+
+import hashlib
+import json
+import math
+from dataclasses import dataclass
+from functools import lru_cache
+from pathlib import Path
+
+from . import chemistry, constants, csvtable, units
+from .errors import InputError
+from .findings import Finding, finding
+from .paths import schema_path
+from .records import InputFile, SourceMeta, Table, TableMeta
+
+
+@dataclass(frozen=True)
+class IngestResult:
+    tables: tuple          # of Table (possibly with error findings against them)
+    findings: tuple        # of Finding
+    inputs: tuple          # of InputFile, sorted by path
+
+
+def sha256(data: bytes) -> str:
+    return hashlib.sha256(data).hexdigest()
+
+
+@lru_cache(maxsize=1)
+def _source_validator():
+    from jsonschema import Draft202012Validator
+
+    schema = json.loads(schema_path("source.schema.json").read_text(encoding="utf-8"))
+    Draft202012Validator.check_schema(schema)
+    return Draft202012Validator(schema)
+
+
+def discover(raw_dir: Path) -> tuple[list[Path], list[Finding]]:
+    """Source folders under ``raw_dir`` (sorted), skipping links and folders without source.json."""
+    raw_dir = Path(raw_dir)
+    folders, problems = [], []
+    for entry in sorted(raw_dir.iterdir(), key=lambda p: p.name):
+        if entry.name.startswith((".", "_")) or not (entry.is_dir() or entry.is_symlink()):
+            continue
+        rel = entry.name
+        if entry.is_symlink():
+            problems.append(finding("SRC-PATH", "source folder is a symbolic link; not followed",
+                                    file=rel))
+            continue
+        if not (entry / "source.json").is_file():
+            problems.append(finding("SRC-NO-METADATA", "no source.json in this folder", file=rel))
+            continue
+        folders.append(entry)
+    return folders, problems
+
+
+def parse_source(text: str, *, file: str, folder: str, digest: str):
+    """Parse source.json text -> (SourceMeta or None, table entries, findings)."""
+    try:
+        doc = json.loads(text)
+    except json.JSONDecodeError as exc:
+        return None, [], [finding("SRC-UNREADABLE", f"not valid JSON: {exc.msg}", file=file,
+                                  line=exc.lineno, expected="a JSON object")]
+    errors = sorted(_source_validator().iter_errors(doc), key=lambda e: list(map(str, e.path)))
+    if errors:
+        return None, [], [finding("SRC-SCHEMA", _schema_message(e), file=file,
+                                  column="/".join(map(str, e.absolute_path)) or "(top level)",
+                                  seen=_clip(repr(e.instance)), expected=_expected(e))
+                          for e in errors]
+    try:
+        pressure = units.parse_quantity(doc["standard_pressure"], "pressure")
+    except InputError as exc:
+        return None, [], [finding("SRC-QUANTITY", exc.what, file=file, column="standard_pressure",
+                                  seen=doc["standard_pressure"], expected="'1 bar' or '1 atm'")]
+    meta = SourceMeta(source=doc["source"], folder=folder, title=doc["title"],
+                      citation=doc["citation"], method=doc["method"], license=doc["license"],
+                      priority=int(doc["priority"]), standard_pressure=pressure, sha256=digest)
+    return meta, doc["tables"], []
+
+
+def _schema_message(error) -> str:
+    path = "/".join(map(str, error.absolute_path)) or "the top level"
+    return f"field {path}: {error.message}"
+
+
+def _expected(error) -> str:
+    if error.validator == "enum":
+        return "one of " + ", ".join(map(str, error.validator_value))
+    if error.validator in ("type", "pattern", "minimum", "maximum", "minLength", "const"):
+        return f"{error.validator} {error.validator_value}"
+    if error.validator == "required":
+        return "fields " + ", ".join(error.validator_value)
+    if error.validator == "additionalProperties":
+        return "only the fields listed in schemas/source.schema.json"
+    return error.validator
+
+
+def _clip(text: str, n: int = 60) -> str:
+    return text if len(text) <= n else text[: n - 1] + "…"
+
+
+def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, index: int = 0):
+    """Read one table listed in source.json -> (Table or None, InputFile or None, findings)."""
+    rel = f"{source.folder}/{entry['file']}"
+    where = dict(source=source.source, file=rel)
+    path = folder / entry["file"]
+    problems: list[Finding] = []
+    if path.is_symlink() or not _inside(path, raw_dir):
+        return None, None, [finding("SRC-PATH", "table is a link or lies outside raw/; not read",
+                                    **where)]
+    if not path.is_file():
+        return None, None, [finding("TAB-MISSING", f"listed table {entry['file']} does not exist",
+                                    source=source.source, file=f"{source.folder}/source.json",
+                                    column=f"tables/{index}/file", seen=entry["file"])]
+    raw = path.read_bytes()
+    digest = sha256(raw)
+    infile = InputFile(path=rel, sha256=digest, size=len(raw))
+    comp = None
+    try:
+        comp = chemistry.composition(entry["formula"])
+    except InputError as exc:
+        problems.append(finding("SRC-FORMULA", exc.what, source=source.source,
+                                file=f"{source.folder}/source.json",
+                                column=f"tables/{index}/formula", extra={"table": rel},
+                                seen=entry["formula"], expected=exc.expected))
+    anchors = {}
+    for key, kind in (("enthalpy_of_formation_298", "enthalpy"), ("entropy_298", "heat_capacity")):
+        try:
+            anchors[key] = units.parse_quantity(entry[key], kind)
+        except InputError as exc:
+            anchors[key] = None
+            problems.append(finding("SRC-QUANTITY", exc.what, source=source.source,
+                                    file=f"{source.folder}/source.json",
+                                    column=f"tables/{index}/{key}", extra={"table": rel},
+                                    seen=entry[key], expected=exc.expected))
+    notes = []
+    s298 = anchors["entropy_298"]
+    gas_at_other_pressure = (entry["phase"] == "g"
+                             and source.standard_pressure != constants.STANDARD_PRESSURE)
+    if s298 is not None and gas_at_other_pressure:
+        shift = constants.GAS_CONSTANT * math.log(source.standard_pressure
+                                                  / constants.STANDARD_PRESSURE)
+        s298 += shift
+        notes.append(f"entropy_298 moved from {source.standard_pressure:g} Pa to 1 bar: "
+                     f"{shift:+.4f} J/(mol*K)")
+    text, enc = csvtable.decode(raw, rel)
+    problems += [f.located(source=source.source) for f in enc]
+    molar_mass = comp.molar_mass if comp else None
+    if text is None:
+        parsed = None
+    else:
+        parsed = csvtable.parse_table(text, file=rel, molar_mass=molar_mass,
+                                      standard_pressure=source.standard_pressure,
+                                      phase=entry["phase"])
+        problems += [f.located(source=source.source) for f in parsed.findings]
+    meta = TableMeta(source=source, file=rel, species=entry["species"], formula=entry["formula"],
+                     phase=entry["phase"], geometry=entry.get("geometry"),
+                     molar_mass=molar_mass, atoms=comp.atoms if comp else None,
+                     enthalpy_of_formation_298=anchors["enthalpy_of_formation_298"],
+                     entropy_298=s298, sha256=digest, size=len(raw),
+                     columns=parsed.columns if parsed else (),
+                     notes=tuple(notes) + (parsed.notes if parsed else ()))
+    data = parsed.data if parsed else csvtable.empty_frame()
+    return Table(meta=meta, data=data), infile, problems
+
+
+def _inside(path: Path, root: Path) -> bool:
+    try:
+        path.resolve().relative_to(Path(root).resolve())
+        return True
+    except ValueError:
+        return False
+
+
+def ingest(raw_dir) -> IngestResult:
+    """Read every source under ``raw_dir``; never raises on bad input, never writes."""
+    raw_dir = Path(raw_dir)
+    if not raw_dir.is_dir():
+        raise InputError(f"raw folder {raw_dir} does not exist", expected="a folder of sources")
+    folders, findings = discover(raw_dir)
+    tables, inputs, seen_ids = [], [], {}
+    for folder in folders:
+        meta_path = folder / "source.json"
+        rel = f"{folder.name}/source.json"
+        raw = meta_path.read_bytes()
+        inputs.append(InputFile(path=rel, sha256=sha256(raw), size=len(raw)))
+        try:
+            text = raw.decode("utf-8-sig")
+        except UnicodeDecodeError:
+            findings.append(finding("SRC-UNREADABLE", "source.json is not UTF-8", file=rel))
+            continue
+        source, entries, problems = parse_source(text, file=rel, folder=folder.name,
+                                                 digest=sha256(raw))
+        findings += problems
+        if source is None:
+            continue
+        if source.source in seen_ids:
+            findings.append(finding("SRC-DUPLICATE-ID", f"source id '{source.source}' is also "
+                                    f"declared in {seen_ids[source.source]}", file=rel,
+                                    column="source", seen=source.source))
+            continue
+        seen_ids[source.source] = rel
+        listed = set()
+        for index, entry in enumerate(entries):
+            listed.add(entry["file"])
+            table, infile, problems = read_table(folder, entry, source, raw_dir, index)
+            findings += problems
+            if infile:
+                inputs.append(infile)
+            if table is not None:
+                tables.append(table)
+        for csv_path in sorted(folder.glob("*.csv")):
+            if csv_path.name not in listed:
+                findings.append(finding("TAB-UNLISTED", f"{csv_path.name} is not listed in "
+                                        "source.json; not read", source=source.source,
+                                        file=f"{folder.name}/{csv_path.name}"))
+    inputs.sort(key=lambda f: f.path)
+    return IngestResult(tables=tuple(tables), findings=tuple(findings), inputs=tuple(inputs))
+
+
+def inputs_digest(inputs) -> str:
+    """One sha256 over all input paths and hashes (order-independent, path-sorted)."""
+    h = hashlib.sha256()
+    for f in sorted(inputs, key=lambda f: f.path):
+        h.update(f"{f.path}\0{f.sha256}\n".encode())
+    return h.hexdigest()

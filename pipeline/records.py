@@ -1,0 +1,98 @@
+"""Frozen records passed between stages.
+
+Table data travel as a pandas DataFrame with these columns (SI units):
+
+==========  ==============  =================================================
+column      unit            meaning
+==========  ==============  =================================================
+line        -               line number in the raw CSV (the header is line 1)
+T           [K]             temperature
+Cp          [J/(mol K)]     isobaric heat capacity
+u_Cp        [J/(mol K)]     standard uncertainty of Cp (NaN when not given)
+dH          [J/mol]         H(T) - H(298.15 K) (NaN when not given)
+S           [J/(mol K)]     entropy at the standard pressure, 1 bar (NaN when not given)
+==========  ==============  =================================================
+"""
+
+from dataclasses import dataclass, field
+
+import pandas as pd
+
+DATA_COLUMNS = ("line", "T", "Cp", "u_Cp", "dH", "S")
+
+
+@dataclass(frozen=True)
+class SourceMeta:
+    source: str            # source id
+    folder: str            # folder name under raw/
+    title: str
+    citation: str
+    method: str
+    license: str
+    priority: int
+    standard_pressure: float  # [Pa] of the source's tabulated entropies
+    sha256: str            # of source.json
+
+
+@dataclass(frozen=True)
+class TableMeta:
+    source: SourceMeta
+    file: str              # path relative to raw/, with '/' separators
+    species: str
+    formula: str
+    phase: str             # g, l or cr
+    geometry: str | None   # monatomic, linear, nonlinear (ideal gases)
+    molar_mass: float | None  # [g/mol]
+    atoms: int | None
+    enthalpy_of_formation_298: float | None  # [J/mol]
+    entropy_298: float | None  # [J/(mol K)] at 1 bar
+    sha256: str            # of the raw CSV bytes
+    size: int              # [bytes]
+    columns: tuple = ()    # raw header cells as written
+    notes: tuple = ()      # conversions and assumptions made while reading
+
+    @property
+    def species_id(self) -> str:
+        return f"{self.species}({self.phase})"
+
+
+@dataclass(frozen=True)
+class Table:
+    meta: TableMeta
+    data: pd.DataFrame = field(compare=False)
+
+
+@dataclass(frozen=True)
+class InputFile:
+    path: str    # relative to raw/
+    sha256: str
+    size: int    # [bytes]
+
+
+@dataclass(frozen=True)
+class FitRange:
+    t_min: float           # [K]
+    t_max: float           # [K]
+    coefficients: tuple    # published kelvin form, see forms.py
+
+
+@dataclass(frozen=True)
+class FitResult:
+    form: str
+    ranges: tuple          # of FitRange, ascending in T
+    data_t_min: float      # [K]
+    data_t_max: float      # [K]
+    points: int
+    cp_max_rel_dev: float
+    cp_rms_rel_dev: float
+    worst_t: float         # [K] where |relative Cp deviation| is largest
+    weighting: str         # "u(Cp)" or "relative"
+    settings: dict = field(default_factory=dict, compare=False)
+
+
+@dataclass(frozen=True)
+class FittedSpecies:
+    table: Table
+    fit: FitResult
+    findings: tuple = ()           # warnings and infos that travel with the species
+    alternatives: tuple = ()       # TableMeta of tables of the same species not used

@@ -1,0 +1,121 @@
+"""Unit parsing and conversion to SI at the edges of the pipeline (wraps pint).
+
+Internal units: K, J/mol, J/(mol K), Pa. Temperatures are converted affinely
+(degC, degF are offsets, degR a factor), never by a factor alone. A bare
+``cal`` is pint's thermochemical calorie (4.184 J exactly); the IT calorie is
+written ``cal_it``. Mass-based quantities (per g, per kg) become molar ones by
+multiplying with the molar mass [g/mol] computed from the formula.
+
+References
+----------
+pint documentation, default unit definitions (``default_en.txt``): calorie =
+4.184 J (thermochemical), international_calorie = 4.1868 J.
+"""
+
+from functools import lru_cache
+
+import numpy as np
+
+from .errors import UnitError
+
+#: column kind -> (molar dimensionality, mass-based dimensionality or None, SI unit)
+KINDS = {
+    "temperature": ("[temperature]", None, "K"),
+    "heat_capacity": ("[energy]/[substance]/[temperature]", "[energy]/[mass]/[temperature]",
+                      "J/(mol*K)"),
+    "enthalpy": ("[energy]/[substance]", "[energy]/[mass]", "J/mol"),
+    "pressure": ("[pressure]", None, "Pa"),
+}
+
+
+@lru_cache(maxsize=1)
+def registry():
+    """The one pint registry of the process (building it takes a few tenths of a second)."""
+    import pint
+
+    return pint.UnitRegistry()
+
+
+@lru_cache(maxsize=512)
+def _parse_unit(text: str):
+    ureg = registry()
+    try:
+        unit = ureg.parse_units(text.replace("°", "deg"))
+    except Exception as exc:  # pint raises many types for malformed text
+        raise UnitError(f"unit '{text}' cannot be read ({type(exc).__name__})",
+                        expected="a unit such as K, degC, J/(mol*K), cal/(mol*K), kJ/mol") from None
+    return unit
+
+
+def _dimension_of(unit, kind: str, text: str) -> str:
+    """Return 'molar' or 'mass' for ``unit`` in a column of ``kind``; raise otherwise."""
+    molar, mass, _ = KINDS[kind]
+    q = registry().Quantity(1.0, unit)
+    if q.check(molar):
+        return "molar"
+    if mass is not None and q.check(mass):
+        return "mass"
+    expected = molar if mass is None else f"{molar} or {mass}"
+    raise UnitError(f"unit '{text}' has dimension {q.dimensionality}, not that of {kind}",
+                    expected=expected)
+
+
+def check_unit(text: str, kind: str) -> str:
+    """Raise UnitError unless ``text`` is a unit for ``kind``; return 'molar' or 'mass'."""
+    return _dimension_of(_parse_unit(text), kind, text)
+
+
+def to_si(values, unit_text: str, kind: str, molar_mass: float | None = None) -> np.ndarray:
+    """Convert ``values`` given in ``unit_text`` to the SI unit of ``kind``.
+
+    Parameters
+    ----------
+    values : array-like of float, in [unit_text]
+    unit_text : str, a unit understood by pint (offset temperatures allowed)
+    kind : one of KINDS
+    molar_mass : float [g/mol], needed when the unit is mass-based
+
+    Returns
+    -------
+    numpy.ndarray of float, in [K], [J/mol], [J/(mol K)] or [Pa] by ``kind``.
+    """
+    unit = _parse_unit(unit_text)
+    basis = _dimension_of(unit, kind, unit_text)
+    ureg = registry()
+    arr = np.asarray(values, dtype=float)
+    target = KINDS[kind][2]
+    if basis == "mass":
+        if molar_mass is None:
+            raise UnitError(f"unit '{unit_text}' is per mass but no molar mass is known")
+        per_gram = ureg.Quantity(arr, unit).to(target.replace("mol", "g")).magnitude
+        return np.asarray(per_gram * molar_mass, dtype=float)
+    return np.asarray(ureg.Quantity(arr, unit).to(target).magnitude, dtype=float)
+
+
+def parse_quantity(text: str, kind: str) -> float:
+    """Parse a quantity string such as '-393.51 kJ/mol' to a float in the SI unit of ``kind``.
+
+    A bare number (no unit) is an error: units are never guessed.
+    """
+    if not isinstance(text, str) or not text.strip():
+        raise UnitError(f"quantity {text!r} is not a string with a unit",
+                        expected="a number followed by a unit")
+    parts = text.strip().split(None, 1)
+    try:
+        number = float(parts[0])
+    except ValueError:
+        raise UnitError(f"quantity '{text}' does not start with a number",
+                        expected="a number followed by a unit") from None
+    if not np.isfinite(number):
+        raise UnitError(f"quantity '{text}' is not finite", expected="a finite number")
+    if len(parts) < 2:
+        raise UnitError(f"quantity '{text}' has no unit",
+                        expected="a number followed by a unit, e.g. '-393.51 kJ/mol'")
+    return float(to_si([number], parts[1], kind)[0])
+
+
+def names_bare_calorie(unit_text: str) -> bool:
+    """True when the unit uses a bare 'cal' (read as the thermochemical calorie)."""
+    import re
+
+    return re.search(r"(?<![A-Za-z_])k?cal(?![A-Za-z_])", unit_text) is not None

@@ -1,0 +1,144 @@
+"""Regenerate the demo sources in raw/ (run from the project root: python raw/make_demo.py).
+
+Scenario (our own, invented for the demo): the gas-handling loop of a Mars
+in-situ resource utilisation test stand — CO2 intake, electrolysis to CO and O2,
+a Sabatier branch to CH4, buffer gases N2 and Ar, and trace NO, N2O, SO2 and NH3
+monitored by the analysers. Two sources feed its property library:
+
+* ``isru-rrho-2026`` — COMPUTED: ideal-gas heat capacities in the rigid-rotor /
+  harmonic-oscillator model (pipeline.statmech) from vibrational wavenumbers
+  and low electronic levels. Wavenumbers are recalled from memory of
+  T. Shimanouchi, Tables of Molecular Vibrational Frequencies Consolidated
+  Vol. I, NSRDS-NBS 39 (1972), and K. P. Huber & G. Herzberg, Constants of
+  Diatomic Molecules (1979); they are demo inputs, not check values.
+* ``isru-benchlog-2026`` — SYNTHETIC: the same model with seeded Gaussian noise
+  of 0.15 % added, written in the unit conventions of an imagined bench log
+  (degC with cal/(mol*K); K with J/(g*K); degF with kJ/(kmol*K)) and entropies
+  at 1 atm. It contains one deliberately defective table (nh3.csv: a cell
+  'n/a'), which the build quarantines.
+
+Enthalpies of formation and entropies at 298.15 K are recalled from memory of
+the CODATA Key Values (Cox, Wagman & Medvedev, 1989) and the NIST-JANAF tables
+(Chase, 1998); demo metadata only.
+"""
+
+import json
+import sys
+from pathlib import Path
+
+import numpy as np
+
+ROOT = Path(__file__).resolve().parent
+sys.path.insert(0, str(ROOT.parent))
+
+from pipeline.constants import ENTROPY_ATM_TO_BAR, GAS_CONSTANT  # noqa: E402
+from pipeline.statmech import rrho_cp_over_r  # noqa: E402
+
+# name: formula, geometry, wavenumbers [1/cm], degeneracies, levels [(g, 1/cm)],
+#       dfH298 [kJ/mol], S298 at 1 bar [J/(mol K)]  -- all from memory, demo only
+SPECIES = {
+    "Ar": ("Ar", "monatomic", [], [], [], 0.0, 154.846),
+    "N2": ("N2", "linear", [2358.57], [1], [], 0.0, 191.609),
+    "O2": ("O2", "linear", [1580.19], [1], [(3, 0.0), (2, 7918.1), (1, 13195.1)], 0.0, 205.152),
+    "CO": ("CO", "linear", [2169.81], [1], [], -110.53, 197.660),
+    "NO": ("NO", "linear", [1904.2], [1], [(2, 0.0), (2, 121.1)], 90.29, 210.758),
+    "CO2": ("CO2", "linear", [1333.0, 667.0, 2349.0], [1, 2, 1], [], -393.51, 213.785),
+    "CH4": ("CH4", "nonlinear", [2917.0, 1534.0, 3019.0, 1306.0], [1, 2, 3, 3], [], -74.87, 186.25),
+    "N2O": ("N2O", "linear", [1285.0, 589.0, 2224.0], [1, 2, 1], [], 82.05, 219.957),
+    "SO2": ("SO2", "nonlinear", [1151.0, 518.0, 1362.0], [1, 1, 1], [], -296.81, 248.223),
+    "NH3": ("NH3", "nonlinear", [3337.0, 950.0, 3444.0, 1627.0], [1, 1, 2, 2], [], -45.94, 192.77),
+}
+
+GRID = np.array([200.0, 250.0, 298.15, 300.0, 350.0] + list(np.arange(400.0, 3001.0, 100.0)))
+
+
+def cp_molar(name, t):
+    formula, geometry, nu, g, levels, _, _ = SPECIES[name]
+    return GAS_CONSTANT * rrho_cp_over_r(t, geometry, nu, g or None, levels)
+
+
+def write_csv(path: Path, header, rows):
+    lines = [",".join(header)] + [",".join(r) for r in rows]
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8", newline="\n")
+
+
+def entry(name, file, *, atm=False, notes=None):
+    formula, geometry, _, _, _, h, s = SPECIES[name]
+    if atm:
+        s -= ENTROPY_ATM_TO_BAR
+    out = {"file": file, "species": name, "formula": formula, "phase": "g", "geometry": geometry,
+           "enthalpy_of_formation_298": f"{h:.2f} kJ/mol",
+           "entropy_298": f"{s:.3f} J/(mol*K)"}
+    if notes:
+        out["notes"] = notes
+    return out
+
+
+def computed_source(folder: Path):
+    folder.mkdir(exist_ok=True)
+    tables = []
+    for name in ("Ar", "N2", "O2", "CO", "NO", "CO2", "CH4"):
+        cp = cp_molar(name, GRID)
+        file = f"{name.lower()}.csv"
+        if name == "CO2":  # this table states a standard uncertainty of 0.1 %
+            rows = [[f"{t:g}", f"{c:.4f}", f"{1e-3 * c:.4f}"] for t, c in zip(GRID, cp)]
+            write_csv(folder / file, ["T [K]", "Cp [J/(mol*K)]", "u(Cp) [J/(mol*K)]"], rows)
+        else:
+            rows = [[f"{t:g}", f"{c:.4f}"] for t, c in zip(GRID, cp)]
+            write_csv(folder / file, ["T [K]", "Cp [J/(mol*K)]"], rows)
+        tables.append(entry(name, file))
+    meta = {
+        "source": "isru-rrho-2026",
+        "title": "Rigid-rotor/harmonic-oscillator heat capacities for the ISRU demo loop",
+        "citation": "Computed with thermoledger raw/make_demo.py (pipeline.statmech); "
+                    "wavenumbers from memory of Shimanouchi, NSRDS-NBS 39 (1972) and "
+                    "Huber & Herzberg (1979)",
+        "method": "statistical-mechanics",
+        "standard_pressure": "1 bar",
+        "priority": 20,
+        "license": "CC0-1.0",
+        "notes": "COMPUTED demo data, not measurements; see raw/make_demo.py.",
+        "tables": tables,
+    }
+    (folder / "source.json").write_text(json.dumps(meta, indent=2) + "\n", encoding="utf-8")
+
+
+def synthetic_source(folder: Path):
+    folder.mkdir(exist_ok=True)
+    rng = np.random.default_rng(20260301)
+    noisy = {n: cp_molar(n, GRID) * (1 + 0.0015 * rng.standard_normal(len(GRID)))
+             for n in ("N2O", "SO2", "CO2", "NH3")}
+    cal = 4.184
+    rows = [[f"{t - 273.15:.2f}", f"{c / cal:.5f}"] for t, c in zip(GRID, noisy["N2O"])]
+    write_csv(folder / "n2o.csv", ["T [degC]", "Cp [cal/(mol*K)]"], rows)
+    m_so2 = 64.064  # g/mol, only to write the per-gram column; the pipeline recomputes it
+    rows = [[f"{t:g}", f"{c / m_so2:.6f}"] for t, c in zip(GRID, noisy["SO2"])]
+    write_csv(folder / "so2.csv", ["T [K]", "Cp [J/(g*K)]"], rows)
+    rows = [[f"{(t - 273.15) * 1.8 + 32:.3f}", f"{c:.3f}"] for t, c in zip(GRID, noisy["CO2"])]
+    write_csv(folder / "co2-benchlog.csv", ["T [degF]", "Cp [kJ/(kmol*K)]"], rows)
+    rows = [[f"{t:g}", f"{c:.4f}"] for t, c in zip(GRID, noisy["NH3"])]
+    rows[7][1] = "n/a"  # the deliberate defect: a missing value typed as text
+    write_csv(folder / "nh3.csv", ["T [K]", "Cp [J/(mol*K)]"], rows)
+    meta = {
+        "source": "isru-benchlog-2026",
+        "title": "Bench-log heat capacities of trace gases (synthetic)",
+        "citation": "Synthetic demo data generated by thermoledger raw/make_demo.py",
+        "method": "compilation",
+        "standard_pressure": "1 atm",
+        "priority": 10,
+        "license": "CC0-1.0",
+        "notes": "SYNTHETIC demo data: rigid-rotor/harmonic-oscillator values with seeded "
+                 "0.15 % Gaussian noise, in mixed units, entropies at 1 atm. nh3.csv is "
+                 "deliberately defective.",
+        "tables": [entry("N2O", "n2o.csv", atm=True), entry("SO2", "so2.csv", atm=True),
+                   entry("CO2", "co2-benchlog.csv", atm=True),
+                   entry("NH3", "nh3.csv", atm=True, notes="deliberately defective (line 9)")],
+    }
+    (folder / "source.json").write_text(json.dumps(meta, indent=2) + "\n", encoding="utf-8")
+
+
+if __name__ == "__main__":
+    computed_source(ROOT / "isru-rrho-2026")
+    synthetic_source(ROOT / "isru-benchlog-2026")
+    print(f"demo sources written under {ROOT}; S(1 bar) - S(1 atm) = "
+          f"{ENTROPY_ATM_TO_BAR:.4f} J/(mol*K)")

@@ -45,7 +45,8 @@ def _parser() -> argparse.ArgumentParser:
     return p
 
 
-def _print_findings(findings, *, show_info=False, out=sys.stdout):
+def _print_findings(findings, *, show_info=False, out=None):
+    out = out or sys.stdout
     by_file = {}
     for f in sorted(findings, key=lambda f: f.sort_key()):
         if f.severity == INFO and not show_info:
@@ -69,8 +70,10 @@ def cmd_build(args) -> int:
         q = sp["quality"]
         flag = "  extrapolated: " + ", ".join(f"{e['t_min']:g}-{e['t_max']:g} K"
                                                for e in sp["extrapolated"]) if sp["extrapolated"] else ""
-        print(f"  fitted      {sp['id']:14s} {sp['ranges'][0]['t_min']:7.2f}-"
-              f"{sp['ranges'][-1]['t_max']:<7g} K  max |dCp/Cp| {100 * q['cp_max_rel_dev']:.3f} %  "
+        span = f"{sp['ranges'][0]['t_min']:g}-{sp['ranges'][-1]['t_max']:g} K"
+        breaks = "/".join(f"{r['t_max']:g}" for r in sp["ranges"][:-1])
+        print(f"  fitted      {sp['id']:14s} {span:14s} break {breaks:>6s} K  "
+              f"max |dCp/Cp| {100 * q['cp_max_rel_dev']:.3f} %  "
               f"from {sp['sources'][0]['file']}{flag}")
     for entry in result.document["quarantined"]:
         first = entry["reasons"][0]
@@ -122,6 +125,9 @@ def main(argv=None) -> int:
     except ThermoledgerError as exc:
         print(f"thermoledger {args.command}: error: {exc}", file=sys.stderr)
         return 2
+    except BrokenPipeError:  # output piped into a pager or head that closed early
+        sys.stderr.close()
+        return 0
     except OSError as exc:
         print(f"thermoledger {args.command}: error: cannot read or write "
               f"{exc.filename or ''}: {exc.strerror or exc}", file=sys.stderr)

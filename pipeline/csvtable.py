@@ -116,6 +116,11 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
     findings: list[Finding] = []
     notes: list[str] = []
     empty = empty_frame()
+    if "\0" in text:
+        line = text[: text.index("\0")].count("\n") + 1
+        return ParsedTable(empty, (), (), (finding(
+            "TAB-SYNTAX", "the file contains NUL characters (a binary file?)", file=file,
+            line=line, expected="plain comma-separated text"),))
     try:
         rows = list(_rows(text))
     except csv.Error as exc:

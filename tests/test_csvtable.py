@@ -1,0 +1,128 @@
+"""Parsing of raw CSV tables: conversions, findings for bad cells, never a traceback."""
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from pipeline import constants, csvtable
+
+
+def parse(text, **kw):
+    return csvtable.parse_table(text, file="src/t.csv", **kw)
+
+
+def codes(parsed):
+    return [(f.code, f.line, f.column) for f in parsed.findings]
+
+
+def test_clean_table_in_si():
+    p = parse("T [K],Cp [J/(mol*K)],u(Cp) [J/(mol*K)]\n200,29.11,0.03\n298.15,29.12,0.03\n")
+    assert not p.findings
+    np.testing.assert_array_equal(p.data["line"], [2, 3])
+    np.testing.assert_allclose(p.data["T"], [200, 298.15])
+    np.testing.assert_allclose(p.data["u_Cp"], [0.03, 0.03])
+
+
+def test_calorie_and_celsius_columns_are_converted_with_notes():
+    p = parse("T [degC],Cp [cal/(mol*K)]\n25,7.0\n")
+    assert p.data["T"][0] == pytest.approx(298.15)
+    assert p.data["Cp"][0] == pytest.approx(7.0 * 4.184)
+    assert any("thermochemical calorie" in n for n in p.notes)
+
+
+def test_mass_based_cp_uses_molar_mass():
+    p = parse("T [K],Cp [J/(g*K)]\n300,1.0\n", molar_mass=44.0095)
+    assert p.data["Cp"][0] == pytest.approx(44.0095)
+    assert any("molar mass" in n for n in p.notes)
+
+
+def test_entropy_column_moved_from_atm_to_bar():
+    p = parse("T [K],Cp [J/(mol*K)],S [J/(mol*K)]\n300,29.0,191.5\n",
+              standard_pressure=constants.ATMOSPHERE)
+    assert p.data["S"][0] == pytest.approx(191.5 + constants.ENTROPY_ATM_TO_BAR, rel=1e-12)
+
+
+def test_non_numeric_cell_names_line_and_column():
+    p = parse("T [K],Cp [J/(mol*K)]\n200,29.1\n300,abc\n400,29.2\n")
+    assert codes(p) == [("CELL-NOT-NUMBER", 3, "Cp")]
+    assert "abc" in p.findings[0].message
+    assert list(p.data["line"]) == [2, 4]
+
+
+@pytest.mark.parametrize("cell", ["nan", "inf", "-inf", "1e400", "0x1A", "1_000", "29,1"])
+def test_non_finite_or_odd_numbers_are_rejected(cell):
+    p = parse(f'T [K],Cp [J/(mol*K)]\n200,"{cell}"\n')
+    assert [c for c, *_ in codes(p)] == ["CELL-NOT-NUMBER"]
+
+
+def test_missing_cp_column():
+    p = parse("T [K],H-H298 [kJ/mol]\n300,0.05\n")
+    assert ("COL-REQUIRED", 1, "Cp") in codes(p)
+    assert "expected" not in p.findings[0].message  # message is plain; expectation separate
+    assert p.findings[0].expected == "a column 'Cp [unit]'"
+
+
+def test_unknown_unit():
+    p = parse("T [K],Cp [J/(mol*Kelvinz)]\n300,29\n")
+    (f,) = p.findings
+    assert (f.code, f.line, f.column, f.seen) == ("UNIT-UNKNOWN", 1, "Cp", "J/(mol*Kelvinz)")
+
+
+def test_wrong_dimension():
+    p = parse("T [K],Cp [kJ/mol]\n300,29\n")
+    assert [f.code for f in p.findings] == ["UNIT-DIMENSION"]
+
+
+def test_column_without_unit_and_unknown_column():
+    p = parse("T,Cp [J/(mol*K)],Cv [J/(mol*K)]\n300,29,21\n")
+    assert ("COL-NO-UNIT", 1, "T") in codes(p)
+    assert ("COL-UNKNOWN", 1, "Cv") in codes(p)
+
+
+def test_row_width():
+    p = parse("T [K],Cp [J/(mol*K)]\n300,29,1\n400,30\n")
+    assert codes(p) == [("ROW-WIDTH", 2, "")]
+
+
+def test_partial_uncertainty_column():
+    p = parse("T [K],Cp [J/(mol*K)],u(Cp) [J/(mol*K)]\n300,29,0.1\n400,30,\n")
+    assert codes(p) == [("UCP-PARTIAL", 3, "u(Cp)")]
+
+
+@pytest.mark.parametrize("text, code", [("", "TAB-EMPTY"), ("T [K],Cp [J/(mol*K)]\n", "TAB-EMPTY"),
+                                        ("a\0b\n", "TAB-SYNTAX")])
+def test_empty_and_headers_only(text, code):
+    assert code in [c for c, *_ in codes(parse(text))]
+
+
+def test_bad_encoding_names_line():
+    text, found = csvtable.decode(b"T [K],Cp [J/(mol*K)]\n300,29\n\xff\xfe,1\n", "x.csv")
+    assert text is None
+    assert (found[0].code, found[0].line) == ("TAB-ENCODING", 3)
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.binary(max_size=300))
+def test_random_bytes_never_raise(raw):
+    text, found = csvtable.decode(raw, "x.csv")
+    if text is not None:
+        p = parse(text, molar_mass=30.0)
+        assert list(p.data.columns) == ["line", "T", "Cp", "u_Cp", "dH", "S"]
+
+
+cells = st.one_of(st.floats(allow_nan=True, allow_infinity=True).map(repr),
+                  st.text(alphabet="0123456789.eE+-, naif\"", max_size=8))
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.lists(cells, min_size=1, max_size=4), max_size=6),
+       st.sampled_from(["T [K],Cp [J/(mol*K)]", "T [degF],Cp [cal/(g*K)],u(Cp) [J/(g*K)]",
+                        "T [K],Cp [J/(mol*K)],S [J/(mol*K)],H-H298 [kJ/mol]"]))
+def test_random_cells_give_findings_not_tracebacks(rows, header):
+    text = header + "\n" + "\n".join(",".join(r) for r in rows)
+    p = parse(text, molar_mass=28.0)
+    n_cols = header.count(",") + 1
+    good_rows = sum(1 for r in rows if len(r) == n_cols)
+    assert len(p.data) <= max(good_rows, 0) + text.count("\n")
+    assert np.all(np.isfinite(p.data["T"]))  # only finite numbers get through

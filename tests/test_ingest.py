@@ -1,0 +1,130 @@
+"""Ingest of sources: schema errors, quantities, paths, provenance."""
+
+import json
+
+import pytest
+
+from pipeline import ingest
+from pipeline.constants import ENTROPY_ATM_TO_BAR
+
+from .conftest import table_entry, write_source
+
+ROWS = [[t, 29.1 + 0.001 * t] for t in range(200, 1300, 100)]
+HEADER = ["T [K]", "Cp [J/(mol*K)]"]
+
+
+def good_table(file="n2.csv", **kw):
+    return dict(table_entry(file, "N2", "N2", "linear", **kw), header=HEADER, rows=ROWS)
+
+
+def test_reads_tables_with_provenance(tmp_path):
+    write_source(tmp_path, "lab-a", [good_table()])
+    got = ingest.ingest(tmp_path)
+    assert not got.findings
+    (table,) = got.tables
+    assert table.meta.file == "lab-a/n2.csv"
+    raw = (tmp_path / "lab-a" / "n2.csv").read_bytes()
+    assert table.meta.sha256 == ingest.sha256(raw)
+    assert [f.path for f in got.inputs] == ["lab-a/n2.csv", "lab-a/source.json"]
+    assert table.meta.molar_mass == pytest.approx(28.0134, rel=1e-4)
+
+
+def test_entropy_metadata_at_one_atm_is_moved_to_one_bar(tmp_path):
+    write_source(tmp_path, "lab-a", [good_table(s="191.4996 J/(mol*K)")],
+                 standard_pressure="1 atm")
+    (table,) = ingest.ingest(tmp_path).tables
+    assert table.meta.entropy_298 == pytest.approx(191.4996 + ENTROPY_ATM_TO_BAR, rel=1e-12)
+
+
+@pytest.mark.parametrize("change, field", [
+    ({"phase": "gas"}, "tables/0/phase"),
+    ({"enthalpy_of_formation_298": -393.51}, "tables/0/enthalpy_of_formation_298"),
+    ({"file": "../escape.csv"}, "tables/0/file"),
+    ({"geometry": None}, "tables/0/geometry"),
+])
+def test_schema_errors_name_the_field(tmp_path, change, field):
+    t = good_table()
+    t.update(change)
+    if t.get("geometry") is None:
+        t.pop("geometry")
+        field = "tables/0"
+    if t["file"].startswith(".."):
+        (tmp_path / "lab-a").mkdir()
+        t["text"] = "x"
+        t["file"] = "n2.csv"
+        write_source(tmp_path, "lab-a", [t])
+        doc = json.loads((tmp_path / "lab-a" / "source.json").read_text())
+        doc["tables"][0]["file"] = "../escape.csv"
+        (tmp_path / "lab-a" / "source.json").write_text(json.dumps(doc))
+    else:
+        write_source(tmp_path, "lab-a", [t])
+    got = ingest.ingest(tmp_path)
+    assert got.tables == ()
+    (f,) = got.findings
+    assert (f.code, f.file, f.column) == ("SRC-SCHEMA", "lab-a/source.json", field)
+
+
+def test_bare_number_in_quantity_string_is_an_error(tmp_path):
+    write_source(tmp_path, "lab-a", [good_table(h="-393.51 ")])
+    got = ingest.ingest(tmp_path)
+    assert [f.code for f in got.findings] == ["SRC-SCHEMA"]
+
+
+def test_wrong_dimension_quantity(tmp_path):
+    write_source(tmp_path, "lab-a", [good_table(s="191.6 kJ/mol")])
+    got = ingest.ingest(tmp_path)
+    (f,) = got.findings
+    assert (f.code, f.column, f.extra["table"]) == ("SRC-QUANTITY", "tables/0/entropy_298",
+                                                    "lab-a/n2.csv")
+
+
+def test_bad_formula(tmp_path):
+    t = good_table()
+    t["formula"] = "Xq2"
+    write_source(tmp_path, "lab-a", [t])
+    (f,) = ingest.ingest(tmp_path).findings
+    assert (f.code, f.column, f.seen) == ("SRC-FORMULA", "tables/0/formula", "Xq2")
+
+
+def test_invalid_json(tmp_path):
+    (tmp_path / "lab-a").mkdir()
+    (tmp_path / "lab-a" / "source.json").write_text('{"source": "lab-a",\n  oops}')
+    (f,) = ingest.ingest(tmp_path).findings
+    assert (f.code, f.line) == ("SRC-UNREADABLE", 2)
+
+
+def test_missing_and_unlisted_tables(tmp_path):
+    folder = write_source(tmp_path, "lab-a", [good_table()])
+    (folder / "n2.csv").rename(folder / "other.csv")
+    codes = sorted(f.code for f in ingest.ingest(tmp_path).findings)
+    assert codes == ["TAB-MISSING", "TAB-UNLISTED"]
+
+
+def test_symlinked_table_is_not_followed(tmp_path):
+    outside = tmp_path / "outside.csv"
+    outside.write_text("T [K],Cp [J/(mol*K)]\n300,29\n")
+    raw = tmp_path / "raw"
+    folder = write_source(raw, "lab-a", [good_table()])
+    (folder / "n2.csv").unlink()
+    (folder / "n2.csv").symlink_to(outside)
+    got = ingest.ingest(raw)
+    assert [f.code for f in got.findings] == ["SRC-PATH"]
+    assert got.tables == ()
+
+
+def test_folder_without_metadata_and_duplicate_ids(tmp_path):
+    write_source(tmp_path, "lab-a", [good_table()])
+    write_source(tmp_path, "lab-b", [good_table()], extra={"source": "lab-a"})
+    (tmp_path / "loose").mkdir()
+    codes = sorted(f.code for f in ingest.ingest(tmp_path).findings)
+    assert codes == ["SRC-DUPLICATE-ID", "SRC-NO-METADATA"]
+
+
+def test_inputs_digest_depends_on_content_only(tmp_path):
+    write_source(tmp_path / "a", "lab-a", [good_table()])
+    write_source(tmp_path / "b", "lab-a", [good_table()])
+    d1 = ingest.inputs_digest(ingest.ingest(tmp_path / "a").inputs)
+    d2 = ingest.inputs_digest(ingest.ingest(tmp_path / "b").inputs)
+    assert d1 == d2
+    (tmp_path / "b" / "lab-a" / "n2.csv").write_text("T [K],Cp [J/(mol*K)]\n300,29\n")
+    assert ingest.inputs_digest(ingest.ingest(tmp_path / "b").inputs) != d1

@@ -1,0 +1,97 @@
+"""Unit conversion against exact definitions.
+
+Sources: thermochemical calorie = 4.184 J exactly and kelvin offsets (IUPAC Green Book,
+3rd ed. 2007, sec. 7.2 and 2.11); degree Fahrenheit and Rankine, T/K = (T/°F + 459.67)·5/9
+(NIST SP 811, 2008 edition, Appendix B.9); standard atmosphere 101 325 Pa exactly (same).
+IUPAC standard atomic weights (CIAAW 2021, abridged): H 1.0080, C 12.011, N 14.007,
+O 15.999 — values from memory.
+"""
+
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given
+from hypothesis import strategies as st
+
+from pipeline import chemistry, constants, units
+from pipeline.errors import UnitError
+
+
+def test_thermochemical_calorie_is_exact():
+    assert units.to_si([1.0], "cal/(mol*K)", "heat_capacity")[0] == pytest.approx(4.184, rel=1e-15)
+    assert units.to_si([1.0], "kcal/mol", "enthalpy")[0] == pytest.approx(4184.0, rel=1e-15)
+
+
+def test_international_calorie_only_when_named():
+    assert units.to_si([1.0], "cal_it/(mol*K)", "heat_capacity")[0] == pytest.approx(4.1868, rel=1e-15)
+
+
+def test_kelvin_offsets_are_affine():
+    got = units.to_si([-273.15, 0.0, 25.0, 100.0], "degC", "temperature")
+    np.testing.assert_allclose(got, [0.0, 273.15, 298.15, 373.15], atol=1e-12)
+    got = units.to_si([32.0, 212.0, -459.67], "degF", "temperature")
+    np.testing.assert_allclose(got, [273.15, 373.15, 0.0], atol=1e-9)
+    assert units.to_si([536.67], "degR", "temperature")[0] == pytest.approx(298.15, abs=1e-9)
+
+
+def test_heat_capacity_per_degree_is_per_kelvin_or_five_ninths():
+    # a heat capacity per degC is per kelvin; per degF is per (5/9) K
+    assert units.to_si([1.0], "J/(mol*degC)", "heat_capacity")[0] == pytest.approx(1.0)
+    assert units.to_si([1.0], "J/(mol*degF)", "heat_capacity")[0] == pytest.approx(1.8)
+
+
+def test_kj_per_kmol_equals_j_per_mol():
+    assert units.to_si([29.1], "kJ/(kmol*K)", "heat_capacity")[0] == pytest.approx(29.1, rel=1e-15)
+
+
+@pytest.mark.parametrize("formula, expected", [
+    ("N2", 2 * 14.007), ("CO2", 12.011 + 2 * 15.999), ("CH4", 12.011 + 4 * 1.0080),
+])
+def test_mass_based_cp_times_iupac_molar_mass(formula, expected):
+    m = chemistry.composition(formula).molar_mass
+    # abridged weights carry 5 significant digits: agree to 1e-4 relative
+    assert m == pytest.approx(expected, rel=1e-4)
+    assert units.to_si([1.0], "J/(g*K)", "heat_capacity", m)[0] == pytest.approx(m, rel=1e-14)
+    assert units.to_si([1.0], "kJ/(kg*K)", "heat_capacity", m)[0] == pytest.approx(m, rel=1e-14)
+
+
+def test_atm_to_bar_entropy_shift():
+    # S(1 bar) - S(1 atm) = R ln(1.01325) = 0.1094 J/(mol K) (IUPAC 1982 change of standard state)
+    assert constants.ENTROPY_ATM_TO_BAR == pytest.approx(8.314462618 * math.log(1.01325), rel=1e-9)
+    assert round(constants.ENTROPY_ATM_TO_BAR, 4) == 0.1094
+
+
+def test_gas_constant_is_k_times_na():
+    # CODATA 2018: R = 8.314 462 618... J/(mol K), exact since the SI redefinition
+    assert constants.GAS_CONSTANT == pytest.approx(8.314462618, rel=1e-10)
+
+
+@pytest.mark.parametrize("text", ["-393.51", "kJ/mol", "", "abc kJ/mol", "1 kJ", "nan kJ/mol",
+                                  "5 K"])
+def test_bad_quantities_are_errors(text):
+    with pytest.raises(UnitError):
+        units.parse_quantity(text, "enthalpy")
+
+
+@pytest.mark.parametrize("unit, kind", [("J/(mol*Kelvinz)", "heat_capacity"), ("K", "heat_capacity"),
+                                        ("J/mol", "temperature"), ("J/(mol", "enthalpy")])
+def test_bad_units_are_errors(unit, kind):
+    with pytest.raises(UnitError):
+        units.check_unit(unit, kind)
+
+
+@given(st.floats(min_value=-200, max_value=5000, allow_nan=False))
+def test_celsius_fahrenheit_round_trip(t_c):
+    t_f = t_c * 1.8 + 32.0
+    k1 = units.to_si([t_c], "degC", "temperature")[0]
+    k2 = units.to_si([t_f], "degF", "temperature")[0]
+    assert k1 == pytest.approx(k2, abs=1e-9)
+
+
+@given(st.text(max_size=20))
+def test_check_unit_never_raises_anything_but_unit_error(text):
+    try:
+        units.check_unit(text, "heat_capacity")
+    except UnitError:
+        pass

@@ -68,18 +68,17 @@ def main(argv=None) -> int:
         t0 = time.perf_counter()
         checked = build.check(raw)
         t_check = time.perf_counter() - t0
-        chosen, _, _ = build.select(checked.tables, checked.findings)
         fit_ms = []
-        for table, _, _ in chosen:
+        for sel in checked.selections:
             s = time.perf_counter()
-            build.fit_table(table, build.FitSettings())
+            build.fit_selection(sel, build.Settings())
             fit_ms.append(1000.0 * (time.perf_counter() - s))
         t0 = time.perf_counter()
         result = build.build(raw, out)
         t_build = time.perf_counter() - t0
     peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
     print(f"species: {args.species}, points per table: {args.points}")
-    print(f"ingest + validate: {t_check:.2f} s ({1000 * t_check / args.species:.2f} ms/species)")
+    print(f"ingest + validate + reconcile: {t_check:.2f} s ({1000 * t_check / args.species:.2f} ms/species)")
     print(f"fit per species: median {statistics.median(fit_ms):.3f} ms, "
           f"mean {statistics.mean(fit_ms):.3f} ms")
     print(f"whole build: {t_build:.2f} s, {len(result.fitted) / t_build:.1f} species/s "

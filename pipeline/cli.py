@@ -7,7 +7,8 @@ from pathlib import Path
 from . import __version__, build, export, library
 from .errors import ThermoledgerError
 from .findings import ERROR, INFO, WARNING, format_finding
-from .settings import FitSettings
+from .paths import write_atomic
+from .settings import FitSettings, Settings
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -26,14 +27,16 @@ def _parser() -> argparse.ArgumentParser:
     b.add_argument("--out", type=Path, default=Path("curated"), help="output folder (curated)")
     b.add_argument("--strict", action="store_true",
                    help="exit 1 if any table was quarantined (for maintainers' CI)")
-    b.add_argument("--breakpoint", type=float, default=FitSettings.breakpoint,
-                   help="conventional breakpoint [K] used when the data straddle it (1000)")
+    _fit_options(b)
 
     c = sub.add_parser("check", help="ingest and validate only; print the findings",
                        description="Read and validate raw/ without fitting or writing; exit 1 "
                                    "when any error is found.")
     c.add_argument("--raw", type=Path, default=Path("raw"), help="raw sources folder (raw)")
     c.add_argument("--all", action="store_true", help="also print info findings")
+    c.add_argument("--report", type=Path, metavar="FILE",
+                   help="also write the findings as JSON (schemas/findings.schema.json)")
+    _fit_options(c)
 
     q = sub.add_parser("props", help="evaluate Cp, H, S and G from a curated library",
                        description="Print Cp, H, S and G = H - TS of one species at the given "
@@ -43,6 +46,26 @@ def _parser() -> argparse.ArgumentParser:
     q.add_argument("temperatures", nargs="+", type=float, metavar="T",
                    help="temperatures [K]")
     return p
+
+
+def _fit_options(p):
+    p.add_argument("--breakpoint", type=float, default=FitSettings.breakpoint,
+                   help="conventional breakpoint [K] used when the data straddle it (1000)")
+    p.add_argument("--range-of-use", type=float, nargs=2, metavar=("TMIN", "TMAX"),
+                   help="range of use [K] of every species; beyond the data it is flagged "
+                        "as extrapolated")
+
+
+def _settings(args) -> Settings:
+    lo, hi = args.range_of_use if args.range_of_use else (None, None)
+    return Settings(fit=FitSettings(breakpoint=args.breakpoint, use_t_min=lo, use_t_max=hi))
+
+
+def _totals(findings):
+    n_err = sum(1 for f in findings if f.severity == ERROR)
+    n_warn = sum(1 for f in findings if f.severity == WARNING and f.counts)
+    n_ack = sum(1 for f in findings if not f.counts)
+    return n_err, n_warn, n_ack
 
 
 def _print_findings(findings, *, show_info=False, out=None):
@@ -59,13 +82,11 @@ def _print_findings(findings, *, show_info=False, out=None):
 
 
 def cmd_build(args) -> int:
-    settings = FitSettings(breakpoint=args.breakpoint)
-    result = build.build(args.raw, args.out, settings)
-    n_err = sum(1 for f in result.findings if f.severity == ERROR)
-    n_warn = sum(1 for f in result.findings if f.severity == WARNING)
+    result = build.build(args.raw, args.out, _settings(args))
+    n_err, n_warn, n_ack = _totals(result.findings)
     print(f"thermoledger build: {len(result.fitted)} species fitted, "
           f"{len(result.quarantined)} table(s) quarantined, {n_err} error(s), "
-          f"{n_warn} warning(s)")
+          f"{n_warn} warning(s), {n_ack} acknowledged")
     for sp in result.document["species"]:
         q = sp["quality"]
         flag = "  extrapolated: " + ", ".join(f"{e['t_min']:g}-{e['t_max']:g} K"
@@ -90,12 +111,17 @@ def cmd_build(args) -> int:
 
 
 def cmd_check(args) -> int:
-    result = build.check(args.raw)
+    result = build.check(args.raw, _settings(args))
     _print_findings(result.findings, show_info=args.all)
-    n_err = sum(1 for f in result.findings if f.severity == ERROR)
-    n_warn = sum(1 for f in result.findings if f.severity == WARNING)
-    print(f"thermoledger check: {len(result.tables)} table(s) read, {n_err} error(s), "
-          f"{n_warn} warning(s)")
+    n_err, n_warn, n_ack = _totals(result.findings)
+    print(f"thermoledger check: {len(result.tables)} table(s) read, "
+          f"{len(result.quarantined)} would be quarantined; {n_err} error(s), "
+          f"{n_warn} warning(s), {n_ack} acknowledged")
+    if args.report:
+        doc = export.findings_document(result.findings)
+        export.check_against(doc, "findings.schema.json", str(args.report))
+        write_atomic(args.report, export.json_bytes(doc))
+        print(f"wrote {args.report}")
     return 1 if n_err else 0
 
 

@@ -115,19 +115,18 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
     """
     findings: list[Finding] = []
     notes: list[str] = []
-    empty = empty_frame()
     if "\0" in text:
         line = text[: text.index("\0")].count("\n") + 1
-        return ParsedTable(empty, (), (), (finding(
+        return ParsedTable(empty_frame(), (), (), (finding(
             "TAB-SYNTAX", "the file contains NUL characters (a binary file?)", file=file,
             line=line, expected="plain comma-separated text"),))
     try:
         rows = list(_rows(text))
     except csv.Error as exc:
-        return ParsedTable(empty, (), (), (finding(
+        return ParsedTable(empty_frame(), (), (), (finding(
             "TAB-SYNTAX", f"the CSV cannot be split into rows ({exc})", file=file),))
     if not rows:
-        return ParsedTable(empty, (), (), (finding("TAB-EMPTY", "the file is empty", file=file,
+        return ParsedTable(empty_frame(), (), (), (finding("TAB-EMPTY", "the file is empty", file=file,
                                                    expected="a header row and data rows"),))
     header_line, header = rows[0]
     layout, problems = _read_header(header, file)

@@ -36,7 +36,7 @@ def species_entry(fitted) -> dict:
         extrapolated.append({"t_min": fit.ranges[0].t_min, "t_max": fit.data_t_min})
     if fit.ranges[-1].t_max > fit.data_t_max:
         extrapolated.append({"t_min": fit.data_t_max, "t_max": fit.ranges[-1].t_max})
-    sources = [_source_ref(meta, True)] + [_source_ref(m, False) for m in fitted.alternatives]
+    sources = [_source_ref(u) for u in fitted.uses]
     return {
         "id": meta.species_id,
         "formula": meta.formula,
@@ -53,14 +53,17 @@ def species_entry(fitted) -> dict:
         "quality": {"cp_max_rel_dev": fit.cp_max_rel_dev, "cp_rms_rel_dev": fit.cp_rms_rel_dev,
                     "points": fit.points, "worst_t": fit.worst_t, "weighting": fit.weighting},
         "sources": sources,
+        "excluded": [{"file": f, "line": int(ln), "code": c} for f, ln, c in fitted.excluded],
         "conversions": list(meta.notes),
         "findings": [f.to_dict() for f in sorted(fitted.findings, key=lambda f: f.sort_key())],
     }
 
 
-def _source_ref(meta, used: bool) -> dict:
+def _source_ref(use) -> dict:
+    meta = use.meta
     return {"source": meta.source.source, "file": meta.file, "sha256": meta.sha256,
-            "used": used, "priority": meta.source.priority, "citation": meta.source.citation}
+            "used": use.rows > 0, "rows": use.rows, "t_min": use.t_min, "t_max": use.t_max,
+            "priority": meta.source.priority, "citation": meta.source.citation}
 
 
 def library_document(fitted, quarantined, inputs_sha256: str, settings: dict) -> dict:
@@ -86,23 +89,37 @@ def library_document(fitted, quarantined, inputs_sha256: str, settings: dict) ->
     }
 
 
-@lru_cache(maxsize=1)
-def _library_validator():
+@lru_cache(maxsize=4)
+def _validator(name: str):
     from jsonschema import Draft202012Validator
 
-    schema = json.loads(schema_path("library.schema.json").read_text(encoding="utf-8"))
+    schema = json.loads(schema_path(name).read_text(encoding="utf-8"))
     Draft202012Validator.check_schema(schema)
     return Draft202012Validator(schema)
 
 
-def check_library(doc: dict) -> None:
-    """Raise OutputError naming the first field where ``doc`` breaks the library schema."""
-    errors = sorted(_library_validator().iter_errors(doc), key=lambda e: list(map(str, e.path)))
+def check_against(doc: dict, name: str, what: str) -> None:
+    """Raise OutputError naming the first field where ``doc`` breaks schemas/``name``."""
+    errors = sorted(_validator(name).iter_errors(doc), key=lambda e: list(map(str, e.path)))
     if errors:
         e = errors[0]
         path = "/".join(map(str, e.absolute_path)) or "(top level)"
-        raise OutputError(f"library.json would break schemas/library.schema.json at {path}: "
+        raise OutputError(f"{what} would break schemas/{name} at {path}: "
                           f"{e.message} ({len(errors)} problem(s))")
+
+
+def check_library(doc: dict) -> None:
+    check_against(doc, "library.schema.json", "library.json")
+
+
+def findings_document(findings) -> dict:
+    """findings.json: every finding, sorted, with totals (acknowledged warnings not counted)."""
+    items = sorted(findings, key=lambda f: f.sort_key())
+    counts = {s: sum(1 for f in items if f.severity == s and f.counts)
+              for s in ("error", "warning", "info")}
+    counts["acknowledged"] = sum(1 for f in items if not f.counts)
+    return {"findings_format": 1, "notice": NOTICE, "counts": counts,
+            "findings": [f.to_dict() for f in items]}
 
 
 def json_bytes(doc) -> bytes:
@@ -150,6 +167,7 @@ def parquet_bytes(doc: dict) -> bytes:
 def write_outputs(out_dir: Path, doc: dict, findings_doc: dict) -> list[Path]:
     """Check and write library.json, library.parquet and findings.json into ``out_dir``."""
     check_library(doc)
+    check_against(findings_doc, "findings.schema.json", "findings.json")
     out_dir = Path(out_dir)
     files = {"library.json": json_bytes(doc), "library.parquet": parquet_bytes(doc),
              "findings.json": json_bytes(findings_doc)}

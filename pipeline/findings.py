@@ -82,6 +82,52 @@ _CODES = [
          "add data down to 298.15 K"),
     Code("RANGE-EXTENDED", WARNING, "the fitted range was extended past the data to reach 298.15 K",
          "add data down to 298.15 K"),
+    # --- physics and units
+    Code("CP-BELOW-EQUIPARTITION", ERROR, "Cp of an ideal gas below 5/2 R",
+         "check the unit of the Cp column and the values"),
+    Code("CP-ABOVE-CLASSICAL", WARNING, "Cp above the classical limit of its geometry and atoms",
+         "check the unit, the formula and the geometry"),
+    Code("CP-ABOVE-DULONG-PETIT", WARNING, "condensed-phase Cp well above 3R per atom",
+         "check the unit and the formula"),
+    Code("UNIT-FACTOR", ERROR, "the whole table is off by a recognisable unit factor",
+         "correct the unit in the header"),
+    Code("UNIT-BLOCK", ERROR, "a block of rows is off by a recognisable unit factor",
+         "correct the rows' values or unit"),
+    # --- smoothness
+    Code("SMOOTH-OUTLIER", WARNING, "a point departs from the smooth curve of its neighbours; "
+         "excluded from the fit", "check the row against the original source"),
+    Code("SMOOTH-JITTER", WARNING, "a run of rows scatters far more than the rest of the table",
+         "check the rows against the original source"),
+    Code("SMOOTH-SCATTER", WARNING, "the scatter of the table exceeds its stated u(Cp)",
+         "check the stated uncertainty"),
+    # --- columns
+    Code("CONS-H", ERROR, "H-H298 does not equal the integral of Cp",
+         "check the H-H298 column's unit and values"),
+    Code("CONS-S", ERROR, "S - S(298.15) does not equal the integral of Cp/T",
+         "check the S column's unit, values and standard pressure"),
+    Code("CONS-S298", ERROR, "the S column at 298.15 K disagrees with entropy_298",
+         "make entropy_298 and the S column agree"),
+    Code("CONS-H298", ERROR, "the H-H298 column is not zero at 298.15 K",
+         "H-H298 must vanish at 298.15 K"),
+    # --- coverage
+    Code("COV-GAP", WARNING, "a gap in temperature leaves the fit ungrounded there",
+         "add data inside the gap"),
+    Code("COV-EXTRAPOLATED", WARNING, "the requested range of use extends beyond the data",
+         "add data or narrow the range of use"),
+    Code("COV-RANGE-POINTS", INFO, "the conventional breakpoint left too few points in a range; "
+         "the breakpoint was moved", "add data on the short side"),
+    # --- sources
+    Code("SRC-DISAGREE", WARNING, "two sources of one species disagree beyond the tolerance",
+         "check which source is right; the preferred one is fitted"),
+    Code("SRC-FACTOR", ERROR, "a table differs from another source of the species by a unit factor",
+         "correct the unit in the header"),
+    Code("SEL-MERGED", INFO, "rows of a lower-priority source fill the range outside the "
+         "preferred source", "none needed"),
+    # --- acknowledgements
+    Code("ACK-UNUSED", WARNING, "an acknowledgement in source.json matches no finding",
+         "remove it or correct its code and line"),
+    Code("ACK-NOT-ALLOWED", WARNING, "only warnings can be acknowledged; the error stands",
+         "fix the error in the raw file"),
     # --- selection and fit
     Code("SEL-SUPERSEDED", INFO, "a table was not fitted because a higher-priority source has the species",
          "none needed; raise the priority to prefer this source"),
@@ -111,6 +157,8 @@ class Finding:
     seen: str = ""
     expected: str = ""
     fix: str = ""
+    lines: tuple = ()          # every line concerned, when more than one
+    acknowledged: str = ""     # the maintainer's reason, when acknowledged in source.json
     extra: dict = field(default_factory=dict, compare=False)
 
     def sort_key(self):
@@ -120,7 +168,13 @@ class Finding:
     def to_dict(self) -> dict:
         d = asdict(self)
         d.pop("extra")
+        d["lines"] = list(self.lines)
         return d
+
+    @property
+    def counts(self) -> bool:
+        """True when the finding counts towards the totals (not acknowledged)."""
+        return not self.acknowledged
 
     def located(self, **fields) -> "Finding":
         return replace(self, **fields)
@@ -147,6 +201,26 @@ def format_finding(f: Finding) -> str:
     text = f"{f.severity.upper():7s} {f.code:20s} {where}: {f.message}"
     if f.seen or f.expected:
         text += f" (seen {f.seen or '-'}; expected {f.expected or '-'})"
+    if len(f.lines) > 1:
+        text += f" [lines {_ranges(f.lines)}]"
     if f.fix:
         text += f" -> fix: {f.fix}"
+    if f.acknowledged:
+        text += f" (acknowledged: {f.acknowledged})"
     return text
+
+
+def _ranges(lines) -> str:
+    """'3-7, 9, 12-13' from a sorted sequence of line numbers."""
+    parts, start, prev = [], None, None
+    for x in sorted(lines):
+        if start is None:
+            start = prev = x
+        elif x == prev + 1:
+            prev = x
+        else:
+            parts.append(f"{start}-{prev}" if prev != start else f"{start}")
+            start = prev = x
+    if start is not None:
+        parts.append(f"{start}-{prev}" if prev != start else f"{start}")
+    return ", ".join(parts)

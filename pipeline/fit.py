@@ -41,6 +41,17 @@ def choose_breakpoints(t, settings: FitSettings) -> list[float]:
     return [float(round(np.sqrt(t[mid - 1] * t[mid]), 6))]
 
 
+def breakpoint_note(t, breakpoints, settings: FitSettings):
+    """(code, message) when the conventional breakpoint could not be used, else None."""
+    if breakpoints == [float(settings.breakpoint)]:
+        return None
+    t = np.asarray(t, dtype=float)
+    tb = settings.breakpoint
+    return ("COV-RANGE-POINTS", f"{int((t <= tb).sum())} point(s) at or below and "
+            f"{int((t > tb).sum())} above {tb:g} K (at least {settings.min_points_per_range} "
+            f"needed on each side); breakpoint set to {breakpoints[0]:g} K")
+
+
 def _powers(tau, deriv=0):
     """Rows of [1, τ, τ², τ³, τ⁴] (or their derivative) at ``tau``."""
     tau = np.atleast_1d(np.asarray(tau, dtype=float))
@@ -152,7 +163,10 @@ def fit_species(species_id: str, t, cp, u, h298: float, s298: float,
     if not np.all(np.isfinite(c)):
         raise FitError(species_id, "the least-squares solution is not finite")
     kelvin = [forms.kelvin_from_scaled(row) for row in c]
-    edges = [min(float(t[0]), REFERENCE_TEMPERATURE)] + list(breakpoints) + [float(t[-1])]
+    lo = min(float(t[0]), REFERENCE_TEMPERATURE,
+             settings.use_t_min if settings.use_t_min is not None else np.inf)
+    hi = max(float(t[-1]), settings.use_t_max if settings.use_t_max is not None else -np.inf)
+    edges = [lo] + list(breakpoints) + [hi]
     a6, a7 = integration_constants(kelvin, edges, h298, s298)
     ranges = tuple(FitRange(t_min=float(edges[j]), t_max=float(edges[j + 1]),
                             coefficients=tuple(kelvin[j]) + (float(a6[j]), float(a7[j])))
@@ -165,4 +179,5 @@ def fit_species(species_id: str, t, cp, u, h298: float, s298: float,
                      cp_max_rel_dev=float(np.abs(rel).max()),
                      cp_rms_rel_dev=float(np.sqrt(np.mean(rel**2))),
                      worst_t=float(t[worst]), weighting=weighting,
-                     settings=settings.to_dict())
+                     settings=settings.to_dict(),
+                     notes=tuple(n for n in [breakpoint_note(t, breakpoints, settings)] if n))

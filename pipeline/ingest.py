@@ -163,7 +163,9 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
                      enthalpy_of_formation_298=anchors["enthalpy_of_formation_298"],
                      entropy_298=s298, sha256=digest, size=len(raw),
                      columns=parsed.columns if parsed else (),
-                     notes=tuple(notes) + (parsed.notes if parsed else ()))
+                     notes=tuple(notes) + (parsed.notes if parsed else ()),
+                     acknowledgements=tuple(dict(a) for a in entry.get("acknowledge", ())),
+                     index=index)
     data = parsed.data if parsed else csvtable.empty_frame()
     return Table(meta=meta, data=data), infile, problems
 

@@ -50,6 +50,8 @@ class TableMeta:
     size: int              # [bytes]
     columns: tuple = ()    # raw header cells as written
     notes: tuple = ()      # conversions and assumptions made while reading
+    acknowledgements: tuple = ()  # ({'code', 'line', 'reason'} dicts, index in source.json)
+    index: int = 0         # position of the table in source.json 'tables'
 
     @property
     def species_id(self) -> str:
@@ -88,11 +90,13 @@ class FitResult:
     worst_t: float         # [K] where |relative Cp deviation| is largest
     weighting: str         # "u(Cp)" or "relative"
     settings: dict = field(default_factory=dict, compare=False)
+    notes: tuple = ()      # (code, message) of decisions the fit made
 
 
 @dataclass(frozen=True)
 class FittedSpecies:
-    table: Table
+    table: Table                   # the preferred table (metadata and anchors)
     fit: FitResult
     findings: tuple = ()           # warnings and infos that travel with the species
-    alternatives: tuple = ()       # TableMeta of tables of the same species not used
+    uses: tuple = ()               # reconcile.SourceUse of every table considered
+    excluded: tuple = ()           # (file, line, code) of rows left out of the fit

@@ -12,6 +12,9 @@ class FitSettings:
     min_points_per_range: int = 5
     #: how far [K] the lowest range may be stretched below the data to reach 298.15 K
     max_anchor_extension: float = 100.0
+    #: requested range of use [K] (None: the data range); beyond the data it is extrapolated
+    use_t_min: float | None = None
+    use_t_max: float | None = None
 
     @property
     def min_points(self) -> int:
@@ -19,3 +22,46 @@ class FitSettings:
 
     def to_dict(self) -> dict:
         return asdict(self)
+
+
+@dataclass(frozen=True)
+class CheckSettings:
+    """Tolerances of the validation checks (relative values are fractions)."""
+
+    #: Cp below 5/2 R by more than this fraction is an error
+    equipartition_tolerance: float = 0.002
+    #: Cp above the classical limit Cp(inf) by more than this fraction is a warning
+    classical_margin: float = 0.10
+    #: monatomic gas: Cp above 5/2 R by more than this (electronic states) is a warning [R units]
+    monatomic_excess: float = 1.5
+    #: condensed phase: Cp above this multiple of 3R per atom is a warning
+    dulong_petit_factor: float = 1.3
+    #: a point is an outlier beyond this many robust standard deviations ...
+    outlier_sigmas: float = 6.0
+    #: ... and beyond this relative deviation from its neighbours' smooth curve
+    outlier_floor: float = 0.004
+    #: neighbours on each side used by the smoother
+    smoother_half_window: int = 4
+    #: two sources disagreeing by more than this fraction is a warning
+    source_tolerance: float = 0.01
+    #: a factor is recognised when the log-ratio is within this of its logarithm
+    factor_tolerance: float = 0.03
+    #: relative standard uncertainty assumed for Cp when a table states none (common practice)
+    inferred_cp_uncertainty: float = 0.003
+    #: a gap between consecutive points is ungrounded beyond this ratio T2/T1 and this width [K]
+    gap_ratio: float = 1.5
+    gap_width: float = 250.0
+
+    def to_dict(self) -> dict:
+        return asdict(self)
+
+
+@dataclass(frozen=True)
+class Settings:
+    """All stage settings of one build."""
+
+    fit: FitSettings = FitSettings()
+    checks: CheckSettings = CheckSettings()
+
+    def to_dict(self) -> dict:
+        return {"fit": self.fit.to_dict(), "checks": self.checks.to_dict()}

@@ -79,17 +79,30 @@ def to_si(values, unit_text: str, kind: str, molar_mass: float | None = None) ->
     -------
     numpy.ndarray of float, in [K], [J/mol], [J/(mol K)] or [Pa] by ``kind``.
     """
-    unit = _parse_unit(unit_text)
-    basis = _dimension_of(unit, kind, unit_text)
-    ureg = registry()
+    basis, scale, offset = _affine(unit_text, kind)
     arr = np.asarray(values, dtype=float)
-    target = KINDS[kind][2]
     if basis == "mass":
         if molar_mass is None:
             raise UnitError(f"unit '{unit_text}' is per mass but no molar mass is known")
-        per_gram = ureg.Quantity(arr, unit).to(target.replace("mol", "g")).magnitude
-        return np.asarray(per_gram * molar_mass, dtype=float)
-    return np.asarray(ureg.Quantity(arr, unit).to(target).magnitude, dtype=float)
+        return (arr * scale + offset) * molar_mass
+    return arr * scale + offset
+
+
+@lru_cache(maxsize=512)
+def _affine(unit_text: str, kind: str):
+    """(basis, scale, offset) with SI = value * scale + offset, derived once from pint.
+
+    Every supported conversion is affine (temperatures) or linear; deriving the map from
+    pint's own conversion of 0 and 1 keeps pint the single source of unit definitions.
+    """
+    unit = _parse_unit(unit_text)
+    basis = _dimension_of(unit, kind, unit_text)
+    target = KINDS[kind][2]
+    if basis == "mass":
+        target = target.replace("mol", "g")
+    ureg = registry()
+    zero, one = ureg.Quantity(np.array([0.0, 1.0]), unit).to(target).magnitude
+    return basis, float(one - zero), float(zero)
 
 
 def parse_quantity(text: str, kind: str) -> float:

@@ -1,17 +1,26 @@
-"""Validation stage: checks on clean tables, collected lazily into findings.
+"""Validation stage: registered checks on clean tables, collected lazily into findings.
 
-Each check is a small function ``check(table, settings) -> list[Finding]`` that
-never raises; ``validate`` runs every registered check on every table and
-returns all findings at once. A table with any error finding is quarantined by
-the build; warnings travel with the species.
+Each check is a small function ``check(table, ctx) -> list[Finding]`` that never
+raises (``ctx`` is a settings.Settings). ``validate`` runs every registered check
+on every table and returns all findings at once. Checks come in two tiers: the
+structural and physics checks always run; the checks that need clean numbers
+(smoothness, column consistency, coverage) run only on tables whose first tier
+found no error, so one mistake is not reported ten times over.
+
+A table with any error finding is quarantined by the build; warnings travel with
+the species.
 """
 
 import numpy as np
 
 from . import constants
-from .findings import finding
+from .checks_columns import check_columns
+from .checks_coverage import check_gaps, check_range_of_use
+from .checks_physics import check_condensed_bounds, check_gas_bounds, check_unit_blocks
+from .checks_smooth import check_smoothness
+from .findings import ERROR, finding
 from .records import Table
-from .settings import FitSettings
+from .settings import Settings
 
 
 def _rows_where(table: Table, mask: np.ndarray, code: str, what: str, column: str,
@@ -23,34 +32,34 @@ def _rows_where(table: Table, mask: np.ndarray, code: str, what: str, column: st
             for line, v in zip(data["line"][mask], np.asarray(values)[mask])]
 
 
-def check_temperature_positive(table: Table, settings: FitSettings):
+def check_temperature_positive(table: Table, ctx: Settings):
     t = table.data["T"].to_numpy()
     mask = ~(t > 0) & ~np.isnan(t)
     return _rows_where(table, mask, "T-NOT-POSITIVE", "T = {v:.6g} K is not above 0 K", "T",
                        "T > 0 K", t)
 
 
-def check_cp_positive(table: Table, settings: FitSettings):
+def check_cp_positive(table: Table, ctx: Settings):
     cp = table.data["Cp"].to_numpy()
     mask = ~(cp > 0) & ~np.isnan(cp)
     return _rows_where(table, mask, "CP-NOT-POSITIVE", "Cp = {v:.6g} J/(mol*K) is not above zero",
                        "Cp", "Cp > 0", cp)
 
 
-def check_uncertainty_positive(table: Table, settings: FitSettings):
+def check_uncertainty_positive(table: Table, ctx: Settings):
     u = table.data["u_Cp"].to_numpy()
     mask = ~(u > 0) & ~np.isnan(u)
     return _rows_where(table, mask, "UCP-NOT-POSITIVE", "u(Cp) = {v:.6g} J/(mol*K) is not above "
                        "zero", "u(Cp)", "u(Cp) > 0", u)
 
 
-def check_duplicate_temperatures(table: Table, settings: FitSettings):
+def check_duplicate_temperatures(table: Table, ctx: Settings):
     data = table.data
     t = data["T"].to_numpy()
     out = []
     order = np.argsort(t, kind="stable")
     ts, lines = t[order], data["line"].to_numpy()[order]
-    # same temperature to 1e-9 K after conversion counts as repeated
+    # the same temperature to 1e-9 K after conversion counts as repeated
     same = np.abs(np.diff(ts)) <= 1e-9 * np.maximum(1.0, np.abs(ts[1:]))
     for i in np.nonzero(same)[0]:
         out.append(finding("T-DUPLICATE", f"T = {ts[i + 1]:.6g} K repeats line {int(lines[i])}",
@@ -60,28 +69,29 @@ def check_duplicate_temperatures(table: Table, settings: FitSettings):
     return out
 
 
-def check_enough_points(table: Table, settings: FitSettings):
+def check_enough_points(table: Table, ctx: Settings):
     n = int(np.isfinite(table.data["T"]).sum())
-    if n >= settings.min_points:
+    need = ctx.fit.min_points
+    if n >= need:
         return []
-    return [finding("TOO-FEW-POINTS", f"{n} data points; a two-range fit needs at least "
-                    f"{settings.min_points}", source=table.meta.source.source,
-                    file=table.meta.file, seen=str(n), expected=f">= {settings.min_points}")]
+    return [finding("TOO-FEW-POINTS", f"{n} data points; a two-range fit needs at least {need}",
+                    source=table.meta.source.source, file=table.meta.file, seen=str(n),
+                    expected=f">= {need}")]
 
 
-def check_anchor_reach(table: Table, settings: FitSettings):
+def check_anchor_reach(table: Table, ctx: Settings):
     t = table.data["T"].to_numpy()
     t = t[np.isfinite(t) & (t > 0)]
     if not len(t):
         return []
     gap = float(t.min()) - constants.REFERENCE_TEMPERATURE
+    reach = ctx.fit.max_anchor_extension
     where = dict(source=table.meta.source.source, file=table.meta.file, column="T",
                  seen=f"{t.min():.6g} K")
-    if gap > settings.max_anchor_extension:
+    if gap > reach:
         return [finding("ANCHOR-OUT-OF-REACH", f"data start at {t.min():.6g} K, "
                         f"{gap:.6g} K above 298.15 K", expected=f"data from <= "
-                        f"{constants.REFERENCE_TEMPERATURE + settings.max_anchor_extension:g} K",
-                        **where)]
+                        f"{constants.REFERENCE_TEMPERATURE + reach:g} K", **where)]
     if gap > 0:
         return [finding("RANGE-EXTENDED", f"data start at {t.min():.6g} K; the lowest range is "
                         "extrapolated down to 298.15 K", expected="data from <= 298.15 K",
@@ -89,21 +99,47 @@ def check_anchor_reach(table: Table, settings: FitSettings):
     return []
 
 
-#: the registered checks, run in this order
-CHECKS = (
+#: first tier: structure and physics, always run
+STRUCTURE_CHECKS = (
     check_temperature_positive,
     check_cp_positive,
     check_uncertainty_positive,
     check_duplicate_temperatures,
     check_enough_points,
     check_anchor_reach,
+    check_gas_bounds,
+    check_condensed_bounds,
+    check_unit_blocks,
 )
+#: second tier: need clean numbers
+QUALITY_CHECKS = (
+    check_smoothness,
+    check_columns,
+    check_gaps,
+    check_range_of_use,
+)
+CHECKS = STRUCTURE_CHECKS + QUALITY_CHECKS
 
 
-def validate(tables, settings: FitSettings = FitSettings()):
+def validate_table(table: Table, ctx: Settings = Settings(), prior=()):
+    """All findings of one table; ``prior`` are its ingest findings (errors stop tier two)."""
+    out = []
+    for check in STRUCTURE_CHECKS:
+        out += check(table, ctx)
+    if any(f.severity == ERROR for f in list(prior) + out) or len(table.data) == 0:
+        return out
+    for check in QUALITY_CHECKS:
+        out += check(table, ctx)
+    return out
+
+
+def validate(tables, ctx: Settings = Settings(), prior=()):
     """Run every check on every table -> findings (a tuple, in table then check order)."""
+    by_file = {}
+    for f in prior:
+        key = f.extra.get("table") or f.file
+        by_file.setdefault(key, []).append(f)
     out = []
     for table in tables:
-        for check in CHECKS:
-            out += check(table, settings)
+        out += validate_table(table, ctx, by_file.get(table.meta.file, ()))
     return tuple(out)

@@ -5,7 +5,7 @@ import pandas as pd
 
 from pipeline import validate
 from pipeline.records import SourceMeta, Table, TableMeta
-from pipeline.settings import FitSettings
+from pipeline.settings import Settings
 
 SRC = SourceMeta(source="s", folder="s", title="t", citation="c", method="other", license="l",
                  priority=1, standard_pressure=1e5, sha256="0" * 64)
@@ -56,7 +56,7 @@ def test_too_few_points():
 
 
 def test_anchor_reach():
-    s = FitSettings()
+    s = Settings()
     far = [x + 200 for x in T]
     assert [f.code for f in validate.validate([table(far, CP)], s)] == ["ANCHOR-OUT-OF-REACH"]
     near = [x + 150 for x in T]  # data from 350 K: stretched to 298.15 K with a warning

@@ -1,0 +1,69 @@
+"""Smoothness checks: single-point slips, jittery runs, scatter beyond the stated u(Cp).
+
+Uses the physically shaped smooth model of smooth.py. A single-point outlier is a
+warning and the row is left out of the fit (recorded in the provenance); three or
+more outliers within a short run of rows are reported together as jitter.
+"""
+
+import numpy as np
+
+from . import smooth
+from .findings import finding
+
+JITTER_RUN = 8   # rows: three or more outliers within this many consecutive rows are jitter
+JITTER_MIN = 3
+
+
+def sorted_valid(table):
+    """(t [K], cp [J/(mol K)], u or None, lines) sorted by T, only finite positive values."""
+    d = table.data
+    t, cp, u, lines = (d["T"].to_numpy(), d["Cp"].to_numpy(), d["u_Cp"].to_numpy(),
+                       d["line"].to_numpy())
+    ok = np.isfinite(t) & np.isfinite(cp) & (t > 0) & (cp > 0)
+    order = np.argsort(t[ok], kind="stable")
+    uu = u[ok][order]
+    return t[ok][order], cp[ok][order], (uu if np.all(np.isfinite(uu)) else None), \
+        lines[ok][order]
+
+
+def check_smoothness(table, ctx):
+    s = ctx.checks
+    t, cp, u, lines = sorted_valid(table)
+    if len(t) < 8 or np.any(np.diff(t) <= 0):
+        return []
+    found, sigma = smooth.find_outliers(t, cp, sigmas=s.outlier_sigmas, floor=s.outlier_floor)
+    where = dict(source=table.meta.source.source, file=table.meta.file, column="Cp")
+    out = []
+    idx = sorted(i for i, _, _ in found)
+    clusters, used = [], set()
+    for k, i in enumerate(idx):
+        run = [j for j in idx[k:] if j - i < JITTER_RUN]
+        if len(run) >= JITTER_MIN and not used.intersection(run):
+            clusters.append(run)
+            used.update(run)
+    for run in clusters:
+        ls = tuple(int(lines[j]) for j in run)
+        out.append(finding("SMOOTH-JITTER", f"{len(run)} rows between lines {ls[0]} and {ls[-1]} "
+                           "scatter about the smooth curve far beyond the rest of the table; "
+                           "left out of the fit", line=ls[0], lines=ls,
+                           seen=", ".join(f"{cp[j]:.6g}" for j in run), **where))
+    for i, expected, rel in found:
+        if i in used:
+            continue
+        out.append(finding("SMOOTH-OUTLIER", f"Cp = {cp[i]:.6g} J/(mol*K) at T = {t[i]:.6g} K is "
+                           f"{100 * rel:+.2f} % off the smooth curve through its neighbours; "
+                           "left out of the fit", line=int(lines[i]), seen=f"{cp[i]:.6g}",
+                           expected=f"{expected:.6g}", **where))
+    if u is not None and len(t) >= 8:
+        stated = float(np.median(u / cp))
+        if sigma > 3.0 * stated:
+            out.append(finding("SMOOTH-SCATTER", f"rows scatter by {100 * sigma:.3g} % about the "
+                               f"smooth curve, more than 3x the stated u(Cp) of "
+                               f"{100 * stated:.3g} %", line=int(lines[0]),
+                               seen=f"{100 * sigma:.3g} %", expected=f"<= {300 * stated:.3g} %",
+                               **where))
+    return out
+
+
+#: findings whose rows are left out of the fit
+EXCLUDING = ("SMOOTH-OUTLIER", "SMOOTH-JITTER")

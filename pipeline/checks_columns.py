@@ -3,16 +3,15 @@
     H(T) − H(298.15) = ∫_{298.15}^{T} Cp dT,    S(T) − S(298.15) = ∫_{298.15}^{T} Cp/T dT
 
 The integrals of the table's Cp are taken with a cubic spline through the points
-(scipy.interpolate.CubicSpline); the difference from the trapezoidal rule is
-kept as an estimate of the quadrature error and widens the tolerance. The
+(scipy.interpolate.CubicSpline); the difference from a monotone cubic (PCHIP)
+integral is kept as an estimate of the quadrature error and widens the tolerance. The
 tolerance of a row is three standard uncertainties of the integral (from the
 stated u(Cp), or an inferred relative u when none is stated), plus the
 quadrature error and the rounding of the tabulated column.
 """
 
 import numpy as np
-from scipy.integrate import cumulative_trapezoid
-from scipy.interpolate import CubicSpline
+from scipy.interpolate import CubicSpline, PchipInterpolator
 
 from .constants import REFERENCE_TEMPERATURE
 from .findings import finding
@@ -28,8 +27,10 @@ def _integrals(t, cp):
     spl_t = CubicSpline(t, cp / t)
     ih = np.array([spl.integrate(t[0], x) for x in t])
     is_ = np.array([spl_t.integrate(t[0], x) for x in t])
-    th = cumulative_trapezoid(cp, t, initial=0.0)
-    ts = cumulative_trapezoid(cp / t, t, initial=0.0)
+    # a second, independent interpolant: the spread of the two estimates the quadrature error
+    ph, ps = PchipInterpolator(t, cp), PchipInterpolator(t, cp / t)
+    th = np.array([ph.integrate(t[0], x) for x in t])
+    ts = np.array([ps.integrate(t[0], x) for x in t])
     return ih, is_, np.abs(ih - th), np.abs(is_ - ts), spl, spl_t
 
 

@@ -57,7 +57,8 @@ def whole_table_factor(cp, geometry, atoms, molar_mass, settings):
         return None
     fits = {False: [], True: []}
     for name, f, fix in factor_candidates(molar_mass):
-        v = cp * f
+        with np.errstate(over="ignore"):
+            v = cp * f
         for tight in (False, True):
             a, b = gas_band(geometry, atoms, settings, tight)
             if np.all((v >= a) & (v <= b)):
@@ -157,17 +158,13 @@ def check_unit_blocks(table, ctx):
     cands = [(n, f, fix) for n, f, fix in factor_candidates(table.meta.molar_mass) if f > 1]
     tol = settings.factor_tolerance + 2.0 * float(np.median(np.abs(d)))
     level = np.zeros(len(cp))
-    jumps = []
-    for i, step in enumerate(d):
-        best = None
-        for name, f, fix in cands:
-            off = abs(abs(step) - math.log(f))
-            if off < tol and (best is None or off < best[0]):
-                best = (off, name, f, fix)
-        if best:
-            jumps.append((i, math.copysign(1.0, step), best[1:]))
-    if not jumps:
+    logs = np.log([f for _, f, _ in cands])
+    off = np.abs(np.abs(d)[:, None] - logs[None, :])     # (steps, candidates)
+    nearest = np.argmin(off, axis=1)
+    hits = np.nonzero(off[np.arange(len(d)), nearest] < tol)[0]
+    if not len(hits):
         return []
+    jumps = [(int(i), math.copysign(1.0, d[i]), cands[nearest[i]]) for i in hits]
     for i, sign, (name, f, fix) in jumps:
         level[i + 1:] += sign * math.log(f)
     # the right level is the most common one; ties go to the level inside the physics band

@@ -7,11 +7,10 @@ more outliers within a short run of rows are reported together as jitter.
 
 import numpy as np
 
-from . import smooth
+from . import smooth, units
 from .findings import finding
 
-JITTER_RUN = 8   # rows: three or more outliers within this many consecutive rows are jitter
-JITTER_MIN = 3
+JITTER_RUN, JITTER_MIN = smooth.RUN_ROWS, smooth.RUN_MIN
 
 
 def sorted_valid(table):
@@ -47,13 +46,19 @@ def check_smoothness(table, ctx):
                            "scatter about the smooth curve far beyond the rest of the table; "
                            "left out of the fit", line=ls[0], lines=ls,
                            seen=", ".join(f"{cp[j]:.6g}" for j in run), **where))
+    raw_unit = raw_cp_unit(table)
     for i, expected, rel in found:
         if i in used:
             continue
+        in_file = ""
+        if raw_unit:
+            seen_raw, exp_raw = units.from_si([cp[i], expected], raw_unit, "heat_capacity",
+                                              table.meta.molar_mass)
+            in_file = f" (in the file's unit: {seen_raw:.6g}, expected {exp_raw:.6g} {raw_unit})"
         out.append(finding("SMOOTH-OUTLIER", f"Cp = {cp[i]:.6g} J/(mol*K) at T = {t[i]:.6g} K is "
-                           f"{100 * rel:+.2f} % off the smooth curve through its neighbours; "
-                           "left out of the fit", line=int(lines[i]), seen=f"{cp[i]:.6g}",
-                           expected=f"{expected:.6g}", **where))
+                           f"{100 * rel:+.2f} % off the smooth curve through its neighbours"
+                           f"{in_file}; left out of the fit", line=int(lines[i]),
+                           seen=f"{cp[i]:.6g}", expected=f"{expected:.6g}", **where))
     if u is not None and len(t) >= 8:
         stated = float(np.median(u / cp))
         if sigma > 3.0 * stated:
@@ -63,6 +68,15 @@ def check_smoothness(table, ctx):
                                seen=f"{100 * sigma:.3g} %", expected=f"<= {300 * stated:.3g} %",
                                **where))
     return out
+
+
+def raw_cp_unit(table):
+    """The unit written in the Cp column header, or None."""
+    for cell in table.meta.columns:
+        name, _, rest = cell.partition("[")
+        if name.strip() == "Cp" and rest.endswith("]"):
+            return rest[:-1].strip()
+    return None
 
 
 #: findings whose rows are left out of the fit

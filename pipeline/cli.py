@@ -6,7 +6,7 @@ from pathlib import Path
 
 from . import __version__, build, export, library
 from .errors import ThermoledgerError
-from .findings import ERROR, INFO, WARNING, format_finding
+from .findings import ERROR, INFO, WARNING, format_block
 from .paths import write_atomic
 from .settings import FitSettings, Settings
 
@@ -78,7 +78,7 @@ def _print_findings(findings, *, show_info=False, out=None):
     for file, items in by_file.items():
         print(f"{file}", file=out)
         for f in items:
-            print(f"  {format_finding(f)}", file=out)
+            print(format_block(f), file=out)
 
 
 def cmd_build(args) -> int:
@@ -93,9 +93,12 @@ def cmd_build(args) -> int:
                                                for e in sp["extrapolated"]) if sp["extrapolated"] else ""
         span = f"{sp['ranges'][0]['t_min']:g}-{sp['ranges'][-1]['t_max']:g} K"
         breaks = "/".join(f"{r['t_max']:g}" for r in sp["ranges"][:-1])
+        used = [f"{x['file']}" + (f" ({x['rows']} rows)" if i else "")
+                for i, x in enumerate(s for s in sp["sources"] if s["used"])]
+        dropped = f"  {len(sp['excluded'])} row(s) left out" if sp["excluded"] else ""
         print(f"  fitted      {sp['id']:14s} {span:14s} break {breaks:>6s} K  "
               f"max |dCp/Cp| {100 * q['cp_max_rel_dev']:.3f} %  "
-              f"from {sp['sources'][0]['file']}{flag}")
+              f"from {' + '.join(used)}{dropped}{flag}")
     for entry in result.document["quarantined"]:
         first = entry["reasons"][0]
         where = entry["file"] + (f":{first['line']}" if first["line"] is not None else "")

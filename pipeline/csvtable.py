@@ -81,6 +81,7 @@ def _read_header(cells, file):
         if name not in COLUMNS:
             problems.append(finding("COL-UNKNOWN", f"column '{name}' is not a known quantity; "
                                     "its values are ignored", file=file, line=1, column=name,
+                                    seen=cell.strip(),
                                     expected=", ".join(COLUMNS)))
             continue
         if name in seen:

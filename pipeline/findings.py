@@ -191,6 +191,27 @@ def has_error(items) -> bool:
     return any(f.severity == ERROR for f in items)
 
 
+def format_block(f: Finding) -> str:
+    """Two or three lines for a report grouped by file: the where is the file heading."""
+    where = f"line {f.line}" if f.line is not None else "table"
+    if len(f.lines) > 1:
+        where = f"lines {_ranges(f.lines)}"
+    if f.column:
+        where += f" [{f.column}]"
+    head = f"  {f.severity.upper():7s} {f.code:22s} {where}"
+    lines = [head, f"      {f.message}"]
+    detail = []
+    if f.seen or f.expected:
+        detail.append(f"seen {f.seen or '-'}, expected {f.expected or '-'}")
+    if f.fix:
+        detail.append(f"fix: {f.fix}")
+    if detail:
+        lines.append("      " + "; ".join(detail))
+    if f.acknowledged:
+        lines.append(f"      acknowledged: {f.acknowledged} (not counted)")
+    return "\n".join(lines)
+
+
 def format_finding(f: Finding) -> str:
     """One readable line: where, code, message, seen/expected, fix."""
     where = f.file or f.source

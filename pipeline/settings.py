@@ -29,7 +29,7 @@ class CheckSettings:
     """Tolerances of the validation checks (relative values are fractions)."""
 
     #: Cp below 5/2 R by more than this fraction is an error
-    equipartition_tolerance: float = 0.002
+    equipartition_tolerance: float = 0.005
     #: Cp above the classical limit Cp(inf) by more than this fraction is a warning
     classical_margin: float = 0.10
     #: monatomic gas: Cp above 5/2 R by more than this (electronic states) is a warning [R units]

@@ -32,6 +32,7 @@ from scipy.optimize import nnls
 
 from .statmech import einstein
 
+RUN_ROWS, RUN_MIN = 8, 3  # three or more bad rows within eight make a run (jitter)
 MAD_TO_SIGMA = 1.4826  # sigma of a normal distribution = 1.4826 MAD (common practice)
 THETA_VIB = np.geomspace(60.0, 30000.0, 14)   # [K]
 THETA_ELEC = np.geomspace(30.0, 30000.0, 7)   # [K]
@@ -98,8 +99,34 @@ def loo_residuals(t, cp):
     return loo, h, spread, e
 
 
+def _robust_weights(t, cp, floor, iterations=5):
+    """Tukey bisquare weights of an iteratively reweighted fit of the smooth model."""
+    b = basis(t)
+    w = np.ones(len(t))
+    for _ in range(iterations):
+        sw = np.sqrt(w)
+        a = b / cp[:, None]
+        try:
+            c, _ = nnls(a * sw[:, None], sw, maxiter=50 * b.shape[1])
+        except RuntimeError:
+            break
+        e = 1.0 - a @ c
+        scale = max(robust_sigma(e[w > 0]), floor / 6.0)
+        u = e / (4.685 * scale)  # 4.685: the usual bisquare tuning constant (common practice)
+        new = np.where(np.abs(u) < 1.0, (1.0 - u * u) ** 2, 0.0)
+        if np.allclose(new, w, atol=1e-3):
+            break
+        w = new
+    return w
+
+
 def find_outliers(t, cp, *, sigmas=6.0, floor=0.004, end_floor=0.02, max_fraction=0.2):
     """Single-point outliers of a smooth Cp(T).
+
+    A robust (bisquare) fit first sets aside points that would bend the model, so that
+    a run of bad rows cannot mask itself; the remaining points are then judged one at a
+    time by leave-one-out residuals, and every set-aside point is judged against the fit
+    of the others — flagged if beyond the threshold, re-admitted otherwise.
 
     Parameters
     ----------
@@ -110,15 +137,16 @@ def find_outliers(t, cp, *, sigmas=6.0, floor=0.004, end_floor=0.02, max_fractio
 
     Returns
     -------
-    (outliers, sigma): list of (index, expected cp [J/(mol K)], relative deviation [-]),
-    in the order found; and the robust relative scatter of the remaining points [-].
+    (outliers, sigma): list of (index, expected cp [J/(mol K)], relative deviation [-]);
+    and the robust relative scatter of the remaining points [-].
     """
     t = np.asarray(t, dtype=float)
     cp = np.asarray(cp, dtype=float)
-    active = np.arange(len(t))
-    found = []
-    sigma = 0.0
-    limit = max(1, int(max_fraction * len(t)))
+    n = len(t)
+    if n < 8:
+        return [], 0.0
+    limit = max(1, int(max_fraction * n))
+
     def judge(act):
         loo, h, spread, e = loo_residuals(t[act], cp[act])
         sig = robust_sigma((e / np.sqrt(1.0 - h))[1:-1])
@@ -127,7 +155,23 @@ def find_outliers(t, cp, *, sigmas=6.0, floor=0.004, end_floor=0.02, max_fractio
             thresh[j] = max(2 * sigmas * sig, end_floor, 3.0 * spread[j])
         return np.abs(loo) / thresh, loo, sig
 
-    while len(active) >= 8 and len(found) < limit:
+    first = judge(np.arange(n))
+    if np.max(first[0]) <= 1.0:  # nothing stands out: the common case, done
+        return [], first[2]
+    w = _robust_weights(t, cp, floor)
+    set_aside = np.nonzero(w == 0.0)[0]
+    set_aside = set_aside[(set_aside > 0) & (set_aside < n - 1)]  # the ends: judged below
+    # set points aside beforehand only for a run of bad rows, which would mask itself in
+    # one-at-a-time removal; single slips are found more sharply one at a time
+    clustered = any(np.sum((set_aside >= i) & (set_aside < i + RUN_ROWS)) >= RUN_MIN
+                    for i in set_aside)
+    if not clustered or len(set_aside) > limit or n - len(set_aside) < 8:
+        set_aside = np.array([], dtype=int)
+    active = np.setdiff1d(np.arange(n), set_aside)
+
+    found = []
+    sigma = 0.0
+    while len(active) >= 8 and len(found) + len(set_aside) < limit:
         excess, loo, sigma = judge(active)
         worst = int(np.argmax(excess))
         if excess[worst] <= 1.0:
@@ -140,9 +184,21 @@ def find_outliers(t, cp, *, sigmas=6.0, floor=0.004, end_floor=0.02, max_fractio
                 left = float(np.max(judge(np.delete(active, cand))[0]))
                 if best_left is None or left < best_left - 1e-12:
                     best, best_left = cand, left
-        if best != worst:
-            excess, loo, _ = judge(active)
         i = int(active[best])
         found.append((i, float(cp[i] / (1.0 + loo[best])), float(loo[best])))
         active = np.delete(active, best)
+    # judge each set-aside point against the fit of the points kept
+    if len(set_aside):
+        if not sigma:
+            sigma = judge(active)[2]
+        b = basis(t)
+        _, c = _fit(b[active], cp[active])
+        pred = b @ c
+        for i in set_aside:
+            rel = float(cp[i] / pred[i] - 1.0)
+            at_end = i < active[0] or i > active[-1]
+            thresh = max(2 * sigmas * sigma, end_floor) if at_end else max(sigmas * sigma, floor)
+            if abs(rel) > thresh:
+                found.append((int(i), float(pred[i]), rel))
+    found.sort(key=lambda x: x[0])
     return found, sigma

@@ -88,6 +88,15 @@ def to_si(values, unit_text: str, kind: str, molar_mass: float | None = None) ->
     return arr * scale + offset
 
 
+def from_si(values, unit_text: str, kind: str, molar_mass: float | None = None) -> np.ndarray:
+    """Inverse of ``to_si``: SI values back into ``unit_text`` (for messages in the file's unit)."""
+    basis, scale, offset = _affine(unit_text, kind)
+    arr = np.asarray(values, dtype=float)
+    if basis == "mass":
+        arr = arr / molar_mass
+    return (arr - offset) / scale
+
+
 @lru_cache(maxsize=512)
 def _affine(unit_text: str, kind: str):
     """(basis, scale, offset) with SI = value * scale + offset, derived once from pint.

@@ -14,8 +14,9 @@ monitored by the analysers. Two sources feed its property library:
 * ``isru-benchlog-2026`` — SYNTHETIC: the same model with seeded Gaussian noise
   of 0.15 % added, written in the unit conventions of an imagined bench log
   (degC with cal/(mol*K); K with J/(g*K); degF with kJ/(kmol*K)) and entropies
-  at 1 atm. It contains one deliberately defective table (nh3.csv: a cell
-  'n/a'), which the build quarantines.
+  at 1 atm. It contains deliberate defects for the validation stage to catch:
+  nh3.csv (a cell 'n/a'), co-cal.csv (calories labelled as joules), a digit
+  swap in one row of n2o.csv, and a CO2 table that drifts from the computed one.
 
 Enthalpies of formation and entropies at 298.15 K are recalled from memory of
 the CODATA Key Values (Cox, Wagman & Medvedev, 1989) and the NIST-JANAF tables
@@ -27,6 +28,7 @@ import sys
 from pathlib import Path
 
 import numpy as np
+from scipy.integrate import quad
 
 ROOT = Path(__file__).resolve().parent
 sys.path.insert(0, str(ROOT.parent))
@@ -74,19 +76,42 @@ def entry(name, file, *, atm=False, notes=None):
     return out
 
 
+def integrals(name, t):
+    """H(T) - H(298.15) [J/mol] and S(T) [J/(mol K)] of the model, by quadrature of its Cp."""
+    s298 = SPECIES[name][6]
+    dh, s = [], []
+    for x in t:
+        dh.append(quad(lambda y: cp_molar(name, [y])[0], 298.15, x, epsrel=1e-12)[0])
+        s.append(s298 + quad(lambda y: cp_molar(name, [y])[0] / y, 298.15, x, epsrel=1e-12)[0])
+    return np.array(dh), np.array(s)
+
+
 def computed_source(folder: Path):
     folder.mkdir(exist_ok=True)
     tables = []
     for name in ("Ar", "N2", "O2", "CO", "NO", "CO2", "CH4"):
         cp = cp_molar(name, GRID)
         file = f"{name.lower()}.csv"
+        extra = {}
         if name == "CO2":  # this table states a standard uncertainty of 0.1 %
             rows = [[f"{t:g}", f"{c:.4f}", f"{1e-3 * c:.4f}"] for t, c in zip(GRID, cp)]
             write_csv(folder / file, ["T [K]", "Cp [J/(mol*K)]", "u(Cp) [J/(mol*K)]"], rows)
+        elif name in ("N2", "CH4"):  # these carry H-H298 and S columns as well
+            dh, s = integrals(name, GRID)
+            rows = [[f"{t:g}", f"{c:.4f}", f"{h / 1000:.5f}", f"{e:.4f}"]
+                    for t, c, h, e in zip(GRID, cp, dh, s)]
+            write_csv(folder / file, ["T [K]", "Cp [J/(mol*K)]", "H-H298 [kJ/mol]",
+                                      "S [J/(mol*K)]"], rows)
+        elif name == "Ar":  # an extra Cv column the pipeline does not use, acknowledged below
+            rows = [[f"{t:g}", f"{c:.4f}", f"{c - GAS_CONSTANT:.4f}"] for t, c in zip(GRID, cp)]
+            write_csv(folder / file, ["T [K]", "Cp [J/(mol*K)]", "Cv [J/(mol*K)]"], rows)
+            extra = {"acknowledge": [{"code": "COL-UNKNOWN", "line": 1,
+                                      "reason": "Cv kept for the analyser team; not a fitted "
+                                                "quantity"}]}
         else:
             rows = [[f"{t:g}", f"{c:.4f}"] for t, c in zip(GRID, cp)]
             write_csv(folder / file, ["T [K]", "Cp [J/(mol*K)]"], rows)
-        tables.append(entry(name, file))
+        tables.append({**entry(name, file), **extra})
     meta = {
         "source": "isru-rrho-2026",
         "title": "Rigid-rotor/harmonic-oscillator heat capacities for the ISRU demo loop",
@@ -107,14 +132,23 @@ def synthetic_source(folder: Path):
     folder.mkdir(exist_ok=True)
     rng = np.random.default_rng(20260301)
     noisy = {n: cp_molar(n, GRID) * (1 + 0.0015 * rng.standard_normal(len(GRID)))
-             for n in ("N2O", "SO2", "CO2", "NH3")}
+             for n in ("N2O", "SO2", "CO2", "NH3", "CO")}
     cal = 4.184
     rows = [[f"{t - 273.15:.2f}", f"{c / cal:.5f}"] for t, c in zip(GRID, noisy["N2O"])]
+    rows[12][1] = rows[12][1][:3] + rows[12][1][4] + rows[12][1][3] + rows[12][1][5:]
+    # ^ a transcription slip: two digits of line 14 swapped
     write_csv(folder / "n2o.csv", ["T [degC]", "Cp [cal/(mol*K)]"], rows)
+    rows = [[f"{t:g}", f"{c / cal:.4f}"] for t, c in zip(GRID, noisy["CO"])]
+    write_csv(folder / "co-cal.csv", ["T [K]", "Cp [J/(mol*K)]"], rows)
+    # ^ the values are in cal/(mol*K) but the header says J/(mol*K)
     m_so2 = 64.064  # g/mol, only to write the per-gram column; the pipeline recomputes it
     rows = [[f"{t:g}", f"{c / m_so2:.6f}"] for t, c in zip(GRID, noisy["SO2"])]
     write_csv(folder / "so2.csv", ["T [K]", "Cp [J/(g*K)]"], rows)
-    rows = [[f"{(t - 273.15) * 1.8 + 32:.3f}", f"{c:.3f}"] for t, c in zip(GRID, noisy["CO2"])]
+    # an older compilation of CO2: drifts up to +1.2 % at 3000 K and extends to 4000 K
+    grid = np.append(GRID, np.arange(3200.0, 4001.0, 200.0))
+    cp = cp_molar("CO2", grid) * (1 + 0.0015 * rng.standard_normal(len(grid)))
+    cp *= 1 + 0.012 * np.clip((grid - 1000.0) / 2000.0, 0.0, None)
+    rows = [[f"{(t - 273.15) * 1.8 + 32:.3f}", f"{c:.3f}"] for t, c in zip(grid, cp)]
     write_csv(folder / "co2-benchlog.csv", ["T [degF]", "Cp [kJ/(kmol*K)]"], rows)
     rows = [[f"{t:g}", f"{c:.4f}"] for t, c in zip(GRID, noisy["NH3"])]
     rows[7][1] = "n/a"  # the deliberate defect: a missing value typed as text
@@ -128,10 +162,14 @@ def synthetic_source(folder: Path):
         "priority": 10,
         "license": "CC0-1.0",
         "notes": "SYNTHETIC demo data: rigid-rotor/harmonic-oscillator values with seeded "
-                 "0.15 % Gaussian noise, in mixed units, entropies at 1 atm. nh3.csv is "
-                 "deliberately defective.",
+                 "0.15 % Gaussian noise, in mixed units, entropies at 1 atm. Deliberate "
+                 "defects: nh3.csv line 9 reads n/a; co-cal.csv holds calories labelled as "
+                 "joules; n2o.csv line 14 has two digits swapped; co2-benchlog.csv drifts "
+                 "up to +1.2 % from the computed source above 1000 K.",
         "tables": [entry("N2O", "n2o.csv", atm=True), entry("SO2", "so2.csv", atm=True),
                    entry("CO2", "co2-benchlog.csv", atm=True),
+                   entry("CO", "co-cal.csv", atm=True,
+                         notes="deliberately defective: calories labelled as joules"),
                    entry("NH3", "nh3.csv", atm=True, notes="deliberately defective (line 9)")],
     }
     (folder / "source.json").write_text(json.dumps(meta, indent=2) + "\n", encoding="utf-8")

@@ -38,7 +38,8 @@ def test_demo_build_writes_library_and_reports_the_defective_table(demo_raw, tmp
     export.check_library(lib)
     ids = [s["id"] for s in lib["species"]]
     assert len(ids) >= 8 and "NH3(g)" not in ids
-    assert [q["id"] for q in lib["quarantined"]] == ["NH3(g)"]
+    assert [q["id"] for q in lib["quarantined"]] == ["CO(g)", "NH3(g)"]
+    assert "isru-benchlog-2026/co-cal.csv:2 [Cp]: UNIT-FACTOR" in out
     assert len({s["sources"][0]["source"] for s in lib["species"]}) == 2
     assert tree_hashes(demo_raw) == before  # nothing under raw/ is written
 
@@ -85,7 +86,7 @@ def test_missing_raw_folder(tmp_path, capsys):
 def test_check_prints_findings_and_exits_one_on_errors(demo_raw, capsys):
     code, out, _ = run(capsys, "check", "--raw", demo_raw)
     assert code == 1
-    assert "isru-benchlog-2026/nh3.csv\n" in out and ":9 [Cp]" in out
+    assert "isru-benchlog-2026/nh3.csv\n  ERROR   CELL-NOT-NUMBER        line 9 [Cp]" in out
 
 
 def test_props_agrees_with_the_coefficients(demo_raw, tmp_path, capsys):
@@ -196,5 +197,5 @@ def test_demo_fit_quality_is_recorded(demo_raw, tmp_path, capsys):
     for sp in lib["species"]:
         q = sp["quality"]
         assert 0 <= q["cp_rms_rel_dev"] <= q["cp_max_rel_dev"] < 0.01
-        assert q["points"] == 32  # the demo grid of raw/make_demo.py
+        assert q["points"] == sum(x["rows"] for x in sp["sources"])
         assert np.isfinite(q["worst_t"])

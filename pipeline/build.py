@@ -1,6 +1,6 @@
 """Orchestration: ingest -> validate -> reconcile -> fit -> export. Only wires the stages."""
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 import numpy as np
@@ -55,12 +55,28 @@ def check(raw_dir, ctx: Settings = Settings()) -> CheckResult:
                        selections=tuple(selections), quarantined=tuple(quarantined))
 
 
+def species_settings(meta, ctx: Settings):
+    """The build's fit settings with the table's own overrides from source.json ("fit")."""
+    over = dict(meta.fit_overrides)
+    if "breakpoints" in over:
+        bp = over.pop("breakpoints")
+        if isinstance(bp, list):
+            over["breakpoint_mode"], over["fixed_breakpoints"] = "fixed", tuple(bp)
+            over.setdefault("ranges", len(bp) + 1)
+        else:
+            over["breakpoint_mode"] = bp
+    return replace(ctx.fit, **over) if over else ctx.fit
+
+
 def fit_selection(sel, ctx: Settings):
     data = sel.data
+    col = (lambda c: data[c].to_numpy() if len(data) and data[c].notna().any() else None)
     u = data["u_Cp"].to_numpy() if len(data) and data["u_Cp"].notna().all() else None
     meta = sel.primary.meta
     return fit.fit_species(sel.species_id, data["T"].to_numpy(), data["Cp"].to_numpy(), u,
-                           meta.enthalpy_of_formation_298, meta.entropy_298, ctx.fit)
+                           meta.enthalpy_of_formation_298, meta.entropy_298,
+                           species_settings(meta, ctx), dh=col("dH"), s=col("S"),
+                           geometry=meta.geometry, atoms=meta.atoms, phase=meta.phase)
 
 
 def species_findings(sel, findings):
@@ -88,7 +104,8 @@ def build(raw_dir, out_dir, ctx: Settings = Settings(), *, write=True,
             if not np.isfinite(result.cp_max_rel_dev):
                 raise FitError(sel.species_id, "fit quality is not finite")
         except FitError as exc:
-            f = finding("FIT-FAILED", exc.reason, **where)
+            code = "FIT-REJECTED" if isinstance(exc, fit.FitRejected) else "FIT-FAILED"
+            f = finding(code, exc.reason, **where)
             findings.append(f)
             quarantined.append((meta, (f,)))
             continue

@@ -4,7 +4,8 @@ import argparse
 import sys
 from pathlib import Path
 
-from . import __version__, build, export, library
+from . import __version__, build, export, forms, library
+from .errors import InputError
 from .errors import ThermoledgerError
 from .findings import ERROR, INFO, WARNING, format_block
 from .paths import write_atomic
@@ -49,16 +50,43 @@ def _parser() -> argparse.ArgumentParser:
 
 
 def _fit_options(p):
-    p.add_argument("--breakpoint", type=float, default=FitSettings.breakpoint,
-                   help="conventional breakpoint [K] used when the data straddle it (1000)")
-    p.add_argument("--range-of-use", type=float, nargs=2, metavar=("TMIN", "TMAX"),
-                   help="range of use [K] of every species; beyond the data it is flagged "
-                        "as extrapolated")
+    g = p.add_argument_group("fit settings (defaults: the best general settings)")
+    g.add_argument("--form", choices=sorted(forms.FORMS), default=FitSettings.form,
+                   help="published form of the coefficients (nasa7)")
+    g.add_argument("--ranges", type=int, default=FitSettings.ranges, choices=(1, 2, 3, 4),
+                   help="number of temperature ranges (2)")
+    g.add_argument("--breakpoints", default="optimise", metavar="optimise|conventional|K,K",
+                   help="optimised breakpoints (default), the conventional one, or fixed values")
+    g.add_argument("--breakpoint", type=float, default=FitSettings.breakpoint,
+                   help="the conventional breakpoint [K] (1000)")
+    g.add_argument("--continuity", type=int, choices=(1, 2), default=FitSettings.continuity,
+                   help="continuous derivatives of Cp at breakpoints: 1 = dCp/dT, 2 = also "
+                        "d2Cp/dT2 (1)")
+    g.add_argument("--minimax", action="store_true",
+                   help="minimise the largest relative Cp deviation instead of least squares")
+    g.add_argument("--range-of-use", type=float, nargs=2, metavar=("TMIN", "TMAX"),
+                   help="range of use [K] of every species; ideal gases are extended past "
+                        "the data with a physically shaped model, flagged as extrapolated")
+    g.add_argument("--accept-cp", type=float, default=FitSettings.accept_cp_max_rel,
+                   metavar="FRACTION", help="largest accepted relative Cp deviation (0.01)")
 
 
 def _settings(args) -> Settings:
     lo, hi = args.range_of_use if args.range_of_use else (None, None)
-    return Settings(fit=FitSettings(breakpoint=args.breakpoint, use_t_min=lo, use_t_max=hi))
+    mode, fixed = args.breakpoints, ()
+    if mode not in ("optimise", "conventional"):
+        try:
+            fixed = tuple(sorted(float(x) for x in mode.split(",")))
+        except ValueError:
+            raise InputError(f"--breakpoints '{mode}' is not understood",
+                             expected="optimise, conventional, or temperatures like 800,2500")
+        mode = "fixed"
+    ranges = len(fixed) + 1 if fixed else args.ranges
+    return Settings(fit=FitSettings(form=args.form, ranges=ranges, breakpoint_mode=mode,
+                                    breakpoint=args.breakpoint, fixed_breakpoints=fixed,
+                                    continuity=args.continuity, minimax=args.minimax,
+                                    use_t_min=lo, use_t_max=hi,
+                                    accept_cp_max_rel=args.accept_cp))
 
 
 def _totals(findings):
@@ -134,12 +162,16 @@ def cmd_props(args) -> int:
     values = library.evaluate(sp, args.temperatures)
     print(f"{sp['id']}  {sp['form']}, {sp['ranges'][0]['t_min']:g}-{sp['ranges'][-1]['t_max']:g} K"
           f", from {args.library}")
-    print(f"{'T [K]':>10} {'Cp [J/(mol*K)]':>15} {'H [kJ/mol]':>12} {'S [J/(mol*K)]':>14} "
+    print(f"{'T [K]':>10} {'Cp [J/(mol*K)]':>20} {'H [kJ/mol]':>20} {'S [J/(mol*K)]':>18} "
           f"{'G [kJ/mol]':>12}")
     for i, t in enumerate(args.temperatures):
         note = "  extrapolated" if values["extrapolated"][i] else ""
-        print(f"{t:10.2f} {values['Cp'][i]:15.4f} {values['H'][i] / 1000:12.4f} "
-              f"{values['S'][i]:14.4f} {values['G'][i] / 1000:12.4f}{note}")
+        print(f"{t:10.2f} {values['Cp'][i]:11.4f} ± {values['u_Cp'][i]:6.4f} "
+              f"{values['H'][i] / 1000:11.4f} ± {values['u_H'][i] / 1000:6.4f} "
+              f"{values['S'][i]:9.4f} ± {values['u_S'][i]:6.4f} "
+              f"{values['G'][i] / 1000:12.4f}{note}")
+    print("± standard uncertainty of the fit (H and S relative to their exact 298.15 K anchors; "
+          "extrapolated intervals include the model's).")
     print("H on the assigned-enthalpy scale (H(298.15 K) = enthalpy of formation); S at 1 bar.")
     return 0
 

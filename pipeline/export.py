@@ -28,14 +28,24 @@ UNITS = {"temperature": "K", "enthalpy": "J/mol", "entropy": "J/(mol*K)",
          "coefficients": "published kelvin form named by 'form'; Cp/R, H/(RT), S/R dimensionless"}
 
 
+def extrapolated_intervals(fit) -> list:
+    """Intervals of the range of use outside the data, with how they were filled."""
+    out = []
+    models = {(round(e["t_min"], 6), round(e["t_max"], 6)): e for e in fit.extrapolated}
+    lo, hi = fit.ranges[0].t_min, fit.ranges[-1].t_max
+    for a, b in ((lo, fit.data_t_min), (fit.data_t_max, hi)):
+        if b - a <= 1e-9:
+            continue
+        e = models.get((round(a, 6), round(b, 6)))
+        out.append({"t_min": a, "t_max": b, "model": e["model"] if e else "polynomial",
+                    "holdout_error": e["holdout_error"] if e else None,
+                    "u_rel_end": e["u_rel_end"] if e else None})
+    return out
+
+
 def species_entry(fitted) -> dict:
     """library.json entry of one FittedSpecies."""
     meta, fit = fitted.table.meta, fitted.fit
-    extrapolated = []
-    if fit.ranges[0].t_min < fit.data_t_min:
-        extrapolated.append({"t_min": fit.ranges[0].t_min, "t_max": fit.data_t_min})
-    if fit.ranges[-1].t_max > fit.data_t_max:
-        extrapolated.append({"t_min": fit.data_t_max, "t_max": fit.ranges[-1].t_max})
     sources = [_source_ref(u) for u in fitted.uses]
     return {
         "id": meta.species_id,
@@ -48,10 +58,16 @@ def species_entry(fitted) -> dict:
         "form": fit.form,
         "ranges": [{"t_min": r.t_min, "t_max": r.t_max, "coefficients": list(r.coefficients)}
                    for r in fit.ranges],
+        "breakpoints": list(fit.breakpoints),
         "data_range": {"t_min": fit.data_t_min, "t_max": fit.data_t_max},
-        "extrapolated": extrapolated,
+        "extrapolated": extrapolated_intervals(fit),
         "quality": {"cp_max_rel_dev": fit.cp_max_rel_dev, "cp_rms_rel_dev": fit.cp_rms_rel_dev,
+                    "h_max_dev": fit.h_max_dev, "s_max_dev": fit.s_max_dev,
                     "points": fit.points, "worst_t": fit.worst_t, "weighting": fit.weighting},
+        "uncertainty": {"basis": "Cp/R = sum over p of c[j][p] * (T / 1000 K)^p in range j; "
+                                 "covariance of c, ranges stacked",
+                        "powers": list(fit.powers),
+                        "covariance": [list(row) for row in fit.covariance]},
         "sources": sources,
         "excluded": [{"file": f, "line": int(ln), "code": c} for f, ln, c in fitted.excluded],
         "conversions": list(meta.notes),
@@ -130,9 +146,9 @@ def parquet_bytes(doc: dict) -> bytes:
     """library.parquet: one row per species and range; build metadata as key-value metadata."""
     cols = {k: [] for k in ("id", "formula", "phase", "geometry", "molar_mass",
                             "enthalpy_of_formation_298", "entropy_298", "form", "range_index",
-                            "t_min", "t_max", "a1", "a2", "a3", "a4", "a5", "a6", "a7",
-                            "data_t_min", "data_t_max", "cp_max_rel_dev", "cp_rms_rel_dev",
-                            "points", "sources", "findings")}
+                            "t_min", "t_max", "coefficients", "data_t_min", "data_t_max",
+                            "cp_max_rel_dev", "cp_rms_rel_dev", "points", "extrapolated",
+                            "sources", "findings")}
     for sp in doc["species"]:
         for j, r in enumerate(sp["ranges"]):
             row = {"id": sp["id"], "formula": sp["formula"], "phase": sp["phase"],
@@ -144,16 +160,17 @@ def parquet_bytes(doc: dict) -> bytes:
                    "cp_max_rel_dev": sp["quality"]["cp_max_rel_dev"],
                    "cp_rms_rel_dev": sp["quality"]["cp_rms_rel_dev"],
                    "points": sp["quality"]["points"],
+                   "coefficients": list(r["coefficients"]),
+                   "extrapolated": json.dumps(sp["extrapolated"], ensure_ascii=False),
                    "sources": json.dumps(sp["sources"], ensure_ascii=False),
                    "findings": json.dumps(sp["findings"], ensure_ascii=False)}
-            for k in range(7):
-                row[f"a{k + 1}"] = r["coefficients"][k]
             for k, v in row.items():
                 cols[k].append(v)
-    types = {"range_index": pa.int32(), "points": pa.int32()}
-    arrays = {k: pa.array(v, type=types.get(k, pa.string() if k in (
-        "id", "formula", "phase", "geometry", "form", "sources", "findings") else pa.float64()))
-        for k, v in cols.items()}
+    types = {"range_index": pa.int32(), "points": pa.int32(),
+             "coefficients": pa.list_(pa.float64())}
+    text = ("id", "formula", "phase", "geometry", "form", "extrapolated", "sources", "findings")
+    arrays = {k: pa.array(v, type=types.get(k, pa.string() if k in text else pa.float64()))
+              for k, v in cols.items()}
     meta = {k: json.dumps(doc[k], ensure_ascii=False) for k in (
         "library_format", "notice", "gas_constant", "reference_temperature", "standard_pressure",
         "units", "build")}

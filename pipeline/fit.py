@@ -1,183 +1,236 @@
-"""Fitting stage: multi-range nasa7 fit of Cp/R by exactly constrained weighted least squares.
+"""Fitting stage: multi-range constrained least squares of Cp (and H, S columns).
 
-Problem: minimise Σ ((Cp_fit(T_i) − Cp_i)/σ_i)² over the Cp coefficients of all
-ranges, subject to linear equality constraints at every breakpoint: Cp and
-dCp/dT continuous. The constraints are homogeneous, so every admissible
-coefficient vector is c = N z with N an orthonormal basis of the constraint
-null space; the reduced problem min ||W (A N) z − W y|| is an ordinary least
-squares problem solved by SVD (column-equilibrated). The fit is done in the
-scaled variable τ = T/1000 K for conditioning and converted to kelvin
-coefficients at the end.
+For one species: choose the breakpoints (optimised by default, see breakpoints.py),
+extend ideal-gas Cp past the data when the range of use asks for it (extrapolate.py),
+solve the exactly constrained weighted least-squares problem in τ = T/1000 K (lsq.py:
+continuity of Cp and its derivatives at every breakpoint; optionally minimax), convert to
+the published coefficients of the chosen form (forms.py), choose the integration constants
+range by range — H(298.15) = ΔfH° and S(298.15) = S° exactly in the range holding
+298.15 K, continuity of H and S at every breakpoint — and judge the result against the
+acceptance thresholds.
 
-The integration constants (a6, a7) are then chosen range by range: in the range
-holding 298.15 K they make H(298.15) = ΔfH°(298.15) and S(298.15) = S°(298.15)
-exactly; in every other range they make H and S continuous at the shared
-breakpoint, chained outward from the anchor range.
-
-σ_i is u(Cp)_i when the table gives it, otherwise Cp_i (relative weighting).
+Weights: σ(Cp) = u(Cp) when the table states it, else the inferred relative uncertainty
+times Cp; σ(H) and σ(S) from the settings. The covariance of the scaled coefficients
+(reduced-chi-square scaled, projected onto the constraints) is kept for uncertainty bands.
 """
 
 import numpy as np
-from scipy.linalg import null_space
 
-from . import forms
-from .constants import GAS_CONSTANT, REFERENCE_TEMPERATURE
+from . import basis, breakpoints, extrapolate, forms, lsq
+from .constants import GAS_CONSTANT as R
+from .constants import REFERENCE_TEMPERATURE
 from .errors import FitError
 from .records import FitRange, FitResult
 from .settings import FitSettings
 
-N_CP = 5  # Cp coefficients per nasa7 range
+
+class FitRejected(FitError):
+    """A fit that was carried out but fails the acceptance thresholds."""
 
 
-def choose_breakpoints(t, settings: FitSettings) -> list[float]:
-    """One breakpoint [K]: the conventional one when the data straddle it with enough points on
-    each side, otherwise the middle of the data (between the two central points)."""
-    t = np.sort(np.asarray(t, dtype=float))
-    k = settings.min_points_per_range
-    tb = settings.breakpoint
-    if (t <= tb).sum() >= k and (t > tb).sum() >= k:
-        return [float(tb)]
-    mid = len(t) // 2
-    return [float(round(np.sqrt(t[mid - 1] * t[mid]), 6))]
+def choose_breakpoints(t, y, sigma, form, settings: FitSettings):
+    """Breakpoints [K] and an optional (code, message) note."""
+    need = max(settings.min_points_per_range, 2)
+    nr = settings.ranges
+    if nr == 1:
+        return [], None
+    if settings.breakpoint_mode == "fixed":
+        return sorted(float(b) for b in settings.fixed_breakpoints), None
+    if settings.breakpoint_mode == "conventional":
+        conv = breakpoints.conventional(t, nr, settings.breakpoint, need)
+        if conv:
+            return conv, None
+        note = ("COV-RANGE-POINTS", f"{int((t <= settings.breakpoint).sum())} point(s) at or "
+                f"below and {int((t > settings.breakpoint).sum())} above {settings.breakpoint:g} "
+                f"K (at least {need} needed on each side); breakpoint optimised instead")
+    else:
+        note = None
+    bps = breakpoints.optimise(t, y, sigma, form.powers, nr, order=settings.continuity,
+                               norm=settings.breakpoint_norm, need=need,
+                               bounds=(settings.breakpoint_min, settings.breakpoint_max),
+                               max_candidates=settings.max_candidates)
+    return bps, note
 
 
-def breakpoint_note(t, breakpoints, settings: FitSettings):
-    """(code, message) when the conventional breakpoint could not be used, else None."""
-    if breakpoints == [float(settings.breakpoint)]:
-        return None
-    t = np.asarray(t, dtype=float)
-    tb = settings.breakpoint
-    return ("COV-RANGE-POINTS", f"{int((t <= tb).sum())} point(s) at or below and "
-            f"{int((t > tb).sum())} above {tb:g} K (at least {settings.min_points_per_range} "
-            f"needed on each side); breakpoint set to {breakpoints[0]:g} K")
-
-
-def _powers(tau, deriv=0):
-    """Rows of [1, τ, τ², τ³, τ⁴] (or their derivative) at ``tau``."""
-    tau = np.atleast_1d(np.asarray(tau, dtype=float))
-    k = np.arange(N_CP)
-    if deriv == 0:
-        return tau[:, None] ** k
-    coef = k.astype(float)
-    return coef * tau[:, None] ** np.maximum(k - 1, 0)
-
-
-def solve_cp(t, y, sigma, breakpoints) -> np.ndarray:
-    """Scaled Cp/R coefficients c[range, k] (τ = T/1000) of the constrained fit.
-
-    Parameters
-    ----------
-    t : temperatures [K]; y : Cp/R [-]; sigma : standard deviations of y [-]
-    breakpoints : ascending breakpoints [K]
-    """
-    t = np.asarray(t, dtype=float)
-    tau = t / forms.T_SCALE
-    nr = len(breakpoints) + 1
-    idx = np.searchsorted(np.asarray(breakpoints, dtype=float), t, side="left")
-    a = np.zeros((len(t), nr * N_CP))
-    v = _powers(tau)
-    for j in range(nr):
-        m = idx == j
-        a[m, j * N_CP:(j + 1) * N_CP] = v[m]
-    rows = []
-    for j, tb in enumerate(breakpoints):
-        for d in (0, 1):  # continuity of Cp and dCp/dT
-            row = np.zeros(nr * N_CP)
-            p = _powers(tb / forms.T_SCALE, d)[0]
-            row[j * N_CP:(j + 1) * N_CP] = p
-            row[(j + 1) * N_CP:(j + 2) * N_CP] = -p
-            rows.append(row)
-    basis = null_space(np.array(rows)) if rows else np.eye(nr * N_CP)
-    m = (a @ basis) / sigma[:, None]
-    b = y / sigma
-    norms = np.linalg.norm(m, axis=0)
-    norms[norms == 0] = 1.0
-    z, *_ = np.linalg.lstsq(m / norms, b, rcond=None)
-    c = basis @ (z / norms)
-    return c.reshape(nr, N_CP)
-
-
-def integration_constants(cp_coeffs, edges, h298, s298):
-    """a6, a7 for every range: anchored at 298.15 K, continuous at breakpoints.
-
-    Parameters
-    ----------
-    cp_coeffs : list of a1..a5 (kelvin) per range
-    edges : [t_min, b1, ..., t_max] [K]
-    h298 : ΔfH°(298.15) [J/mol]; s298 : S°(298.15) [J/(mol K)]
-    """
+def integration_constants(form, cp_coeffs, edges, h298, s298):
+    """h0 [J/mol], s0 [J/(mol K)] per range: anchored at 298.15 K, continuous at breakpoints."""
     nr = len(cp_coeffs)
     tref = REFERENCE_TEMPERATURE
     j0 = int(np.clip(np.searchsorted(np.asarray(edges[1:-1]), tref, side="left"), 0, nr - 1))
-    a6 = [0.0] * nr
-    a7 = [0.0] * nr
+    h0, s0 = [0.0] * nr, [0.0] * nr
     a = cp_coeffs
-    a6[j0] = h298 / GAS_CONSTANT - float(forms.h_over_r_integral(a[j0], tref))
-    a7[j0] = s298 / GAS_CONSTANT - float(forms.s_over_r_integral(a[j0], tref))
-    for j in range(j0 + 1, nr):  # upward: match the lower neighbour at edges[j]
-        tb = edges[j]
-        a6[j] = float(forms.h_over_r_integral(a[j - 1], tb)) + a6[j - 1] \
-            - float(forms.h_over_r_integral(a[j], tb))
-        a7[j] = float(forms.s_over_r_integral(a[j - 1], tb)) + a7[j - 1] \
-            - float(forms.s_over_r_integral(a[j], tb))
-    for j in range(j0 - 1, -1, -1):  # downward: match the upper neighbour at edges[j+1]
-        tb = edges[j + 1]
-        a6[j] = float(forms.h_over_r_integral(a[j + 1], tb)) + a6[j + 1] \
-            - float(forms.h_over_r_integral(a[j], tb))
-        a7[j] = float(forms.s_over_r_integral(a[j + 1], tb)) + a7[j + 1] \
-            - float(forms.s_over_r_integral(a[j], tb))
-    return a6, a7
+    h0[j0] = h298 - float(form.h_integral(a[j0], tref))
+    s0[j0] = s298 - float(form.s_integral(a[j0], tref))
+    for j in list(range(j0 + 1, nr)) + list(range(j0 - 1, -1, -1)):
+        k = j - 1 if j > j0 else j + 1          # the neighbour already fixed
+        tb = edges[j] if j > j0 else edges[j + 1]
+        h0[j] = float(form.h_integral(a[k], tb)) + h0[k] - float(form.h_integral(a[j], tb))
+        s0[j] = float(form.s_integral(a[k], tb)) + s0[k] - float(form.s_integral(a[j], tb))
+    return h0, s0
 
 
-def fit_species(species_id: str, t, cp, u, h298: float, s298: float,
-                settings: FitSettings = FitSettings()) -> FitResult:
-    """Fit one species' table.
+def _observations(t, cp, u, dh, s, u_dh, u_s, s298, bps, edges, form, settings):
+    """Stacked rows, targets and σ of all observations (Cp, then H, then S)."""
+    rows = [basis.cp_rows(form.powers, t, bps)]
+    y = [cp / R]
+    sig = [u / R]
+    if settings.simultaneous and dh is not None:
+        m = np.isfinite(dh)
+        if m.sum():
+            uh = u_dh[m] if u_dh is not None else np.maximum(
+                settings.h_uncertainty_rel * np.abs(dh[m]), settings.h_uncertainty_abs)
+            rows.append(basis.integral_rows(form.powers, t[m], bps, edges, "H"))
+            y.append(dh[m] / R)
+            sig.append(uh / R)
+    if settings.simultaneous and s is not None and s298 is not None:
+        m = np.isfinite(s)
+        if m.sum():
+            us = u_s[m] if u_s is not None else np.full(m.sum(), settings.s_uncertainty_abs)
+            rows.append(basis.integral_rows(form.powers, t[m], bps, edges, "S"))
+            y.append((s[m] - s298) / R)
+            sig.append(us / R)
+    return np.vstack(rows), np.concatenate(y), np.concatenate(sig)
+
+
+def fit_species(species_id, t, cp, u, h298, s298, settings: FitSettings = FitSettings(), *,
+                dh=None, s=None, u_dh=None, u_s=None, geometry=None, atoms=None,
+                phase="g") -> FitResult:
+    """Fit one species.
 
     Parameters
     ----------
-    t : [K]; cp : [J/(mol K)]; u : standard uncertainty of cp [J/(mol K)] or None
+    t : [K]; cp : [J/(mol K)]; u : u(Cp) [J/(mol K)] or None
     h298 : ΔfH°(298.15 K) [J/mol]; s298 : S°(298.15 K) at 1 bar [J/(mol K)]
-
-    Returns
-    -------
-    FitResult with nasa7 ranges in kelvin and the fit quality.
+    dh : H(T) − H(298.15) [J/mol] or None; s : S [J/(mol K)] or None (NaN where absent)
+    geometry, atoms, phase : for extrapolation of ideal gases
     """
-    if settings.form not in forms.FORMS:
-        raise FitError(species_id, f"form '{settings.form}' is not available; "
-                       f"choose one of {', '.join(forms.FORMS)}")
+    form = forms.FORMS.get(settings.form)
+    if form is None:
+        raise FitError(species_id, f"form '{settings.form}' is not available; choose one of "
+                       + ", ".join(forms.FORMS))
+    if not 1 <= settings.ranges <= 4:
+        raise FitError(species_id, f"{settings.ranges} ranges requested; 1 to 4 are supported")
     t = np.asarray(t, dtype=float)
-    cp = np.asarray(cp, dtype=float)
     order = np.argsort(t, kind="stable")
-    t, cp = t[order], cp[order]
+    t, cp = t[order], np.asarray(cp, dtype=float)[order]
+    pick = (lambda v: None if v is None else np.asarray(v, dtype=float)[order])
+    u, dh, s, u_dh, u_s = pick(u), pick(dh), pick(s), pick(u_dh), pick(u_s)
     if len(t) < settings.min_points:
         raise FitError(species_id, f"{len(t)} points, at least {settings.min_points} needed")
-    y = cp / GAS_CONSTANT
-    if u is not None:
-        sigma = np.asarray(u, dtype=float)[order] / GAS_CONSTANT
-        weighting = "u(Cp)"
-    else:
-        sigma = y.copy()
-        weighting = "relative"
-    breakpoints = choose_breakpoints(t, settings)
-    c = solve_cp(t, y, sigma, breakpoints)
-    if not np.all(np.isfinite(c)):
-        raise FitError(species_id, "the least-squares solution is not finite")
-    kelvin = [forms.kelvin_from_scaled(row) for row in c]
+    weighting = "u(Cp)" if u is not None else "relative"
+    sigma = u if u is not None else settings.inferred_cp_uncertainty * cp
+    n_data = len(t)
+    notes = []
+    # --- extension past the data (ideal gases only) --------------------------------------
     lo = min(float(t[0]), REFERENCE_TEMPERATURE,
              settings.use_t_min if settings.use_t_min is not None else np.inf)
     hi = max(float(t[-1]), settings.use_t_max if settings.use_t_max is not None else -np.inf)
-    edges = [lo] + list(breakpoints) + [hi]
-    a6, a7 = integration_constants(kelvin, edges, h298, s298)
+    extensions = []
+    if phase != "g" and (hi > t[-1] or lo < min(t[0], REFERENCE_TEMPERATURE)):
+        notes.append(("COV-EXTRAPOLATED", "condensed phase: the range of use is limited to the "
+                      f"data, {t[0]:.6g}-{t[-1]:.6g} K (never extrapolated)"))
+        hi = float(t[-1])
+        lo = min(float(t[0]), REFERENCE_TEMPERATURE)
+    elif settings.extrapolate and geometry and atoms:
+        for side, target in (("high", hi), ("low", lo)):
+            beyond = target > t[-1] * 1.0001 if side == "high" else target < t[0] * 0.9999
+            if not beyond or (side == "low" and target >= REFERENCE_TEMPERATURE - 1e-9
+                              and t[0] - REFERENCE_TEMPERATURE <= settings.max_anchor_extension):
+                continue
+            ext = extrapolate.extend(t, cp, geometry, atoms, target, side=side)
+            if ext is None:
+                notes.append(("COV-EXTRAPOLATED", f"no extrapolation model passed its guards "
+                              f"on the {side} side; the polynomial is extrapolated to "
+                              f"{target:g} K unguided"))
+                continue
+            extensions.append(ext)
+    ext_t = np.array([x for e in extensions for x in e.t])
+    ext_cp = np.array([x for e in extensions for x in e.cp])
+    ext_u = np.array([x for e in extensions for x in e.u_rel])
+    all_t, all_cp = np.concatenate([t, ext_t]), np.concatenate([cp, ext_cp])
+    all_sig = np.concatenate([sigma, np.maximum(ext_u, settings.inferred_cp_uncertainty) * ext_cp])
+    srt = np.argsort(all_t, kind="stable")
+    all_t, all_cp, all_sig = all_t[srt], all_cp[srt], all_sig[srt]
+    # --- breakpoints and the constrained solution ---------------------------------------
+    try:
+        bps, note = choose_breakpoints(all_t, all_cp / R, all_sig / R, form, settings)
+    except ValueError as exc:
+        raise FitError(species_id, str(exc)) from None
+    if note:
+        notes.append(note)
+    edges = [lo] + list(bps) + [hi]
+    if any(b <= lo or b >= hi for b in bps) or list(bps) != sorted(bps):
+        raise FitError(species_id, f"breakpoints {bps} do not lie inside {lo:g}-{hi:g} K")
+    rows, y, sig = _observations(all_t, all_cp, all_sig, None, None, None, None, s298, bps,
+                                 edges, form, settings)
+    if settings.simultaneous:
+        extra_rows, extra_y, extra_sig = _observations(t, cp, sigma, dh, s, u_dh, u_s, s298, bps,
+                                                       edges, form, settings)
+        n_cp = len(t)
+        rows = np.vstack([rows, extra_rows[n_cp:]])
+        y = np.concatenate([y, extra_y[n_cp:]])
+        sig = np.concatenate([sig, extra_sig[n_cp:]])
+    cons = basis.continuity_rows(form.powers, bps, settings.continuity) if bps else None
+    sol = lsq.minimax(rows, y, sig, cons) if settings.minimax else lsq.solve(rows, y, sig, cons)
+    if not np.all(np.isfinite(sol.c)):
+        raise FitError(species_id, "the least-squares solution is not finite")
+    m = len(form.powers)
+    scaled = sol.c.reshape(len(bps) + 1, m)
+    cp_coeffs = [form.cp_coefficients(row) for row in scaled]
+    h0, s0 = integration_constants(form, cp_coeffs, edges, h298, s298)
     ranges = tuple(FitRange(t_min=float(edges[j]), t_max=float(edges[j + 1]),
-                            coefficients=tuple(kelvin[j]) + (float(a6[j]), float(a7[j])))
-                   for j in range(len(kelvin)))
-    fitted = forms.evaluate([(r.t_min, r.t_max, r.coefficients) for r in ranges], t)["Cp"]
-    rel = (fitted - cp) / cp
+                            coefficients=tuple(float(x) for x in form.pack(cp_coeffs[j], h0[j],
+                                                                           s0[j], h298)))
+                   for j in range(len(cp_coeffs)))
+    return _judge(species_id, form, ranges, bps, t, cp, sigma, dh, s, n_data, weighting, sol,
+                  extensions, notes, settings)
+
+
+def _judge(species_id, form, ranges, bps, t, cp, sigma, dh, s, n_data, weighting, sol,
+           extensions, notes, settings):
+    rr = [(r.t_min, r.t_max, r.coefficients) for r in ranges]
+    ev = forms.evaluate(rr, t, form)
+    rel = (ev["Cp"] - cp) / cp
     worst = int(np.argmax(np.abs(rel)))
-    return FitResult(form=settings.form, ranges=ranges, data_t_min=float(t[0]),
-                     data_t_max=float(t[-1]), points=int(len(t)),
-                     cp_max_rel_dev=float(np.abs(rel).max()),
-                     cp_rms_rel_dev=float(np.sqrt(np.mean(rel**2))),
-                     worst_t=float(t[worst]), weighting=weighting,
-                     settings=settings.to_dict(),
-                     notes=tuple(n for n in [breakpoint_note(t, breakpoints, settings)] if n))
+    h_dev = s_dev = None
+    ref = forms.evaluate(rr, [REFERENCE_TEMPERATURE], form)
+    if dh is not None and np.isfinite(dh).any():
+        m = np.isfinite(dh)
+        h_dev = float(np.max(np.abs(ev["H"][m] - ref["H"][0] - dh[m])))
+    if s is not None and np.isfinite(s).any():
+        m = np.isfinite(s)
+        s_dev = float(np.max(np.abs(ev["S"][m] - s[m])))
+    dense = np.unique(np.concatenate([np.geomspace(ranges[0].t_min, ranges[-1].t_max, 400),
+                                      [r.t_min for r in ranges], [ranges[-1].t_max]]))
+    cp_dense = forms.evaluate(rr, dense, form)["Cp"]
+    extrap = tuple({"t_min": min(e.t_from, e.t_to), "t_max": max(e.t_from, e.t_to),
+                    "model": e.model, "holdout_error": e.holdout_error,
+                    "u_rel_end": e.u_rel_end} for e in sorted(extensions, key=lambda e: e.t_to))
+    result = FitResult(form=form.name, ranges=ranges, breakpoints=tuple(bps),
+                       data_t_min=float(t[0]), data_t_max=float(t[-1]), points=int(n_data),
+                       cp_max_rel_dev=float(np.abs(rel).max()),
+                       cp_rms_rel_dev=float(np.sqrt(np.mean(rel ** 2))),
+                       worst_t=float(t[worst]), weighting=weighting, h_max_dev=h_dev,
+                       s_max_dev=s_dev, covariance=tuple(tuple(float(x) for x in row)
+                                                         for row in sol.cov),
+                       powers=tuple(form.powers), extrapolated=extrap,
+                       settings=settings.to_dict(), notes=tuple(notes))
+    if np.any(cp_dense <= 0) or not np.all(np.isfinite(cp_dense)):
+        bad = dense[np.argmax(~(cp_dense > 0))]
+        raise FitRejected(species_id, f"fitted Cp is not positive at {bad:.6g} K inside the "
+                          "range of use")
+    fails = []
+    # a point fails acceptance when it is off by more than the threshold and by more than
+    # three of its own standard uncertainties (a point stated as uncertain may scatter)
+    off = (np.abs(rel) > settings.accept_cp_max_rel) & (np.abs(ev["Cp"] - cp) > 3 * sigma)
+    if off.any():
+        k = int(np.argmax(np.where(off, np.abs(rel), 0.0)))
+        fails.append(f"|dCp/Cp| {100 * abs(rel[k]):.3g} % at {t[k]:.6g} K > "
+                     f"{100 * settings.accept_cp_max_rel:g} %")
+    if h_dev is not None and h_dev > settings.accept_h_max:
+        fails.append(f"max |dH| {h_dev:.4g} J/mol > {settings.accept_h_max:g}")
+    if s_dev is not None and s_dev > settings.accept_s_max:
+        fails.append(f"max |dS| {s_dev:.4g} J/(mol*K) > {settings.accept_s_max:g}")
+    if fails:
+        raise FitRejected(species_id, "; ".join(fails))
+    return result

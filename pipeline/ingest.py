@@ -165,7 +165,10 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
                      columns=parsed.columns if parsed else (),
                      notes=tuple(notes) + (parsed.notes if parsed else ()),
                      acknowledgements=tuple(dict(a) for a in entry.get("acknowledge", ())),
-                     index=index)
+                     index=index,
+                     fit_overrides=tuple(sorted(
+                         (k, tuple(v) if isinstance(v, list) and k != "breakpoints" else v)
+                         for k, v in entry.get("fit", {}).items())))
     data = parsed.data if parsed else csvtable.empty_frame()
     return Table(meta=meta, data=data), infile, problems
 

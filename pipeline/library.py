@@ -5,7 +5,8 @@ from pathlib import Path
 
 import numpy as np
 
-from . import forms
+from . import basis, forms
+from .constants import GAS_CONSTANT as R
 from .errors import InputError
 
 
@@ -44,15 +45,52 @@ def ranges_of(species: dict):
     return [(r["t_min"], r["t_max"], r["coefficients"]) for r in species["ranges"]]
 
 
-def evaluate(species: dict, temperatures) -> dict:
-    """Cp, H, S, G at ``temperatures`` [K]; raises InputError outside the range of use."""
-    t = np.atleast_1d(np.asarray(temperatures, dtype=float))
+def _check_range(species, t):
     lo, hi = species["ranges"][0]["t_min"], species["ranges"][-1]["t_max"]
     bad = t[(t < lo) | (t > hi) | ~np.isfinite(t)]
     if len(bad):
         raise InputError(f"T = {bad[0]:g} K is outside the range of use of {species['id']}",
                          expected=f"{lo:g} K <= T <= {hi:g} K")
-    out = forms.evaluate(ranges_of(species), t)
+
+
+def evaluate(species: dict, temperatures) -> dict:
+    """Cp, H, S, G at ``temperatures`` [K], their standard uncertainties (u_Cp, u_H, u_S) and
+    an 'extrapolated' flag; raises InputError outside the range of use."""
+    t = np.atleast_1d(np.asarray(temperatures, dtype=float))
+    _check_range(species, t)
+    out = forms.evaluate(ranges_of(species), t, species["form"])
+    out.update(uncertainty(species, t))
     out["extrapolated"] = np.array([any(e["t_min"] <= x <= e["t_max"]
                                         for e in species["extrapolated"]) for x in t])
+    return out
+
+
+def uncertainty(species: dict, t) -> dict:
+    """Standard uncertainties of Cp [J/(mol K)], H [J/mol], S [J/(mol K)] from the stored
+    covariance of the scaled coefficients (H and S relative to their exact 298.15 K anchors),
+    plus the extrapolation model's uncertainty inside extrapolated intervals."""
+    t = np.atleast_1d(np.asarray(t, dtype=float))
+    unc = species.get("uncertainty") or {}
+    cov = np.asarray(unc.get("covariance") or [], dtype=float)
+    powers = unc.get("powers") or []
+    bps = species.get("breakpoints", [])
+    edges = [species["ranges"][0]["t_min"]] + list(bps) + [species["ranges"][-1]["t_max"]]
+    if cov.size == 0:
+        zero = np.zeros_like(t)
+        return {"u_Cp": zero, "u_H": zero.copy(), "u_S": zero.copy()}
+    out = {}
+    for key, rows, scale in (("u_Cp", basis.cp_rows(powers, t, bps), R),
+                             ("u_H", basis.integral_rows(powers, t, bps, edges, "H"), R),
+                             ("u_S", basis.integral_rows(powers, t, bps, edges, "S"), R)):
+        var = np.einsum("ni,ij,nj->n", rows, cov, rows)
+        out[key] = scale * np.sqrt(np.maximum(var, 0.0))
+    cp = forms.evaluate(ranges_of(species), t, species["form"])["Cp"]
+    for e in species["extrapolated"]:
+        if e.get("u_rel_end"):
+            inside = (t >= e["t_min"]) & (t <= e["t_max"])
+            span = np.log(e["t_max"] / e["t_min"]) or 1.0
+            edge = e["t_min"] if e["t_max"] >= species["data_range"]["t_max"] else e["t_max"]
+            frac = np.abs(np.log(t / edge)) / span
+            extra = e["u_rel_end"] * frac * cp
+            out["u_Cp"] = np.where(inside, np.hypot(out["u_Cp"], extra), out["u_Cp"])
     return out

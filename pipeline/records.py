@@ -52,6 +52,7 @@ class TableMeta:
     notes: tuple = ()      # conversions and assumptions made while reading
     acknowledgements: tuple = ()  # ({'code', 'line', 'reason'} dicts, index in source.json)
     index: int = 0         # position of the table in source.json 'tables'
+    fit_overrides: tuple = ()  # ((setting, value), ...) from the table's "fit" entry
 
     @property
     def species_id(self) -> str:
@@ -82,13 +83,19 @@ class FitRange:
 class FitResult:
     form: str
     ranges: tuple          # of FitRange, ascending in T
+    breakpoints: tuple     # [K]
     data_t_min: float      # [K]
     data_t_max: float      # [K]
-    points: int
+    points: int            # data points used (extension points not counted)
     cp_max_rel_dev: float
     cp_rms_rel_dev: float
     worst_t: float         # [K] where |relative Cp deviation| is largest
     weighting: str         # "u(Cp)" or "relative"
+    h_max_dev: float | None = None   # [J/mol] against the H-H298 column, when given
+    s_max_dev: float | None = None   # [J/(mol K)] against the S column, when given
+    covariance: tuple = ()  # of the scaled Cp/R coefficients, all ranges stacked
+    powers: tuple = ()      # powers of tau = T/1000 K of the scaled basis
+    extrapolated: tuple = ()  # dicts: t_min, t_max, model, holdout_error, u_rel_end
     settings: dict = field(default_factory=dict, compare=False)
     notes: tuple = ()      # (code, message) of decisions the fit made
 

@@ -5,9 +5,34 @@ from dataclasses import asdict, dataclass
 
 @dataclass(frozen=True)
 class FitSettings:
+    #: published form of the coefficients: nasa7, nasa9 or shomate (forms.FORMS)
     form: str = "nasa7"
-    #: conventional breakpoint [K], used when the data straddle it
+    #: number of temperature ranges (1 to 4)
+    ranges: int = 2
+    #: "optimise" (default), "conventional" (``breakpoint``, two ranges) or "fixed"
+    breakpoint_mode: str = "optimise"
+    #: conventional breakpoint [K]
     breakpoint: float = 1000.0
+    #: breakpoints [K] for breakpoint_mode "fixed"
+    fixed_breakpoints: tuple = ()
+    #: what optimised breakpoints minimise: "max" (largest weighted deviation) or "rms"
+    breakpoint_norm: str = "max"
+    #: allowed interval [K] for optimised breakpoints (None: anywhere inside the data)
+    breakpoint_min: float | None = None
+    breakpoint_max: float | None = None
+    max_candidates: int = 80
+    #: continuity at breakpoints: 1 = Cp and dCp/dT, 2 = also d2Cp/dT2
+    continuity: int = 1
+    #: minimise the largest weighted Cp deviation instead of the sum of squares
+    minimax: bool = False
+    #: fit H-H298 and S columns together with Cp when a table has them
+    simultaneous: bool = True
+    #: relative standard uncertainty of Cp assumed when a table states none (common practice)
+    inferred_cp_uncertainty: float = 0.003
+    #: assumed u(H-H298) = max(rel * |H-H298|, abs) [J/mol] and u(S) [J/(mol K)]
+    h_uncertainty_rel: float = 1e-3
+    h_uncertainty_abs: float = 10.0
+    s_uncertainty_abs: float = 0.02
     #: fewest data points in each fitted range
     min_points_per_range: int = 5
     #: how far [K] the lowest range may be stretched below the data to reach 298.15 K
@@ -15,13 +40,21 @@ class FitSettings:
     #: requested range of use [K] (None: the data range); beyond the data it is extrapolated
     use_t_min: float | None = None
     use_t_max: float | None = None
+    #: extend ideal-gas Cp past the data with a physically shaped model before fitting
+    extrapolate: bool = True
+    #: acceptance: a fit beyond these is reported (FIT-REJECTED) instead of exported
+    accept_cp_max_rel: float = 0.01
+    accept_h_max: float = 500.0
+    accept_s_max: float = 0.5
 
     @property
     def min_points(self) -> int:
-        return 2 * self.min_points_per_range
+        return self.ranges * self.min_points_per_range
 
     def to_dict(self) -> dict:
-        return asdict(self)
+        d = asdict(self)
+        d["fixed_breakpoints"] = list(self.fixed_breakpoints)
+        return d
 
 
 @dataclass(frozen=True)

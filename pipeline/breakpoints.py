@@ -4,21 +4,25 @@ Optimised breakpoints minimise the largest weighted Cp deviation (or the rms) of
 constrained fit. Candidates for a breakpoint are the geometric means of neighbouring data
 temperatures that leave enough points in every range, thinned to at most
 ``max_candidates``; every candidate problem is solved at once (lsq.batch_objective).
-With two ranges the search is exhaustive over the candidates; with more, it is repeated
-coordinate descent, one breakpoint at a time.
+With two ranges the search is exhaustive over the candidates; with more, the best set of a
+coarse grid of combinations starts a repeated coordinate descent, one breakpoint at a time.
 """
 
 import numpy as np
 
-from . import basis, lsq
+from . import basis, forms, lsq
 
 
-def _candidates(t, lo_idx, hi_idx, need, bounds, limit):
-    """Candidate breakpoints between data index lo_idx and hi_idx leaving ``need`` points."""
+def _candidates(t, lo_idx, hi_idx, need, bounds, limit, ratio=1.0, lo_edge=None, hi_edge=None):
+    """Candidate breakpoints between data index lo_idx and hi_idx leaving ``need`` points, and
+    leaving every range at least ``ratio`` wide (T_high/T_low) against its other edge."""
     first, last = lo_idx + need - 1, hi_idx - need
     if last < first:
         return np.array([])
     cands = np.sqrt(t[first:last + 1] * t[first + 1:last + 2])
+    lo_edge = t[0] if lo_edge is None else lo_edge
+    hi_edge = t[-1] if hi_edge is None else hi_edge
+    cands = cands[(cands >= lo_edge * ratio) & (cands <= hi_edge / ratio)]
     lo, hi = bounds
     if lo is not None:
         cands = cands[cands >= lo]
@@ -30,16 +34,27 @@ def _candidates(t, lo_idx, hi_idx, need, bounds, limit):
 
 
 def objective_for(t, y, sigma, powers, sets, order, norm):
-    """Objective of each breakpoint set in ``sets`` (K, nb) -> (K,)."""
+    """Objective of each breakpoint set in ``sets`` (K, nb) -> (K,); ``t`` ascending."""
     sets = np.asarray(sets, dtype=float)
-    k = len(sets)
-    a = np.stack([basis.cp_rows(powers, t, s) for s in sets])
-    c = np.stack([basis.continuity_rows(powers, s, order) for s in sets])
-    return lsq.batch_objective(a, y, sigma, c, norm)[:k]
+    kk, nb = sets.shape
+    m = len(powers)
+    tau = np.asarray(t, dtype=float) / forms.T_SCALE
+    v = basis.powers_row(powers, tau)
+    n = len(t)
+    starts = np.zeros((kk, nb + 2), dtype=int)
+    starts[:, 1:-1] = np.searchsorted(t, sets, side="right")   # points <= b: lower range
+    starts[:, -1] = n
+    c = np.zeros((kk, nb * (order + 1), (nb + 1) * m))
+    for j in range(nb):
+        for d in range(order + 1):
+            rows = basis.powers_row(powers, sets[:, j] / forms.T_SCALE, d)   # (K, m)
+            c[:, j * (order + 1) + d, j * m:(j + 1) * m] = rows
+            c[:, j * (order + 1) + d, (j + 1) * m:(j + 2) * m] = -rows
+    return lsq.batch_objective(v, y, sigma, m, starts, c, norm)
 
 
 def optimise(t, y, sigma, powers, n_ranges, *, order=1, norm="max", need=5,
-             bounds=(None, None), max_candidates=80, sweeps=3, start=None):
+             bounds=(None, None), max_candidates=80, sweeps=3, start=None, ratio=1.5):
     """Breakpoints [K] (ascending) minimising the objective; ``t`` sorted ascending."""
     t = np.asarray(t, dtype=float)
     nb = n_ranges - 1
@@ -48,11 +63,12 @@ def optimise(t, y, sigma, powers, n_ranges, *, order=1, norm="max", need=5,
     n = len(t)
     if n < n_ranges * need:
         raise ValueError(f"{n} points cannot fill {n_ranges} ranges of {need}")
-    if start is None:
-        q = np.exp(np.quantile(np.log(t), np.arange(1, n_ranges) / n_ranges))
-        current = list(q)
-    else:
+    if start is not None:
         current = list(start)
+    elif nb == 1:
+        current = [float(np.exp(np.median(np.log(t))))]
+    else:
+        current = _coarse_start(t, y, sigma, powers, nb, order, norm, need, bounds, ratio)
     best_obj = None
     for sweep in range(sweeps if nb > 1 else 1):
         changed = False
@@ -61,7 +77,9 @@ def optimise(t, y, sigma, powers, n_ranges, *, order=1, norm="max", need=5,
             hi_t = current[j + 1] if j < nb - 1 else np.inf
             lo_idx = int(np.searchsorted(t, lo_t, side="right"))
             hi_idx = int(np.searchsorted(t, hi_t, side="right")) - 1
-            cands = _candidates(t, lo_idx, hi_idx, need, bounds, max_candidates)
+            cands = _candidates(t, lo_idx, hi_idx, need, bounds, max_candidates, ratio,
+                                lo_edge=current[j - 1] if j > 0 else None,
+                                hi_edge=current[j + 1] if j < nb - 1 else None)
             if not len(cands):
                 continue
             sets = np.tile(np.asarray(current, dtype=float), (len(cands), 1))
@@ -75,6 +93,25 @@ def optimise(t, y, sigma, powers, n_ranges, *, order=1, norm="max", need=5,
         if not changed:
             break
     return [float(round(b, 3)) for b in current]
+
+
+def _coarse_start(t, y, sigma, powers, nb, order, norm, need, bounds, ratio=1.0, per_axis=None):
+    """Best of a coarse grid of breakpoint sets (a start for coordinate descent, which alone
+    can stall in a local minimum when there are several breakpoints)."""
+    import itertools
+
+    per_axis = per_axis or {2: 24, 3: 10}.get(nb, 7)
+    grid = _candidates(t, 0, len(t) - 1, need, bounds, per_axis, ratio)
+    idx = np.searchsorted(t, grid, side="right")
+    sets = [c for c in itertools.combinations(range(len(grid)), nb)
+            if all(idx[c[i + 1]] - idx[c[i]] >= need and grid[c[i + 1]] >= grid[c[i]] * ratio
+                   for i in range(nb - 1))]
+    if not sets:
+        q = np.exp(np.quantile(np.log(t), np.arange(1, nb + 1) / (nb + 1)))
+        return list(q)
+    sets = np.array([[grid[i] for i in c] for c in sets])
+    obj = objective_for(t, y, sigma, powers, sets, order, norm)
+    return list(sets[int(np.argmin(obj))])
 
 
 def conventional(t, n_ranges, breakpoint, need):

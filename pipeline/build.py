@@ -1,6 +1,6 @@
 """Orchestration: ingest -> validate -> reconcile -> fit -> export. Only wires the stages."""
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -9,7 +9,7 @@ from . import acknowledge, export, fit, ingest, reconcile, validate
 from .errors import FitError
 from .findings import ERROR, finding
 from .records import FittedSpecies
-from .settings import Settings
+from .settings import Settings, for_table
 
 
 @dataclass(frozen=True)
@@ -57,15 +57,7 @@ def check(raw_dir, ctx: Settings = Settings()) -> CheckResult:
 
 def species_settings(meta, ctx: Settings):
     """The build's fit settings with the table's own overrides from source.json ("fit")."""
-    over = dict(meta.fit_overrides)
-    if "breakpoints" in over:
-        bp = over.pop("breakpoints")
-        if isinstance(bp, list):
-            over["breakpoint_mode"], over["fixed_breakpoints"] = "fixed", tuple(bp)
-            over.setdefault("ranges", len(bp) + 1)
-        else:
-            over["breakpoint_mode"] = bp
-    return replace(ctx.fit, **over) if over else ctx.fit
+    return for_table(ctx.fit, meta.fit_overrides)
 
 
 def fit_selection(sel, ctx: Settings):
@@ -76,6 +68,7 @@ def fit_selection(sel, ctx: Settings):
     return fit.fit_species(sel.species_id, data["T"].to_numpy(), data["Cp"].to_numpy(), u,
                            meta.enthalpy_of_formation_298, meta.entropy_298,
                            species_settings(meta, ctx), dh=col("dH"), s=col("S"),
+                           u_dh=col("u_dH"), u_s=col("u_S"),
                            geometry=meta.geometry, atoms=meta.atoms, phase=meta.phase)
 
 

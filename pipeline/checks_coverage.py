@@ -3,6 +3,7 @@
 import numpy as np
 
 from .findings import finding
+from .settings import for_table
 
 
 def check_gaps(table, ctx):
@@ -24,7 +25,7 @@ def check_gaps(table, ctx):
 
 
 def check_range_of_use(table, ctx):
-    f = ctx.fit
+    f = for_table(ctx.fit, table.meta.fit_overrides)
     t = table.data["T"].to_numpy()
     t = t[np.isfinite(t) & (t > 0)]
     if not len(t):

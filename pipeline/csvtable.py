@@ -1,7 +1,8 @@
 """Read and parse one heat-capacity CSV table (raw text -> clean SI table).
 
 Format (our own): one header row whose cells are ``name [unit]``; known names
-are ``T``, ``Cp``, ``H-H298``, ``S`` and ``u(Cp)``. ``T`` and ``Cp`` are
+are ``T``, ``Cp``, ``H-H298``, ``S`` and their standard uncertainties ``u(Cp)``,
+``u(H-H298)``, ``u(S)``. ``T`` and ``Cp`` are
 required. Every data cell is a plain decimal number; empty cells are allowed
 in the optional columns only. Parsing never raises on bad input: it returns the
 rows it could read and a finding for each problem.
@@ -28,6 +29,8 @@ COLUMNS = {
     "H-H298": ("dH", "enthalpy", False),
     "S": ("S", "heat_capacity", False),
     "u(Cp)": ("u_Cp", "heat_capacity", False),
+    "u(H-H298)": ("u_dH", "enthalpy", False),
+    "u(S)": ("u_S", "heat_capacity", False),
 }
 
 _HEADER = re.compile(r"^\s*(?P<name>[^\[\]]*?)\s*\[(?P<unit>[^\[\]]*)\]\s*$")

@@ -134,6 +134,8 @@ _CODES = [
     Code("SEL-TIE", WARNING, "two sources of equal priority have the species; the first by id was used",
          "give the sources different priorities"),
     Code("FIT-FAILED", ERROR, "the fit could not be carried out", "see the message"),
+    Code("FIT-EXTRAPOLATED", WARNING, "Cp was extended past the data with a physically shaped "
+         "model before fitting", "treat the interval with its stated uncertainty"),
     Code("FIT-REJECTED", ERROR, "the fit fails the acceptance thresholds; not exported",
          "add ranges, change the form, or review the data"),
 ]

@@ -28,10 +28,28 @@ class FitRejected(FitError):
     """A fit that was carried out but fails the acceptance thresholds."""
 
 
+def points_per_range(form, settings: FitSettings) -> int:
+    """Fewest points a range may hold: the setting, and never fewer than the range's
+    coefficients plus two (a range determined by as many points as it has free coefficients
+    has wild, cancelling coefficients)."""
+    return max(settings.min_points_per_range, len(form.powers) + 2)
+
+
 def choose_breakpoints(t, y, sigma, form, settings: FitSettings):
     """Breakpoints [K] and an optional (code, message) note."""
-    need = max(settings.min_points_per_range, 2)
+    need = points_per_range(form, settings)
     nr = settings.ranges
+    if nr > 1 and settings.breakpoint_mode != "fixed" and len(t) < nr * need:
+        fewer = max(1, len(t) // need)
+        note = ("COV-RANGE-POINTS", f"{len(t)} points cannot fill {nr} ranges of at least "
+                f"{need}; fitted with {fewer} range(s)")
+        if fewer == 1:
+            return [], note
+        bps = breakpoints.optimise(t, y, sigma, form.powers, fewer, order=settings.continuity,
+                                   norm=settings.breakpoint_norm, need=need,
+                                   max_candidates=settings.max_candidates,
+                                   ratio=settings.min_range_ratio)
+        return bps, note
     if nr == 1:
         return [], None
     if settings.breakpoint_mode == "fixed":
@@ -48,7 +66,8 @@ def choose_breakpoints(t, y, sigma, form, settings: FitSettings):
     bps = breakpoints.optimise(t, y, sigma, form.powers, nr, order=settings.continuity,
                                norm=settings.breakpoint_norm, need=need,
                                bounds=(settings.breakpoint_min, settings.breakpoint_max),
-                               max_candidates=settings.max_candidates)
+                               max_candidates=settings.max_candidates,
+                               ratio=settings.min_range_ratio)
     return bps, note
 
 
@@ -77,7 +96,8 @@ def _observations(t, cp, u, dh, s, u_dh, u_s, s298, bps, edges, form, settings):
     if settings.simultaneous and dh is not None:
         m = np.isfinite(dh)
         if m.sum():
-            uh = u_dh[m] if u_dh is not None else np.maximum(
+            given = u_dh is not None and np.all(np.isfinite(u_dh[m]))
+            uh = u_dh[m] if given else np.maximum(
                 settings.h_uncertainty_rel * np.abs(dh[m]), settings.h_uncertainty_abs)
             rows.append(basis.integral_rows(form.powers, t[m], bps, edges, "H"))
             y.append(dh[m] / R)
@@ -85,7 +105,8 @@ def _observations(t, cp, u, dh, s, u_dh, u_s, s298, bps, edges, form, settings):
     if settings.simultaneous and s is not None and s298 is not None:
         m = np.isfinite(s)
         if m.sum():
-            us = u_s[m] if u_s is not None else np.full(m.sum(), settings.s_uncertainty_abs)
+            given = u_s is not None and np.all(np.isfinite(u_s[m]))
+            us = u_s[m] if given else np.full(m.sum(), settings.s_uncertainty_abs)
             rows.append(basis.integral_rows(form.powers, t[m], bps, edges, "S"))
             y.append((s[m] - s298) / R)
             sig.append(us / R)
@@ -144,11 +165,16 @@ def fit_species(species_id, t, cp, u, h298, s298, settings: FitSettings = FitSet
                               f"{target:g} K unguided"))
                 continue
             extensions.append(ext)
+            notes.append(("FIT-EXTRAPOLATED", f"{min(ext.t_from, ext.t_to):.6g}-"
+                          f"{max(ext.t_from, ext.t_to):.6g} K extrapolated with {ext.model} "
+                          f"(hold-out error {100 * ext.holdout_error:.2g} %, uncertainty "
+                          f"{100 * ext.u_rel_end:.2g} % at {ext.t_to:g} K)"))
     ext_t = np.array([x for e in extensions for x in e.t])
     ext_cp = np.array([x for e in extensions for x in e.cp])
-    ext_u = np.array([x for e in extensions for x in e.u_rel])
     all_t, all_cp = np.concatenate([t, ext_t]), np.concatenate([cp, ext_cp])
-    all_sig = np.concatenate([sigma, np.maximum(ext_u, settings.inferred_cp_uncertainty) * ext_cp])
+    # the polynomial follows the extension as closely as the data; the extension's own
+    # uncertainty is reported separately (library.uncertainty adds it)
+    all_sig = np.concatenate([sigma, settings.inferred_cp_uncertainty * ext_cp])
     srt = np.argsort(all_t, kind="stable")
     all_t, all_cp, all_sig = all_t[srt], all_cp[srt], all_sig[srt]
     # --- breakpoints and the constrained solution ---------------------------------------
@@ -222,7 +248,9 @@ def _judge(species_id, form, ranges, bps, t, cp, sigma, dh, s, n_data, weighting
     fails = []
     # a point fails acceptance when it is off by more than the threshold and by more than
     # three of its own standard uncertainties (a point stated as uncertain may scatter)
-    off = (np.abs(rel) > settings.accept_cp_max_rel) & (np.abs(ev["Cp"] - cp) > 3 * sigma)
+    off = np.abs(rel) > settings.accept_cp_max_rel
+    if weighting == "u(Cp)":
+        off &= np.abs(ev["Cp"] - cp) > 3 * sigma
     if off.any():
         k = int(np.argmax(np.where(off, np.abs(rel), 0.0)))
         fails.append(f"|dCp/Cp| {100 * abs(rel[k]):.3g} % at {t[k]:.6g} K > "

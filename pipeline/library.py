@@ -60,8 +60,8 @@ def evaluate(species: dict, temperatures) -> dict:
     _check_range(species, t)
     out = forms.evaluate(ranges_of(species), t, species["form"])
     out.update(uncertainty(species, t))
-    out["extrapolated"] = np.array([any(e["t_min"] <= x <= e["t_max"]
-                                        for e in species["extrapolated"]) for x in t])
+    data = species["data_range"]
+    out["extrapolated"] = (t < data["t_min"]) | (t > data["t_max"])
     return out
 
 

@@ -15,17 +15,29 @@ fit: C. L. Lawson, PhD thesis, UCLA (1961); see also Rice & Usow, Math. Comp. 22
 """
 
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
+from scipy.linalg.lapack import dgeqrf, dorgqr, dtrtri
 
 
 def null_basis(c: np.ndarray, k: int) -> np.ndarray:
-    """Orthonormal basis (k, q) of ker C; the identity without constraints."""
+    """Orthonormal basis (k, q) of ker C (complete QR of Cᵀ); the identity without constraints."""
     if c is None or len(c) == 0:
         return np.eye(k)
-    _, s, vt = np.linalg.svd(c, full_matrices=True)
-    rank = int((s > s.max() * 1e-12).sum()) if len(s) else 0
-    return vt[rank:].T
+    ct = np.asarray(c, dtype=float).T                       # (k, r)
+    r = ct.shape[1]
+    fact, tau, _, _ = dgeqrf(np.concatenate((ct, np.zeros((k, k - r))), axis=1))
+    d = np.abs(fact.diagonal()[:r])
+    rank = int((d > d.max() * 1e-12).sum()) if r else 0
+    q, _, _ = dorgqr(fact, tau)                             # the complete Q (k, k)
+    return q[:, rank:]
+
+
+@lru_cache(maxsize=64)
+def _upper(q: int) -> np.ndarray:
+    """Mask of the upper triangle (LAPACK leaves the other triangle untouched)."""
+    return np.triu(np.ones((q, q)))
 
 
 @dataclass(frozen=True)
@@ -38,27 +50,45 @@ class Solution:
 
 
 def solve(a, y, sigma, c=None, weights=None) -> Solution:
-    """Constrained weighted least squares; ``weights`` multiply 1/σ² (for Lawson's scheme)."""
+    """Constrained weighted least squares; ``weights`` multiply 1/σ² (for Lawson's scheme).
+
+    The reduced problem is solved by Householder QR of the column-equilibrated matrix (never
+    through the normal equations, whose condition number is the square); a rank-deficient
+    problem falls back to the SVD.
+    """
     a = np.asarray(a, dtype=float)
     n, k = a.shape
     basis = null_basis(c, k)
-    w = 1.0 / np.asarray(sigma, dtype=float)
+    sig = np.asarray(sigma, dtype=float)
+    w = 1.0 / sig
     if weights is not None:
         w = w * np.sqrt(weights)
     m = (a @ basis) * w[:, None]
     b = np.asarray(y, dtype=float) * w
-    norms = np.linalg.norm(m, axis=0)
+    norms = np.sqrt(np.einsum("nq,nq->q", m, m))
     norms[norms == 0] = 1.0
-    u, s, vt = np.linalg.svd(m / norms, full_matrices=False)
-    keep = s > s.max() * 1e-13 if len(s) else s > 0
-    z = (vt[keep].T @ ((u[:, keep].T @ b) / s[keep])) / norms
-    coef = basis @ z
-    res = (a @ coef - y) / np.asarray(sigma, dtype=float)
-    q = int(keep.sum())
+    me = m / norms
+    # one Householder QR of [M | b] gives R and Qᵀb together (LAPACK dgeqrf)
+    qcols = me.shape[1]
+    fact, _, _, info = dgeqrf(np.concatenate((me, b[:, None]), axis=1))
+    d = np.abs(fact.diagonal()[:qcols])
+    if info == 0 and d.min() > d.max() * 1e-12:
+        rinv, _ = dtrtri(fact[:qcols, :qcols], lower=0)   # reads the upper triangle only
+        rinv *= _upper(qcols)
+        z = rinv @ fact[:qcols, qcols]
+        ginv = rinv @ rinv.T
+        q = qcols
+    else:
+        u, sv, vt = np.linalg.svd(me, full_matrices=False)
+        keep = sv > sv.max() * 1e-13
+        z = vt[keep].T @ ((u[:, keep].T @ b) / sv[keep])
+        ginv = (vt[keep].T / sv[keep] ** 2) @ vt[keep]
+        q = int(keep.sum())
+    coef = basis @ (z / norms)
+    res = (a @ coef - y) / sig
     dof = max(n - q, 1)
     chi2 = float(res @ res)
-    inv = (vt[keep].T / s[keep] ** 2) @ vt[keep]          # (M'ᵀM')⁻¹ in equilibrated z
-    cov_z = inv / np.outer(norms, norms) * (chi2 / dof)
+    cov_z = ginv / (norms[:, None] * norms[None, :]) * (chi2 / dof)
     return Solution(c=coef, residual=res, cov=basis @ cov_z @ basis.T, chi2=chi2, dof=dof)
 
 
@@ -84,28 +114,50 @@ def minimax(a, y, sigma, c=None, iterations=200, tol=1e-9) -> Solution:
     return best
 
 
-def batch_objective(a, y, sigma, c, norm="max"):
-    """Objective of many candidate problems at once.
+def batch_objective(v, y, sigma, powers_count, starts, c, norm="max"):
+    """Objective of many candidate problems at once, from prefix sums of the normal equations.
 
-    a : (K, n, k) design matrices; c : (K, r, k) constraints; y, sigma : (n,)
+    v : (n, m) basis rows of every point (one range's columns), points sorted by T
+    starts : (K, nr + 1) indices into the points where each range begins (last = n)
+    c : (K, r, nr*m) continuity constraints of each candidate
     Returns (K,) — the largest |weighted residual| ('max') or the rms ('rms').
+
+    Each candidate's block-diagonal normal matrix comes from differences of prefix sums, and
+    its KKT system [[G, Cᵀ], [C, 0]] is solved for all candidates in one batched call, in a
+    basis orthonormalised over all points (the same functions, better conditioned). The
+    objective only ranks candidates; the chosen one is solved again by ``solve``.
     """
-    kk = a.shape[2]
-    r = c.shape[1]
-    _, _, vt = np.linalg.svd(c, full_matrices=True)            # (K, k, k)
-    basis = np.swapaxes(vt[:, r:, :], 1, 2)                    # (K, k, k - r)
+    v = np.asarray(v, dtype=float)
+    n, m = v.shape
     w = 1.0 / np.asarray(sigma, dtype=float)
-    m = np.einsum("Knk,Kkq->Knq", a, basis) * w[None, :, None]
+    # a fixed change of basis spans the same functions on every subset of points: the
+    # orthonormal columns of the weighted basis over all points condition every range's
+    # normal equations far better than raw powers of tau
+    vw, transform = np.linalg.qr(v * w[:, None])
+    scale = np.linalg.inv(transform)                     # old coefficients = scale @ new
     b = np.asarray(y, dtype=float) * w
-    norms = np.linalg.norm(m, axis=1, keepdims=True)
-    norms[norms == 0] = 1.0
-    u, s, vt2 = np.linalg.svd(m / norms, full_matrices=False)   # batched
-    cutoff = s.max(axis=1, keepdims=True) * 1e-13
-    inv_s = np.where(s > cutoff, 1.0 / np.where(s > 0, s, 1.0), 0.0)
-    ub = np.einsum("Knq,n->Kq", u, b)
-    fitted = np.einsum("Knq,Kq->Kn", u, ub * (s * inv_s))
-    res = fitted - b[None, :]
-    del kk
+    pg = np.concatenate([np.zeros((1, m, m)), np.cumsum(vw[:, :, None] * vw[:, None, :], 0)])
+    pq = np.concatenate([np.zeros((1, m)), np.cumsum(vw * b[:, None], 0)])
+    kk, nr1 = starts.shape
+    nr = nr1 - 1
+    r = c.shape[1]
+    size = nr * m + r
+    kkt = np.zeros((kk, size, size))
+    rhs = np.zeros((kk, size))
+    for j in range(nr):
+        lo, hi = starts[:, j], starts[:, j + 1]
+        sl = slice(j * m, (j + 1) * m)
+        kkt[:, sl, sl] = pg[hi] - pg[lo]
+        rhs[:, sl] = pq[hi] - pq[lo]
+    cs = np.concatenate([c[:, :, j * m:(j + 1) * m] @ scale for j in range(nr)], axis=2)
+    kkt[:, nr * m:, :nr * m] = cs
+    kkt[:, :nr * m, nr * m:] = np.swapaxes(cs, 1, 2)
+    sol = np.linalg.solve(kkt, rhs[..., None])[..., 0][:, :nr * m].reshape(kk, nr, m)
+    pos = np.arange(n)[None, :]
+    res = np.where(pos < starts[:, 1:2], sol[:, 0, :] @ vw.T, 0.0) - b[None, :]
+    for j in range(1, nr):
+        inside = (pos >= starts[:, j:j + 1]) & (pos < starts[:, j + 1:j + 2])   # (K, n)
+        res += np.where(inside, sol[:, j, :] @ vw.T, 0.0)
     if norm == "rms":
         return np.sqrt(np.mean(res ** 2, axis=1))
     return np.max(np.abs(res), axis=1)

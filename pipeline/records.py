@@ -11,6 +11,8 @@ Cp          [J/(mol K)]     isobaric heat capacity
 u_Cp        [J/(mol K)]     standard uncertainty of Cp (NaN when not given)
 dH          [J/mol]         H(T) - H(298.15 K) (NaN when not given)
 S           [J/(mol K)]     entropy at the standard pressure, 1 bar (NaN when not given)
+u_dH        [J/mol]         standard uncertainty of dH (NaN when not given)
+u_S         [J/(mol K)]     standard uncertainty of S (NaN when not given)
 ==========  ==============  =================================================
 """
 
@@ -18,7 +20,7 @@ from dataclasses import dataclass, field
 
 import pandas as pd
 
-DATA_COLUMNS = ("line", "T", "Cp", "u_Cp", "dH", "S")
+DATA_COLUMNS = ("line", "T", "Cp", "u_Cp", "dH", "S", "u_dH", "u_S")
 
 
 @dataclass(frozen=True)

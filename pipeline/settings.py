@@ -21,6 +21,8 @@ class FitSettings:
     breakpoint_min: float | None = None
     breakpoint_max: float | None = None
     max_candidates: int = 80
+    #: every range spans at least this ratio T_max/T_min (narrow ranges get wild coefficients)
+    min_range_ratio: float = 1.5
     #: continuity at breakpoints: 1 = Cp and dCp/dT, 2 = also d2Cp/dT2
     continuity: int = 1
     #: minimise the largest weighted Cp deviation instead of the sum of squares
@@ -98,3 +100,21 @@ class Settings:
 
     def to_dict(self) -> dict:
         return {"fit": self.fit.to_dict(), "checks": self.checks.to_dict()}
+
+
+def for_table(fit: FitSettings, overrides) -> FitSettings:
+    """``fit`` with a table's own overrides (source.json "fit": form, ranges, breakpoints,
+    continuity, minimax, use_t_min, use_t_max) applied."""
+    from dataclasses import replace
+
+    over = dict(overrides)
+    if not over:
+        return fit
+    if "breakpoints" in over:
+        bp = over.pop("breakpoints")
+        if isinstance(bp, (list, tuple)):
+            over["breakpoint_mode"], over["fixed_breakpoints"] = "fixed", tuple(bp)
+            over.setdefault("ranges", len(bp) + 1)
+        else:
+            over["breakpoint_mode"] = bp
+    return replace(fit, **over)

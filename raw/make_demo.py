@@ -111,6 +111,10 @@ def computed_source(folder: Path):
         else:
             rows = [[f"{t:g}", f"{c:.4f}"] for t, c in zip(GRID, cp)]
             write_csv(folder / file, ["T [K]", "Cp [J/(mol*K)]"], rows)
+        if name == "N2":   # the loop's hot section needs N2 to 6000 K: extrapolated
+            extra = {"fit": {"use_t_max": 6000}}
+        if name == "CH4":  # published with the 9-coefficient form in three ranges
+            extra = {"fit": {"form": "nasa9", "ranges": 3}}
         tables.append({**entry(name, file), **extra})
     meta = {
         "source": "isru-rrho-2026",

@@ -108,7 +108,7 @@ def test_random_bytes_never_raise(raw):
     text, found = csvtable.decode(raw, "x.csv")
     if text is not None:
         p = parse(text, molar_mass=30.0)
-        assert list(p.data.columns) == ["line", "T", "Cp", "u_Cp", "dH", "S"]
+        assert list(p.data.columns) == ["line", "T", "Cp", "u_Cp", "dH", "S", "u_dH", "u_S"]
 
 
 cells = st.one_of(st.floats(allow_nan=True, allow_infinity=True).map(repr),

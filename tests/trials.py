@@ -62,7 +62,8 @@ def make_table(t, cp, formula, geometry, *, phase="g", u=None, dh=None, s=None, 
         return np.full(n, np.nan) if v is None else np.asarray(v, float)
 
     data = pd.DataFrame({"line": np.arange(2, n + 2), "T": t, "Cp": np.asarray(cp, float),
-                         "u_Cp": col(u), "dH": col(dh), "S": col(s)})
+                         "u_Cp": col(u), "dH": col(dh), "S": col(s), "u_dH": col(None),
+                         "u_S": col(None)})
     meta = TableMeta(source=source, file=file, species=name or formula, formula=formula,
                      phase=phase, geometry=geometry, molar_mass=comp.molar_mass,
                      atoms=comp.atoms, enthalpy_of_formation_298=h298,

@@ -1,0 +1,176 @@
+"""The constrained solver: agreement with a general optimiser, exact continuity in every
+form, uncertainty coverage, simultaneous H/S fitting, minimax, acceptance."""
+
+import json
+
+import numpy as np
+import pytest
+from scipy.optimize import minimize
+
+from pipeline import basis, build, fit, forms, lsq, statmech
+from pipeline.constants import GAS_CONSTANT as R
+from pipeline.settings import FitSettings
+
+from . import trials
+from .conftest import table_entry, write_source
+
+NU = ("nonlinear", [2917.0, 1534.0, 3019.0, 1306.0], [1, 2, 3, 3])  # CH4, Shimanouchi 1972
+
+
+def rrho(t):
+    return R * statmech.rrho_cp_over_r(t, *NU)
+
+
+def test_solution_agrees_with_slsqp_on_the_same_problem():
+    t = trials.grid(200.0, 3000.0, 50.0)
+    rng = np.random.default_rng(4)
+    cp = rrho(t) * (1 + 1e-3 * rng.standard_normal(t.size))
+    powers, bps = forms.FORMS["nasa7"].powers, [900.0]
+    a = basis.cp_rows(powers, t, bps)
+    c = basis.continuity_rows(powers, bps, 1)
+    y, sig = cp / R, 3e-3 * cp / R
+    ours = lsq.solve(a, y, sig, c)
+    aw, yw = a / sig[:, None], y / sig
+
+    def f(x):
+        r = aw @ x - yw
+        return r @ r
+
+    def grad(x):
+        return 2 * aw.T @ (aw @ x - yw)
+
+    x0 = np.linalg.lstsq(aw, yw, rcond=None)[0]
+    ref = minimize(f, x0, jac=grad, method="SLSQP",
+                   constraints=[{"type": "eq", "fun": lambda x: c @ x, "jac": lambda x: c}],
+                   options={"ftol": 1e-14, "maxiter": 500})
+    assert ref.success
+    assert f(ours.c) == pytest.approx(ref.fun, rel=1e-6)
+    assert f(ours.c) <= ref.fun * (1 + 1e-9)   # and ours is not worse
+    assert np.max(np.abs(c @ ours.c)) < 1e-12 * np.max(np.abs(ours.c))
+
+
+def jumps(form, r):
+    """Relative jumps at every breakpoint of Cp, T dCp/dT, T² d2Cp/dT2, H, S (exported)."""
+    f = forms.FORMS[form]
+    out = []
+    for lo, hi in zip(r.ranges[:-1], r.ranges[1:]):
+        tb = lo.t_max
+        a, ha, sa = f.unpack(lo.coefficients)
+        b, hb, sb = f.unpack(hi.coefficients)
+        cp = f.cp(a, tb)
+        out.append([abs(f.cp(a, tb) - f.cp(b, tb)) / cp,
+                    abs(f.dcp(a, tb) - f.dcp(b, tb)) * tb / cp,
+                    abs(f.d2cp(a, tb) - f.d2cp(b, tb)) * tb * tb / cp,
+                    abs((f.h_integral(a, tb) + ha) - (f.h_integral(b, tb) + hb))
+                    / abs(f.h_integral(a, tb) + ha),
+                    abs((f.s_integral(a, tb) + sa) - (f.s_integral(b, tb) + sb))
+                    / abs(f.s_integral(a, tb) + sa)])
+    return np.array(out)
+
+
+@pytest.mark.parametrize("form", list(forms.FORMS))
+@pytest.mark.parametrize("n_ranges, order", [(2, 1), (3, 1), (3, 2), (4, 2)])
+def test_continuity_at_every_breakpoint(form, n_ranges, order):
+    t = trials.grid(200.0, 6000.0, 50.0)
+    rng = np.random.default_rng(n_ranges * 10 + order)
+    cp = rrho(t) * (1 + 1e-3 * rng.standard_normal(t.size))
+    r = fit.fit_species("CH4", t, cp, None, -74870.0, 186.25,
+                        FitSettings(form=form, ranges=n_ranges, continuity=order,
+                                    accept_cp_max_rel=1.0))
+    j = jumps(form, r)
+    assert j.shape[0] == n_ranges - 1
+    assert np.max(j[:, :order + 1]) < 1e-9          # the constrained derivatives
+    assert np.max(j[:, 3:]) < 1e-9                  # H and S everywhere
+    ev = forms.evaluate([(x.t_min, x.t_max, x.coefficients) for x in r.ranges], [298.15], form)
+    assert ev["H"][0] == pytest.approx(-74870.0, abs=1e-6)
+    assert ev["S"][0] == pytest.approx(186.25, rel=1e-12)
+
+
+def test_one_sigma_band_covers_the_truth_about_68_percent():
+    # synthetic tables: a truth the model can represent (one smooth quartic, invented for the
+    # test) plus known Gaussian noise (0.3 %, stated as u(Cp)); fixed breakpoint, so that
+    # the band is tested and not the breakpoint search
+    t = trials.grid(200.0, 3000.0, 50.0)
+    truth = R * forms.cp_over_r([3.0, 4.0e-3, -1.5e-6, 2.5e-10, -1.5e-14], t)
+    rng = np.random.default_rng(11)
+    inside = total = 0
+    fixed = FitSettings(breakpoint_mode="fixed", fixed_breakpoints=(1000.0,),
+                        accept_cp_max_rel=1.0)
+    for _ in range(100):
+        u = 3e-3 * truth
+        cp = truth + u * rng.standard_normal(t.size)
+        r = fit.fit_species("X", t, cp, u, 0.0, 186.25, fixed)
+        sp = {"form": "nasa7", "breakpoints": list(r.breakpoints),
+              "ranges": [{"t_min": x.t_min, "t_max": x.t_max, "coefficients": x.coefficients}
+                         for x in r.ranges], "extrapolated": [],
+              "uncertainty": {"powers": list(r.powers), "covariance": r.covariance}}
+        from pipeline import library
+
+        band = library.uncertainty(sp, t)["u_Cp"]
+        fitted = forms.evaluate(library.ranges_of(sp), t)["Cp"]
+        inside += int(np.sum(np.abs(fitted - truth) <= band))
+        total += t.size
+    coverage = inside / total
+    assert 0.60 <= coverage <= 0.76, coverage
+
+
+def test_simultaneous_h_column_improves_enthalpy():
+    t = trials.grid(200.0, 2000.0, 50.0)
+    truth = rrho(t)
+    rng = np.random.default_rng(2)
+    cp = truth * (1 + 0.01 * rng.standard_normal(t.size))       # poor Cp, 1 % noise
+    dh = np.array([statmech_integral(x) for x in t])             # precise H - H298
+    u_dh = np.full(t.size, 1.0)                                  # stated: 1 J/mol
+    only_cp = fit.fit_species("CH4", t, cp, None, 0.0, 186.25,
+                              FitSettings(simultaneous=False, accept_cp_max_rel=1.0), dh=dh,
+                              u_dh=u_dh)
+    both = fit.fit_species("CH4", t, cp, None, 0.0, 186.25,
+                           FitSettings(accept_cp_max_rel=1.0, accept_h_max=1e4), dh=dh,
+                           u_dh=u_dh)
+    assert both.h_max_dev < 0.2 * only_cp.h_max_dev
+
+
+def statmech_integral(x):
+    from scipy.integrate import quad
+
+    return quad(lambda y: rrho(np.array([y]))[0], 298.15, x, epsrel=1e-12)[0]
+
+
+def test_minimax_lowers_the_largest_deviation():
+    t = trials.grid(200.0, 6000.0, 50.0)
+    cp = rrho(t)
+    ls = fit.fit_species("CH4", t, cp, None, 0.0, 186.25, FitSettings(accept_cp_max_rel=1.0))
+    mm = fit.fit_species("CH4", t, cp, None, 0.0, 186.25,
+                         FitSettings(minimax=True, accept_cp_max_rel=1.0))
+    assert mm.cp_max_rel_dev < 0.9 * ls.cp_max_rel_dev
+
+
+def test_optimised_breakpoint_beats_the_conventional_one():
+    t = trials.grid(200.0, 6000.0, 50.0)
+    cp = rrho(t)
+    conv = fit.fit_species("CH4", t, cp, None, 0.0, 186.25,
+                           FitSettings(breakpoint_mode="conventional", accept_cp_max_rel=1.0))
+    opt = fit.fit_species("CH4", t, cp, None, 0.0, 186.25, FitSettings(accept_cp_max_rel=1.0))
+    assert conv.breakpoints == (1000.0,)
+    assert opt.cp_max_rel_dev < conv.cp_max_rel_dev
+
+
+def test_failing_fit_is_reported_not_exported(tmp_path, capsys):
+    from pipeline import cli
+
+    t = trials.grid(200.0, 6000.0, 50.0)
+    rows = [[f"{a:.6g}", f"{b:.6f}"] for a, b in zip(t, rrho(t))]
+    entries = [dict(table_entry("ch4.csv", "CH4", "CH4", "nonlinear"),
+                    header=["T [K]", "Cp [J/(mol*K)]"], rows=rows),
+               dict(table_entry("ch4b.csv", "CH4b", "CH4", "nonlinear",
+                                fit={"form": "nasa9", "ranges": 3}),
+                    header=["T [K]", "Cp [J/(mol*K)]"], rows=rows)]
+    write_source(tmp_path / "raw", "lab", entries)
+    code = cli.main(["build", "--raw", str(tmp_path / "raw"), "--out", str(tmp_path / "out"),
+                     "--accept-cp", "0.001"])
+    out = capsys.readouterr().out
+    assert code == 0 and "FIT-REJECTED" in out
+    lib = json.loads((tmp_path / "out" / "library.json").read_text())
+    assert [s["id"] for s in lib["species"]] == ["CH4b(g)"]       # the nasa9 override passes
+    assert lib["species"][0]["form"] == "nasa9" and len(lib["species"][0]["ranges"]) == 3
+    assert lib["quarantined"][0]["reasons"][0]["code"] == "FIT-REJECTED"

@@ -5,8 +5,8 @@ from pathlib import Path
 
 import numpy as np
 
-from . import acknowledge, export, fit, ingest, reconcile, validate
-from .errors import FitError
+from . import acknowledge, export, fit, ingest, provenance, publish, reconcile, validate
+from .errors import FitError, OutputError
 from .findings import ERROR, finding
 from .records import FittedSpecies
 from .settings import Settings, for_table
@@ -28,6 +28,7 @@ class BuildResult:
     findings: tuple        # all findings
     document: dict
     written: tuple         # paths written
+    files: dict = None     # {relative path: bytes} of the release
 
 
 def table_findings(table, findings):
@@ -80,8 +81,8 @@ def species_findings(sel, findings):
     return tuple(dict.fromkeys(own))  # keep order, drop repeats
 
 
-def build(raw_dir, out_dir, ctx: Settings = Settings(), *, write=True,
-          progress=None) -> BuildResult:
+def build(raw_dir, out_dir, ctx: Settings = Settings(), *, write=True, progress=None,
+          wait: float = 0.0) -> BuildResult:
     """Run every stage; write the outputs into ``out_dir`` unless ``write`` is False."""
     checked = check(raw_dir, ctx)
     findings = list(checked.findings)
@@ -104,12 +105,36 @@ def build(raw_dir, out_dir, ctx: Settings = Settings(), *, write=True,
             continue
         notes = [finding(code, msg, **where) for code, msg in result.notes]
         findings += notes
+        rows = tuple(sorted(zip(sel.data["file"].tolist(), (int(x) for x in sel.data["line"]))))
         fitted.append(FittedSpecies(table=sel.primary, fit=result,
                                     findings=species_findings(sel, findings), uses=sel.uses,
-                                    excluded=sel.excluded))
-    doc = export.library_document(fitted, quarantined, ingest.inputs_digest(checked.inputs),
-                                  ctx.to_dict())
-    findings_doc = export.findings_document(findings)
-    written = export.write_outputs(Path(out_dir), doc, findings_doc) if write else []
+                                    excluded=sel.excluded, rows=rows))
+    digest = ingest.inputs_digest(checked.inputs)
+    doc = export.library_document(fitted, quarantined, digest, ctx.to_dict())
+    files = release(doc, export.findings_document(findings), fitted, quarantined, checked,
+                    ctx, digest)
+    written = publish.publish(Path(out_dir), files, check=_verify, wait=wait) if write else []
     return BuildResult(fitted=tuple(fitted), quarantined=tuple(quarantined),
-                       findings=tuple(findings), document=doc, written=tuple(written))
+                       findings=tuple(findings), document=doc, written=tuple(written),
+                       files=files)
+
+
+def release(doc, findings_doc, fitted, quarantined, checked, ctx, digest) -> dict:
+    """Every file of a release: library, findings, schemas, provenance, manifest, package."""
+    files = export.release_files(doc, findings_doc)
+    files["provenance.json"] = export.json_bytes(
+        provenance.prov_document(fitted, checked.inputs, sorted(files.items())))
+    man = provenance.manifest(fitted, quarantined, checked.inputs, sorted(files.items()),
+                              ctx.to_dict(), digest)
+    export.check_against(man, "manifest.schema.json", "manifest.json")
+    files["manifest.json"] = export.json_bytes(man)
+    sources = {t.meta.source.source: t.meta.source for t in checked.tables}.values()
+    files["datapackage.json"] = export.json_bytes(
+        provenance.datapackage(sorted(files.items()), sources, export.NOTICE))
+    return files
+
+
+def _verify(folder):
+    problems = provenance.verify_release(folder)
+    if problems:
+        raise OutputError("the staged release fails its own manifest: " + "; ".join(problems))

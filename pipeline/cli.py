@@ -1,6 +1,7 @@
 """Command line: argument parsing and printing only; the stages live in their modules."""
 
 import argparse
+import json
 import sys
 from pathlib import Path
 
@@ -28,6 +29,8 @@ def _parser() -> argparse.ArgumentParser:
     b.add_argument("--out", type=Path, default=Path("curated"), help="output folder (curated)")
     b.add_argument("--strict", action="store_true",
                    help="exit 1 if any table was quarantined (for maintainers' CI)")
+    b.add_argument("--wait", type=float, default=0.0, metavar="SECONDS",
+                   help="wait this long for another build writing the same folder (0)")
     _fit_options(b)
 
     c = sub.add_parser("check", help="ingest and validate only; print the findings",
@@ -38,6 +41,32 @@ def _parser() -> argparse.ArgumentParser:
     c.add_argument("--report", type=Path, metavar="FILE",
                    help="also write the findings as JSON (schemas/findings.schema.json)")
     _fit_options(c)
+
+    a = sub.add_parser("audit", help="rebuild into a temporary folder and compare with curated/",
+                       description="Check the raw inputs against curated/manifest.json, rebuild "
+                                   "with the given settings into a temporary folder and compare: "
+                                   "exit 0 when byte-identical, 1 on differences (named by "
+                                   "species, size and cause), 2 on errors.")
+    a.add_argument("--raw", type=Path, default=Path("raw"), help="raw sources folder (raw)")
+    a.add_argument("--curated", type=Path, default=Path("curated"),
+                   help="the release to audit (curated)")
+    a.add_argument("--json", action="store_true", help="print the audit report as JSON")
+    _fit_options(a)
+
+    d = sub.add_parser("diff", help="what changed between two libraries, in properties",
+                       description="Compare two libraries (folders or library.json files): "
+                                   "species added, removed and changed, with differences of "
+                                   "Cp, H-H298, S and G at standard temperatures and the "
+                                   "largest over the common range.")
+    d.add_argument("old", type=Path, help="the earlier library")
+    d.add_argument("new", type=Path, help="the later library")
+    d.add_argument("--cp-threshold", type=float, default=None, metavar="FRACTION",
+                   help="list a changed species only above this relative Cp difference")
+    d.add_argument("--h-threshold", type=float, default=None, metavar="J/MOL",
+                   help="... or above this H-H298 difference")
+    d.add_argument("--s-threshold", type=float, default=None, metavar="J/(MOL*K)",
+                   help="... or above this S difference")
+    d.add_argument("--json", action="store_true", help="print the differences as JSON")
 
     q = sub.add_parser("props", help="evaluate Cp, H, S and G from a curated library",
                        description="Print Cp, H, S and G = H - TS of one species at the given "
@@ -110,7 +139,7 @@ def _print_findings(findings, *, show_info=False, out=None):
 
 
 def cmd_build(args) -> int:
-    result = build.build(args.raw, args.out, _settings(args))
+    result = build.build(args.raw, args.out, _settings(args), wait=args.wait)
     n_err, n_warn, n_ack = _totals(result.findings)
     print(f"thermoledger build: {len(result.fitted)} species fitted, "
           f"{len(result.quarantined)} table(s) quarantined, {n_err} error(s), "
@@ -134,7 +163,8 @@ def cmd_build(args) -> int:
         more = f" (+{len(entry['reasons']) - 1} more)" if len(entry["reasons"]) > 1 else ""
         print(f"  QUARANTINED {entry['id']:14s} {where}{col}: {first['code']} "
               f"{first['message']}{more}")
-    print(f"wrote {', '.join(str(p) for p in result.written)}")
+    print(f"wrote {len(result.written)} files into {args.out}/ (manifest.json lists each with "
+          "its sha256; datapackage.json and provenance.json describe the release)")
     print(f"caution: {export.NOTICE}")
     if args.strict and result.quarantined:
         return 1
@@ -176,7 +206,28 @@ def cmd_props(args) -> int:
     return 0
 
 
-COMMANDS = {"build": cmd_build, "check": cmd_check, "props": cmd_props}
+def cmd_audit(args) -> int:
+    from . import audit
+
+    rep = audit.audit(args.raw, args.curated, _settings(args))
+    if args.json:
+        print(json.dumps(rep.to_dict(), indent=1))
+    else:
+        print(audit.render(rep))
+    return rep.status
+
+
+def cmd_diff(args) -> int:
+    from . import diff
+
+    d = diff.diff(library.load(args.old), library.load(args.new), cp_threshold=args.cp_threshold,
+                  h_threshold=args.h_threshold, s_threshold=args.s_threshold)
+    print(json.dumps(d, indent=1) if args.json else diff.render(d))
+    return 0
+
+
+COMMANDS = {"build": cmd_build, "check": cmd_check, "audit": cmd_audit, "diff": cmd_diff,
+            "props": cmd_props}
 
 
 def main(argv=None) -> int:

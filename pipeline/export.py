@@ -17,7 +17,7 @@ import pyarrow.parquet as pq
 
 from . import __version__, constants
 from .errors import OutputError
-from .paths import schema_path, write_atomic
+from .paths import schema_path
 
 NOTICE = ("Curated property data for engineering use must be reviewed by a qualified person "
           "before use in design. Intervals marked 'extrapolated' lie outside the source data. "
@@ -95,7 +95,7 @@ def library_document(fitted, quarantined, inputs_sha256: str, settings: dict) ->
         "standard_pressure": constants.STANDARD_PRESSURE,
         "units": UNITS,
         "build": {"pipeline_version": __version__, "inputs_sha256": inputs_sha256,
-                  "settings": settings},
+                  "settings": settings, "manifest": "manifest.json"},
         "species": [species_entry(s) for s in sorted(fitted, key=lambda s: s.table.meta.species_id)],
         "quarantined": [
             {"id": meta.species_id, "source": meta.source.source, "file": meta.file,
@@ -181,15 +181,15 @@ def parquet_bytes(doc: dict) -> bytes:
     return buf.getvalue()
 
 
-def write_outputs(out_dir: Path, doc: dict, findings_doc: dict) -> list[Path]:
-    """Check and write library.json, library.parquet and findings.json into ``out_dir``."""
+SCHEMA_COPIES = ("library.schema.json", "findings.schema.json", "manifest.schema.json")
+
+
+def release_files(doc: dict, findings_doc: dict) -> dict:
+    """{relative path: bytes} of the library outputs, checked against their schemas."""
     check_library(doc)
     check_against(findings_doc, "findings.schema.json", "findings.json")
-    out_dir = Path(out_dir)
     files = {"library.json": json_bytes(doc), "library.parquet": parquet_bytes(doc),
              "findings.json": json_bytes(findings_doc)}
-    written = []
-    for name, data in files.items():
-        write_atomic(out_dir / name, data)
-        written.append(out_dir / name)
-    return written
+    for name in SCHEMA_COPIES:  # the release describes itself
+        files[f"schemas/{name}"] = schema_path(name).read_bytes()
+    return files

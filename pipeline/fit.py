@@ -54,7 +54,10 @@ def choose_breakpoints(t, y, sigma, form, settings: FitSettings):
         return [], None
     if settings.breakpoint_mode == "fixed":
         return sorted(float(b) for b in settings.fixed_breakpoints), None
-    if settings.breakpoint_mode == "conventional":
+    if settings.breakpoint_mode == "conventional" and nr != 2:
+        note = ("COV-RANGE-POINTS", f"the conventional breakpoint serves two ranges; the "
+                f"breakpoints of {nr} ranges were optimised")
+    elif settings.breakpoint_mode == "conventional":
         conv = breakpoints.conventional(t, nr, settings.breakpoint, need)
         if conv:
             return conv, None

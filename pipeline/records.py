@@ -109,3 +109,4 @@ class FittedSpecies:
     findings: tuple = ()           # warnings and infos that travel with the species
     uses: tuple = ()               # reconcile.SourceUse of every table considered
     excluded: tuple = ()           # (file, line, code) of rows left out of the fit
+    rows: tuple = ()               # (file, line) of every data row that entered the fit

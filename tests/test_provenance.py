@@ -1,0 +1,256 @@
+"""Auditable releases: manifest, Data Package, PROV, reproducibility, audit, diff, atomicity,
+locking and raw-data protection — end to end through the CLI on real files."""
+
+import hashlib
+import json
+import os
+import random
+import shutil
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+import pytest
+from hypothesis import given
+from hypothesis import strategies as st
+
+from pipeline import cli, forms, library, provenance, publish
+
+from .conftest import PROJECT
+
+
+def tree(folder: Path) -> dict:
+    return {str(p.relative_to(folder)): hashlib.sha256(p.read_bytes()).hexdigest()
+            for p in sorted(folder.rglob("*")) if p.is_file()}
+
+
+def run(capsys, *argv):
+    code = cli.main([str(a) for a in argv])
+    out = capsys.readouterr()
+    return code, out.out, out.err
+
+
+def edit_n2_row(raw: Path, new_cp="32.9444"):
+    """Change one Cp cell (line 13, T = 1000 K) of the demo's computed N2 table."""
+    path = raw / "isru-rrho-2026" / "n2.csv"
+    lines = path.read_text().splitlines()
+    cells = lines[12].split(",")
+    assert cells[0] == "1000"
+    cells[1] = new_cp
+    lines[12] = ",".join(cells)
+    path.write_text("\n".join(lines) + "\n")
+
+
+def test_two_builds_are_byte_identical_in_every_file(demo_raw, tmp_path, capsys):
+    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "a")
+    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "b")
+    a, b = tree(tmp_path / "a"), tree(tmp_path / "b")
+    assert {"library.json", "library.parquet", "findings.json", "manifest.json",
+            "datapackage.json", "provenance.json"} <= set(a)
+    assert a == b
+
+
+def test_manifest_records_lineage_without_time_or_paths(demo_raw, tmp_path, capsys):
+    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "c")
+    text = (tmp_path / "c" / "manifest.json").read_text()
+    man = json.loads(text)
+    assert str(tmp_path) not in text and "20" + "26-12" not in text
+    assert set(man["dependencies"]) >= {"numpy", "scipy", "pandas", "pyarrow"}
+    raw_files = {str(p.relative_to(demo_raw)) for p in demo_raw.rglob("*")
+                 if p.is_file() and (p.suffix == ".csv" or p.name == "source.json")}
+    assert {f["path"] for f in man["inputs"]} == raw_files
+    n2o = next(s for s in man["species"] if s["id"] == "N2O(g)")
+    (src,) = n2o["sources"]
+    assert 14 not in src["lines"] and len(src["lines"]) == 31
+    assert n2o["excluded"] == [{"file": "isru-benchlog-2026/n2o.csv", "line": 14,
+                                "code": "SMOOTH-OUTLIER"}]
+    ar = next(s for s in man["species"] if s["id"] == "Ar(g)")
+    assert ar["findings"][0]["acknowledged"]
+    assert provenance.verify_release(tmp_path / "c") == []
+    lib = json.loads((tmp_path / "c" / "library.json").read_text())
+    assert lib["build"]["manifest"] == "manifest.json"
+
+
+def test_audit_passes_when_nothing_changed(demo_raw, tmp_path, capsys):
+    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "rel")
+    code, out, _ = run(capsys, "audit", "--raw", demo_raw, "--curated", tmp_path / "rel")
+    assert code == 0 and "PASS" in out
+
+
+def test_audit_names_the_species_file_and_size_of_a_changed_row(demo_raw, tmp_path, capsys):
+    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "rel")
+    edit_n2_row(demo_raw)
+    code, out, _ = run(capsys, "audit", "--raw", demo_raw, "--curated", tmp_path / "rel",
+                       "--json")
+    rep = json.loads(out)
+    assert code == 1 and rep["status"] == "differences"
+    assert rep["inputs_changed"] == ["isru-rrho-2026/n2.csv"]
+    (sp,) = rep["species"]
+    assert sp["id"] == "N2(g)" and sp["causes"] == ["changed inputs: isru-rrho-2026/n2.csv"]
+    assert 1e-5 < sp["largest"]["cp_rel"] < 0.02 and sp["largest"]["dH"] > 0
+
+
+def test_audit_says_settings_changed(demo_raw, tmp_path, capsys):
+    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "rel")
+    code, out, _ = run(capsys, "audit", "--raw", demo_raw, "--curated", tmp_path / "rel",
+                       "--breakpoints", "conventional")
+    assert code == 1
+    assert "setting changed: fit.breakpoint_mode: optimise -> conventional" in out
+    assert "cause: changed settings: fit.breakpoint_mode" in out
+
+
+def test_audit_detects_a_tampered_release(demo_raw, tmp_path, capsys):
+    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "rel")
+    lib = tmp_path / "rel" / "library.json"
+    lib.write_text(lib.read_text().replace('"Ar"', '"Ar "', 1))
+    code, out, _ = run(capsys, "audit", "--raw", demo_raw, "--curated", tmp_path / "rel")
+    assert code == 1 and "library.json differs from its manifest hash" in out
+
+
+def test_audit_without_a_release_is_an_error(demo_raw, tmp_path, capsys):
+    code, _, err = run(capsys, "audit", "--raw", demo_raw, "--curated", tmp_path / "none")
+    assert code == 2 and "not a release with a manifest" in err
+
+
+def test_raw_is_unchanged_by_build_check_and_audit(demo_raw, tmp_path, capsys):
+    before = tree(demo_raw)
+    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "rel")
+    run(capsys, "check", "--raw", demo_raw)
+    run(capsys, "audit", "--raw", demo_raw, "--curated", tmp_path / "rel")
+    assert tree(demo_raw) == before
+
+
+def test_datapackage_validates_against_the_data_package_standard(demo_raw, tmp_path, capsys):
+    frictionless = pytest.importorskip("frictionless")
+    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "rel")
+    desc = json.loads((tmp_path / "rel" / "datapackage.json").read_text())
+    # the descriptor against the Data Package profile bundled with frictionless
+    errors = frictionless.Package.validate_descriptor(desc).flatten(["type", "note"])
+    assert errors == [], errors
+    for res in desc["resources"]:
+        data = (tmp_path / "rel" / res["path"]).read_bytes()
+        assert res["hash"] == "sha256:" + hashlib.sha256(data).hexdigest()
+        assert res["bytes"] == len(data)
+    assert {r["path"] for r in desc["resources"]} >= {"library.json", "library.parquet",
+                                                      "manifest.json", "provenance.json"}
+
+
+def test_provenance_reads_as_w3c_prov(demo_raw, tmp_path, capsys):
+    prov_model = pytest.importorskip("prov.model")
+    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "rel")
+    text = (tmp_path / "rel" / "provenance.json").read_text()
+    doc = prov_model.ProvDocument.deserialize(content=text, format="json")
+    derived = [r for r in doc.get_records(prov_model.ProvDerivation)]
+    pairs = {(str(r.formal_attributes[0][1]), str(r.formal_attributes[1][1])) for r in derived}
+    assert ("tl:species-N2O_g", "raw:isru-benchlog-2026_n2o.csv") in pairs
+    assert any(str(a) == "tl:fit-N2O_g" for a in
+               [r.identifier for r in doc.get_records(prov_model.ProvActivity)])
+
+
+def test_diff_lists_exactly_the_edited_species(demo_raw, tmp_path, capsys):
+    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "old")
+    edit_n2_row(demo_raw)
+    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "new")
+    code, out, _ = run(capsys, "diff", tmp_path / "old", tmp_path / "new", "--json")
+    d = json.loads(out)
+    assert code == 0 and d["added"] == [] and d["removed"] == []
+    (c,) = d["changed"]
+    assert c["id"] == "N2(g)"
+    old = library.find_species(library.load(tmp_path / "old"), "N2(g)")
+    new = library.find_species(library.load(tmp_path / "new"), "N2(g)")
+    for row in c["at"]:
+        a = forms.evaluate(library.ranges_of(old), [row["T"], 298.15])
+        b = forms.evaluate(library.ranges_of(new), [row["T"], 298.15])
+        assert row["Cp"] == pytest.approx(b["Cp"][0] - a["Cp"][0], abs=1e-9)
+        assert row["dH"] == pytest.approx((b["H"][0] - b["H"][1]) - (a["H"][0] - a["H"][1]),
+                                          abs=1e-6)
+        assert row["S"] == pytest.approx(b["S"][0] - a["S"][0], abs=1e-9)
+        assert row["G"] == pytest.approx(b["G"][0] - a["G"][0], abs=1e-6)
+    assert [r["T"] for r in c["at"]] == [298.15, 300.0, 400.0, 500.0, 600.0, 800.0, 1000.0,
+                                         1500.0, 2000.0, 3000.0]
+    code, out, _ = run(capsys, "diff", tmp_path / "old", tmp_path / "new", "--cp-threshold",
+                       "0.5")
+    assert "no differences above the thresholds" in out
+    code, out, _ = run(capsys, "diff", tmp_path / "old", tmp_path / "new")
+    assert out.startswith("~ N2(g)") and "content changed: isru-rrho-2026/n2.csv" in out
+
+
+def test_a_second_build_waits_or_fails_clearly_while_the_lock_is_held(demo_raw, tmp_path,
+                                                                        capsys):
+    out = tmp_path / "rel"
+    with publish.locked(out):
+        code, _, err = run(capsys, "build", "--raw", demo_raw, "--out", out)
+    assert code == 2 and "another build is writing" in err and not out.exists()
+
+
+def _cli(*argv):
+    env = {k: v for k, v in os.environ.items() if k != "PYTHONPATH"}
+    env["PYTHONPATH"] = str(PROJECT)
+    return subprocess.Popen([sys.executable, "-m", "pipeline.cli", *map(str, argv)],
+                            stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, env=env)
+
+
+@pytest.fixture
+def two_releases(demo_raw, tmp_path, capsys):
+    """Raw folders A and B (one row differs) and the release trees they build."""
+    raw_b = tmp_path / "raw-b"
+    shutil.copytree(demo_raw, raw_b)
+    edit_n2_row(raw_b)
+    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "ref-a")
+    run(capsys, "build", "--raw", raw_b, "--out", tmp_path / "ref-b")
+    a, b = tree(tmp_path / "ref-a"), tree(tmp_path / "ref-b")
+    assert a != b
+    return demo_raw, raw_b, a, b
+
+
+def test_concurrent_builds_never_interleave(two_releases, tmp_path):
+    raw_a, raw_b, a, b = two_releases
+    out = tmp_path / "shared"
+    for _ in range(3):
+        p1, p2 = _cli("build", "--raw", raw_a, "--out", out, "--wait", "120"), \
+            _cli("build", "--raw", raw_b, "--out", out, "--wait", "120")
+        assert p1.wait(180) == 0 and p2.wait(180) == 0, (p1.stderr.read(), p2.stderr.read())
+        assert tree(out) in (a, b)
+        assert provenance.verify_release(out) == []
+
+
+def test_killed_builds_leave_a_complete_release(two_releases, tmp_path):
+    raw_a, raw_b, a, b = two_releases
+    out = tmp_path / "victim"
+    shutil.copytree(tmp_path / "ref-a", out)
+    rng = random.Random(20261202)
+    start = time.monotonic()
+    p = _cli("build", "--raw", raw_b, "--out", out)
+    p.wait(120)
+    full = time.monotonic() - start           # how long one build takes here
+    shutil.rmtree(out)
+    shutil.copytree(tmp_path / "ref-a", out)
+    kills = 0
+    for i in range(24):
+        raw = raw_b if tree(out) == a else raw_a
+        p = _cli("build", "--raw", raw, "--out", out)
+        time.sleep(rng.uniform(0.3, 1.1) * full)
+        if p.poll() is None:
+            p.send_signal(signal.SIGKILL)
+            kills += 1
+        p.wait(60)
+        state = tree(out)
+        assert state in (a, b), f"kill {i}: curated/ is neither release"
+        assert provenance.verify_release(out) == []
+    assert kills >= 20
+
+
+@given(st.text(max_size=40))
+def test_species_ids_are_sanitised_for_file_names(text):
+    name = provenance.safe_name(text)
+    assert name and "/" not in name and ".." not in name and not name.startswith(".")
+    assert all(c.isalnum() or c in "._-" for c in name) and len(name) <= 80
+
+
+def test_safe_name_of_a_species_id():
+    assert provenance.safe_name("CO2(g)") == "CO2_g"
+    assert provenance.safe_name("../../etc/passwd") == "etc_passwd"
+    assert np.all([provenance.safe_name(x) for x in ("N2O(g)", "NO+(g)")])

@@ -84,14 +84,16 @@ def species_findings(sel, findings):
 def build(raw_dir, out_dir, ctx: Settings = Settings(), *, write=True, progress=None,
           wait: float = 0.0) -> BuildResult:
     """Run every stage; write the outputs into ``out_dir`` unless ``write`` is False."""
+    say = progress or (lambda stage, i=0, n=0, label="": None)
+    say("read and check", 0, 0, str(raw_dir))
     checked = check(raw_dir, ctx)
     findings = list(checked.findings)
     quarantined = list(checked.quarantined)
     fitted = []
-    for sel in checked.selections:
+    n_sel = len(checked.selections)
+    for k, sel in enumerate(checked.selections):
         meta = sel.primary.meta
-        if progress:
-            progress(sel.species_id)
+        say("fit", k + 1, n_sel, sel.species_id)
         where = dict(source=meta.source.source, file=meta.file)
         try:
             result = fit_selection(sel, ctx)
@@ -111,17 +113,58 @@ def build(raw_dir, out_dir, ctx: Settings = Settings(), *, write=True, progress=
                                     excluded=sel.excluded, rows=rows))
     digest = ingest.inputs_digest(checked.inputs)
     doc = export.library_document(fitted, quarantined, digest, ctx.to_dict())
+    say("write", 0, 0, str(out_dir))
     files = release(doc, export.findings_document(findings), fitted, quarantined, checked,
-                    ctx, digest)
+                    ctx, digest, plot_points(doc, checked) if ctx.outputs.report else None)
     written = publish.publish(Path(out_dir), files, check=_verify, wait=wait) if write else []
     return BuildResult(fitted=tuple(fitted), quarantined=tuple(quarantined),
                        findings=tuple(findings), document=doc, written=tuple(written),
                        files=files)
 
 
-def release(doc, findings_doc, fitted, quarantined, checked, ctx, digest) -> dict:
-    """Every file of a release: library, findings, schemas, provenance, manifest, package."""
+def plot_points(doc, checked) -> dict:
+    """Per species: the rows used and left out, and deviations from H and S columns."""
+    from . import forms, library
+
+    by_sel = {s.species_id: s for s in checked.selections}
+    tables = {t.meta.file: t.data for t in checked.tables}
+    out = {}
+    for sp in doc["species"]:
+        sel = by_sel[sp["id"]]
+        d = sel.data
+        p = {"t": d["T"].to_numpy(), "cp": d["Cp"].to_numpy()}
+        t_out, cp_out = [], []
+        for x in sp["excluded"]:
+            rows = tables[x["file"]]
+            hit = rows[rows["line"] == x["line"]]
+            t_out += hit["T"].tolist()
+            cp_out += hit["Cp"].tolist()
+        p["t_out"], p["cp_out"] = np.array(t_out), np.array(cp_out)
+        rr = library.ranges_of(sp)
+        h298 = forms.evaluate(rr, [298.15], sp["form"])["H"][0]
+        for col, key in (("dH", "dh"), ("S", "s")):
+            m = d[col].notna().to_numpy()
+            if m.any():
+                t = d["T"].to_numpy()[m]
+                ev = forms.evaluate(rr, t, sp["form"])
+                fitted_v = ev["H"] - h298 if col == "dH" else ev["S"]
+                p[key] = (t, fitted_v - d[col].to_numpy()[m])
+        out[sp["id"]] = p
+    return out
+
+
+def release(doc, findings_doc, fitted, quarantined, checked, ctx, digest, points=None) -> dict:
+    """Every file of a release: library, findings, tables, report, schemas, provenance,
+    manifest, data package."""
+    from . import report, tables
+
     files = export.release_files(doc, findings_doc)
+    out = ctx.outputs
+    files["tables.parquet"] = tables.parquet_bytes(doc, out.table_step)
+    if out.tables_csv:
+        files.update(tables.csv_files(doc, out.table_step))
+    if out.report:
+        files.update(report.report_files(doc, points or {}, ctx.fit.accept_cp_max_rel))
     files["provenance.json"] = export.json_bytes(
         provenance.prov_document(fitted, checked.inputs, sorted(files.items())))
     man = provenance.manifest(fitted, quarantined, checked.inputs, sorted(files.items()),

@@ -10,7 +10,8 @@ from .errors import InputError
 from .errors import ThermoledgerError
 from .findings import ERROR, INFO, WARNING, format_block
 from .paths import write_atomic
-from .settings import FitSettings, Settings
+from .progress import Progress
+from .settings import FitSettings, OutputSettings, Settings
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -31,6 +32,13 @@ def _parser() -> argparse.ArgumentParser:
                    help="exit 1 if any table was quarantined (for maintainers' CI)")
     b.add_argument("--wait", type=float, default=0.0, metavar="SECONDS",
                    help="wait this long for another build writing the same folder (0)")
+    b.add_argument("--quiet", action="store_true", help="no progress bar or log lines")
+    b.add_argument("--json", action="store_true", help="print a JSON summary for scripts")
+    b.add_argument("--no-report", action="store_true", help="skip the HTML report")
+    b.add_argument("--tables-csv", action="store_true",
+                   help="also write one CSV of evaluated properties per species (tables/)")
+    b.add_argument("--table-step", type=float, default=100.0, metavar="K",
+                   help="temperature step of the evaluated tables after 298.15 K (100)")
     _fit_options(b)
 
     c = sub.add_parser("check", help="ingest and validate only; print the findings",
@@ -40,6 +48,7 @@ def _parser() -> argparse.ArgumentParser:
     c.add_argument("--all", action="store_true", help="also print info findings")
     c.add_argument("--report", type=Path, metavar="FILE",
                    help="also write the findings as JSON (schemas/findings.schema.json)")
+    c.add_argument("--json", action="store_true", help="print the findings report as JSON")
     _fit_options(c)
 
     a = sub.add_parser("audit", help="rebuild into a temporary folder and compare with curated/",
@@ -75,6 +84,7 @@ def _parser() -> argparse.ArgumentParser:
     q.add_argument("species", help="species id such as CO2(g), or a name such as CO2")
     q.add_argument("temperatures", nargs="+", type=float, metavar="T",
                    help="temperatures [K]")
+    q.add_argument("--json", action="store_true", help="print the values as JSON")
     return p
 
 
@@ -100,6 +110,12 @@ def _fit_options(p):
                    metavar="FRACTION", help="largest accepted relative Cp deviation (0.01)")
 
 
+def _outputs(args) -> OutputSettings:
+    return OutputSettings(report=not getattr(args, "no_report", False),
+                          tables_csv=getattr(args, "tables_csv", False),
+                          table_step=getattr(args, "table_step", 100.0))
+
+
 def _settings(args) -> Settings:
     lo, hi = args.range_of_use if args.range_of_use else (None, None)
     mode, fixed = args.breakpoints, ()
@@ -115,7 +131,8 @@ def _settings(args) -> Settings:
                                     breakpoint=args.breakpoint, fixed_breakpoints=fixed,
                                     continuity=args.continuity, minimax=args.minimax,
                                     use_t_min=lo, use_t_max=hi,
-                                    accept_cp_max_rel=args.accept_cp))
+                                    accept_cp_max_rel=args.accept_cp),
+                    outputs=_outputs(args))
 
 
 def _totals(findings):
@@ -139,8 +156,21 @@ def _print_findings(findings, *, show_info=False, out=None):
 
 
 def cmd_build(args) -> int:
-    result = build.build(args.raw, args.out, _settings(args), wait=args.wait)
+    bar = Progress(quiet=args.quiet or args.json)
+    try:
+        result = build.build(args.raw, args.out, _settings(args), wait=args.wait, progress=bar)
+    finally:
+        bar.close()
     n_err, n_warn, n_ack = _totals(result.findings)
+    if args.json:
+        print(json.dumps({"species": [s["id"] for s in result.document["species"]],
+                          "quarantined": [{"id": q["id"], "file": q["file"],
+                                           "code": q["reasons"][0]["code"]}
+                                          for q in result.document["quarantined"]],
+                          "errors": n_err, "warnings": n_warn, "acknowledged": n_ack,
+                          "out": str(args.out), "files": len(result.written),
+                          "notice": export.NOTICE}, indent=1))
+        return 1 if args.strict and result.quarantined else 0
     print(f"thermoledger build: {len(result.fitted)} species fitted, "
           f"{len(result.quarantined)} table(s) quarantined, {n_err} error(s), "
           f"{n_warn} warning(s), {n_ack} acknowledged")
@@ -173,8 +203,14 @@ def cmd_build(args) -> int:
 
 def cmd_check(args) -> int:
     result = build.check(args.raw, _settings(args))
-    _print_findings(result.findings, show_info=args.all)
     n_err, n_warn, n_ack = _totals(result.findings)
+    if args.json:
+        doc = export.findings_document(result.findings)
+        print(json.dumps(doc, indent=1))
+        if args.report:
+            write_atomic(args.report, export.json_bytes(doc))
+        return 1 if n_err else 0
+    _print_findings(result.findings, show_info=args.all)
     print(f"thermoledger check: {len(result.tables)} table(s) read, "
           f"{len(result.quarantined)} would be quarantined; {n_err} error(s), "
           f"{n_warn} warning(s), {n_ack} acknowledged")
@@ -190,6 +226,14 @@ def cmd_props(args) -> int:
     doc = library.load(args.library)
     sp = library.find_species(doc, args.species)
     values = library.evaluate(sp, args.temperatures)
+    if args.json:
+        print(json.dumps({"id": sp["id"], "form": sp["form"], "units": {
+            "T": "K", "Cp": "J/(mol*K)", "H": "J/mol", "S": "J/(mol*K)", "G": "J/mol"},
+            "rows": [{"T": t, **{k: float(values[k][i]) for k in ("Cp", "u_Cp", "H", "u_H", "S",
+                                                               "u_S", "G")},
+                      "extrapolated": bool(values["extrapolated"][i])}
+                     for i, t in enumerate(args.temperatures)]}, indent=1))
+        return 0
     print(f"{sp['id']}  {sp['form']}, {sp['ranges'][0]['t_min']:g}-{sp['ranges'][-1]['t_max']:g} K"
           f", from {args.library}")
     print(f"{'T [K]':>10} {'Cp [J/(mol*K)]':>20} {'H [kJ/mol]':>20} {'S [J/(mol*K)]':>18} "

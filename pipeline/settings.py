@@ -92,14 +92,31 @@ class CheckSettings:
 
 
 @dataclass(frozen=True)
+class OutputSettings:
+    """What the export stage writes besides the library."""
+
+    #: the HTML build report in report/
+    report: bool = True
+    #: one CSV of evaluated properties per species in tables/ (tables.parquet is always written)
+    tables_csv: bool = False
+    #: temperature step [K] of the evaluated tables (after 298.15 K)
+    table_step: float = 100.0
+
+    def to_dict(self) -> dict:
+        return asdict(self)
+
+
+@dataclass(frozen=True)
 class Settings:
     """All stage settings of one build."""
 
     fit: FitSettings = FitSettings()
     checks: CheckSettings = CheckSettings()
+    outputs: OutputSettings = OutputSettings()
 
     def to_dict(self) -> dict:
-        return {"fit": self.fit.to_dict(), "checks": self.checks.to_dict()}
+        return {"fit": self.fit.to_dict(), "checks": self.checks.to_dict(),
+                "outputs": self.outputs.to_dict()}
 
 
 def for_table(fit: FitSettings, overrides) -> FitSettings:

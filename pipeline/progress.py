@@ -1,0 +1,38 @@
+"""Progress of a long build: a bar on a terminal (tqdm), plain log lines otherwise, nothing
+with --quiet. A callable ``(stage, i, n, label)`` for build.build."""
+
+import sys
+import time
+
+
+class Progress:
+    def __init__(self, quiet=False, stream=None):
+        self.stream = stream or sys.stderr
+        self.quiet = quiet
+        self.tty = hasattr(self.stream, "isatty") and self.stream.isatty()
+        self.bar = None
+        self.stage = None
+        self.t0 = time.monotonic()
+
+    def __call__(self, stage, i=0, n=0, label=""):
+        if self.quiet:
+            return
+        if stage != self.stage:
+            self.close()
+            self.stage = stage
+            if self.tty and n:
+                from tqdm import tqdm
+
+                self.bar = tqdm(total=n, desc=stage, unit="species", file=self.stream,
+                                leave=False, dynamic_ncols=True)
+            elif not self.tty:
+                extra = f" ({n} species)" if n else (f": {label}" if label else "")
+                print(f"[{time.monotonic() - self.t0:6.1f} s] {stage}{extra}", file=self.stream)
+        if self.bar is not None:
+            self.bar.set_postfix_str(label, refresh=False)
+            self.bar.update(1)
+
+    def close(self):
+        if self.bar is not None:
+            self.bar.close()
+            self.bar = None

@@ -1,0 +1,185 @@
+"""Evaluated tables, the HTML report, progress and JSON output."""
+
+import json
+import shutil
+import subprocess
+from html.parser import HTMLParser
+from pathlib import Path
+
+import numpy as np
+import pyarrow.parquet as pq
+import pytest
+
+from pipeline import cli, tables
+from pipeline.constants import GAS_CONSTANT as R
+
+
+def run(capsys, *argv):
+    code = cli.main([str(a) for a in argv])
+    out = capsys.readouterr()
+    return code, out.out, out.err
+
+
+@pytest.fixture
+def release(demo_raw, tmp_path, capsys):
+    out = tmp_path / "rel"
+    code, _, _ = run(capsys, "build", "--raw", demo_raw, "--out", out, "--tables-csv", "--quiet")
+    assert code == 0
+    return out
+
+
+def by_hand(sp, t):
+    """Cp, H, S written out from the published equations (NASA TM-4513 Eqs. 1-3; NASA/TP-2002-
+    211556 Eqs. 2-4), independently of pipeline.forms."""
+    r = next(x for x in sp["ranges"] if x["t_min"] <= t <= x["t_max"])
+    a = r["coefficients"]
+    if sp["form"] == "nasa7":
+        cp = a[0] + a[1] * t + a[2] * t**2 + a[3] * t**3 + a[4] * t**4
+        h = (a[0] + a[1] * t / 2 + a[2] * t**2 / 3 + a[3] * t**3 / 4 + a[4] * t**4 / 5
+             + a[5] / t) * t
+        s = (a[0] * np.log(t) + a[1] * t + a[2] * t**2 / 2 + a[3] * t**3 / 3 + a[4] * t**4 / 4
+             + a[6])
+    else:  # nasa9
+        cp = a[0] / t**2 + a[1] / t + a[2] + a[3] * t + a[4] * t**2 + a[5] * t**3 + a[6] * t**4
+        h = (-a[0] / t**2 + a[1] * np.log(t) / t + a[2] + a[3] * t / 2 + a[4] * t**2 / 3
+             + a[5] * t**3 / 4 + a[6] * t**4 / 5 + a[7] / t) * t
+        s = (-a[0] / t**2 / 2 - a[1] / t + a[2] * np.log(t) + a[3] * t + a[4] * t**2 / 2
+             + a[5] * t**3 / 3 + a[6] * t**4 / 4 + a[8])
+    return R * cp, R * h, R * s
+
+
+def test_tables_equal_independent_evaluation_of_the_coefficients(release):
+    lib = json.loads((release / "library.json").read_text())
+    rows = pq.read_table(release / "tables.parquet").to_pylist()
+    assert rows
+    for sp in lib["species"]:
+        mine = [r for r in rows if r["id"] == sp["id"]]
+        assert mine[0]["T"] == sp["ranges"][0]["t_min"] and mine[-1]["T"] == sp["ranges"][-1]["t_max"]
+        assert any(r["T"] == 298.15 for r in mine)
+        h298 = by_hand(sp, 298.15)[1]
+        for r in mine:
+            cp, h, s = by_hand(sp, r["T"])
+            assert r["Cp"] == pytest.approx(cp, rel=1e-10)
+            assert r["H"] == pytest.approx(h, rel=1e-10, abs=1e-6)
+            assert r["H_minus_H298"] == pytest.approx(h - h298, rel=1e-9, abs=1e-6)
+            assert r["S"] == pytest.approx(s, rel=1e-10)
+            assert r["gef"] == pytest.approx(-((h - r["T"] * s) - h298) / r["T"], rel=1e-9)
+            data = sp["data_range"]
+            assert r["extrapolated"] == (r["T"] < data["t_min"] or r["T"] > data["t_max"])
+            assert r["u_Cp"] >= 0
+    n2 = [r for r in rows if r["id"] == "N2(g)"]
+    assert [r["T"] for r in n2 if r["extrapolated"]][0] > 3000.0   # 3000-6000 K flagged
+
+
+def test_csv_tables_and_neutralised_text_cells(release):
+    text = (release / "tables" / "N2_g.csv").read_text()
+    assert text.splitlines()[1].startswith("species,T [K],Cp [J/(mol*K)]")
+    sp = {"id": "=HYPERLINK(\"http://x\")", "form": "nasa7", "extrapolated": [],
+          "data_range": {"t_min": 300.0, "t_max": 1000.0}, "breakpoints": [],
+          "ranges": [{"t_min": 300.0, "t_max": 1000.0,
+                      "coefficients": [3.5, 0, 0, 0, 0, -1000.0, 4.0]}], "uncertainty": {}}
+    out = tables.csv_bytes(sp).decode()
+    cells = [ln.split(",")[0] for ln in out.splitlines()[2:]]
+    assert all(c.startswith("\"'=HYPERLINK") or c.startswith("'=HYPERLINK") for c in cells)
+    for bad in ("=1+1", "+1", "-1", "@SUM(A1)", "\tx"):
+        assert tables.neutralise(bad) == "'" + bad
+    assert tables.neutralise("N2(g)") == "N2(g)"
+
+
+class Strict(HTMLParser):
+    VOID = {"meta", "img", "br", "hr", "link", "input"}
+
+    def __init__(self):
+        super().__init__()
+        self.stack, self.refs, self.errors = [], [], []
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        if tag == "img":
+            self.refs.append(a["src"])
+        if tag == "a" and a.get("href"):
+            self.refs.append(a["href"])
+        if tag == "script" and a.get("src") or tag == "link" and a.get("href"):
+            self.errors.append(f"external resource {a}")
+        if tag not in self.VOID:
+            self.stack.append(tag)
+
+    def handle_startendtag(self, tag, attrs):
+        self.handle_starttag(tag, attrs)
+        if tag not in self.VOID:
+            self.stack.pop()
+
+    def handle_endtag(self, tag):
+        if not self.stack or self.stack[-1] != tag:
+            self.errors.append(f"</{tag}> closes {self.stack[-1:] or 'nothing'}")
+        else:
+            self.stack.pop()
+
+
+def test_html_is_well_formed_and_every_reference_exists(release):
+    pages = sorted((release / "report").rglob("*.html"))
+    assert (release / "report" / "index.html") in pages and len(pages) >= 10
+    for page in pages:
+        text = page.read_text()
+        p = Strict()
+        p.feed(text)
+        assert not p.errors and not p.stack, (page, p.errors, p.stack)
+        assert "qualified person" in text
+        assert "http://" not in text and "https://" not in text
+        for ref in p.refs:
+            assert (page.parent / ref).resolve().is_file(), (page, ref)
+
+
+def test_species_page_shows_its_sections(release):
+    text = (release / "report" / "species" / "N2_g.html").read_text()
+    for section in ("At a glance", "Outside the data", "Curves", "Against the H and S columns",
+                    "Findings", "Where the numbers came from", "Coefficients"):
+        assert f"<h2>{section}" in text
+    assert "N2_g-cp.svg" in text and "N2_g-hs.svg" in text
+
+
+def test_progress_is_plain_lines_off_a_terminal_and_silent_when_quiet(demo_raw, tmp_path,
+                                                                      capsys):
+    _, _, err = run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "a")
+    assert "fit (9 species)" in err and "\r" not in err
+    _, _, err = run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "b", "--quiet")
+    assert err == ""
+
+
+def test_json_summaries(demo_raw, tmp_path, capsys):
+    code, out, _ = run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "a", "--json")
+    doc = json.loads(out)
+    assert code == 0 and "N2(g)" in doc["species"] and doc["errors"] == 2
+    code, out, _ = run(capsys, "check", "--raw", demo_raw, "--json")
+    assert code == 1 and json.loads(out)["counts"]["error"] == 2
+    code, out, _ = run(capsys, "props", tmp_path / "a", "N2", "300", "5000", "--json")
+    rows = json.loads(out)["rows"]
+    assert rows[1]["extrapolated"] and not rows[0]["extrapolated"] and rows[0]["u_Cp"] > 0
+
+
+CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
+FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+         "--disable-background-networking", "--disable-component-update", "--disable-sync"]
+
+
+@pytest.mark.skipif(CHROMIUM is None, reason="Chromium is not installed on this machine")
+def test_report_renders_in_a_real_headless_browser(release, tmp_path):
+    profile = tmp_path / "profile"
+
+    def chromium(*args):
+        return subprocess.run([CHROMIUM, *FLAGS, f"--user-data-dir={profile}", *args],
+                              capture_output=True, text=True, timeout=120)
+
+    index = (release / "report" / "index.html").as_uri()
+    dom = chromium("--dump-dom", "--virtual-time-budget=2000", index).stdout
+    assert "<table class=\"sortable\" id=\"summary\">" in dom
+    assert dom.count("<tr><td><a href=\"species/") == 9
+    shot = tmp_path / "index.png"           # kept out of the repository
+    chromium("--window-size=1200,1400", f"--screenshot={shot}", index)
+    assert shot.is_file() and shot.stat().st_size > 20000
+    page = (release / "report" / "species" / "N2_g.html").as_uri()
+    dom = chromium("--dump-dom", page).stdout
+    assert dom.count("<img src=\"../img/N2_g-") == 2
+    shot = tmp_path / "species.png"
+    chromium("--window-size=1200,1800", f"--screenshot={shot}", page)
+    assert shot.is_file() and shot.stat().st_size > 50000

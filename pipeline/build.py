@@ -63,7 +63,9 @@ def species_settings(meta, ctx: Settings):
 
 def fit_selection(sel, ctx: Settings):
     data = sel.data
-    col = (lambda c: data[c].to_numpy() if len(data) and data[c].notna().any() else None)
+    def col(c):
+        return data[c].to_numpy() if len(data) and data[c].notna().any() else None
+
     u = data["u_Cp"].to_numpy() if len(data) and data["u_Cp"].notna().all() else None
     meta = sel.primary.meta
     return fit.fit_species(sel.species_id, data["T"].to_numpy(), data["Cp"].to_numpy(), u,

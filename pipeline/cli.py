@@ -6,8 +6,7 @@ import sys
 from pathlib import Path
 
 from . import __version__, build, export, forms, library
-from .errors import InputError
-from .errors import ThermoledgerError
+from .errors import InputError, ThermoledgerError
 from .findings import ERROR, INFO, WARNING, format_block
 from .paths import write_atomic
 from .progress import Progress

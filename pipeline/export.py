@@ -10,7 +10,6 @@ same inputs give byte-identical files.
 import io
 import json
 from functools import lru_cache
-from pathlib import Path
 
 import pyarrow as pa
 import pyarrow.parquet as pq

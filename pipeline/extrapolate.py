@@ -13,7 +13,7 @@ The model is chosen per species by how well it predicts held-out data: each cand
 fitted to the data without the outer quarter (on the side of the extension) and judged by
 its largest relative error there. The best of each family (Wilhoit, oscillators) is kept;
 when their hold-out errors are within a factor FAMILY_TIE the test cannot tell them apart,
-and the extension is their mean, with half their difference added to the uncertainty. Guards reject a candidate whose extension is not finite,
+and the extension is their mean. Guards reject a candidate whose extension is not finite,
 not monotone rising (high side), below 5/2 R, or above Cp(∞) by more than the classical
 margin (runaway). The chosen model is refitted to all data; its relative uncertainty is the
 hold-out error, growing in proportion to ln T beyond the data (common practice: an

@@ -137,7 +137,9 @@ def fit_species(species_id, t, cp, u, h298, s298, settings: FitSettings = FitSet
     t = np.asarray(t, dtype=float)
     order = np.argsort(t, kind="stable")
     t, cp = t[order], np.asarray(cp, dtype=float)[order]
-    pick = (lambda v: None if v is None else np.asarray(v, dtype=float)[order])
+    def pick(v):
+        return None if v is None else np.asarray(v, dtype=float)[order]
+
     u, dh, s, u_dh, u_s = pick(u), pick(dh), pick(s), pick(u_dh), pick(u_s)
     if len(t) < settings.min_points:
         raise FitError(species_id, f"{len(t)} points, at least {settings.min_points} needed")

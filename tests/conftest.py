@@ -1,5 +1,6 @@
 """Shared helpers: write raw sources in the documented format into a temporary folder."""
 
+import hashlib
 import json
 import shutil
 from pathlib import Path
@@ -48,3 +49,18 @@ def demo_raw(tmp_path):
     dst = tmp_path / "raw"
     shutil.copytree(PROJECT / "raw", dst)
     return dst
+
+
+def tree_hashes(folder: Path) -> dict:
+    """sha256 of every file below ``folder`` by relative path."""
+    return {str(p.relative_to(folder)): hashlib.sha256(p.read_bytes()).hexdigest()
+            for p in sorted(Path(folder).rglob("*")) if p.is_file()}
+
+
+def run_cli(capsys, *argv):
+    """Run the CLI in-process; (exit code, stdout, stderr)."""
+    from pipeline import cli
+
+    code = cli.main([str(a) for a in argv])
+    out = capsys.readouterr()
+    return code, out.out, out.err

@@ -1,6 +1,5 @@
 """End-to-end through the CLI on real files in a temporary folder."""
 
-import hashlib
 import json
 import os
 import shutil
@@ -14,18 +13,8 @@ import pytest
 
 from pipeline import cli, export, forms
 
-from .conftest import PROJECT, table_entry, write_source
-
-
-def tree_hashes(folder: Path) -> dict:
-    return {str(p.relative_to(folder)): hashlib.sha256(p.read_bytes()).hexdigest()
-            for p in sorted(folder.rglob("*")) if p.is_file()}
-
-
-def run(capsys, *argv):
-    code = cli.main([str(a) for a in argv])
-    out = capsys.readouterr()
-    return code, out.out, out.err
+from .conftest import PROJECT, table_entry, tree_hashes, write_source
+from .conftest import run_cli as run
 
 
 def test_demo_build_writes_library_and_reports_the_defective_table(demo_raw, tmp_path, capsys):

@@ -6,19 +6,14 @@ import json
 import jsonschema
 import pytest
 
-from pipeline import cli
-
 from .conftest import PROJECT, table_entry, write_source
+from .conftest import run_cli as run
 
 ROWS = [[t, f"{29.1 + 0.004 * (t - 200):.4f}", f"{29.1 + 0.004 * (t - 200) - 8.3145:.4f}"]
         for t in range(200, 1600, 50)]
 HEADER = ["T [K]", "Cp [J/(mol*K)]", "Cv [J/(mol*K)]"]
 
 
-def run(capsys, *argv):
-    code = cli.main([str(a) for a in argv])
-    out = capsys.readouterr()
-    return code, out.out, out.err
 
 
 def schema():

@@ -7,7 +7,7 @@ import numpy as np
 import pytest
 from scipy.optimize import minimize
 
-from pipeline import basis, build, fit, forms, lsq, statmech
+from pipeline import basis, fit, forms, lsq, statmech
 from pipeline.constants import GAS_CONSTANT as R
 from pipeline.settings import FitSettings
 

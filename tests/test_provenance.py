@@ -17,20 +17,11 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from pipeline import cli, forms, library, provenance, publish
+from pipeline import forms, library, provenance, publish
 
 from .conftest import PROJECT
-
-
-def tree(folder: Path) -> dict:
-    return {str(p.relative_to(folder)): hashlib.sha256(p.read_bytes()).hexdigest()
-            for p in sorted(folder.rglob("*")) if p.is_file()}
-
-
-def run(capsys, *argv):
-    code = cli.main([str(a) for a in argv])
-    out = capsys.readouterr()
-    return code, out.out, out.err
+from .conftest import run_cli as run
+from .conftest import tree_hashes as tree
 
 
 def edit_n2_row(raw: Path, new_cp="32.9444"):

@@ -4,20 +4,15 @@ import json
 import shutil
 import subprocess
 from html.parser import HTMLParser
-from pathlib import Path
 
 import numpy as np
 import pyarrow.parquet as pq
 import pytest
 
-from pipeline import cli, tables
+from pipeline import tables
 from pipeline.constants import GAS_CONSTANT as R
 
-
-def run(capsys, *argv):
-    code = cli.main([str(a) for a in argv])
-    out = capsys.readouterr()
-    return code, out.out, out.err
+from .conftest import run_cli as run
 
 
 @pytest.fixture

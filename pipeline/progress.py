@@ -6,13 +6,14 @@ import time
 
 
 class Progress:
-    def __init__(self, quiet=False, stream=None):
+    def __init__(self, quiet=False, stream=None, mininterval=0.1):
         self.stream = stream or sys.stderr
         self.quiet = quiet
         self.tty = hasattr(self.stream, "isatty") and self.stream.isatty()
         self.bar = None
         self.stage = None
         self.t0 = time.monotonic()
+        self.mininterval = mininterval
 
     def __call__(self, stage, i=0, n=0, label=""):
         if self.quiet:
@@ -24,7 +25,7 @@ class Progress:
                 from tqdm import tqdm
 
                 self.bar = tqdm(total=n, desc=stage, unit="species", file=self.stream,
-                                leave=False, dynamic_ncols=True)
+                                leave=False, dynamic_ncols=True, mininterval=self.mininterval)
             elif not self.tty:
                 extra = f" ({n} species)" if n else (f": {label}" if label else "")
                 print(f"[{time.monotonic() - self.t0:6.1f} s] {stage}{extra}", file=self.stream)

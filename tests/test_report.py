@@ -178,3 +178,21 @@ def test_report_renders_in_a_real_headless_browser(release, tmp_path):
     shot = tmp_path / "species.png"
     chromium("--window-size=1200,1800", f"--screenshot={shot}", page)
     assert shot.is_file() and shot.stat().st_size > 50000
+
+
+def test_progress_bar_on_a_terminal_shows_stage_and_eta():
+    import io
+
+    from pipeline.progress import Progress
+
+    class Terminal(io.StringIO):
+        def isatty(self):
+            return True
+
+    term = Terminal()
+    bar = Progress(stream=term, mininterval=0)
+    for i in range(1, 6):
+        bar("fit", i, 5, f"S{i}(g)")
+    text = term.getvalue()
+    bar.close()
+    assert "fit" in text and "5/5" in text and "<" in text   # tqdm's elapsed<remaining

@@ -80,61 +80,62 @@ def fit_wilhoit(t, cp, n, c0, cinf):
         _wilhoit_terms(np.asarray(x, float), b, n, c0, cinf)[1] @ a if n else 0.0)
 
 
-def fit_oscillators(t, cp, k, c0, modes):
-    """k Einstein functions with degeneracies summing to ``modes`` (relative least squares)."""
-    if modes <= 0:
-        return lambda x: np.full(np.shape(np.atleast_1d(x)), c0)
+def _degeneracies(p, k, modes):
+    """k degeneracies from k − 1 free ones: the last makes them add up to ``modes``."""
+    return np.append(p[k:2 * k - 1], modes - np.sum(p[k:2 * k - 1])) if k > 1 else np.array([modes])
 
+
+def _fit_oscillator_model(t, cp, k, modes, shape, extra0=(), extra_lo=(), extra_hi=()):
+    """Bounded least squares of Cp(0) + R Σ g_j shape(θ_j, x, extra) over k oscillators.
+
+    ``shape(theta, x, extra)`` returns the (n, k) contributions per unit degeneracy (and any
+    further terms through ``extra``); θ_j in [20, 2·10⁴] K, g_j ≥ 0 with Σ g_j = modes.
+    Returns the fitted parameter vector and the model function of (p, x).
+    """
     def model(p, x):
-        th = p[:k]
-        g = np.append(p[k:], modes - np.sum(p[k:])) if k > 1 else np.array([modes])
-        return c0 + R * np.sum(g[None, :] * einstein(th[None, :] / np.asarray(x)[:, None]),
-                               axis=1)
+        x = np.asarray(x, float)
+        g = _degeneracies(p, k, modes)
+        per_unit, added = shape(p[:k], x, p[2 * k - 1:])
+        return (np.sum(g[None, :] * per_unit, axis=1) if modes else 0.0) + added
 
-    th0 = np.geomspace(500.0, 4000.0, k)
-    g0 = np.full(k - 1, modes / k)
-    lo = np.concatenate([np.full(k, 20.0), np.zeros(k - 1)])
-    hi = np.concatenate([np.full(k, 2.0e4), np.full(k - 1, float(modes))])
+    p0 = np.concatenate([np.geomspace(500.0, 4000.0, k), np.full(k - 1, modes / k), extra0])
+    lo = np.concatenate([np.full(k, 20.0), np.zeros(k - 1), extra_lo])
+    hi = np.concatenate([np.full(k, 2.0e4), np.full(k - 1, float(max(modes, 1))), extra_hi])
 
     def resid(p):
         r = (model(p, t) - cp) / cp
         if k > 1:  # keep the last degeneracy non-negative
-            r = np.append(r, 10.0 * min(0.0, modes - np.sum(p[k:])))
-        return r
-
-    sol = least_squares(resid, np.concatenate([th0, g0]), bounds=(lo, hi), method="trf",
-                        x_scale="jac", max_nfev=200)
-    return lambda x: model(sol.x, np.atleast_1d(np.asarray(x, float)))
-
-
-def fit_oscillators_electronic(t, cp, k, c0, modes):
-    """k Einstein functions (degeneracies summing to ``modes``) plus one two-level term
-    R r x² eˣ/(1 + r eˣ)², x = θe/T, for a low-lying electronic state of degeneracy ratio r."""
-    if modes <= 0:
-        modes = 0
-
-    def model(p, x):
-        x = np.asarray(x, float)
-        th = p[:k]
-        g = np.append(p[k:2 * k - 1], modes - np.sum(p[k:2 * k - 1])) if k > 1 else np.array([modes])
-        ratio, theta_e = p[2 * k - 1], p[2 * k]
-        vib = np.sum(g[None, :] * einstein(th[None, :] / x[:, None]), axis=1) if modes else 0.0
-        xe = theta_e / x
-        el = ratio * xe * xe * np.exp(-xe) / (1.0 + ratio * np.exp(-xe)) ** 2
-        return c0 + R * (vib + el)
-
-    p0 = np.concatenate([np.geomspace(500.0, 4000.0, k), np.full(k - 1, modes / k), [1.0, 8000.0]])
-    lo = np.concatenate([np.full(k, 20.0), np.zeros(k - 1), [0.0, 100.0]])
-    hi = np.concatenate([np.full(k, 2.0e4), np.full(k - 1, float(max(modes, 1))), [10.0, 1.0e5]])
-
-    def resid(p):
-        r = (model(p, t) - cp) / cp
-        if k > 1:
             r = np.append(r, 10.0 * min(0.0, modes - np.sum(p[k:2 * k - 1])))
         return r
 
     sol = least_squares(resid, p0, bounds=(lo, hi), method="trf", x_scale="jac", max_nfev=300)
     return lambda x: model(sol.x, np.atleast_1d(np.asarray(x, float)))
+
+
+def fit_oscillators(t, cp, k, c0, modes):
+    """k Einstein functions with degeneracies summing to ``modes`` (relative least squares)."""
+    if modes <= 0:
+        return lambda x: np.full(np.shape(np.atleast_1d(x)), c0)
+
+    def shape(th, x, extra):
+        return R * einstein(th[None, :] / x[:, None]), c0
+
+    return _fit_oscillator_model(t, cp, k, modes, shape)
+
+
+def fit_oscillators_electronic(t, cp, k, c0, modes):
+    """k Einstein functions (degeneracies summing to ``modes``) plus one two-level term
+    R r x² eˣ/(1 + r eˣ)², x = θe/T, for a low-lying electronic state of degeneracy ratio r."""
+    modes = max(modes, 0)
+
+    def shape(th, x, extra):
+        ratio, theta_e = extra
+        xe = theta_e / x
+        el = ratio * xe * xe * np.exp(-xe) / (1.0 + ratio * np.exp(-xe)) ** 2
+        return R * einstein(th[None, :] / x[:, None]), c0 + R * el
+
+    return _fit_oscillator_model(t, cp, k, modes, shape, [1.0, 8000.0], [0.0, 100.0],
+                                 [10.0, 1.0e5])
 
 
 def fit_oscillators_anharmonic(t, cp, k, c0, modes):
@@ -143,26 +144,12 @@ def fit_oscillators_anharmonic(t, cp, k, c0, modes):
     if modes <= 0:
         return lambda x: np.full(np.shape(np.atleast_1d(x)), c0)
 
-    def model(p, x):
-        x = np.asarray(x, float)
-        th = p[:k]
-        g = np.append(p[k:2 * k - 1], modes - np.sum(p[k:2 * k - 1])) if k > 1 else np.array([modes])
-        beta = p[-1]
-        terms = g[None, :] * einstein(th[None, :] / x[:, None]) * (1.0 + beta * x[:, None] / th[None, :])
-        return c0 + R * np.sum(terms, axis=1)
+    def shape(th, x, extra):
+        beta = extra[0]
+        ratio = x[:, None] / th[None, :]
+        return R * einstein(th[None, :] / x[:, None]) * (1.0 + beta * ratio), c0
 
-    p0 = np.concatenate([np.geomspace(500.0, 4000.0, k), np.full(k - 1, modes / k), [0.01]])
-    lo = np.concatenate([np.full(k, 20.0), np.zeros(k - 1), [0.0]])
-    hi = np.concatenate([np.full(k, 2.0e4), np.full(k - 1, float(modes)), [0.2]])
-
-    def resid(p):
-        r = (model(p, t) - cp) / cp
-        if k > 1:
-            r = np.append(r, 10.0 * min(0.0, modes - np.sum(p[k:2 * k - 1])))
-        return r
-
-    sol = least_squares(resid, p0, bounds=(lo, hi), method="trf", x_scale="jac", max_nfev=300)
-    return lambda x: model(sol.x, np.atleast_1d(np.asarray(x, float)))
+    return _fit_oscillator_model(t, cp, k, modes, shape, [0.01], [0.0], [0.2])
 
 
 def candidates(geometry, atoms):

@@ -50,7 +50,7 @@ def objective_for(t, y, sigma, powers, sets, order, norm):
             rows = basis.powers_row(powers, sets[:, j] / forms.T_SCALE, d)   # (K, m)
             c[:, j * (order + 1) + d, j * m:(j + 1) * m] = rows
             c[:, j * (order + 1) + d, (j + 1) * m:(j + 2) * m] = -rows
-    return lsq.batch_objective(v, y, sigma, m, starts, c, norm)
+    return lsq.batch_objective(v, y, sigma, starts, c, norm)
 
 
 def optimise(t, y, sigma, powers, n_ranges, *, order=1, norm="max", need=5,

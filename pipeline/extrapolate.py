@@ -76,8 +76,12 @@ def fit_wilhoit(t, cp, n, c0, cinf):
         if best is None or err < best[0]:
             best = (err, b, a)
     _, b, a = best
-    return lambda x: _wilhoit_terms(np.asarray(x, float), b, n, c0, cinf)[0] + (
-        _wilhoit_terms(np.asarray(x, float), b, n, c0, cinf)[1] @ a if n else 0.0)
+
+    def model(x):
+        base, cols = _wilhoit_terms(np.asarray(x, float), b, n, c0, cinf)
+        return base + (cols @ a if n else 0.0)
+
+    return model
 
 
 def _degeneracies(p, k, modes):
@@ -186,7 +190,7 @@ def extend(t, cp, geometry, atoms, t_to, *, side="high", holdout=0.25, margin=0.
     """Extension of (t, cp) to ``t_to`` [K], or None when no candidate passes the guards."""
     t = np.asarray(t, dtype=float)
     cp = np.asarray(cp, dtype=float)
-    if geometry is None or atoms is None or geometry == "monatomic" and False:
+    if geometry is None or atoms is None:
         return None
     order = np.argsort(t)
     t, cp = t[order], cp[order]

@@ -191,10 +191,6 @@ def finding(code: str, message: str, **fields) -> Finding:
     return Finding(code=code, severity=entry.severity, message=message, **fields)
 
 
-def has_error(items) -> bool:
-    return any(f.severity == ERROR for f in items)
-
-
 def format_block(f: Finding) -> str:
     """Two or three lines for a report grouped by file: the where is the file heading."""
     where = f"line {f.line}" if f.line is not None else "table"
@@ -214,25 +210,6 @@ def format_block(f: Finding) -> str:
     if f.acknowledged:
         lines.append(f"      acknowledged: {f.acknowledged} (not counted)")
     return "\n".join(lines)
-
-
-def format_finding(f: Finding) -> str:
-    """One readable line: where, code, message, seen/expected, fix."""
-    where = f.file or f.source
-    if f.line is not None:
-        where += f":{f.line}"
-    if f.column:
-        where += f" [{f.column}]"
-    text = f"{f.severity.upper():7s} {f.code:20s} {where}: {f.message}"
-    if f.seen or f.expected:
-        text += f" (seen {f.seen or '-'}; expected {f.expected or '-'})"
-    if len(f.lines) > 1:
-        text += f" [lines {_ranges(f.lines)}]"
-    if f.fix:
-        text += f" -> fix: {f.fix}"
-    if f.acknowledged:
-        text += f" (acknowledged: {f.acknowledged})"
-    return text
 
 
 def _ranges(lines) -> str:

@@ -39,33 +39,26 @@ def choose_breakpoints(t, y, sigma, form, settings: FitSettings):
     """Breakpoints [K] and an optional (code, message) note."""
     need = points_per_range(form, settings)
     nr = settings.ranges
+    note = None
     if nr > 1 and settings.breakpoint_mode != "fixed" and len(t) < nr * need:
         fewer = max(1, len(t) // need)
         note = ("COV-RANGE-POINTS", f"{len(t)} points cannot fill {nr} ranges of at least "
                 f"{need}; fitted with {fewer} range(s)")
-        if fewer == 1:
-            return [], note
-        bps = breakpoints.optimise(t, y, sigma, form.powers, fewer, order=settings.continuity,
-                                   norm=settings.breakpoint_norm, need=need,
-                                   max_candidates=settings.max_candidates,
-                                   ratio=settings.min_range_ratio)
-        return bps, note
-    if nr == 1:
-        return [], None
-    if settings.breakpoint_mode == "fixed":
+        nr = fewer
+    elif settings.breakpoint_mode == "fixed":
         return sorted(float(b) for b in settings.fixed_breakpoints), None
-    if settings.breakpoint_mode == "conventional" and nr != 2:
-        note = ("COV-RANGE-POINTS", f"the conventional breakpoint serves two ranges; the "
-                f"breakpoints of {nr} ranges were optimised")
-    elif settings.breakpoint_mode == "conventional":
+    elif settings.breakpoint_mode == "conventional" and nr == 2:
         conv = breakpoints.conventional(t, nr, settings.breakpoint, need)
         if conv:
             return conv, None
         note = ("COV-RANGE-POINTS", f"{int((t <= settings.breakpoint).sum())} point(s) at or "
                 f"below and {int((t > settings.breakpoint).sum())} above {settings.breakpoint:g} "
                 f"K (at least {need} needed on each side); breakpoint optimised instead")
-    else:
-        note = None
+    elif settings.breakpoint_mode == "conventional" and nr > 2:
+        note = ("COV-RANGE-POINTS", f"the conventional breakpoint serves two ranges; the "
+                f"breakpoints of {nr} ranges were optimised")
+    if nr == 1:
+        return [], note
     bps = breakpoints.optimise(t, y, sigma, form.powers, nr, order=settings.continuity,
                                norm=settings.breakpoint_norm, need=need,
                                bounds=(settings.breakpoint_min, settings.breakpoint_max),
@@ -91,11 +84,9 @@ def integration_constants(form, cp_coeffs, edges, h298, s298):
     return h0, s0
 
 
-def _observations(t, cp, u, dh, s, u_dh, u_s, s298, bps, edges, form, settings):
-    """Stacked rows, targets and σ of all observations (Cp, then H, then S)."""
-    rows = [basis.cp_rows(form.powers, t, bps)]
-    y = [cp / R]
-    sig = [u / R]
+def _column_observations(t, dh, s, u_dh, u_s, s298, bps, edges, form, settings):
+    """Rows, targets and σ of the H−H298 and S columns (empty when not fitted together)."""
+    rows, y, sig = [], [], []
     if settings.simultaneous and dh is not None:
         m = np.isfinite(dh)
         if m.sum():
@@ -113,7 +104,7 @@ def _observations(t, cp, u, dh, s, u_dh, u_s, s298, bps, edges, form, settings):
             rows.append(basis.integral_rows(form.powers, t[m], bps, edges, "S"))
             y.append((s[m] - s298) / R)
             sig.append(us / R)
-    return np.vstack(rows), np.concatenate(y), np.concatenate(sig)
+    return rows, y, sig
 
 
 def fit_species(species_id, t, cp, u, h298, s298, settings: FitSettings = FitSettings(), *,
@@ -192,15 +183,11 @@ def fit_species(species_id, t, cp, u, h298, s298, settings: FitSettings = FitSet
     edges = [lo] + list(bps) + [hi]
     if any(b <= lo or b >= hi for b in bps) or list(bps) != sorted(bps):
         raise FitError(species_id, f"breakpoints {bps} do not lie inside {lo:g}-{hi:g} K")
-    rows, y, sig = _observations(all_t, all_cp, all_sig, None, None, None, None, s298, bps,
-                                 edges, form, settings)
-    if settings.simultaneous:
-        extra_rows, extra_y, extra_sig = _observations(t, cp, sigma, dh, s, u_dh, u_s, s298, bps,
-                                                       edges, form, settings)
-        n_cp = len(t)
-        rows = np.vstack([rows, extra_rows[n_cp:]])
-        y = np.concatenate([y, extra_y[n_cp:]])
-        sig = np.concatenate([sig, extra_sig[n_cp:]])
+    col_rows, col_y, col_sig = _column_observations(t, dh, s, u_dh, u_s, s298, bps, edges,
+                                                    form, settings)
+    rows = np.vstack([basis.cp_rows(form.powers, all_t, bps)] + col_rows)
+    y = np.concatenate([all_cp / R] + col_y)
+    sig = np.concatenate([all_sig / R] + col_sig)
     cons = basis.continuity_rows(form.powers, bps, settings.continuity) if bps else None
     sol = lsq.minimax(rows, y, sig, cons) if settings.minimax else lsq.solve(rows, y, sig, cons)
     if not np.all(np.isfinite(sol.c)):

@@ -84,13 +84,13 @@ def uncertainty(species: dict, t) -> dict:
                              ("u_S", basis.integral_rows(powers, t, bps, edges, "S"), R)):
         var = np.einsum("ni,ij,nj->n", rows, cov, rows)
         out[key] = scale * np.sqrt(np.maximum(var, 0.0))
-    cp = forms.evaluate(ranges_of(species), t, species["form"])["Cp"]
-    for e in species["extrapolated"]:
-        if e.get("u_rel_end"):
-            inside = (t >= e["t_min"]) & (t <= e["t_max"])
-            span = np.log(e["t_max"] / e["t_min"]) or 1.0
-            edge = e["t_min"] if e["t_max"] >= species["data_range"]["t_max"] else e["t_max"]
-            frac = np.abs(np.log(t / edge)) / span
-            extra = e["u_rel_end"] * frac * cp
-            out["u_Cp"] = np.where(inside, np.hypot(out["u_Cp"], extra), out["u_Cp"])
+    guided = [e for e in species["extrapolated"] if e.get("u_rel_end")]
+    cp = forms.evaluate(ranges_of(species), t, species["form"])["Cp"] if guided else None
+    for e in guided:
+        inside = (t >= e["t_min"]) & (t <= e["t_max"])
+        span = np.log(e["t_max"] / e["t_min"]) or 1.0
+        edge = e["t_min"] if e["t_max"] >= species["data_range"]["t_max"] else e["t_max"]
+        frac = np.abs(np.log(t / edge)) / span
+        extra = e["u_rel_end"] * frac * cp
+        out["u_Cp"] = np.where(inside, np.hypot(out["u_Cp"], extra), out["u_Cp"])
     return out

@@ -114,7 +114,7 @@ def minimax(a, y, sigma, c=None, iterations=200, tol=1e-9) -> Solution:
     return best
 
 
-def batch_objective(v, y, sigma, powers_count, starts, c, norm="max"):
+def batch_objective(v, y, sigma, starts, c, norm="max"):
     """Objective of many candidate problems at once, from prefix sums of the normal equations.
 
     v : (n, m) basis rows of every point (one range's columns), points sorted by T

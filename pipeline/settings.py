@@ -75,8 +75,6 @@ class CheckSettings:
     outlier_sigmas: float = 6.0
     #: ... and beyond this relative deviation from its neighbours' smooth curve
     outlier_floor: float = 0.004
-    #: neighbours on each side used by the smoother
-    smoother_half_window: int = 4
     #: two sources disagreeing by more than this fraction is a warning
     source_tolerance: float = 0.01
     #: a factor is recognised when the log-ratio is within this of its logarithm

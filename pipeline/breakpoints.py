@@ -12,6 +12,9 @@ import numpy as np
 
 from . import basis, forms, lsq
 
+TIE_TOLERANCE = 1e-9
+"""Objectives closer than this (relative, or absolute below 1) count as equal [1]."""
+
 
 def _candidates(t, lo_idx, hi_idx, need, bounds, limit, ratio=1.0, lo_edge=None, hi_edge=None):
     """Candidate breakpoints between data index lo_idx and hi_idx leaving ``need`` points, and
@@ -85,14 +88,27 @@ def optimise(t, y, sigma, powers, n_ranges, *, order=1, norm="max", need=5,
             sets = np.tile(np.asarray(current, dtype=float), (len(cands), 1))
             sets[:, j] = cands
             obj = objective_for(t, y, sigma, powers, sets, order, norm)
-            k = int(np.argmin(obj))
+            k = _pick(obj, cands, current[j])
             if best_obj is None or obj[k] < best_obj - 1e-15:
                 changed = changed or current[j] != cands[k]
                 current[j] = float(cands[k])
                 best_obj = float(obj[k])
         if not changed:
             break
+    edges = [t[0]] + list(current) + [t[-1]]
+    if any(b / a < ratio * (1 - 1e-9) for a, b in zip(edges[:-1], edges[1:])):
+        raise ValueError(f"no breakpoints leave {n_ranges} ranges of at least {need} points "
+                         f"each at least {ratio:g} times wider at the top than at the bottom")
     return [float(round(b, 3)) for b in current]
+
+
+def _pick(obj, cands, here):
+    """Index of the best candidate; candidates whose objective ties with the best within
+    TIE_TOLERANCE (round-off, as for a table of constant Cp) go to the one nearest ``here``
+    in log T, so the choice does not depend on the machine's floating-point kernels."""
+    best = float(np.min(obj))
+    tied = np.flatnonzero(obj <= best + TIE_TOLERANCE * max(1.0, abs(best)))
+    return int(tied[np.argmin(np.abs(np.log(cands[tied] / here)))])
 
 
 def _coarse_start(t, y, sigma, powers, nb, order, norm, need, bounds, ratio=1.0, per_axis=None):

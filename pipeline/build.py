@@ -99,20 +99,29 @@ def build(raw_dir, out_dir, ctx: Settings = Settings(), *, write=True, progress=
         where = dict(source=meta.source.source, file=meta.file)
         try:
             result = fit_selection(sel, ctx)
-            if not np.isfinite(result.cp_max_rel_dev):
-                raise FitError(sel.species_id, "fit quality is not finite")
+            notes = [finding(code, msg, **where) for code, msg in result.notes]
+            rows = tuple(sorted(zip(sel.data["file"].tolist(),
+                                    (int(x) for x in sel.data["line"]))))
+            done = FittedSpecies(table=sel.primary, fit=result,
+                                 findings=species_findings(sel, findings + notes), uses=sel.uses,
+                                 excluded=sel.excluded, rows=rows)
+            bad = export.non_finite(export.species_entry(done))
+            if bad:
+                raise FitError(sel.species_id, f"the fitted entry holds a non-finite number at "
+                               f"{bad}")
         except FitError as exc:
             code = "FIT-REJECTED" if isinstance(exc, fit.FitRejected) else "FIT-FAILED"
             f = finding(code, exc.reason, **where)
             findings.append(f)
             quarantined.append((meta, (f,)))
             continue
-        notes = [finding(code, msg, **where) for code, msg in result.notes]
+        except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
+            f = ingest.stage_failed("fit", exc, **where)
+            findings.append(f)
+            quarantined.append((meta, (f,)))
+            continue
         findings += notes
-        rows = tuple(sorted(zip(sel.data["file"].tolist(), (int(x) for x in sel.data["line"]))))
-        fitted.append(FittedSpecies(table=sel.primary, fit=result,
-                                    findings=species_findings(sel, findings), uses=sel.uses,
-                                    excluded=sel.excluded, rows=rows))
+        fitted.append(done)
     digest = ingest.inputs_digest(checked.inputs)
     doc = export.library_document(fitted, quarantined, digest, ctx.to_dict())
     say("write", 0, 0, str(out_dir))

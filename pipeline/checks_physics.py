@@ -47,6 +47,13 @@ def gas_band(geometry, atoms, settings, tight=False):
     return low, high
 
 
+def implausible_cp(geometry, atoms, settings) -> float:
+    """Cp [J/(mol K)] above which an ideal-gas value is a mistake, not physics: the classical
+    limit times ``implausible_factor`` and at least ``implausible_excess`` R above it."""
+    top = bounds.cp_infinity(geometry, atoms)
+    return max(top * settings.implausible_factor, top + settings.implausible_excess * R)
+
+
 def whole_table_factor(cp, geometry, atoms, molar_mass, settings):
     """The factor that brings a table that breaks the bounds back inside them, or None.
 
@@ -108,7 +115,17 @@ def check_gas_bounds(table, ctx):
                            seen=f"{cp[low].min():.6g}", expected=f">= {floor:.6g}",
                            **_where(table)))
     _, high = gas_band(meta.geometry, meta.atoms, settings)
-    above = cp > high
+    ceiling = implausible_cp(meta.geometry, meta.atoms, settings)
+    wild = cp > ceiling
+    if wild.any():
+        out.append(finding("CP-IMPLAUSIBLE", f"{int(wild.sum())} row(s) above {ceiling:.4g} "
+                           f"J/(mol*K), more than any ideal gas of {meta.atoms} atom(s) can "
+                           "reach (the classical limit with room for anharmonic and electronic "
+                           "contributions)", column="Cp", line=int(lines[wild][0]),
+                           lines=tuple(int(x) for x in lines[wild]),
+                           seen=f"{cp[wild].max():.6g}", expected=f"<= {ceiling:.6g}",
+                           **_where(table)))
+    above = (cp > high) & ~wild
     if above.any():
         if meta.geometry == "monatomic":
             what = (f"monatomic gas above 5/2 R by more than {settings.monatomic_excess:g} R "

@@ -20,7 +20,11 @@ import pandas as pd
 from . import constants, units
 from .errors import UnitError
 from .findings import Finding, finding
+from .limits import MAX_COLUMNS, MAX_ROWS, PHYSICAL_RANGE
 from .records import DATA_COLUMNS
+
+#: per-row findings of one code listed one by one before the rest are summed up in one
+MAX_ROW_FINDINGS = 20
 
 #: raw column name -> (internal column, unit kind, required)
 COLUMNS = {
@@ -34,7 +38,7 @@ COLUMNS = {
 }
 
 _HEADER = re.compile(r"^\s*(?P<name>[^\[\]]*?)\s*\[(?P<unit>[^\[\]]*)\]\s*$")
-_NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
+_NUMBER = re.compile(r"^[+-]?([0-9]+(\.[0-9]*)?|\.[0-9]+)([eE][+-]?[0-9]+)?$")
 
 
 @dataclass(frozen=True)
@@ -133,6 +137,12 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
         return ParsedTable(empty_frame(), (), (), (finding("TAB-EMPTY", "the file is empty", file=file,
                                                    expected="a header row and data rows"),))
     header_line, header = rows[0]
+    if len(header) > MAX_COLUMNS or len(rows) - 1 > MAX_ROWS:
+        return ParsedTable(empty_frame(), (), (), (finding(
+            "TAB-TOO-LARGE", f"{len(header)} columns and {len(rows) - 1} data rows; the limit is "
+            f"{MAX_COLUMNS} columns and {MAX_ROWS} rows", file=file,
+            seen=f"{len(header)} columns, {len(rows) - 1} rows",
+            expected=f"<= {MAX_COLUMNS} columns, <= {MAX_ROWS} rows"),))
     layout, problems = _read_header(header, file)
     findings += problems
     names = {v[0] for v in layout.values()}
@@ -150,7 +160,8 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
             if basis == "mass" and molar_mass is None:
                 raise UnitError(f"unit '{unit}' is per mass but the formula gave no molar mass")
         except UnitError as exc:
-            code = "UNIT-UNKNOWN" if "cannot be read" in exc.what else "UNIT-DIMENSION"
+            code = getattr(exc, "code", None) or (
+                "UNIT-UNKNOWN" if "cannot be read" in exc.what else "UNIT-DIMENSION")
             findings.append(finding(code, exc.what, file=file, line=header_line, column=name,
                                     seen=unit, expected=exc.expected or kind))
             continue
@@ -191,9 +202,21 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
                 values[pos].append(parsed[pos])
     frame = {c: np.full(len(lines), np.nan) for c in DATA_COLUMNS if c != "line"}
     frame["line"] = np.asarray(lines, dtype="int64")
+    keep = np.ones(len(lines), dtype=bool)
     for pos, (name, internal, unit, kind, basis) in usable.items():
         frame[internal] = units.to_si(values[pos], unit, kind, molar_mass)
         notes += _conversion_notes(name, unit, kind, basis, molar_mass)
+        bad = _out_of_range(frame[internal], internal)
+        for i in np.flatnonzero(bad):
+            lo, hi = PHYSICAL_RANGE[internal]
+            findings.append(finding(
+                "VALUE-RANGE", f"{name} = {values[pos][i]:.6g} [{unit}] is "
+                f"{frame[internal][i]:.6g} {units.KINDS[kind][2]} in SI, outside the physical "
+                "range of the column; the row is left out", file=file, line=int(lines[i]),
+                column=name, seen=f"{values[pos][i]:.6g}",
+                expected=f"{lo:g} to {hi:g} {units.KINDS[kind][2]}"))
+        keep &= ~bad
+    frame = {c: v[keep] for c, v in frame.items()}
     data = pd.DataFrame({c: frame[c] for c in DATA_COLUMNS})
     if "u_Cp" in {v[1] for v in usable.values()} and len(data):
         given = data["u_Cp"].notna()
@@ -206,7 +229,36 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
         shift = constants.GAS_CONSTANT * math.log(standard_pressure / constants.STANDARD_PRESSURE)
         data["S"] = data["S"] + shift
         notes.append(f"S moved from {standard_pressure:g} Pa to 1 bar: {shift:+.4f} J/(mol*K)")
-    return ParsedTable(data, tuple(header), tuple(notes), tuple(findings))
+    return ParsedTable(data, tuple(header), tuple(notes), tuple(_summarise(findings)))
+
+
+def _out_of_range(values: np.ndarray, column: str) -> np.ndarray:
+    """Mask of given (non-NaN) values that are not finite or lie outside PHYSICAL_RANGE."""
+    lo, hi = PHYSICAL_RANGE[column]
+    given = ~np.isnan(values)
+    with np.errstate(invalid="ignore"):
+        out = given & ~((values >= lo) & (values <= hi))
+        if column == "T":  # T <= 0 K has its own check and message (T-NOT-POSITIVE)
+            out &= ~(np.isfinite(values) & (values <= 0))
+    return out
+
+
+def _summarise(findings):
+    """Per-row findings beyond MAX_ROW_FINDINGS of one code become one finding listing the
+    remaining lines, so a file of a million bad rows is reported in a few lines."""
+    out, counts, rest = [], {}, {}
+    for f in findings:
+        n = counts[f.code] = counts.get(f.code, 0) + 1
+        if f.line is None or n <= MAX_ROW_FINDINGS:
+            out.append(f)
+        else:
+            rest.setdefault(f.code, []).append(f)
+    for code, more in rest.items():
+        first = more[0]
+        out.append(first.located(
+            message=f"{len(more)} more row(s) with this problem, first: {first.message}",
+            lines=tuple(f.line for f in more)))
+    return out
 
 
 def _rows(text: str):

@@ -9,6 +9,7 @@ same inputs give byte-identical files.
 
 import io
 import json
+import math
 from functools import lru_cache
 
 import pyarrow as pa
@@ -72,6 +73,24 @@ def species_entry(fitted) -> dict:
         "conversions": list(meta.notes),
         "findings": [f.to_dict() for f in sorted(fitted.findings, key=lambda f: f.sort_key())],
     }
+
+
+def non_finite(doc, path="") -> str:
+    """Path of the first NaN or infinity in a JSON-like document, or '' when all are finite
+    (JSON cannot carry them, and a library must never hold them)."""
+    if isinstance(doc, float):
+        return "" if math.isfinite(doc) else (path or "(top)")
+    if isinstance(doc, dict):
+        items = doc.items()
+    elif isinstance(doc, (list, tuple)):
+        items = enumerate(doc)
+    else:
+        return ""
+    for key, value in items:
+        hit = non_finite(value, f"{path}/{key}")
+        if hit:
+            return hit
+    return ""
 
 
 def _source_ref(use) -> dict:

@@ -49,6 +49,18 @@ _CODES = [
          "add source.json or move the folder out of raw/"),
     Code("TAB-EMPTY", ERROR, "the table has no header or no data rows",
          "add the header row and the data rows"),
+    Code("TAB-NOT-FILE", ERROR, "a listed table is a folder, a pipe or another non-file",
+         "list a plain CSV file"),
+    Code("TAB-TOO-LARGE", ERROR, "the table exceeds the size, row or column limit; not read",
+         "split the table or thin its rows (limits in the README)"),
+    Code("SRC-TOO-LARGE", ERROR, "source.json exceeds the size or table-count limit; not read",
+         "split the source into several folders"),
+    Code("SRC-TOO-DEEP", ERROR, "source.json is nested deeper than the limit; not read",
+         "write source.json in the documented flat layout"),
+    Code("SRC-DUPLICATE-KEY", ERROR, "the same key appears twice in one JSON object",
+         "keep each key once; the meaning of a repeated key is ambiguous"),
+    Code("STAGE-FAILED", ERROR, "an unexpected failure while processing this table; the table "
+         "is held back and the build goes on", "report the message to the maintainers"),
     # --- header and cells
     Code("COL-NO-UNIT", ERROR, "a column name has no [unit]",
          "write the unit in brackets, e.g. 'Cp [J/(mol*K)]'"),
@@ -58,6 +70,11 @@ _CODES = [
     Code("COL-REQUIRED", ERROR, "a required column (T or Cp) is missing",
          "add the column with its unit"),
     Code("UNIT-UNKNOWN", ERROR, "a unit cannot be read", "use a unit such as K, degC, J/(mol*K)"),
+    Code("UNIT-TOO-COMPLEX", ERROR, "a unit expression is too long, has large exponents or "
+         "converts with a non-finite factor", "write a plain unit such as J/(mol*K)"),
+    Code("VALUE-RANGE", ERROR, "a value is not finite or lies outside the physical range of "
+         "its column after conversion to SI; the row is left out",
+         "check the value and the unit of its column"),
     Code("UNIT-DIMENSION", ERROR, "a unit has the wrong dimension for its column",
          "use a unit of the expected dimension"),
     Code("ROW-WIDTH", ERROR, "a row has a different number of cells than the header",
@@ -85,6 +102,8 @@ _CODES = [
     # --- physics and units
     Code("CP-BELOW-EQUIPARTITION", ERROR, "Cp of an ideal gas below 5/2 R",
          "check the unit of the Cp column and the values"),
+    Code("CP-IMPLAUSIBLE", ERROR, "Cp of an ideal gas far above any physical value for its "
+         "atoms", "check the unit of the Cp column and the values"),
     Code("CP-ABOVE-CLASSICAL", WARNING, "Cp above the classical limit of its geometry and atoms",
          "check the unit, the formula and the geometry"),
     Code("CP-ABOVE-DULONG-PETIT", WARNING, "condensed-phase Cp well above 3R per atom",
@@ -133,6 +152,8 @@ _CODES = [
          "none needed; raise the priority to prefer this source"),
     Code("SEL-TIE", WARNING, "two sources of equal priority have the species; the first by id was used",
          "give the sources different priorities"),
+    Code("FIT-SETTING", ERROR, "a fit setting of the table cannot be applied to its data",
+         "correct the setting under 'fit' in source.json"),
     Code("FIT-FAILED", ERROR, "the fit could not be carried out", "see the message"),
     Code("FIT-EXTRAPOLATED", WARNING, "Cp was extended past the data with a physically shaped "
          "model before fitting", "treat the interval with its stated uncertainty"),

@@ -39,22 +39,29 @@ def choose_breakpoints(t, y, sigma, form, settings: FitSettings):
     """Breakpoints [K] and an optional (code, message) note."""
     need = points_per_range(form, settings)
     nr = settings.ranges
+    if settings.breakpoint_mode == "fixed":
+        return sorted(float(b) for b in settings.fixed_breakpoints), None
     note = None
-    if nr > 1 and settings.breakpoint_mode != "fixed" and len(t) < nr * need:
+    span, ratio = float(t[-1] / t[0]), settings.min_range_ratio
+    if nr > 1 and len(t) < nr * need:
         fewer = max(1, len(t) // need)
         note = ("COV-RANGE-POINTS", f"{len(t)} points cannot fill {nr} ranges of at least "
                 f"{need}; fitted with {fewer} range(s)")
         nr = fewer
-    elif settings.breakpoint_mode == "fixed":
-        return sorted(float(b) for b in settings.fixed_breakpoints), None
-    elif settings.breakpoint_mode == "conventional" and nr == 2:
+    if nr > 1 and span < ratio ** nr:
+        fewer = max(1, int(np.floor(np.log(span) / np.log(ratio))))
+        note = ("COV-RANGE-POINTS", f"the data span {t[0]:.6g}-{t[-1]:.6g} K, too narrow for "
+                f"{nr} ranges each at least {ratio:g} times wider at the top than at the "
+                f"bottom; fitted with {fewer} range(s)")
+        nr = fewer
+    if note is None and settings.breakpoint_mode == "conventional" and nr == 2:
         conv = breakpoints.conventional(t, nr, settings.breakpoint, need)
         if conv:
             return conv, None
         note = ("COV-RANGE-POINTS", f"{int((t <= settings.breakpoint).sum())} point(s) at or "
                 f"below and {int((t > settings.breakpoint).sum())} above {settings.breakpoint:g} "
                 f"K (at least {need} needed on each side); breakpoint optimised instead")
-    elif settings.breakpoint_mode == "conventional" and nr > 2:
+    elif note is None and settings.breakpoint_mode == "conventional" and nr > 2:
         note = ("COV-RANGE-POINTS", f"the conventional breakpoint serves two ranges; the "
                 f"breakpoints of {nr} ranges were optimised")
     if nr == 1:

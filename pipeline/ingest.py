@@ -12,9 +12,10 @@ from dataclasses import dataclass
 from functools import lru_cache
 from pathlib import Path
 
-from . import chemistry, constants, csvtable, units
+from . import chemistry, constants, csvtable, jsonread, units
 from .errors import InputError
 from .findings import Finding, finding
+from .limits import ANCHOR_RANGE, MAX_SOURCE_BYTES, MAX_TABLE_BYTES, MAX_TABLES_PER_SOURCE
 from .paths import schema_path
 from .records import InputFile, SourceMeta, Table, TableMeta
 
@@ -61,10 +62,14 @@ def discover(raw_dir: Path) -> tuple[list[Path], list[Finding]]:
 def parse_source(text: str, *, file: str, folder: str, digest: str):
     """Parse source.json text -> (SourceMeta or None, table entries, findings)."""
     try:
-        doc = json.loads(text)
-    except json.JSONDecodeError as exc:
-        return None, [], [finding("SRC-UNREADABLE", f"not valid JSON: {exc.msg}", file=file,
-                                  line=exc.lineno, expected="a JSON object")]
+        doc = jsonread.loads(text, file=file)
+    except InputError as exc:
+        return None, [], [finding(exc.code, exc.what, file=file, line=exc.line,
+                                  expected=exc.expected)]
+    if isinstance(doc, dict) and len(doc.get("tables") or ()) > MAX_TABLES_PER_SOURCE:
+        return None, [], [finding("SRC-TOO-LARGE", f"{len(doc['tables'])} tables listed",
+                                  file=file, column="tables",
+                                  expected=f"at most {MAX_TABLES_PER_SOURCE} per source")]
     errors = sorted(_source_validator().iter_errors(doc), key=lambda e: list(map(str, e.path)))
     if errors:
         return None, [], [finding("SRC-SCHEMA", _schema_message(e), file=file,
@@ -72,14 +77,26 @@ def parse_source(text: str, *, file: str, folder: str, digest: str):
                                   seen=_clip(repr(e.instance)), expected=_expected(e))
                           for e in errors]
     try:
-        pressure = units.parse_quantity(doc["standard_pressure"], "pressure")
+        pressure = quantity(doc["standard_pressure"], "pressure", "standard_pressure")
     except InputError as exc:
         return None, [], [finding("SRC-QUANTITY", exc.what, file=file, column="standard_pressure",
-                                  seen=doc["standard_pressure"], expected="'1 bar' or '1 atm'")]
+                                  seen=_clip(doc["standard_pressure"]),
+                                  expected="'1 bar' or '1 atm'")]
     meta = SourceMeta(source=doc["source"], folder=folder, title=doc["title"],
                       citation=doc["citation"], method=doc["method"], license=doc["license"],
                       priority=int(doc["priority"]), standard_pressure=pressure, sha256=digest)
     return meta, doc["tables"], []
+
+
+def quantity(text: str, kind: str, field: str) -> float:
+    """A quantity of source.json in SI, checked against its physical range (ANCHOR_RANGE)."""
+    value = units.parse_quantity(text, kind)
+    lo, hi = ANCHOR_RANGE[field]
+    if not lo <= value <= hi:
+        raise InputError(f"{field} '{_clip(text)}' is {value:g} {units.KINDS[kind][2]} in SI, "
+                         "outside its physical range",
+                         expected=f"{lo:g} to {hi:g} {units.KINDS[kind][2]}")
+    return value
 
 
 def _schema_message(error) -> str:
@@ -112,10 +129,20 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
     if path.is_symlink() or not _inside(path, raw_dir):
         return None, None, [finding("SRC-PATH", "table is a link or lies outside raw/; not read",
                                     **where)]
-    if not path.is_file():
+    listed_at = dict(source=source.source, file=f"{source.folder}/source.json",
+                     column=f"tables/{index}/file", seen=entry["file"], extra={"table": rel})
+    if not path.exists():
         return None, None, [finding("TAB-MISSING", f"listed table {entry['file']} does not exist",
-                                    source=source.source, file=f"{source.folder}/source.json",
-                                    column=f"tables/{index}/file", seen=entry["file"])]
+                                    **listed_at)]
+    if not path.is_file():
+        kind = "a folder" if path.is_dir() else "not a regular file (a pipe or device?)"
+        return None, None, [finding("TAB-NOT-FILE", f"listed table {entry['file']} is {kind}",
+                                    expected="a plain CSV file", **listed_at)]
+    size = path.stat().st_size
+    if size > MAX_TABLE_BYTES:
+        return None, None, [finding("TAB-TOO-LARGE", f"the file is {size} bytes; the limit is "
+                                    f"{MAX_TABLE_BYTES}", seen=str(size),
+                                    expected=f"<= {MAX_TABLE_BYTES} bytes", **where)]
     raw = path.read_bytes()
     digest = sha256(raw)
     infile = InputFile(path=rel, sha256=digest, size=len(raw))
@@ -130,13 +157,13 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
     anchors = {}
     for key, kind in (("enthalpy_of_formation_298", "enthalpy"), ("entropy_298", "heat_capacity")):
         try:
-            anchors[key] = units.parse_quantity(entry[key], kind)
+            anchors[key] = quantity(entry[key], kind, key)
         except InputError as exc:
             anchors[key] = None
             problems.append(finding("SRC-QUANTITY", exc.what, source=source.source,
                                     file=f"{source.folder}/source.json",
                                     column=f"tables/{index}/{key}", extra={"table": rel},
-                                    seen=entry[key], expected=exc.expected))
+                                    seen=_clip(entry[key]), expected=exc.expected))
     notes = []
     s298 = anchors["entropy_298"]
     gas_at_other_pressure = (entry["phase"] == "g"
@@ -144,7 +171,7 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
     if s298 is not None and gas_at_other_pressure:
         shift = constants.GAS_CONSTANT * math.log(source.standard_pressure
                                                   / constants.STANDARD_PRESSURE)
-        s298 += shift
+        s298 += shift   # the pressure is > 0: checked against ANCHOR_RANGE when read
         notes.append(f"entropy_298 moved from {source.standard_pressure:g} Pa to 1 bar: "
                      f"{shift:+.4f} J/(mol*K)")
     text, enc = csvtable.decode(raw, rel)
@@ -173,6 +200,21 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
     return Table(meta=meta, data=data), infile, problems
 
 
+def _guarded_read(folder, entry, source, raw_dir, index):
+    """read_table, with an unexpected exception turned into that table's finding."""
+    try:
+        return read_table(folder, entry, source, raw_dir, index)
+    except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
+        rel = f"{source.folder}/{entry.get('file', '?')}"
+        return None, None, [stage_failed("ingest", exc, source=source.source, file=rel)]
+
+
+def stage_failed(stage: str, exc: BaseException, **where) -> Finding:
+    """The error finding of an unexpected exception while a stage processed one table."""
+    return finding("STAGE-FAILED", f"unexpected {type(exc).__name__} in the {stage} stage: "
+                   f"{_clip(str(exc), 160)}", seen=type(exc).__name__, **where)
+
+
 def _inside(path: Path, root: Path) -> bool:
     try:
         path.resolve().relative_to(Path(root).resolve())
@@ -191,6 +233,15 @@ def ingest(raw_dir) -> IngestResult:
     for folder in folders:
         meta_path = folder / "source.json"
         rel = f"{folder.name}/source.json"
+        if meta_path.is_symlink() or not _inside(meta_path, raw_dir):
+            findings.append(finding("SRC-PATH", "source.json is a link or lies outside raw/; "
+                                    "not followed", file=rel))
+            continue
+        size = meta_path.stat().st_size
+        if size > MAX_SOURCE_BYTES:
+            findings.append(finding("SRC-TOO-LARGE", f"source.json is {size} bytes", file=rel,
+                                    seen=str(size), expected=f"<= {MAX_SOURCE_BYTES} bytes"))
+            continue
         raw = meta_path.read_bytes()
         inputs.append(InputFile(path=rel, sha256=sha256(raw), size=len(raw)))
         try:
@@ -212,7 +263,7 @@ def ingest(raw_dir) -> IngestResult:
         listed = set()
         for index, entry in enumerate(entries):
             listed.add(entry["file"])
-            table, infile, problems = read_table(folder, entry, source, raw_dir, index)
+            table, infile, problems = _guarded_read(folder, entry, source, raw_dir, index)
             findings += problems
             if infile:
                 inputs.append(infile)

@@ -67,6 +67,10 @@ class CheckSettings:
     equipartition_tolerance: float = 0.005
     #: Cp above the classical limit Cp(inf) by more than this fraction is a warning
     classical_margin: float = 0.10
+    #: ideal gas: Cp above this multiple of Cp(inf), and at least implausible_excess R above
+    #: it, is an error (no anharmonic or electronic contribution reaches it; common practice)
+    implausible_factor: float = 2.0
+    implausible_excess: float = 10.0
     #: monatomic gas: Cp above 5/2 R by more than this (electronic states) is a warning [R units]
     monatomic_excess: float = 1.5
     #: condensed phase: Cp above this multiple of 3R per atom is a warning

@@ -12,11 +12,13 @@ pint documentation, default unit definitions (``default_en.txt``): calorie =
 4.184 J (thermochemical), international_calorie = 4.1868 J.
 """
 
+import re
 from functools import lru_cache
 
 import numpy as np
 
 from .errors import UnitError
+from .limits import MAX_UNIT_EXPONENT, MAX_UNIT_LENGTH
 
 #: column kind -> (molar dimensionality, mass-based dimensionality or None, SI unit)
 KINDS = {
@@ -36,8 +38,43 @@ def registry():
     return pint.UnitRegistry()
 
 
+_EXPONENT = re.compile(r"(\*\*|\^)\s*(\(?\s*[+-]?\s*[0-9.]*\s*\)?)")
+_NUMBER = re.compile(r"^[+-]?([0-9]+(\.[0-9]*)?|\.[0-9]+)([eE][+-]?[0-9]+)?$")
+
+
+def check_complexity(text: str) -> None:
+    """Refuse unit text that is too long, uses other characters, or has exponents that are
+    not small plain numbers (``K**9**9**9`` would take pint hours); UnitError with
+    ``code`` = 'UNIT-TOO-COMPLEX'."""
+    def fail(why):
+        err = UnitError(f"unit '{text[:MAX_UNIT_LENGTH]}' {why}",
+                        expected=f"a plain unit of at most {MAX_UNIT_LENGTH} characters with "
+                                 f"exponents of at most {MAX_UNIT_EXPONENT}, e.g. J/(mol*K)")
+        err.code = "UNIT-TOO-COMPLEX"
+        raise err
+    if len(text) > MAX_UNIT_LENGTH:
+        fail(f"is {len(text)} characters long")
+    rest = text
+    for m in _EXPONENT.finditer(text):
+        number = m.group(2).replace("(", "").replace(")", "").replace(" ", "")
+        if not _NUMBER.match(number) or abs(float(number)) > MAX_UNIT_EXPONENT:
+            fail(f"has the exponent '{m.group(2).strip() or '?'}'")
+        after = text[m.end():].lstrip()
+        if after.startswith(("**", "^")):
+            fail("raises a power to a power")
+    for digits in re.findall(r"[0-9]+", rest):
+        if len(digits) > 6:
+            fail(f"holds the number {digits[:12]}…")
+
+
+def is_plain_number(text: str) -> bool:
+    """True for a plain ASCII decimal literal (no 'nan', 'inf', '1_0', Unicode digits)."""
+    return bool(_NUMBER.match(text))
+
+
 @lru_cache(maxsize=512)
 def _parse_unit(text: str):
+    check_complexity(text)
     ureg = registry()
     try:
         unit = ureg.parse_units(text.replace("°", "deg"))
@@ -81,11 +118,12 @@ def to_si(values, unit_text: str, kind: str, molar_mass: float | None = None) ->
     """
     basis, scale, offset = _affine(unit_text, kind)
     arr = np.asarray(values, dtype=float)
-    if basis == "mass":
-        if molar_mass is None:
-            raise UnitError(f"unit '{unit_text}' is per mass but no molar mass is known")
-        return (arr * scale + offset) * molar_mass
-    return arr * scale + offset
+    with np.errstate(over="ignore", invalid="ignore"):  # overflow -> inf, caught by the caller
+        if basis == "mass":
+            if molar_mass is None:
+                raise UnitError(f"unit '{unit_text}' is per mass but no molar mass is known")
+            return (arr * scale + offset) * molar_mass
+        return arr * scale + offset
 
 
 def from_si(values, unit_text: str, kind: str, molar_mass: float | None = None) -> np.ndarray:
@@ -111,7 +149,13 @@ def _affine(unit_text: str, kind: str):
         target = target.replace("mol", "g")
     ureg = registry()
     zero, one = ureg.Quantity(np.array([0.0, 1.0]), unit).to(target).magnitude
-    return basis, float(one - zero), float(zero)
+    scale, offset = float(one - zero), float(zero)
+    if not (np.isfinite(scale) and np.isfinite(offset) and scale > 0):
+        err = UnitError(f"unit '{unit_text}' converts with a factor {scale:g} to {target}",
+                        expected="a unit with a finite, positive conversion factor")
+        err.code = "UNIT-TOO-COMPLEX"
+        raise err
+    return basis, scale, offset
 
 
 def parse_quantity(text: str, kind: str) -> float:
@@ -123,17 +167,20 @@ def parse_quantity(text: str, kind: str) -> float:
         raise UnitError(f"quantity {text!r} is not a string with a unit",
                         expected="a number followed by a unit")
     parts = text.strip().split(None, 1)
-    try:
-        number = float(parts[0])
-    except ValueError:
-        raise UnitError(f"quantity '{text}' does not start with a number",
-                        expected="a number followed by a unit") from None
+    if not is_plain_number(parts[0]):
+        raise UnitError(f"quantity '{text[:60]}' does not start with a plain number",
+                        expected="a number in ASCII digits followed by a unit") from None
+    number = float(parts[0])
     if not np.isfinite(number):
         raise UnitError(f"quantity '{text}' is not finite", expected="a finite number")
     if len(parts) < 2:
         raise UnitError(f"quantity '{text}' has no unit",
                         expected="a number followed by a unit, e.g. '-393.51 kJ/mol'")
-    return float(to_si([number], parts[1], kind)[0])
+    value = float(to_si([number], parts[1], kind)[0])
+    if not np.isfinite(value):
+        raise UnitError(f"quantity '{text[:60]}' overflows when converted to SI",
+                        expected="a finite value")
+    return value
 
 
 def names_bare_calorie(unit_text: str) -> bool:

@@ -20,7 +20,8 @@ from .checks_physics import check_condensed_bounds, check_gas_bounds, check_unit
 from .checks_smooth import check_smoothness
 from .findings import ERROR, finding
 from .records import Table
-from .settings import Settings
+from .limits import TEMPERATURE_SETTING_RANGE
+from .settings import Settings, for_table
 
 
 def _rows_where(table: Table, mask: np.ndarray, code: str, what: str, column: str,
@@ -71,12 +72,58 @@ def check_duplicate_temperatures(table: Table, ctx: Settings):
 
 def check_enough_points(table: Table, ctx: Settings):
     n = int(np.isfinite(table.data["T"]).sum())
-    need = ctx.fit.min_points
+    fit = for_table(ctx.fit, table.meta.fit_overrides)
+    need = fit.min_points
     if n >= need:
         return []
-    return [finding("TOO-FEW-POINTS", f"{n} data points; a two-range fit needs at least {need}",
-                    source=table.meta.source.source, file=table.meta.file, seen=str(n),
-                    expected=f">= {need}")]
+    return [finding("TOO-FEW-POINTS", f"{n} data points; a {fit.ranges}-range fit needs at "
+                    f"least {need}", source=table.meta.source.source, file=table.meta.file,
+                    seen=str(n), expected=f">= {need}")]
+
+
+def check_fit_settings(table: Table, ctx: Settings):
+    """The table's own fit settings (source.json "fit") fit its data: fixed breakpoints
+    strictly increasing, inside the data, every range at least min_range_ratio wide; a range
+    of use inside TEMPERATURE_SETTING_RANGE with its ends in order."""
+    meta = table.meta
+    over = dict(meta.fit_overrides)
+    if not over:
+        return []
+    fit = for_table(ctx.fit, meta.fit_overrides)
+    t = table.data["T"].to_numpy()
+    t = t[np.isfinite(t) & (t > 0)]
+    where = dict(source=meta.source.source, file=f"{meta.source.folder}/source.json",
+                 extra={"table": meta.file})
+    out = []
+
+    def bad(key, what, seen, expected):
+        out.append(finding("FIT-SETTING", what, column=f"tables/{meta.index}/fit/{key}",
+                           seen=str(seen), expected=expected, **where))
+
+    lo_t, hi_t = TEMPERATURE_SETTING_RANGE
+    for key in ("use_t_min", "use_t_max"):
+        v = over.get(key)
+        if v is not None and not lo_t <= v <= hi_t:
+            bad(key, f"{key} {v:g} K lies outside {lo_t:g}-{hi_t:g} K", v, f"{lo_t:g} to {hi_t:g}")
+    if (fit.use_t_min is not None and fit.use_t_max is not None
+            and not fit.use_t_max > fit.use_t_min):
+        bad("use_t_max", f"use_t_max {fit.use_t_max:g} K is not above use_t_min "
+            f"{fit.use_t_min:g} K", fit.use_t_max, f"> {fit.use_t_min:g}")
+    if "breakpoints" in over and fit.breakpoint_mode == "fixed" and len(t):
+        bps = list(over["breakpoints"])
+        edges = [float(t.min())] + bps + [float(t.max())]
+        steps = [b / a for a, b in zip(edges[:-1], edges[1:])]
+        if any(b <= a for a, b in zip(bps[:-1], bps[1:])):
+            bad("breakpoints", f"breakpoints {bps} are not strictly increasing", bps,
+                "strictly increasing temperatures [K]")
+        elif bps[0] <= edges[0] or bps[-1] >= edges[-1]:
+            bad("breakpoints", f"breakpoints {bps} do not lie inside the data "
+                f"{edges[0]:.6g}-{edges[-1]:.6g} K", bps, "temperatures inside the data")
+        elif min(steps) < fit.min_range_ratio:
+            bad("breakpoints", f"breakpoints {bps} leave a range only {min(steps):.4g} times "
+                "wider at the top than at the bottom", bps,
+                f"every range at least {fit.min_range_ratio:g} times wider")
+    return out
 
 
 def check_anchor_reach(table: Table, ctx: Settings):
@@ -106,6 +153,7 @@ STRUCTURE_CHECKS = (
     check_uncertainty_positive,
     check_duplicate_temperatures,
     check_enough_points,
+    check_fit_settings,
     check_anchor_reach,
     check_gas_bounds,
     check_condensed_bounds,
@@ -122,7 +170,18 @@ CHECKS = STRUCTURE_CHECKS + QUALITY_CHECKS
 
 
 def validate_table(table: Table, ctx: Settings = Settings(), prior=()):
-    """All findings of one table; ``prior`` are its ingest findings (errors stop tier two)."""
+    """All findings of one table; ``prior`` are its ingest findings (errors stop tier two).
+    An unexpected exception of a check becomes the table's STAGE-FAILED finding."""
+    from .ingest import stage_failed
+
+    try:
+        return _validate_table(table, ctx, prior)
+    except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
+        return [stage_failed("validate", exc, source=table.meta.source.source,
+                             file=table.meta.file)]
+
+
+def _validate_table(table: Table, ctx: Settings, prior):
     out = []
     for check in STRUCTURE_CHECKS:
         out += check(table, ctx)

@@ -1,0 +1,73 @@
+"""Strict reading of JSON inputs (source.json, library.json).
+
+Python's json module accepts what a curated input must not: NaN and Infinity, the same key
+twice in one object (the last silently wins), and nesting deep enough to exhaust the
+interpreter's recursion limit. ``loads`` refuses all three with an InputError naming the
+file, and never raises anything else for any text.
+"""
+
+import json
+import re
+
+import numpy as np
+
+from .errors import InputError
+from .limits import MAX_JSON_DEPTH
+
+_STRINGS = re.compile(r'"(?:[^"\\]|\\.)*"', re.DOTALL)
+
+
+class _Duplicate(Exception):
+    def __init__(self, key):
+        self.key = key
+
+
+def _pairs(pairs):
+    out = {}
+    for key, value in pairs:
+        if key in out:
+            raise _Duplicate(key)
+        out[key] = value
+    return out
+
+
+def _constant(name):
+    raise ValueError(f"{name} is not a JSON number")
+
+
+def depth(text: str) -> int:
+    """Deepest nesting of arrays and objects in ``text`` (strings skipped) [levels]."""
+    bare = np.frombuffer(_STRINGS.sub('""', text).encode("utf-8", "replace"), dtype=np.uint8)
+    step = np.zeros(len(bare), dtype=np.int64)
+    step[(bare == ord("[")) | (bare == ord("{"))] = 1
+    step[(bare == ord("]")) | (bare == ord("}"))] = -1
+    return int(np.cumsum(step).max(initial=0))
+
+
+def loads(text: str, *, file: str, max_depth: int = MAX_JSON_DEPTH):
+    """Parse JSON ``text`` strictly; InputError (with ``code``) on anything else.
+
+    The InputError's ``code`` attribute is 'SRC-TOO-DEEP', 'SRC-DUPLICATE-KEY' or
+    'SRC-UNREADABLE', for the caller's finding.
+    """
+    levels = depth(text)
+    if levels > max_depth:
+        raise _error("SRC-TOO-DEEP", f"JSON nested {levels} levels deep", file,
+                     expected=f"at most {max_depth} levels")
+    try:
+        return json.loads(text, object_pairs_hook=_pairs, parse_constant=_constant)
+    except _Duplicate as exc:
+        raise _error("SRC-DUPLICATE-KEY", f"key '{exc.key}' appears twice in one object", file,
+                     expected="each key once per object") from None
+    except json.JSONDecodeError as exc:
+        raise _error("SRC-UNREADABLE", f"not valid JSON: {exc.msg}", file, line=exc.lineno,
+                     expected="a JSON object") from None
+    except (ValueError, RecursionError) as exc:
+        raise _error("SRC-UNREADABLE", f"not valid JSON: {exc}", file,
+                     expected="a JSON object") from None
+
+
+def _error(code, what, file, line=None, expected=""):
+    err = InputError(what, file=file, line=line, expected=expected)
+    err.code = code
+    return err

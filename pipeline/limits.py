@@ -1,0 +1,50 @@
+"""Limits on raw input and the physical range of values, checked right after reading.
+
+Every limit has its own finding code (findings.py) and is stated in the README. They keep
+one bad or hostile file from costing more than its own table: memory, time and recursion
+stay bounded whatever the input.
+
+The physical ranges are deliberately wide (a value outside them is a mistake in any real
+table, never a property of a substance); the narrower, physics-based checks come later in
+the validation stage. Their choice is common practice: the widest ranges that published
+thermochemical tables span, with a margin of one or two orders of magnitude.
+"""
+
+#: largest CSV table read [bytes]; a larger file is refused before it is read (TAB-TOO-LARGE)
+MAX_TABLE_BYTES = 8 * 1024 * 1024
+#: most data rows in one table (TAB-TOO-LARGE)
+MAX_ROWS = 50_000
+#: most columns in one table (TAB-TOO-LARGE)
+MAX_COLUMNS = 32
+#: largest source.json [bytes] (SRC-TOO-LARGE)
+MAX_SOURCE_BYTES = 1024 * 1024
+#: deepest nesting of arrays and objects in a JSON input (SRC-TOO-DEEP)
+MAX_JSON_DEPTH = 32
+#: most tables listed in one source.json (SRC-TOO-LARGE)
+MAX_TABLES_PER_SOURCE = 10_000
+#: longest unit expression [characters] (UNIT-TOO-COMPLEX)
+MAX_UNIT_LENGTH = 80
+#: largest exponent magnitude in a unit expression (UNIT-TOO-COMPLEX)
+MAX_UNIT_EXPONENT = 6
+#: largest library.json read by props and diff [bytes]
+MAX_LIBRARY_BYTES = 512 * 1024 * 1024
+
+#: physical range of each internal column after conversion to SI: (low, high), inclusive;
+#: T [K], Cp, S [J/(mol K)], H-H298 [J/mol] and their standard uncertainties (VALUE-RANGE)
+PHYSICAL_RANGE = {
+    "T": (0.01, 1.0e5),
+    "Cp": (-1.0e6, 1.0e6),
+    "dH": (-1.0e9, 1.0e9),
+    "S": (-1.0e6, 1.0e6),
+    "u_Cp": (-1.0e6, 1.0e6),
+    "u_dH": (-1.0e9, 1.0e9),
+    "u_S": (-1.0e6, 1.0e6),
+}
+#: physical range of the anchors and the standard pressure in source.json (SRC-QUANTITY)
+ANCHOR_RANGE = {
+    "enthalpy_of_formation_298": (-1.0e8, 1.0e8),    # [J/mol]
+    "entropy_298": (1.0e-3, 1.0e5),                   # [J/(mol K)], third-law entropies > 0
+    "standard_pressure": (1.0, 1.0e8),                # [Pa]
+}
+#: a range of use or breakpoint [K] lies inside this interval (FIT-SETTING)
+TEMPERATURE_SETTING_RANGE = (10.0, 1.0e5)

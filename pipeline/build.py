@@ -1,7 +1,6 @@
 """Orchestration: ingest -> validate -> reconcile -> fit -> export. Only wires the stages."""
 
 from dataclasses import dataclass
-from pathlib import Path
 
 import numpy as np
 
@@ -19,6 +18,7 @@ class CheckResult:
     inputs: tuple          # InputFile
     selections: tuple      # reconcile.Selection per species
     quarantined: tuple     # (TableMeta, error findings)
+    held_back: tuple = ()  # (file, error findings): sources and tables that could not be read
 
 
 @dataclass(frozen=True)
@@ -29,6 +29,7 @@ class BuildResult:
     document: dict
     written: tuple         # paths written
     files: dict = None     # {relative path: bytes} of the release
+    held_back: tuple = ()  # (file, error findings): sources and tables that could not be read
 
 
 def table_findings(table, findings):
@@ -53,7 +54,21 @@ def check(raw_dir, ctx: Settings = Settings()) -> CheckResult:
     quarantined += dropped
     found = acknowledge.apply(got.tables, found)
     return CheckResult(tables=got.tables, findings=tuple(found), inputs=got.inputs,
-                       selections=tuple(selections), quarantined=tuple(quarantined))
+                       selections=tuple(selections), quarantined=tuple(quarantined),
+                       held_back=held_back(got.tables, found))
+
+
+def held_back(tables, findings) -> tuple:
+    """(file, error findings) for every input with errors that is not a table that was read:
+    a source.json that failed (its whole source is held back) or a listed table that could not
+    be read at all."""
+    read = {t.meta.file for t in tables}
+    out = {}
+    for f in findings:
+        key = f.extra.get("table") or f.file
+        if f.severity == ERROR and key not in read:
+            out.setdefault(key, []).append(f)
+    return tuple((k, tuple(v)) for k, v in sorted(out.items()))
 
 
 def species_settings(meta, ctx: Settings):
@@ -85,7 +100,18 @@ def species_findings(sel, findings):
 
 def build(raw_dir, out_dir, ctx: Settings = Settings(), *, write=True, progress=None,
           wait: float = 0.0) -> BuildResult:
-    """Run every stage; write the outputs into ``out_dir`` unless ``write`` is False."""
+    """Run every stage; publish the outputs as the new release of ``out_dir`` unless
+    ``write`` is False. The output folder is checked (publish.check_output) and locked
+    before any work, so a refused or busy folder costs nothing."""
+    if not write:
+        return _build(raw_dir, None, ctx, progress)
+    real = publish.check_output(out_dir, [raw_dir])
+    with publish.locked(real, wait):
+        result = _build(raw_dir, real, ctx, progress)
+    return result
+
+
+def _build(raw_dir, out_dir, ctx: Settings, progress) -> BuildResult:
     say = progress or (lambda stage, i=0, n=0, label="": None)
     say("read and check", 0, 0, str(raw_dir))
     checked = check(raw_dir, ctx)
@@ -124,13 +150,14 @@ def build(raw_dir, out_dir, ctx: Settings = Settings(), *, write=True, progress=
         fitted.append(done)
     digest = ingest.inputs_digest(checked.inputs)
     doc = export.library_document(fitted, quarantined, digest, ctx.to_dict())
-    say("write", 0, 0, str(out_dir))
+    say("write", 0, 0, str(out_dir or ""))
     files = release(doc, export.findings_document(findings), fitted, quarantined, checked,
                     ctx, digest, plot_points(doc, checked) if ctx.outputs.report else None)
-    written = publish.publish(Path(out_dir), files, check=_verify, wait=wait) if write else []
+    written = [] if out_dir is None else publish.publish(
+        out_dir, files, check=_verify, on_swap=lambda: say("published"))
     return BuildResult(fitted=tuple(fitted), quarantined=tuple(quarantined),
                        findings=tuple(findings), document=doc, written=tuple(written),
-                       files=files)
+                       files=files, held_back=checked.held_back)
 
 
 def plot_points(doc, checked) -> dict:
@@ -169,6 +196,7 @@ def release(doc, findings_doc, fitted, quarantined, checked, ctx, digest, points
     manifest, data package."""
     from . import report, tables
 
+    provenance.file_stems([sp["id"] for sp in doc["species"]])  # unique file names or stop
     files = export.release_files(doc, findings_doc)
     out = ctx.outputs
     files["tables.parquet"] = tables.parquet_bytes(doc, out.table_step)

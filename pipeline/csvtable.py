@@ -10,6 +10,7 @@ rows it could read and a finding for each problem.
 
 import csv
 import io
+import itertools
 import math
 import re
 from dataclasses import dataclass
@@ -129,7 +130,7 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
             "TAB-SYNTAX", "the file contains NUL characters (a binary file?)", file=file,
             line=line, expected="plain comma-separated text"),))
     try:
-        rows = list(_rows(text))
+        rows = list(itertools.islice(_rows(text), MAX_ROWS + 2))  # never more than the limit
     except csv.Error as exc:
         return ParsedTable(empty_frame(), (), (), (finding(
             "TAB-SYNTAX", f"the CSV cannot be split into rows ({exc})", file=file),))
@@ -139,7 +140,8 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
     header_line, header = rows[0]
     if len(header) > MAX_COLUMNS or len(rows) - 1 > MAX_ROWS:
         return ParsedTable(empty_frame(), (), (), (finding(
-            "TAB-TOO-LARGE", f"{len(header)} columns and {len(rows) - 1} data rows; the limit is "
+            "TAB-TOO-LARGE", f"{len(header)} columns and {len(rows) - 1}"
+            f"{'+' if len(rows) > MAX_ROWS + 1 else ''} data rows; the limit is "
             f"{MAX_COLUMNS} columns and {MAX_ROWS} rows", file=file,
             seen=f"{len(header)} columns, {len(rows) - 1} rows",
             expected=f"<= {MAX_COLUMNS} columns, <= {MAX_ROWS} rows"),))
@@ -238,7 +240,7 @@ def _out_of_range(values: np.ndarray, column: str) -> np.ndarray:
     given = ~np.isnan(values)
     with np.errstate(invalid="ignore"):
         out = given & ~((values >= lo) & (values <= hi))
-        if column == "T":  # T <= 0 K has its own check and message (T-NOT-POSITIVE)
+        if column in ("T", "u_Cp"):  # values <= 0 have their own check (T-, UCP-NOT-POSITIVE)
             out &= ~(np.isfinite(values) & (values <= 0))
     return out
 

@@ -13,6 +13,9 @@ class ThermoledgerError(Exception):
 class InputError(ThermoledgerError, ValueError):
     """Bad input: a file, a row, a column or a field that is not what was expected."""
 
+    #: the findings code a caller should report, when the raiser knows it better
+    code = ""
+
     def __init__(self, what: str, *, file: str = "", line: int | None = None,
                  column: str = "", expected: str = ""):
         self.what = what

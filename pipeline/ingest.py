@@ -66,7 +66,8 @@ def parse_source(text: str, *, file: str, folder: str, digest: str):
     except InputError as exc:
         return None, [], [finding(exc.code, exc.what, file=file, line=exc.line,
                                   expected=exc.expected)]
-    if isinstance(doc, dict) and len(doc.get("tables") or ()) > MAX_TABLES_PER_SOURCE:
+    if isinstance(doc, dict) and isinstance(doc.get("tables"), list) and \
+            len(doc["tables"]) > MAX_TABLES_PER_SOURCE:
         return None, [], [finding("SRC-TOO-LARGE", f"{len(doc['tables'])} tables listed",
                                   file=file, column="tables",
                                   expected=f"at most {MAX_TABLES_PER_SOURCE} per source")]

@@ -1,29 +1,53 @@
 """Read a curated library and evaluate its species (the consumer side of export)."""
 
 import json
+from functools import lru_cache
 from pathlib import Path
 
 import numpy as np
 
-from . import basis, forms
+from . import basis, forms, jsonread
 from .constants import GAS_CONSTANT as R
 from .errors import InputError
+from .limits import MAX_LIBRARY_BYTES
+from .paths import schema_path
 
 
 def load(path) -> dict:
     """library.json from a file or a curated folder; InputError with a clear message otherwise."""
     p = Path(path)
     if p.is_dir():
-        p = p / "library.json"
+        from .publish import release_folder  # one release, even while a build publishes
+
+        p = release_folder(p) / "library.json"
     if not p.is_file():
         raise InputError(f"no library at {p}", expected="a library.json file or a curated folder")
+    if p.stat().st_size > MAX_LIBRARY_BYTES:
+        raise InputError(f"{p} is larger than {MAX_LIBRARY_BYTES} bytes",
+                         expected="a library.json written by thermoledger")
     try:
-        doc = json.loads(p.read_text(encoding="utf-8"))
-    except (UnicodeDecodeError, json.JSONDecodeError) as exc:
-        raise InputError(f"{p} is not a JSON library ({exc})") from None
+        text = p.read_text(encoding="utf-8")
+    except UnicodeDecodeError as exc:
+        raise InputError(f"{p} is not UTF-8 text (byte {exc.start})") from None
+    doc = jsonread.loads(text, file=str(p))
     if not isinstance(doc, dict) or doc.get("library_format") != 1:
         raise InputError(f"{p} is not a thermoledger library", expected="library_format 1")
+    errors = sorted(_library_validator().iter_errors(doc), key=lambda e: list(map(str, e.path)))
+    if errors:
+        e = errors[0]
+        where = "/".join(map(str, e.absolute_path)) or "(top level)"
+        raise InputError(f"{p} breaks the library schema at {where}: {e.message[:200]} "
+                         f"({len(errors)} problem(s))",
+                         expected="a library.json written by thermoledger")
     return doc
+
+
+@lru_cache(maxsize=1)
+def _library_validator():
+    from jsonschema import Draft202012Validator
+
+    schema = json.loads(schema_path("library.schema.json").read_text(encoding="utf-8"))
+    return Draft202012Validator(schema)
 
 
 def find_species(doc: dict, name: str) -> dict:

@@ -14,8 +14,12 @@ class Progress:
         self.stage = None
         self.t0 = time.monotonic()
         self.mininterval = mininterval
+        self.published = False   # set the moment the new release is current
 
     def __call__(self, stage, i=0, n=0, label=""):
+        if stage == "published":
+            self.published = True
+            return
         if self.quiet:
             return
         if stage != self.stage:

@@ -45,6 +45,31 @@ def safe_name(text: str) -> str:
     return name[:80] or "species"
 
 
+def file_stem(species_id: str) -> str:
+    """The file name (without suffix) of a species' report page, plot or table.
+
+    The readable part is ``safe_name``; the suffix is the first 10 hex digits of the sha256 of
+    the exact id, so ids that sanitise alike ('NO(g)', 'NO+(g)') or differ only in case
+    ('CO(g)', 'Co(g)', on case-insensitive file systems) never share a file, and a species
+    keeps its file names from release to release: 'CO2(g)' -> 'CO2_g-<10 hex>'.
+    """
+    digest = hashlib.sha256(species_id.encode("utf-8")).hexdigest()[:10]
+    return f"{safe_name(species_id)[:60]}-{digest}"
+
+
+def file_stems(species_ids) -> dict:
+    """{id: file_stem(id)}, checked to be unique case-insensitively (OutputError if not)."""
+    from .errors import OutputError
+
+    stems = {i: file_stem(i) for i in species_ids}
+    seen = {}
+    for i, stem in stems.items():
+        other = seen.setdefault(stem.lower(), i)
+        if other != i:
+            raise OutputError(f"species {other!r} and {i!r} would share the file name {stem}")
+    return stems
+
+
 def lineage(fitted) -> dict:
     meta, fit = fitted.table.meta, fitted.fit
     by_file = {}
@@ -157,7 +182,7 @@ def prov_document(fitted, inputs, outputs) -> dict:
         ent[oid] = {"prov:type": "tl:Output", "tl:path": path, "tl:sha256": sha256(data)}
         rel("wasGeneratedBy", {"prov:entity": oid, "prov:activity": "tl:build"})
     for sp in sorted(fitted, key=lambda s: s.table.meta.species_id):
-        sid = safe_name(sp.table.meta.species_id)
+        sid = file_stem(sp.table.meta.species_id)
         eid, aid = f"tl:species-{sid}", f"tl:fit-{sid}"
         ent[eid] = {"prov:type": "tl:FittedSpecies", "tl:id": sp.table.meta.species_id,
                     "tl:form": sp.fit.form}

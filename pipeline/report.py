@@ -12,7 +12,7 @@ import numpy as np
 
 from . import plots
 from .export import NOTICE
-from .provenance import safe_name
+from .provenance import file_stem
 
 CSS = """
 body{font-family:system-ui,sans-serif;margin:0;color:#22313f;background:#f7f5f0}
@@ -83,7 +83,7 @@ def status(sp) -> tuple:
 
 
 def species_page(sp, points, has_dev) -> bytes:
-    name = safe_name(sp["id"])
+    name = file_stem(sp["id"])
     q = sp["quality"]
     rows = [("form", sp["form"]), ("range of use", f"{sp['ranges'][0]['t_min']:g}-"
                                                    f"{sp['ranges'][-1]['t_max']:g} K"),
@@ -156,7 +156,7 @@ def index_page(doc) -> bytes:
     for sp in doc["species"]:
         cls, label = status(sp)
         worst = 100 * sp["quality"]["cp_max_rel_dev"]
-        body.append(f"<tr><td><a href=\"species/{e(safe_name(sp['id']))}.html\">{e(sp['id'])}"
+        body.append(f"<tr><td><a href=\"species/{e(file_stem(sp['id']))}.html\">{e(sp['id'])}"
                     f"</a></td><td>{e(sp['form'])}</td><td>{sp['ranges'][0]['t_min']:g}-"
                     f"{sp['ranges'][-1]['t_max']:g}</td><td class=\"num\" data-v=\"{worst!r}\">"
                     f"{worst:.4f}</td><td class=\"num\">{len(sp['findings'])}</td><td><span "
@@ -188,12 +188,18 @@ def report_files(doc, points, accept, workers=None) -> dict:
         from concurrent.futures import ProcessPoolExecutor
 
         chunks = [species[i::workers] for i in range(workers)]
-        with ProcessPoolExecutor(workers) as pool:
+        pool = ProcessPoolExecutor(workers, initializer=workers_die_with_parent,
+                                   initargs=(os.getpid(),))
+        try:
             parts = pool.map(_species_files, chunks,
                              [{s["id"]: points.get(s["id"], {}) for s in c} for c in chunks],
                              [accept] * workers)
             for part in parts:
                 files.update(part)
+        except BaseException:
+            stop_workers(pool)  # an interrupted build waits for no worker
+            raise
+        pool.shutdown()
     else:
         files.update(_species_files(species, points, accept))
     per_source = Counter(s["sources"][0]["source"] for s in species)
@@ -205,11 +211,35 @@ def report_files(doc, points, accept, workers=None) -> dict:
     return dict(sorted(files.items()))
 
 
+def workers_die_with_parent(parent_pid: int) -> None:
+    """Initializer of a worker process: it is killed when its parent dies (Linux
+    PR_SET_PDEATHSIG), leaves Ctrl-C to the parent, and exits at once if the parent is
+    already gone."""
+    import ctypes
+    import os
+    import signal
+
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    try:
+        ctypes.CDLL(None, use_errno=True).prctl(1, int(signal.SIGKILL))  # 1 = PR_SET_PDEATHSIG
+    except (OSError, AttributeError):
+        pass  # not Linux: the parent's interrupt handler still stops the workers
+    if os.getppid() != parent_pid:
+        os._exit(1)
+
+
+def stop_workers(pool) -> None:
+    """Kill the processes of ``pool`` and release it without waiting for their work."""
+    for proc in list(getattr(pool, "_processes", {}).values()):
+        proc.kill()
+    pool.shutdown(wait=False, cancel_futures=True)
+
+
 def _species_files(species, points, accept) -> dict:
     files = {}
     cp_plot, dev_plot = plots.SpeciesPlotter(), None
     for sp in species:
-        name = safe_name(sp["id"])
+        name = file_stem(sp["id"])
         p = points.get(sp["id"], {})
         files[f"report/img/{name}-cp.svg"] = cp_plot.render(
             sp, p.get("t", np.zeros(0)), p.get("cp", np.zeros(0)), p.get("t_out", np.zeros(0)),

@@ -17,7 +17,7 @@ import pyarrow.parquet as pq
 
 from . import forms, library
 from .constants import REFERENCE_TEMPERATURE
-from .provenance import safe_name
+from .provenance import file_stem
 
 COLUMNS = ("id", "T", "Cp", "u_Cp", "H_minus_H298", "u_H", "S", "u_S", "gef", "H",
            "extrapolated")
@@ -84,5 +84,5 @@ def csv_bytes(sp, step=100.0, points=None) -> bytes:
 
 
 def csv_files(doc, step=100.0, points=None) -> dict:
-    return {f"tables/{safe_name(sp['id'])}.csv": csv_bytes(sp, step, points)
+    return {f"tables/{file_stem(sp['id'])}.csv": csv_bytes(sp, step, points)
             for sp in doc["species"]}

@@ -38,7 +38,7 @@ def registry():
     return pint.UnitRegistry()
 
 
-_EXPONENT = re.compile(r"(\*\*|\^)\s*(\(?\s*[+-]?\s*[0-9.]*\s*\)?)")
+_EXPONENT = re.compile(r"(\*\*|\^)\s*(\([^()]*\)|[+-]?[0-9.eE]*)")
 _NUMBER = re.compile(r"^[+-]?([0-9]+(\.[0-9]*)?|\.[0-9]+)([eE][+-]?[0-9]+)?$")
 
 

@@ -19,8 +19,8 @@ from .checks_coverage import check_gaps, check_range_of_use
 from .checks_physics import check_condensed_bounds, check_gas_bounds, check_unit_blocks
 from .checks_smooth import check_smoothness
 from .findings import ERROR, finding
-from .records import Table
 from .limits import TEMPERATURE_SETTING_RANGE
+from .records import Table
 from .settings import Settings, for_table
 
 

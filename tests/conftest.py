@@ -52,7 +52,10 @@ def demo_raw(tmp_path):
 
 
 def tree_hashes(folder: Path) -> dict:
-    """sha256 of every file below ``folder`` by relative path."""
+    """sha256 of every file below ``folder`` by relative path; of a release home, the files
+    of its current release."""
+    if (Path(folder) / "current").is_symlink():
+        folder = (Path(folder) / "current").resolve()
     return {str(p.relative_to(folder)): hashlib.sha256(p.read_bytes()).hexdigest()
             for p in sorted(Path(folder).rglob("*")) if p.is_file()}
 

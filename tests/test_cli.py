@@ -42,9 +42,9 @@ def test_two_builds_are_byte_identical(demo_raw, tmp_path, capsys):
 
 
 def test_parquet_matches_json(demo_raw, tmp_path, capsys):
-    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path)
-    lib = json.loads((tmp_path / "library.json").read_text())
-    table = pq.read_table(tmp_path / "library.parquet")
+    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "out")
+    lib = json.loads((tmp_path / "out" / "library.json").read_text())
+    table = pq.read_table(tmp_path / "out" / "library.parquet")
     assert table.num_rows == sum(len(s["ranges"]) for s in lib["species"])
     meta = table.schema.metadata
     assert json.loads(meta[b"thermoledger.build"]) == lib["build"]
@@ -56,7 +56,7 @@ def test_parquet_matches_json(demo_raw, tmp_path, capsys):
 
 
 def test_strict_fails_when_a_table_is_quarantined(demo_raw, tmp_path, capsys):
-    code, _, _ = run(capsys, "build", "--raw", demo_raw, "--out", tmp_path, "--strict")
+    code, _, _ = run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "out", "--strict")
     assert code == 1
 
 
@@ -79,10 +79,10 @@ def test_check_prints_findings_and_exits_one_on_errors(demo_raw, capsys):
 
 
 def test_props_agrees_with_the_coefficients(demo_raw, tmp_path, capsys):
-    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path)
-    code, out, _ = run(capsys, "props", tmp_path, "CO2", 298.15, 1500)
+    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "out")
+    code, out, _ = run(capsys, "props", tmp_path / "out", "CO2", 298.15, 1500)
     assert code == 0
-    lib = json.loads((tmp_path / "library.json").read_text())
+    lib = json.loads((tmp_path / "out" / "library.json").read_text())
     sp = next(s for s in lib["species"] if s["id"] == "CO2(g)")
     ev = forms.evaluate([(r["t_min"], r["t_max"], r["coefficients"]) for r in sp["ranges"]],
                         [298.15, 1500.0])
@@ -100,8 +100,8 @@ def test_props_agrees_with_the_coefficients(demo_raw, tmp_path, capsys):
     (["CO2(g)", "9000"], "outside the range of use"),
 ])
 def test_props_errors_are_messages(demo_raw, tmp_path, capsys, argv, message):
-    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path)
-    code, _, err = run(capsys, "props", tmp_path, *argv)
+    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "out")
+    code, _, err = run(capsys, "props", tmp_path / "out", *argv)
     assert code == 2 and message in err
 
 
@@ -183,8 +183,8 @@ def test_demo_tables_are_labelled_honestly():
 
 
 def test_demo_fit_quality_is_recorded(demo_raw, tmp_path, capsys):
-    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path)
-    lib = json.loads((tmp_path / "library.json").read_text())
+    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "out")
+    lib = json.loads((tmp_path / "out" / "library.json").read_text())
     for sp in lib["species"]:
         q = sp["quality"]
         assert 0 <= q["cp_rms_rel_dev"] <= q["cp_max_rel_dev"] < 0.01

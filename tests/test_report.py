@@ -9,10 +9,12 @@ import numpy as np
 import pyarrow.parquet as pq
 import pytest
 
-from pipeline import tables
+from pipeline import provenance, tables
 from pipeline.constants import GAS_CONSTANT as R
 
 from .conftest import run_cli as run
+
+N2 = provenance.file_stem("N2(g)")  # the file name of N2(g)'s page, plot and table
 
 
 @pytest.fixture
@@ -67,7 +69,7 @@ def test_tables_equal_independent_evaluation_of_the_coefficients(release):
 
 
 def test_csv_tables_and_neutralised_text_cells(release):
-    text = (release / "tables" / "N2_g.csv").read_text()
+    text = (release / "tables" / f"{N2}.csv").read_text()
     assert text.splitlines()[1].startswith("species,T [K],Cp [J/(mol*K)]")
     sp = {"id": "=HYPERLINK(\"http://x\")", "form": "nasa7", "extrapolated": [],
           "data_range": {"t_min": 300.0, "t_max": 1000.0}, "breakpoints": [],
@@ -126,11 +128,11 @@ def test_html_is_well_formed_and_every_reference_exists(release):
 
 
 def test_species_page_shows_its_sections(release):
-    text = (release / "report" / "species" / "N2_g.html").read_text()
+    text = (release / "report" / "species" / f"{N2}.html").read_text()
     for section in ("At a glance", "Outside the data", "Curves", "Against the H and S columns",
                     "Findings", "Where the numbers came from", "Coefficients"):
         assert f"<h2>{section}" in text
-    assert "N2_g-cp.svg" in text and "N2_g-hs.svg" in text
+    assert f"{N2}-cp.svg" in text and f"{N2}-hs.svg" in text
 
 
 def test_progress_is_plain_lines_off_a_terminal_and_silent_when_quiet(demo_raw, tmp_path,
@@ -172,7 +174,7 @@ def test_report_renders_in_a_real_headless_browser(release, tmp_path):
     shot = tmp_path / "index.png"           # kept out of the repository
     chromium("--window-size=1200,1400", f"--screenshot={shot}", index)
     assert shot.is_file() and shot.stat().st_size > 20000
-    page = (release / "report" / "species" / "N2_g.html").as_uri()
+    page = (release / "report" / "species" / f"{N2}.html").as_uri()
     dom = chromium("--dump-dom", page).stdout
     assert dom.count("<img src=\"../img/N2_g-") == 2
     shot = tmp_path / "species.png"

@@ -1,0 +1,274 @@
+"""Nothing the user owns is ever destroyed: --out safety, locking, readers isolated from a
+publishing build, --strict, signals and worker processes, and file names that cannot collide.
+End to end through the CLI on real files; every file is hashed before and after."""
+
+import hashlib
+import json
+import os
+import signal
+import subprocess
+import sys
+import time
+import uuid
+from pathlib import Path
+
+import pytest
+
+from pipeline import provenance, publish
+
+from .conftest import PROJECT, table_entry, tree_hashes, write_source
+from .conftest import run_cli as run
+
+
+def everything(folder: Path) -> dict:
+    """sha256 of every file below ``folder``, links not followed (what the user owns)."""
+    out = {}
+    for p in sorted(Path(folder).rglob("*")):
+        if p.is_symlink():
+            out[str(p.relative_to(folder))] = "link:" + os.readlink(p)
+        elif p.is_file():
+            out[str(p.relative_to(folder))] = hashlib.sha256(p.read_bytes()).hexdigest()
+    return out
+
+
+def small_raw(raw: Path, n: int = 2, first=None):
+    """n synthetic linear-gas species (SYNTHETIC test data, smooth made-up Cp)."""
+    rows = [[t, f"{29.1 + 3.0 * (t / 3000) ** 1.5:.4f}"] for t in range(200, 3001, 100)]
+    ids = first or [f"G{i}" for i in range(n)]
+    tables = [dict(table_entry(f"g{i}.csv", sid, "N2", "linear"), header=["T [K]", "Cp [J/(mol*K)]"],
+                   rows=rows) for i, sid in enumerate(ids)]
+    write_source(raw, "synth", tables)
+    return raw
+
+
+@pytest.fixture
+def raw(tmp_path):
+    return small_raw(tmp_path / "raw")
+
+
+def build_args(raw, out, *more):
+    return ("build", "--raw", raw, "--out", out, "--no-report", "--quiet", *more)
+
+
+@pytest.mark.parametrize("where", ["raw", "raw/synth", "raw/synth/deeper", "parent"])
+def test_output_in_or_around_a_raw_folder_is_refused(tmp_path, raw, capsys, where):
+    out = tmp_path if where == "parent" else tmp_path / where
+    before = everything(tmp_path)
+    code, _, err = run(capsys, *build_args(raw, out))
+    assert code == 2 and "refusing to write into" in err and "raw folder" in err
+    assert everything(tmp_path) == before
+
+
+def test_a_folder_of_the_users_files_is_refused(tmp_path, raw, capsys):
+    docs = tmp_path / "mydocs"
+    docs.mkdir()
+    (docs / "thesis.tex").write_text("years of work")
+    before = everything(tmp_path)
+    code, _, err = run(capsys, *build_args(raw, docs))
+    assert code == 2 and str(docs) in err and "not a thermoledger release" in err
+    assert everything(tmp_path) == before
+
+
+def test_working_directory_root_and_home_are_refused(tmp_path, raw, capsys, monkeypatch):
+    work = tmp_path / "work"
+    work.mkdir()
+    monkeypatch.chdir(work)
+    for out, why in ((work, "working directory"), (Path("."), "working directory"),
+                     (Path("/"), "filesystem root")):
+        code, _, err = run(capsys, *build_args(raw, out))
+        assert code == 2 and why in err, err
+    home = tmp_path / "home"
+    home.mkdir()
+    monkeypatch.setenv("HOME", str(home))
+    code, _, err = run(capsys, *build_args(raw, home))
+    assert code == 2 and "home folder" in err
+    assert not any(home.iterdir()) and not any(work.iterdir())
+
+
+def test_a_link_to_a_raw_folder_is_refused_and_a_link_to_a_release_kept(tmp_path, raw, capsys):
+    trap = tmp_path / "trap"
+    trap.symlink_to(raw)
+    before = everything(tmp_path)
+    code, _, err = run(capsys, *build_args(raw, trap))
+    assert code == 2 and "a link to" in err and "raw folder" in err
+    assert everything(tmp_path) == before
+    real = tmp_path / "real-out"
+    link = tmp_path / "out-link"
+    link.symlink_to(real, target_is_directory=True)
+    real.mkdir()
+    code, _, _ = run(capsys, *build_args(raw, link))
+    assert code == 0 and link.is_symlink() and (real / "library.json").is_file()
+
+
+def test_a_file_as_output_is_refused(tmp_path, raw, capsys):
+    f = tmp_path / "file"
+    f.write_text("mine")
+    code, _, err = run(capsys, *build_args(raw, f))
+    assert code == 2 and "not a folder" in err and f.read_text() == "mine"
+
+
+def test_releases_replace_releases_and_leave_nothing_outside(tmp_path, raw, capsys):
+    out = tmp_path / "out"
+    beside = set(os.listdir(tmp_path))
+    assert run(capsys, *build_args(raw, out))[0] == 0
+    first = tree_hashes(out)
+    table = raw / "synth" / "g0.csv"
+    lines = table.read_text().splitlines()
+    lines[1] = "200,29.1600"                                    # one cell changes
+    table.write_text("\n".join(lines) + "\n")
+    assert run(capsys, *build_args(raw, out))[0] == 0
+    assert tree_hashes(out) != first
+    assert set(os.listdir(tmp_path)) == beside | {"out"}        # no lock or staging beside it
+    names = set(os.listdir(out))
+    assert {".lock", "current", "releases", "library.json"} <= names
+    assert not [n for n in names if n.startswith(".staging")]
+    assert len(os.listdir(out / "releases")) == 2                # current and the one before
+    assert provenance.verify_release(out) == []
+
+
+def test_a_failed_build_leaves_no_folder_it_created(tmp_path, capsys):
+    out = tmp_path / "new-out"
+    code, _, err = run(capsys, *build_args(tmp_path / "no-raw", out))
+    assert code == 2 and not out.exists() and os.listdir(tmp_path) == []
+
+
+def test_a_flat_release_of_an_earlier_version_is_taken_over(tmp_path, raw, capsys):
+    out = tmp_path / "out"
+    assert run(capsys, *build_args(raw, out))[0] == 0
+    flat = tmp_path / "flat"
+    flat.mkdir()
+    for rel, _ in tree_hashes(out).items():                     # the release, written flat
+        (flat / rel).parent.mkdir(parents=True, exist_ok=True)
+        (flat / rel).write_bytes((out / "current" / rel).read_bytes())
+    assert run(capsys, *build_args(raw, flat))[0] == 0
+    assert (flat / "current").is_symlink() and tree_hashes(flat) == tree_hashes(out)
+    (flat / "notes.txt").write_text("mine")                     # not part of any release
+    (flat / "current").unlink()
+    code, _, err = run(capsys, *build_args(raw, flat))
+    assert code == 2 and (flat / "notes.txt").read_text() == "mine"
+
+
+def test_the_lock_is_taken_before_the_work(tmp_path, raw, capsys):
+    out = tmp_path / "out"
+    with publish.locked(out):
+        t0 = time.monotonic()
+        code, _, err = run(capsys, *build_args(raw, out))
+        assert code == 2 and "another build is writing" in err
+        assert not (out / "releases").exists()
+    assert time.monotonic() - t0 < 600  # it did not wait for anything (no speed asserted)
+
+
+def _cli(*argv, env_extra=None):
+    env = {k: v for k, v in os.environ.items() if k != "PYTHONPATH"}
+    env["PYTHONPATH"] = str(PROJECT)
+    env.update(env_extra or {})
+    return subprocess.Popen([sys.executable, "-m", "pipeline.entry", *map(str, argv)],
+                            stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, env=env,
+                            text=True)
+
+
+def test_readers_see_one_release_while_builds_publish(tmp_path, capsys):
+    """A reader that resolves current once reads files of one release only (each file's
+    hash is the one its release's manifest lists)."""
+    raw_a, raw_b = small_raw(tmp_path / "a"), small_raw(tmp_path / "b", first=["G0", "G9"])
+    out = tmp_path / "out"
+    assert run(capsys, *build_args(raw_a, out))[0] == 0
+    builds = [_cli(*build_args(r, out, "--wait", "120")) for r in (raw_b, raw_a)]
+    reads = mixed = 0
+    while any(p.poll() is None for p in builds) or reads < 50:
+        folder = publish.release_folder(out)
+        try:
+            man = json.loads((folder / "manifest.json").read_bytes())
+            listed = {o["path"]: o["sha256"] for o in man["outputs"]}
+            lib = (folder / "library.json").read_bytes()
+        except FileNotFoundError:       # a release pruned under a very slow reader: no mix
+            continue
+        reads += 1
+        mixed += hashlib.sha256(lib).hexdigest() != listed["library.json"]
+    assert all(p.wait(300) == 0 for p in builds)
+    assert reads >= 50 and mixed == 0
+
+
+def test_strict_exits_one_when_a_whole_source_is_held_back(tmp_path, raw, capsys):
+    broken = tmp_path / "raw" / "broken"
+    broken.mkdir()
+    (broken / "source.json").write_text('{"source": "broken"')
+    code, out, _ = run(capsys, "build", "--raw", raw, "--out", tmp_path / "out", "--no-report",
+                       "--strict")
+    assert code == 1
+    assert "HELD BACK   whole source   broken/source.json" in out and "SRC-UNREADABLE" in out
+    code, out, _ = run(capsys, "build", "--raw", raw, "--out", tmp_path / "out", "--no-report")
+    assert code == 0
+    code, out, _ = run(capsys, "build", "--raw", raw, "--out", tmp_path / "out", "--no-report",
+                       "--strict", "--json")
+    assert code == 1 and json.loads(out)["held_back"] == [{"file": "broken/source.json",
+                                                          "code": "SRC-UNREADABLE"}]
+
+
+def _processes_tagged(tag: str) -> list:
+    """PIDs of processes whose environment carries ``tag`` (the build and its workers)."""
+    pids = []
+    for d in Path("/proc").iterdir():
+        if d.name.isdigit():
+            try:
+                if tag.encode() in (d / "environ").read_bytes():
+                    pids.append(int(d.name))
+            except OSError:
+                pass
+    return pids
+
+
+def _wait_for(predicate, limit=120.0):
+    t0 = time.monotonic()
+    while time.monotonic() - t0 < limit:
+        if predicate():
+            return True
+        time.sleep(0.05)
+    return False
+
+
+@pytest.mark.skipif(not Path("/proc/self/environ").exists(), reason="needs /proc")
+def test_workers_never_outlive_a_killed_build(tmp_path):
+    raw = small_raw(tmp_path / "raw", first=[f"S{i:02d}" for i in range(64)])  # > 60: workers
+    tag = f"THERMOLEDGER_TEST_TAG={uuid.uuid4().hex}"
+    key, value = tag.split("=")
+    p = _cli("build", "--raw", raw, "--out", tmp_path / "out", env_extra={key: value})
+    assert _wait_for(lambda: len(_processes_tagged(tag)) >= 2), "no worker was started"
+    p.send_signal(signal.SIGKILL)
+    p.wait(60)
+    assert _wait_for(lambda: not _processes_tagged(tag), 30), _processes_tagged(tag)
+
+
+@pytest.mark.parametrize("signum", [signal.SIGINT, signal.SIGTERM])
+def test_a_signal_stops_a_build_with_one_line(tmp_path, signum):
+    raw = small_raw(tmp_path / "raw", first=[f"S{i:02d}" for i in range(64)])
+    out = tmp_path / "out"
+    p = _cli("build", "--raw", raw, "--out", out)
+    # wait until it works on the species, then stop it
+    assert _wait_for(lambda: p.poll() is not None or (out / ".lock").exists())
+    time.sleep(0.5)
+    p.send_signal(signum)
+    code = p.wait(120)
+    err = p.stderr.read()
+    assert "Traceback" not in err
+    if code == 0 and "after the new release was published" in err:
+        assert provenance.verify_release(out) == []
+    elif code == 0:
+        assert "thermoledger build:" not in err or "published" in err  # finished first
+    else:
+        assert code == 128 + signum and "nothing was published" in err, (code, err)
+        assert not (out / "current").exists()
+    assert not [n for n in os.listdir(tmp_path) if n not in ("raw", "out")]
+    assert not out.exists() or not [n for n in os.listdir(out) if n.startswith(".staging")]
+
+
+def test_species_ids_that_sanitise_alike_get_their_own_files(tmp_path, capsys):
+    raw = small_raw(tmp_path / "raw", first=["NO", "NO+", "CO", "Co"])
+    out = tmp_path / "out"
+    assert run(capsys, "build", "--raw", raw, "--out", out, "--quiet", "--tables-csv")[0] == 0
+    pages = sorted(os.listdir(out / "report" / "species"))
+    csvs = sorted(os.listdir(out / "tables"))
+    assert len(pages) == 4 and len({p.lower() for p in pages}) == 4
+    assert len(csvs) == 4 and len({c.lower() for c in csvs}) == 4
+    assert provenance.file_stem("NO+(g)") == provenance.file_stem("NO+(g)")   # stable
+    assert provenance.file_stem("NO(g)").startswith("NO_g-")

@@ -265,6 +265,8 @@ def cmd_check(args) -> int:
     print(f"thermoledger check: {len(result.tables)} table(s) read, "
           f"{len(result.quarantined)} would be quarantined; {n_err} error(s), "
           f"{n_warn} warning(s), {n_ack} acknowledged")
+    for file, errs in result.held_back:
+        print(f"  held back: {file} ({errs[0].code})")
     if args.report:
         doc = export.findings_document(result.findings)
         export.check_against(doc, "findings.schema.json", str(args.report))

@@ -102,6 +102,22 @@ def _unknown_entries(folder: Path) -> list:
     return sorted(out)
 
 
+def _is_home(folder: Path) -> bool:
+    """Only entries thermoledger makes, every release with its own manifest, and ``current``
+    (when present) a link to one of them."""
+    if _unknown_entries(folder):
+        return False
+    home = folder / RELEASES
+    if home.exists() and (home.is_symlink() or not home.is_dir() or not all(
+            _RELEASE_ID.match(p.name) and _manifest(p / "manifest.json")
+            for p in home.iterdir())):
+        return False
+    cur = folder / CURRENT
+    if cur.is_symlink():
+        return re.fullmatch(rf"{RELEASES}/[0-9a-f]{{16}}", os.readlink(cur)) is not None
+    return not cur.exists()
+
+
 def kind_of(folder: Path) -> str:
     """'absent', 'empty', 'home' (a release home), 'flat' (an earlier flat release) or
     'other'."""
@@ -112,11 +128,8 @@ def kind_of(folder: Path) -> str:
     entries = [e.name for e in folder.iterdir()]
     if not entries or entries == [LOCK]:
         return "empty"
-    if (folder / CURRENT).is_symlink() and _manifest(folder / CURRENT / "manifest.json") \
-            and not _unknown_entries(folder):
-        return "home"
     if (folder / CURRENT).is_symlink() or (folder / RELEASES).is_dir():
-        return "home" if not _unknown_entries(folder) else "other"
+        return "home" if _is_home(folder) else "other"
     if _flat_release_files(folder) is not None:
         return "flat"
     return "other"

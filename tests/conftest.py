@@ -43,6 +43,20 @@ def table_entry(file, species, formula, geometry, h="0 kJ/mol", s="200 J/(mol*K)
     return d
 
 
+@pytest.fixture(scope="session")
+def demo_release(tmp_path_factory):
+    """One release of the demo (report and CSV tables included), built once per session for
+    the tests that only read it; a test that changes a release builds its own."""
+    from pipeline import cli
+
+    base = tmp_path_factory.mktemp("demo-release")
+    shutil.copytree(PROJECT / "raw", base / "raw")
+    code = cli.main(["build", "--raw", str(base / "raw"), "--out", str(base / "out"),
+                     "--tables-csv", "--quiet"])
+    assert code == 0
+    return base / "out"
+
+
 @pytest.fixture
 def demo_raw(tmp_path):
     """A copy of the bundled demo raw/ folder (the original is never touched)."""

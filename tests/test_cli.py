@@ -41,10 +41,9 @@ def test_two_builds_are_byte_identical(demo_raw, tmp_path, capsys):
     assert a == b
 
 
-def test_parquet_matches_json(demo_raw, tmp_path, capsys):
-    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "out")
-    lib = json.loads((tmp_path / "out" / "library.json").read_text())
-    table = pq.read_table(tmp_path / "out" / "library.parquet")
+def test_parquet_matches_json(demo_release, capsys):
+    lib = json.loads((demo_release / "library.json").read_text())
+    table = pq.read_table(demo_release / "library.parquet")
     assert table.num_rows == sum(len(s["ranges"]) for s in lib["species"])
     meta = table.schema.metadata
     assert json.loads(meta[b"thermoledger.build"]) == lib["build"]
@@ -78,11 +77,10 @@ def test_check_prints_findings_and_exits_one_on_errors(demo_raw, capsys):
     assert "isru-benchlog-2026/nh3.csv\n  ERROR   CELL-NOT-NUMBER        line 9 [Cp]" in out
 
 
-def test_props_agrees_with_the_coefficients(demo_raw, tmp_path, capsys):
-    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "out")
-    code, out, _ = run(capsys, "props", tmp_path / "out", "CO2", 298.15, 1500)
+def test_props_agrees_with_the_coefficients(demo_release, capsys):
+    code, out, _ = run(capsys, "props", demo_release, "CO2", 298.15, 1500)
     assert code == 0
-    lib = json.loads((tmp_path / "out" / "library.json").read_text())
+    lib = json.loads((demo_release / "library.json").read_text())
     sp = next(s for s in lib["species"] if s["id"] == "CO2(g)")
     ev = forms.evaluate([(r["t_min"], r["t_max"], r["coefficients"]) for r in sp["ranges"]],
                         [298.15, 1500.0])
@@ -99,9 +97,8 @@ def test_props_agrees_with_the_coefficients(demo_raw, tmp_path, capsys):
     (["XeF6", "300"], "is not in the library"),
     (["CO2(g)", "9000"], "outside the range of use"),
 ])
-def test_props_errors_are_messages(demo_raw, tmp_path, capsys, argv, message):
-    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "out")
-    code, _, err = run(capsys, "props", tmp_path / "out", *argv)
+def test_props_errors_are_messages(demo_release, capsys, argv, message):
+    code, _, err = run(capsys, "props", demo_release, *argv)
     assert code == 2 and message in err
 
 
@@ -182,9 +179,8 @@ def test_demo_tables_are_labelled_honestly():
             assert "COMPUTED" in notes or "SYNTHETIC" in notes
 
 
-def test_demo_fit_quality_is_recorded(demo_raw, tmp_path, capsys):
-    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "out")
-    lib = json.loads((tmp_path / "out" / "library.json").read_text())
+def test_demo_fit_quality_is_recorded(demo_release, capsys):
+    lib = json.loads((demo_release / "library.json").read_text())
     for sp in lib["species"]:
         q = sp["quality"]
         assert 0 <= q["cp_rms_rel_dev"] <= q["cp_max_rel_dev"] < 0.01

@@ -200,7 +200,7 @@ def two_releases(demo_raw, tmp_path, capsys):
 def test_concurrent_builds_never_interleave(two_releases, tmp_path):
     raw_a, raw_b, a, b = two_releases
     out = tmp_path / "shared"
-    for _ in range(3):
+    for _ in range(2):
         p1, p2 = _cli("build", "--raw", raw_a, "--out", out, "--wait", "120"), \
             _cli("build", "--raw", raw_b, "--out", out, "--wait", "120")
         assert p1.wait(180) == 0 and p2.wait(180) == 0, (p1.stderr.read(), p2.stderr.read())

@@ -272,3 +272,70 @@ def test_species_ids_that_sanitise_alike_get_their_own_files(tmp_path, capsys):
     assert len(csvs) == 4 and len({c.lower() for c in csvs}) == 4
     assert provenance.file_stem("NO+(g)") == provenance.file_stem("NO+(g)")   # stable
     assert provenance.file_stem("NO(g)").startswith("NO_g-")
+
+
+@pytest.mark.parametrize("argv, option", [
+    (["build", "--table-step", "0"], "--table-step"),
+    (["build", "--table-step", "nan"], "--table-step"),
+    (["build", "--table-step", "inf"], "--table-step"),
+    (["build", "--accept-cp", "-1"], "--accept-cp"),
+    (["build", "--accept-cp", "nan"], "--accept-cp"),
+    (["build", "--wait", "-5"], "--wait"),
+    (["build", "--range-of-use", "1e-300", "3000"], "--range-of-use"),
+    (["build", "--range-of-use", "3000", "nan"], "--range-of-use"),
+    (["build", "--breakpoint", "inf"], "--breakpoint"),
+    (["props", "curated", "N2", "nan"], "T"),
+    (["props", "curated", "N2", "-5"], "T"),
+    (["diff", "a", "b", "--cp-threshold", "inf"], "--cp-threshold"),
+])
+def test_command_line_numbers_are_checked(capsys, argv, option):
+    from pipeline import cli
+
+    with pytest.raises(SystemExit) as stop:
+        cli.main(argv)
+    err = capsys.readouterr().err
+    assert stop.value.code == 2 and option in err and "Traceback" not in err
+
+
+@pytest.mark.parametrize("value", ["0", "nan", "1000,1000", "3000,500", "1e-300", "x",
+                                   "500,1000,2000,2500", "inf,2000"])
+def test_fixed_breakpoints_on_the_command_line_are_checked(tmp_path, raw, capsys, value):
+    code, _, err = run(capsys, *build_args(raw, tmp_path / "out", f"--breakpoints={value}"))
+    assert code == 2 and "--breakpoints" in err and not (tmp_path / "out").exists()
+
+
+def test_range_of_use_must_be_increasing(tmp_path, raw, capsys):
+    code, _, err = run(capsys, *build_args(raw, tmp_path / "out", "--range-of-use", "3000",
+                                           "300"))
+    assert code == 2 and "TMAX is not above TMIN" in err
+
+
+def test_check_names_a_whole_source_held_back(tmp_path, raw, capsys):
+    (tmp_path / "raw" / "broken").mkdir()
+    (tmp_path / "raw" / "broken" / "source.json").write_text("[" * 100 + "]" * 100)
+    code, out, _ = run(capsys, "check", "--raw", raw)
+    assert code == 1 and "  held back: broken/source.json (SRC-TOO-DEEP)" in out
+
+
+def test_ctrl_c_while_starting_never_prints_a_traceback(tmp_path, raw):
+    # from 0.1 s on thermoledger's own code runs; before that only the interpreter's start-up
+    for delay in (0.1, 0.3, 0.8):
+        p = _cli(*build_args(raw, tmp_path / f"out-{delay}"))
+        time.sleep(delay)
+        p.send_signal(signal.SIGINT)
+        code = p.wait(120)
+        err = p.stderr.read()
+        assert "Traceback" not in err, err
+        assert code in (0, 130), (code, err)
+        if code == 130:
+            assert err.strip().count("\n") == 0 and "interrupted" in err
+
+
+def test_a_folder_that_only_looks_like_a_release_home_is_refused(tmp_path, raw, capsys):
+    fake = tmp_path / "fake"
+    (fake / "releases" / "my-photos").mkdir(parents=True)
+    (fake / "releases" / "my-photos" / "cat.jpg").write_bytes(b"\xff\xd8")
+    before = everything(tmp_path)
+    code, _, err = run(capsys, *build_args(raw, fake))
+    assert code == 2 and "not a thermoledger release" in err
+    assert everything(tmp_path) == before

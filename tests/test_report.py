@@ -18,11 +18,8 @@ N2 = provenance.file_stem("N2(g)")  # the file name of N2(g)'s page, plot and ta
 
 
 @pytest.fixture
-def release(demo_raw, tmp_path, capsys):
-    out = tmp_path / "rel"
-    code, _, _ = run(capsys, "build", "--raw", demo_raw, "--out", out, "--tables-csv", "--quiet")
-    assert code == 0
-    return out
+def release(demo_release):
+    return demo_release
 
 
 def by_hand(sp, t):

@@ -6,8 +6,9 @@ findings, never by an exception or a hang.
 The cases (tests/fuzzcases.py) are random and mutated CSV, bad and extreme cells, unit
 strings, scaled columns, encodings, oversize files, broken structure and mutated
 source.json of every kind. Each runs the whole pipeline short of writing (ingest,
-validation, reconciliation, fit, release assembly) in a worker process with a time limit
-per input. Printed: cases per kind, uncaught exceptions, hangs, inputs not answered by a
+validation, reconciliation, fit, release assembly; every 20th case the whole build with its
+report, published into a temporary release home) in a worker process with a time limit per
+input. Printed: cases per kind, uncaught exceptions, hangs, inputs not answered by a
 finding that names the file, and the rate.
 """
 
@@ -20,12 +21,12 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from tests.fuzzcases import answer, cases  # noqa: E402
+from tests.fuzzcases import PUBLISH_EVERY, answer, cases  # noqa: E402
 
 
 def _run(case, limit):
     i, kind, table, meta = case
-    out = answer(kind, table, meta, limit)
+    out = answer(kind, table, meta, limit, publish=i % PUBLISH_EVERY == 0)
     out["index"] = i
     return out
 

@@ -6,7 +6,7 @@ import numpy as np
 
 from . import acknowledge, export, fit, ingest, provenance, publish, reconcile, validate
 from .errors import FitError, OutputError
-from .findings import ERROR, finding
+from .findings import ERROR, finding, stage_failed
 from .records import FittedSpecies
 from .settings import Settings, for_table
 
@@ -142,7 +142,7 @@ def _build(raw_dir, out_dir, ctx: Settings, progress) -> BuildResult:
             quarantined.append((meta, (f,)))
             continue
         except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
-            f = ingest.stage_failed("fit", exc, **where)
+            f = stage_failed("fit", exc, **where)
             findings.append(f)
             quarantined.append((meta, (f,)))
             continue

@@ -212,6 +212,15 @@ def finding(code: str, message: str, **fields) -> Finding:
     return Finding(code=code, severity=entry.severity, message=message, **fields)
 
 
+def stage_failed(stage: str, exc: BaseException, **where) -> Finding:
+    """The error finding of an unexpected exception while a stage processed one table: the
+    table is held back with the exception's type and message, and the build goes on."""
+    text = str(exc).replace("\n", " ")
+    text = text if len(text) <= 160 else text[:159] + "…"
+    return finding("STAGE-FAILED", f"unexpected {type(exc).__name__} in the {stage} stage: "
+                   f"{text}", seen=type(exc).__name__, **where)
+
+
 def format_block(f: Finding) -> str:
     """Two or three lines for a report grouped by file: the where is the file heading."""
     where = f"line {f.line}" if f.line is not None else "table"

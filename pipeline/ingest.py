@@ -14,7 +14,7 @@ from pathlib import Path
 
 from . import chemistry, constants, csvtable, jsonread, units
 from .errors import InputError
-from .findings import Finding, finding
+from .findings import Finding, finding, stage_failed
 from .limits import ANCHOR_RANGE, MAX_SOURCE_BYTES, MAX_TABLE_BYTES, MAX_TABLES_PER_SOURCE
 from .paths import schema_path
 from .records import InputFile, SourceMeta, Table, TableMeta
@@ -208,12 +208,6 @@ def _guarded_read(folder, entry, source, raw_dir, index):
     except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
         rel = f"{source.folder}/{entry.get('file', '?')}"
         return None, None, [stage_failed("ingest", exc, source=source.source, file=rel)]
-
-
-def stage_failed(stage: str, exc: BaseException, **where) -> Finding:
-    """The error finding of an unexpected exception while a stage processed one table."""
-    return finding("STAGE-FAILED", f"unexpected {type(exc).__name__} in the {stage} stage: "
-                   f"{_clip(str(exc), 160)}", seen=type(exc).__name__, **where)
 
 
 def _inside(path: Path, root: Path) -> bool:

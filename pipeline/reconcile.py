@@ -27,7 +27,7 @@ from scipy.interpolate import PchipInterpolator
 
 from .checks_physics import factor_candidates
 from .checks_smooth import EXCLUDING
-from .findings import finding
+from .findings import finding, stage_failed
 
 
 @dataclass(frozen=True)
@@ -107,73 +107,90 @@ def reconcile(accepted, findings, ctx):
     for table in accepted:
         groups.setdefault(table.meta.species_id, []).append(table)
     selections, new, quarantined = [], [], []
-    tol = ctx.checks.source_tolerance
     for sid in sorted(groups):
-        ranked = sorted(groups[sid], key=lambda t: (-t.meta.source.priority, t.meta.source.source,
-                                                    t.meta.file))
-        primary = ranked[0]
-        notes, keep = [], [primary]
-        for other in ranked[1:]:
-            where = dict(source=other.meta.source.source, file=other.meta.file, column="Cp")
-            if other.meta.source.priority == primary.meta.source.priority:
-                notes.append(finding("SEL-TIE", f"{sid}: {primary.meta.source.source} and "
-                                     f"{other.meta.source.source} have equal priority; "
-                                     f"{primary.meta.source.source} is preferred", **where))
-            got = compare(primary, other)
-            if got is None:
-                keep.append(other)
-                continue
-            dev, t_at, ratio, lo, hi = got
-            factor = _factor_of(ratio, other.meta.molar_mass, ctx.checks.factor_tolerance) \
-                if abs(math.log(ratio)) > 0.2 else None
-            if factor:
-                name, f, fix = factor
-                err = finding("SRC-FACTOR", f"{sid}: this table is {ratio:.6g} times "
-                              f"{primary.meta.file} over {lo:.6g}-{hi:.6g} K, a factor "
-                              f"{f:.6g} ({name})", seen=f"ratio {ratio:.6g}",
-                              expected="ratio 1", fix=fix, **where)
-                new.append(err)
-                quarantined.append((other.meta, (err,)))
-                continue
-            if dev > tol:
-                notes.append(finding("SRC-DISAGREE", f"{sid}: {other.meta.source.source} differs "
-                                     f"from {primary.meta.source.source} by up to "
-                                     f"{100 * dev:.3g} % (at {t_at:.6g} K) over {lo:.6g}-"
-                                     f"{hi:.6g} K", seen=f"{100 * dev:.3g} %",
-                                     expected=f"<= {100 * tol:g} %", **where))
-            keep.append(other)
-        rows, uses, excluded = [], [], []
-        covered = None
-        for table in keep:
-            ex = excluded_lines(table, findings)
-            excluded += [(table.meta.file, ln, code) for ln, code in sorted(ex)]
-            d = table.data[~table.data["line"].isin([ln for ln, _ in ex])]
-            d = d[np.isfinite(d["T"]) & np.isfinite(d["Cp"])]
-            if covered is not None:
-                d = d[(d["T"] < covered[0]) | (d["T"] > covered[1])]
-            if len(d):
-                d = d.assign(file=table.meta.file)
-                rows.append(d)
-                lo, hi = float(d["T"].min()), float(d["T"].max())
-                covered = (lo, hi) if covered is None else (min(covered[0], lo),
-                                                             max(covered[1], hi))
-                uses.append(SourceUse(table.meta, int(len(d)), lo, hi))
-                if table is not primary:
-                    notes.append(finding("SEL-MERGED", f"{sid}: {len(d)} row(s) of this table "
-                                         f"({lo:.6g}-{hi:.6g} K) fill the range outside "
-                                         f"{primary.meta.file}", source=table.meta.source.source,
-                                         file=table.meta.file))
-            else:
-                uses.append(SourceUse(table.meta, 0, None, None))
-                if table is not primary:
-                    notes.append(finding("SEL-SUPERSEDED", f"{sid}: {primary.meta.file} (priority "
-                                         f"{primary.meta.source.priority}) covers this table's "
-                                         f"range (priority {table.meta.source.priority})",
-                                         source=table.meta.source.source, file=table.meta.file))
-        data = pd.concat(rows, ignore_index=True).sort_values(["T"], kind="stable") if rows \
-            else primary.data.assign(file=primary.meta.file).iloc[0:0]
+        try:
+            sel, notes, dropped = _select(sid, groups[sid], findings, ctx)
+        except Exception as exc:  # noqa: BLE001 - one bad species never stops the rest
+            for table in groups[sid]:
+                f = stage_failed("reconcile", exc, source=table.meta.source.source,
+                                 file=table.meta.file)
+                new.append(f)
+                quarantined.append((table.meta, (f,)))
+            continue
         new += notes
-        selections.append(Selection(species_id=sid, primary=primary, data=data,
-                                    uses=tuple(uses), excluded=tuple(excluded),
-                                    findings=tuple(notes)))
+        quarantined += dropped
+        selections.append(sel)
     return selections, new, quarantined
+
+
+def _select(sid, tables, findings, ctx):
+    """(Selection, findings, quarantined) of one species: compare its sources, drop those
+    off by a unit factor, merge the rest by priority."""
+    tol = ctx.checks.source_tolerance
+    new, quarantined = [], []
+    ranked = sorted(tables, key=lambda t: (-t.meta.source.priority, t.meta.source.source,
+                                           t.meta.file))
+    primary = ranked[0]
+    notes, keep = [], [primary]
+    for other in ranked[1:]:
+        where = dict(source=other.meta.source.source, file=other.meta.file, column="Cp")
+        if other.meta.source.priority == primary.meta.source.priority:
+            notes.append(finding("SEL-TIE", f"{sid}: {primary.meta.source.source} and "
+                                 f"{other.meta.source.source} have equal priority; "
+                                 f"{primary.meta.source.source} is preferred", **where))
+        got = compare(primary, other)
+        if got is None:
+            keep.append(other)
+            continue
+        dev, t_at, ratio, lo, hi = got
+        factor = _factor_of(ratio, other.meta.molar_mass, ctx.checks.factor_tolerance) \
+            if abs(math.log(ratio)) > 0.2 else None
+        if factor:
+            name, f, fix = factor
+            err = finding("SRC-FACTOR", f"{sid}: this table is {ratio:.6g} times "
+                          f"{primary.meta.file} over {lo:.6g}-{hi:.6g} K, a factor "
+                          f"{f:.6g} ({name})", seen=f"ratio {ratio:.6g}",
+                          expected="ratio 1", fix=fix, **where)
+            new.append(err)
+            quarantined.append((other.meta, (err,)))
+            continue
+        if dev > tol:
+            notes.append(finding("SRC-DISAGREE", f"{sid}: {other.meta.source.source} differs "
+                                 f"from {primary.meta.source.source} by up to "
+                                 f"{100 * dev:.3g} % (at {t_at:.6g} K) over {lo:.6g}-"
+                                 f"{hi:.6g} K", seen=f"{100 * dev:.3g} %",
+                                 expected=f"<= {100 * tol:g} %", **where))
+        keep.append(other)
+    rows, uses, excluded = [], [], []
+    covered = None
+    for table in keep:
+        ex = excluded_lines(table, findings)
+        excluded += [(table.meta.file, ln, code) for ln, code in sorted(ex)]
+        d = table.data[~table.data["line"].isin([ln for ln, _ in ex])]
+        d = d[np.isfinite(d["T"]) & np.isfinite(d["Cp"])]
+        if covered is not None:
+            d = d[(d["T"] < covered[0]) | (d["T"] > covered[1])]
+        if len(d):
+            d = d.assign(file=table.meta.file)
+            rows.append(d)
+            lo, hi = float(d["T"].min()), float(d["T"].max())
+            covered = (lo, hi) if covered is None else (min(covered[0], lo),
+                                                         max(covered[1], hi))
+            uses.append(SourceUse(table.meta, int(len(d)), lo, hi))
+            if table is not primary:
+                notes.append(finding("SEL-MERGED", f"{sid}: {len(d)} row(s) of this table "
+                                     f"({lo:.6g}-{hi:.6g} K) fill the range outside "
+                                     f"{primary.meta.file}", source=table.meta.source.source,
+                                     file=table.meta.file))
+        else:
+            uses.append(SourceUse(table.meta, 0, None, None))
+            if table is not primary:
+                notes.append(finding("SEL-SUPERSEDED", f"{sid}: {primary.meta.file} (priority "
+                                     f"{primary.meta.source.priority}) covers this table's "
+                                     f"range (priority {table.meta.source.priority})",
+                                     source=table.meta.source.source, file=table.meta.file))
+    data = pd.concat(rows, ignore_index=True).sort_values(["T"], kind="stable") if rows \
+        else primary.data.assign(file=primary.meta.file).iloc[0:0]
+    sel = Selection(species_id=sid, primary=primary, data=data, uses=tuple(uses),
+                    excluded=tuple(excluded), findings=tuple(notes))
+    return sel, new + notes, quarantined

@@ -18,7 +18,7 @@ from .checks_columns import check_columns
 from .checks_coverage import check_gaps, check_range_of_use
 from .checks_physics import check_condensed_bounds, check_gas_bounds, check_unit_blocks
 from .checks_smooth import check_smoothness
-from .findings import ERROR, finding
+from .findings import ERROR, finding, stage_failed
 from .limits import TEMPERATURE_SETTING_RANGE
 from .records import Table
 from .settings import Settings, for_table
@@ -172,8 +172,6 @@ CHECKS = STRUCTURE_CHECKS + QUALITY_CHECKS
 def validate_table(table: Table, ctx: Settings = Settings(), prior=()):
     """All findings of one table; ``prior`` are its ingest findings (errors stop tier two).
     An unexpected exception of a check becomes the table's STAGE-FAILED finding."""
-    from .ingest import stage_failed
-
     try:
         return _validate_table(table, ctx, prior)
     except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest

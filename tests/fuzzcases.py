@@ -1,6 +1,8 @@
 """Fuzzed raw inputs of every kind the reliability run used, and the harness that answers
 them; shared by tests/test_fuzz_inputs.py (a sample) and benchmarks/fuzz_inputs.py (all).
 
+Every PUBLISH_EVERY-th case is built in full, report and publishing included.
+
 Each case is one source folder ``lab`` with one table ``t.csv`` (bytes) and its
 ``source.json`` (bytes), built deterministically from a seed. ``answer`` runs the whole
 pipeline short of writing (ingest, validate, reconcile, fit, release assembly) on it and
@@ -204,6 +206,7 @@ KINDS = {  # name: (generator, share of the cases)
     "mutated bytes": (_mutated_case, 14),
 }
 LARGE_EVERY = 400    # one oversize case among this many (each costs a large file write)
+PUBLISH_EVERY = 20   # one case in this many runs the whole build, report and publishing
 
 
 def cases(n: int, seed: int = 2026):
@@ -229,8 +232,10 @@ def _alarm(*_):
     raise Hang()
 
 
-def answer(kind: str, table: bytes, meta: bytes | None, limit: int = 20) -> dict:
-    """Run the pipeline (no writing) on one case; what happened."""
+def answer(kind: str, table: bytes, meta: bytes | None, limit: int = 20,
+           publish: bool = False) -> dict:
+    """Run the pipeline on one case, without writing (or, with ``publish``, the whole build
+    with its report into a temporary release home); what happened."""
     from pipeline import build
     from pipeline.settings import OutputSettings, Settings
 
@@ -243,8 +248,11 @@ def answer(kind: str, table: bytes, meta: bytes | None, limit: int = 20) -> dict
         old = signal.signal(signal.SIGALRM, _alarm)
         signal.alarm(limit)
         try:
-            result = build.build(lab.parent, None, Settings(outputs=OutputSettings(report=False)),
-                                 write=False)
+            if publish:
+                result = build.build(lab.parent, Path(tmp) / "out", Settings())
+            else:
+                result = build.build(lab.parent, None,
+                                     Settings(outputs=OutputSettings(report=False)), write=False)
         except Hang:
             return {"kind": kind, "outcome": "hang", "detail": ""}
         except Exception as exc:  # noqa: BLE001 - what the benchmark counts

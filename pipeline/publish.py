@@ -79,9 +79,10 @@ def _flat_release_files(folder: Path):
     found = set()
     for p in folder.rglob("*"):
         rel = p.relative_to(folder).as_posix()
-        if p.is_symlink() or (p.is_file() and rel not in listed):
-            if rel != LOCK and not rel.endswith(".lock"):
-                return None
+        if rel == LOCK:
+            continue
+        if p.is_symlink() or (not p.is_dir() and rel not in listed):
+            return None
         if p.is_file():
             found.add(rel)
     return found

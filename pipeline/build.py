@@ -117,7 +117,7 @@ def _build(raw_dir, out_dir, ctx: Settings, progress) -> BuildResult:
     checked = check(raw_dir, ctx)
     findings = list(checked.findings)
     quarantined = list(checked.quarantined)
-    fitted = []
+    fitted, entries = [], {}
     n_sel = len(checked.selections)
     for k, sel in enumerate(checked.selections):
         meta = sel.primary.meta
@@ -131,25 +131,25 @@ def _build(raw_dir, out_dir, ctx: Settings, progress) -> BuildResult:
             done = FittedSpecies(table=sel.primary, fit=result,
                                  findings=species_findings(sel, findings + notes), uses=sel.uses,
                                  excluded=sel.excluded, rows=rows)
-            bad = export.non_finite(export.species_entry(done))
+            entry = export.species_entry(done)
+            bad = export.non_finite(entry)
             if bad:
                 raise FitError(sel.species_id, f"the fitted entry holds a non-finite number at "
                                f"{bad}")
-        except FitError as exc:
-            code = "FIT-REJECTED" if isinstance(exc, fit.FitRejected) else "FIT-FAILED"
-            f = finding(code, exc.reason, **where)
-            findings.append(f)
-            quarantined.append((meta, (f,)))
-            continue
         except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
-            f = stage_failed("fit", exc, **where)
+            if isinstance(exc, FitError):
+                code = "FIT-REJECTED" if isinstance(exc, fit.FitRejected) else "FIT-FAILED"
+                f = finding(code, exc.reason, **where)
+            else:
+                f = stage_failed("fit", exc, **where)
             findings.append(f)
             quarantined.append((meta, (f,)))
             continue
         findings += notes
         fitted.append(done)
+        entries[sel.species_id] = entry
     digest = ingest.inputs_digest(checked.inputs)
-    doc = export.library_document(fitted, quarantined, digest, ctx.to_dict())
+    doc = export.library_document(fitted, quarantined, digest, ctx.to_dict(), entries)
     say("write", 0, 0, str(out_dir or ""))
     files = release(doc, export.findings_document(findings), fitted, quarantined, checked,
                     ctx, digest, plot_points(doc, checked) if ctx.outputs.report else None)

@@ -100,11 +100,14 @@ def _source_ref(use) -> dict:
             "priority": meta.source.priority, "citation": meta.source.citation}
 
 
-def library_document(fitted, quarantined, inputs_sha256: str, settings: dict) -> dict:
+def library_document(fitted, quarantined, inputs_sha256: str, settings: dict,
+                     entries=None) -> dict:
     """The whole library.json document.
 
-    ``quarantined`` is a sequence of (TableMeta, findings) for tables left out.
+    ``quarantined`` is a sequence of (TableMeta, findings) for tables left out; ``entries``
+    optionally maps species ids to their species_entry, already made.
     """
+    entries = entries or {}
     return {
         "library_format": 1,
         "notice": NOTICE,
@@ -114,7 +117,8 @@ def library_document(fitted, quarantined, inputs_sha256: str, settings: dict) ->
         "units": UNITS,
         "build": {"pipeline_version": __version__, "inputs_sha256": inputs_sha256,
                   "settings": settings, "manifest": "manifest.json"},
-        "species": [species_entry(s) for s in sorted(fitted, key=lambda s: s.table.meta.species_id)],
+        "species": [entries.get(s.table.meta.species_id) or species_entry(s)
+                    for s in sorted(fitted, key=lambda s: s.table.meta.species_id)],
         "quarantined": [
             {"id": meta.species_id, "source": meta.source.source, "file": meta.file,
              "reasons": [f.to_dict() for f in sorted(reasons, key=lambda f: f.sort_key())]}

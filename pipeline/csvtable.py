@@ -39,7 +39,6 @@ COLUMNS = {
 }
 
 _HEADER = re.compile(r"^\s*(?P<name>[^\[\]]*?)\s*\[(?P<unit>[^\[\]]*)\]\s*$")
-_NUMBER = re.compile(r"^[+-]?([0-9]+(\.[0-9]*)?|\.[0-9]+)([eE][+-]?[0-9]+)?$")
 
 
 @dataclass(frozen=True)
@@ -59,7 +58,7 @@ def empty_frame() -> pd.DataFrame:
 def parse_number(cell: str) -> float | None:
     """A finite float from a plain decimal literal, else None (no 'nan', 'inf', '1_0', '0x1')."""
     text = cell.strip()
-    if not _NUMBER.match(text):
+    if not units.is_plain_number(text):
         return None
     value = float(text)
     return value if math.isfinite(value) else None

@@ -15,8 +15,8 @@ from pathlib import Path
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 from bench_build import make_raw  # noqa: E402
-
-from pipeline import audit, build  # noqa: E402
+from thermoledger import build
+from thermoledger.release import audit  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
 

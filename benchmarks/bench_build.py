@@ -24,8 +24,11 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from pipeline import build, ingest, statmech, validate  # noqa: E402
-from pipeline.constants import GAS_CONSTANT  # noqa: E402
+from thermoledger import build  # noqa: E402
+from thermoledger.checks import registry as validate
+from thermoledger.core.constants import GAS_CONSTANT  # noqa: E402
+from thermoledger.ingest import sources as ingest
+from thermoledger.physics import statmech
 
 
 def make_raw(raw: Path, n: int, points: int, seed: int = 1) -> None:
@@ -72,7 +75,7 @@ def main(argv=None) -> int:
         validate.validate(got.tables, build.Settings(), got.findings)
         t_validate = time.perf_counter() - t0
         t0 = time.perf_counter()
-        checked = build.check(raw)
+        checked = build.examine(raw)
         t_check = time.perf_counter() - t0
         fit_ms = []
         for sel in checked.selections:

@@ -24,8 +24,9 @@ from scipy.optimize import minimize
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from pipeline import basis, breakpoints, forms, lsq, statmech  # noqa: E402
-from pipeline.constants import GAS_CONSTANT as R  # noqa: E402
+from thermoledger.core.constants import GAS_CONSTANT as R  # noqa: E402
+from thermoledger.fit import breakpoints, lsq
+from thermoledger.physics import basis, forms, statmech  # noqa: E402
 
 
 def tables(n, points, seed=3):
@@ -71,7 +72,8 @@ def main(argv=None) -> int:
         return out
 
     def ours_search_once(t, y, sig):
-        bps = breakpoints.optimise(t, y, sig, powers, 2, max_candidates=args.candidates)
+        bps = breakpoints.optimise(breakpoints.Observations(t, y, sig), powers, 2,
+                                   breakpoints.SearchRules(max_candidates=args.candidates))
         lsq.solve(basis.cp_rows(powers, t, bps), y, sig, basis.continuity_rows(powers, bps))
 
     def slsqp_search_once(t, y, sig, cands):
@@ -88,8 +90,8 @@ def main(argv=None) -> int:
         y, sig = cp / R, 3e-3 * cp / R
         a = basis.cp_rows(powers, t, [1000.0])
         c = basis.continuity_rows(powers, [1000.0])
-        cands = breakpoints._candidates(t, 0, len(t) - 1, 7, (None, None), args.candidates,
-                                        1.5)
+        cands = breakpoints._candidates(t, 0, len(t) - 1, breakpoints.SearchRules(
+            need=7, max_candidates=args.candidates))
         n_cand.append(len(cands))
         prepared.append((t, y, sig, a, c, cands))
     for t, y, sig, a, c, cands in prepared:

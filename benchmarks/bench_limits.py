@@ -17,7 +17,7 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
-from pipeline.limits import MAX_ROWS, MAX_TABLE_BYTES  # noqa: E402
+from thermoledger.core.limits import MAX_ROWS, MAX_TABLE_BYTES  # noqa: E402
 
 
 def write(raw: Path, lines):

@@ -14,9 +14,10 @@ from pathlib import Path
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 from bench_build import make_raw  # noqa: E402
-
-from pipeline import build, report, tables  # noqa: E402
-from pipeline.settings import OutputSettings, Settings  # noqa: E402
+from thermoledger import build  # noqa: E402
+from thermoledger.core.settings import OutputSettings, Settings  # noqa: E402
+from thermoledger.library import tables
+from thermoledger.release import report
 
 
 def main(argv=None) -> int:
@@ -29,7 +30,7 @@ def main(argv=None) -> int:
         make_raw(raw, args.species, args.points)
         ctx = Settings(outputs=OutputSettings(report=False))
         result = build.build(raw, Path(tmp) / "out", ctx, write=False)
-        checked = build.check(raw, ctx)
+        checked = build.examine(raw, ctx)
         points = build.plot_points(result.document, checked)
         t0 = time.perf_counter()
         files = report.report_files(result.document, points, ctx.fit.accept_cp_max_rel)

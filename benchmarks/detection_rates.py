@@ -15,7 +15,7 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from tests.trials import detection_rates  # noqa: E402
+from thermoledger.testing.trials import detection_rates  # noqa: E402
 
 
 def main(argv=None) -> int:

@@ -21,7 +21,7 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from tests.fuzzcases import PUBLISH_EVERY, answer, cases  # noqa: E402
+from thermoledger.testing.fuzzcases import PUBLISH_EVERY, answer, cases  # noqa: E402
 
 
 def _run(case, limit):

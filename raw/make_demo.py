@@ -33,8 +33,8 @@ from scipy.integrate import quad
 ROOT = Path(__file__).resolve().parent
 sys.path.insert(0, str(ROOT.parent))
 
-from pipeline.constants import ENTROPY_ATM_TO_BAR, GAS_CONSTANT  # noqa: E402
-from pipeline.statmech import rrho_cp_over_r  # noqa: E402
+from thermoledger.core.constants import ENTROPY_ATM_TO_BAR, GAS_CONSTANT  # noqa: E402
+from thermoledger.physics.statmech import rrho_cp_over_r  # noqa: E402
 
 # name: formula, geometry, wavenumbers [1/cm], degeneracies, levels [(g, 1/cm)],
 #       dfH298 [kJ/mol], S298 at 1 bar [J/(mol K)]  -- all from memory, demo only

@@ -10,12 +10,11 @@ import signal
 from contextlib import contextmanager
 
 import pytest
-
-from pipeline import build, jsonread, units
-from pipeline.errors import InputError, UnitError
-from pipeline.settings import OutputSettings, Settings
-
-from .conftest import table_entry
+from thermoledger import build
+from thermoledger.core import jsonread, units
+from thermoledger.core.errors import InputError, UnitError
+from thermoledger.core.settings import OutputSettings, Settings
+from thermoledger.testing import table_entry
 
 ROWS = [(200 + 100 * i, 29 + (200 + 100 * i) / 1000) for i in range(12)]
 NO_REPORT = Settings(outputs=OutputSettings(report=False))
@@ -136,7 +135,7 @@ def test_a_condensed_cp_overflowing_is_listed_not_dropped(tmp_path):
     doc = json.loads((tmp_path / "raw" / "lab" / "source.json").read_text())
     del doc["tables"][0]["geometry"]
     (tmp_path / "raw" / "lab" / "source.json").write_text(json.dumps(doc))
-    result = build.check(tmp_path / "raw")
+    result = build.examine(tmp_path / "raw")
     f = next(f for f in result.findings if f.code == "VALUE-RANGE")
     assert (f.file, f.line, f.column) == ("lab/t.csv", 6, "Cp")
 
@@ -144,10 +143,10 @@ def test_a_condensed_cp_overflowing_is_listed_not_dropped(tmp_path):
 def test_ranges_override_sets_the_points_needed(tmp_path):
     # 8 points: enough for one range (5), not for the default two (10)
     write_case(tmp_path / "raw", rows=ROWS[:8], entry={"fit": {"ranges": 1}})
-    result = build.check(tmp_path / "raw")
+    result = build.examine(tmp_path / "raw")
     assert not [f for f in result.findings if f.code == "TOO-FEW-POINTS"]
     write_case(tmp_path / "raw2", rows=ROWS[:12], entry={"fit": {"ranges": 3}})
-    result = build.check(tmp_path / "raw2")
+    result = build.examine(tmp_path / "raw2")
     (f,) = [f for f in result.findings if f.code == "TOO-FEW-POINTS"]
     assert "3-range fit needs at least 15" in f.message
 
@@ -169,12 +168,12 @@ def test_a_folder_or_a_pipe_listed_as_a_table(tmp_path):
     (tmp_path / "raw" / "lab" / "t.csv").unlink()
     os.mkfifo(tmp_path / "raw" / "lab" / "t.csv")          # reading it would block forever
     with deadline(60):
-        result = build.check(tmp_path / "raw")
+        result = build.examine(tmp_path / "raw")
     (f,) = [f for f in result.findings if f.code == "TAB-NOT-FILE"]
     assert "not a regular file" in f.message and f.column == "tables/0/file"
     (tmp_path / "raw" / "lab" / "t.csv").unlink()
     (tmp_path / "raw" / "lab" / "t.csv").mkdir()
-    result = build.check(tmp_path / "raw")
+    result = build.examine(tmp_path / "raw")
     (f,) = [f for f in result.findings if f.code == "TAB-NOT-FILE"]
     assert "is a folder" in f.message
 
@@ -184,27 +183,27 @@ def test_source_json_linked_out_of_raw_is_not_followed(tmp_path):
     outside = tmp_path / "elsewhere.json"
     (tmp_path / "raw" / "lab" / "source.json").rename(outside)
     (tmp_path / "raw" / "lab" / "source.json").symlink_to(outside)
-    result = build.check(tmp_path / "raw")
+    result = build.examine(tmp_path / "raw")
     (f,) = [f for f in result.findings if f.file == "lab/source.json"]
     assert f.code == "SRC-PATH" and "link" in f.message
 
 
 def test_an_oversized_table_is_refused_before_it_is_read(tmp_path, monkeypatch):
-    from pipeline import ingest
+    from thermoledger.ingest import sources as ingest
 
     write_case(tmp_path / "raw")
     monkeypatch.setattr(ingest, "MAX_TABLE_BYTES", 100)
-    result = build.check(tmp_path / "raw")
+    result = build.examine(tmp_path / "raw")
     (f,) = [f for f in result.findings if f.code == "TAB-TOO-LARGE" and f.file == "lab/t.csv"]
     assert "limit is 100" in f.message
 
 
 def test_too_many_rows_is_one_finding(tmp_path, monkeypatch):
-    from pipeline import csvtable
+    from thermoledger.ingest import csvtable
 
     write_case(tmp_path / "raw")
     monkeypatch.setattr(csvtable, "MAX_ROWS", 5)
-    result = build.check(tmp_path / "raw")
+    result = build.examine(tmp_path / "raw")
     (f,) = [f for f in result.findings if f.code == "TAB-TOO-LARGE" and f.file == "lab/t.csv"]
     assert "6+ data rows" in f.message and "limit is 32 columns and 5 rows" in f.message
 
@@ -212,13 +211,14 @@ def test_too_many_rows_is_one_finding(tmp_path, monkeypatch):
 def test_many_bad_rows_are_summed_up(tmp_path):
     rows = [(200 + i, "x") for i in range(300)]
     write_case(tmp_path / "raw", rows=rows)
-    result = build.check(tmp_path / "raw")
+    result = build.examine(tmp_path / "raw")
     bad = [f for f in result.findings if f.code == "CELL-NOT-NUMBER"]
     assert len(bad) == 21 and len(bad[-1].lines) == 280 and "280 more row(s)" in bad[-1].message
 
 
 def test_an_unexpected_exception_becomes_the_tables_finding(tmp_path, monkeypatch):
-    from pipeline import checks_smooth, validate
+    from thermoledger.checks import registry as validate
+    from thermoledger.checks import smoothness as checks_smooth
 
     def broken(table, ctx):
         raise ZeroDivisionError("float division by zero")

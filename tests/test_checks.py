@@ -6,13 +6,12 @@ give no error and no warning. Sources of the references: tests/trials.py.
 
 import numpy as np
 import pytest
-
-from pipeline import build, reconcile
-from pipeline.constants import GAS_CONSTANT as R
-from pipeline.settings import FitSettings, Settings
-
-from . import trials
-from .trials import make_table
+from thermoledger import build
+from thermoledger.checks import reconcile
+from thermoledger.core.constants import GAS_CONSTANT as R
+from thermoledger.core.settings import FitSettings, Settings
+from thermoledger.testing import trials
+from thermoledger.testing.trials import make_table
 
 pytest.importorskip("CoolProp")
 
@@ -211,7 +210,7 @@ def test_sources_differing_by_a_factor():
 
 
 def test_outlier_rows_are_left_out_of_the_fit(tmp_path):
-    from .conftest import table_entry, write_source
+    from thermoledger.testing import table_entry, write_source
 
     label, t, cp, formula, geometry = ref("CO2 CoolProp 25 K")
     bad = cp.copy()

@@ -10,10 +10,12 @@ from pathlib import Path
 import numpy as np
 import pyarrow.parquet as pq
 import pytest
+from thermoledger.cli import main as cli
+from thermoledger.physics import forms
+from thermoledger.release import document as export
+from thermoledger.testing import table_entry, write_source
 
-from pipeline import cli, export, forms
-
-from .conftest import PROJECT, table_entry, tree_hashes, write_source
+from .conftest import PROJECT, tree_hashes
 from .conftest import run_cli as run
 
 
@@ -24,7 +26,7 @@ def test_demo_build_writes_library_and_reports_the_defective_table(demo_raw, tmp
     assert "isru-benchlog-2026/nh3.csv:9 [Cp]: CELL-NOT-NUMBER" in out
     assert "review" in out and "qualified person" in out
     lib = json.loads((tmp_path / "cur" / "library.json").read_text())
-    export.check_library(lib)
+    export.require_valid_library(lib)
     ids = [s["id"] for s in lib["species"]]
     assert len(ids) >= 8 and "NH3(g)" not in ids
     assert [q["id"] for q in lib["quarantined"]] == ["CO(g)", "NH3(g)"]
@@ -82,8 +84,8 @@ def test_props_agrees_with_the_coefficients(demo_release, capsys):
     assert code == 0
     lib = json.loads((demo_release / "library.json").read_text())
     sp = next(s for s in lib["species"] if s["id"] == "CO2(g)")
-    ev = forms.evaluate([(r["t_min"], r["t_max"], r["coefficients"]) for r in sp["ranges"]],
-                        [298.15, 1500.0])
+    ev = forms.evaluate_ranges([(r["t_min"], r["t_max"], r["coefficients"]) for r in sp["ranges"]],
+                               [298.15, 1500.0], sp["form"])
     line = [ln for ln in out.splitlines() if ln.strip().startswith("1500.00")][0]
     cells = line.replace("±", " ").split()
     assert float(cells[1]) == pytest.approx(ev["Cp"][1], abs=1e-4)

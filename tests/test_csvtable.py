@@ -4,8 +4,8 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-
-from pipeline import constants, csvtable
+from thermoledger.core import constants
+from thermoledger.ingest import csvtable
 
 
 def parse(text, **kw):

@@ -6,8 +6,7 @@ The same harness prints the rates: benchmarks/detection_rates.py.
 """
 
 import pytest
-
-from . import trials
+from thermoledger.testing import trials
 
 pytest.importorskip("CoolProp")
 

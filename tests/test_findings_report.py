@@ -5,8 +5,9 @@ import json
 
 import jsonschema
 import pytest
+from thermoledger.testing import table_entry, write_source
 
-from .conftest import PROJECT, table_entry, write_source
+from .conftest import PROJECT
 from .conftest import run_cli as run
 
 ROWS = [[t, f"{29.1 + 0.004 * (t - 200):.4f}", f"{29.1 + 0.004 * (t - 200) - 8.3145:.4f}"]

@@ -4,11 +4,11 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-
-from pipeline import fit, forms
-from pipeline.constants import GAS_CONSTANT as R
-from pipeline.errors import FitError
-from pipeline.settings import FitSettings
+from thermoledger.core.constants import GAS_CONSTANT as R
+from thermoledger.core.errors import FitError
+from thermoledger.core.settings import FitSettings
+from thermoledger.physics import forms
+from thermoledger.testing import fit_arrays
 
 # a smooth Cp/R of the right shape for a small polyatomic gas (kelvin coefficients, invented
 # for the recovery test only: it is what the fit must give back, not a check value)
@@ -41,7 +41,7 @@ def jumps(result):
 
 def test_recovers_a_single_polynomial_exactly():
     t = grid()
-    r = fit.fit_species("X", t, cp_true(t), None, -1.0e5, 250.0)
+    r = fit_arrays("X", t, cp_true(t), None, -1.0e5, 250.0)
     assert r.cp_max_rel_dev < 1e-10
     for rng in r.ranges:
         np.testing.assert_allclose(rng.coefficients[:5], TRUE, rtol=1e-6, atol=1e-20)
@@ -51,8 +51,8 @@ def test_recovery_with_noise_stays_within_the_noise():
     rng = np.random.default_rng(7)
     t = grid(n=120)
     noisy = cp_true(t) * (1 + 1e-3 * rng.standard_normal(t.size))
-    r = fit.fit_species("X", t, noisy, None, 0.0, 250.0)
-    fitted = forms.evaluate([(x.t_min, x.t_max, x.coefficients) for x in r.ranges], t)["Cp"]
+    r = fit_arrays("X", t, noisy, None, 0.0, 250.0)
+    fitted = forms.evaluate_ranges([(x.t_min, x.t_max, x.coefficients) for x in r.ranges], t, "nasa7")["Cp"]
     # 8 free parameters on 120 points with noise sigma = 0.1 %: the fitted curve is off the
     # truth by about sigma*sqrt(8/120) = 0.026 % rms, more at the ends (higher leverage)
     err = fitted / cp_true(t) - 1
@@ -63,8 +63,8 @@ def test_recovery_with_noise_stays_within_the_noise():
 def test_anchors_are_exact():
     t = grid()
     h298, s298 = -393510.0, 213.785
-    r = fit.fit_species("X", t, cp_true(t), None, h298, s298)
-    ev = forms.evaluate([(x.t_min, x.t_max, x.coefficients) for x in r.ranges], [298.15])
+    r = fit_arrays("X", t, cp_true(t), None, h298, s298)
+    ev = forms.evaluate_ranges([(x.t_min, x.t_max, x.coefficients) for x in r.ranges], [298.15], "nasa7")
     assert ev["H"][0] == pytest.approx(h298, rel=1e-12)
     assert ev["S"][0] == pytest.approx(s298, rel=1e-12)
 
@@ -72,10 +72,10 @@ def test_anchors_are_exact():
 def test_conventional_breakpoint_when_straddled_else_optimised_inside():
     conv = FitSettings(breakpoint_mode="conventional")
     t = grid()
-    r = fit.fit_species("X", t, cp_true(t), None, 0.0, 200.0, conv)
+    r = fit_arrays("X", t, cp_true(t), None, 0.0, 200.0, conv)
     assert r.breakpoints == (1000.0,) and not r.notes
     t = grid(200, 900, 20)
-    r = fit.fit_species("X", t, cp_true(t), None, 0.0, 200.0, conv)
+    r = fit_arrays("X", t, cp_true(t), None, 0.0, 200.0, conv)
     assert 200 < r.breakpoints[0] < 900 and r.notes[0][0] == "COV-RANGE-POINTS"
 
 
@@ -85,7 +85,7 @@ def test_continuity_at_random_breakpoints(tb, seed):
     rng = np.random.default_rng(seed)
     t = grid(200, 3000, 80)
     cp = cp_true(t) * (1 + 2e-3 * rng.standard_normal(t.size))
-    r = fit.fit_species("X", t, cp, None, 1000.0, 200.0,
+    r = fit_arrays("X", t, cp, None, 1000.0, 200.0,
                         FitSettings(breakpoint_mode="fixed", fixed_breakpoints=(tb,)))
     assert r.ranges[0].t_max == pytest.approx(tb)
     assert max(jumps(r)) < 1e-9
@@ -98,16 +98,16 @@ def test_uncertainty_weights_discount_a_bad_point():
     bad[20] *= 1.10
     u = 1e-3 * cp
     u[20] = 1e3
-    r = fit.fit_species("X", t, bad, u, 0.0, 200.0)
+    r = fit_arrays("X", t, bad, u, 0.0, 200.0)
     assert r.weighting == "u(Cp)"
-    fitted = forms.evaluate([(x.t_min, x.t_max, x.coefficients) for x in r.ranges], t)["Cp"]
+    fitted = forms.evaluate_ranges([(x.t_min, x.t_max, x.coefficients) for x in r.ranges], t, "nasa7")["Cp"]
     assert np.max(np.abs(np.delete(fitted / cp - 1, 20))) < 1e-6
 
 
 def test_constant_cp_gives_constant_fit():
     # monatomic ideal gas: Cp = 5/2 R (equipartition)
     t = grid()
-    r = fit.fit_species("Ar", t, np.full(t.size, 2.5 * R), None, 0.0, 154.846)
+    r = fit_arrays("Ar", t, np.full(t.size, 2.5 * R), None, 0.0, 154.846)
     for rng in r.ranges:
         assert rng.coefficients[0] == pytest.approx(2.5, rel=1e-12)
         # the other scaled coefficients vanish to rounding (relative to a1 = 2.5)
@@ -116,10 +116,10 @@ def test_constant_cp_gives_constant_fit():
 
 def test_too_few_points_is_a_fit_error():
     with pytest.raises(FitError, match="3 points, at least 10"):
-        fit.fit_species("Y(g)", [300, 400, 500], [30, 31, 32], None, 0.0, 200.0)
+        fit_arrays("Y(g)", [300, 400, 500], [30, 31, 32], None, 0.0, 200.0)
 
 
 def test_lowest_range_reaches_298_when_data_start_above():
     t = grid(320, 3000)
-    r = fit.fit_species("X", t, cp_true(t), None, 0.0, 200.0)
+    r = fit_arrays("X", t, cp_true(t), None, 0.0, 200.0)
     assert r.ranges[0].t_min == 298.15 and r.data_t_min == pytest.approx(320)

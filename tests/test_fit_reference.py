@@ -14,12 +14,10 @@
 import numpy as np
 import pytest
 from scipy.integrate import quad
-
-from pipeline import fit, forms, statmech
-from pipeline.constants import GAS_CONSTANT as R
-from pipeline.settings import FitSettings
-
-from . import trials
+from thermoledger.core.constants import GAS_CONSTANT as R
+from thermoledger.core.settings import FitSettings
+from thermoledger.physics import forms, statmech
+from thermoledger.testing import fit_arrays, trials
 
 CP = pytest.importorskip("CoolProp.CoolProp")
 
@@ -50,14 +48,14 @@ def ranges(r):
 @pytest.mark.parametrize("fluid", list(EOS_FLUIDS))
 def test_coolprop_over_the_equation_range_two_ranges_optimised(fluid):
     t, cp = eos_table(fluid)
-    r9 = fit.fit_species(fluid, t, cp, None, 0.0, 200.0, FitSettings(form="nasa9"))
-    r7 = fit.fit_species(fluid, t, cp, None, 0.0, 200.0, LOOSE)
+    r9 = fit_arrays(fluid, t, cp, None, 0.0, 200.0, FitSettings(form="nasa9"))
+    r7 = fit_arrays(fluid, t, cp, None, 0.0, 200.0, LOOSE)
     REPORT[fluid] = (r9.cp_max_rel_dev, r7.cp_max_rel_dev)
     assert len(r9.breakpoints) == 1 and t[0] < r9.breakpoints[0] < t[-1]
     assert r9.cp_max_rel_dev <= EOS_FLUIDS[fluid]
     assert r7.cp_max_rel_dev <= 1e-3  # nasa7 alongside: within 0.1 % for all six
     # H and S within the first build's tolerances, against scipy quad of CoolProp's Cp
-    ev = forms.evaluate(ranges(r9), np.append(t[::10], 298.15), "nasa9")
+    ev = forms.evaluate_ranges(ranges(r9), np.append(t[::10], 298.15), "nasa9")
     for i, x in enumerate(t[::10]):
         dh = quad(lambda y: trials.coolprop_cp(fluid, [y])[0], 298.15, x, epsrel=1e-10)[0]
         ds = quad(lambda y: trials.coolprop_cp(fluid, [y])[0] / y, 298.15, x, epsrel=1e-10)[0]
@@ -70,8 +68,8 @@ def test_rrho_to_6000_nasa9_three_ranges_and_nasa7_two(name):
     geometry, nu, g = RRHO[name]
     t = trials.grid(200.0, 6000.0, 50.0)
     cp = R * statmech.rrho_cp_over_r(t, geometry, nu, g)
-    r9 = fit.fit_species(name, t, cp, None, 0.0, 200.0, FitSettings(form="nasa9", ranges=3))
-    r7 = fit.fit_species(name, t, cp, None, 0.0, 200.0, LOOSE)
+    r9 = fit_arrays(name, t, cp, None, 0.0, 200.0, FitSettings(form="nasa9", ranges=3))
+    r7 = fit_arrays(name, t, cp, None, 0.0, 200.0, LOOSE)
     REPORT[f"RRHO {name}"] = (r9.cp_max_rel_dev, r7.cp_max_rel_dev)
     print(f"{name}: nasa9 x3 {100 * r9.cp_max_rel_dev:.5f} %, nasa7 x2 "
           f"{100 * r7.cp_max_rel_dev:.4f} %")
@@ -89,9 +87,9 @@ def test_coolprop_extrapolated_to_2000(fluid, formula, atoms, cut, bound):
     t = trials.grid(220.0, cut, 25.0)
     cp = trials.coolprop_cp(fluid, t)
     s = FitSettings(use_t_max=2000.0)
-    r = fit.fit_species(formula, t, cp, None, 0.0, 200.0, s, geometry="linear", atoms=atoms)
+    r = fit_arrays(formula, t, cp, None, 0.0, 200.0, s, geometry="linear", atoms=atoms)
     check = np.linspace(cut, 2000.0, 41)
-    got = forms.evaluate(ranges(r), check)["Cp"]
+    got = forms.evaluate_ranges(ranges(r), check, "nasa7")["Cp"]
     err = np.max(np.abs(got / trials.coolprop_cp(fluid, check) - 1))
     REPORT[f"extrapolate {formula} from {cut:g} K"] = err
     assert err <= bound
@@ -107,11 +105,11 @@ def test_rrho_polyatomics_extrapolated_from_1500_to_6000(name):
     t = trials.grid(200.0, 1500.0, 50.0)
     cp = R * statmech.rrho_cp_over_r(t, geometry, nu, g)
     atoms = {"CO2": 3, "CH4": 5, "N2O": 3, "SO2": 3}[name]
-    r = fit.fit_species(name, t, cp, None, 0.0, 200.0, FitSettings(use_t_max=6000.0),
+    r = fit_arrays(name, t, cp, None, 0.0, 200.0, FitSettings(use_t_max=6000.0),
                         geometry=geometry, atoms=atoms)
     check = np.geomspace(1500.0, 6000.0, 40)
     truth = R * statmech.rrho_cp_over_r(check, geometry, nu, g)
-    err = np.max(np.abs(forms.evaluate(ranges(r), check)["Cp"] / truth - 1))
+    err = np.max(np.abs(forms.evaluate_ranges(ranges(r), check, "nasa7")["Cp"] / truth - 1))
     REPORT[f"extrapolate RRHO {name} to 6000 K"] = err
     assert err <= 0.02
     assert r.extrapolated and r.extrapolated[0]["t_max"] == 6000.0
@@ -120,7 +118,7 @@ def test_rrho_polyatomics_extrapolated_from_1500_to_6000(name):
 def test_condensed_phase_is_never_extrapolated():
     t = trials.grid(100.0, 800.0, 25.0)
     cp = 3 * 2 * R * statmech.einstein(300.0 / t)
-    r = fit.fit_species("NaCl(cr)", t, cp, None, -411000.0, 72.1, FitSettings(use_t_max=2000.0),
+    r = fit_arrays("NaCl(cr)", t, cp, None, -411000.0, 72.1, FitSettings(use_t_max=2000.0),
                         phase="cr")
     assert r.ranges[-1].t_max == pytest.approx(800.0) and not r.extrapolated
     assert r.notes[0][0] == "COV-EXTRAPOLATED" and "never extrapolated" in r.notes[0][1]

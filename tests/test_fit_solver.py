@@ -6,13 +6,11 @@ import json
 import numpy as np
 import pytest
 from scipy.optimize import minimize
-
-from pipeline import basis, fit, forms, lsq, statmech
-from pipeline.constants import GAS_CONSTANT as R
-from pipeline.settings import FitSettings
-
-from . import trials
-from .conftest import table_entry, write_source
+from thermoledger.core.constants import GAS_CONSTANT as R
+from thermoledger.core.settings import FitSettings
+from thermoledger.fit import lsq
+from thermoledger.physics import basis, forms, statmech
+from thermoledger.testing import fit_arrays, table_entry, trials, write_source
 
 NU = ("nonlinear", [2917.0, 1534.0, 3019.0, 1306.0], [1, 2, 3, 3])  # CH4, Shimanouchi 1972
 
@@ -74,14 +72,14 @@ def test_continuity_at_every_breakpoint(form, n_ranges, order):
     t = trials.grid(200.0, 6000.0, 50.0)
     rng = np.random.default_rng(n_ranges * 10 + order)
     cp = rrho(t) * (1 + 1e-3 * rng.standard_normal(t.size))
-    r = fit.fit_species("CH4", t, cp, None, -74870.0, 186.25,
+    r = fit_arrays("CH4", t, cp, None, -74870.0, 186.25,
                         FitSettings(form=form, ranges=n_ranges, continuity=order,
                                     accept_cp_max_rel=1.0))
     j = jumps(form, r)
     assert j.shape[0] == n_ranges - 1
     assert np.max(j[:, :order + 1]) < 1e-9          # the constrained derivatives
     assert np.max(j[:, 3:]) < 1e-9                  # H and S everywhere
-    ev = forms.evaluate([(x.t_min, x.t_max, x.coefficients) for x in r.ranges], [298.15], form)
+    ev = forms.evaluate_ranges([(x.t_min, x.t_max, x.coefficients) for x in r.ranges], [298.15], form)
     assert ev["H"][0] == pytest.approx(-74870.0, abs=1e-6)
     assert ev["S"][0] == pytest.approx(186.25, rel=1e-12)
 
@@ -99,15 +97,15 @@ def test_one_sigma_band_covers_the_truth_about_68_percent():
     for _ in range(100):
         u = 3e-3 * truth
         cp = truth + u * rng.standard_normal(t.size)
-        r = fit.fit_species("X", t, cp, u, 0.0, 186.25, fixed)
+        r = fit_arrays("X", t, cp, u, 0.0, 186.25, fixed)
         sp = {"form": "nasa7", "breakpoints": list(r.breakpoints),
               "ranges": [{"t_min": x.t_min, "t_max": x.t_max, "coefficients": x.coefficients}
                          for x in r.ranges], "extrapolated": [],
               "uncertainty": {"powers": list(r.powers), "covariance": r.covariance}}
-        from pipeline import library
+        from thermoledger.library import document as library
 
         band = library.uncertainty(sp, t)["u_Cp"]
-        fitted = forms.evaluate(library.ranges_of(sp), t)["Cp"]
+        fitted = forms.evaluate_ranges(library.ranges_of(sp), t, "nasa7")["Cp"]
         inside += int(np.sum(np.abs(fitted - truth) <= band))
         total += t.size
     coverage = inside / total
@@ -121,10 +119,10 @@ def test_simultaneous_h_column_improves_enthalpy():
     cp = truth * (1 + 0.01 * rng.standard_normal(t.size))       # poor Cp, 1 % noise
     dh = np.array([statmech_integral(x) for x in t])             # precise H - H298
     u_dh = np.full(t.size, 1.0)                                  # stated: 1 J/mol
-    only_cp = fit.fit_species("CH4", t, cp, None, 0.0, 186.25,
+    only_cp = fit_arrays("CH4", t, cp, None, 0.0, 186.25,
                               FitSettings(simultaneous=False, accept_cp_max_rel=1.0), dh=dh,
                               u_dh=u_dh)
-    both = fit.fit_species("CH4", t, cp, None, 0.0, 186.25,
+    both = fit_arrays("CH4", t, cp, None, 0.0, 186.25,
                            FitSettings(accept_cp_max_rel=1.0, accept_h_max=1e4), dh=dh,
                            u_dh=u_dh)
     assert both.h_max_dev < 0.2 * only_cp.h_max_dev
@@ -139,8 +137,8 @@ def statmech_integral(x):
 def test_minimax_lowers_the_largest_deviation():
     t = trials.grid(200.0, 6000.0, 50.0)
     cp = rrho(t)
-    ls = fit.fit_species("CH4", t, cp, None, 0.0, 186.25, FitSettings(accept_cp_max_rel=1.0))
-    mm = fit.fit_species("CH4", t, cp, None, 0.0, 186.25,
+    ls = fit_arrays("CH4", t, cp, None, 0.0, 186.25, FitSettings(accept_cp_max_rel=1.0))
+    mm = fit_arrays("CH4", t, cp, None, 0.0, 186.25,
                          FitSettings(minimax=True, accept_cp_max_rel=1.0))
     assert mm.cp_max_rel_dev < 0.9 * ls.cp_max_rel_dev
 
@@ -148,15 +146,15 @@ def test_minimax_lowers_the_largest_deviation():
 def test_optimised_breakpoint_beats_the_conventional_one():
     t = trials.grid(200.0, 6000.0, 50.0)
     cp = rrho(t)
-    conv = fit.fit_species("CH4", t, cp, None, 0.0, 186.25,
+    conv = fit_arrays("CH4", t, cp, None, 0.0, 186.25,
                            FitSettings(breakpoint_mode="conventional", accept_cp_max_rel=1.0))
-    opt = fit.fit_species("CH4", t, cp, None, 0.0, 186.25, FitSettings(accept_cp_max_rel=1.0))
+    opt = fit_arrays("CH4", t, cp, None, 0.0, 186.25, FitSettings(accept_cp_max_rel=1.0))
     assert conv.breakpoints == (1000.0,)
     assert opt.cp_max_rel_dev < conv.cp_max_rel_dev
 
 
 def test_failing_fit_is_reported_not_exported(tmp_path, capsys):
-    from pipeline import cli
+    from thermoledger.cli import main as cli
 
     t = trials.grid(200.0, 6000.0, 50.0)
     rows = [[f"{a:.6g}", f"{b:.6f}"] for a, b in zip(t, rrho(t))]

@@ -2,9 +2,8 @@
 
 import numpy as np
 import pytest
-
-from pipeline import forms
-from pipeline.constants import GAS_CONSTANT as R
+from thermoledger.core.constants import GAS_CONSTANT as R
+from thermoledger.physics import forms
 
 A = [3.5, 1.0e-3, -2.0e-7, 3.0e-11, -1.0e-15, -1000.0, 4.0]
 
@@ -13,7 +12,7 @@ def test_derivatives_of_h_and_s():
     t = np.linspace(300.0, 3000.0, 7)
     dt = 1e-3
     ranges = [(200.0, 6000.0, A)]
-    e0, e1, e2 = (forms.evaluate(ranges, t + d) for d in (-dt, 0.0, dt))
+    e0, e1, e2 = (forms.evaluate_ranges(ranges, t + d, "nasa7") for d in (-dt, 0.0, dt))
     np.testing.assert_allclose((e2["H"] - e0["H"]) / (2 * dt), e1["Cp"], rtol=1e-7)
     np.testing.assert_allclose((e2["S"] - e0["S"]) / (2 * dt), e1["Cp"] / t, rtol=1e-7)
     np.testing.assert_allclose(e1["G"], e1["H"] - t * e1["S"], rtol=1e-14)
@@ -25,7 +24,7 @@ def test_published_form_at_one_point():
     cp = A[0] + A[1] * t + A[2] * t**2 + A[3] * t**3 + A[4] * t**4
     h = A[0] + A[1] * t / 2 + A[2] * t**2 / 3 + A[3] * t**3 / 4 + A[4] * t**4 / 5 + A[5] / t
     s = A[0] * np.log(t) + A[1] * t + A[2] * t**2 / 2 + A[3] * t**3 / 3 + A[4] * t**4 / 4 + A[6]
-    e = forms.evaluate([(200.0, 6000.0, A)], [t])
+    e = forms.evaluate_ranges([(200.0, 6000.0, A)], [t], "nasa7")
     assert e["Cp"][0] == pytest.approx(R * cp, rel=1e-14)
     assert e["H"][0] == pytest.approx(R * t * h, rel=1e-14)
     assert e["S"][0] == pytest.approx(R * s, rel=1e-14)

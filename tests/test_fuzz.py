@@ -4,10 +4,8 @@ import json
 
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
-
-from pipeline import build
-
-from .conftest import table_entry
+from thermoledger import build
+from thermoledger.testing import table_entry
 
 GOOD = "T [K],Cp [J/(mol*K)]\n" + "\n".join(f"{t},{29 + t / 1000:.4f}" for t in range(200, 1300, 100))
 
@@ -32,7 +30,7 @@ FUZZ = settings(max_examples=60, deadline=None,
 def test_random_table_bytes(tmp_path_factory, data):
     raw = tmp_path_factory.mktemp("raw")
     write(raw, data)
-    result = build.check(raw)
+    result = build.examine(raw)
     assert result.findings or result.tables
 
 
@@ -41,7 +39,7 @@ def test_random_table_bytes(tmp_path_factory, data):
 def test_random_source_json_bytes(tmp_path_factory, data):
     raw = tmp_path_factory.mktemp("raw")
     write(raw, GOOD.encode(), data)
-    result = build.check(raw)
+    result = build.examine(raw)
     assert result.findings and not result.tables
 
 
@@ -50,7 +48,7 @@ def test_random_source_json_bytes(tmp_path_factory, data):
 def test_truncated_tables(tmp_path_factory, cut):
     raw = tmp_path_factory.mktemp("raw")
     write(raw, GOOD[:cut].encode())
-    result = build.check(raw)
+    result = build.examine(raw)
     assert result.findings or result.selections
 
 
@@ -60,7 +58,7 @@ def test_wrong_encodings(tmp_path_factory, encoding, char):
     raw = tmp_path_factory.mktemp("raw")
     text = GOOD.replace("T [K]", f"T{char} [K]")
     write(raw, text.encode(encoding))
-    result = build.check(raw)
+    result = build.examine(raw)
     assert result.findings
 
 
@@ -71,14 +69,14 @@ def test_huge_and_tiny_numbers(tmp_path_factory, number):
     lines = GOOD.splitlines()
     lines[4] = f"600,{number}"
     write(raw, ("\n".join(lines) + "\n").encode())
-    result = build.check(raw)
+    result = build.examine(raw)
     assert any(f.file == "lab/t.csv" and f.line == 5 for f in result.findings)
 
 
 def test_empty_and_header_only(tmp_path):
     for i, data in enumerate([b"", b"T [K],Cp [J/(mol*K)]\n", b"\n\n\n"]):
         write(tmp_path / str(i), data)
-        result = build.check(tmp_path / str(i))
+        result = build.examine(tmp_path / str(i))
         assert any(f.code == "TAB-EMPTY" for f in result.findings)
 
 

@@ -4,8 +4,7 @@ fuzzed input is answered by findings that name its file, never by an exception o
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
-
-from . import fuzzcases
+from thermoledger.testing import fuzzcases
 
 SAMPLE = list(fuzzcases.cases(160, seed=11))
 

@@ -3,11 +3,9 @@
 import json
 
 import pytest
-
-from pipeline import ingest
-from pipeline.constants import ENTROPY_ATM_TO_BAR
-
-from .conftest import table_entry, write_source
+from thermoledger.core.constants import ENTROPY_ATM_TO_BAR
+from thermoledger.ingest import sources as ingest
+from thermoledger.testing import table_entry, write_source
 
 ROWS = [[t, 29.1 + 0.001 * t] for t in range(200, 1300, 100)]
 HEADER = ["T [K]", "Cp [J/(mol*K)]"]

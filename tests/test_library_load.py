@@ -7,8 +7,7 @@ import shutil
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
-
-from pipeline import cli
+from thermoledger.cli import main as cli
 
 from .conftest import PROJECT
 

@@ -16,8 +16,9 @@ import numpy as np
 import pytest
 from hypothesis import given
 from hypothesis import strategies as st
-
-from pipeline import forms, library, provenance, publish
+from thermoledger.library import document as library
+from thermoledger.physics import forms
+from thermoledger.release import provenance, publish
 
 from .conftest import PROJECT
 from .conftest import run_cli as run
@@ -151,8 +152,8 @@ def test_diff_lists_exactly_the_edited_species(demo_raw, tmp_path, capsys):
     old = library.find_species(library.load(tmp_path / "old"), "N2(g)")
     new = library.find_species(library.load(tmp_path / "new"), "N2(g)")
     for row in c["at"]:
-        a = forms.evaluate(library.ranges_of(old), [row["T"], 298.15])
-        b = forms.evaluate(library.ranges_of(new), [row["T"], 298.15])
+        a = forms.evaluate_ranges(library.ranges_of(old), [row["T"], 298.15], "nasa7")
+        b = forms.evaluate_ranges(library.ranges_of(new), [row["T"], 298.15], "nasa7")
         assert row["Cp"] == pytest.approx(b["Cp"][0] - a["Cp"][0], abs=1e-9)
         assert row["dH"] == pytest.approx((b["H"][0] - b["H"][1]) - (a["H"][0] - a["H"][1]),
                                           abs=1e-6)
@@ -178,7 +179,7 @@ def test_a_second_build_waits_or_fails_clearly_while_the_lock_is_held(demo_raw, 
 def _cli(*argv):
     env = {k: v for k, v in os.environ.items() if k != "PYTHONPATH"}
     env["PYTHONPATH"] = str(PROJECT)
-    return subprocess.Popen([sys.executable, "-m", "pipeline.cli", *map(str, argv)],
+    return subprocess.Popen([sys.executable, "-m", "thermoledger.cli.main", *map(str, argv)],
                             stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, env=env)
 
 

@@ -13,10 +13,10 @@ import uuid
 from pathlib import Path
 
 import pytest
+from thermoledger.release import provenance, publish
+from thermoledger.testing import table_entry, write_source
 
-from pipeline import provenance, publish
-
-from .conftest import PROJECT, table_entry, tree_hashes, write_source
+from .conftest import PROJECT, tree_hashes
 from .conftest import run_cli as run
 
 
@@ -162,7 +162,7 @@ def _cli(*argv, env_extra=None):
     env = {k: v for k, v in os.environ.items() if k != "PYTHONPATH"}
     env["PYTHONPATH"] = str(PROJECT)
     env.update(env_extra or {})
-    return subprocess.Popen([sys.executable, "-m", "pipeline.entry", *map(str, argv)],
+    return subprocess.Popen([sys.executable, "-m", "thermoledger.cli.entry", *map(str, argv)],
                             stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, env=env,
                             text=True)
 
@@ -283,13 +283,13 @@ def test_species_ids_that_sanitise_alike_get_their_own_files(tmp_path, capsys):
     (["build", "--wait", "-5"], "--wait"),
     (["build", "--range-of-use", "1e-300", "3000"], "--range-of-use"),
     (["build", "--range-of-use", "3000", "nan"], "--range-of-use"),
-    (["build", "--breakpoint", "inf"], "--breakpoint"),
+    (["build", "--conventional-break", "inf"], "--conventional-break"),
     (["props", "curated", "N2", "nan"], "T"),
     (["props", "curated", "N2", "-5"], "T"),
     (["diff", "a", "b", "--cp-threshold", "inf"], "--cp-threshold"),
 ])
 def test_command_line_numbers_are_checked(capsys, argv, option):
-    from pipeline import cli
+    from thermoledger.cli import main as cli
 
     with pytest.raises(SystemExit) as stop:
         cli.main(argv)

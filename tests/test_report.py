@@ -8,9 +8,9 @@ from html.parser import HTMLParser
 import numpy as np
 import pyarrow.parquet as pq
 import pytest
-
-from pipeline import provenance, tables
-from pipeline.constants import GAS_CONSTANT as R
+from thermoledger.core.constants import GAS_CONSTANT as R
+from thermoledger.release import tables
+from thermoledger.release import provenance
 
 from .conftest import run_cli as run
 
@@ -24,7 +24,7 @@ def release(demo_release):
 
 def by_hand(sp, t):
     """Cp, H, S written out from the published equations (NASA TM-4513 Eqs. 1-3; NASA/TP-2002-
-    211556 Eqs. 2-4), independently of pipeline.forms."""
+    211556 Eqs. 2-4), independently of thermoledger.physics.forms."""
     r = next(x for x in sp["ranges"] if x["t_min"] <= t <= x["t_max"])
     a = r["coefficients"]
     if sp["form"] == "nasa7":
@@ -182,7 +182,7 @@ def test_report_renders_in_a_real_headless_browser(release, tmp_path):
 def test_progress_bar_on_a_terminal_shows_stage_and_eta():
     import io
 
-    from pipeline.progress import Progress
+    from thermoledger.cli.progress import Progress
 
     class Terminal(io.StringIO):
         def isatty(self):

@@ -10,9 +10,8 @@ below the reference by well under 1 % up to 1500 K (common practice). Wavenumber
 
 import numpy as np
 import pytest
-
-from pipeline import statmech
-from pipeline.constants import GAS_CONSTANT as R
+from thermoledger.core.constants import GAS_CONSTANT as R
+from thermoledger.physics import statmech
 
 CP = pytest.importorskip("CoolProp.CoolProp")
 

@@ -13,9 +13,8 @@ import numpy as np
 import pytest
 from hypothesis import given
 from hypothesis import strategies as st
-
-from pipeline import chemistry, constants, units
-from pipeline.errors import UnitError
+from thermoledger.core import chemistry, constants, units
+from thermoledger.core.errors import UnitError
 
 
 def test_thermochemical_calorie_is_exact():

@@ -2,12 +2,11 @@
 
 import numpy as np
 import pandas as pd
+from thermoledger.checks import registry as validate
+from thermoledger.core.records import SourceMeta, Table, TableMeta
+from thermoledger.core.settings import Settings
 
-from pipeline import validate
-from pipeline.records import SourceMeta, Table, TableMeta
-from pipeline.settings import Settings
-
-SRC = SourceMeta(source="s", folder="s", title="t", citation="c", method="other", license="l",
+SRC = SourceMeta(id="s", folder="s", title="t", citation="c", method="other", license="l",
                  priority=1, standard_pressure=1e5, sha256="0" * 64)
 
 

@@ -1,0 +1,107 @@
+"""Consistency of the H−H298 and S columns with the Cp column and the metadata.
+
+    H(T) − H(298.15) = ∫_{298.15}^{T} Cp dT,    S(T) − S(298.15) = ∫_{298.15}^{T} Cp/T dT
+
+The integrals of the table's Cp are taken with a cubic spline through the points
+(scipy.interpolate.CubicSpline); the difference from a monotone cubic (PCHIP)
+integral is kept as an estimate of the quadrature error and widens the tolerance. The
+tolerance of a row is three standard uncertainties of the integral (from the
+stated u(Cp), or an inferred relative u when none is stated), plus the
+quadrature error and the rounding of the tabulated column.
+"""
+
+import numpy as np
+from scipy.interpolate import CubicSpline, PchipInterpolator
+
+from ..core.constants import REFERENCE_TEMPERATURE
+from ..core.findings import finding
+
+H_ROUNDING = 2.0     # [J/mol], allowance for tabulated rounding (common practice)
+S_ROUNDING = 0.01    # [J/(mol K)]
+S298_TOLERANCE = 0.05  # [J/(mol K)], S column vs entropy_298 (common practice)
+
+
+def _integrals(t, cp):
+    """Cumulative ∫Cp dT and ∫Cp/T dT from t[0], spline and trapezoid [J/mol], [J/(mol K)]."""
+    spl = CubicSpline(t, cp)
+    spl_t = CubicSpline(t, cp / t)
+    ih = np.array([spl.integrate(t[0], x) for x in t])
+    is_ = np.array([spl_t.integrate(t[0], x) for x in t])
+    # a second, independent interpolant: the spread of the two estimates the quadrature error
+    ph, ps = PchipInterpolator(t, cp), PchipInterpolator(t, cp / t)
+    th = np.array([ph.integrate(t[0], x) for x in t])
+    ts = np.array([ps.integrate(t[0], x) for x in t])
+    return ih, is_, np.abs(ih - th), np.abs(is_ - ts), spl, spl_t
+
+
+def check_columns(table, ctx):
+    data = table.data
+    has_h = data["dH"].notna().sum() >= 2
+    has_s = data["S"].notna().sum() >= 2
+    if not (has_h or has_s):
+        return []
+    d = data[np.isfinite(data["T"]) & np.isfinite(data["Cp"]) & (data["T"] > 0)]
+    d = d.sort_values("T", kind="stable")
+    t, cp, lines = d["T"].to_numpy(), d["Cp"].to_numpy(), d["line"].to_numpy()
+    if len(t) < 4 or np.any(np.diff(t) <= 0):
+        return []
+    u = d["u_Cp"].to_numpy()
+    u_rel = float(np.median(u / cp)) if np.all(np.isfinite(u)) else \
+        ctx.checks.inferred_cp_uncertainty
+    ih, is_, eh, es, spl, spl_t = _integrals(t, cp)
+    tref = REFERENCE_TEMPERATURE
+    covers = t[0] <= tref <= t[-1]
+    # integrals from 298.15 K when covered, else from the first row
+    if covers:
+        ih = ih - float(spl.integrate(t[0], tref))
+        is_ = is_ - float(spl_t.integrate(t[0], tref))
+    where = dict(source=table.meta.source.id, file=table.meta.file)
+    out = []
+    if has_h:
+        h = d["dH"].to_numpy()
+        m = np.isfinite(h)
+        ref = h[m][0] - ih[m][0]
+        if covers:
+            j = int(np.argmin(np.abs(t[m] - tref)))
+            h0 = float(h[m][j] - ih[m][j])  # the column's own value at 298.15 K
+            ref = h0
+            if abs(h0) > H_ROUNDING + 1e-4 * abs(h[m]).max():
+                out.append(finding("CONS-H298", f"H-H298 at 298.15 K is {h0:.6g} J/mol",
+                                   column="H-H298", seen=f"{h0:.6g}", expected="0", **where))
+        dev = h - (ih + ref)
+        tol = 3 * u_rel * np.abs(ih) + 2 * eh + 1e-4 * np.abs(h) + H_ROUNDING
+        bad = m & (np.abs(dev) > tol)
+        if bad.any():
+            i = int(np.argmax(bad))
+            out.append(finding("CONS-H", f"H-H298 = {h[i]:.6g} J/mol at T = {t[i]:.6g} K, but the "
+                               f"Cp column integrates to {ih[i] + ref:.6g} J/mol ({int(bad.sum())} "
+                               "row(s) part from here on)", column="H-H298", line=int(lines[i]),
+                               lines=tuple(int(x) for x in lines[bad]), seen=f"{h[i]:.6g}",
+                               expected=f"{ih[i] + ref:.6g} ± {tol[i]:.3g}", **where))
+    if has_s:
+        s = d["S"].to_numpy()
+        m = np.isfinite(s)
+        s298 = table.meta.entropy_298
+        base = s[m][0] - is_[m][0]
+        if covers:
+            # the column's own S(298.15) = S_j - ∫_{298.15}^{T_j} Cp/T dT at the nearest row
+            j = int(np.argmin(np.abs(t[m] - tref)))
+            s0 = float(s[m][j] - is_[m][j])
+            base = s0
+            if s298 is not None and abs(s0 - s298) > S298_TOLERANCE:
+                out.append(finding("CONS-S298", f"the S column gives S(298.15 K) = {s0:.6g} "
+                                   f"J/(mol*K) but entropy_298 is {s298:.6g}", column="S",
+                                   line=int(lines[m][j]), seen=f"{s0:.6g}",
+                                   expected=f"{s298:.6g} ± {S298_TOLERANCE}", **where))
+        dev = s - (is_ + base)
+        tol = 3 * u_rel * np.abs(is_) + 2 * es + 1e-4 * np.abs(s) + S_ROUNDING
+        bad = m & (np.abs(dev) > tol)
+        if bad.any():
+            i = int(np.argmax(bad))
+            out.append(finding("CONS-S", f"S = {s[i]:.6g} J/(mol*K) at T = {t[i]:.6g} K, but "
+                               f"the column's S(298.15) + the integral of Cp/T gives {is_[i] + base:.6g} "
+                               f"({int(bad.sum())} row(s) part from here on)", column="S",
+                               line=int(lines[i]), lines=tuple(int(x) for x in lines[bad]),
+                               seen=f"{s[i]:.6g}", expected=f"{is_[i] + base:.6g} ± {tol[i]:.3g}",
+                               **where))
+    return out

@@ -1,0 +1,197 @@
+"""Reconciliation of sources: agreement, unit factors between sources, and the rows to fit.
+
+For a species (id and phase) present in several accepted tables:
+
+1. Every lower-priority table is compared with the preferred one where their
+   temperature ranges overlap: both are interpolated (monotone cubic, PCHIP, in
+   ln T and ln Cp) onto the union of their temperatures in the overlap. A median
+   ratio near a recognisable unit factor is an error (SRC-FACTOR) against the
+   lower-priority table; a largest relative deviation above the tolerance is a
+   warning (SRC-DISAGREE) naming both sources and where.
+2. Rule for the rows that enter the fit: the preferred source (highest
+   ``priority``; on a tie the source id first in alphabetical order, with a
+   SEL-TIE warning) supplies every row it has; each next source in priority order
+   supplies only rows outside the temperature interval already covered. The
+   choice is recorded per source (rows used, interval) in the species'
+   provenance.
+
+Rows flagged by the smoothness checks are left out before merging.
+"""
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+from scipy.interpolate import PchipInterpolator
+
+from ..core.findings import by_subject, finding, stage_failed
+from ..core.records import valid_rows
+from .physical import factor_candidates
+from .smoothness import EXCLUDING
+
+
+@dataclass(frozen=True)
+class SourceUse:
+    meta: object          # TableMeta
+    rows: int             # rows entering the fit
+    t_min: float | None   # [K] of the rows used
+    t_max: float | None
+
+
+@dataclass(frozen=True)
+class Selection:
+    species_id: str
+    primary: object       # the preferred Table: metadata and anchors come from it
+    data: pd.DataFrame    # rows to fit: the documented columns plus 'file'
+    uses: tuple           # SourceUse per table considered, preferred first
+    excluded: tuple       # (file, line, code) of rows left out
+    findings: tuple       # findings that travel with the species
+
+
+def _curve(table):
+    d = valid_rows(table.data).drop_duplicates("T")
+    return d["T"].to_numpy(), d["Cp"].to_numpy()
+
+
+def compare(a, b):
+    """Compare two tables where they overlap.
+
+    Returns None without an overlap of at least two points each, else
+    (largest |Cp_b/Cp_a − 1| [-], T where it is [K], median Cp_b/Cp_a [-], t_lo, t_hi).
+    """
+    ta, ca = _curve(a)
+    tb, cb = _curve(b)
+    if len(ta) < 2 or len(tb) < 2:
+        return None
+    lo, hi = max(ta[0], tb[0]), min(ta[-1], tb[-1])
+    grid = np.union1d(ta[(ta >= lo) & (ta <= hi)], tb[(tb >= lo) & (tb <= hi)])
+    if hi <= lo or ((ta >= lo) & (ta <= hi)).sum() < 2 or ((tb >= lo) & (tb <= hi)).sum() < 2:
+        return None
+    ia = np.exp(PchipInterpolator(np.log(ta), np.log(ca))(np.log(grid)))
+    ib = np.exp(PchipInterpolator(np.log(tb), np.log(cb))(np.log(grid)))
+    rel = ib / ia - 1.0
+    k = int(np.argmax(np.abs(rel)))
+    return float(abs(rel[k])), float(grid[k]), float(np.median(ib / ia)), float(lo), float(hi)
+
+
+def _factor_of(ratio, molar_mass, tol):
+    for name, f, fix in factor_candidates(molar_mass):
+        # ratio = seen_b / seen_a; b is wrong by 1/f when b's true value = seen_b * f
+        if abs(math.log(ratio * f)) < tol:
+            return name, f, fix
+    return None
+
+
+def excluded_lines(table, findings):
+    """{(line, code)} of the rows the smoothness checks left out of the fit; ``findings`` are
+    those about the table (or all, which are filtered here)."""
+    out = set()
+    for f in findings:
+        if f.code in EXCLUDING and f.file == table.meta.file:
+            out.update((ln, f.code) for ln in (f.lines or (f.line,)) if ln is not None)
+    return out
+
+
+def reconcile(accepted, findings, ctx):
+    """Choose the rows to fit for every species.
+
+    Parameters
+    ----------
+    accepted : sequence of Table without error findings
+    findings : all findings so far (for exclusions)
+
+    Returns (selections, new findings, tables quarantined here as (TableMeta, findings)).
+    """
+    groups = {}
+    for table in accepted:
+        groups.setdefault(table.meta.species_id, []).append(table)
+    selections, new, quarantined = [], [], []
+    about = by_subject(findings)
+    for sid in sorted(groups):
+        try:
+            sel, notes, dropped = _select(sid, groups[sid], about, ctx)
+        except Exception as exc:  # noqa: BLE001 - one bad species never stops the rest
+            for table in groups[sid]:
+                f = stage_failed("reconcile", exc, source=table.meta.source.id,
+                                 file=table.meta.file)
+                new.append(f)
+                quarantined.append((table.meta, (f,)))
+            continue
+        new += notes
+        quarantined += dropped
+        selections.append(sel)
+    return selections, new, quarantined
+
+
+def _select(sid, tables, about, ctx):
+    """(Selection, findings, quarantined) of one species: compare its sources, drop those
+    off by a unit factor, merge the rest by priority; ``about`` maps files to findings."""
+    tol = ctx.checks.source_tolerance
+    new, quarantined = [], []
+    ranked = sorted(tables, key=lambda t: (-t.meta.source.priority, t.meta.source.id,
+                                           t.meta.file))
+    primary = ranked[0]
+    notes, keep = [], [primary]
+    for other in ranked[1:]:
+        where = dict(source=other.meta.source.id, file=other.meta.file, column="Cp")
+        if other.meta.source.priority == primary.meta.source.priority:
+            notes.append(finding("SEL-TIE", f"{sid}: {primary.meta.source.id} and "
+                                 f"{other.meta.source.id} have equal priority; "
+                                 f"{primary.meta.source.id} is preferred", **where))
+        got = compare(primary, other)
+        if got is None:
+            keep.append(other)
+            continue
+        dev, t_at, ratio, lo, hi = got
+        factor = _factor_of(ratio, other.meta.molar_mass, ctx.checks.factor_tolerance) \
+            if abs(math.log(ratio)) > 0.2 else None
+        if factor:
+            name, f, fix = factor
+            err = finding("SRC-FACTOR", f"{sid}: this table is {ratio:.6g} times "
+                          f"{primary.meta.file} over {lo:.6g}-{hi:.6g} K, a factor "
+                          f"{f:.6g} ({name})", seen=f"ratio {ratio:.6g}",
+                          expected="ratio 1", fix=fix, **where)
+            new.append(err)
+            quarantined.append((other.meta, (err,)))
+            continue
+        if dev > tol:
+            notes.append(finding("SRC-DISAGREE", f"{sid}: {other.meta.source.id} differs "
+                                 f"from {primary.meta.source.id} by up to "
+                                 f"{100 * dev:.3g} % (at {t_at:.6g} K) over {lo:.6g}-"
+                                 f"{hi:.6g} K", seen=f"{100 * dev:.3g} %",
+                                 expected=f"<= {100 * tol:g} %", **where))
+        keep.append(other)
+    rows, uses, excluded = [], [], []
+    covered = None
+    for table in keep:
+        ex = excluded_lines(table, about.get(table.meta.file, ()))
+        excluded += [(table.meta.file, ln, code) for ln, code in sorted(ex)]
+        d = table.data[~table.data["line"].isin([ln for ln, _ in ex])]
+        d = d[np.isfinite(d["T"]) & np.isfinite(d["Cp"])]
+        if covered is not None:
+            d = d[(d["T"] < covered[0]) | (d["T"] > covered[1])]
+        if len(d):
+            d = d.assign(file=table.meta.file)
+            rows.append(d)
+            lo, hi = float(d["T"].min()), float(d["T"].max())
+            covered = (lo, hi) if covered is None else (min(covered[0], lo),
+                                                         max(covered[1], hi))
+            uses.append(SourceUse(table.meta, int(len(d)), lo, hi))
+            if table is not primary:
+                notes.append(finding("SEL-MERGED", f"{sid}: {len(d)} row(s) of this table "
+                                     f"({lo:.6g}-{hi:.6g} K) fill the range outside "
+                                     f"{primary.meta.file}", source=table.meta.source.id,
+                                     file=table.meta.file))
+        else:
+            uses.append(SourceUse(table.meta, 0, None, None))
+            if table is not primary:
+                notes.append(finding("SEL-SUPERSEDED", f"{sid}: {primary.meta.file} (priority "
+                                     f"{primary.meta.source.priority}) covers this table's "
+                                     f"range (priority {table.meta.source.priority})",
+                                     source=table.meta.source.id, file=table.meta.file))
+    data = pd.concat(rows, ignore_index=True).sort_values(["T"], kind="stable") if rows \
+        else primary.data.assign(file=primary.meta.file).iloc[0:0]
+    sel = Selection(species_id=sid, primary=primary, data=data, uses=tuple(uses),
+                    excluded=tuple(excluded), findings=tuple(notes))
+    return sel, new + notes, quarantined

@@ -1,0 +1,31 @@
+"""Console entry point: SIGINT and SIGTERM are held back while the libraries load (an
+interrupt inside numpy's import turns into a misleading ImportError, or into a silent exit by
+the signal), then delivered to the CLI's own handler: one line, never a traceback."""
+
+import signal
+import sys
+
+_STOPS = {signal.SIGINT, signal.SIGTERM}
+
+
+def main() -> int:
+    old = signal.pthread_sigmask(signal.SIG_BLOCK, _STOPS)
+    try:
+        from . import main as cli
+    except BaseException:
+        signal.pthread_sigmask(signal.SIG_SETMASK, old)
+        raise
+    previous = {s: signal.signal(s, cli._on_signal) for s in _STOPS}
+    try:
+        signal.pthread_sigmask(signal.SIG_SETMASK, old)   # a pending signal arrives here
+    except cli.Interrupted as stop:
+        print(f"thermoledger: {stop.name} while starting; nothing was done", file=sys.stderr)
+        return 128 + stop.signum
+    finally:
+        for s, handler in previous.items():
+            signal.signal(s, handler)
+    return cli.main()
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,166 @@
+"""Command line: each command wires the stages and prints what ``render`` makes of their
+results; parsing lives in ``parse``."""
+
+import json
+import signal
+import sys
+
+from .. import build
+from ..core.errors import InputError, ThermoledgerError
+from ..core.paths import write_atomic
+from ..library import document as library
+from ..release import document as release_document
+from . import render
+from .parse import parser, settings_of
+from .progress import Progress
+
+
+def _say(lines, out=None) -> None:
+    print("\n".join(lines), file=out or sys.stdout)
+
+
+def cmd_build(args) -> int:
+    bar = Progress(quiet=args.quiet or args.json)
+    try:
+        result = build.build(args.raw, args.out, settings_of(args), wait=args.wait, progress=bar)
+    except Interrupted as stop:
+        bar.close()
+        if bar.published:
+            print(f"thermoledger build: {stop.name} after the new release was published: "
+                  f"{args.out}/ is complete", file=sys.stderr)
+            return 0
+        print(f"thermoledger build: {stop.name}: nothing was published; {args.out}/ is "
+              "unchanged", file=sys.stderr)
+        return 128 + stop.signum
+    finally:
+        bar.close()
+    n_err = render.totals(result.findings)[0]
+    held = bool(result.quarantined or result.held_back or n_err)
+    notice = release_document.NOTICE
+    if args.json:
+        print(json.dumps(render.build_json(result, args.out, notice), indent=1))
+    else:
+        _say(render.build_summary(result, args.out, notice))
+    return 1 if args.strict and held else 0
+
+
+def cmd_check(args) -> int:
+    result = build.examine(args.raw, settings_of(args))
+    n_err = render.totals(result.findings)[0]
+    doc = release_document.findings_document(result.findings)
+    if args.json:
+        print(json.dumps(doc, indent=1))
+    else:
+        _say(render.findings_by_file(result.findings, show_info=args.all))
+        _say(render.check_summary(result))
+    if args.report:
+        release_document.require_valid(doc, "findings.schema.json", str(args.report))
+        write_atomic(args.report, release_document.json_bytes(doc))
+        if not args.json:
+            print(f"wrote {args.report}")
+    return 1 if n_err else 0
+
+
+def _from_library(work, what: str):
+    """``work()``, with a malformed entry that passed the schema reported as bad input."""
+    try:
+        return work()
+    except ThermoledgerError:
+        raise
+    except (ValueError, TypeError, KeyError, IndexError, ArithmeticError) as exc:
+        raise InputError(f"{what} ({type(exc).__name__}: {exc})",
+                         expected="a library written by thermoledger") from None
+
+
+def cmd_props(args) -> int:
+    doc = library.load(args.library)
+    sp = library.find_species(doc, args.species)
+    values = _from_library(lambda: library.evaluate_entry(sp, args.temperatures),
+                           f"{args.library}: {sp['id']} cannot be evaluated")
+    if args.json:
+        print(json.dumps(render.props_json(sp, args.temperatures, values), indent=1))
+    else:
+        _say(render.props_table(sp, args.temperatures, values, args.library))
+    return 0
+
+
+def cmd_audit(args) -> int:
+    from ..release import audit
+
+    rep = build.audit(args.raw, args.curated, settings_of(args))
+    print(json.dumps(rep.to_dict(), indent=1) if args.json else audit.render(rep))
+    return rep.status
+
+
+def cmd_diff(args) -> int:
+    from ..library import diff
+
+    old, new = library.load(args.old), library.load(args.new)
+    d = _from_library(lambda: diff.diff(old, new, cp_threshold=args.cp_threshold,
+                                        h_threshold=args.h_threshold,
+                                        s_threshold=args.s_threshold),
+                      f"{args.old} or {args.new} cannot be compared")
+    print(json.dumps(d, indent=1) if args.json else diff.render(d))
+    return 0
+
+
+COMMANDS = {"build": cmd_build, "check": cmd_check, "audit": cmd_audit, "diff": cmd_diff,
+            "props": cmd_props}
+
+
+class Interrupted(BaseException):
+    """SIGINT or SIGTERM received: unwinds the stages (staging folders are removed)."""
+
+    def __init__(self, signum: int):
+        self.signum = signum
+        self.name = {signal.SIGINT: "interrupted (SIGINT)",
+                     signal.SIGTERM: "terminated (SIGTERM)"}.get(signum, f"signal {signum}")
+        super().__init__(self.name)
+
+    def __reduce__(self):
+        return type(self), (self.signum,)
+
+
+def _on_signal(signum, frame):
+    raise Interrupted(signum)
+
+
+def main(argv=None) -> int:
+    """Run one command; the exit status (0 ok, 1 findings or differences, 2 bad input, 3 an
+    internal error, 128 + signal when interrupted)."""
+    previous = {s: signal.signal(s, _on_signal) for s in (signal.SIGINT, signal.SIGTERM)}
+    try:
+        args = parser().parse_args(argv)
+        return _run(args)
+    except Interrupted as stop:
+        print(f"thermoledger: {stop.name}", file=sys.stderr)
+        return 128 + stop.signum
+    finally:
+        for s, handler in previous.items():
+            signal.signal(s, handler)
+
+
+def _run(args) -> int:
+    try:
+        return COMMANDS[args.command](args)
+    except ThermoledgerError as exc:
+        print(f"thermoledger {args.command}: error: {exc}", file=sys.stderr)
+        return 2
+    except BrokenPipeError:  # output piped into a pager or head that closed early
+        sys.stderr.close()
+        return 0
+    except OSError as exc:
+        print(f"thermoledger {args.command}: error: cannot read or write "
+              f"{exc.filename or ''}: {exc.strerror or exc}", file=sys.stderr)
+        return 2
+    except Interrupted as stop:
+        print(f"thermoledger {args.command}: {stop.name}", file=sys.stderr)
+        return 128 + stop.signum
+    except Exception as exc:  # noqa: BLE001 - the last net: one line, never a traceback
+        print(f"thermoledger {args.command}: internal error ({type(exc).__name__}: {exc}); "
+              "please report it with the command that caused it", file=sys.stderr)
+        return 3
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,167 @@
+"""Command-line parsing: the commands, their options, and the Settings they give."""
+
+import argparse
+import math
+from pathlib import Path
+
+from .. import __version__
+from ..core.errors import InputError
+from ..core.limits import TEMPERATURE_SETTING_RANGE
+from ..core.settings import FitSettings, OutputSettings, Settings
+from ..physics import forms
+
+
+def number(lo: float, hi: float, *, what: str, open_low: bool = False):
+    """An argparse type: a finite number in [lo, hi] (or (lo, hi] with ``open_low``)."""
+    def parse(text: str) -> float:
+        try:
+            value = float(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"'{text}' is not a number ({what})") from None
+        low_ok = value > lo if open_low else value >= lo
+        if not (math.isfinite(value) and low_ok and value <= hi):
+            bracket = "(" if open_low else "["
+            raise argparse.ArgumentTypeError(f"{text} is outside {bracket}{lo:g}, {hi:g}] "
+                                             f"({what})")
+        return value
+    return parse
+
+
+_T_LO, _T_HI = TEMPERATURE_SETTING_RANGE
+temperature = number(_T_LO, _T_HI, what="a temperature in K")
+
+
+def parser() -> argparse.ArgumentParser:
+    """The parser of every command."""
+    p = argparse.ArgumentParser(
+        prog="thermoledger",
+        description="Curate heat-capacity tables (raw/) into a fitted coefficient library "
+                    "(curated/).")
+    p.add_argument("--version", action="version", version=f"thermoledger {__version__}")
+    sub = p.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    b = sub.add_parser("build", help="read raw/, validate, fit, write curated/",
+                       description="Read every source under --raw, validate its tables, fit "
+                                   "nasa7 coefficients and write library.json, library.parquet "
+                                   "and findings.json into --out.")
+    b.add_argument("--raw", type=Path, default=Path("raw"), help="raw sources folder (raw)")
+    b.add_argument("--out", type=Path, default=Path("curated"), help="output folder (curated)")
+    b.add_argument("--strict", action="store_true",
+                   help="exit 1 if any table was quarantined (for maintainers' CI)")
+    b.add_argument("--wait", type=number(0, 86400, what="seconds"), default=0.0, metavar="SECONDS",
+                   help="wait this long for another build writing the same folder (0)")
+    b.add_argument("--quiet", action="store_true", help="no progress bar or log lines")
+    b.add_argument("--json", action="store_true", help="print a JSON summary for scripts")
+    b.add_argument("--no-report", action="store_true", help="skip the HTML report")
+    b.add_argument("--tables-csv", action="store_true",
+                   help="also write one CSV of evaluated properties per species (tables/)")
+    b.add_argument("--table-step", type=number(0.1, 1e5, what="a step in K"), default=100.0,
+                   metavar="K",
+                   help="temperature step of the evaluated tables after 298.15 K (100)")
+    _fit_options(b)
+
+    c = sub.add_parser("check", help="ingest and validate only; print the findings",
+                       description="Read and validate raw/ without fitting or writing; exit 1 "
+                                   "when any error is found.")
+    c.add_argument("--raw", type=Path, default=Path("raw"), help="raw sources folder (raw)")
+    c.add_argument("--all", action="store_true", help="also print info findings")
+    c.add_argument("--report", type=Path, metavar="FILE",
+                   help="also write the findings as JSON (schemas/findings.schema.json)")
+    c.add_argument("--json", action="store_true", help="print the findings report as JSON")
+    _fit_options(c)
+
+    a = sub.add_parser("audit", help="rebuild into a temporary folder and compare with curated/",
+                       description="Check the raw inputs against curated/manifest.json, rebuild "
+                                   "with the given settings into a temporary folder and compare: "
+                                   "exit 0 when byte-identical, 1 on differences (named by "
+                                   "species, size and cause), 2 on errors.")
+    a.add_argument("--raw", type=Path, default=Path("raw"), help="raw sources folder (raw)")
+    a.add_argument("--curated", type=Path, default=Path("curated"),
+                   help="the release to audit (curated)")
+    a.add_argument("--json", action="store_true", help="print the audit report as JSON")
+    _fit_options(a)
+
+    d = sub.add_parser("diff", help="what changed between two libraries, in properties",
+                       description="Compare two libraries (folders or library.json files): "
+                                   "species added, removed and changed, with differences of "
+                                   "Cp, H-H298, S and G at standard temperatures and the "
+                                   "largest over the common range.")
+    d.add_argument("old", type=Path, help="the earlier library")
+    d.add_argument("new", type=Path, help="the later library")
+    d.add_argument("--cp-threshold", type=number(0, 1e6, what="a fraction"), default=None,
+                   metavar="FRACTION",
+                   help="list a changed species only above this relative Cp difference")
+    d.add_argument("--h-threshold", type=number(0, 1e12, what="J/mol"), default=None,
+                   metavar="J/MOL",
+                   help="... or above this H-H298 difference")
+    d.add_argument("--s-threshold", type=number(0, 1e9, what="J/(mol*K)"), default=None,
+                   metavar="J/(MOL*K)",
+                   help="... or above this S difference")
+    d.add_argument("--json", action="store_true", help="print the differences as JSON")
+
+    q = sub.add_parser("props", help="evaluate Cp, H, S and G from a curated library",
+                       description="Print Cp, H, S and G = H - TS of one species at the given "
+                                   "temperatures [K].")
+    q.add_argument("library", type=Path, help="library.json or a curated folder")
+    q.add_argument("species", help="species id such as CO2(g), or a name such as CO2")
+    q.add_argument("temperatures", nargs="+", type=number(0, 1e6, what="a temperature in K",
+                                                          open_low=True), metavar="T",
+                   help="temperatures [K]")
+    q.add_argument("--json", action="store_true", help="print the values as JSON")
+    return p
+
+
+def _fit_options(p):
+    g = p.add_argument_group("fit settings (defaults: the best general settings)")
+    g.add_argument("--form", choices=sorted(forms.FORMS), default=FitSettings.form,
+                   help="published form of the coefficients (nasa7)")
+    g.add_argument("--ranges", type=int, default=FitSettings.ranges, choices=(1, 2, 3, 4),
+                   help="number of temperature ranges (2)")
+    g.add_argument("--breakpoints", default="optimise", metavar="optimise|conventional|K,K",
+                   help="optimised breakpoints (default), the conventional one, or fixed values")
+    g.add_argument("--conventional-break", type=temperature, default=FitSettings.breakpoint,
+                   metavar="K", help="the conventional breakpoint [K] (1000)")
+    g.add_argument("--continuity", type=int, choices=(1, 2), default=FitSettings.continuity,
+                   help="continuous derivatives of Cp at breakpoints: 1 = dCp/dT, 2 = also "
+                        "d2Cp/dT2 (1)")
+    g.add_argument("--minimax", action="store_true",
+                   help="minimise the largest relative Cp deviation instead of least squares")
+    g.add_argument("--range-of-use", type=temperature, nargs=2, metavar=("TMIN", "TMAX"),
+                   help="range of use [K] of every species; ideal gases are extended past "
+                        "the data with a physically shaped model, flagged as extrapolated")
+    g.add_argument("--accept-cp", type=number(0, 1, what="a fraction", open_low=True),
+                   default=FitSettings.accept_cp_max_rel,
+                   metavar="FRACTION", help="largest accepted relative Cp deviation (0.01)")
+
+
+def _outputs(args) -> OutputSettings:
+    """The output settings of ``args`` (defaults for commands without output options)."""
+    return OutputSettings(report=not getattr(args, "no_report", False),
+                          tables_csv=getattr(args, "tables_csv", False),
+                          table_step=getattr(args, "table_step", 100.0))
+
+
+def settings_of(args) -> Settings:
+    """The stage settings the parsed ``args`` ask for; InputError for contradictory ones."""
+    lo, hi = args.range_of_use if args.range_of_use else (None, None)
+    if args.range_of_use and not hi > lo:
+        raise InputError(f"--range-of-use {lo:g} {hi:g}: TMAX is not above TMIN",
+                         expected="TMIN < TMAX in K")
+    mode, fixed = args.breakpoints, ()
+    if mode not in ("optimise", "conventional"):
+        try:
+            fixed = tuple(temperature(x) for x in mode.split(","))
+        except argparse.ArgumentTypeError:
+            fixed = ()
+        if not fixed or len(fixed) > 3 or any(b <= a for a, b in zip(fixed[:-1], fixed[1:])):
+            raise InputError(f"--breakpoints '{mode[:60]}' is not understood",
+                             expected="optimise, conventional, or one to three increasing "
+                                      f"temperatures in {_T_LO:g}-{_T_HI:g} K like 800,2500")
+        mode = "fixed"
+    ranges = len(fixed) + 1 if fixed else args.ranges
+    return Settings(fit=FitSettings(form=args.form, ranges=ranges, breakpoint_mode=mode,
+                                    breakpoint=args.conventional_break, fixed_breakpoints=fixed,
+                                    continuity=args.continuity, minimax=args.minimax,
+                                    use_t_min=lo, use_t_max=hi,
+                                    accept_cp_max_rel=args.accept_cp),
+                    outputs=_outputs(args))

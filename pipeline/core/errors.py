@@ -1,0 +1,76 @@
+"""One exception root for the pipeline.
+
+Subclasses also inherit the builtin a caller would catch (ValueError for bad
+input, RuntimeError for a failed computation). They carry structured fields and
+build their message from them, so the message always names where and what.
+"""
+
+
+class ThermoledgerError(Exception):
+    """Root of every error raised on purpose by thermoledger."""
+
+
+def _rebuild(cls, what, fields, code):
+    err = cls(what, **fields)
+    if code:
+        err.code = code
+    return err
+
+
+class InputError(ThermoledgerError, ValueError):
+    """Bad input: a file, a row, a column or a field that is not what was expected."""
+
+    #: the findings code a caller should report, when the raiser knows it better
+    code = ""
+
+    def __init__(self, what: str, *, file: str = "", line: int | None = None,
+                 column: str = "", expected: str = ""):
+        self.what = what
+        self.file = file
+        self.line = line
+        self.column = column
+        self.expected = expected
+        super().__init__(str(self))
+
+    def __reduce__(self):  # picklable with its fields (errors cross process boundaries)
+        fields = dict(file=self.file, line=self.line, column=self.column,
+                      expected=self.expected)
+        return _rebuild, (type(self), self.what, fields, self.code)
+
+    def __str__(self) -> str:
+        where = ", ".join(p for p in (
+            self.file,
+            f"line {self.line}" if self.line is not None else "",
+            f"column '{self.column}'" if self.column else "",
+        ) if p)
+        text = f"{where}: {self.what}" if where else self.what
+        if self.expected:
+            text += f" (expected {self.expected})"
+        return text
+
+
+class UnitError(InputError):
+    """A unit or quantity string that cannot be read or has the wrong dimension."""
+
+
+class FitError(ThermoledgerError, RuntimeError):
+    """A fit that cannot be carried out for a species."""
+
+    def __init__(self, species: str, reason: str):
+        self.species = species
+        self.reason = reason
+        super().__init__(str(self))
+
+    def __reduce__(self):
+        return type(self), (self.species, self.reason)
+
+    def __str__(self) -> str:
+        return f"fit of {self.species} failed: {self.reason}"
+
+
+class FitRejected(FitError):
+    """A fit that was carried out but fails the acceptance thresholds."""
+
+
+class OutputError(ThermoledgerError, OSError):
+    """An output that could not be written or failed its schema check."""

@@ -1,0 +1,272 @@
+"""The registry of findings codes (our own) and the Finding record.
+
+Every problem the pipeline reports is a Finding with a code from CODES. The
+code fixes the severity and a default one-line fix, so the CLI, the docs and
+the tests all read the same registry.
+
+Severities: ``error`` quarantines the table; ``warning`` travels with the
+species into the library; ``info`` records a decision (for example which
+source was preferred).
+"""
+
+from dataclasses import asdict, dataclass, field, replace
+
+ERROR, WARNING, INFO = "error", "warning", "info"
+SEVERITY_ORDER = {ERROR: 0, WARNING: 1, INFO: 2}
+
+
+@dataclass(frozen=True)
+class Code:
+    code: str
+    severity: str
+    summary: str
+    fix: str
+
+
+_CODES = [
+    # --- sources and files
+    Code("SRC-UNREADABLE", ERROR, "source.json cannot be read as JSON",
+         "save source.json as UTF-8 JSON"),
+    Code("SRC-SCHEMA", ERROR, "source.json does not match schemas/source.schema.json",
+         "correct the named field as the schema expects"),
+    Code("SRC-QUANTITY", ERROR, "a quantity in source.json has no unit or the wrong dimension",
+         "write the value with its unit, e.g. \"-393.51 kJ/mol\""),
+    Code("SRC-FORMULA", ERROR, "the formula cannot be parsed into elements",
+         "write a Hill-style formula such as CO2 or CH4"),
+    Code("SRC-PATH", ERROR, "a table path leaves its source folder or is a link",
+         "keep each table as a plain file inside its source folder"),
+    Code("SRC-DUPLICATE-ID", ERROR, "two source folders declare the same source id",
+         "give every source a unique id"),
+    Code("TAB-MISSING", ERROR, "a table listed in source.json does not exist",
+         "add the file or remove its entry"),
+    Code("TAB-UNLISTED", WARNING, "a CSV file in a source folder is not listed in source.json",
+         "list it under tables or move it out of raw/"),
+    Code("TAB-ENCODING", ERROR, "the table is not valid UTF-8 text",
+         "save the table as UTF-8"),
+    Code("TAB-SYNTAX", ERROR, "the file cannot be split into CSV rows",
+         "save the table as plain comma-separated text"),
+    Code("SRC-NO-METADATA", WARNING, "a folder under raw/ has no source.json; skipped",
+         "add source.json or move the folder out of raw/"),
+    Code("TAB-EMPTY", ERROR, "the table has no header or no data rows",
+         "add the header row and the data rows"),
+    Code("TAB-NOT-FILE", ERROR, "a listed table is a folder, a pipe or another non-file",
+         "list a plain CSV file"),
+    Code("TAB-TOO-LARGE", ERROR, "the table exceeds the size, row or column limit; not read",
+         "split the table or thin its rows (limits in the README)"),
+    Code("SRC-TOO-LARGE", ERROR, "source.json exceeds the size or table-count limit; not read",
+         "split the source into several folders"),
+    Code("SRC-TOO-DEEP", ERROR, "source.json is nested deeper than the limit; not read",
+         "write source.json in the documented flat layout"),
+    Code("SRC-DUPLICATE-KEY", ERROR, "the same key appears twice in one JSON object",
+         "keep each key once; the meaning of a repeated key is ambiguous"),
+    Code("STAGE-FAILED", ERROR, "an unexpected failure while processing this table; the table "
+         "is held back and the build goes on", "report the message to the maintainers"),
+    # --- header and cells
+    Code("COL-NO-UNIT", ERROR, "a column name has no [unit]",
+         "write the unit in brackets, e.g. 'Cp [J/(mol*K)]'"),
+    Code("COL-UNKNOWN", WARNING, "a column name is not one of T, Cp, H-H298, S, u(Cp); ignored",
+         "rename the column or remove it"),
+    Code("COL-REPEATED", ERROR, "a column appears twice", "keep one column of each quantity"),
+    Code("COL-REQUIRED", ERROR, "a required column (T or Cp) is missing",
+         "add the column with its unit"),
+    Code("UNIT-UNKNOWN", ERROR, "a unit cannot be read", "use a unit such as K, degC, J/(mol*K)"),
+    Code("UNIT-TOO-COMPLEX", ERROR, "a unit expression is too long, has large exponents or "
+         "converts with a non-finite factor", "write a plain unit such as J/(mol*K)"),
+    Code("VALUE-RANGE", ERROR, "a value is not finite or lies outside the physical range of "
+         "its column after conversion to SI; the row is left out",
+         "check the value and the unit of its column"),
+    Code("UNIT-DIMENSION", ERROR, "a unit has the wrong dimension for its column",
+         "use a unit of the expected dimension"),
+    Code("ROW-WIDTH", ERROR, "a row has a different number of cells than the header",
+         "give every row one cell per column"),
+    Code("CELL-NOT-NUMBER", ERROR, "a cell is not a finite decimal number",
+         "write a plain finite number"),
+    Code("CELL-EMPTY", ERROR, "a required cell is empty", "fill in the value or remove the row"),
+    Code("UCP-PARTIAL", ERROR, "u(Cp) is given for some rows but not all",
+         "give u(Cp) on every row or on none"),
+    # --- structure of the clean table
+    Code("T-NOT-POSITIVE", ERROR, "a temperature is not above 0 K",
+         "check the temperature unit and value"),
+    Code("CP-NOT-POSITIVE", ERROR, "a heat capacity is not above zero",
+         "check the sign and the value"),
+    Code("UCP-NOT-POSITIVE", ERROR, "an uncertainty u(Cp) is not above zero",
+         "give a positive standard uncertainty"),
+    Code("T-DUPLICATE", ERROR, "the same temperature appears twice",
+         "remove or merge the repeated row"),
+    Code("TOO-FEW-POINTS", ERROR, "fewer points than the fit needs",
+         "add data points"),
+    Code("ANCHOR-OUT-OF-REACH", ERROR, "the data start too far above 298.15 K to anchor H and S",
+         "add data down to 298.15 K"),
+    Code("RANGE-EXTENDED", WARNING, "the fitted range was extended past the data to reach 298.15 K",
+         "add data down to 298.15 K"),
+    # --- physics and units
+    Code("CP-BELOW-EQUIPARTITION", ERROR, "Cp of an ideal gas below 5/2 R",
+         "check the unit of the Cp column and the values"),
+    Code("CP-IMPLAUSIBLE", ERROR, "Cp of an ideal gas far above any physical value for its "
+         "atoms", "check the unit of the Cp column and the values"),
+    Code("CP-ABOVE-CLASSICAL", WARNING, "Cp above the classical limit of its geometry and atoms",
+         "check the unit, the formula and the geometry"),
+    Code("CP-ABOVE-DULONG-PETIT", WARNING, "condensed-phase Cp well above 3R per atom",
+         "check the unit and the formula"),
+    Code("UNIT-FACTOR", ERROR, "the whole table is off by a recognisable unit factor",
+         "correct the unit in the header"),
+    Code("UNIT-BLOCK", ERROR, "a block of rows is off by a recognisable unit factor",
+         "correct the rows' values or unit"),
+    # --- smoothness
+    Code("SMOOTH-OUTLIER", WARNING, "a point departs from the smooth curve of its neighbours; "
+         "excluded from the fit", "check the row against the original source"),
+    Code("SMOOTH-JITTER", WARNING, "a run of rows scatters far more than the rest of the table",
+         "check the rows against the original source"),
+    Code("SMOOTH-SCATTER", WARNING, "the scatter of the table exceeds its stated u(Cp)",
+         "check the stated uncertainty"),
+    # --- columns
+    Code("CONS-H", ERROR, "H-H298 does not equal the integral of Cp",
+         "check the H-H298 column's unit and values"),
+    Code("CONS-S", ERROR, "S - S(298.15) does not equal the integral of Cp/T",
+         "check the S column's unit, values and standard pressure"),
+    Code("CONS-S298", ERROR, "the S column at 298.15 K disagrees with entropy_298",
+         "make entropy_298 and the S column agree"),
+    Code("CONS-H298", ERROR, "the H-H298 column is not zero at 298.15 K",
+         "H-H298 must vanish at 298.15 K"),
+    # --- coverage
+    Code("COV-GAP", WARNING, "a gap in temperature leaves the fit ungrounded there",
+         "add data inside the gap"),
+    Code("COV-EXTRAPOLATED", WARNING, "the requested range of use extends beyond the data",
+         "add data or narrow the range of use"),
+    Code("COV-RANGE-POINTS", INFO, "the conventional breakpoint left too few points in a range; "
+         "the breakpoint was moved", "add data on the short side"),
+    # --- sources
+    Code("SRC-DISAGREE", WARNING, "two sources of one species disagree beyond the tolerance",
+         "check which source is right; the preferred one is fitted"),
+    Code("SRC-FACTOR", ERROR, "a table differs from another source of the species by a unit factor",
+         "correct the unit in the header"),
+    Code("SEL-MERGED", INFO, "rows of a lower-priority source fill the range outside the "
+         "preferred source", "none needed"),
+    # --- acknowledgements
+    Code("ACK-UNUSED", WARNING, "an acknowledgement in source.json matches no finding",
+         "remove it or correct its code and line"),
+    Code("ACK-NOT-ALLOWED", WARNING, "only warnings can be acknowledged; the error stands",
+         "fix the error in the raw file"),
+    # --- selection and fit
+    Code("SEL-SUPERSEDED", INFO, "a table was not fitted because a higher-priority source has the species",
+         "none needed; raise the priority to prefer this source"),
+    Code("SEL-TIE", WARNING, "two sources of equal priority have the species; the first by id was used",
+         "give the sources different priorities"),
+    Code("FIT-SETTING", ERROR, "a fit setting of the table cannot be applied to its data",
+         "correct the setting under 'fit' in source.json"),
+    Code("FIT-FAILED", ERROR, "the fit could not be carried out", "see the message"),
+    Code("FIT-EXTRAPOLATED", WARNING, "Cp was extended past the data with a physically shaped "
+         "model before fitting", "treat the interval with its stated uncertainty"),
+    Code("FIT-REJECTED", ERROR, "the fit fails the acceptance thresholds; not exported",
+         "add ranges, change the form, or review the data"),
+]
+
+CODES: dict[str, Code] = {c.code: c for c in _CODES}
+
+
+@dataclass(frozen=True)
+class Finding:
+    """One reported problem or decision.
+
+    ``line`` is the line number in the file (the header is line 1); ``column``
+    is a CSV column name or a source.json field path.
+    """
+
+    code: str
+    severity: str
+    message: str
+    source: str = ""
+    file: str = ""
+    line: int | None = None
+    column: str = ""
+    seen: str = ""
+    expected: str = ""
+    fix: str = ""
+    lines: tuple = ()          # every line concerned, when more than one
+    acknowledged: str = ""     # the maintainer's reason, when acknowledged in source.json
+    extra: dict = field(default_factory=dict, compare=False)
+
+    def sort_key(self):
+        return (self.source, self.file, self.line if self.line is not None else -1,
+                SEVERITY_ORDER[self.severity], self.code, self.column, self.message)
+
+    def to_dict(self) -> dict:
+        d = asdict(self)
+        d.pop("extra")
+        d["lines"] = list(self.lines)
+        return d
+
+    @property
+    def counts(self) -> bool:
+        """True when the finding counts towards the totals (not acknowledged)."""
+        return not self.acknowledged
+
+    def located(self, **fields) -> "Finding":
+        return replace(self, **fields)
+
+
+def finding(code: str, message: str, **fields) -> Finding:
+    """Build a Finding whose severity and default fix come from the registry."""
+    entry = CODES[code]  # KeyError here is a programming error: unknown code
+    fields.setdefault("fix", entry.fix)
+    return Finding(code=code, severity=entry.severity, message=message, **fields)
+
+
+def subject(f: Finding) -> str:
+    """The file a finding is about: the table it names in ``extra`` (a source.json field of
+    that table) or else its own file."""
+    return f.extra.get("table") or f.file
+
+
+def by_subject(findings) -> dict:
+    """{file: [findings about it]}, built in one pass (see ``subject``)."""
+    out = {}
+    for f in findings:
+        out.setdefault(subject(f), []).append(f)
+    return out
+
+
+def stage_failed(stage: str, exc: BaseException, **where) -> Finding:
+    """The error finding of an unexpected exception while a stage processed one table: the
+    table is held back with the exception's type and message, and the build goes on."""
+    text = str(exc).replace("\n", " ")
+    text = text if len(text) <= 160 else text[:159] + "…"
+    return finding("STAGE-FAILED", f"unexpected {type(exc).__name__} in the {stage} stage: "
+                   f"{text}", seen=type(exc).__name__, **where)
+
+
+def format_block(f: Finding) -> str:
+    """Two or three lines for a report grouped by file: the where is the file heading."""
+    where = f"line {f.line}" if f.line is not None else "table"
+    if len(f.lines) > 1:
+        where = f"lines {_ranges(f.lines)}"
+    if f.column:
+        where += f" [{f.column}]"
+    head = f"  {f.severity.upper():7s} {f.code:22s} {where}"
+    lines = [head, f"      {f.message}"]
+    detail = []
+    if f.seen or f.expected:
+        detail.append(f"seen {f.seen or '-'}, expected {f.expected or '-'}")
+    if f.fix:
+        detail.append(f"fix: {f.fix}")
+    if detail:
+        lines.append("      " + "; ".join(detail))
+    if f.acknowledged:
+        lines.append(f"      acknowledged: {f.acknowledged} (not counted)")
+    return "\n".join(lines)
+
+
+def _ranges(lines) -> str:
+    """'3-7, 9, 12-13' from a sorted sequence of line numbers."""
+    parts, start, prev = [], None, None
+    for x in sorted(lines):
+        if start is None:
+            start = prev = x
+        elif x == prev + 1:
+            prev = x
+        else:
+            parts.append(f"{start}-{prev}" if prev != start else f"{start}")
+            start = prev = x
+    if start is not None:
+        parts.append(f"{start}-{prev}" if prev != start else f"{start}")
+    return ", ".join(parts)

@@ -1,0 +1,190 @@
+"""Frozen records passed between stages.
+
+Table data travel as a pandas DataFrame with these columns (SI units):
+
+==========  ==============  =================================================
+column      unit            meaning
+==========  ==============  =================================================
+line        -               line number in the raw CSV (the header is line 1)
+T           [K]             temperature
+Cp          [J/(mol K)]     isobaric heat capacity
+u_Cp        [J/(mol K)]     standard uncertainty of Cp (NaN when not given)
+dH          [J/mol]         H(T) - H(298.15 K) (NaN when not given)
+S           [J/(mol K)]     entropy at the standard pressure, 1 bar (NaN when not given)
+u_dH        [J/mol]         standard uncertainty of dH (NaN when not given)
+u_S         [J/(mol K)]     standard uncertainty of S (NaN when not given)
+==========  ==============  =================================================
+"""
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+DATA_COLUMNS = ("line", "T", "Cp", "u_Cp", "dH", "S", "u_dH", "u_S")
+
+
+def valid_rows(data: pd.DataFrame) -> pd.DataFrame:
+    """The rows of a table frame whose T [K] and Cp [J/(mol K)] are finite and positive,
+    sorted by T (stable, so equal temperatures keep their file order)."""
+    t, cp = data["T"].to_numpy(), data["Cp"].to_numpy()
+    ok = np.isfinite(t) & np.isfinite(cp) & (t > 0) & (cp > 0)
+    return data[ok].sort_values("T", kind="stable")
+
+
+def given(frame: pd.DataFrame, column: str, *, every: bool = False):
+    """``frame[column]`` as an array when any value is given (all, with ``every``), else None."""
+    if not len(frame):
+        return None
+    present = frame[column].notna()
+    if not (present.all() if every else present.any()):
+        return None
+    return frame[column].to_numpy(dtype=float)
+
+
+@dataclass(frozen=True)
+class SourceMeta:
+    id: str                # source id, as declared in source.json "source"
+    folder: str            # folder name under raw/
+    title: str
+    citation: str
+    method: str
+    license: str
+    priority: int
+    standard_pressure: float  # [Pa] of the source's tabulated entropies
+    sha256: str            # of source.json
+
+
+@dataclass(frozen=True)
+class TableMeta:
+    source: SourceMeta
+    file: str              # path relative to raw/, with '/' separators
+    species: str
+    formula: str
+    phase: str             # g, l or cr
+    geometry: str | None   # monatomic, linear, nonlinear (ideal gases)
+    molar_mass: float | None  # [g/mol]
+    atoms: int | None
+    enthalpy_of_formation_298: float | None  # [J/mol]
+    entropy_298: float | None  # [J/(mol K)] at 1 bar
+    sha256: str            # of the raw CSV bytes
+    size: int              # [bytes]
+    columns: tuple = ()    # raw header cells as written
+    notes: tuple = ()      # conversions and assumptions made while reading
+    acknowledgements: tuple = ()  # ({'code', 'line', 'reason'} dicts, index in source.json)
+    index: int = 0         # position of the table in source.json 'tables'
+    fit_overrides: tuple = ()  # ((setting, value), ...) from the table's "fit" entry
+
+    @property
+    def species_id(self) -> str:
+        return f"{self.species}({self.phase})"
+
+
+@dataclass(frozen=True)
+class Table:
+    meta: TableMeta
+    data: pd.DataFrame = field(compare=False)
+
+
+@dataclass(frozen=True)
+class SpeciesIdentity:
+    """Who is being fitted: the identity and anchors the fit needs besides the data."""
+
+    species_id: str                        # e.g. 'CO2(g)'
+    enthalpy_of_formation_298: float       # [J/mol], H(298.15 K) on the assigned scale
+    entropy_298: float                     # [J/(mol K)] at 1 bar
+    phase: str = "g"                       # g, l or cr
+    geometry: str | None = None            # monatomic, linear, nonlinear (ideal gases)
+    atoms: int | None = None               # atoms in one molecule
+
+    @classmethod
+    def of_table(cls, meta: "TableMeta") -> "SpeciesIdentity":
+        return cls(meta.species_id, meta.enthalpy_of_formation_298, meta.entropy_298,
+                   meta.phase, meta.geometry, meta.atoms)
+
+
+@dataclass(frozen=True)
+class CpData:
+    """The rows one fit uses, as arrays sorted by T; optional columns are None or hold NaN
+    where a row has no value."""
+
+    t: np.ndarray                  # [K]
+    cp: np.ndarray                 # [J/(mol K)]
+    u_cp: np.ndarray | None = None  # [J/(mol K)], stated standard uncertainty of Cp
+    dh: np.ndarray | None = None    # [J/mol], H(T) - H(298.15 K)
+    s: np.ndarray | None = None     # [J/(mol K)] at 1 bar
+    u_dh: np.ndarray | None = None  # [J/mol]
+    u_s: np.ndarray | None = None   # [J/(mol K)]
+
+    def __post_init__(self):
+        t = np.asarray(self.t, dtype=float)
+        order = np.argsort(t, kind="stable")
+        object.__setattr__(self, "t", t[order])
+        for name in ("cp", "u_cp", "dh", "s", "u_dh", "u_s"):
+            v = getattr(self, name)
+            if v is not None:
+                object.__setattr__(self, name, np.asarray(v, dtype=float)[order])
+
+    @classmethod
+    def of_frame(cls, frame: pd.DataFrame) -> "CpData":
+        """From a table frame with the documented columns; u(Cp) only when every row has it."""
+        return cls(t=frame["T"].to_numpy(dtype=float), cp=frame["Cp"].to_numpy(dtype=float),
+                   u_cp=given(frame, "u_Cp", every=True), dh=given(frame, "dH"),
+                   s=given(frame, "S"), u_dh=given(frame, "u_dH"), u_s=given(frame, "u_S"))
+
+
+@dataclass(frozen=True)
+class InputFile:
+    path: str    # relative to raw/
+    sha256: str
+    size: int    # [bytes]
+
+
+@dataclass(frozen=True)
+class FitRange:
+    t_min: float           # [K]
+    t_max: float           # [K]
+    coefficients: tuple    # published kelvin form, see forms.py
+
+
+@dataclass(frozen=True)
+class FitResult:
+    form: str
+    ranges: tuple          # of FitRange, ascending in T
+    breakpoints: tuple     # [K]
+    data_t_min: float      # [K]
+    data_t_max: float      # [K]
+    points: int            # data points used (extension points not counted)
+    cp_max_rel_dev: float
+    cp_rms_rel_dev: float
+    worst_t: float         # [K] where |relative Cp deviation| is largest
+    weighting: str         # "u(Cp)" or "relative"
+    h_max_dev: float | None = None   # [J/mol] against the H-H298 column, when given
+    s_max_dev: float | None = None   # [J/(mol K)] against the S column, when given
+    covariance: tuple = ()  # of the scaled Cp/R coefficients, all ranges stacked
+    powers: tuple = ()      # powers of tau = T/1000 K of the scaled basis
+    extrapolated: tuple = ()  # dicts: t_min, t_max, model, holdout_error, u_rel_end
+    settings: dict = field(default_factory=dict, compare=False)
+    notes: tuple = ()      # (code, message) of decisions the fit made
+
+
+@dataclass(frozen=True)
+class CheckResult:
+    """What ingest, validation and reconciliation found (the ``check`` command's result)."""
+
+    tables: tuple          # every Table read
+    findings: tuple        # all findings of ingest, validation and reconciliation
+    inputs: tuple          # InputFile
+    selections: tuple      # checks.reconcile.Selection per species
+    quarantined: tuple     # (TableMeta, error findings)
+    held_back: tuple = ()  # (file, error findings): sources and tables that could not be read
+
+
+@dataclass(frozen=True)
+class FittedSpecies:
+    table: Table                   # the preferred table (metadata and anchors)
+    fit: FitResult
+    findings: tuple = ()           # warnings and infos that travel with the species
+    uses: tuple = ()               # reconcile.SourceUse of every table considered
+    excluded: tuple = ()           # (file, line, code) of rows left out of the fit
+    rows: tuple = ()               # (file, line) of every data row that entered the fit

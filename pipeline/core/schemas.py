@@ -1,0 +1,33 @@
+"""The JSON Schemas shipped with the package (schemas/ in the source tree, installed as
+``thermoledger.schemas``), read with importlib.resources so that an installed wheel finds
+them as well as a checkout does."""
+
+import json
+from functools import lru_cache
+from importlib import resources
+
+#: every schema the package ships, by file name
+NAMES = ("findings.schema.json", "library.schema.json", "manifest.schema.json",
+         "source.schema.json")
+
+
+def schema_bytes(name: str) -> bytes:
+    """The bytes of schemas/``name`` as shipped (copied verbatim into each release)."""
+    if name not in NAMES:
+        raise KeyError(f"no schema named {name!r}; known: {', '.join(NAMES)}")
+    return resources.files("thermoledger.schemas").joinpath(name).read_bytes()
+
+
+@lru_cache(maxsize=len(NAMES))
+def validator(name: str):
+    """A checked Draft 2020-12 validator of schemas/``name``, built once per process."""
+    from jsonschema import Draft202012Validator
+
+    schema = json.loads(schema_bytes(name))
+    Draft202012Validator.check_schema(schema)
+    return Draft202012Validator(schema)
+
+
+def errors_of(doc, name: str) -> list:
+    """Every way ``doc`` breaks schemas/``name``, sorted by the path of the offending field."""
+    return sorted(validator(name).iter_errors(doc), key=lambda e: list(map(str, e.path)))

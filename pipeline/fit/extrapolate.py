@@ -1,0 +1,247 @@
+"""Physically shaped extension of ideal-gas Cp beyond the data, before the polynomial fit.
+
+Two models, each fitted in relative residuals:
+
+* Wilhoit's form [1]: Cp = Cp(0) + [Cp(∞) − Cp(0)] y² [1 + (y − 1) Σ_{i<n} a_i y^i],
+  y = T/(T + B), with Cp(0) and Cp(∞) fixed by geometry and atom count (bounds.py). For a
+  fixed B the a_i enter linearly; B is searched on a grid. n = 0..3 free terms.
+* an effective-oscillator form: Cp = Cp(0) + R Σ_k g_k E(θ_k/T) with k = 1..3 Einstein
+  functions (statmech.einstein) whose degeneracies add up to the vibrational mode count
+  3N − 5 or 3N − 6; θ_k and g_k by bounded nonlinear least squares (scipy).
+
+The model is chosen per species by how well it predicts held-out data: each candidate is
+fitted to the data without the outer quarter (on the side of the extension) and judged by
+its largest relative error there. The best of each family (Wilhoit, oscillators) is kept;
+when their hold-out errors are within a factor FAMILY_TIE the test cannot tell them apart,
+and the extension is their mean. Guards reject a candidate whose extension is not finite,
+not monotone rising (high side), below 5/2 R, or above Cp(∞) by more than the classical
+margin (runaway). The chosen model is refitted to all data; its relative uncertainty is the
+hold-out error, growing in proportion to ln T beyond the data (common practice: an
+extrapolation is only as good as its hold-out test, and worse the farther it goes), plus
+half the difference from the best model of the other family (how much the choice matters).
+
+Condensed phases are never extrapolated.
+
+References
+----------
+[1] R. C. Wilhoit, Thermodynamics Research Center Current Data News 3 (2), 1975 (from
+    memory); the limits Cp(0), Cp(∞) as in bounds.py.
+"""
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.optimize import least_squares
+
+from ..core.constants import GAS_CONSTANT as R
+from ..physics import bounds
+from ..physics.statmech import einstein
+
+B_GRID = np.geomspace(30.0, 20000.0, 80)  # [K]
+#: hold-out errors within this factor of each other do not tell two model families apart
+FAMILY_TIE = 2.0
+
+
+@dataclass(frozen=True)
+class Extension:
+    side: str              # "high" or "low"
+    t_from: float          # [K], last data temperature
+    t_to: float            # [K], end of the range of use
+    model: str             # e.g. "wilhoit-2", "oscillators-3"
+    holdout_error: float   # [-], largest relative error on the held-out data
+    u_rel_end: float       # [-], relative standard uncertainty at t_to
+    t: tuple               # [K], generated temperatures
+    cp: tuple              # [J/(mol K)], generated Cp
+    u_rel: tuple           # [-], relative uncertainty at each generated temperature
+
+
+def _wilhoit_terms(t, b, n, c0, cinf):
+    y = t / (t + b)
+    base = c0 + (cinf - c0) * y * y
+    cols = [(cinf - c0) * y * y * (y - 1.0) * y ** i for i in range(n)]
+    return base, (np.stack(cols, axis=1) if cols else np.zeros((len(t), 0)))
+
+
+def fit_wilhoit(t, cp, n, c0, cinf):
+    """Best (B, a) of Wilhoit's form with n free terms (relative least squares)."""
+    best = None
+    for b in B_GRID:
+        base, cols = _wilhoit_terms(t, b, n, c0, cinf)
+        if n:
+            a, *_ = np.linalg.lstsq(cols / cp[:, None], (cp - base) / cp, rcond=None)
+        else:
+            a = np.zeros(0)
+        pred = base + (cols @ a if n else 0.0)
+        err = float(np.sum(((pred - cp) / cp) ** 2))
+        if best is None or err < best[0]:
+            best = (err, b, a)
+    _, b, a = best
+
+    def model(x):
+        base, cols = _wilhoit_terms(np.asarray(x, float), b, n, c0, cinf)
+        return base + (cols @ a if n else 0.0)
+
+    return model
+
+
+def _degeneracies(p, k, modes):
+    """k degeneracies from k − 1 free ones: the last makes them add up to ``modes``."""
+    return np.append(p[k:2 * k - 1], modes - np.sum(p[k:2 * k - 1])) if k > 1 else np.array([modes])
+
+
+def _fit_oscillator_model(t, cp, k, modes, shape, extra0=(), extra_lo=(), extra_hi=()):
+    """Bounded least squares of Cp(0) + R Σ g_j shape(θ_j, x, extra) over k oscillators.
+
+    ``shape(theta, x, extra)`` returns the (n, k) contributions per unit degeneracy (and any
+    further terms through ``extra``); θ_j in [20, 2·10⁴] K, g_j ≥ 0 with Σ g_j = modes.
+    Returns the fitted parameter vector and the model function of (p, x).
+    """
+    def model(p, x):
+        x = np.asarray(x, float)
+        g = _degeneracies(p, k, modes)
+        per_unit, added = shape(p[:k], x, p[2 * k - 1:])
+        return (np.sum(g[None, :] * per_unit, axis=1) if modes else 0.0) + added
+
+    p0 = np.concatenate([np.geomspace(500.0, 4000.0, k), np.full(k - 1, modes / k), extra0])
+    lo = np.concatenate([np.full(k, 20.0), np.zeros(k - 1), extra_lo])
+    hi = np.concatenate([np.full(k, 2.0e4), np.full(k - 1, float(max(modes, 1))), extra_hi])
+
+    def resid(p):
+        r = (model(p, t) - cp) / cp
+        if k > 1:  # keep the last degeneracy non-negative
+            r = np.append(r, 10.0 * min(0.0, modes - np.sum(p[k:2 * k - 1])))
+        return r
+
+    sol = least_squares(resid, p0, bounds=(lo, hi), method="trf", x_scale="jac", max_nfev=300)
+    return lambda x: model(sol.x, np.atleast_1d(np.asarray(x, float)))
+
+
+def fit_oscillators(t, cp, k, c0, modes):
+    """k Einstein functions with degeneracies summing to ``modes`` (relative least squares)."""
+    if modes <= 0:
+        return lambda x: np.full(np.shape(np.atleast_1d(x)), c0)
+
+    def shape(th, x, extra):
+        return R * einstein(th[None, :] / x[:, None]), c0
+
+    return _fit_oscillator_model(t, cp, k, modes, shape)
+
+
+def fit_oscillators_electronic(t, cp, k, c0, modes):
+    """k Einstein functions (degeneracies summing to ``modes``) plus one two-level term
+    R r x² eˣ/(1 + r eˣ)², x = θe/T, for a low-lying electronic state of degeneracy ratio r."""
+    modes = max(modes, 0)
+
+    def shape(th, x, extra):
+        ratio, theta_e = extra
+        xe = theta_e / x
+        el = ratio * xe * xe * np.exp(-xe) / (1.0 + ratio * np.exp(-xe)) ** 2
+        return R * einstein(th[None, :] / x[:, None]), c0 + R * el
+
+    return _fit_oscillator_model(t, cp, k, modes, shape, [1.0, 8000.0], [0.0, 100.0],
+                                 [10.0, 1.0e5])
+
+
+def fit_oscillators_anharmonic(t, cp, k, c0, modes):
+    """k Einstein functions with a first-order anharmonic rise, g E(θ/T) (1 + β T/θ), β ≥ 0
+    shared (a Morse-like oscillator's heat capacity grows about linearly in T/θ at high T)."""
+    if modes <= 0:
+        return lambda x: np.full(np.shape(np.atleast_1d(x)), c0)
+
+    def shape(th, x, extra):
+        beta = extra[0]
+        ratio = x[:, None] / th[None, :]
+        return R * einstein(th[None, :] / x[:, None]) * (1.0 + beta * ratio), c0
+
+    return _fit_oscillator_model(t, cp, k, modes, shape, [0.01], [0.0], [0.2])
+
+
+def candidates(geometry, atoms):
+    c0 = bounds.cp_zero(geometry)
+    cinf = bounds.cp_infinity(geometry, atoms)
+    modes = bounds.vibrational_modes(geometry, atoms)
+    out = []
+    for n in range(4):
+        out.append((f"wilhoit-{n}", lambda t, cp, n=n: fit_wilhoit(t, cp, n, c0, cinf)))
+    for k in range(1, min(3, max(modes, 1)) + 1):
+        out.append((f"oscillators-{k}", lambda t, cp, k=k: fit_oscillators(t, cp, k, c0, modes)))
+    for k in range(1, min(2, max(modes, 1)) + 1):
+        out.append((f"oscillators-{k}+anharmonic",
+                    lambda t, cp, k=k: fit_oscillators_anharmonic(t, cp, k, c0, modes)))
+        out.append((f"oscillators-{k}+electronic",
+                    lambda t, cp, k=k: fit_oscillators_electronic(t, cp, k, c0, modes)))
+    return out
+
+
+def _guards(pred, side, geometry, atoms, margin, cp_edge):
+    if not np.all(np.isfinite(pred)):
+        return False
+    if np.any(pred < bounds.TRANSLATION_CP * 0.999):
+        return False
+    if np.any(pred > bounds.cp_infinity(geometry, atoms) * (1 + margin)):
+        return False
+    if side == "high" and np.any(np.diff(pred) < -1e-4 * pred[:-1]):
+        return False
+    return abs(pred[0] / cp_edge - 1) < 0.05  # must join the data
+
+
+def extend(t, cp, geometry, atoms, t_to, *, side="high", holdout=0.25, margin=0.10,
+           points=25):
+    """Extension of (t, cp) to ``t_to`` [K], or None when no candidate passes the guards."""
+    t = np.asarray(t, dtype=float)
+    cp = np.asarray(cp, dtype=float)
+    if geometry is None or atoms is None:
+        return None
+    order = np.argsort(t)
+    t, cp = t[order], cp[order]
+    n = len(t)
+    k = max(4, int(round(holdout * n)))
+    if n - k < 6:
+        return None
+    if side == "high":
+        fit_t, fit_cp, ho_t, ho_cp = t[:-k], cp[:-k], t[-k:], cp[-k:]
+        edge, far = t[-1], t[-k]
+        grid = np.geomspace(t[-1], t_to, points + 1)[1:]
+    else:
+        fit_t, fit_cp, ho_t, ho_cp = t[k:], cp[k:], t[:k], cp[:k]
+        edge, far = t[0], t[k - 1]
+        grid = np.geomspace(t_to, t[0], points + 1)[:-1]
+    best = {}
+    for name, maker in candidates(geometry, atoms):
+        try:
+            trial = maker(fit_t, fit_cp)
+            err = float(np.max(np.abs(trial(ho_t) / ho_cp - 1)))
+            full = maker(t, cp)
+            span = np.concatenate([[edge], grid]) if side == "high" else np.concatenate([grid, [edge]])
+            pred = full(span)
+        except (ValueError, np.linalg.LinAlgError, FloatingPointError):
+            continue
+        ordered = pred if side == "high" else pred[::-1]
+        if not _guards(ordered, side, geometry, atoms, margin,
+                       cp[-1] if side == "high" else cp[0]):
+            continue
+        family = name.split("-")[0]
+        if family not in best or err < best[family][0] - 1e-12:
+            best[family] = (err, name, full)
+    if not best:
+        return None
+    ranked = sorted(best.values(), key=lambda b: b[0])
+    err, name, full = ranked[0]
+    cp_grid = full(grid)
+    spread = np.zeros(len(grid))
+    if len(ranked) > 1:
+        # the other family's prediction measures how much the choice of model matters
+        other = ranked[1][2](grid)
+        spread = np.abs(cp_grid - other) / 2.0 / cp_grid
+        if ranked[1][0] <= FAMILY_TIE * max(err, 1e-4):
+            # the hold-out test cannot tell the two families apart: average them
+            cp_grid = (cp_grid + other) / 2.0
+            name = f"{name}|{ranked[1][1]}"
+            err = max(err, ranked[1][0])
+    base = max(err, 1e-3)
+    reach = abs(np.log(edge / far)) or 1.0
+    u = base * (1.0 + np.abs(np.log(grid / edge)) / reach) + spread
+    return Extension(side=side, t_from=float(edge), t_to=float(t_to), model=name,
+                     holdout_error=float(err), u_rel_end=float(u[-1] if side == "high" else u[0]),
+                     t=tuple(float(x) for x in grid), cp=tuple(float(x) for x in cp_grid),
+                     u_rel=tuple(float(x) for x in u))

@@ -1,0 +1,267 @@
+"""Ingest stage: discover raw sources, read source.json and the CSV tables.
+
+``ingest(raw_dir)`` -> IngestResult: every table that could be read (in SI
+units, with provenance), every input file with its hash, and a finding for
+each problem. Nothing under raw/ is ever written; paths are confined to it.
+"""
+
+import hashlib
+import math
+from dataclasses import dataclass
+from pathlib import Path
+
+from ..core import chemistry, constants, jsonread, schemas, units
+from ..core.errors import InputError
+from ..core.findings import Finding, finding, stage_failed
+from ..core.limits import ANCHOR_RANGE, MAX_SOURCE_BYTES, MAX_TABLE_BYTES, MAX_TABLES_PER_SOURCE
+from ..core.names import sha256
+from ..core.records import InputFile, SourceMeta, Table, TableMeta
+from . import csvtable
+
+
+@dataclass(frozen=True)
+class IngestResult:
+    tables: tuple          # of Table (possibly with error findings against them)
+    findings: tuple        # of Finding
+    inputs: tuple          # of InputFile, sorted by path
+
+
+def discover(raw_dir: Path) -> tuple[list[Path], list[Finding]]:
+    """Source folders under ``raw_dir`` (sorted), skipping links and folders without source.json."""
+    raw_dir = Path(raw_dir)
+    folders, problems = [], []
+    for entry in sorted(raw_dir.iterdir(), key=lambda p: p.name):
+        if entry.name.startswith((".", "_")) or not (entry.is_dir() or entry.is_symlink()):
+            continue
+        rel = entry.name
+        if entry.is_symlink():
+            problems.append(finding("SRC-PATH", "source folder is a symbolic link; not followed",
+                                    file=rel))
+            continue
+        if not (entry / "source.json").is_file():
+            problems.append(finding("SRC-NO-METADATA", "no source.json in this folder", file=rel))
+            continue
+        folders.append(entry)
+    return folders, problems
+
+
+def parse_source(text: str, *, file: str, folder: str, digest: str):
+    """Parse source.json text -> (SourceMeta or None, table entries, findings)."""
+    try:
+        doc = jsonread.loads(text, file=file)
+    except InputError as exc:
+        return None, [], [finding(exc.code, exc.what, file=file, line=exc.line,
+                                  expected=exc.expected)]
+    if isinstance(doc, dict) and isinstance(doc.get("tables"), list) and \
+            len(doc["tables"]) > MAX_TABLES_PER_SOURCE:
+        return None, [], [finding("SRC-TOO-LARGE", f"{len(doc['tables'])} tables listed",
+                                  file=file, column="tables",
+                                  expected=f"at most {MAX_TABLES_PER_SOURCE} per source")]
+    errors = schemas.errors_of(doc, "source.schema.json")
+    if errors:
+        return None, [], [finding("SRC-SCHEMA", _schema_message(e), file=file,
+                                  column="/".join(map(str, e.absolute_path)) or "(top level)",
+                                  seen=_clip(repr(e.instance)), expected=_expected(e))
+                          for e in errors]
+    try:
+        pressure = quantity(doc["standard_pressure"], "pressure", "standard_pressure")
+    except InputError as exc:
+        return None, [], [finding("SRC-QUANTITY", exc.what, file=file, column="standard_pressure",
+                                  seen=_clip(doc["standard_pressure"]),
+                                  expected="'1 bar' or '1 atm'")]
+    meta = SourceMeta(id=doc["source"], folder=folder, title=doc["title"],
+                      citation=doc["citation"], method=doc["method"], license=doc["license"],
+                      priority=int(doc["priority"]), standard_pressure=pressure, sha256=digest)
+    return meta, doc["tables"], []
+
+
+def quantity(text: str, kind: str, field: str) -> float:
+    """A quantity of source.json in SI, checked against its physical range (ANCHOR_RANGE)."""
+    value = units.parse_quantity(text, kind)
+    lo, hi = ANCHOR_RANGE[field]
+    if not lo <= value <= hi:
+        raise InputError(f"{field} '{_clip(text)}' is {value:g} {units.KINDS[kind][2]} in SI, "
+                         "outside its physical range",
+                         expected=f"{lo:g} to {hi:g} {units.KINDS[kind][2]}")
+    return value
+
+
+def _schema_message(error) -> str:
+    path = "/".join(map(str, error.absolute_path)) or "the top level"
+    return f"field {path}: {error.message}"
+
+
+def _expected(error) -> str:
+    if error.validator == "enum":
+        return "one of " + ", ".join(map(str, error.validator_value))
+    if error.validator in ("type", "pattern", "minimum", "maximum", "minLength", "const"):
+        return f"{error.validator} {error.validator_value}"
+    if error.validator == "required":
+        return "fields " + ", ".join(error.validator_value)
+    if error.validator == "additionalProperties":
+        return "only the fields listed in schemas/source.schema.json"
+    return error.validator
+
+
+def _clip(text: str, n: int = 60) -> str:
+    return text if len(text) <= n else text[: n - 1] + "…"
+
+
+def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, index: int = 0):
+    """Read one table listed in source.json -> (Table or None, InputFile or None, findings)."""
+    rel = f"{source.folder}/{entry['file']}"
+    where = dict(source=source.id, file=rel)
+    path = folder / entry["file"]
+    problems: list[Finding] = []
+    if path.is_symlink() or not _inside(path, raw_dir):
+        return None, None, [finding("SRC-PATH", "table is a link or lies outside raw/; not read",
+                                    **where)]
+    listed_at = dict(source=source.id, file=f"{source.folder}/source.json",
+                     column=f"tables/{index}/file", seen=entry["file"], extra={"table": rel})
+    if not path.exists():
+        return None, None, [finding("TAB-MISSING", f"listed table {entry['file']} does not exist",
+                                    **listed_at)]
+    if not path.is_file():
+        kind = "a folder" if path.is_dir() else "not a regular file (a pipe or device?)"
+        return None, None, [finding("TAB-NOT-FILE", f"listed table {entry['file']} is {kind}",
+                                    expected="a plain CSV file", **listed_at)]
+    size = path.stat().st_size
+    if size > MAX_TABLE_BYTES:
+        return None, None, [finding("TAB-TOO-LARGE", f"the file is {size} bytes; the limit is "
+                                    f"{MAX_TABLE_BYTES}", seen=str(size),
+                                    expected=f"<= {MAX_TABLE_BYTES} bytes", **where)]
+    raw = path.read_bytes()
+    digest = sha256(raw)
+    infile = InputFile(path=rel, sha256=digest, size=len(raw))
+    comp = None
+    try:
+        comp = chemistry.composition(entry["formula"])
+    except InputError as exc:
+        problems.append(finding("SRC-FORMULA", exc.what, source=source.id,
+                                file=f"{source.folder}/source.json",
+                                column=f"tables/{index}/formula", extra={"table": rel},
+                                seen=entry["formula"], expected=exc.expected))
+    anchors = {}
+    for key, kind in (("enthalpy_of_formation_298", "enthalpy"), ("entropy_298", "heat_capacity")):
+        try:
+            anchors[key] = quantity(entry[key], kind, key)
+        except InputError as exc:
+            anchors[key] = None
+            problems.append(finding("SRC-QUANTITY", exc.what, source=source.id,
+                                    file=f"{source.folder}/source.json",
+                                    column=f"tables/{index}/{key}", extra={"table": rel},
+                                    seen=_clip(entry[key]), expected=exc.expected))
+    notes = []
+    s298 = anchors["entropy_298"]
+    gas_at_other_pressure = (entry["phase"] == "g"
+                             and source.standard_pressure != constants.STANDARD_PRESSURE)
+    if s298 is not None and gas_at_other_pressure:
+        shift = constants.GAS_CONSTANT * math.log(source.standard_pressure
+                                                  / constants.STANDARD_PRESSURE)
+        s298 += shift   # the pressure is > 0: checked against ANCHOR_RANGE when read
+        notes.append(f"entropy_298 moved from {source.standard_pressure:g} Pa to 1 bar: "
+                     f"{shift:+.4f} J/(mol*K)")
+    text, enc = csvtable.decode(raw, rel)
+    problems += [f.located(source=source.id) for f in enc]
+    molar_mass = comp.molar_mass if comp else None
+    if text is None:
+        parsed = None
+    else:
+        parsed = csvtable.parse_table(text, file=rel, molar_mass=molar_mass,
+                                      standard_pressure=source.standard_pressure,
+                                      phase=entry["phase"])
+        problems += [f.located(source=source.id) for f in parsed.findings]
+    meta = TableMeta(source=source, file=rel, species=entry["species"], formula=entry["formula"],
+                     phase=entry["phase"], geometry=entry.get("geometry"),
+                     molar_mass=molar_mass, atoms=comp.atoms if comp else None,
+                     enthalpy_of_formation_298=anchors["enthalpy_of_formation_298"],
+                     entropy_298=s298, sha256=digest, size=len(raw),
+                     columns=parsed.columns if parsed else (),
+                     notes=tuple(notes) + (parsed.notes if parsed else ()),
+                     acknowledgements=tuple(dict(a) for a in entry.get("acknowledge", ())),
+                     index=index,
+                     fit_overrides=tuple(sorted(
+                         (k, tuple(v) if isinstance(v, list) and k != "breakpoints" else v)
+                         for k, v in entry.get("fit", {}).items())))
+    data = parsed.data if parsed else csvtable.empty_frame()
+    return Table(meta=meta, data=data), infile, problems
+
+
+def _guarded_read(folder, entry, source, raw_dir, index):
+    """read_table, with an unexpected exception turned into that table's finding."""
+    try:
+        return read_table(folder, entry, source, raw_dir, index)
+    except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
+        rel = f"{source.folder}/{entry.get('file', '?')}"
+        return None, None, [stage_failed("ingest", exc, source=source.id, file=rel)]
+
+
+def _inside(path: Path, root: Path) -> bool:
+    try:
+        path.resolve().relative_to(Path(root).resolve())
+        return True
+    except ValueError:
+        return False
+
+
+def ingest(raw_dir) -> IngestResult:
+    """Read every source under ``raw_dir``; never raises on bad input, never writes."""
+    raw_dir = Path(raw_dir)
+    if not raw_dir.is_dir():
+        raise InputError(f"raw folder {raw_dir} does not exist", expected="a folder of sources")
+    folders, findings = discover(raw_dir)
+    tables, inputs, seen_ids = [], [], {}
+    for folder in folders:
+        meta_path = folder / "source.json"
+        rel = f"{folder.name}/source.json"
+        if meta_path.is_symlink() or not _inside(meta_path, raw_dir):
+            findings.append(finding("SRC-PATH", "source.json is a link or lies outside raw/; "
+                                    "not followed", file=rel))
+            continue
+        size = meta_path.stat().st_size
+        if size > MAX_SOURCE_BYTES:
+            findings.append(finding("SRC-TOO-LARGE", f"source.json is {size} bytes", file=rel,
+                                    seen=str(size), expected=f"<= {MAX_SOURCE_BYTES} bytes"))
+            continue
+        raw = meta_path.read_bytes()
+        inputs.append(InputFile(path=rel, sha256=sha256(raw), size=len(raw)))
+        try:
+            text = raw.decode("utf-8-sig")
+        except UnicodeDecodeError:
+            findings.append(finding("SRC-UNREADABLE", "source.json is not UTF-8", file=rel))
+            continue
+        source, entries, problems = parse_source(text, file=rel, folder=folder.name,
+                                                 digest=sha256(raw))
+        findings += problems
+        if source is None:
+            continue
+        if source.id in seen_ids:
+            findings.append(finding("SRC-DUPLICATE-ID", f"source id '{source.id}' is also "
+                                    f"declared in {seen_ids[source.id]}", file=rel,
+                                    column="source", seen=source.id))
+            continue
+        seen_ids[source.id] = rel
+        listed = set()
+        for index, entry in enumerate(entries):
+            listed.add(entry["file"])
+            table, infile, problems = _guarded_read(folder, entry, source, raw_dir, index)
+            findings += problems
+            if infile:
+                inputs.append(infile)
+            if table is not None:
+                tables.append(table)
+        for csv_path in sorted(folder.glob("*.csv")):
+            if csv_path.name not in listed:
+                findings.append(finding("TAB-UNLISTED", f"{csv_path.name} is not listed in "
+                                        "source.json; not read", source=source.id,
+                                        file=f"{folder.name}/{csv_path.name}"))
+    inputs.sort(key=lambda f: f.path)
+    return IngestResult(tables=tuple(tables), findings=tuple(findings), inputs=tuple(inputs))
+
+
+def inputs_digest(inputs) -> str:
+    """One sha256 over all input paths and hashes (order-independent, path-sorted)."""
+    h = hashlib.sha256()
+    for f in sorted(inputs, key=lambda f: f.path):
+        h.update(f"{f.path}\0{f.sha256}\n".encode())
+    return h.hexdigest()

@@ -1,0 +1,8 @@
+"""What a user of a curated library imports: ``load_library`` and the ``Library`` and
+``Species`` it returns (``api``), the plain-document readers (``document``), evaluated
+tables (``tables``) and the comparison of two libraries (``diff``). Depends only on
+``core`` and ``physics``."""
+
+from .api import Library, Species, SpeciesNotFound, load_library
+
+__all__ = ["Library", "Species", "SpeciesNotFound", "load_library"]

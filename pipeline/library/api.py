@@ -1,0 +1,249 @@
+"""The Python API for users of a curated library: load it, look a species up, evaluate it.
+
+>>> import thermoledger
+>>> lib = thermoledger.load_library("curated")          # doctest: +SKIP
+>>> n2 = lib["N2(g)"]                                    # doctest: +SKIP
+>>> n2.cp(1000.0)                                        # doctest: +SKIP
+
+A ``Species`` carries its published form with its coefficients, so a 9-coefficient set can
+never be evaluated as a 7-coefficient one. Every property takes a temperature in [K] as a
+scalar, a sequence, a numpy array or a pint quantity (converted to kelvin, offsets
+included) and returns a float for a scalar and an array of the same shape otherwise.
+Temperatures outside the species' range of use raise InputError (a ValueError).
+
+Importing this module loads numpy only: no pandas (until ``to_pandas``), matplotlib,
+pyarrow, or POSIX-only module.
+"""
+
+import difflib
+from pathlib import Path
+
+import numpy as np
+
+from ..core.constants import REFERENCE_TEMPERATURE
+from ..core.errors import InputError, ThermoledgerError
+from ..physics import forms
+from . import document
+from .tables import species_rows
+
+
+class SpeciesNotFound(ThermoledgerError, KeyError):
+    """A species name that is not in the library, or that names several phases."""
+
+    def __init__(self, name: str, candidates=(), ambiguous: bool = False):
+        self.name = name
+        self.candidates = tuple(candidates)
+        self.ambiguous = ambiguous
+        super().__init__(name)
+
+    def __reduce__(self):
+        return type(self), (self.name, self.candidates, self.ambiguous)
+
+    def __str__(self) -> str:
+        if self.ambiguous:
+            return (f"species '{self.name}' names several phases; give one of: "
+                    + ", ".join(self.candidates))
+        hint = f"; did you mean {', '.join(self.candidates)}?" if self.candidates else ""
+        return f"species '{self.name}' is not in the library{hint}"
+
+
+def _kelvin(temperature) -> tuple[np.ndarray, bool]:
+    """(temperatures [K] as a float array, True when the input was a scalar)."""
+    if type(temperature).__module__.split(".")[0] == "pint":
+        temperature = temperature.to("kelvin").magnitude
+    t = np.asarray(temperature, dtype=float)
+    return t, t.ndim == 0
+
+
+def _shaped(values: np.ndarray, shape: tuple, scalar: bool):
+    out = np.asarray(values).reshape(shape)
+    return float(out) if scalar else out
+
+
+class Species:
+    """One species of a curated library, evaluated from its stored coefficients.
+
+    Properties take T [K]; ``cp`` and ``s`` return [J/(mol K)], ``h``, ``h_minus_h298`` and
+    ``g`` return [J/mol]. H is on the assigned-enthalpy scale, H(298.15 K) = ΔfH°(298.15 K);
+    S is at the standard pressure of 1 bar; G = H − T S.
+    """
+
+    def __init__(self, entry: dict):
+        self.entry = entry
+        self.id: str = entry["id"]
+        self.formula: str = entry["formula"]
+        self.phase: str = entry["phase"]
+        self.form: str = entry["form"]
+        self.molar_mass: float = entry["molar_mass"]                          # [g/mol]
+        self.enthalpy_of_formation_298: float = entry["enthalpy_of_formation_298"]  # [J/mol]
+        self.entropy_298: float = entry["entropy_298"]                        # [J/(mol K)]
+        self.t_min: float = entry["ranges"][0]["t_min"]                      # [K]
+        self.t_max: float = entry["ranges"][-1]["t_max"]                     # [K]
+        self.data_range: tuple = (entry["data_range"]["t_min"], entry["data_range"]["t_max"])
+        self.extrapolated_intervals: tuple = tuple(
+            (e["t_min"], e["t_max"]) for e in entry["extrapolated"])
+        self._ranges = document.ranges_of(entry)
+        self._h298 = None
+
+    def __repr__(self) -> str:
+        return f"<Species {self.id} {self.form} {self.t_min:g}-{self.t_max:g} K>"
+
+    def _values(self, temperature) -> tuple[dict, tuple, bool]:
+        t, scalar = _kelvin(temperature)
+        flat = t.reshape(-1)
+        document.check_range(self.entry, flat)
+        return forms.evaluate_ranges(self._ranges, flat, self.form), t.shape, scalar
+
+    def cp(self, temperature):
+        """Isobaric heat capacity Cp [J/(mol K)] at T [K]."""
+        v, shape, scalar = self._values(temperature)
+        return _shaped(v["Cp"], shape, scalar)
+
+    def h(self, temperature):
+        """Enthalpy H [J/mol] on the assigned-enthalpy scale (H(298.15 K) = ΔfH°)."""
+        v, shape, scalar = self._values(temperature)
+        return _shaped(v["H"], shape, scalar)
+
+    def h_minus_h298(self, temperature):
+        """Enthalpy increment H(T) − H(298.15 K) [J/mol]."""
+        v, shape, scalar = self._values(temperature)
+        return _shaped(v["H"] - self.h298, shape, scalar)
+
+    def s(self, temperature):
+        """Entropy S° [J/(mol K)] at 1 bar."""
+        v, shape, scalar = self._values(temperature)
+        return _shaped(v["S"], shape, scalar)
+
+    def g(self, temperature):
+        """Gibbs energy G = H − T S [J/mol] on the assigned-enthalpy scale."""
+        v, shape, scalar = self._values(temperature)
+        return _shaped(v["G"], shape, scalar)
+
+    @property
+    def h298(self) -> float:
+        """H(298.15 K) [J/mol] as the coefficients give it (equal to ΔfH° to round-off)."""
+        if self._h298 is None:
+            self._h298 = float(forms.evaluate_ranges(self._ranges, [REFERENCE_TEMPERATURE],
+                                                     self.form)["H"][0])
+        return self._h298
+
+    def uncertainty(self, temperature) -> dict:
+        """Standard uncertainties {'cp', 'h', 's'} at T [K]: u(Cp) [J/(mol K)], u(H) [J/mol]
+        and u(S) [J/(mol K)] (H and S relative to their exact 298.15 K anchors), each shaped
+        like ``temperature``."""
+        t, scalar = _kelvin(temperature)
+        flat = t.reshape(-1)
+        document.check_range(self.entry, flat)
+        u = document.uncertainty(self.entry, flat)
+        return {k: _shaped(u[key], t.shape, scalar)
+                for k, key in (("cp", "u_Cp"), ("h", "u_H"), ("s", "u_S"))}
+
+    def is_extrapolated(self, temperature):
+        """True where T [K] lies outside the data the fit was made from."""
+        t, scalar = _kelvin(temperature)
+        lo, hi = self.data_range
+        flag = (t < lo) | (t > hi)
+        return bool(flag) if scalar else flag
+
+    def table(self, temperatures=None, step: float = 100.0) -> dict:
+        """The evaluated table as columns of arrays: at ``temperatures`` [K], or at 298.15 K
+        and every ``step`` K over the range of use (see ``library.tables``)."""
+        points = None if temperatures is None else np.atleast_1d(_kelvin(temperatures)[0])
+        if points is not None:
+            document.check_range(self.entry, points)
+        return species_rows(self.entry, step, points)
+
+    def to_pandas(self, temperatures=None, step: float = 100.0):
+        """``table`` as a pandas DataFrame, one row per temperature."""
+        import pandas as pd
+
+        return pd.DataFrame(self.table(temperatures, step))
+
+
+class Library:
+    """A curated library: its species by id, and the build it came from.
+
+    ``lib["N2(g)"]`` takes an id; ``lib["n2"]`` a name in any case when one phase has it;
+    ``lib.get("CO2", phase="g")`` names the phase. A name that is missing or names several
+    phases raises SpeciesNotFound (a KeyError) with the candidates.
+    """
+
+    def __init__(self, doc: dict, path: Path | None = None):
+        self.document = doc
+        self.path = path
+        self.notice: str = doc.get("notice", "")
+        self.build: dict = doc.get("build", {})
+        self._entries = {s["id"]: s for s in doc["species"]}
+        self._cache: dict = {}
+
+    def __repr__(self) -> str:
+        where = f" from {self.path}" if self.path else ""
+        return f"<Library of {len(self)} species{where}>"
+
+    def __len__(self) -> int:
+        return len(self._entries)
+
+    def __iter__(self):
+        return iter(self.ids)
+
+    def __contains__(self, name) -> bool:
+        try:
+            self._resolve(name, None)
+        except SpeciesNotFound:
+            return False
+        return True
+
+    @property
+    def ids(self) -> list:
+        """Every species id, sorted."""
+        return sorted(self._entries)
+
+    def __getitem__(self, name: str) -> Species:
+        return self.get(name)
+
+    def get(self, name: str, phase: str | None = None) -> Species:
+        """The species named ``name`` (an id such as 'CO2(g)', or a formula name in any
+        case), in ``phase`` when given."""
+        sid = self._resolve(name, phase)
+        if sid not in self._cache:
+            self._cache[sid] = Species(self._entries[sid])
+        return self._cache[sid]
+
+    def _resolve(self, name: str, phase: str | None) -> str:
+        if not isinstance(name, str):
+            raise SpeciesNotFound(repr(name))
+        ids = self._entries
+        if phase is not None:
+            name = f"{name.rsplit('(', 1)[0] if name.endswith(')') else name}({phase})"
+        if name in ids:
+            return name
+        folded = name.casefold()
+        for tries in ((lambda i: i.casefold() == folded),
+                      (lambda i: i.rsplit("(", 1)[0] == name),
+                      (lambda i: i.rsplit("(", 1)[0].casefold() == folded)):
+            hits = sorted(i for i in ids if tries(i))
+            if len(hits) == 1:
+                return hits[0]
+            if len(hits) > 1:
+                raise SpeciesNotFound(name, hits, ambiguous=True)
+        close = difflib.get_close_matches(name, list(ids), n=3, cutoff=0.5)
+        raise SpeciesNotFound(name, close)
+
+    def to_pandas(self, step: float = 100.0):
+        """The evaluated tables of every species, one DataFrame (column 'id' names the
+        species)."""
+        import pandas as pd
+
+        frames = [pd.DataFrame(species_rows(self._entries[i], step)) for i in self.ids]
+        return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame()
+
+
+def load_library(path) -> Library:
+    """The library in ``path``: a library.json file or a curated folder (its current
+    release). InputError (a ValueError) names the file and what is wrong when it is not a
+    library written by thermoledger."""
+    doc = document.load(path)
+    return Library(doc, Path(path))
+
+
+__all__ = ["Library", "Species", "SpeciesNotFound", "load_library", "InputError"]

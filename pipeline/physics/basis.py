@@ -1,0 +1,86 @@
+"""Rows of the fitting problem in the scaled variable τ = T/1000 K.
+
+The unknowns are the scaled Cp/R coefficients of every range, stacked range by range:
+c = [c_(0,p1), c_(0,p2), ..., c_(1,p1), ...] with Cp/R = Σ_p c_(j,p) τ^p in range j.
+Cp, its derivatives, and H(T) − H(298.15 K) and S(T) − S(298.15 K) are all linear in c,
+so each observation or constraint is one row.
+"""
+
+import numpy as np
+
+from ..core.constants import REFERENCE_TEMPERATURE
+from .forms import T_SCALE, i0, i1
+
+
+def powers_row(powers, tau, deriv=0):
+    """[τ^p] (or the deriv-th derivative with respect to τ) at each τ -> (n, m)."""
+    tau = np.atleast_1d(np.asarray(tau, dtype=float))[:, None]
+    p = np.asarray(powers, dtype=float)[None, :]
+    coef = np.ones_like(p)
+    for k in range(deriv):
+        coef = coef * (p - k)
+    return coef * tau ** (p - deriv)
+
+
+def range_of(t, breakpoints):
+    """Range index of each temperature (points at a breakpoint belong to the lower range)."""
+    return np.searchsorted(np.asarray(breakpoints, dtype=float), np.asarray(t, dtype=float),
+                           side="left")
+
+
+def cp_rows(powers, t, breakpoints):
+    """Rows of Cp/R at temperatures ``t`` [K] -> (n, nr*m)."""
+    t = np.asarray(t, dtype=float)
+    m, nr = len(powers), len(breakpoints) + 1
+    idx = range_of(t, breakpoints)
+    v = powers_row(powers, t / T_SCALE)
+    a = np.zeros((len(t), nr * m))
+    for j in range(nr):
+        sel = idx == j
+        a[sel, j * m:(j + 1) * m] = v[sel]
+    return a
+
+
+def continuity_rows(powers, breakpoints, order=1):
+    """Equality constraints: Cp and its derivatives up to ``order`` equal on both sides."""
+    m, nr = len(powers), len(breakpoints) + 1
+    rows = []
+    for j, tb in enumerate(breakpoints):
+        for d in range(order + 1):
+            p = powers_row(powers, tb / T_SCALE, d)[0]
+            row = np.zeros(nr * m)
+            row[j * m:(j + 1) * m] = p
+            row[(j + 1) * m:(j + 2) * m] = -p
+            rows.append(row)
+    return np.array(rows).reshape(len(rows), nr * m)
+
+
+def _piece(powers, lo, hi, kind):
+    """∫_lo^hi of Cp/R (kind 'H', [K]) or Cp/(R T) (kind 'S', [-]) for one range's basis."""
+    tl, th = lo / T_SCALE, hi / T_SCALE
+    if kind == "H":
+        return T_SCALE * np.array([i1(p, th) - i1(p, tl) for p in powers]).T
+    return np.array([i0(p, th) - i0(p, tl) for p in powers]).T
+
+
+def integral_rows(powers, t, breakpoints, edges, kind):
+    """Rows of (H(T) − H(298.15))/R [K] (kind 'H') or (S(T) − S(298.15))/R [-] (kind 'S').
+
+    The integral from 298.15 K to T runs through every range it crosses; ``edges`` are
+    [t_min, b1, ..., t_max] [K] (the outer edges only bound the first and last range).
+    """
+    t = np.atleast_1d(np.asarray(t, dtype=float))
+    m, nr = len(powers), len(breakpoints) + 1
+    inner = [-np.inf] + list(breakpoints) + [np.inf]
+    tref = REFERENCE_TEMPERATURE
+    out = np.zeros((len(t), nr * m))
+    lo_all = np.minimum(t, tref)
+    hi_all = np.maximum(t, tref)
+    sign = np.where(t >= tref, 1.0, -1.0)
+    for j in range(nr):
+        lo = np.maximum(lo_all, inner[j])
+        hi = np.minimum(hi_all, inner[j + 1])
+        ok = hi > lo
+        if ok.any():
+            out[ok, j * m:(j + 1) * m] = sign[ok, None] * _piece(powers, lo[ok], hi[ok], kind)
+    return out

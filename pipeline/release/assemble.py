@@ -1,0 +1,81 @@
+"""Assemble every file of a release from the fitted library: library, findings, evaluated
+tables, report, schemas, provenance, manifest and Data Package, as {relative path: bytes}."""
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..core.constants import REFERENCE_TEMPERATURE
+from ..core.names import file_stems
+from ..core.records import CheckResult
+from ..core.settings import Settings
+from ..library import document as library
+from ..physics import forms
+from . import document, provenance
+
+
+@dataclass(frozen=True)
+class Outcome:
+    """What the stages produced for one release."""
+
+    document: dict         # library.json
+    findings: tuple        # every finding of the build
+    fitted: tuple          # FittedSpecies
+    quarantined: tuple     # (TableMeta, findings)
+    checked: CheckResult   # what was read and checked
+
+
+def release_files(outcome: Outcome, ctx: Settings) -> dict:
+    """Every file of the release, each checked against its schema where it has one."""
+    from . import report, tables
+
+    doc, checked = outcome.document, outcome.checked
+    file_stems([sp["id"] for sp in doc["species"]])  # unique file names or stop
+    files = document.release_files(doc, document.findings_document(outcome.findings))
+    out = ctx.outputs
+    files["tables.parquet"] = tables.tables_parquet_bytes(doc, out.table_step)
+    if out.tables_csv:
+        files.update(tables.csv_files(doc, out.table_step))
+    if out.report:
+        files.update(report.report_files(doc, plot_points(doc, checked),
+                                         ctx.fit.accept_cp_max_rel))
+    files["provenance.json"] = document.json_bytes(
+        provenance.prov_document(outcome.fitted, checked.inputs, sorted(files.items())))
+    man = provenance.manifest(outcome.fitted, outcome.quarantined, checked.inputs,
+                              sorted(files.items()), ctx.to_dict(),
+                              doc["build"]["inputs_sha256"])
+    document.require_valid(man, "manifest.schema.json", "manifest.json")
+    files["manifest.json"] = document.json_bytes(man)
+    sources = {t.meta.source.id: t.meta.source for t in checked.tables}.values()
+    files["datapackage.json"] = document.json_bytes(
+        provenance.datapackage(sorted(files.items()), sources, document.NOTICE))
+    return files
+
+
+def plot_points(doc: dict, checked: CheckResult) -> dict:
+    """Per species: the rows used [K, J/(mol K)] and left out, and the deviations of the fit
+    from the table's H-H298 [J/mol] and S [J/(mol K)] columns, for the report's plots."""
+    by_sel = {s.species_id: s for s in checked.selections}
+    rows_of = {t.meta.file: t.data for t in checked.tables}
+    out = {}
+    for sp in doc["species"]:
+        d = by_sel[sp["id"]].data
+        p = {"t": d["T"].to_numpy(), "cp": d["Cp"].to_numpy()}
+        t_out, cp_out = [], []
+        for x in sp["excluded"]:
+            rows = rows_of[x["file"]]
+            hit = rows[rows["line"] == x["line"]]
+            t_out += hit["T"].tolist()
+            cp_out += hit["Cp"].tolist()
+        p["t_out"], p["cp_out"] = np.array(t_out), np.array(cp_out)
+        rr = library.ranges_of(sp)
+        h298 = forms.evaluate_ranges(rr, [REFERENCE_TEMPERATURE], sp["form"])["H"][0]
+        for col, key in (("dH", "dh"), ("S", "s")):
+            m = d[col].notna().to_numpy()
+            if m.any():
+                t = d["T"].to_numpy()[m]
+                ev = forms.evaluate_ranges(rr, t, sp["form"])
+                fitted_v = ev["H"] - h298 if col == "dH" else ev["S"]
+                p[key] = (t, fitted_v - d[col].to_numpy()[m])
+        out[sp["id"]] = p
+    return out

@@ -1,0 +1,149 @@
+"""Audit a release: are the inputs unchanged, is curated/ intact, and does a rebuild give
+the same bytes? When not, which species differ, by how much, and why. This module compares;
+``build.audit`` runs the rebuild.
+
+Causes are told apart from the manifest: changed inputs (files whose sha256 differs, or that
+appeared or vanished), changed settings (the effective settings of this run against those
+recorded), changed dependency versions (numpy, scipy, pandas, pyarrow, pint, molmass).
+"""
+
+import json
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from ..core.errors import InputError
+from ..library import diff
+from . import provenance
+
+PASS, DIFFERENCES, ERRORS = 0, 1, 2
+
+
+@dataclass
+class AuditReport:
+    status: int = PASS
+    integrity: list = field(default_factory=list)       # problems of curated/ itself
+    inputs_changed: list = field(default_factory=list)
+    inputs_added: list = field(default_factory=list)
+    inputs_removed: list = field(default_factory=list)
+    settings_changed: dict = field(default_factory=dict)
+    dependencies_changed: dict = field(default_factory=dict)
+    files_differing: list = field(default_factory=list)
+    species: list = field(default_factory=list)          # diff entries, with causes
+
+    def to_dict(self) -> dict:
+        return {"audit_format": 1, "status": ["pass", "differences", "errors"][self.status],
+                **{k: v for k, v in self.__dict__.items() if k != "status"}}
+
+
+def _flat(d, prefix=""):
+    out = {}
+    for k, v in d.items():
+        if isinstance(v, dict):
+            out.update(_flat(v, f"{prefix}{k}."))
+        else:
+            out[f"{prefix}{k}"] = v
+    return out
+
+
+@dataclass(frozen=True)
+class Recorded:
+    """A release as written: its folder, manifest and library."""
+
+    folder: Path
+    manifest: dict
+    library: dict
+
+
+def read_release(curated_dir: Path) -> Recorded:
+    """The manifest and library of the release in ``curated_dir``; InputError when it is not
+    a release."""
+    try:
+        man = json.loads((curated_dir / "manifest.json").read_text(encoding="utf-8"))
+        lib = json.loads((curated_dir / "library.json").read_text(encoding="utf-8"))
+    except (OSError, ValueError) as exc:
+        raise InputError(f"{curated_dir} is not a release with a manifest ({exc})",
+                         expected="a folder written by thermoledger build") from None
+    return Recorded(folder=curated_dir, manifest=man, library=lib)
+
+
+def compare(recorded: Recorded, inputs, new_files: dict, new_doc: dict,
+            settings: dict) -> AuditReport:
+    """The audit of ``recorded`` against the current ``inputs`` (InputFile), the files and
+    library of a rebuild, and the ``settings`` it used."""
+    man, curated_dir = recorded.manifest, recorded.folder
+    rep = AuditReport()
+    rep.integrity = provenance.verify_release(curated_dir)
+    now = {f.path: f for f in inputs}
+    then = {f["path"]: f for f in man["inputs"]}
+    rep.inputs_changed = sorted(p for p in set(now) & set(then)
+                                if now[p].sha256 != then[p]["sha256"])
+    rep.inputs_added = sorted(set(now) - set(then))
+    rep.inputs_removed = sorted(set(then) - set(now))
+    a, b = _flat(man["settings"]), _flat(settings)
+    rep.settings_changed = {k: [a.get(k), b.get(k)] for k in sorted(set(a) | set(b))
+                            if a.get(k) != b.get(k)}
+    deps = provenance.dependency_versions()
+    rep.dependencies_changed = {k: [man["dependencies"].get(k), v] for k, v in deps.items()
+                                if man["dependencies"].get(k) != v}
+    old_paths = {o["path"] for o in man["outputs"]} | {"manifest.json", "datapackage.json"}
+    for path in sorted(old_paths | set(new_files)):
+        old_file = curated_dir / path
+        old_bytes = old_file.read_bytes() if old_file.is_file() else None
+        if old_bytes != new_files.get(path):
+            rep.files_differing.append(path)
+    d = diff.diff(recorded.library, new_doc)
+    lineage = {s["id"]: {x["file"] for x in s["sources"]} for s in man["species"]}
+    new_sources = {s["id"]: {x["file"] for x in s["sources"]} for s in new_doc["species"]}
+    touched = set(rep.inputs_changed) | set(rep.inputs_added) | set(rep.inputs_removed)
+    for sid in d["added"] + d["removed"]:
+        rep.species.append({"id": sid, "change": "added" if sid in d["added"] else "removed",
+                            "causes": _causes(rep, lineage.get(sid, set()) & touched)})
+    for c in d["changed"]:
+        files = (lineage.get(c["id"], set()) | new_sources.get(c["id"], set())) & touched
+        rep.species.append({"id": c["id"], "change": "changed", "largest": c["largest"],
+                            "details": c["changes"], "causes": _causes(rep, files)})
+    if rep.integrity or rep.files_differing or rep.species:
+        rep.status = DIFFERENCES
+    return rep
+
+
+def _causes(rep, files):
+    causes = []
+    if files:
+        causes.append("changed inputs: " + ", ".join(sorted(files)))
+    if rep.settings_changed:
+        causes.append("changed settings: " + ", ".join(rep.settings_changed))
+    if rep.dependencies_changed:
+        causes.append("changed dependency versions: " + ", ".join(
+            f"{k} {a} -> {b}" for k, (a, b) in rep.dependencies_changed.items()))
+    return causes or ["unexplained (same inputs, settings and dependency versions)"]
+
+
+def render(rep: AuditReport) -> str:
+    lines = []
+    word = ["PASS: a rebuild gives byte-identical outputs", "DIFFERENCES", "ERRORS"][rep.status]
+    lines.append(f"audit: {word}")
+    for p in rep.integrity:
+        lines.append(f"  curated/ integrity: {p}")
+    for label, items in (("input changed", rep.inputs_changed), ("input appeared", rep.inputs_added),
+                         ("input vanished", rep.inputs_removed)):
+        for p in items:
+            lines.append(f"  {label}: {p}")
+    for k, (a, b) in rep.settings_changed.items():
+        lines.append(f"  setting changed: {k}: {a} -> {b}")
+    for k, (a, b) in rep.dependencies_changed.items():
+        lines.append(f"  dependency changed: {k}: {a} -> {b}")
+    if rep.files_differing:
+        lines.append("  outputs that would differ: " + ", ".join(rep.files_differing))
+    for s in rep.species:
+        head = f"  {s['change']:8s} {s['id']}"
+        g = s.get("largest")
+        if g:
+            head += (f": max |dCp/Cp| {100 * g['cp_rel']:.4g} % at {g['cp_rel_at']:.5g} K, "
+                     f"max |d(H-H298)| {g['dH']:.4g} J/mol, max |dS| {g['S']:.4g} J/(mol*K)")
+        lines.append(head)
+        for d in s.get("details", []):
+            lines.append(f"      {d}")
+        for c in s["causes"]:
+            lines.append(f"      cause: {c}")
+    return "\n".join(lines)

@@ -1,0 +1,207 @@
+"""Export stage: the curated library as JSON and Parquet, schema-checked, atomic, deterministic.
+
+``library_document`` turns fitted species into the library.json document;
+``write_outputs`` checks it against schemas/library.schema.json and writes
+library.json, library.parquet and findings.json. Floats are written with
+Python's shortest round-trip repr, keys in a fixed order, no timestamps, so the
+same inputs give byte-identical files.
+"""
+
+import io
+import json
+import math
+
+import pyarrow as pa
+import pyarrow.parquet as pq
+
+from .. import __version__
+from ..core import constants, schemas
+from ..core.errors import OutputError
+
+NOTICE = ("Curated property data for engineering use must be reviewed by a qualified person "
+          "before use in design. Intervals marked 'extrapolated' lie outside the source data. "
+          "Local codes and licensed engineering practice govern.")
+
+UNITS = {"temperature": "K", "enthalpy": "J/mol", "entropy": "J/(mol*K)",
+         "heat_capacity": "J/(mol*K)", "pressure": "Pa", "molar_mass": "g/mol",
+         "coefficients": "published kelvin form named by 'form'; Cp/R, H/(RT), S/R dimensionless"}
+
+
+def extrapolated_intervals(fit) -> list:
+    """Intervals of the range of use outside the data, with how they were filled."""
+    out = []
+    models = {(round(e["t_min"], 6), round(e["t_max"], 6)): e for e in fit.extrapolated}
+    lo, hi = fit.ranges[0].t_min, fit.ranges[-1].t_max
+    for a, b in ((lo, fit.data_t_min), (fit.data_t_max, hi)):
+        if b - a <= 1e-9:
+            continue
+        e = models.get((round(a, 6), round(b, 6)))
+        out.append({"t_min": a, "t_max": b, "model": e["model"] if e else "polynomial",
+                    "holdout_error": e["holdout_error"] if e else None,
+                    "u_rel_end": e["u_rel_end"] if e else None})
+    return out
+
+
+def species_entry(fitted) -> dict:
+    """library.json entry of one FittedSpecies."""
+    meta, fit = fitted.table.meta, fitted.fit
+    sources = [_source_ref(u) for u in fitted.uses]
+    return {
+        "id": meta.species_id,
+        "formula": meta.formula,
+        "phase": meta.phase,
+        "geometry": meta.geometry,
+        "molar_mass": meta.molar_mass,
+        "enthalpy_of_formation_298": meta.enthalpy_of_formation_298,
+        "entropy_298": meta.entropy_298,
+        "form": fit.form,
+        "ranges": [{"t_min": r.t_min, "t_max": r.t_max, "coefficients": list(r.coefficients)}
+                   for r in fit.ranges],
+        "breakpoints": list(fit.breakpoints),
+        "data_range": {"t_min": fit.data_t_min, "t_max": fit.data_t_max},
+        "extrapolated": extrapolated_intervals(fit),
+        "quality": {"cp_max_rel_dev": fit.cp_max_rel_dev, "cp_rms_rel_dev": fit.cp_rms_rel_dev,
+                    "h_max_dev": fit.h_max_dev, "s_max_dev": fit.s_max_dev,
+                    "points": fit.points, "worst_t": fit.worst_t, "weighting": fit.weighting},
+        "uncertainty": {"basis": "Cp/R = sum over p of c[j][p] * (T / 1000 K)^p in range j; "
+                                 "covariance of c, ranges stacked",
+                        "powers": list(fit.powers),
+                        "covariance": [list(row) for row in fit.covariance]},
+        "sources": sources,
+        "excluded": [{"file": f, "line": int(ln), "code": c} for f, ln, c in fitted.excluded],
+        "conversions": list(meta.notes),
+        "findings": [f.to_dict() for f in sorted(fitted.findings, key=lambda f: f.sort_key())],
+    }
+
+
+def non_finite(doc, path="") -> str:
+    """Path of the first NaN or infinity in a JSON-like document, or '' when all are finite
+    (JSON cannot carry them, and a library must never hold them)."""
+    if isinstance(doc, float):
+        return "" if math.isfinite(doc) else (path or "(top)")
+    if isinstance(doc, dict):
+        items = doc.items()
+    elif isinstance(doc, (list, tuple)):
+        items = enumerate(doc)
+    else:
+        return ""
+    for key, value in items:
+        hit = non_finite(value, f"{path}/{key}")
+        if hit:
+            return hit
+    return ""
+
+
+def _source_ref(use) -> dict:
+    meta = use.meta
+    return {"source": meta.source.id, "file": meta.file, "sha256": meta.sha256,
+            "used": use.rows > 0, "rows": use.rows, "t_min": use.t_min, "t_max": use.t_max,
+            "priority": meta.source.priority, "citation": meta.source.citation}
+
+
+def library_document(fitted, quarantined, inputs_sha256: str, settings: dict,
+                     entries=None) -> dict:
+    """The whole library.json document.
+
+    ``quarantined`` is a sequence of (TableMeta, findings) for tables left out; ``entries``
+    optionally maps species ids to their species_entry, already made.
+    """
+    entries = entries or {}
+    return {
+        "library_format": 1,
+        "notice": NOTICE,
+        "gas_constant": constants.GAS_CONSTANT,
+        "reference_temperature": constants.REFERENCE_TEMPERATURE,
+        "standard_pressure": constants.STANDARD_PRESSURE,
+        "units": UNITS,
+        "build": {"pipeline_version": __version__, "inputs_sha256": inputs_sha256,
+                  "settings": settings, "manifest": "manifest.json"},
+        "species": [entries.get(s.table.meta.species_id) or species_entry(s)
+                    for s in sorted(fitted, key=lambda s: s.table.meta.species_id)],
+        "quarantined": [
+            {"id": meta.species_id, "source": meta.source.id, "file": meta.file,
+             "reasons": [f.to_dict() for f in sorted(reasons, key=lambda f: f.sort_key())]}
+            for meta, reasons in sorted(quarantined, key=lambda q: (q[0].source.id, q[0].file))
+        ],
+    }
+
+
+def require_valid(doc: dict, name: str, what: str) -> None:
+    """Raise OutputError naming the first field where ``doc`` breaks schemas/``name``."""
+    errors = schemas.errors_of(doc, name)
+    if errors:
+        e = errors[0]
+        path = "/".join(map(str, e.absolute_path)) or "(top level)"
+        raise OutputError(f"{what} would break schemas/{name} at {path}: "
+                          f"{e.message} ({len(errors)} problem(s))")
+
+
+def require_valid_library(doc: dict) -> None:
+    require_valid(doc, "library.schema.json", "library.json")
+
+
+def findings_document(findings) -> dict:
+    """findings.json: every finding, sorted, with totals (acknowledged warnings not counted)."""
+    items = sorted(findings, key=lambda f: f.sort_key())
+    counts = {s: sum(1 for f in items if f.severity == s and f.counts)
+              for s in ("error", "warning", "info")}
+    counts["acknowledged"] = sum(1 for f in items if not f.counts)
+    return {"findings_format": 1, "notice": NOTICE, "counts": counts,
+            "findings": [f.to_dict() for f in items]}
+
+
+def json_bytes(doc) -> bytes:
+    return (json.dumps(doc, indent=1, ensure_ascii=False, allow_nan=False) + "\n").encode("utf-8")
+
+
+def library_parquet_bytes(doc: dict) -> bytes:
+    """library.parquet: one row per species and range; build metadata as key-value metadata."""
+    cols = {k: [] for k in ("id", "formula", "phase", "geometry", "molar_mass",
+                            "enthalpy_of_formation_298", "entropy_298", "form", "range_index",
+                            "t_min", "t_max", "coefficients", "data_t_min", "data_t_max",
+                            "cp_max_rel_dev", "cp_rms_rel_dev", "points", "extrapolated",
+                            "sources", "findings")}
+    for sp in doc["species"]:
+        for j, r in enumerate(sp["ranges"]):
+            row = {"id": sp["id"], "formula": sp["formula"], "phase": sp["phase"],
+                   "geometry": sp["geometry"], "molar_mass": sp["molar_mass"],
+                   "enthalpy_of_formation_298": sp["enthalpy_of_formation_298"],
+                   "entropy_298": sp["entropy_298"], "form": sp["form"], "range_index": j,
+                   "t_min": r["t_min"], "t_max": r["t_max"],
+                   "data_t_min": sp["data_range"]["t_min"], "data_t_max": sp["data_range"]["t_max"],
+                   "cp_max_rel_dev": sp["quality"]["cp_max_rel_dev"],
+                   "cp_rms_rel_dev": sp["quality"]["cp_rms_rel_dev"],
+                   "points": sp["quality"]["points"],
+                   "coefficients": list(r["coefficients"]),
+                   "extrapolated": json.dumps(sp["extrapolated"], ensure_ascii=False),
+                   "sources": json.dumps(sp["sources"], ensure_ascii=False),
+                   "findings": json.dumps(sp["findings"], ensure_ascii=False)}
+            for k, v in row.items():
+                cols[k].append(v)
+    types = {"range_index": pa.int32(), "points": pa.int32(),
+             "coefficients": pa.list_(pa.float64())}
+    text = ("id", "formula", "phase", "geometry", "form", "extrapolated", "sources", "findings")
+    arrays = {k: pa.array(v, type=types.get(k, pa.string() if k in text else pa.float64()))
+              for k, v in cols.items()}
+    meta = {k: json.dumps(doc[k], ensure_ascii=False) for k in (
+        "library_format", "notice", "gas_constant", "reference_temperature", "standard_pressure",
+        "units", "build")}
+    table = pa.table(arrays).replace_schema_metadata({f"thermoledger.{k}": v
+                                                      for k, v in meta.items()})
+    buf = io.BytesIO()
+    pq.write_table(table, buf, compression="zstd", write_statistics=True)
+    return buf.getvalue()
+
+
+SCHEMA_COPIES = ("library.schema.json", "findings.schema.json", "manifest.schema.json")
+
+
+def release_files(doc: dict, findings_doc: dict) -> dict:
+    """{relative path: bytes} of the library outputs, checked against their schemas."""
+    require_valid_library(doc)
+    require_valid(findings_doc, "findings.schema.json", "findings.json")
+    files = {"library.json": json_bytes(doc), "library.parquet": library_parquet_bytes(doc),
+             "findings.json": json_bytes(findings_doc)}
+    for name in SCHEMA_COPIES:  # the release describes itself
+        files[f"schemas/{name}"] = schemas.schema_bytes(name)
+    return files

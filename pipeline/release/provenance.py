@@ -1,0 +1,190 @@
+"""Provenance of a build: the manifest, a Frictionless Data Package descriptor, and W3C PROV.
+
+* ``manifest.json`` (schemas/manifest.schema.json, our own): every input with sha256 and
+  size, every output with sha256 and size, the pipeline version, the versions of the
+  numerical dependencies that can change results, the effective settings, and per species
+  its lineage — sources and files, the rows that entered the fit (by line), the rows left
+  out and why, its findings and acknowledgements, its fit settings. No wall-clock time and
+  no machine path, so the manifest is itself reproducible.
+* ``datapackage.json`` — the Frictionless Data Package v1 descriptor of curated/
+  (https://specs.frictionlessdata.io/data-package/), with Table Schema for the Parquet table.
+* ``provenance.json`` — lineage in the PROV-JSON serialisation of the W3C PROV data model
+  (W3C Member Submission, 2013): entities, activities, used, wasGeneratedBy,
+  wasDerivedFrom, wasAssociatedWith.
+
+Only the standards' vocabulary is theirs; every other name is our own.
+"""
+
+import importlib.metadata as md
+import re
+
+from .. import __version__
+from ..core.names import file_stem, file_stems, safe_name, sha256  # noqa: F401 (re-exported)
+
+DEPENDENCIES = ("numpy", "scipy", "pandas", "pyarrow", "pint", "molmass")
+
+
+def dependency_versions() -> dict:
+    out = {}
+    for name in DEPENDENCIES:
+        try:
+            out[name] = md.version(name)
+        except md.PackageNotFoundError:
+            out[name] = "absent"
+    return out
+
+
+def lineage(fitted) -> dict:
+    meta, fit = fitted.table.meta, fitted.fit
+    by_file = {}
+    for file, line in fitted.rows:
+        by_file.setdefault(file, []).append(line)
+    sources = []
+    for u in fitted.uses:
+        sources.append({"source": u.meta.source.id, "file": u.meta.file,
+                        "sha256": u.meta.sha256, "lines": by_file.get(u.meta.file, []),
+                        "t_min": u.t_min, "t_max": u.t_max})
+    return {
+        "id": meta.species_id,
+        "form": fit.form,
+        "fit_settings": fit.settings,
+        "sources": sources,
+        "excluded": [{"file": f, "line": int(ln), "code": c} for f, ln, c in fitted.excluded],
+        "findings": [{"code": f.code, "file": f.file, "line": f.line,
+                      "acknowledged": f.acknowledged} for f in
+                     sorted(fitted.findings, key=lambda f: f.sort_key())],
+    }
+
+
+def manifest(fitted, quarantined, inputs, outputs, settings: dict, inputs_digest: str) -> dict:
+    """The manifest document; ``outputs`` is [(path, bytes)] of every other output."""
+    return {
+        "manifest_format": 1,
+        "pipeline_version": __version__,
+        "dependencies": dependency_versions(),
+        "settings": settings,
+        "inputs_sha256": inputs_digest,
+        "inputs": [{"path": f.path, "sha256": f.sha256, "size": f.size} for f in inputs],
+        "outputs": [{"path": p, "sha256": sha256(b), "size": len(b)} for p, b in outputs],
+        "species": [lineage(s) for s in sorted(fitted, key=lambda s: s.table.meta.species_id)],
+        "quarantined": [{"id": m.species_id, "file": m.file,
+                         "codes": sorted({f.code for f in reasons})}
+                        for m, reasons in sorted(quarantined, key=lambda q: (q[0].file,))],
+    }
+
+
+PARQUET_FIELDS = [  # Table Schema of library.parquet
+    ("id", "string", "species id, formula(phase)"), ("formula", "string", ""),
+    ("phase", "string", "g, l or cr"), ("geometry", "string", ""),
+    ("molar_mass", "number", "g/mol"), ("enthalpy_of_formation_298", "number", "J/mol"),
+    ("entropy_298", "number", "J/(mol K), 1 bar"), ("form", "string", "nasa7, nasa9, shomate"),
+    ("range_index", "integer", ""), ("t_min", "number", "K"), ("t_max", "number", "K"),
+    ("coefficients", "array", "published form named by 'form'"),
+    ("data_t_min", "number", "K"), ("data_t_max", "number", "K"),
+    ("cp_max_rel_dev", "number", ""), ("cp_rms_rel_dev", "number", ""),
+    ("points", "integer", ""), ("extrapolated", "string", "JSON"),
+    ("sources", "string", "JSON"), ("findings", "string", "JSON"),
+]
+
+MEDIA = {".json": ("json", "application/json"),
+         ".parquet": ("parquet", "application/vnd.apache.parquet"),
+         ".html": ("html", "text/html"), ".svg": ("svg", "image/svg+xml"),
+         ".csv": ("csv", "text/csv")}
+
+
+def datapackage(outputs, sources, notice: str) -> dict:
+    """Data Package v1 descriptor for ``outputs`` [(path, bytes)] and ``sources`` (SourceMeta)."""
+    resources = []
+    for path, data in outputs:
+        ext = "." + path.rsplit(".", 1)[-1]
+        fmt, media = MEDIA.get(ext, ("bin", "application/octet-stream"))
+        res = {"name": re.sub(r"[^a-z0-9._-]", "-", path.lower()), "path": path,
+               "format": fmt, "mediatype": media, "bytes": len(data),
+               "hash": f"sha256:{sha256(data)}"}
+        if path == "library.parquet":
+            res["profile"] = "tabular-data-resource"
+            res["schema"] = {"fields": [{"name": n, "type": t, **({"description": d} if d else {})}
+                                        for n, t, d in PARQUET_FIELDS],
+                             "primaryKey": ["id", "range_index"]}
+        resources.append(res)
+    licenses = sorted({s.license for s in sources})
+    return {
+        "profile": "data-package",
+        "name": "thermoledger-library",
+        "title": "Curated thermodynamic coefficient library",
+        "description": notice,
+        "version": __version__,
+        "licenses": [{"name": name, "title": name} for name in licenses] or
+                    [{"name": "other-closed", "title": "no licence stated"}],
+        "sources": [{"title": f"{s.id}: {s.title}", "path": s.citation}
+                    for s in sorted(sources, key=lambda s: s.id)],
+        "resources": resources,
+    }
+
+
+def prov_document(fitted, inputs, outputs) -> dict:
+    """PROV-JSON: raw files and species as entities, the build and each fit as activities."""
+    agent = f"tl:thermoledger-{__version__}"
+    doc = {"prefix": {"tl": "https://thermoledger.invalid/ns#",
+                      "raw": "https://thermoledger.invalid/raw/",
+                      "out": "https://thermoledger.invalid/curated/"},
+           "entity": {}, "activity": {}, "agent": {agent: {"prov:type": "prov:SoftwareAgent"}},
+           "used": {}, "wasGeneratedBy": {}, "wasDerivedFrom": {}, "wasAssociatedWith": {}}
+    ent, n = doc["entity"], [0]
+
+    def rel(kind, body):
+        n[0] += 1
+        doc[kind][f"_:r{n[0]}"] = body
+
+    raw_id = {f.path: "raw:" + safe_name(f.path) for f in inputs}
+    for f in inputs:
+        ent[raw_id[f.path]] = {"prov:type": "tl:RawFile", "tl:path": f.path, "tl:sha256": f.sha256}
+    doc["activity"]["tl:build"] = {"prov:type": "tl:Build"}
+    rel("wasAssociatedWith", {"prov:activity": "tl:build", "prov:agent": agent})
+    for path, data in outputs:
+        oid = "out:" + safe_name(path)
+        ent[oid] = {"prov:type": "tl:Output", "tl:path": path, "tl:sha256": sha256(data)}
+        rel("wasGeneratedBy", {"prov:entity": oid, "prov:activity": "tl:build"})
+    for sp in sorted(fitted, key=lambda s: s.table.meta.species_id):
+        sid = file_stem(sp.table.meta.species_id)
+        eid, aid = f"tl:species-{sid}", f"tl:fit-{sid}"
+        ent[eid] = {"prov:type": "tl:FittedSpecies", "tl:id": sp.table.meta.species_id,
+                    "tl:form": sp.fit.form}
+        doc["activity"][aid] = {"prov:type": "tl:Fit"}
+        rel("wasGeneratedBy", {"prov:entity": eid, "prov:activity": aid})
+        rel("wasAssociatedWith", {"prov:activity": aid, "prov:agent": agent})
+        for u in sp.uses:
+            if u.rows and u.meta.file in raw_id:
+                rel("used", {"prov:activity": aid, "prov:entity": raw_id[u.meta.file]})
+                rel("wasDerivedFrom", {"prov:generatedEntity": eid,
+                                       "prov:usedEntity": raw_id[u.meta.file]})
+        rel("wasDerivedFrom", {"prov:generatedEntity": "out:library.json", "prov:usedEntity": eid})
+    return doc
+
+
+def verify_release(folder) -> list:
+    """Problems of a release folder against its own manifest and data package ([] = intact)."""
+    import json
+    from pathlib import Path
+
+    folder = Path(folder)
+    problems = []
+    try:
+        man = json.loads((folder / "manifest.json").read_text(encoding="utf-8"))
+    except (OSError, ValueError) as exc:
+        return [f"manifest.json cannot be read: {exc}"]
+    for out in man.get("outputs", []):
+        path = folder / out["path"]
+        if not path.is_file():
+            problems.append(f"{out['path']} is missing")
+        elif sha256(path.read_bytes()) != out["sha256"]:
+            problems.append(f"{out['path']} differs from its manifest hash")
+    try:
+        dp = json.loads((folder / "datapackage.json").read_text(encoding="utf-8"))
+        for res in dp.get("resources", []):
+            path = folder / res["path"]
+            if not path.is_file() or f"sha256:{sha256(path.read_bytes())}" != res.get("hash"):
+                problems.append(f"{res['path']} does not match datapackage.json")
+    except (OSError, ValueError) as exc:
+        problems.append(f"datapackage.json cannot be read: {exc}")
+    return problems

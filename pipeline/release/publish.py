@@ -1,0 +1,317 @@
+"""Publishing a release: one build at a time, all files or none, readers isolated.
+
+An output folder (``curated/``) is a *release home*, and nothing else is ever written:
+
+```
+curated/
+  .lock                  held by the build writing here (fcntl.flock)
+  .staging-<pid>/        the release being written (removed on failure)
+  releases/<id>/         immutable complete releases; <id> = first 16 hex digits of the
+                         sha256 of the release's manifest.json, so equal builds share one
+  current -> releases/<id>
+  library.json -> current/library.json     one link per top-level entry of the release
+  report -> current/report                 ...
+```
+
+A build writes its release into the staging folder, checks it against its own manifest,
+renames it to ``releases/<id>`` and then swaps ``current`` to it with one atomic rename of
+a link. A build killed at any moment leaves ``current`` at the complete previous release or
+the complete new one. Readers that resolve ``current`` once (``thermoledger.library.load``
+does) read one release, never files of two: the previous release stays in place until the
+next build, so a reader that resolved it just before a swap still finds every file.
+
+What may be replaced is checked before any work (``vet_output_folder``): the folder must be
+absent, empty, or a release home (recognised by its own manifest, not by its name); a
+folder holding a release written flat by an earlier version is taken over when every file
+in it is listed in its manifest. The output may not be, contain or lie inside a raw folder,
+the working directory, a filesystem root or the home folder, also through a link.
+"""
+
+import json
+import os
+import re
+import shutil
+import signal
+import time
+from contextlib import contextmanager
+from pathlib import Path
+
+from ..core.errors import OutputError
+from ..core.names import sha256
+from ..library.document import CURRENT, release_folder  # noqa: F401 (re-exported)
+
+LOCK = ".lock"
+RELEASES = "releases"
+_STAGING = re.compile(r"^\.staging-\d+$")
+_RELEASE_ID = re.compile(r"^[0-9a-f]{16}$")
+#: releases kept in releases/: the current one and the one before it (for readers in flight)
+KEEP_RELEASES = 2
+#: files every release holds besides those its manifest lists
+_SELF = ("manifest.json", "datapackage.json")
+
+
+def _is_inside(a: Path, b: Path) -> bool:
+    """True when ``a`` is ``b`` or lies below it (both resolved)."""
+    return a == b or b in a.parents
+
+
+def _manifest(path: Path):
+    """The manifest document at ``path`` if it is a thermoledger manifest, else None."""
+    try:
+        doc = json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return None
+    if isinstance(doc, dict) and doc.get("manifest_format") == 1 and isinstance(
+            doc.get("outputs"), list):
+        return doc
+    return None
+
+
+def _flat_release_files(folder: Path):
+    """Relative paths of a release written flat into ``folder`` by an earlier version, or
+    None when the folder holds anything its manifest does not list."""
+    man = _manifest(folder / "manifest.json")
+    if man is None:
+        return None
+    listed = {o.get("path") for o in man["outputs"] if isinstance(o, dict)} | set(_SELF)
+    found = set()
+    for p in folder.rglob("*"):
+        rel = p.relative_to(folder).as_posix()
+        if rel == LOCK:
+            continue
+        if p.is_symlink() or (not p.is_dir() and rel not in listed):
+            return None
+        if p.is_file():
+            found.add(rel)
+    return found
+
+
+def _unknown_entries(folder: Path) -> list:
+    """Entries of a release home that thermoledger did not create."""
+    out = []
+    for entry in folder.iterdir():
+        name = entry.name
+        if name in (LOCK, RELEASES, CURRENT) or _STAGING.match(name):
+            continue
+        if name.startswith(".current-") or name.startswith(".link-"):
+            continue
+        if entry.is_symlink() and os.readlink(entry) == f"{CURRENT}/{name}":
+            continue
+        out.append(name)
+    return sorted(out)
+
+
+def _is_home(folder: Path) -> bool:
+    """Only entries thermoledger makes, every release with its own manifest, and ``current``
+    (when present) a link to one of them."""
+    if _unknown_entries(folder):
+        return False
+    home = folder / RELEASES
+    if home.exists() and (home.is_symlink() or not home.is_dir() or not all(
+            _RELEASE_ID.match(p.name) and _manifest(p / "manifest.json")
+            for p in home.iterdir())):
+        return False
+    cur = folder / CURRENT
+    if cur.is_symlink():
+        return re.fullmatch(rf"{RELEASES}/[0-9a-f]{{16}}", os.readlink(cur)) is not None
+    return not cur.exists()
+
+
+def kind_of(folder: Path) -> str:
+    """'absent', 'empty', 'home' (a release home), 'flat' (an earlier flat release) or
+    'other'."""
+    if not folder.exists() and not folder.is_symlink():
+        return "absent"
+    if not folder.is_dir():
+        return "other"
+    entries = [e.name for e in folder.iterdir()]
+    if not entries or entries == [LOCK]:
+        return "empty"
+    if (folder / CURRENT).is_symlink() or (folder / RELEASES).is_dir():
+        return "home" if _is_home(folder) else "other"
+    if _flat_release_files(folder) is not None:
+        return "flat"
+    return "other"
+
+
+def vet_output_folder(out, raw_dirs=()) -> Path:
+    """The resolved output folder, after refusing anything but a release home (OutputError
+    naming the folder and why). Nothing is written."""
+    given = Path(out)
+    real = given.resolve()
+    why = None
+    cwd, home = Path.cwd().resolve(), Path.home().resolve()
+    for raw in raw_dirs:
+        raw = Path(raw).resolve()
+        if _is_inside(real, raw) or _is_inside(raw, real):
+            why = f"it is, contains or lies inside the raw folder {raw}"
+    if real == Path(real.anchor):
+        why = "it is a filesystem root"
+    elif real == cwd or _is_inside(cwd, real):
+        why = "it is or contains the working directory"
+    elif real == home or _is_inside(home, real):
+        why = "it is or contains the home folder"
+    if why is None:
+        kind = kind_of(real)
+        if kind == "other":
+            if real.exists() and not real.is_dir():
+                why = "it exists and is not a folder"
+            else:
+                why = ("it holds files that are not a thermoledger release (no manifest of its "
+                       "own lists them); choose an empty or new folder")
+    if why:
+        link = f" (a link to {real})" if given.is_symlink() else ""
+        raise OutputError(f"refusing to write into {given}{link}: {why}")
+    return real
+
+
+@contextmanager
+def locked(target: Path, wait: float = 0.0):
+    """Hold the lock of the release home ``target`` (created when absent) for the block.
+    When this call created the folder and the block published nothing, the folder is
+    removed again."""
+    import fcntl  # POSIX only: imported where the lock is taken, not when the module loads
+
+    target = Path(target)
+    created = not target.exists()
+    target.mkdir(parents=True, exist_ok=True)
+    lock_path = target / LOCK
+    fd = os.open(lock_path, os.O_RDWR | os.O_CREAT, 0o644)
+    try:
+        deadline = time.monotonic() + max(wait, 0.0)
+        while True:
+            try:
+                fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+                break
+            except BlockingIOError:
+                if time.monotonic() >= deadline:
+                    raise OutputError(f"another build is writing {target} (lock {lock_path}); "
+                                      "run again when it has finished, or give --wait "
+                                      "SECONDS") from None
+                time.sleep(0.05)
+        _recover(target)
+        yield target
+    finally:
+        if created and [e.name for e in target.iterdir()] == [LOCK]:
+            os.unlink(lock_path)
+            os.rmdir(target)
+        os.close(fd)  # closing releases the lock
+
+
+def _recover(target: Path):
+    """Remove staging folders and half-made links of killed builds (names we create)."""
+    for p in target.iterdir():
+        if _STAGING.match(p.name) and p.is_dir() and not p.is_symlink():
+            shutil.rmtree(p, ignore_errors=True)
+        elif p.name.startswith((".current-", ".link-")) and p.is_symlink():
+            p.unlink()
+
+
+def _link(target: Path, name: str, points_to: str):
+    """Make ``target/name`` a link to ``points_to`` atomically (a new link renamed over)."""
+    path = target / name
+    if path.is_symlink() and os.readlink(path) == points_to:
+        return
+    tmp = target / f".link-{os.getpid()}-{name}"
+    if tmp.is_symlink():
+        tmp.unlink()
+    os.symlink(points_to, tmp)
+    os.replace(tmp, path)
+
+
+def _release_id(files: dict) -> str:
+    return sha256(files["manifest.json"])[:16]
+
+
+def _write_tree(folder: Path, files: dict):
+    for rel in sorted(files):
+        path = folder / rel
+        path.parent.mkdir(parents=True, exist_ok=True)
+        with open(path, "wb") as fh:
+            fh.write(files[rel])
+            fh.flush()
+            os.fsync(fh.fileno())
+
+
+def _swap_current(target: Path, rid: str, on_swap):
+    """Point ``current`` at releases/<rid>, with SIGINT and SIGTERM held back between the
+    rename and ``on_swap`` so that the caller always learns whether it happened."""
+    tmp = target / f".current-{os.getpid()}"
+    if tmp.is_symlink():
+        tmp.unlink()
+    os.symlink(f"{RELEASES}/{rid}", tmp)
+    held = {signal.SIGINT, signal.SIGTERM}
+    old = signal.pthread_sigmask(signal.SIG_BLOCK, held)
+    try:
+        os.replace(tmp, target / CURRENT)
+        if on_swap:
+            on_swap()
+    finally:
+        signal.pthread_sigmask(signal.SIG_SETMASK, old)
+
+
+def _take_over_flat(target: Path, files):
+    """Remove ``files``, those of a release written flat by an earlier version (all listed in
+    its own manifest, checked by kind_of), and the folders they leave empty."""
+    for rel in sorted(files, reverse=True):
+        (target / rel).unlink()
+    for d in sorted({(target / rel).parent for rel in files}, key=lambda p: -len(p.parts)):
+        while d != target and d.is_dir() and not any(d.iterdir()):
+            d.rmdir()
+            d = d.parent
+
+
+def _prune(target: Path, keep: set):
+    """Delete releases beyond the newest KEEP_RELEASES (never the ones in ``keep``)."""
+    home = target / RELEASES
+    olds = [p for p in home.iterdir() if _RELEASE_ID.match(p.name) and p.name not in keep
+            and p.is_dir() and not p.is_symlink()]
+    olds.sort(key=lambda p: p.stat().st_mtime, reverse=True)
+    for p in olds[max(0, KEEP_RELEASES - len(keep)):]:
+        shutil.rmtree(p, ignore_errors=True)
+
+
+def publish(target: Path, files: dict, check=None, on_swap=None) -> list:
+    """Write ``files`` {relative path: bytes} as the new current release of the locked
+    release home ``target`` (see ``locked``).
+
+    ``check(staging_path)`` may raise to abort before anything is swapped in; ``on_swap()``
+    is called the moment the new release is current. Returns the paths of the release's
+    files as readers see them (through ``target``'s links).
+    """
+    target = Path(target)
+    kind = kind_of(target)
+    if kind == "other":
+        raise OutputError(f"refusing to write into {target}: it is not a release home")
+    flat = _flat_release_files(target) if kind == "flat" else None
+    rid = _release_id(files)
+    staging = target / f".staging-{os.getpid()}"
+    home = target / RELEASES
+    final = home / rid
+    try:
+        if not final.is_dir():
+            staging.mkdir()
+            _write_tree(staging, files)
+            if check:
+                check(staging)
+            home.mkdir(exist_ok=True)
+            os.rename(staging, final)
+        elif check:
+            check(final)  # equal manifests: the same release is already there
+    except BaseException:
+        shutil.rmtree(staging, ignore_errors=True)
+        raise
+    if flat is not None:
+        _take_over_flat(target, flat)
+    previous = os.readlink(target / CURRENT) if (target / CURRENT).is_symlink() else None
+    top = sorted({rel.split("/", 1)[0] for rel in files})
+    for name in top:
+        _link(target, name, f"{CURRENT}/{name}")
+    _swap_current(target, rid, on_swap)
+    for entry in target.iterdir():   # links to entries the new release no longer has
+        if (entry.is_symlink() and entry.name not in top
+                and os.readlink(entry) == f"{CURRENT}/{entry.name}"):
+            entry.unlink()
+    keep = {rid} | ({Path(previous).name} if previous else set())
+    _prune(target, keep)
+    return [target / rel for rel in sorted(files)]

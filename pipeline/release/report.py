@@ -1,0 +1,254 @@
+"""The build report: static HTML in curated/report/, one index page and one page per species.
+
+Self-contained: inline style and a small inline script (table sorting), SVG plots drawn at
+build time (plots.py); no network, no external scripts or fonts. Every page carries the
+safety caution. Wording, sections and colours are our own.
+"""
+
+import html
+from collections import Counter
+
+import numpy as np
+
+from . import plots
+from .document import NOTICE
+from .provenance import file_stem
+
+CSS = """
+body{font-family:system-ui,sans-serif;margin:0;color:#22313f;background:#f7f5f0}
+header{background:#22313f;color:#f7f5f0;padding:14px 24px}
+header a{color:#edae49}
+main{padding:16px 24px;max-width:1100px}
+.caution{border-left:6px solid #d1495b;background:#fff;padding:10px 14px;margin:12px 0}
+table{border-collapse:collapse;background:#fff;margin:8px 0}
+th,td{border:1px solid #d9d9d9;padding:4px 8px;text-align:left;font-size:14px}
+th{background:#e8eef0;cursor:pointer}
+td.num{text-align:right;font-variant-numeric:tabular-nums}
+.tag{border-radius:8px;padding:1px 8px;font-size:12px}
+.ok{background:#d6ebe0}.watch{background:#fbe7c2}.held{background:#f3c9cf}
+figure{margin:8px 0}img{max-width:100%;background:#fff}
+code{font-size:12px;word-break:break-all}
+.overview{display:flex;flex-wrap:wrap;gap:12px}
+"""
+
+SORT_JS = """
+document.querySelectorAll('table.sortable th').forEach(function(th, i){
+  th.addEventListener('click', function(){
+    var body = th.closest('table').tBodies[0];
+    var rows = Array.prototype.slice.call(body.rows);
+    var up = th.dataset.up !== '1'; th.dataset.up = up ? '1' : '0';
+    rows.sort(function(a, b){
+      var x = a.cells[i].dataset.v || a.cells[i].textContent;
+      var y = b.cells[i].dataset.v || b.cells[i].textContent;
+      var nx = parseFloat(x), ny = parseFloat(y);
+      var c = (!isNaN(nx) && !isNaN(ny)) ? nx - ny : x.localeCompare(y);
+      return up ? c : -c;
+    });
+    rows.forEach(function(r){ body.appendChild(r); });
+  });
+});
+"""
+
+
+LEGEND = ("<span style=\"color:#d1495b\">&#9473;</span> fitted curve · "
+          "<span style=\"color:#1f7a8c\">&#9679;</span> data used · "
+          "<span style=\"color:#8f2d56\">&#10005;</span> left out of the fit · "
+          "dotted line: breakpoint · <span style=\"background:#f6dba6\">&#160;shaded&#160;</span>"
+          " outside the data (extrapolated) · lower panel: deviation of the fit, dashed lines at "
+          "the acceptance threshold")
+
+
+def e(text) -> str:
+    return html.escape(str(text), quote=True)
+
+
+def page(title, body, depth=0, script="") -> bytes:
+    up = "../" * depth
+    js = f"<script>{script}</script>" if script else ""
+    return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"/>"
+            f"<title>{e(title)}</title><style>{CSS}</style></head><body>"
+            f"<header><strong>thermoledger build report</strong> · <a href=\"{up}index.html\">"
+            f"all species</a></header><main><h1>{e(title)}</h1>"
+            f"<p class=\"caution\"><strong>Caution.</strong> {e(NOTICE)}</p>{body}</main>"
+            f"{js}</body></html>\n").encode("utf-8")
+
+
+def status(sp) -> tuple:
+    counted = [f for f in sp["findings"] if f["severity"] == "warning" and not f["acknowledged"]]
+    if sp["extrapolated"] and any(x["model"] != "polynomial" for x in sp["extrapolated"]):
+        return "watch", "extrapolated"
+    if counted:
+        return "watch", f"{len(counted)} warning(s)"
+    return "ok", "ok"
+
+
+def species_page(sp, points, has_dev) -> bytes:
+    name = file_stem(sp["id"])
+    q = sp["quality"]
+    rows = [("form", sp["form"]), ("range of use", f"{sp['ranges'][0]['t_min']:g}-"
+                                                   f"{sp['ranges'][-1]['t_max']:g} K"),
+            ("data", f"{sp['data_range']['t_min']:g}-{sp['data_range']['t_max']:g} K, "
+                     f"{q['points']} points ({q['weighting']} weights)"),
+            ("breakpoints", ", ".join(f"{b:g} K" for b in sp["breakpoints"]) or "none"),
+            ("worst |dCp/Cp|", f"{100 * q['cp_max_rel_dev']:.4f} % at {q['worst_t']:g} K"),
+            ("rms dCp/Cp", f"{100 * q['cp_rms_rel_dev']:.4f} %"),
+            ("max |dH| vs column", "-" if q["h_max_dev"] is None else f"{q['h_max_dev']:.4g} J/mol"),
+            ("max |dS| vs column", "-" if q["s_max_dev"] is None else f"{q['s_max_dev']:.4g} J/(mol K)"),
+            ("enthalpy of formation", f"{sp['enthalpy_of_formation_298'] / 1000:.4f} kJ/mol"),
+            ("entropy at 298.15 K", f"{sp['entropy_298']:.4f} J/(mol K) at 1 bar")]
+    body = ["<h2>At a glance</h2><table>"]
+    body += [f"<tr><th>{e(k)}</th><td>{e(v)}</td></tr>" for k, v in rows]
+    body.append("</table>")
+    if sp["extrapolated"]:
+        body.append("<h2>Outside the data</h2><table><tr><th>interval [K]</th><th>how</th>"
+                    "<th>hold-out error</th><th>uncertainty at the end</th></tr>")
+        for x in sp["extrapolated"]:
+            he = "-" if x["holdout_error"] is None else f"{100 * x['holdout_error']:.3g} %"
+            ue = "-" if x["u_rel_end"] is None else f"{100 * x['u_rel_end']:.3g} %"
+            body.append(f"<tr><td>{x['t_min']:g}-{x['t_max']:g}</td><td>{e(x['model'])}</td>"
+                        f"<td>{e(he)}</td><td>{e(ue)}</td></tr>")
+        body.append("</table>")
+    body.append(f"<h2>Curves</h2><figure><img src=\"../img/{e(name)}-cp.svg\" alt=\"Cp and "
+                f"deviation of {e(sp['id'])}\"/><figcaption>{LEGEND}</figcaption></figure>")
+    if has_dev:
+        body.append(f"<h2>Against the H and S columns</h2><figure><img src=\"../img/"
+                    f"{e(name)}-hs.svg\" alt=\"H and S deviation of {e(sp['id'])}\"/></figure>")
+    body.append("<h2>Findings</h2>")
+    if sp["findings"]:
+        body.append("<table><tr><th>severity</th><th>code</th><th>where</th><th>what</th></tr>")
+        for f in sp["findings"]:
+            where = f["file"] + (f":{f['line']}" if f["line"] is not None else "")
+            ack = f" (acknowledged: {f['acknowledged']})" if f["acknowledged"] else ""
+            body.append(f"<tr><td>{e(f['severity'])}</td><td>{e(f['code'])}</td>"
+                        f"<td>{e(where)}</td><td>{e(f['message'] + ack)}</td></tr>")
+        body.append("</table>")
+    else:
+        body.append("<p>none</p>")
+    body.append("<h2>Where the numbers came from</h2><table><tr><th>source</th><th>file</th>"
+                "<th>rows used</th><th>interval [K]</th><th>citation</th><th>sha256</th></tr>")
+    for s in sp["sources"]:
+        iv = "-" if s["t_min"] is None else f"{s['t_min']:g}-{s['t_max']:g}"
+        body.append(f"<tr><td>{e(s['source'])}</td><td>{e(s['file'])}</td>"
+                    f"<td class=\"num\">{s['rows']}</td><td>{e(iv)}</td>"
+                    f"<td>{e(s['citation'])}</td><td><code>{e(s['sha256'])}</code></td></tr>")
+    body.append("</table>")
+    if sp["excluded"]:
+        body.append("<p>Rows left out of the fit: " + e(", ".join(
+            f"{x['file']}:{x['line']} ({x['code']})" for x in sp["excluded"])) + "</p>")
+    body.append(f"<h2>Coefficients ({e(sp['form'])})</h2><table><tr><th>range [K]</th>"
+                "<th>coefficients</th></tr>")
+    for r in sp["ranges"]:
+        body.append(f"<tr><td>{r['t_min']:g}-{r['t_max']:g}</td><td><code>"
+                    + e(", ".join(repr(c) for c in r["coefficients"])) + "</code></td></tr>")
+    body.append("</table>")
+    return page(sp["id"], "".join(body), depth=1)
+
+
+def index_page(doc) -> bytes:
+    body = [f"<p>{len(doc['species'])} species fitted, {len(doc['quarantined'])} table(s) held "
+            "back. Click a column heading to sort.</p>",
+            "<div class=\"overview\"><figure><img src=\"img/overview-deviation.svg\" alt=\""
+            "distribution of worst deviations\"/></figure><figure><img src=\"img/overview-"
+            "sources.svg\" alt=\"species per source\"/></figure></div>",
+            "<h2>Species</h2><table class=\"sortable\" id=\"summary\"><thead><tr><th>species"
+            "</th><th>form</th><th>range of use [K]</th><th>worst |dCp/Cp| [%]</th>"
+            "<th>findings</th><th>status</th></tr></thead><tbody>"]
+    for sp in doc["species"]:
+        cls, label = status(sp)
+        worst = 100 * sp["quality"]["cp_max_rel_dev"]
+        body.append(f"<tr><td><a href=\"species/{e(file_stem(sp['id']))}.html\">{e(sp['id'])}"
+                    f"</a></td><td>{e(sp['form'])}</td><td>{sp['ranges'][0]['t_min']:g}-"
+                    f"{sp['ranges'][-1]['t_max']:g}</td><td class=\"num\" data-v=\"{worst!r}\">"
+                    f"{worst:.4f}</td><td class=\"num\">{len(sp['findings'])}</td><td><span "
+                    f"class=\"tag {cls}\">{e(label)}</span></td></tr>")
+    body.append("</tbody></table>")
+    if doc["quarantined"]:
+        body.append("<h2>Held back</h2><table class=\"sortable\"><thead><tr><th>species</th>"
+                    "<th>file</th><th>first reason</th></tr></thead><tbody>")
+        for q in doc["quarantined"]:
+            r = q["reasons"][0]
+            where = q["file"] + (f":{r['line']}" if r["line"] is not None else "")
+            body.append(f"<tr><td>{e(q['id'])}</td><td>{e(where)}</td><td><span class=\"tag "
+                        f"held\">{e(r['code'])}</span> {e(r['message'])}</td></tr>")
+        body.append("</tbody></table>")
+    return page("Build report", "".join(body), script=SORT_JS)
+
+
+def report_files(doc, points, accept, workers=None) -> dict:
+    """{relative path: bytes} of the report; ``points`` maps species id to its data:
+    t, cp (rows used), t_out, cp_out (rows left out), and optional (t, deviation) pairs
+    'dh' and 's' against the table's columns. Large reports are drawn by up to ``workers``
+    processes (default: the cores of the machine); the files do not depend on how many."""
+    import os
+
+    species = doc["species"]
+    workers = workers or min(os.cpu_count() or 1, 4)
+    files = {}
+    if workers > 1 and len(species) > 60:
+        from concurrent.futures import ProcessPoolExecutor
+
+        chunks = [species[i::workers] for i in range(workers)]
+        pool = ProcessPoolExecutor(workers, initializer=workers_die_with_parent,
+                                   initargs=(os.getpid(),))
+        try:
+            parts = pool.map(_species_files, chunks,
+                             [{s["id"]: points.get(s["id"], {}) for s in c} for c in chunks],
+                             [accept] * workers)
+            for part in parts:
+                files.update(part)
+        except BaseException:
+            stop_workers(pool)  # an interrupted build waits for no worker
+            raise
+        pool.shutdown()
+    else:
+        files.update(_species_files(species, points, accept))
+    per_source = Counter(s["sources"][0]["source"] for s in species)
+    hist, bars = plots.overview_figures([100 * s["quality"]["cp_max_rel_dev"]
+                                         for s in species], per_source)
+    files["report/img/overview-deviation.svg"] = hist
+    files["report/img/overview-sources.svg"] = bars
+    files["report/index.html"] = index_page(doc)
+    return dict(sorted(files.items()))
+
+
+def workers_die_with_parent(parent_pid: int) -> None:
+    """Initializer of a worker process: it is killed when its parent dies (Linux
+    PR_SET_PDEATHSIG), leaves Ctrl-C to the parent, and exits at once if the parent is
+    already gone."""
+    import ctypes
+    import os
+    import signal
+
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    try:
+        ctypes.CDLL(None, use_errno=True).prctl(1, int(signal.SIGKILL))  # 1 = PR_SET_PDEATHSIG
+    except (OSError, AttributeError):
+        pass  # not Linux: the parent's interrupt handler still stops the workers
+    if os.getppid() != parent_pid:
+        os._exit(1)
+
+
+def stop_workers(pool) -> None:
+    """Kill the processes of ``pool`` and release it without waiting for their work."""
+    for proc in list(getattr(pool, "_processes", {}).values()):
+        proc.kill()
+    pool.shutdown(wait=False, cancel_futures=True)
+
+
+def _species_files(species, points, accept) -> dict:
+    files = {}
+    cp_plot, dev_plot = plots.SpeciesPlotter(), None
+    for sp in species:
+        name = file_stem(sp["id"])
+        p = points.get(sp["id"], {})
+        files[f"report/img/{name}-cp.svg"] = cp_plot.render(
+            sp, p.get("t", np.zeros(0)), p.get("cp", np.zeros(0)), p.get("t_out", np.zeros(0)),
+            p.get("cp_out", np.zeros(0)), accept)
+        has_dev = "dh" in p or "s" in p
+        if has_dev:
+            dev_plot = dev_plot or plots.DeviationPlotter()
+            th, dh = p.get("dh", (np.zeros(0), np.zeros(0)))
+            ts, ds = p.get("s", (np.zeros(0), np.zeros(0)))
+            files[f"report/img/{name}-hs.svg"] = dev_plot.render(th, dh, ts, ds)
+        files[f"report/species/{name}.html"] = species_page(sp, p, has_dev)
+    return files

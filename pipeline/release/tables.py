@@ -1,0 +1,55 @@
+"""Evaluated tables written into a release: one Parquet table for all species and, on
+request, one CSV per species (rows from ``library.tables``). CSV text cells that a
+spreadsheet would execute (leading =, +, -, @, tab or carriage return) are neutralised with a
+leading apostrophe (the usual defence against formula injection, common practice).
+"""
+
+import csv
+import io
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.parquet as pq
+
+from ..core.names import file_stem
+from ..library.tables import COLUMNS, HEADERS, UNITS, species_rows
+
+DANGEROUS = ("=", "+", "-", "@", "\t", "\r")
+
+
+def tables_parquet_bytes(doc, step=100.0, points=None) -> bytes:
+    parts = [species_rows(sp, step, points) for sp in doc["species"]]
+    cols = {c: (np.concatenate([p[c] for p in parts]) if parts else np.array([]))
+            for c in COLUMNS}
+    cols["id"] = [x for p in parts for x in p["id"]]
+    table = pa.table({c: pa.array(cols[c], type=pa.string() if c == "id" else (
+        pa.bool_() if c == "extrapolated" else pa.float64())) for c in COLUMNS})
+    table = table.replace_schema_metadata({"thermoledger.units": str(UNITS),
+                                           "thermoledger.notice": doc["notice"]})
+    buf = io.BytesIO()
+    pq.write_table(table, buf, compression="zstd")
+    return buf.getvalue()
+
+
+def neutralise(cell: str) -> str:
+    """A text cell safe to open in a spreadsheet."""
+    return "'" + cell if cell.startswith(DANGEROUS) else cell
+
+
+def csv_bytes(sp, step=100.0, points=None) -> bytes:
+    rows = species_rows(sp, step, points)
+    out = io.StringIO(newline="")
+    w = csv.writer(out, lineterminator="\n")
+    w.writerow([neutralise(f"# {sp['id']} ({sp['form']}) from thermoledger; review by a "
+                           "qualified person before engineering use")])
+    w.writerow([neutralise(f"{HEADERS.get(c, c)} [{UNITS[c]}]" if c in UNITS else c)
+                for c in ("species",) + COLUMNS[1:]])
+    for i in range(len(rows["T"])):
+        w.writerow([neutralise(sp["id"])] + [repr(float(rows[c][i])) for c in COLUMNS[1:-1]]
+                   + ["yes" if rows["extrapolated"][i] else "no"])
+    return out.getvalue().encode("utf-8")
+
+
+def csv_files(doc, step=100.0, points=None) -> dict:
+    return {f"tables/{file_stem(sp['id'])}.csv": csv_bytes(sp, step, points)
+            for sp in doc["species"]}

@@ -18,6 +18,9 @@ from .release import document as release_document
 
 @dataclass(frozen=True)
 class BuildResult:
+    """What a build produced: the fitted species, the tables held back, every finding, the
+    library document and the release files (written or not)."""
+
     fitted: tuple          # FittedSpecies
     quarantined: tuple     # (TableMeta, findings)
     findings: tuple        # all findings

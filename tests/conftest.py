@@ -5,22 +5,45 @@ import shutil
 from pathlib import Path
 
 import pytest
+from hypothesis import settings
+
+# No test may depend on the machine's speed: hypothesis' per-example deadline would fail a
+# test whose first example pays for a one-time set-up (the units registry, an import).
+settings.register_profile("thermoledger", deadline=None)
+settings.load_profile("thermoledger")
 
 PROJECT = Path(__file__).resolve().parent.parent
 
 
 @pytest.fixture(scope="session")
-def demo_release(tmp_path_factory):
-    """One release of the demo (report and CSV tables included), built once per session for
-    the tests that only read it; a test that changes a release builds its own."""
+def demo_build(tmp_path_factory):
+    """(raw, out): the demo built once per session with the default settings, exactly as
+    ``thermoledger build`` does, for every test that only reads a release (or audits it). A
+    test that changes a release works on ``release_copy``; one that changes raw/ on
+    ``demo_raw``, a copy with the same bytes."""
     from thermoledger.cli import main as cli
 
     base = tmp_path_factory.mktemp("demo-release")
     shutil.copytree(PROJECT / "raw", base / "raw")
     code = cli.main(["build", "--raw", str(base / "raw"), "--out", str(base / "out"),
-                     "--tables-csv", "--quiet"])
+                     "--quiet"])
     assert code == 0
-    return base / "out"
+    return base / "raw", base / "out"
+
+
+@pytest.fixture(scope="session")
+def demo_release(demo_build):
+    """The release home of the session's demo build (read only)."""
+    return demo_build[1]
+
+
+@pytest.fixture
+def release_copy(demo_release, tmp_path):
+    """A private copy of the session's demo release home, links kept, for tests that
+    change it."""
+    dst = tmp_path / "release"
+    shutil.copytree(demo_release, dst, symlinks=True)
+    return dst
 
 
 @pytest.fixture

@@ -36,20 +36,20 @@ def edit_n2_row(raw: Path, new_cp="32.9444"):
     path.write_text("\n".join(lines) + "\n")
 
 
-def test_two_builds_are_byte_identical_in_every_file(demo_raw, tmp_path, capsys):
-    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "a")
-    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "b")
-    a, b = tree(tmp_path / "a"), tree(tmp_path / "b")
+def test_two_builds_are_byte_identical_in_every_file(demo_raw, demo_release, tmp_path, capsys):
+    """A second build of the same bytes, in another folder, equals the session's build."""
+    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "b", "--quiet")
+    a, b = tree(demo_release), tree(tmp_path / "b")
     assert {"library.json", "library.parquet", "findings.json", "manifest.json",
             "datapackage.json", "provenance.json"} <= set(a)
     assert a == b
 
 
-def test_manifest_records_lineage_without_time_or_paths(demo_raw, tmp_path, capsys):
-    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "c")
-    text = (tmp_path / "c" / "manifest.json").read_text()
+def test_manifest_records_lineage_without_time_or_paths(demo_build):
+    demo_raw, release = demo_build
+    text = (release / "manifest.json").read_text()
     man = json.loads(text)
-    assert str(tmp_path) not in text and "20" + "26-12" not in text
+    assert str(release.parent) not in text and "20" + "26-12" not in text
     assert set(man["dependencies"]) >= {"numpy", "scipy", "pandas", "pyarrow"}
     raw_files = {str(p.relative_to(demo_raw)) for p in demo_raw.rglob("*")
                  if p.is_file() and (p.suffix == ".csv" or p.name == "source.json")}
@@ -61,21 +61,20 @@ def test_manifest_records_lineage_without_time_or_paths(demo_raw, tmp_path, caps
                                 "code": "SMOOTH-OUTLIER"}]
     ar = next(s for s in man["species"] if s["id"] == "Ar(g)")
     assert ar["findings"][0]["acknowledged"]
-    assert provenance.verify_release(tmp_path / "c") == []
-    lib = json.loads((tmp_path / "c" / "library.json").read_text())
+    assert provenance.verify_release(release) == []
+    lib = json.loads((release / "library.json").read_text())
     assert lib["build"]["manifest"] == "manifest.json"
 
 
-def test_audit_passes_when_nothing_changed(demo_raw, tmp_path, capsys):
-    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "rel")
-    code, out, _ = run(capsys, "audit", "--raw", demo_raw, "--curated", tmp_path / "rel")
+def test_audit_passes_when_nothing_changed(demo_build, capsys):
+    demo_raw, release = demo_build
+    code, out, _ = run(capsys, "audit", "--raw", demo_raw, "--curated", release)
     assert code == 0 and "PASS" in out
 
 
-def test_audit_names_the_species_file_and_size_of_a_changed_row(demo_raw, tmp_path, capsys):
-    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "rel")
+def test_audit_names_the_species_file_and_size_of_a_changed_row(demo_raw, demo_release, capsys):
     edit_n2_row(demo_raw)
-    code, out, _ = run(capsys, "audit", "--raw", demo_raw, "--curated", tmp_path / "rel",
+    code, out, _ = run(capsys, "audit", "--raw", demo_raw, "--curated", demo_release,
                        "--json")
     rep = json.loads(out)
     assert code == 1 and rep["status"] == "differences"
@@ -85,20 +84,20 @@ def test_audit_names_the_species_file_and_size_of_a_changed_row(demo_raw, tmp_pa
     assert 1e-5 < sp["largest"]["cp_rel"] < 0.02 and sp["largest"]["dH"] > 0
 
 
-def test_audit_says_settings_changed(demo_raw, tmp_path, capsys):
-    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "rel")
-    code, out, _ = run(capsys, "audit", "--raw", demo_raw, "--curated", tmp_path / "rel",
+def test_audit_says_settings_changed(demo_build, capsys):
+    demo_raw, release = demo_build
+    code, out, _ = run(capsys, "audit", "--raw", demo_raw, "--curated", release,
                        "--breakpoints", "conventional")
     assert code == 1
     assert "setting changed: fit.breakpoint_mode: optimise -> conventional" in out
     assert "cause: changed settings: fit.breakpoint_mode" in out
 
 
-def test_audit_detects_a_tampered_release(demo_raw, tmp_path, capsys):
-    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "rel")
-    lib = tmp_path / "rel" / "library.json"
+def test_audit_detects_a_tampered_release(demo_raw, release_copy, capsys):
+    lib = (release_copy / "library.json").resolve()
+    lib.chmod(0o644)
     lib.write_text(lib.read_text().replace('"Ar"', '"Ar "', 1))
-    code, out, _ = run(capsys, "audit", "--raw", demo_raw, "--curated", tmp_path / "rel")
+    code, out, _ = run(capsys, "audit", "--raw", demo_raw, "--curated", release_copy)
     assert code == 1 and "library.json differs from its manifest hash" in out
 
 
@@ -109,7 +108,7 @@ def test_audit_without_a_release_is_an_error(demo_raw, tmp_path, capsys):
 
 def test_raw_is_unchanged_by_build_check_and_audit(demo_raw, tmp_path, capsys):
     before = tree(demo_raw)
-    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "rel")
+    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "rel", "--no-report")
     run(capsys, "check", "--raw", demo_raw)
     run(capsys, "audit", "--raw", demo_raw, "--curated", tmp_path / "rel")
     assert tree(demo_raw) == before

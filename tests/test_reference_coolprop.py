@@ -63,7 +63,7 @@ def built(tmp_path_factory):
     assert cli.main(["build", "--raw", str(raw_atm), "--out", str(tmp / "atm"), "--strict"]) == 0
     lib = json.loads((out / "library.json").read_text())
     atm = json.loads((tmp / "atm" / "library.json").read_text())
-    return {s["id"]: s for s in lib["species"]}, {s["id"]: s for s in atm["species"]}
+    return {s["id"]: s for s in lib["species"]}, {s["id"]: s for s in atm["species"]}, out
 
 
 def ranges(sp):
@@ -130,3 +130,20 @@ def test_continuity_at_the_breakpoint_from_exported_coefficients(built):
             # the slope is compared on the scale Cp/T, where a zero slope (argon) is exact
             scale = cp_scale / tb if f is forms.dcp_over_r else max(abs(fa), abs(fb))
             assert abs(fa - fb) <= 1e-9 * scale, (sp["id"], f.__name__)
+
+
+@pytest.mark.parametrize("name", list(FLUIDS))
+def test_the_python_api_reproduces_coolprop(built, name):
+    """Through thermoledger.load_library: Cp within 0.2 % of CoolProp's ideal-gas Cp (the
+    reference equations of state named in testing/trials.py), H − H298 within 0.05 % of the
+    integral of that Cp (scipy quad), and S at 298.15 K equal to the anchor."""
+    import thermoledger
+
+    fluid = FLUIDS[name][0]
+    species = thermoledger.load_library(built[2])[name.lower()]
+    t = grid(fluid)
+    ref = np.array([cp0(fluid, x) for x in t])
+    assert np.max(np.abs(species.cp(t) / ref - 1)) < 2e-3
+    dh = quad(lambda x: cp0(fluid, x), 298.15, 1500.0, epsrel=1e-10)[0]
+    assert species.h_minus_h298(1500.0) == pytest.approx(dh, rel=5e-4)
+    assert species.s(298.15) == pytest.approx(FLUIDS[name][4], abs=1e-9)

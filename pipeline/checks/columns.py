@@ -35,6 +35,8 @@ def _integrals(t, cp):
 
 
 def check_columns(table, ctx):
+    """CONS-* findings: the H-H298 [J/mol] and S [J/(mol K)] columns of ``table`` against the
+    integrals of its Cp, and their values at 298.15 K against zero and entropy_298."""
     data = table.data
     has_h = data["dH"].notna().sum() >= 2
     has_s = data["S"].notna().sum() >= 2
@@ -47,7 +49,7 @@ def check_columns(table, ctx):
         return []
     u = d["u_Cp"].to_numpy()
     u_rel = float(np.median(u / cp)) if np.all(np.isfinite(u)) else \
-        ctx.checks.inferred_cp_uncertainty
+        ctx.fit.inferred_cp_uncertainty
     ih, is_, eh, es, spl, spl_t = _integrals(t, cp)
     tref = REFERENCE_TEMPERATURE
     covers = t[0] <= tref <= t[-1]

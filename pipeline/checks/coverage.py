@@ -7,6 +7,8 @@ from ..core.settings import for_table
 
 
 def check_gaps(table, ctx):
+    """COV-GAP findings: gaps between consecutive temperatures [K] wider than the settings' ratio
+    and width."""
     s = ctx.checks
     d = table.data
     t, lines = d["T"].to_numpy(), d["line"].to_numpy()
@@ -25,6 +27,8 @@ def check_gaps(table, ctx):
 
 
 def check_range_of_use(table, ctx):
+    """COV-EXTRAPOLATED findings: a range of use [K] of the table's fit settings that reaches
+    beyond its data."""
     f = for_table(ctx.fit, table.meta.fit_overrides)
     t = table.data["T"].to_numpy()
     t = t[np.isfinite(t) & (t > 0)]

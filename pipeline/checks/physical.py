@@ -39,7 +39,7 @@ def factor_candidates(molar_mass):
 
 def gas_band(geometry, atoms, settings, tight=False):
     """(low, high) plausible Cp [J/(mol K)] of an ideal gas."""
-    low = bounds.cp_zero(geometry) * 0.97 if tight else \
+    low = bounds.cp_zero(geometry) * (1 - settings.rotor_band_margin) if tight else \
         bounds.TRANSLATION_CP * (1 - settings.equipartition_tolerance)
     if geometry == "monatomic":
         high = bounds.TRANSLATION_CP + settings.monatomic_excess * R

@@ -33,6 +33,8 @@ from .smoothness import EXCLUDING
 
 @dataclass(frozen=True)
 class SourceUse:
+    """How one table served a species: the rows it supplied and their interval [K]."""
+
     meta: object          # TableMeta
     rows: int             # rows entering the fit
     t_min: float | None   # [K] of the rows used
@@ -41,6 +43,8 @@ class SourceUse:
 
 @dataclass(frozen=True)
 class Selection:
+    """The rows one species is fitted from, merged from its tables by priority."""
+
     species_id: str
     primary: object       # the preferred Table: metadata and anchors come from it
     data: pd.DataFrame    # rows to fit: the documented columns plus 'file'

@@ -34,6 +34,7 @@ def _rows_where(table: Table, mask: np.ndarray, code: str, what: str, column: st
 
 
 def check_temperature_positive(table: Table, ctx: Settings):
+    """T-NOT-POSITIVE findings: rows whose T [K] is not above zero."""
     t = table.data["T"].to_numpy()
     mask = ~(t > 0) & ~np.isnan(t)
     return _rows_where(table, mask, "T-NOT-POSITIVE", "T = {v:.6g} K is not above 0 K", "T",
@@ -41,6 +42,7 @@ def check_temperature_positive(table: Table, ctx: Settings):
 
 
 def check_cp_positive(table: Table, ctx: Settings):
+    """CP-NOT-POSITIVE findings: rows whose Cp [J/(mol K)] is not above zero."""
     cp = table.data["Cp"].to_numpy()
     mask = ~(cp > 0) & ~np.isnan(cp)
     return _rows_where(table, mask, "CP-NOT-POSITIVE", "Cp = {v:.6g} J/(mol*K) is not above zero",
@@ -48,6 +50,7 @@ def check_cp_positive(table: Table, ctx: Settings):
 
 
 def check_uncertainty_positive(table: Table, ctx: Settings):
+    """UCP-NOT-POSITIVE findings: rows whose u(Cp) [J/(mol K)] is not above zero."""
     u = table.data["u_Cp"].to_numpy()
     mask = ~(u > 0) & ~np.isnan(u)
     return _rows_where(table, mask, "UCP-NOT-POSITIVE", "u(Cp) = {v:.6g} J/(mol*K) is not above "
@@ -55,6 +58,7 @@ def check_uncertainty_positive(table: Table, ctx: Settings):
 
 
 def check_duplicate_temperatures(table: Table, ctx: Settings):
+    """T-DUPLICATE findings: temperatures [K] that appear more than once."""
     data = table.data
     t = data["T"].to_numpy()
     out = []
@@ -71,6 +75,7 @@ def check_duplicate_temperatures(table: Table, ctx: Settings):
 
 
 def check_enough_points(table: Table, ctx: Settings):
+    """TOO-FEW-POINTS findings: fewer data points than the table's ranges need."""
     n = int(np.isfinite(table.data["T"]).sum())
     fit = for_table(ctx.fit, table.meta.fit_overrides)
     need = fit.min_points
@@ -127,6 +132,8 @@ def check_fit_settings(table: Table, ctx: Settings):
 
 
 def check_anchor_reach(table: Table, ctx: Settings):
+    """ANCHOR-OUT-OF-REACH / RANGE-EXTENDED findings: data that start above 298.15 K, by how
+    far [K] against the allowed anchor extension."""
     t = table.data["T"].to_numpy()
     t = t[np.isfinite(t) & (t > 0)]
     if not len(t):

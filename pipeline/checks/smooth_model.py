@@ -48,6 +48,8 @@ def basis(t) -> np.ndarray:
 
 
 def robust_sigma(values) -> float:
+    """Robust standard deviation of ``values`` (1.4826 × median absolute deviation), in the
+    unit of ``values``; 0 for none."""
     v = np.asarray(values, dtype=float)
     if not len(v):
         return 0.0

@@ -24,6 +24,8 @@ def sorted_valid(table):
 
 
 def check_smoothness(table, ctx):
+    """SMOOTH-OUTLIER, SMOOTH-JITTER and SMOOTH-SCATTER findings of ``table`` from the robust
+    smooth model of its Cp(T) (smooth_model.py)."""
     s = ctx.checks
     t, cp, u, lines = sorted_valid(table)
     if len(t) < 8 or np.any(np.diff(t) <= 0):

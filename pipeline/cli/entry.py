@@ -9,6 +9,8 @@ _STOPS = {signal.SIGINT, signal.SIGTERM}
 
 
 def main() -> int:
+    """The console command: libraries load with SIGINT/SIGTERM held back, then the CLI runs;
+    returns the exit status."""
     old = signal.pthread_sigmask(signal.SIG_BLOCK, _STOPS)
     try:
         from . import main as cli

@@ -20,6 +20,8 @@ def _say(lines, out=None) -> None:
 
 
 def cmd_build(args) -> int:
+    """``thermoledger build``: every stage, one release published; 1 with --strict when anything
+    was held back."""
     bar = Progress(quiet=args.quiet or args.json)
     try:
         result = build.build(args.raw, args.out, settings_of(args), wait=args.wait, progress=bar)
@@ -45,6 +47,7 @@ def cmd_build(args) -> int:
 
 
 def cmd_check(args) -> int:
+    """``thermoledger check``: ingest, validate and reconcile; findings printed; 1 on errors."""
     result = build.examine(args.raw, settings_of(args))
     n_err = render.totals(result.findings)[0]
     doc = release_document.findings_document(result.findings)
@@ -73,6 +76,7 @@ def _from_library(work, what: str):
 
 
 def cmd_props(args) -> int:
+    """``thermoledger props``: Cp, H, S, G of one species at the given temperatures [K]."""
     doc = library.load(args.library)
     sp = library.find_species(doc, args.species)
     values = _from_library(lambda: library.evaluate_entry(sp, args.temperatures),
@@ -85,6 +89,7 @@ def cmd_props(args) -> int:
 
 
 def cmd_audit(args) -> int:
+    """``thermoledger audit``: rebuild and compare with a release; 0 pass, 1 differences."""
     from ..release import audit
 
     rep = build.audit(args.raw, args.curated, settings_of(args))
@@ -93,6 +98,7 @@ def cmd_audit(args) -> int:
 
 
 def cmd_diff(args) -> int:
+    """``thermoledger diff``: property differences between two libraries."""
     from ..library import diff
 
     old, new = library.load(args.old), library.load(args.new)
@@ -128,6 +134,7 @@ def _on_signal(signum, frame):
 def main(argv=None) -> int:
     """Run one command; the exit status (0 ok, 1 findings or differences, 2 bad input, 3 an
     internal error, 128 + signal when interrupted)."""
+
     previous = {s: signal.signal(s, _on_signal) for s in (signal.SIGINT, signal.SIGTERM)}
     try:
         args = parser().parse_args(argv)

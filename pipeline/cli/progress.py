@@ -6,6 +6,8 @@ import time
 
 
 class Progress:
+    """Progress of a build: a bar on a terminal, plain log lines otherwise, nothing when quiet."""
+
     def __init__(self, quiet=False, stream=None, mininterval=0.1):
         self.stream = stream or sys.stderr
         self.quiet = quiet
@@ -38,6 +40,7 @@ class Progress:
             self.bar.update(1)
 
     def close(self):
+        """End the bar (idempotent)."""
         if self.bar is not None:
             self.bar.close()
             self.bar = None

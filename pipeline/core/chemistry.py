@@ -12,6 +12,8 @@ from .errors import InputError
 
 @dataclass(frozen=True)
 class Composition:
+    """Elements, molar mass [g/mol] and atom count of a formula."""
+
     formula: str          # as written in source.json
     hill: str             # Hill-order formula from molmass
     molar_mass: float     # [g/mol]
@@ -22,6 +24,7 @@ class Composition:
 @lru_cache(maxsize=4096)
 def composition(formula: str) -> Composition:
     """Parse ``formula`` into its composition; raise InputError if it cannot be read."""
+
     import molmass
 
     if not isinstance(formula, str) or not formula.strip():

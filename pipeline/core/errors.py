@@ -74,3 +74,23 @@ class FitRejected(FitError):
 
 class OutputError(ThermoledgerError, OSError):
     """An output that could not be written or failed its schema check."""
+
+
+class SpeciesNotFound(ThermoledgerError, KeyError):
+    """A species name that is not in the library, or that names several phases."""
+
+    def __init__(self, name: str, candidates=(), ambiguous: bool = False):
+        self.name = name
+        self.candidates = tuple(candidates)
+        self.ambiguous = ambiguous
+        super().__init__(name)
+
+    def __reduce__(self):
+        return type(self), (self.name, self.candidates, self.ambiguous)
+
+    def __str__(self) -> str:
+        if self.ambiguous:
+            return (f"species '{self.name}' names several phases; give one of: "
+                    + ", ".join(self.candidates))
+        hint = f"; did you mean {', '.join(self.candidates)}?" if self.candidates else ""
+        return f"species '{self.name}' is not in the library{hint}"

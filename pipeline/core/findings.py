@@ -17,6 +17,8 @@ SEVERITY_ORDER = {ERROR: 0, WARNING: 1, INFO: 2}
 
 @dataclass(frozen=True)
 class Code:
+    """One registered findings code: its severity, a one-line summary and a default fix."""
+
     code: str
     severity: str
     summary: str
@@ -187,10 +189,12 @@ class Finding:
     extra: dict = field(default_factory=dict, compare=False)
 
     def sort_key(self):
+        """Sort order of findings: source, file, line, severity, code, column, message."""
         return (self.source, self.file, self.line if self.line is not None else -1,
                 SEVERITY_ORDER[self.severity], self.code, self.column, self.message)
 
     def to_dict(self) -> dict:
+        """The finding as written into findings.json and the library (``extra`` left out)."""
         d = asdict(self)
         d.pop("extra")
         d["lines"] = list(self.lines)
@@ -202,7 +206,15 @@ class Finding:
         return not self.acknowledged
 
     def located(self, **fields) -> "Finding":
+        """The same finding with ``fields`` (source, file, line, ...) replaced."""
         return replace(self, **fields)
+
+
+def clip(text, n: int = 60) -> str:
+    """``text`` on one line and at most ``n`` characters, for a finding's seen/expected."""
+
+    text = str(text).strip().replace("\n", " ")
+    return text if len(text) <= n else text[: n - 1] + "…"
 
 
 def finding(code: str, message: str, **fields) -> Finding:

@@ -44,6 +44,8 @@ def given(frame: pd.DataFrame, column: str, *, every: bool = False):
 
 @dataclass(frozen=True)
 class SourceMeta:
+    """One source as declared in its source.json."""
+
     id: str                # source id, as declared in source.json "source"
     folder: str            # folder name under raw/
     title: str
@@ -57,6 +59,8 @@ class SourceMeta:
 
 @dataclass(frozen=True)
 class TableMeta:
+    """One table as listed in source.json, with what ingest learnt while reading it."""
+
     source: SourceMeta
     file: str              # path relative to raw/, with '/' separators
     species: str
@@ -77,11 +81,14 @@ class TableMeta:
 
     @property
     def species_id(self) -> str:
+        """The id of the species in the library, e.g. 'CO2(g)'."""
         return f"{self.species}({self.phase})"
 
 
 @dataclass(frozen=True)
 class Table:
+    """A table read into SI units: its metadata and its rows (the documented columns)."""
+
     meta: TableMeta
     data: pd.DataFrame = field(compare=False)
 
@@ -99,6 +106,7 @@ class SpeciesIdentity:
 
     @classmethod
     def of_table(cls, meta: "TableMeta") -> "SpeciesIdentity":
+        """The identity and anchors of the species of table metadata ``meta``."""
         return cls(meta.species_id, meta.enthalpy_of_formation_298, meta.entropy_298,
                    meta.phase, meta.geometry, meta.atoms)
 
@@ -135,6 +143,8 @@ class CpData:
 
 @dataclass(frozen=True)
 class InputFile:
+    """One raw input file: its path under raw/, sha256 and size."""
+
     path: str    # relative to raw/
     sha256: str
     size: int    # [bytes]
@@ -142,6 +152,8 @@ class InputFile:
 
 @dataclass(frozen=True)
 class FitRange:
+    """One temperature range [K] of a fit with its coefficients in the published form."""
+
     t_min: float           # [K]
     t_max: float           # [K]
     coefficients: tuple    # published kelvin form, see forms.py
@@ -149,6 +161,8 @@ class FitRange:
 
 @dataclass(frozen=True)
 class FitResult:
+    """What a fit returns: exactly what the evaluator takes, plus its quality and settings."""
+
     form: str
     ranges: tuple          # of FitRange, ascending in T
     breakpoints: tuple     # [K]
@@ -182,6 +196,8 @@ class CheckResult:
 
 @dataclass(frozen=True)
 class FittedSpecies:
+    """A fitted species with its table, findings and lineage (rows used and left out)."""
+
     table: Table                   # the preferred table (metadata and anchors)
     fit: FitResult
     findings: tuple = ()           # warnings and infos that travel with the species

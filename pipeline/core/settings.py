@@ -6,6 +6,8 @@ from dataclasses import asdict, dataclass
 @dataclass(frozen=True)
 class FitSettings:
     #: published form of the coefficients: nasa7, nasa9 or shomate (forms.FORMS)
+    """Settings of the fitting stage, with their defaults."""
+
     form: str = "nasa7"
     #: number of temperature ranges (1 to 4)
     ranges: int = 2
@@ -29,7 +31,8 @@ class FitSettings:
     minimax: bool = False
     #: fit H-H298 and S columns together with Cp when a table has them
     simultaneous: bool = True
-    #: relative standard uncertainty of Cp assumed when a table states none (common practice)
+    #: relative standard uncertainty of Cp assumed when a table states none (common practice);
+    #: the smoothness and column checks use the same value
     inferred_cp_uncertainty: float = 0.003
     #: assumed u(H-H298) = max(rel * |H-H298|, abs) [J/mol] and u(S) [J/(mol K)]
     h_uncertainty_rel: float = 1e-3
@@ -51,9 +54,11 @@ class FitSettings:
 
     @property
     def min_points(self) -> int:
+        """Fewest data points the requested ranges need."""
         return self.ranges * self.min_points_per_range
 
     def to_dict(self) -> dict:
+        """The settings as plain JSON values (recorded in the library and the manifest)."""
         d = asdict(self)
         d["fixed_breakpoints"] = list(self.fixed_breakpoints)
         return d
@@ -83,13 +88,15 @@ class CheckSettings:
     source_tolerance: float = 0.01
     #: a factor is recognised when the log-ratio is within this of its logarithm
     factor_tolerance: float = 0.03
-    #: relative standard uncertainty assumed for Cp when a table states none (common practice)
-    inferred_cp_uncertainty: float = 0.003
+    #: the tight band of an ideal gas, used to choose between unit factors, starts this
+    #: fraction below Cp(0) (rotation excited, vibrations frozen; common practice)
+    rotor_band_margin: float = 0.03
     #: a gap between consecutive points is ungrounded beyond this ratio T2/T1 and this width [K]
     gap_ratio: float = 1.5
     gap_width: float = 250.0
 
     def to_dict(self) -> dict:
+        """The settings as plain JSON values (recorded in the library and the manifest)."""
         return asdict(self)
 
 
@@ -105,6 +112,7 @@ class OutputSettings:
     table_step: float = 100.0
 
     def to_dict(self) -> dict:
+        """The settings as plain JSON values (recorded in the library and the manifest)."""
         return asdict(self)
 
 
@@ -117,6 +125,7 @@ class Settings:
     outputs: OutputSettings = OutputSettings()
 
     def to_dict(self) -> dict:
+        """The settings as plain JSON values (recorded in the library and the manifest)."""
         return {"fit": self.fit.to_dict(), "checks": self.checks.to_dict(),
                 "outputs": self.outputs.to_dict()}
 
@@ -124,6 +133,7 @@ class Settings:
 def for_table(fit: FitSettings, overrides) -> FitSettings:
     """``fit`` with a table's own overrides (source.json "fit": form, ranges, breakpoints,
     continuity, minimax, use_t_min, use_t_max) applied."""
+
     from dataclasses import replace
 
     over = dict(overrides)

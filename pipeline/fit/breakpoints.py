@@ -45,6 +45,7 @@ def _candidates(t, lo_idx, hi_idx, rules: SearchRules, lo_edge=None, hi_edge=Non
     """Candidate breakpoints [K] between data index lo_idx and hi_idx leaving ``rules.need``
     points, and leaving every range at least ``rules.ratio`` wide (T_high/T_low) against its
     other edge; at most ``limit`` (default ``rules.max_candidates``)."""
+
     need, bounds, ratio = rules.need, rules.bounds, rules.ratio
     limit = rules.max_candidates if limit is None else limit
     first, last = lo_idx + need - 1, hi_idx - need
@@ -69,19 +70,13 @@ def objective_for(obs: Observations, powers, sets, rules: SearchRules):
     t, order = obs.t, rules.order
     sets = np.asarray(sets, dtype=float)
     kk, nb = sets.shape
-    m = len(powers)
     tau = np.asarray(t, dtype=float) / forms.T_SCALE
     v = basis.powers_row(powers, tau)
     n = len(t)
     starts = np.zeros((kk, nb + 2), dtype=int)
     starts[:, 1:-1] = np.searchsorted(t, sets, side="right")   # points <= b: lower range
     starts[:, -1] = n
-    c = np.zeros((kk, nb * (order + 1), (nb + 1) * m))
-    for j in range(nb):
-        for d in range(order + 1):
-            rows = basis.powers_row(powers, sets[:, j] / forms.T_SCALE, d)   # (K, m)
-            c[:, j * (order + 1) + d, j * m:(j + 1) * m] = rows
-            c[:, j * (order + 1) + d, (j + 1) * m:(j + 2) * m] = -rows
+    c = basis.continuity_rows_of_sets(powers, sets, order)
     return lsq.batch_objective(v, obs.y, obs.sigma, starts, c, rules.norm)
 
 

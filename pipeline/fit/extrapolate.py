@@ -44,6 +44,9 @@ FAMILY_TIE = 2.0
 
 @dataclass(frozen=True)
 class Extension:
+    """Cp [J/(mol K)] generated past the data by a model, with the model's name, hold-out
+    error and relative uncertainty at the far end."""
+
     side: str              # "high" or "low"
     t_from: float          # [K], last data temperature
     t_to: float            # [K], end of the range of use
@@ -157,6 +160,8 @@ def fit_oscillators_anharmonic(t, cp, k, c0, modes):
 
 
 def candidates(geometry, atoms):
+    """The extrapolation models to try for a gas of ``geometry`` and ``atoms``:
+    (name, fitting function) pairs."""
     c0 = bounds.cp_zero(geometry)
     cinf = bounds.cp_infinity(geometry, atoms)
     modes = bounds.vibrational_modes(geometry, atoms)

@@ -42,6 +42,8 @@ def _upper(q: int) -> np.ndarray:
 
 @dataclass(frozen=True)
 class Solution:
+    """A least-squares solution: coefficients, their covariance and the residual statistics."""
+
     c: np.ndarray          # coefficients (k,)
     residual: np.ndarray   # weighted residuals (n,)
     cov: np.ndarray        # covariance of c (k, k), scaled by the reduced chi-square
@@ -56,6 +58,7 @@ def solve(a, y, sigma, c=None, weights=None) -> Solution:
     through the normal equations, whose condition number is the square); a rank-deficient
     problem falls back to the SVD.
     """
+
     a = np.asarray(a, dtype=float)
     n, k = a.shape
     basis = null_basis(c, k)

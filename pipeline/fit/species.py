@@ -229,6 +229,7 @@ class Solved:
 def _judge(species_id: str, solved: Solved, data: CpData, settings: FitSettings) -> FitResult:
     """The FitResult of ``solved`` with its quality against ``data``; FitRejected when it
     fails the acceptance thresholds of ``settings``."""
+
     form, ranges, sol, extensions = solved.form, solved.ranges, solved.solution, solved.extensions
     t, cp, dh, s, sigma = data.t, data.cp, data.dh, data.s, solved.sigma
     rr = [(r.t_min, r.t_max, r.coefficients) for r in ranges]

@@ -20,9 +20,10 @@ import pandas as pd
 
 from ..core import constants, units
 from ..core.errors import UnitError
-from ..core.findings import Finding, finding
+from ..core.findings import Finding, clip, finding
 from ..core.limits import MAX_COLUMNS, MAX_ROWS, PHYSICAL_RANGE
 from ..core.records import DATA_COLUMNS
+from ..physics import statmech
 
 #: per-row findings of one code listed one by one before the rest are summed up in one
 MAX_ROW_FINDINGS = 20
@@ -43,6 +44,8 @@ _HEADER = re.compile(r"^\s*(?P<name>[^\[\]]*?)\s*\[(?P<unit>[^\[\]]*)\]\s*$")
 
 @dataclass(frozen=True)
 class ParsedTable:
+    """One CSV table parsed into SI: rows, header as written, conversion notes, findings."""
+
     data: pd.DataFrame        # columns DATA_COLUMNS, SI units
     columns: tuple            # header cells as written
     notes: tuple              # conversions and assumptions
@@ -51,6 +54,7 @@ class ParsedTable:
 
 def empty_frame() -> pd.DataFrame:
     """A table with the documented columns and no rows."""
+
     return pd.DataFrame({c: pd.Series(dtype="int64" if c == "line" else "float64")
                          for c in DATA_COLUMNS})
 
@@ -191,9 +195,9 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
                 continue
             number = parse_number(cell)
             if number is None:
-                findings.append(finding("CELL-NOT-NUMBER", f"'{_clip(cell)}' is not a finite "
+                findings.append(finding("CELL-NOT-NUMBER", f"'{clip(cell, 40)}' is not a finite "
                                         "decimal number", file=file, line=line, column=name,
-                                        seen=_clip(cell), expected="a finite decimal number"))
+                                        seen=clip(cell, 40), expected="a finite decimal number"))
                 ok = False
                 continue
             parsed[pos] = number
@@ -227,7 +231,7 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
                                     f"of {len(data)} rows, first at line {first}", file=file,
                                     line=first, column="u(Cp)", expected="all rows or none"))
     if phase == "g" and data["S"].notna().any() and standard_pressure != constants.STANDARD_PRESSURE:
-        shift = constants.GAS_CONSTANT * math.log(standard_pressure / constants.STANDARD_PRESSURE)
+        shift = statmech.entropy_shift_to_standard(standard_pressure)
         data["S"] = data["S"] + shift
         notes.append(f"S moved from {standard_pressure:g} Pa to 1 bar: {shift:+.4f} J/(mol*K)")
     return ParsedTable(data, tuple(header), tuple(notes), tuple(_summarise(findings)))
@@ -271,9 +275,6 @@ def _rows(text: str):
         yield reader.line_num, [c.strip() for c in cells]
 
 
-def _clip(cell: str, n: int = 40) -> str:
-    cell = cell.strip().replace("\n", " ")
-    return cell if len(cell) <= n else cell[: n - 1] + "…"
 
 
 def _conversion_notes(name, unit, kind, basis, molar_mass):

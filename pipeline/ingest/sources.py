@@ -6,21 +6,23 @@ each problem. Nothing under raw/ is ever written; paths are confined to it.
 """
 
 import hashlib
-import math
 from dataclasses import dataclass
 from pathlib import Path
 
 from ..core import chemistry, constants, jsonread, schemas, units
 from ..core.errors import InputError
-from ..core.findings import Finding, finding, stage_failed
+from ..core.findings import Finding, clip, finding, stage_failed
 from ..core.limits import ANCHOR_RANGE, MAX_SOURCE_BYTES, MAX_TABLE_BYTES, MAX_TABLES_PER_SOURCE
 from ..core.names import sha256
 from ..core.records import InputFile, SourceMeta, Table, TableMeta
+from ..physics import statmech
 from . import csvtable
 
 
 @dataclass(frozen=True)
 class IngestResult:
+    """Every table read, every finding of reading, every input file with its hash."""
+
     tables: tuple          # of Table (possibly with error findings against them)
     findings: tuple        # of Finding
     inputs: tuple          # of InputFile, sorted by path
@@ -28,6 +30,7 @@ class IngestResult:
 
 def discover(raw_dir: Path) -> tuple[list[Path], list[Finding]]:
     """Source folders under ``raw_dir`` (sorted), skipping links and folders without source.json."""
+
     raw_dir = Path(raw_dir)
     folders, problems = [], []
     for entry in sorted(raw_dir.iterdir(), key=lambda p: p.name):
@@ -61,13 +64,13 @@ def parse_source(text: str, *, file: str, folder: str, digest: str):
     if errors:
         return None, [], [finding("SRC-SCHEMA", _schema_message(e), file=file,
                                   column="/".join(map(str, e.absolute_path)) or "(top level)",
-                                  seen=_clip(repr(e.instance)), expected=_expected(e))
+                                  seen=clip(repr(e.instance)), expected=_expected(e))
                           for e in errors]
     try:
         pressure = quantity(doc["standard_pressure"], "pressure", "standard_pressure")
     except InputError as exc:
         return None, [], [finding("SRC-QUANTITY", exc.what, file=file, column="standard_pressure",
-                                  seen=_clip(doc["standard_pressure"]),
+                                  seen=clip(doc["standard_pressure"]),
                                   expected="'1 bar' or '1 atm'")]
     meta = SourceMeta(id=doc["source"], folder=folder, title=doc["title"],
                       citation=doc["citation"], method=doc["method"], license=doc["license"],
@@ -80,7 +83,7 @@ def quantity(text: str, kind: str, field: str) -> float:
     value = units.parse_quantity(text, kind)
     lo, hi = ANCHOR_RANGE[field]
     if not lo <= value <= hi:
-        raise InputError(f"{field} '{_clip(text)}' is {value:g} {units.KINDS[kind][2]} in SI, "
+        raise InputError(f"{field} '{clip(text)}' is {value:g} {units.KINDS[kind][2]} in SI, "
                          "outside its physical range",
                          expected=f"{lo:g} to {hi:g} {units.KINDS[kind][2]}")
     return value
@@ -103,8 +106,6 @@ def _expected(error) -> str:
     return error.validator
 
 
-def _clip(text: str, n: int = 60) -> str:
-    return text if len(text) <= n else text[: n - 1] + "…"
 
 
 def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, index: int = 0):
@@ -150,14 +151,13 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
             problems.append(finding("SRC-QUANTITY", exc.what, source=source.id,
                                     file=f"{source.folder}/source.json",
                                     column=f"tables/{index}/{key}", extra={"table": rel},
-                                    seen=_clip(entry[key]), expected=exc.expected))
+                                    seen=clip(entry[key]), expected=exc.expected))
     notes = []
     s298 = anchors["entropy_298"]
     gas_at_other_pressure = (entry["phase"] == "g"
                              and source.standard_pressure != constants.STANDARD_PRESSURE)
     if s298 is not None and gas_at_other_pressure:
-        shift = constants.GAS_CONSTANT * math.log(source.standard_pressure
-                                                  / constants.STANDARD_PRESSURE)
+        shift = statmech.entropy_shift_to_standard(source.standard_pressure)
         s298 += shift   # the pressure is > 0: checked against ANCHOR_RANGE when read
         notes.append(f"entropy_298 moved from {source.standard_pressure:g} Pa to 1 bar: "
                      f"{shift:+.4f} J/(mol*K)")

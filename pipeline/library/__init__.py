@@ -3,6 +3,7 @@
 tables (``tables``) and the comparison of two libraries (``diff``). Depends only on
 ``core`` and ``physics``."""
 
-from .api import Library, Species, SpeciesNotFound, load_library
+from ..core.errors import SpeciesNotFound
+from .api import Library, Species, load_library
 
 __all__ = ["Library", "Species", "SpeciesNotFound", "load_library"]

@@ -15,40 +15,20 @@ Importing this module loads numpy only: no pandas (until ``to_pandas``), matplot
 pyarrow, or POSIX-only module.
 """
 
-import difflib
 from pathlib import Path
 
 import numpy as np
 
 from ..core.constants import REFERENCE_TEMPERATURE
-from ..core.errors import InputError, ThermoledgerError
+from ..core.errors import InputError, SpeciesNotFound
 from ..physics import forms
 from . import document
 from .tables import species_rows
 
 
-class SpeciesNotFound(ThermoledgerError, KeyError):
-    """A species name that is not in the library, or that names several phases."""
-
-    def __init__(self, name: str, candidates=(), ambiguous: bool = False):
-        self.name = name
-        self.candidates = tuple(candidates)
-        self.ambiguous = ambiguous
-        super().__init__(name)
-
-    def __reduce__(self):
-        return type(self), (self.name, self.candidates, self.ambiguous)
-
-    def __str__(self) -> str:
-        if self.ambiguous:
-            return (f"species '{self.name}' names several phases; give one of: "
-                    + ", ".join(self.candidates))
-        hint = f"; did you mean {', '.join(self.candidates)}?" if self.candidates else ""
-        return f"species '{self.name}' is not in the library{hint}"
-
-
 def _kelvin(temperature) -> tuple[np.ndarray, bool]:
     """(temperatures [K] as a float array, True when the input was a scalar)."""
+
     if type(temperature).__module__.split(".")[0] == "pint":
         temperature = temperature.to("kelvin").magnitude
     t = np.asarray(temperature, dtype=float)
@@ -210,24 +190,7 @@ class Library:
         return self._cache[sid]
 
     def _resolve(self, name: str, phase: str | None) -> str:
-        if not isinstance(name, str):
-            raise SpeciesNotFound(repr(name))
-        ids = self._entries
-        if phase is not None:
-            name = f"{name.rsplit('(', 1)[0] if name.endswith(')') else name}({phase})"
-        if name in ids:
-            return name
-        folded = name.casefold()
-        for tries in ((lambda i: i.casefold() == folded),
-                      (lambda i: i.rsplit("(", 1)[0] == name),
-                      (lambda i: i.rsplit("(", 1)[0].casefold() == folded)):
-            hits = sorted(i for i in ids if tries(i))
-            if len(hits) == 1:
-                return hits[0]
-            if len(hits) > 1:
-                raise SpeciesNotFound(name, hits, ambiguous=True)
-        close = difflib.get_close_matches(name, list(ids), n=3, cutoff=0.5)
-        raise SpeciesNotFound(name, close)
+        return document.resolve_id(self._entries, name, phase)
 
     def to_pandas(self, step: float = 100.0):
         """The evaluated tables of every species, one DataFrame (column 'id' names the
@@ -242,8 +205,9 @@ def load_library(path) -> Library:
     """The library in ``path``: a library.json file or a curated folder (its current
     release). InputError (a ValueError) names the file and what is wrong when it is not a
     library written by thermoledger."""
+
     doc = document.load(path)
     return Library(doc, Path(path))
 
 
-__all__ = ["Library", "Species", "SpeciesNotFound", "load_library", "InputError"]
+__all__ = ["Library", "Species", "SpeciesNotFound", "load_library"]

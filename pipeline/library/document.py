@@ -1,5 +1,6 @@
 """Read a curated library and evaluate its species (the consumer side of export)."""
 
+import difflib
 import errno
 from pathlib import Path
 
@@ -7,7 +8,7 @@ import numpy as np
 
 from ..core import jsonread, schemas
 from ..core.constants import GAS_CONSTANT as R
-from ..core.errors import InputError
+from ..core.errors import InputError, SpeciesNotFound
 from ..core.limits import MAX_LIBRARY_BYTES
 from ..physics import basis, forms
 
@@ -42,19 +43,43 @@ def load(path) -> dict:
     return doc
 
 
-def find_species(doc: dict, name: str) -> dict:
-    """Species by id ('CO2(g)') or by name when only one phase has it ('CO2')."""
+def find_species(doc: dict, name: str, phase: str | None = None) -> dict:
+    """The species entry of ``doc`` named ``name`` (see ``resolve_id``)."""
     by_id = {s["id"]: s for s in doc["species"]}
-    if name in by_id:
-        return by_id[name]
-    matches = [s for s in doc["species"] if s["id"].rsplit("(", 1)[0] == name]
-    if len(matches) == 1:
-        return matches[0]
-    known = ", ".join(sorted(by_id)) or "(none)"
-    if matches:
-        raise InputError(f"species '{name}' is ambiguous",
-                         expected="one of " + ", ".join(s["id"] for s in matches))
-    raise InputError(f"species '{name}' is not in the library", expected=f"one of {known}")
+    return by_id[resolve_id(by_id, name, phase)]
+
+
+def resolve_id(ids, name: str, phase: str | None = None) -> str:
+    """The species id that ``name`` means among ``ids``: the id itself ('CO2(g)'), the same
+    id in another case, or a name without its phase ('CO2', 'co2') when one phase has it;
+    ``phase`` names the phase. SpeciesNotFound (a KeyError) with the candidates otherwise."""
+    if not isinstance(name, str):
+        raise SpeciesNotFound(repr(name))
+    if phase is not None:
+        name = f"{name.rsplit('(', 1)[0] if name.endswith(')') else name}({phase})"
+    if name in ids:
+        return name
+    folded = name.casefold()
+    for match in ((lambda i: i.casefold() == folded),
+                  (lambda i: i.rsplit("(", 1)[0] == name),
+                  (lambda i: i.rsplit("(", 1)[0].casefold() == folded)):
+        hits = sorted(i for i in ids if match(i))
+        if len(hits) == 1:
+            return hits[0]
+        if len(hits) > 1:
+            raise SpeciesNotFound(name, hits, ambiguous=True)
+    raise SpeciesNotFound(name, _close(name, ids))
+
+
+def _close(name: str, ids) -> tuple:
+    """Up to three ids whose id or name (without the phase) is close to ``name``, in any
+    case."""
+    keys = {}
+    for i in sorted(ids):
+        keys.setdefault(i.casefold(), i)
+        keys.setdefault(i.rsplit("(", 1)[0].casefold(), i)
+    hits = difflib.get_close_matches(name.casefold(), list(keys), n=6, cutoff=0.5)
+    return tuple(dict.fromkeys(keys[h] for h in hits))[:3]
 
 
 def ranges_of(species: dict) -> list:

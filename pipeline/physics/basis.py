@@ -9,7 +9,7 @@ so each observation or constraint is one row.
 import numpy as np
 
 from ..core.constants import REFERENCE_TEMPERATURE
-from .forms import T_SCALE, i0, i1
+from .forms import T_SCALE, i0, i1, range_of
 
 
 def powers_row(powers, tau, deriv=0):
@@ -20,12 +20,6 @@ def powers_row(powers, tau, deriv=0):
     for k in range(deriv):
         coef = coef * (p - k)
     return coef * tau ** (p - deriv)
-
-
-def range_of(t, breakpoints):
-    """Range index of each temperature (points at a breakpoint belong to the lower range)."""
-    return np.searchsorted(np.asarray(breakpoints, dtype=float), np.asarray(t, dtype=float),
-                           side="left")
 
 
 def cp_rows(powers, t, breakpoints):
@@ -42,17 +36,24 @@ def cp_rows(powers, t, breakpoints):
 
 
 def continuity_rows(powers, breakpoints, order=1):
-    """Equality constraints: Cp and its derivatives up to ``order`` equal on both sides."""
-    m, nr = len(powers), len(breakpoints) + 1
-    rows = []
-    for j, tb in enumerate(breakpoints):
+    """Equality constraints: Cp and its derivatives up to ``order`` equal on both sides of
+    every breakpoint [K] -> (nb * (order + 1), nr * m)."""
+    return continuity_rows_of_sets(powers, [list(breakpoints)], order)[0]
+
+
+def continuity_rows_of_sets(powers, sets, order=1):
+    """``continuity_rows`` of many breakpoint sets at once: ``sets`` [K] of shape (K, nb) ->
+    (K, nb * (order + 1), (nb + 1) * m)."""
+    sets = np.asarray(sets, dtype=float).reshape(len(sets), -1)
+    kk, nb = sets.shape
+    m = len(powers)
+    c = np.zeros((kk, nb * (order + 1), (nb + 1) * m))
+    for j in range(nb):
         for d in range(order + 1):
-            p = powers_row(powers, tb / T_SCALE, d)[0]
-            row = np.zeros(nr * m)
-            row[j * m:(j + 1) * m] = p
-            row[(j + 1) * m:(j + 2) * m] = -p
-            rows.append(row)
-    return np.array(rows).reshape(len(rows), nr * m)
+            rows = powers_row(powers, sets[:, j] / T_SCALE, d)   # (K, m)
+            c[:, j * (order + 1) + d, j * m:(j + 1) * m] = rows
+            c[:, j * (order + 1) + d, (j + 1) * m:(j + 2) * m] = -rows
+    return c
 
 
 def _piece(powers, lo, hi, kind):

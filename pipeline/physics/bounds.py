@@ -24,9 +24,10 @@ References
 """
 
 from ..core.constants import GAS_CONSTANT as R
+from .statmech import ROTATION, TRANSLATION
 
-TRANSLATION_CP = 2.5 * R  # [J/(mol K)], Cp of translation incl. pV term
-ROTATION_CP = {"monatomic": 0.0, "linear": R, "nonlinear": 1.5 * R}  # [J/(mol K)]
+TRANSLATION_CP = TRANSLATION * R  # [J/(mol K)], Cp of translation incl. pV term
+ROTATION_CP = {g: x * R for g, x in ROTATION.items()}  # [J/(mol K)], rotor fully excited
 DULONG_PETIT_PER_ATOM = 3.0 * R  # [J/(mol K)], common practice
 
 

@@ -48,6 +48,9 @@ def i0(p, x):
 
 @dataclass(frozen=True)
 class Form:
+    """A published coefficient form: the powers of its variable, the variable's scale, the
+    multiplier of the series and how the integration constants are packed."""
+
     name: str
     powers: tuple          # powers of the variable in the Cp series, in coefficient order
     x_scale: float         # [K]
@@ -83,6 +86,7 @@ class Form:
 
     # --- evaluation (published Cp coefficients) ---------------------------------------
     def cp(self, a, t):
+        """Cp [J/(mol K)] of coefficients ``a`` at T [K]."""
         x = np.asarray(t, dtype=float) / self.x_scale
         return self.multiplier * sum(ak * x ** p for ak, p in zip(a, self.powers))
 
@@ -93,6 +97,7 @@ class Form:
                                                     for ak, p in zip(a, self.powers))
 
     def d2cp(self, a, t):
+        """d²Cp/dT² [J/(mol K³)] of coefficients ``a`` at T [K]."""
         x = np.asarray(t, dtype=float) / self.x_scale
         return self.multiplier / self.x_scale ** 2 * sum(ak * p * (p - 1) * x ** (p - 2)
                                                          for ak, p in zip(a, self.powers))
@@ -118,6 +123,7 @@ FORMS = {
 
 
 def get(name: str) -> Form:
+    """The Form named ``name``; InputError naming the known forms otherwise."""
     from ..core.errors import InputError
 
     if name not in FORMS:
@@ -125,15 +131,16 @@ def get(name: str) -> Form:
     return FORMS[name]
 
 
-def range_index(ranges, t):
-    """Index of the range that holds each temperature (the lower one at a shared breakpoint).
+def range_of(t, breakpoints):
+    """Range index of each temperature [K] (a point at a breakpoint belongs to the lower
+    range; temperatures outside all ranges get the nearest end range)."""
+    return np.searchsorted(np.asarray(breakpoints, dtype=float), np.asarray(t, dtype=float),
+                           side="left")
 
-    ``ranges`` is a sequence of (t_min, t_max, coefficients); temperatures outside all ranges
-    get the nearest end range (callers decide whether to allow that).
-    """
-    t = np.asarray(t, dtype=float)
-    edges = np.array([r[1] for r in ranges[:-1]], dtype=float)
-    return np.searchsorted(edges, t, side="left")
+
+def range_index(ranges, t):
+    """``range_of`` for a sequence of (t_min, t_max, coefficients) ranges."""
+    return range_of(t, [r[1] for r in ranges[:-1]])
 
 
 def evaluate_ranges(ranges, t, form):

@@ -18,11 +18,30 @@ References
     Ref. Data Monograph 9 (1998), introduction (the same partition-function method).
 """
 
+import math
+
 import numpy as np
 
-from ..core.constants import SECOND_RADIATION_CM_K
+from ..core.constants import (
+    ATMOSPHERE,
+    ENTROPY_ATM_TO_BAR,
+    GAS_CONSTANT,
+    SECOND_RADIATION_CM_K,
+    STANDARD_PRESSURE,
+)
 
+#: Cp/R of translation, the pV term included [1]
+TRANSLATION = 2.5
+#: Cp/R of a fully excited rigid rotor by geometry [1]
 ROTATION = {"monatomic": 0.0, "linear": 1.0, "nonlinear": 1.5}
+
+
+def entropy_shift_to_standard(pressure: float) -> float:
+    """S°(1 bar) − S(p) [J/(mol K)] of an ideal gas whose entropy is tabulated at ``pressure``
+    [Pa]: R ln(p / 1 bar) [1]; at 1 atm it is ENTROPY_ATM_TO_BAR (+0.1094 J/(mol K))."""
+    if pressure == ATMOSPHERE:
+        return ENTROPY_ATM_TO_BAR
+    return GAS_CONSTANT * math.log(pressure / STANDARD_PRESSURE)
 
 
 def einstein(x):
@@ -59,7 +78,7 @@ def electronic_cp_over_r(t, levels):
 def rrho_cp_over_r(t, geometry, wavenumbers=(), degeneracies=None, levels=()):
     """Ideal-gas Cp/R [-] in the rigid-rotor / harmonic-oscillator model at ``t`` [K]."""
     t = np.atleast_1d(np.asarray(t, dtype=float))
-    cp = 2.5 + ROTATION[geometry] + np.zeros_like(t)
+    cp = TRANSLATION + ROTATION[geometry] + np.zeros_like(t)
     if len(wavenumbers):
         cp = cp + vibrational_cp_over_r(t, wavenumbers, degeneracies)
     return cp + electronic_cp_over_r(t, list(levels))

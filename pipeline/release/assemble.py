@@ -27,6 +27,7 @@ class Outcome:
 
 def release_files(outcome: Outcome, ctx: Settings) -> dict:
     """Every file of the release, each checked against its schema where it has one."""
+
     from . import report, tables
 
     doc, checked = outcome.document, outcome.checked

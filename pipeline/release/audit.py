@@ -20,6 +20,9 @@ PASS, DIFFERENCES, ERRORS = 0, 1, 2
 
 @dataclass
 class AuditReport:
+    """The outcome of an audit: integrity problems, changed inputs, settings and dependency
+    versions, differing files, and the species that differ with their causes."""
+
     status: int = PASS
     integrity: list = field(default_factory=list)       # problems of curated/ itself
     inputs_changed: list = field(default_factory=list)
@@ -31,6 +34,7 @@ class AuditReport:
     species: list = field(default_factory=list)          # diff entries, with causes
 
     def to_dict(self) -> dict:
+        """The report as the JSON ``audit --json`` prints."""
         return {"audit_format": 1, "status": ["pass", "differences", "errors"][self.status],
                 **{k: v for k, v in self.__dict__.items() if k != "status"}}
 
@@ -57,6 +61,7 @@ class Recorded:
 def read_release(curated_dir: Path) -> Recorded:
     """The manifest and library of the release in ``curated_dir``; InputError when it is not
     a release."""
+
     try:
         man = json.loads((curated_dir / "manifest.json").read_text(encoding="utf-8"))
         lib = json.loads((curated_dir / "library.json").read_text(encoding="utf-8"))
@@ -120,6 +125,7 @@ def _causes(rep, files):
 
 
 def render(rep: AuditReport) -> str:
+    """The audit report as the lines ``thermoledger audit`` prints."""
     lines = []
     word = ["PASS: a rebuild gives byte-identical outputs", "DIFFERENCES", "ERRORS"][rep.status]
     lines.append(f"audit: {word}")

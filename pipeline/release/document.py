@@ -137,6 +137,7 @@ def require_valid(doc: dict, name: str, what: str) -> None:
 
 
 def require_valid_library(doc: dict) -> None:
+    """OutputError unless ``doc`` follows schemas/library.schema.json."""
     require_valid(doc, "library.schema.json", "library.json")
 
 
@@ -151,6 +152,7 @@ def findings_document(findings) -> dict:
 
 
 def json_bytes(doc) -> bytes:
+    """Deterministic JSON bytes of ``doc``: indented, UTF-8, no NaN, a final newline."""
     return (json.dumps(doc, indent=1, ensure_ascii=False, allow_nan=False) + "\n").encode("utf-8")
 
 

@@ -1,23 +1,33 @@
-"""Plots of the build report, rendered at build time to SVG with matplotlib (Agg backend,
-no pyplot state). Each kind of plot is one figure reused from species to species (only
-the data change), which makes a thousand species a matter of seconds. Text stays text in
-the SVG (the viewer's own sans-serif font; nothing is fetched), and the SVG hash salt and
-metadata are fixed so the same inputs give byte-identical files."""
+"""Plots of the build report, rendered at build time to SVG with matplotlib.
 
+Figures are made directly (no pyplot state, no backend chosen) and the style applies only
+inside our own drawing (``rc_context``): importing this module changes no global state. Each
+kind of plot is one figure reused from species to species (only the data change), which
+makes a thousand species a matter of seconds. Text stays text in the SVG (the viewer's own
+sans-serif font; nothing is fetched), and the SVG hash salt and metadata are fixed so the
+same inputs give byte-identical files."""
+
+import functools
 import io
 
 import matplotlib
 import numpy as np
-
-matplotlib.use("Agg")
-from matplotlib.figure import Figure  # noqa: E402
+from matplotlib.figure import Figure
 
 from ..library import document as library
-from ..physics import forms  # noqa: E402
+from ..physics import forms
 
 STYLE = {"svg.hashsalt": "thermoledger", "svg.fonttype": "none", "font.size": 8,
          "axes.titlesize": 9, "axes.labelsize": 8, "font.family": "sans-serif"}
-matplotlib.rcParams.update(STYLE)
+
+
+def styled(draw):
+    """Run ``draw`` with the report's STYLE in force, and the caller's rcParams back after."""
+    @functools.wraps(draw)
+    def inner(*args, **kwargs):
+        with matplotlib.rc_context(STYLE):
+            return draw(*args, **kwargs)
+    return inner
 
 # our own palette
 INK, DATA, FIT, BAD, SHADE, GRID = "#22313f", "#1f7a8c", "#d1495b", "#8f2d56", "#edae49", "#d9d9d9"
@@ -33,6 +43,7 @@ class SpeciesPlotter:
     """Cp with data, fit, breakpoints and extrapolated intervals, over the relative deviation
     of the fit with the acceptance threshold — one reusable figure."""
 
+    @styled
     def __init__(self):
         self.fig = Figure(figsize=(7.2, 5.0))
         self.top, self.bottom = self.fig.subplots(2, 1, sharex=True,
@@ -58,7 +69,10 @@ class SpeciesPlotter:
         self.bottom.xaxis.set_major_locator(MaxNLocator(7))
         self.marks = []
 
+    @styled
     def render(self, sp, t, cp, t_out, cp_out, accept) -> bytes:
+        """The SVG of library entry ``sp`` with the rows used (t [K], cp [J/(mol K)]), the
+        rows left out, and the acceptance threshold ``accept`` (a fraction)."""
         for artist in self.marks:
             artist.remove()
         self.marks = []
@@ -93,6 +107,7 @@ class SpeciesPlotter:
 class DeviationPlotter:
     """H − H298 and S deviations of the fit from a table's columns."""
 
+    @styled
     def __init__(self):
         self.fig = Figure(figsize=(7.2, 2.6))
         self.left, self.right = self.fig.subplots(1, 2)
@@ -106,7 +121,9 @@ class DeviationPlotter:
             ax.set_xlabel("T [K]")
             ax.grid(color=GRID, lw=0.5)
 
+    @styled
     def render(self, t_h, dh_dev, t_s, s_dev) -> bytes:
+        """The SVG of fit − column for H − H298 [J/mol] at t_h [K] and S [J/(mol K)] at t_s."""
         self.h_line.set_data(t_h, dh_dev)
         self.s_line.set_data(t_s, s_dev)
         for ax in (self.left, self.right):
@@ -115,8 +132,10 @@ class DeviationPlotter:
         return _svg(self.fig)
 
 
+@styled
 def overview_figures(worst_percent, per_source) -> tuple:
-    """Distribution of the worst deviations, and species per source."""
+    """SVGs of the distribution of the worst deviations [%] and of species per source."""
+
     fig = Figure(figsize=(5.0, 3.0))
     ax = fig.subplots()
     fig.subplots_adjust(left=0.14, right=0.96, top=0.88, bottom=0.17)

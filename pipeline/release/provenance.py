@@ -25,6 +25,7 @@ DEPENDENCIES = ("numpy", "scipy", "pandas", "pyarrow", "pint", "molmass")
 
 
 def dependency_versions() -> dict:
+    """Installed versions of the numerical dependencies that can change results."""
     out = {}
     for name in DEPENDENCIES:
         try:
@@ -35,6 +36,8 @@ def dependency_versions() -> dict:
 
 
 def lineage(fitted) -> dict:
+    """The manifest's lineage of one fitted species: files and lines used, lines left out,
+    findings and fit settings."""
     meta, fit = fitted.table.meta, fitted.fit
     by_file = {}
     for file, line in fitted.rows:

@@ -59,10 +59,12 @@ LEGEND = ("<span style=\"color:#d1495b\">&#9473;</span> fitted curve · "
 
 
 def e(text) -> str:
+    """``text`` escaped for HTML (quotes included)."""
     return html.escape(str(text), quote=True)
 
 
 def page(title, body, depth=0, script="") -> bytes:
+    """A complete HTML page with the report's style, header and caution, as UTF-8 bytes."""
     up = "../" * depth
     js = f"<script>{script}</script>" if script else ""
     return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"/>"
@@ -74,6 +76,7 @@ def page(title, body, depth=0, script="") -> bytes:
 
 
 def status(sp) -> tuple:
+    """(css class, label) of a species' status in the report: ok, watch or held."""
     counted = [f for f in sp["findings"] if f["severity"] == "warning" and not f["acknowledged"]]
     if sp["extrapolated"] and any(x["model"] != "polynomial" for x in sp["extrapolated"]):
         return "watch", "extrapolated"
@@ -83,6 +86,7 @@ def status(sp) -> tuple:
 
 
 def species_page(sp, points, has_dev) -> bytes:
+    """The HTML page of one library species entry."""
     name = file_stem(sp["id"])
     q = sp["quality"]
     rows = [("form", sp["form"]), ("range of use", f"{sp['ranges'][0]['t_min']:g}-"
@@ -145,6 +149,7 @@ def species_page(sp, points, has_dev) -> bytes:
 
 
 def index_page(doc) -> bytes:
+    """The report's index: every species sortable, tables held back, overview plots."""
     body = [f"<p>{len(doc['species'])} species fitted, {len(doc['quarantined'])} table(s) held "
             "back. Click a column heading to sort.</p>",
             "<div class=\"overview\"><figure><img src=\"img/overview-deviation.svg\" alt=\""

@@ -18,6 +18,8 @@ DANGEROUS = ("=", "+", "-", "@", "\t", "\r")
 
 
 def tables_parquet_bytes(doc, step=100.0, points=None) -> bytes:
+    """tables.parquet: the evaluated table of every species (T [K], Cp [J/(mol K)], ...),
+    units in the key-value metadata."""
     parts = [species_rows(sp, step, points) for sp in doc["species"]]
     cols = {c: (np.concatenate([p[c] for p in parts]) if parts else np.array([]))
             for c in COLUMNS}
@@ -37,6 +39,7 @@ def neutralise(cell: str) -> str:
 
 
 def csv_bytes(sp, step=100.0, points=None) -> bytes:
+    """The evaluated table of one species as CSV bytes, text cells neutralised."""
     rows = species_rows(sp, step, points)
     out = io.StringIO(newline="")
     w = csv.writer(out, lineterminator="\n")
@@ -51,5 +54,6 @@ def csv_bytes(sp, step=100.0, points=None) -> bytes:
 
 
 def csv_files(doc, step=100.0, points=None) -> dict:
+    """{tables/<file stem>.csv: bytes} for every species of ``doc``."""
     return {f"tables/{file_stem(sp['id'])}.csv": csv_bytes(sp, step, points)
             for sp in doc["species"]}

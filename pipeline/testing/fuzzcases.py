@@ -236,8 +236,8 @@ def answer(kind: str, table: bytes, meta: bytes | None, limit: int = 20,
            publish: bool = False) -> dict:
     """Run the pipeline on one case, without writing (or, with ``publish``, the whole build
     with its report into a temporary release home); what happened."""
-    from thermoledger import build
-    from thermoledger.core.settings import OutputSettings, Settings
+    from .. import build
+    from ..core.settings import OutputSettings, Settings
 
     with tempfile.TemporaryDirectory() as tmp:
         lab = Path(tmp) / "raw" / "lab"

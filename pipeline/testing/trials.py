@@ -24,12 +24,14 @@ from dataclasses import replace
 
 import numpy as np
 import pandas as pd
-from thermoledger.checks import registry as validate
-from thermoledger.core import chemistry
-from thermoledger.core.constants import GAS_CONSTANT as R
-from thermoledger.core.records import SourceMeta, Table, TableMeta
-from thermoledger.core.settings import Settings
-from thermoledger.physics import statmech
+
+from ..checks import registry as validate
+from ..core import chemistry
+from ..core.constants import GAS_CONSTANT as R
+from ..core.constants import REFERENCE_TEMPERATURE
+from ..core.records import SourceMeta, Table, TableMeta
+from ..core.settings import Settings
+from ..physics import statmech
 
 COOLPROP = {  # name: (CoolProp fluid, formula, geometry)
     "N2": ("Nitrogen", "N2", "linear"),
@@ -80,7 +82,7 @@ def coolprop_cp(fluid, t):
 
 
 def grid(lo, hi, step):
-    return np.unique(np.append(np.arange(lo, hi + 1e-9, step), 298.15))
+    return np.unique(np.append(np.arange(lo, hi + 1e-9, step), REFERENCE_TEMPERATURE))
 
 
 def references():

@@ -12,11 +12,9 @@ import tempfile
 import time
 from pathlib import Path
 
-sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
-
-from bench_build import make_raw  # noqa: E402
+from bench_build import make_raw
 from thermoledger import build
-from thermoledger.release import audit  # noqa: E402
+from thermoledger.release import audit
 
 ROOT = Path(__file__).resolve().parent.parent
 

@@ -21,12 +21,9 @@ import time
 from pathlib import Path
 
 import numpy as np
-
-sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
-
-from thermoledger import build  # noqa: E402
+from thermoledger import build
 from thermoledger.checks import registry as validate
-from thermoledger.core.constants import GAS_CONSTANT  # noqa: E402
+from thermoledger.core.constants import GAS_CONSTANT
 from thermoledger.ingest import sources as ingest
 from thermoledger.physics import statmech
 

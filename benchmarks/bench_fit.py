@@ -17,16 +17,12 @@ import argparse
 import statistics
 import sys
 import time
-from pathlib import Path
 
 import numpy as np
 from scipy.optimize import minimize
-
-sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
-
-from thermoledger.core.constants import GAS_CONSTANT as R  # noqa: E402
+from thermoledger.core.constants import GAS_CONSTANT as R
 from thermoledger.fit import breakpoints, lsq
-from thermoledger.physics import basis, forms, statmech  # noqa: E402
+from thermoledger.physics import basis, forms, statmech
 
 
 def tables(n, points, seed=3):

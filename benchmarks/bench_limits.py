@@ -14,10 +14,7 @@ import tempfile
 import time
 from pathlib import Path
 
-ROOT = Path(__file__).resolve().parent.parent
-sys.path.insert(0, str(ROOT))
-
-from thermoledger.core.limits import MAX_ROWS, MAX_TABLE_BYTES  # noqa: E402
+from thermoledger.core.limits import MAX_ROWS, MAX_TABLE_BYTES
 
 
 def write(raw: Path, lines):
@@ -43,7 +40,7 @@ def rows(n):
 
 
 def run(raw):
-    code = (f"import sys, resource; sys.path.insert(0, {str(ROOT)!r}); from pipeline import cli; "
+    code = ("import sys, resource; from thermoledger.cli import main as cli; "
             f"cli.main(['check', '--raw', {str(raw)!r}]); "
             "print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss, file=sys.stderr)")
     t0 = time.monotonic()

@@ -11,11 +11,9 @@ import tempfile
 import time
 from pathlib import Path
 
-sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
-
-from bench_build import make_raw  # noqa: E402
-from thermoledger import build  # noqa: E402
-from thermoledger.core.settings import OutputSettings, Settings  # noqa: E402
+from bench_build import make_raw
+from thermoledger import build
+from thermoledger.core.settings import OutputSettings, Settings
 from thermoledger.library import tables
 from thermoledger.release import report
 

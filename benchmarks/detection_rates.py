@@ -11,11 +11,8 @@ names the right row. Clean noisy tables count false errors and false warnings.
 import argparse
 import sys
 import time
-from pathlib import Path
 
-sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
-
-from thermoledger.testing.trials import detection_rates  # noqa: E402
+from thermoledger.testing.trials import detection_rates
 
 
 def main(argv=None) -> int:

@@ -17,11 +17,8 @@ import sys
 import time
 from collections import Counter
 from concurrent.futures import ProcessPoolExecutor
-from pathlib import Path
 
-sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
-
-from thermoledger.testing.fuzzcases import PUBLISH_EVERY, answer, cases  # noqa: E402
+from thermoledger.testing.fuzzcases import PUBLISH_EVERY, answer, cases
 
 
 def _run(case, limit):

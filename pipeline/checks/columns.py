@@ -15,6 +15,7 @@ from scipy.interpolate import CubicSpline, PchipInterpolator
 
 from ..core.constants import REFERENCE_TEMPERATURE
 from ..core.findings import finding
+from ..core.records import valid_rows
 
 H_ROUNDING = 2.0     # [J/mol], allowance for tabulated rounding (common practice)
 S_ROUNDING = 0.01    # [J/(mol K)]
@@ -42,8 +43,7 @@ def check_columns(table, ctx):
     has_s = data["S"].notna().sum() >= 2
     if not (has_h or has_s):
         return []
-    d = data[np.isfinite(data["T"]) & np.isfinite(data["Cp"]) & (data["T"] > 0)]
-    d = d.sort_values("T", kind="stable")
+    d = valid_rows(data)
     t, cp, lines = d["T"].to_numpy(), d["Cp"].to_numpy(), d["line"].to_numpy()
     if len(t) < 4 or np.any(np.diff(t) <= 0):
         return []

@@ -3,6 +3,7 @@
 import numpy as np
 
 from ..core.findings import finding
+from ..core.records import valid_rows
 from ..core.settings import for_table
 
 
@@ -10,11 +11,8 @@ def check_gaps(table, ctx):
     """COV-GAP findings: gaps between consecutive temperatures [K] wider than the settings' ratio
     and width."""
     s = ctx.checks
-    d = table.data
+    d = valid_rows(table.data)
     t, lines = d["T"].to_numpy(), d["line"].to_numpy()
-    ok = np.isfinite(t) & (t > 0)
-    order = np.argsort(t[ok], kind="stable")
-    t, lines = t[ok][order], lines[ok][order]
     out = []
     for i in range(len(t) - 1):
         if t[i + 1] / t[i] > s.gap_ratio and t[i + 1] - t[i] > s.gap_width:

@@ -20,7 +20,7 @@ from pathlib import Path
 import numpy as np
 
 from ..core.constants import REFERENCE_TEMPERATURE
-from ..core.errors import InputError, SpeciesNotFound
+from ..core.errors import SpeciesNotFound
 from ..physics import forms
 from . import document
 from .tables import species_rows

@@ -156,13 +156,25 @@ def json_bytes(doc) -> bytes:
     return (json.dumps(doc, indent=1, ensure_ascii=False, allow_nan=False) + "\n").encode("utf-8")
 
 
+#: the columns of library.parquet: (name, Table Schema type, description); the Data Package
+#: descriptor (provenance.py) and the Parquet writer both read this list
+LIBRARY_PARQUET_COLUMNS = [
+    ("id", "string", "species id, formula(phase)"), ("formula", "string", ""),
+    ("phase", "string", "g, l or cr"), ("geometry", "string", ""),
+    ("molar_mass", "number", "g/mol"), ("enthalpy_of_formation_298", "number", "J/mol"),
+    ("entropy_298", "number", "J/(mol K), 1 bar"), ("form", "string", "nasa7, nasa9, shomate"),
+    ("range_index", "integer", ""), ("t_min", "number", "K"), ("t_max", "number", "K"),
+    ("coefficients", "array", "published form named by 'form'"),
+    ("data_t_min", "number", "K"), ("data_t_max", "number", "K"),
+    ("cp_max_rel_dev", "number", ""), ("cp_rms_rel_dev", "number", ""),
+    ("points", "integer", ""), ("extrapolated", "string", "JSON"),
+    ("sources", "string", "JSON"), ("findings", "string", "JSON"),
+]
+
+
 def library_parquet_bytes(doc: dict) -> bytes:
     """library.parquet: one row per species and range; build metadata as key-value metadata."""
-    cols = {k: [] for k in ("id", "formula", "phase", "geometry", "molar_mass",
-                            "enthalpy_of_formation_298", "entropy_298", "form", "range_index",
-                            "t_min", "t_max", "coefficients", "data_t_min", "data_t_max",
-                            "cp_max_rel_dev", "cp_rms_rel_dev", "points", "extrapolated",
-                            "sources", "findings")}
+    cols = {name: [] for name, _, _ in LIBRARY_PARQUET_COLUMNS}
     for sp in doc["species"]:
         for j, r in enumerate(sp["ranges"]):
             row = {"id": sp["id"], "formula": sp["formula"], "phase": sp["phase"],
@@ -180,11 +192,10 @@ def library_parquet_bytes(doc: dict) -> bytes:
                    "findings": json.dumps(sp["findings"], ensure_ascii=False)}
             for k, v in row.items():
                 cols[k].append(v)
-    types = {"range_index": pa.int32(), "points": pa.int32(),
-             "coefficients": pa.list_(pa.float64())}
-    text = ("id", "formula", "phase", "geometry", "form", "extrapolated", "sources", "findings")
-    arrays = {k: pa.array(v, type=types.get(k, pa.string() if k in text else pa.float64()))
-              for k, v in cols.items()}
+    arrow = {"string": pa.string(), "number": pa.float64(), "integer": pa.int32(),
+             "array": pa.list_(pa.float64())}
+    arrays = {name: pa.array(cols[name], type=arrow[kind])
+              for name, kind, _ in LIBRARY_PARQUET_COLUMNS}
     meta = {k: json.dumps(doc[k], ensure_ascii=False) for k in (
         "library_format", "notice", "gas_constant", "reference_temperature", "standard_pressure",
         "units", "build")}

@@ -20,6 +20,7 @@ import re
 
 from .. import __version__
 from ..core.names import file_stem, file_stems, safe_name, sha256  # noqa: F401 (re-exported)
+from . import document
 
 DEPENDENCIES = ("numpy", "scipy", "pandas", "pyarrow", "pint", "molmass")
 
@@ -76,19 +77,6 @@ def manifest(fitted, quarantined, inputs, outputs, settings: dict, inputs_digest
     }
 
 
-PARQUET_FIELDS = [  # Table Schema of library.parquet
-    ("id", "string", "species id, formula(phase)"), ("formula", "string", ""),
-    ("phase", "string", "g, l or cr"), ("geometry", "string", ""),
-    ("molar_mass", "number", "g/mol"), ("enthalpy_of_formation_298", "number", "J/mol"),
-    ("entropy_298", "number", "J/(mol K), 1 bar"), ("form", "string", "nasa7, nasa9, shomate"),
-    ("range_index", "integer", ""), ("t_min", "number", "K"), ("t_max", "number", "K"),
-    ("coefficients", "array", "published form named by 'form'"),
-    ("data_t_min", "number", "K"), ("data_t_max", "number", "K"),
-    ("cp_max_rel_dev", "number", ""), ("cp_rms_rel_dev", "number", ""),
-    ("points", "integer", ""), ("extrapolated", "string", "JSON"),
-    ("sources", "string", "JSON"), ("findings", "string", "JSON"),
-]
-
 MEDIA = {".json": ("json", "application/json"),
          ".parquet": ("parquet", "application/vnd.apache.parquet"),
          ".html": ("html", "text/html"), ".svg": ("svg", "image/svg+xml"),
@@ -107,7 +95,7 @@ def datapackage(outputs, sources, notice: str) -> dict:
         if path == "library.parquet":
             res["profile"] = "tabular-data-resource"
             res["schema"] = {"fields": [{"name": n, "type": t, **({"description": d} if d else {})}
-                                        for n, t, d in PARQUET_FIELDS],
+                                        for n, t, d in document.LIBRARY_PARQUET_COLUMNS],
                              "primaryKey": ["id", "range_index"]}
         resources.append(res)
     licenses = sorted({s.license for s in sources})

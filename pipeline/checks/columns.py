@@ -19,6 +19,7 @@ from ..core.records import valid_rows
 
 H_ROUNDING = 2.0     # [J/mol], allowance for tabulated rounding (common practice)
 S_ROUNDING = 0.01    # [J/(mol K)]
+TABLE_ROUNDING_REL = 1e-4  # relative rounding of tabulated H-H298 and S (common practice)
 S298_TOLERANCE = 0.05  # [J/(mol K)], S column vs entropy_298 (common practice)
 
 
@@ -67,11 +68,11 @@ def check_columns(table, ctx):
             j = int(np.argmin(np.abs(t[m] - tref)))
             h0 = float(h[m][j] - ih[m][j])  # the column's own value at 298.15 K
             ref = h0
-            if abs(h0) > H_ROUNDING + 1e-4 * abs(h[m]).max():
+            if abs(h0) > H_ROUNDING + TABLE_ROUNDING_REL * abs(h[m]).max():
                 out.append(finding("CONS-H298", f"H-H298 at 298.15 K is {h0:.6g} J/mol",
                                    column="H-H298", seen=f"{h0:.6g}", expected="0", **where))
         dev = h - (ih + ref)
-        tol = 3 * u_rel * np.abs(ih) + 2 * eh + 1e-4 * np.abs(h) + H_ROUNDING
+        tol = 3 * u_rel * np.abs(ih) + 2 * eh + TABLE_ROUNDING_REL * np.abs(h) + H_ROUNDING
         bad = m & (np.abs(dev) > tol)
         if bad.any():
             i = int(np.argmax(bad))
@@ -96,7 +97,7 @@ def check_columns(table, ctx):
                                    line=int(lines[m][j]), seen=f"{s0:.6g}",
                                    expected=f"{s298:.6g} ± {S298_TOLERANCE}", **where))
         dev = s - (is_ + base)
-        tol = 3 * u_rel * np.abs(is_) + 2 * es + 1e-4 * np.abs(s) + S_ROUNDING
+        tol = 3 * u_rel * np.abs(is_) + 2 * es + TABLE_ROUNDING_REL * np.abs(s) + S_ROUNDING
         bad = m & (np.abs(dev) > tol)
         if bad.any():
             i = int(np.argmax(bad))

@@ -30,6 +30,10 @@ from ..core.records import valid_rows
 from .physical import factor_candidates
 from .smoothness import EXCLUDING
 
+#: a median ratio between two sources is tested against the unit factors only when
+#: |ln ratio| exceeds this (a factor of 1.22; every factor we look for is larger)
+FACTOR_MIN_LOG_RATIO = 0.2
+
 
 @dataclass(frozen=True)
 class SourceUse:
@@ -149,7 +153,7 @@ def _select(sid, tables, about, ctx):
             continue
         dev, t_at, ratio, lo, hi = got
         factor = _factor_of(ratio, other.meta.molar_mass, ctx.checks.factor_tolerance) \
-            if abs(math.log(ratio)) > 0.2 else None
+            if abs(math.log(ratio)) > FACTOR_MIN_LOG_RATIO else None
         if factor:
             name, f, fix = factor
             err = finding("SRC-FACTOR", f"{sid}: this table is {ratio:.6g} times "

@@ -40,6 +40,16 @@ from ..physics.statmech import einstein
 B_GRID = np.geomspace(30.0, 20000.0, 80)  # [K]
 #: hold-out errors within this factor of each other do not tell two model families apart
 FAMILY_TIE = 2.0
+#: oscillator models: first guesses and bounds of the characteristic temperatures [K]
+THETA_START = (500.0, 4000.0)
+THETA_BOUNDS = (20.0, 2.0e4)
+#: the two-level term: (degeneracy ratio, θe [K]) start, low and high bounds
+ELECTRONIC_START, ELECTRONIC_LOW, ELECTRONIC_HIGH = (1.0, 8000.0), (0.0, 100.0), (10.0, 1.0e5)
+#: the shared anharmonic coefficient β [-]: start and bounds
+ANHARMONIC_START, ANHARMONIC_BOUNDS = 0.01, (0.0, 0.2)
+#: guards of an extension: it joins the data within this fraction, never falls (on the high
+#: side) by more than this fraction per step, and stays above 5/2 R less this fraction
+JOIN_TOLERANCE, FALL_TOLERANCE, TRANSLATION_FLOOR = 0.05, 1e-4, 1e-3
 
 
 @dataclass(frozen=True)
@@ -105,9 +115,10 @@ def _fit_oscillator_model(t, cp, k, modes, shape, extra0=(), extra_lo=(), extra_
         per_unit, added = shape(p[:k], x, p[2 * k - 1:])
         return (np.sum(g[None, :] * per_unit, axis=1) if modes else 0.0) + added
 
-    p0 = np.concatenate([np.geomspace(500.0, 4000.0, k), np.full(k - 1, modes / k), extra0])
-    lo = np.concatenate([np.full(k, 20.0), np.zeros(k - 1), extra_lo])
-    hi = np.concatenate([np.full(k, 2.0e4), np.full(k - 1, float(max(modes, 1))), extra_hi])
+    p0 = np.concatenate([np.geomspace(*THETA_START, k), np.full(k - 1, modes / k), extra0])
+    lo = np.concatenate([np.full(k, THETA_BOUNDS[0]), np.zeros(k - 1), extra_lo])
+    hi = np.concatenate([np.full(k, THETA_BOUNDS[1]), np.full(k - 1, float(max(modes, 1))),
+                         extra_hi])
 
     def resid(p):
         r = (model(p, t) - cp) / cp
@@ -141,8 +152,8 @@ def fit_oscillators_electronic(t, cp, k, c0, modes):
         el = ratio * xe * xe * np.exp(-xe) / (1.0 + ratio * np.exp(-xe)) ** 2
         return R * einstein(th[None, :] / x[:, None]), c0 + R * el
 
-    return _fit_oscillator_model(t, cp, k, modes, shape, [1.0, 8000.0], [0.0, 100.0],
-                                 [10.0, 1.0e5])
+    return _fit_oscillator_model(t, cp, k, modes, shape, ELECTRONIC_START, ELECTRONIC_LOW,
+                                 ELECTRONIC_HIGH)
 
 
 def fit_oscillators_anharmonic(t, cp, k, c0, modes):
@@ -156,7 +167,8 @@ def fit_oscillators_anharmonic(t, cp, k, c0, modes):
         ratio = x[:, None] / th[None, :]
         return R * einstein(th[None, :] / x[:, None]) * (1.0 + beta * ratio), c0
 
-    return _fit_oscillator_model(t, cp, k, modes, shape, [0.01], [0.0], [0.2])
+    return _fit_oscillator_model(t, cp, k, modes, shape, [ANHARMONIC_START],
+                                 [ANHARMONIC_BOUNDS[0]], [ANHARMONIC_BOUNDS[1]])
 
 
 def candidates(geometry, atoms):
@@ -181,13 +193,13 @@ def candidates(geometry, atoms):
 def _guards(pred, side, geometry, atoms, margin, cp_edge):
     if not np.all(np.isfinite(pred)):
         return False
-    if np.any(pred < bounds.TRANSLATION_CP * 0.999):
+    if np.any(pred < bounds.TRANSLATION_CP * (1 - TRANSLATION_FLOOR)):
         return False
     if np.any(pred > bounds.cp_infinity(geometry, atoms) * (1 + margin)):
         return False
-    if side == "high" and np.any(np.diff(pred) < -1e-4 * pred[:-1]):
+    if side == "high" and np.any(np.diff(pred) < -FALL_TOLERANCE * pred[:-1]):
         return False
-    return abs(pred[0] / cp_edge - 1) < 0.05  # must join the data
+    return abs(pred[0] / cp_edge - 1) < JOIN_TOLERANCE  # must join the data
 
 
 def extend(t, cp, geometry, atoms, t_to, *, side="high", holdout=0.25, margin=0.10,

@@ -6,7 +6,7 @@ a Sabatier branch to CH4, buffer gases N2 and Ar, and trace NO, N2O, SO2 and NH3
 monitored by the analysers. Two sources feed its property library:
 
 * ``isru-rrho-2026`` — COMPUTED: ideal-gas heat capacities in the rigid-rotor /
-  harmonic-oscillator model (pipeline.statmech) from vibrational wavenumbers
+  harmonic-oscillator model (thermoledger.physics.statmech) from vibrational wavenumbers
   and low electronic levels. Wavenumbers are recalled from memory of
   T. Shimanouchi, Tables of Molecular Vibrational Frequencies Consolidated
   Vol. I, NSRDS-NBS 39 (1972), and K. P. Huber & G. Herzberg, Constants of
@@ -24,17 +24,14 @@ the CODATA Key Values (Cox, Wagman & Medvedev, 1989) and the NIST-JANAF tables
 """
 
 import json
-import sys
 from pathlib import Path
 
 import numpy as np
 from scipy.integrate import quad
+from thermoledger.core.constants import ENTROPY_ATM_TO_BAR, GAS_CONSTANT
+from thermoledger.physics.statmech import rrho_cp_over_r
 
 ROOT = Path(__file__).resolve().parent
-sys.path.insert(0, str(ROOT.parent))
-
-from thermoledger.core.constants import ENTROPY_ATM_TO_BAR, GAS_CONSTANT  # noqa: E402
-from thermoledger.physics.statmech import rrho_cp_over_r  # noqa: E402
 
 # name: formula, geometry, wavenumbers [1/cm], degeneracies, levels [(g, 1/cm)],
 #       dfH298 [kJ/mol], S298 at 1 bar [J/(mol K)]  -- all from memory, demo only
@@ -119,7 +116,7 @@ def computed_source(folder: Path):
     meta = {
         "source": "isru-rrho-2026",
         "title": "Rigid-rotor/harmonic-oscillator heat capacities for the ISRU demo loop",
-        "citation": "Computed with thermoledger raw/make_demo.py (pipeline.statmech); "
+        "citation": "Computed with thermoledger raw/make_demo.py (thermoledger.physics.statmech); "
                     "wavenumbers from memory of Shimanouchi, NSRDS-NBS 39 (1972) and "
                     "Huber & Herzberg (1979)",
         "method": "statistical-mechanics",

@@ -28,6 +28,7 @@ class BuildResult:
     written: tuple         # paths written
     files: dict = None     # {relative path: bytes} of the release
     held_back: tuple = ()  # (file, error findings): sources and tables that could not be read
+    inputs: tuple = ()     # InputFile of every raw input read
 
 
 def examine(raw_dir, ctx: Settings = Settings()) -> CheckResult:
@@ -114,9 +115,11 @@ def _fit_all(checked: CheckResult, ctx: Settings, say):
                 raise FitError(sel.species_id, f"the fitted entry holds a non-finite number at "
                                f"{bad}")
         except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
-            f = (finding("FIT-REJECTED" if isinstance(exc, fit.FitRejected) else "FIT-FAILED",
-                         exc.reason, **where) if isinstance(exc, FitError)
-                 else stage_failed("fit", exc, **where))
+            if isinstance(exc, FitError):
+                code = "FIT-REJECTED" if isinstance(exc, fit.FitRejected) else "FIT-FAILED"
+                f = finding(code, exc.reason, **where)
+            else:
+                f = stage_failed("fit", exc, **where)
             findings.append(f)
             quarantined.append((meta, (f,)))
             continue
@@ -141,7 +144,7 @@ def _build(raw_dir, out_dir, ctx: Settings, progress) -> BuildResult:
         out_dir, files, check=_verify, on_swap=lambda: say("published"))
     return BuildResult(fitted=tuple(fitted), quarantined=tuple(quarantined),
                        findings=tuple(findings), document=doc, written=tuple(written),
-                       files=files, held_back=checked.held_back)
+                       files=files, held_back=checked.held_back, inputs=checked.inputs)
 
 
 def _verify(folder):
@@ -154,7 +157,7 @@ def audit(raw_dir, curated_dir, ctx: Settings = Settings()) -> audit_stage.Audit
     """Compare the release in ``curated_dir`` with a rebuild of ``raw_dir`` with ``ctx`` in a
     temporary folder: inputs, settings, dependency versions, files and species."""
     recorded = audit_stage.read_release(Path(curated_dir))
-    inputs = ingest.ingest(raw_dir).inputs
     with tempfile.TemporaryDirectory(prefix="thermoledger-audit-") as tmp:
         result = build(raw_dir, Path(tmp) / "release", ctx)
-    return audit_stage.compare(recorded, inputs, result.files, result.document, ctx.to_dict())
+    return audit_stage.compare(recorded, result.inputs, result.files, result.document,
+                               ctx.to_dict())

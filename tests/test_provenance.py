@@ -16,6 +16,7 @@ import numpy as np
 import pytest
 from hypothesis import given
 from hypothesis import strategies as st
+from thermoledger.core import names
 from thermoledger.library import document as library
 from thermoledger.physics import forms
 from thermoledger.release import provenance, publish
@@ -134,8 +135,8 @@ def test_provenance_reads_as_w3c_prov(demo_release):
     doc = prov_model.ProvDocument.deserialize(content=text, format="json")
     derived = [r for r in doc.get_records(prov_model.ProvDerivation)]
     pairs = {(str(r.formal_attributes[0][1]), str(r.formal_attributes[1][1])) for r in derived}
-    assert (f"tl:species-{provenance.file_stem('N2O(g)')}", "raw:isru-benchlog-2026_n2o.csv") in pairs
-    assert any(str(a) == f"tl:fit-{provenance.file_stem('N2O(g)')}" for a in
+    assert (f"tl:species-{names.file_stem('N2O(g)')}", "raw:isru-benchlog-2026_n2o.csv") in pairs
+    assert any(str(a) == f"tl:fit-{names.file_stem('N2O(g)')}" for a in
                [r.identifier for r in doc.get_records(prov_model.ProvActivity)])
 
 
@@ -231,12 +232,12 @@ def test_killed_builds_leave_a_complete_release(two_releases, tmp_path):
 
 @given(st.text(max_size=40))
 def test_species_ids_are_sanitised_for_file_names(text):
-    name = provenance.safe_name(text)
+    name = names.safe_name(text)
     assert name and "/" not in name and ".." not in name and not name.startswith(".")
     assert all(c.isalnum() or c in "._-" for c in name) and len(name) <= 80
 
 
 def test_safe_name_of_a_species_id():
-    assert provenance.safe_name("CO2(g)") == "CO2_g"
-    assert provenance.safe_name("../../etc/passwd") == "etc_passwd"
-    assert np.all([provenance.safe_name(x) for x in ("N2O(g)", "NO+(g)")])
+    assert names.safe_name("CO2(g)") == "CO2_g"
+    assert names.safe_name("../../etc/passwd") == "etc_passwd"
+    assert np.all([names.safe_name(x) for x in ("N2O(g)", "NO+(g)")])

@@ -13,6 +13,8 @@ import uuid
 from pathlib import Path
 
 import pytest
+from thermoledger.core import names
+from thermoledger.library import document
 from thermoledger.release import provenance, publish
 from thermoledger.testing import table_entry, write_source
 
@@ -176,7 +178,7 @@ def test_readers_see_one_release_while_builds_publish(tmp_path, capsys):
     builds = [_cli(*build_args(r, out, "--wait", "120")) for r in (raw_b, raw_a)]
     reads = mixed = 0
     while any(p.poll() is None for p in builds) or reads < 50:
-        folder = publish.release_folder(out)
+        folder = document.release_folder(out)
         try:
             man = json.loads((folder / "manifest.json").read_bytes())
             listed = {o["path"]: o["sha256"] for o in man["outputs"]}
@@ -270,8 +272,8 @@ def test_species_ids_that_sanitise_alike_get_their_own_files(tmp_path, capsys):
     csvs = sorted(os.listdir(out / "tables"))
     assert len(pages) == 4 and len({p.lower() for p in pages}) == 4
     assert len(csvs) == 4 and len({c.lower() for c in csvs}) == 4
-    assert provenance.file_stem("NO+(g)") == provenance.file_stem("NO+(g)")   # stable
-    assert provenance.file_stem("NO(g)").startswith("NO_g-")
+    assert names.file_stem("NO+(g)") == names.file_stem("NO+(g)")   # stable
+    assert names.file_stem("NO(g)").startswith("NO_g-")
 
 
 @pytest.mark.parametrize("argv, option", [

@@ -8,12 +8,13 @@ from html.parser import HTMLParser
 import numpy as np
 import pyarrow.parquet as pq
 import pytest
+from thermoledger.core import names
 from thermoledger.core.constants import GAS_CONSTANT as R
-from thermoledger.release import provenance, tables
+from thermoledger.release import tables
 
 from .conftest import run_cli as run
 
-N2 = provenance.file_stem("N2(g)")  # the file name of N2(g)'s page, plot and table
+N2 = names.file_stem("N2(g)")  # the file name of N2(g)'s page, plot and table
 
 
 @pytest.fixture

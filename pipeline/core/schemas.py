@@ -28,6 +28,11 @@ def validator(name: str):
     return Draft202012Validator(schema)
 
 
+def where(error) -> str:
+    """The path of the field a schema error is about, 'tables/0/file', or '(top level)'."""
+    return "/".join(map(str, error.absolute_path)) or "(top level)"
+
+
 def errors_of(doc, name: str) -> list:
     """Every way ``doc`` breaks schemas/``name``, sorted by the path of the offending field."""
     return sorted(validator(name).iter_errors(doc), key=lambda e: list(map(str, e.path)))

@@ -63,7 +63,7 @@ def parse_source(text: str, *, file: str, folder: str, digest: str):
     errors = schemas.errors_of(doc, "source.schema.json")
     if errors:
         return None, [], [finding("SRC-SCHEMA", _schema_message(e), file=file,
-                                  column="/".join(map(str, e.absolute_path)) or "(top level)",
+                                  column=schemas.where(e),
                                   seen=clip(repr(e.instance)), expected=_expected(e))
                           for e in errors]
     try:

@@ -28,7 +28,6 @@ from .tables import species_rows
 
 def _kelvin(temperature) -> tuple[np.ndarray, bool]:
     """(temperatures [K] as a float array, True when the input was a scalar)."""
-
     if type(temperature).__module__.split(".")[0] == "pint":
         temperature = temperature.to("kelvin").magnitude
     t = np.asarray(temperature, dtype=float)
@@ -68,11 +67,16 @@ class Species:
     def __repr__(self) -> str:
         return f"<Species {self.id} {self.form} {self.t_min:g}-{self.t_max:g} K>"
 
-    def _values(self, temperature) -> tuple[dict, tuple, bool]:
+    def _checked(self, temperature) -> tuple[np.ndarray, tuple, bool]:
+        """(temperatures [K] flattened, their shape, scalar?) once inside the range of use."""
         t, scalar = _kelvin(temperature)
         flat = t.reshape(-1)
         document.check_range(self.entry, flat)
-        return forms.evaluate_ranges(self._ranges, flat, self.form), t.shape, scalar
+        return flat, t.shape, scalar
+
+    def _values(self, temperature) -> tuple[dict, tuple, bool]:
+        flat, shape, scalar = self._checked(temperature)
+        return forms.evaluate_ranges(self._ranges, flat, self.form), shape, scalar
 
     def cp(self, temperature):
         """Isobaric heat capacity Cp [J/(mol K)] at T [K]."""
@@ -111,11 +115,9 @@ class Species:
         """Standard uncertainties {'cp', 'h', 's'} at T [K]: u(Cp) [J/(mol K)], u(H) [J/mol]
         and u(S) [J/(mol K)] (H and S relative to their exact 298.15 K anchors), each shaped
         like ``temperature``."""
-        t, scalar = _kelvin(temperature)
-        flat = t.reshape(-1)
-        document.check_range(self.entry, flat)
+        flat, shape, scalar = self._checked(temperature)
         u = document.uncertainty(self.entry, flat)
-        return {k: _shaped(u[key], t.shape, scalar)
+        return {k: _shaped(u[key], shape, scalar)
                 for k, key in (("cp", "u_Cp"), ("h", "u_H"), ("s", "u_S"))}
 
     def is_extrapolated(self, temperature):
@@ -128,9 +130,7 @@ class Species:
     def table(self, temperatures=None, step: float = 100.0) -> dict:
         """The evaluated table as columns of arrays: at ``temperatures`` [K], or at 298.15 K
         and every ``step`` K over the range of use (see ``library.tables``)."""
-        points = None if temperatures is None else np.atleast_1d(_kelvin(temperatures)[0])
-        if points is not None:
-            document.check_range(self.entry, points)
+        points = None if temperatures is None else self._checked(temperatures)[0]
         return species_rows(self.entry, step, points)
 
     def to_pandas(self, temperatures=None, step: float = 100.0):

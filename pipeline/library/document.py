@@ -36,8 +36,8 @@ def load(path) -> dict:
     errors = schemas.errors_of(doc, "library.schema.json")
     if errors:
         e = errors[0]
-        where = "/".join(map(str, e.absolute_path)) or "(top level)"
-        raise InputError(f"{p} breaks the library schema at {where}: {e.message[:200]} "
+        raise InputError(f"{p} breaks the library schema at {schemas.where(e)}: "
+                         f"{e.message[:200]} "
                          f"({len(errors)} problem(s))",
                          expected="a library.json written by thermoledger")
     return doc

@@ -131,8 +131,7 @@ def require_valid(doc: dict, name: str, what: str) -> None:
     errors = schemas.errors_of(doc, name)
     if errors:
         e = errors[0]
-        path = "/".join(map(str, e.absolute_path)) or "(top level)"
-        raise OutputError(f"{what} would break schemas/{name} at {path}: "
+        raise OutputError(f"{what} would break schemas/{name} at {schemas.where(e)}: "
                           f"{e.message} ({len(errors)} problem(s))")
 
 

@@ -19,7 +19,7 @@ import importlib.metadata as md
 import re
 
 from .. import __version__
-from ..core.names import file_stem, file_stems, safe_name, sha256  # noqa: F401 (re-exported)
+from ..core.names import file_stem, safe_name, sha256
 from . import document
 
 DEPENDENCIES = ("numpy", "scipy", "pandas", "pyarrow", "pint", "molmass")

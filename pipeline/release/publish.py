@@ -38,7 +38,7 @@ from pathlib import Path
 
 from ..core.errors import OutputError
 from ..core.names import sha256
-from ..library.document import CURRENT, release_folder  # noqa: F401 (re-exported)
+from ..library.document import CURRENT
 
 LOCK = ".lock"
 RELEASES = "releases"

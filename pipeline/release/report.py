@@ -10,9 +10,9 @@ from collections import Counter
 
 import numpy as np
 
+from ..core.names import file_stem
 from . import plots
 from .document import NOTICE
-from .provenance import file_stem
 
 CSS = """
 body{font-family:system-ui,sans-serif;margin:0;color:#22313f;background:#f7f5f0}

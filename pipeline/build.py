@@ -7,10 +7,11 @@ from pathlib import Path
 
 from . import fit, ingest
 from .checks import acknowledge, reconcile, registry
-from .core.errors import FitError, OutputError
+from .core.errors import FitError, InputError, OutputError
 from .core.findings import ERROR, by_subject, finding, stage_failed
 from .core.records import CheckResult, CpData, FittedSpecies, SpeciesIdentity
 from .core.settings import Settings, for_table
+from .library import document as library
 from .release import assemble, provenance, publish
 from .release import audit as audit_stage
 from .release import document as release_document
@@ -61,11 +62,34 @@ def held_back(tables, findings) -> tuple:
     return tuple((k, tuple(v)) for k, v in sorted(about.items()) if k not in read)
 
 
-def fit_selection(sel, ctx: Settings):
-    """Fit one reconciled species with the build's settings and its table's overrides."""
+def fit_selection(sel, ctx: Settings, previous=None):
+    """Fit one reconciled species with the build's settings and its table's overrides;
+    ``previous`` its breakpoints in the previous release (offered to the search)."""
     meta = sel.primary.meta
     return fit.fit_species(SpeciesIdentity.of_table(meta), CpData.of_frame(sel.data),
-                           for_table(ctx.fit, meta.fit_overrides))
+                           for_table(ctx.fit, meta.fit_overrides), previous)
+
+
+def previous_breakpoints(out_dir) -> dict:
+    """{species id: breakpoints [K]} of the release published in ``out_dir``, offered to the
+    breakpoint search so that breakpoints stay where they were unless the data say otherwise;
+    empty when there is none or it cannot be read (a first build)."""
+    try:
+        doc = library.load(out_dir)
+    except InputError:
+        return {}
+    return {sp["id"]: tuple(sp["breakpoints"]) for sp in doc["species"]}
+
+
+def offered_breakpoints(doc: dict) -> dict:
+    """{species id: breakpoints [K]} that a release's build was offered from its previous
+    release (its recorded breakpoint choices): what a rebuild must be offered again."""
+    out = {}
+    for sp in doc["species"]:
+        choice = sp.get("breakpoint_choice") or {}
+        if choice.get("offered_by") == "previous release":
+            out[sp["id"]] = tuple(choice["offered"])
+    return out
 
 
 def species_findings(sel, about) -> tuple:
@@ -75,19 +99,23 @@ def species_findings(sel, about) -> tuple:
 
 
 def build(raw_dir, out_dir, ctx: Settings = Settings(), *, write=True, progress=None,
-          wait: float = 0.0) -> BuildResult:
+          wait: float = 0.0, previous=None) -> BuildResult:
     """Run every stage; publish the outputs as the new release of ``out_dir`` unless
     ``write`` is False. The output folder is vetted (publish.vet_output_folder) and locked
-    before any work, so a refused or busy folder costs nothing."""
+    before any work, so a refused or busy folder costs nothing. ``previous`` maps species
+    ids to the breakpoints offered to the search; by default those of the release already
+    published in ``out_dir``."""
     if not write:
-        return _build(raw_dir, None, ctx, progress)
+        return _build(raw_dir, None, ctx, progress, previous or {})
     real = publish.vet_output_folder(out_dir, [raw_dir])
     with publish.locked(real, wait):
-        result = _build(raw_dir, real, ctx, progress)
+        if previous is None:
+            previous = previous_breakpoints(real)
+        result = _build(raw_dir, real, ctx, progress, previous)
     return result
 
 
-def _fit_all(checked: CheckResult, ctx: Settings, say):
+def _fit_all(checked: CheckResult, ctx: Settings, say, previous: dict):
     """(fitted, quarantined, findings, entries) after fitting every selection; a species whose
     fit fails or raises is quarantined with its finding, and the rest go on."""
     findings = list(checked.findings)
@@ -100,7 +128,7 @@ def _fit_all(checked: CheckResult, ctx: Settings, say):
         say("fit", k + 1, n_sel, sel.species_id)
         where = dict(source=meta.source.id, file=meta.file)
         try:
-            result = fit_selection(sel, ctx)
+            result = fit_selection(sel, ctx, previous.get(sel.species_id))
             notes = [finding(code, msg, **where) for code, msg in result.notes]
             rows = tuple(sorted(zip(sel.data["file"].tolist(),
                                     (int(x) for x in sel.data["line"]))))
@@ -129,17 +157,17 @@ def _fit_all(checked: CheckResult, ctx: Settings, say):
     return fitted, quarantined, findings, entries
 
 
-def _build(raw_dir, out_dir, ctx: Settings, progress) -> BuildResult:
+def _build(raw_dir, out_dir, ctx: Settings, progress, previous: dict) -> BuildResult:
     say = progress or (lambda stage, i=0, n=0, label="": None)
     say("read and check", 0, 0, str(raw_dir))
     checked = examine(raw_dir, ctx)
-    fitted, quarantined, findings, entries = _fit_all(checked, ctx, say)
+    fitted, quarantined, findings, entries = _fit_all(checked, ctx, say, previous)
     digest = ingest.inputs_digest(checked.inputs)
     doc = release_document.library_document(fitted, quarantined, digest, ctx.to_dict(), entries)
-    say("write", 0, 0, str(out_dir or ""))
     outcome = assemble.Outcome(document=doc, findings=tuple(findings), fitted=tuple(fitted),
                                quarantined=tuple(quarantined), checked=checked)
-    files = assemble.release_files(outcome, ctx)
+    files = assemble.release_files(outcome, ctx, say)
+    say("publish", 0, 0, str(out_dir or ""))
     written = [] if out_dir is None else publish.publish(
         out_dir, files, check=_verify, on_swap=lambda: say("published"))
     return BuildResult(fitted=tuple(fitted), quarantined=tuple(quarantined),
@@ -153,11 +181,19 @@ def _verify(folder):
         raise OutputError("the staged release fails its own manifest: " + "; ".join(problems))
 
 
-def audit(raw_dir, curated_dir, ctx: Settings = Settings()) -> audit_stage.AuditReport:
-    """Compare the release in ``curated_dir`` with a rebuild of ``raw_dir`` with ``ctx`` in a
-    temporary folder: inputs, settings, dependency versions, files and species."""
+def audit(raw_dir, curated_dir, ctx: Settings | None = None,
+          override=None) -> audit_stage.AuditReport:
+    """Compare the release in ``curated_dir`` with a rebuild of ``raw_dir`` in a temporary
+    folder: inputs, settings, dependency versions, files and species. The rebuild uses the
+    settings the release records, ``ctx`` instead when given, and ``override(settings)``
+    (the options named on the command line) on top."""
     recorded = audit_stage.read_release(Path(curated_dir))
+    if ctx is None:
+        ctx = audit_stage.recorded_settings(recorded)
+    if override is not None:
+        ctx = override(ctx)
     with tempfile.TemporaryDirectory(prefix="thermoledger-audit-") as tmp:
-        result = build(raw_dir, Path(tmp) / "release", ctx)
+        result = build(raw_dir, Path(tmp) / "release", ctx,
+                       previous=offered_breakpoints(recorded.library))
     return audit_stage.compare(recorded, result.inputs, result.files, result.document,
                                ctx.to_dict())

@@ -235,10 +235,10 @@ def test_an_unexpected_exception_becomes_the_tables_finding(tmp_path, monkeypatc
 def test_an_exception_in_one_fit_leaves_the_others(tmp_path, monkeypatch):
     real = build.fit_selection
 
-    def flaky(sel, ctx):
+    def flaky(sel, ctx, *more):
         if sel.species_id == "N2(g)":
             raise IndexError("index 0 is out of bounds")
-        return real(sel, ctx)
+        return real(sel, ctx, *more)
     monkeypatch.setattr(build, "fit_selection", flaky)
     write_case(tmp_path / "raw")
     result = build.build(tmp_path / "raw", None, NO_REPORT, write=False)

@@ -8,6 +8,7 @@ import numpy as np
 import pytest
 from thermoledger import build
 from thermoledger.checks import reconcile
+from thermoledger.core import chemistry
 from thermoledger.core.constants import GAS_CONSTANT as R
 from thermoledger.core.settings import FitSettings, Settings
 from thermoledger.testing import trials
@@ -64,12 +65,49 @@ def test_above_classical_limit_is_a_warning():
     assert above[0].line == int(np.argmax(bad > 4.5 * R * 1.1)) + 2
 
 
+def o2_cp(t):
+    """Ideal-gas Cp [J/(mol K)] of O2 from its spectroscopic constants (K. P. Huber & G.
+    Herzberg, Constants of Diatomic Molecules, 1979, from memory): anharmonic vibrational
+    levels (we = 1580.19, wexe = 11.98 cm-1), a rotor with Bv = Be - ae (v + 1/2) (Be = 1.4456,
+    ae = 0.0159 cm-1) and the a and b electronic levels (7918.1 cm-1, g = 2; 13195.1 cm-1,
+    g = 1) over the X ground level (g = 3); Cp from the partition function by differences."""
+    c2 = 1.438776877  # second radiation constant [cm K] (CODATA 2018)
+    v = np.arange(0, 60)
+    ev = 1580.19 * (v + 0.5) - 11.98 * (v + 0.5) ** 2
+    keep = np.diff(np.append(ev, -np.inf)) > 0
+    ev, bv = ev[keep] - ev[0], 1.4456 - 0.0159 * (v[keep] + 0.5)
+
+    def ln_q(x):
+        vib_rot = np.sum(np.exp(-c2 * ev / x) * x / (c2 * bv))
+        el = 3 + 2 * np.exp(-c2 * 7918.1 / x) + np.exp(-c2 * 13195.1 / x)
+        return np.log(vib_rot) + np.log(el) + 1.5 * np.log(x)
+
+    def u(x, h):
+        return x * x * (ln_q(x + h) - ln_q(x - h)) / (2 * h)
+
+    out = []
+    for x in np.atleast_1d(t):
+        h = 1e-3 * x
+        out.append(((u(x + h, h) - u(x - h, h)) / (2 * h) + 1.0) * R)
+    return np.array(out)
+
+
+def test_real_oxygen_up_to_6000_k_is_not_above_its_physical_ceiling():
+    t = np.arange(300.0, 6001.0, 100.0)
+    cp = o2_cp(t)
+    # the model reproduces the tabulated value at 1000 K, 34.87 J/(mol K) (JANAF, from memory)
+    assert cp[t == 1000.0][0] == pytest.approx(34.87, abs=0.1)
+    assert cp.max() > 4.5 * R * 1.1      # beyond the old 10 % margin of the classical limit
+    found = trials.run_checks(make_table(t, cp, "O2", "linear"))
+    assert not [f for f in found if f.code == "CP-ABOVE-CLASSICAL"]
+
+
 @pytest.mark.parametrize("divide, name", [(4.184, "cal taken as J"), (R, "Cp/R taken as Cp"),
                                           (None, "per gram taken as per mole"),
                                           (1e-3, "J taken as kJ"), (1e3, "kJ taken as J")])
 def test_whole_table_unit_factor_names_the_factor(divide, name):
     label, t, cp, formula, geometry = ref("CO2 CoolProp 50 K")
-    f = 44.0095 if divide is None else divide
+    f = chemistry.composition("CO2").molar_mass if divide is None else divide
     found = trials.run_checks(make_table(t, cp / f, formula, geometry))
     (hit,) = [x for x in found if x.code == "UNIT-FACTOR"]
     assert name in hit.message and hit.fix

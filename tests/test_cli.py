@@ -87,6 +87,18 @@ def test_props_agrees_with_the_coefficients(demo_release, capsys):
     assert 0 < float(cells[2]) < 0.01 * ev["Cp"][1]  # a standard uncertainty is shown
 
 
+def test_range_ends_are_the_data_s_and_props_accepts_them(demo_release, capsys):
+    # the CO2 bench log's last row is 6740.33 degF: 4000 K, not 3999.999999999915 K
+    lib = json.loads((demo_release / "library.json").read_text())
+    co2 = next(s for s in lib["species"] if s["id"] == "CO2(g)")
+    assert co2["ranges"][-1]["t_max"] == 4000.0 and co2["ranges"][0]["t_min"] == 200.0
+    code, out, err = run(capsys, "props", demo_release, "CO2", 200, 4000)
+    assert code == 0, err
+    # a last-digit difference at an end is still the end
+    code, _, err = run(capsys, "props", demo_release, "CO2", 4000.0000000000005)
+    assert code == 0, err
+
+
 @pytest.mark.parametrize("argv, message", [
     (["XeF6", "300"], "is not in the library"),
     (["CO2(g)", "9000"], "outside the range of use"),

@@ -138,6 +138,9 @@ def test_progress_is_plain_lines_off_a_terminal_and_silent_when_quiet(demo_raw, 
                                                                       capsys):
     _, _, err = run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "a")
     assert "fit (9 species)" in err and "\r" not in err
+    # the write step, most of a build, shows its parts too
+    for step in ("write tables", "write report (9 species)", "write provenance", "publish"):
+        assert step in err
     _, _, err = run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "b", "--quiet")
     assert err == ""
 

@@ -94,3 +94,27 @@ def test_check_unit_never_raises_anything_but_unit_error(text):
         units.check_unit(text, "heat_capacity")
     except UnitError:
         pass
+
+
+def test_converted_temperatures_keep_the_values_the_data_give():
+    # 6740.33 degF is 4000 K exactly; the float conversion alone gives 3999.999999999915
+    got = units.to_si([-99.67, 6740.33, 3726.85], "degF", "temperature")
+    assert got.tolist()[:2] == [200.0, 4000.0]
+    assert units.to_si([3726.85], "degC", "temperature")[0] == 4000.0
+    assert units.to_si([360.0], "degR", "temperature")[0] == 200.0
+    # a value given with more digits than the trimming keeps is left as converted
+    assert units.to_si([751.068359375], "degC", "temperature")[0] == 751.068359375 + 273.15
+
+
+@pytest.mark.parametrize("formula, expected, nonstandard", [
+    # CIAAW abridged standard atomic weights 2021 (Prohaska et al., Pure Appl. Chem. 94, 573
+    # (2022)), from memory: H 1.0080, C 12.011, N 14.007, O 15.999, S 32.06
+    ("N2", 28.014, ()), ("CO2", 44.009, ()), ("SO2", 64.058, ()), ("CH4", 16.043, ()),
+    ("H2O", 18.015, ()),
+    # an isotope takes its own mass (2H: 2.014101778 u, AME, from memory)
+    ("D2O", 2 * 2.014101778 + 15.999, ("2H",)),
+])
+def test_molar_masses_use_standard_atomic_weights(formula, expected, nonstandard):
+    c = chemistry.composition(formula)
+    assert c.molar_mass == pytest.approx(expected, abs=2e-6)
+    assert c.nonstandard == nonstandard

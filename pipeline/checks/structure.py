@@ -120,20 +120,46 @@ def check_fit_settings(table: Table, ctx: Settings):
 
 
 def check_anchor_reach(table: Table, ctx: Settings):
-    """ANCHOR-OUT-OF-REACH / RANGE-EXTENDED findings: data that start above 298.15 K, by how
-    far [K] against the allowed anchor extension."""
+    """ANCHOR-OUT-OF-REACH / RANGE-EXTENDED findings: data that do not contain 298.15 K, where
+    ΔfH° and S° anchor H and S.
+
+    Below the data the lowest range may be stretched by the allowed anchor extension [K]
+    (flagged). Above the data only an ideal gas can be carried up to 298.15 K, by the
+    extrapolation model of the fit stage (flagged, with its uncertainty); a condensed phase
+    whose data end below 298.15 K exists only there and is held back until it can be
+    anchored through its transitions.
+    """
     t = table.data["T"].to_numpy()
     t = t[np.isfinite(t) & (t > 0)]
     if not len(t):
         return []
-    gap = float(t.min()) - constants.REFERENCE_TEMPERATURE
+    meta, tref = table.meta, constants.REFERENCE_TEMPERATURE
+    gap = float(t.min()) - tref
     reach = ctx.fit.max_anchor_extension
-    where = dict(source=table.meta.source.id, file=table.meta.file, column="T",
-                 seen=f"{t.min():.6g} K")
+    where = dict(source=meta.source.id, file=meta.file, column="T")
+    if float(t.max()) < tref:
+        seen = dict(seen=f"{t.max():.6g} K", expected="data up to >= 298.15 K", **where)
+        fit = for_table(ctx.fit, meta.fit_overrides)
+        if meta.phase != "g":
+            return [finding("ANCHOR-OUT-OF-REACH", f"the data end at {t.max():.6g} K, below "
+                            "298.15 K where ΔfH° and S° anchor H and S; a condensed phase that "
+                            "exists only below 298.15 K is anchored through its transitions, "
+                            "which this build cannot do yet: held back", **seen)]
+        if not (fit.extrapolate and meta.geometry and meta.atoms):
+            return [finding("ANCHOR-OUT-OF-REACH", f"the data end at {t.max():.6g} K, below "
+                            "298.15 K where ΔfH° and S° anchor H and S, and no extrapolation "
+                            "model can carry Cp there (it needs a gas's geometry and "
+                            "extrapolation on)", **seen)]
+        return [finding("RANGE-EXTENDED", f"the data end at {t.max():.6g} K; Cp is extrapolated "
+                        "up to 298.15 K with a physically shaped model to anchor H and S",
+                        **seen)]
+    where["seen"] = f"{t.min():.6g} K"
     if gap > reach:
+        more = (" (a condensed phase that exists only above 298.15 K is anchored through its "
+                "transitions, which this build cannot do yet)" if meta.phase != "g" else "")
         return [finding("ANCHOR-OUT-OF-REACH", f"data start at {t.min():.6g} K, "
-                        f"{gap:.6g} K above 298.15 K", expected=f"data from <= "
-                        f"{constants.REFERENCE_TEMPERATURE + reach:g} K", **where)]
+                        f"{gap:.6g} K above 298.15 K{more}", expected=f"data from <= "
+                        f"{tref + reach:g} K", **where)]
     if gap > 0:
         return [finding("RANGE-EXTENDED", f"data start at {t.min():.6g} K; the lowest range is "
                         "extrapolated down to 298.15 K", expected="data from <= 298.15 K",

@@ -11,7 +11,7 @@ from ..core.paths import write_atomic
 from ..library import document as library
 from ..release import document as release_document
 from . import render
-from .parse import parser, settings_of
+from .parse import named_fit_options, parser, settings_of
 from .progress import Progress
 
 
@@ -92,7 +92,7 @@ def cmd_audit(args) -> int:
     """``thermoledger audit``: rebuild and compare with a release; 0 pass, 1 differences."""
     from ..release import audit
 
-    rep = build.audit(args.raw, args.curated, settings_of(args))
+    rep = build.audit(args.raw, args.curated, override=named_fit_options(args))
     print(json.dumps(rep.to_dict(), indent=1) if args.json else audit.render(rep))
     return rep.status
 

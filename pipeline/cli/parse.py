@@ -72,14 +72,15 @@ def parser() -> argparse.ArgumentParser:
 
     a = sub.add_parser("audit", help="rebuild into a temporary folder and compare with curated/",
                        description="Check the raw inputs against curated/manifest.json, rebuild "
-                                   "with the given settings into a temporary folder and compare: "
+                                   "with the settings the release records (fit options given "
+                                   "here replace them) into a temporary folder and compare: "
                                    "exit 0 when byte-identical, 1 on differences (named by "
                                    "species, size and cause), 2 on errors.")
     a.add_argument("--raw", type=Path, default=Path("raw"), help="raw sources folder (raw)")
     a.add_argument("--curated", type=Path, default=Path("curated"),
                    help="the release to audit (curated)")
     a.add_argument("--json", action="store_true", help="print the audit report as JSON")
-    _fit_options(a)
+    _fit_options(a, recorded=True)
 
     d = sub.add_parser("diff", help="what changed between two libraries, in properties",
                        description="Compare two libraries (folders or library.json files): "
@@ -111,27 +112,67 @@ def parser() -> argparse.ArgumentParser:
     return p
 
 
-def _fit_options(p):
-    g = p.add_argument_group("fit settings (defaults: the best general settings)")
-    g.add_argument("--form", choices=sorted(forms.FORMS), default=FitSettings.form,
+def _fit_options(p, recorded=False):
+    """The fit options; with ``recorded`` (audit) none has a default, so that only the
+    options named on the command line replace the release's recorded settings."""
+    g = p.add_argument_group("fit settings (audit: those the release records)" if recorded
+                             else "fit settings (defaults: the best general settings)")
+
+    def default(value):
+        return argparse.SUPPRESS if recorded else value
+
+    g.add_argument("--form", choices=sorted(forms.FORMS), default=default(FitSettings.form),
                    help="published form of the coefficients (nasa7)")
-    g.add_argument("--ranges", type=int, default=FitSettings.ranges, choices=(1, 2, 3, 4),
+    g.add_argument("--ranges", type=int, default=default(FitSettings.ranges), choices=(1, 2, 3, 4),
                    help="number of temperature ranges (2)")
-    g.add_argument("--breakpoints", default="optimise", metavar="optimise|conventional|K,K",
+    g.add_argument("--breakpoints", default=default("optimise"), metavar="optimise|conventional|K,K",
                    help="optimised breakpoints (default), the conventional one, or fixed values")
-    g.add_argument("--conventional-break", type=temperature, default=FitSettings.breakpoint,
+    g.add_argument("--conventional-break", type=temperature, default=default(FitSettings.breakpoint),
                    metavar="K", help="the conventional breakpoint [K] (1000)")
-    g.add_argument("--continuity", type=int, choices=(1, 2), default=FitSettings.continuity,
+    g.add_argument("--continuity", type=int, choices=(1, 2), default=default(FitSettings.continuity),
                    help="continuous derivatives of Cp at breakpoints: 1 = dCp/dT, 2 = also "
                         "d2Cp/dT2 (1)")
-    g.add_argument("--minimax", action="store_true",
+    g.add_argument("--minimax", action="store_true", default=default(False),
                    help="minimise the largest relative Cp deviation instead of least squares")
     g.add_argument("--range-of-use", type=temperature, nargs=2, metavar=("TMIN", "TMAX"),
+                   default=default(None),
                    help="range of use [K] of every species; ideal gases are extended past "
                         "the data with a physically shaped model, flagged as extrapolated")
     g.add_argument("--accept-cp", type=number(0, 1, what="a fraction", open_low=True),
-                   default=FitSettings.accept_cp_max_rel,
+                   default=default(FitSettings.accept_cp_max_rel),
                    metavar="FRACTION", help="largest accepted relative Cp deviation (0.01)")
+
+
+#: the fit options and the FitSettings fields each of them sets
+FIT_OPTION_FIELDS = {
+    "form": ("form",), "ranges": ("ranges",),
+    "breakpoints": ("breakpoint_mode", "fixed_breakpoints", "ranges"),
+    "conventional_break": ("breakpoint",), "continuity": ("continuity",),
+    "minimax": ("minimax",), "range_of_use": ("use_t_min", "use_t_max"),
+    "accept_cp": ("accept_cp_max_rel",),
+}
+
+
+def named_fit_options(args):
+    """``settings -> settings`` replacing only the fit fields of the options named in
+    ``args`` (parsed without defaults, as for audit)."""
+    from dataclasses import replace
+
+    named = [k for k in FIT_OPTION_FIELDS if hasattr(args, k)]
+    full = argparse.Namespace(**{**_fit_defaults(), **{k: getattr(args, k) for k in named}})
+    wanted = settings_of(full).fit
+
+    def apply(settings: Settings) -> Settings:
+        fields = {f for k in named for f in FIT_OPTION_FIELDS[k]}
+        return replace(settings, fit=replace(settings.fit, **{f: getattr(wanted, f)
+                                                              for f in fields}))
+    return apply
+
+
+def _fit_defaults() -> dict:
+    p = argparse.ArgumentParser(add_help=False)
+    _fit_options(p)
+    return vars(p.parse_args([]))
 
 
 def _outputs(args) -> OutputSettings:

@@ -97,17 +97,18 @@ _CODES = [
          "remove or merge the repeated row"),
     Code("TOO-FEW-POINTS", ERROR, "fewer points than the fit needs",
          "add data points"),
-    Code("ANCHOR-OUT-OF-REACH", ERROR, "the data start too far above 298.15 K to anchor H and S",
-         "add data down to 298.15 K"),
-    Code("RANGE-EXTENDED", WARNING, "the fitted range was extended past the data to reach 298.15 K",
-         "add data down to 298.15 K"),
+    Code("ANCHOR-OUT-OF-REACH", ERROR, "the data do not reach 298.15 K, where H and S are "
+         "anchored, and the build cannot carry them there", "add data that contain 298.15 K"),
+    Code("RANGE-EXTENDED", WARNING, "the fitted range was extended past the data to reach "
+         "298.15 K (marked extrapolated, with its uncertainty)", "add data that contain 298.15 K"),
     # --- physics and units
     Code("CP-BELOW-EQUIPARTITION", ERROR, "Cp of an ideal gas below 5/2 R",
          "check the unit of the Cp column and the values"),
     Code("CP-IMPLAUSIBLE", ERROR, "Cp of an ideal gas far above any physical value for its "
          "atoms", "check the unit of the Cp column and the values"),
-    Code("CP-ABOVE-CLASSICAL", WARNING, "Cp above the classical limit of its geometry and atoms",
-         "check the unit, the formula and the geometry"),
+    Code("CP-ABOVE-CLASSICAL", WARNING, "Cp above what the classical limit of its geometry "
+         "and atoms, anharmonicity and electronic states allow",
+         "check the values, the formula and the geometry"),
     Code("CP-ABOVE-DULONG-PETIT", WARNING, "condensed-phase Cp well above 3R per atom",
          "check the unit and the formula"),
     Code("UNIT-FACTOR", ERROR, "the whole table is off by a recognisable unit factor",
@@ -156,6 +157,8 @@ _CODES = [
          "give the sources different priorities"),
     Code("FIT-SETTING", ERROR, "a fit setting of the table cannot be applied to its data",
          "correct the setting under 'fit' in source.json"),
+    Code("FIT-BREAKPOINT", INFO, "where an optimised breakpoint is, and why",
+         "none needed"),
     Code("FIT-FAILED", ERROR, "the fit could not be carried out", "see the message"),
     Code("FIT-EXTRAPOLATED", WARNING, "Cp was extended past the data with a physically shaped "
          "model before fitting", "treat the interval with its stated uncertainty"),

@@ -176,6 +176,11 @@ class FitResult:
     h_max_dev: float | None = None   # [J/mol] against the H-H298 column, when given
     s_max_dev: float | None = None   # [J/(mol K)] against the S column, when given
     covariance: tuple = ()  # of the scaled Cp/R coefficients, all ranges stacked
+    model_error: tuple = ()  # per range: {"cp", "h", "s"} standard uncertainties of the form
+    birge_ratio: float | None = None  # sqrt(chi2 / dof) of the weighted residuals
+    covariance_scale: float | None = None  # the factor the covariance was multiplied by
+    acceptance: dict = field(default_factory=dict, compare=False)  # rule and its statistics
+    breakpoint_choice: dict | None = field(default=None, compare=False)  # breakchoice.Choice
     powers: tuple = ()      # powers of tau = T/1000 K of the scaled basis
     extrapolated: tuple = ()  # dicts: t_min, t_max, model, holdout_error, u_rel_end
     settings: dict = field(default_factory=dict, compare=False)

@@ -1,6 +1,6 @@
 """Effective settings of the stages, with their defaults (one place, recorded in outputs)."""
 
-from dataclasses import asdict, dataclass
+from dataclasses import asdict, dataclass, fields
 
 
 @dataclass(frozen=True)
@@ -17,12 +17,16 @@ class FitSettings:
     breakpoint: float = 1000.0
     #: breakpoints [K] for breakpoint_mode "fixed"
     fixed_breakpoints: tuple = ()
-    #: what optimised breakpoints minimise: "max" (largest weighted deviation) or "rms"
-    breakpoint_norm: str = "max"
+    #: what optimised breakpoints minimise: "rms" (default: one point cannot move the break
+    #: far, so small data changes move it little) or "max" (largest weighted deviation)
+    breakpoint_norm: str = "rms"
     #: allowed interval [K] for optimised breakpoints (None: anywhere inside the data)
     breakpoint_min: float | None = None
     breakpoint_max: float | None = None
     max_candidates: int = 80
+    #: two optimised ranges keep the conventional breakpoint unless the optimum lowers the
+    #: weighted sum of squares (chi2) of Cp by more than this (stable breakpoints)
+    breakpoint_stability: float = 1.0
     #: every range spans at least this ratio T_max/T_min (narrow ranges get wild coefficients)
     min_range_ratio: float = 1.5
     #: continuity at breakpoints: 1 = Cp and dCp/dT, 2 = also d2Cp/dT2
@@ -47,7 +51,13 @@ class FitSettings:
     use_t_max: float | None = None
     #: extend ideal-gas Cp past the data with a physically shaped model before fitting
     extrapolate: bool = True
-    #: acceptance: a fit beyond these is reported (FIT-REJECTED) instead of exported
+    #: extending the range of use may raise the largest relative Cp deviation inside the data
+    #: by at most this much; beyond it the extrapolated interval gets a range of its own
+    extension_tolerance: float = 0.0002
+    #: acceptance (fit/acceptance.py): with u(Cp) stated, the false-rejection rate of each of
+    #: the chi-square test and the per-point bound; without, the largest relative deviation.
+    #: A fit beyond these, or beyond the H and S bounds, is reported (FIT-REJECTED)
+    accept_alpha: float = 0.001
     accept_cp_max_rel: float = 0.01
     accept_h_max: float = 500.0
     accept_s_max: float = 0.5
@@ -128,6 +138,22 @@ class Settings:
         """The settings as plain JSON values (recorded in the library and the manifest)."""
         return {"fit": self.fit.to_dict(), "checks": self.checks.to_dict(),
                 "outputs": self.outputs.to_dict()}
+
+    @classmethod
+    def from_dict(cls, d: dict) -> "Settings":
+        """The settings recorded by ``to_dict`` (a release's manifest); settings this version
+        does not record keep their defaults. ValueError names a setting it does not know."""
+        parts = {}
+        for key, kind in (("fit", FitSettings), ("checks", CheckSettings),
+                          ("outputs", OutputSettings)):
+            given = dict(d.get(key) or {})
+            unknown = sorted(set(given) - {f.name for f in fields(kind)})
+            if unknown:
+                raise ValueError(f"unknown setting(s) {key}.{', '.join(unknown)}")
+            if "fixed_breakpoints" in given:
+                given["fixed_breakpoints"] = tuple(given["fixed_breakpoints"])
+            parts[key] = kind(**given)
+        return cls(**parts)
 
 
 def for_table(fit: FitSettings, overrides) -> FitSettings:

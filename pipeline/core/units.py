@@ -122,7 +122,34 @@ def to_si(values, unit_text: str, kind: str, molar_mass: float | None = None) ->
             if molar_mass is None:
                 raise UnitError(f"unit '{unit_text}' is per mass but no molar mass is known")
             return (arr * scale + offset) * molar_mass
-        return arr * scale + offset
+        out = arr * scale + offset
+    if kind == "temperature" and (scale, offset) != (1.0, 0.0):
+        out = trim_round_off(out)
+    return out
+
+
+#: significant digits a converted temperature keeps: more than any table states, fewer than
+#: the ~16 of a double, so the round-off of the conversion (3999.999999999915 K for
+#: 6740.33 degF) goes and the value is the one the data give (4000 K)
+TEMPERATURE_DIGITS = 12
+
+
+#: a converted value this close (relative) to its TEMPERATURE_DIGITS rounding is round-off
+ROUND_OFF = 1e-13
+
+
+def trim_round_off(values) -> np.ndarray:
+    """``values`` with conversion round-off removed: each one within ROUND_OFF (relative) of
+    its rounding to TEMPERATURE_DIGITS significant digits becomes that rounding; values given
+    with more digits, and non-finite ones, are kept."""
+    arr = np.asarray(values, dtype=float)
+    out = arr.ravel().copy()
+    for i, v in enumerate(out):
+        if np.isfinite(v):
+            r = float(f"{v:.{TEMPERATURE_DIGITS}g}")
+            if abs(v - r) <= ROUND_OFF * abs(v):
+                out[i] = r
+    return out.reshape(arr.shape)
 
 
 def from_si(values, unit_text: str, kind: str, molar_mass: float | None = None) -> np.ndarray:

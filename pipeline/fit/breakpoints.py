@@ -156,10 +156,11 @@ def _coarse_start(obs: Observations, powers, nb: int, rules: SearchRules, per_ax
     return list(sets[int(np.argmin(obj))])
 
 
-def conventional(t, n_ranges, breakpoint, need):
+def conventional(t, n_ranges, breakpoint, need, ratio=1.0):
     """The conventional breakpoint when the data straddle it with ``need`` points on each side
-    (two ranges), else None."""
+    (two ranges), each range at least ``ratio`` wide (T_high/T_low), else None."""
     t = np.asarray(t, dtype=float)
-    if n_ranges == 2 and (t <= breakpoint).sum() >= need and (t > breakpoint).sum() >= need:
+    if (n_ranges == 2 and (t <= breakpoint).sum() >= need and (t > breakpoint).sum() >= need
+            and breakpoint >= t[0] * ratio and t[-1] >= breakpoint * ratio):
         return [float(breakpoint)]
     return None

@@ -6,9 +6,10 @@ ker C (from the SVD of C), every admissible c is N z, and z solves the ordinary 
 min ||M z − b|| with M = (A N)/σ, b = y/σ — solved by SVD after column equilibration.
 The constraints therefore hold to rounding error, not approximately as with penalties.
 
-The covariance of the solution is s² N (MᵀM)⁻¹ Nᵀ with s² = χ²/(n − q) (the usual
-scaling by the reduced chi-square, common practice), i.e. the covariance of the
-unconstrained problem projected onto the constraint set.
+The covariance of the solution is N (MᵀM)⁻¹ Nᵀ, the covariance of the unconstrained
+problem projected onto the constraint set: the σ given are propagated as they are. How it
+is then scaled by the reduced chi-square χ²/(n − q) (the Birge ratio squared) is the
+caller's convention (see fit/uncertainty.py).
 
 Lawson's iteratively reweighted scheme turns the same solver into a minimax (Chebyshev)
 fit: C. L. Lawson, PhD thesis, UCLA (1961); see also Rice & Usow, Math. Comp. 22, 118 (1968).
@@ -46,7 +47,7 @@ class Solution:
 
     c: np.ndarray          # coefficients (k,)
     residual: np.ndarray   # weighted residuals (n,)
-    cov: np.ndarray        # covariance of c (k, k), scaled by the reduced chi-square
+    cov: np.ndarray        # covariance of c (k, k) propagated from σ (not rescaled)
     chi2: float
     dof: int
 
@@ -91,7 +92,7 @@ def solve(a, y, sigma, c=None, weights=None) -> Solution:
     res = (a @ coef - y) / sig
     dof = max(n - q, 1)
     chi2 = float(res @ res)
-    cov_z = ginv / (norms[:, None] * norms[None, :]) * (chi2 / dof)
+    cov_z = ginv / (norms[:, None] * norms[None, :])
     return Solution(c=coef, residual=res, cov=basis @ cov_z @ basis.T, chi2=chi2, dof=dof)
 
 

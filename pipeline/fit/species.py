@@ -1,17 +1,20 @@
 """Fitting stage: multi-range constrained least squares of Cp (and H, S columns).
 
-For one species: choose the breakpoints (optimised by default, see breakpoints.py),
-extend ideal-gas Cp past the data when the range of use asks for it (extrapolate.py),
+For one species: choose the breakpoints (optimised by default and kept steady, see
+breakpoints.py and breakchoice.py),
+extend ideal-gas Cp past the data when the range of use asks for it (extrapolate.py,
+beyond.py),
 solve the exactly constrained weighted least-squares problem in τ = T/1000 K (lsq.py:
 continuity of Cp and its derivatives at every breakpoint; optionally minimax), convert to
 the published coefficients of the chosen form (forms.py), choose the integration constants
 range by range — H(298.15) = ΔfH° and S(298.15) = S° exactly in the range holding
 298.15 K, continuity of H and S at every breakpoint — and judge the result against the
-acceptance thresholds.
+acceptance rule (acceptance.py).
 
 Weights: σ(Cp) = u(Cp) when the table states it, else the inferred relative uncertainty
 times Cp; σ(H) and σ(S) from the settings. The covariance of the scaled coefficients
-(reduced-chi-square scaled, projected onto the constraints) is kept for uncertainty bands.
+(projected onto the constraints, scaled by the convention of uncertainty.py) and the model
+error of the form, range by range, are kept for the stated uncertainties.
 """
 
 from dataclasses import dataclass
@@ -24,54 +27,7 @@ from ..core.errors import FitError, FitRejected
 from ..core.records import CpData, FitRange, FitResult, SpeciesIdentity
 from ..core.settings import FitSettings
 from ..physics import basis, forms
-from . import breakpoints, extrapolate, lsq
-
-
-def points_per_range(form, settings: FitSettings) -> int:
-    """Fewest points a range may hold: the setting, and never fewer than the range's
-    coefficients plus two (a range determined by as many points as it has free coefficients
-    has wild, cancelling coefficients)."""
-    return max(settings.min_points_per_range, len(form.powers) + 2)
-
-
-def choose_breakpoints(t, y, sigma, form, settings: FitSettings):
-    """Breakpoints [K] and an optional (code, message) note."""
-    need = points_per_range(form, settings)
-    nr = settings.ranges
-    if settings.breakpoint_mode == "fixed":
-        return sorted(float(b) for b in settings.fixed_breakpoints), None
-    note = None
-    span, ratio = float(t[-1] / t[0]), settings.min_range_ratio
-    if nr > 1 and len(t) < nr * need:
-        fewer = max(1, len(t) // need)
-        note = ("COV-RANGE-POINTS", f"{len(t)} points cannot fill {nr} ranges of at least "
-                f"{need}; fitted with {fewer} range(s)")
-        nr = fewer
-    if nr > 1 and span < ratio ** nr:
-        fewer = max(1, int(np.floor(np.log(span) / np.log(ratio))))
-        note = ("COV-RANGE-POINTS", f"the data span {t[0]:.6g}-{t[-1]:.6g} K, too narrow for "
-                f"{nr} ranges each at least {ratio:g} times wider at the top than at the "
-                f"bottom; fitted with {fewer} range(s)")
-        nr = fewer
-    if note is None and settings.breakpoint_mode == "conventional" and nr == 2:
-        conv = breakpoints.conventional(t, nr, settings.breakpoint, need)
-        if conv:
-            return conv, None
-        note = ("COV-RANGE-POINTS", f"{int((t <= settings.breakpoint).sum())} point(s) at or "
-                f"below and {int((t > settings.breakpoint).sum())} above {settings.breakpoint:g} "
-                f"K (at least {need} needed on each side); breakpoint optimised instead")
-    elif note is None and settings.breakpoint_mode == "conventional" and nr > 2:
-        note = ("COV-RANGE-POINTS", f"the conventional breakpoint serves two ranges; the "
-                f"breakpoints of {nr} ranges were optimised")
-    if nr == 1:
-        return [], note
-    rules = breakpoints.SearchRules(order=settings.continuity, norm=settings.breakpoint_norm,
-                                    need=need, bounds=(settings.breakpoint_min,
-                                                       settings.breakpoint_max),
-                                    max_candidates=settings.max_candidates,
-                                    ratio=settings.min_range_ratio)
-    bps = breakpoints.optimise(breakpoints.Observations(t, y, sigma), form.powers, nr, rules)
-    return bps, note
+from . import acceptance, beyond, breakchoice, extrapolate, lsq, uncertainty
 
 
 def integration_constants(form, cp_coeffs, edges, h298, s298):
@@ -115,8 +71,94 @@ def _column_observations(data: CpData, s298, bps, edges, form, settings):
     return rows, y, sig
 
 
-def fit_species(who: SpeciesIdentity, data: CpData,
-                settings: FitSettings = FitSettings()) -> FitResult:
+def _range_of_use(who: SpeciesIdentity, t, cp, settings: FitSettings):
+    """(lo, hi [K], extensions, notes): the fitted range, which always holds 298.15 K, and
+    the model extensions that fill it beyond the data.
+
+    298.15 K is reached inside the data, by stretching the lowest range at most
+    ``max_anchor_extension`` below them (marked extrapolated), or, above the data of an
+    ideal gas, by its extrapolation model; FitError otherwise (never an anchor placed on an
+    unguided polynomial).
+    """
+    tref, t0, tn = REFERENCE_TEMPERATURE, float(t[0]), float(t[-1])
+    lo = min(t0, tref, settings.use_t_min if settings.use_t_min is not None else np.inf)
+    hi = max(tn, tref, settings.use_t_max if settings.use_t_max is not None else -np.inf)
+    if t0 - tref > settings.max_anchor_extension:
+        raise FitError(who.species_id, f"the data start at {t0:.6g} K, more than "
+                       f"{settings.max_anchor_extension:g} K above 298.15 K where H and S are "
+                       "anchored; add data down to 298.15 K")
+    notes, extensions = [], []
+    if who.phase != "g":
+        if tn < tref:
+            raise FitError(who.species_id, f"the data end at {tn:.6g} K, below 298.15 K where "
+                           "H and S are anchored; a condensed phase that exists only below "
+                           "298.15 K is anchored through its transitions, which this build "
+                           "cannot do yet")
+        if hi > tn or lo < min(t0, tref):
+            notes.append(("COV-EXTRAPOLATED", "condensed phase: the range of use is limited to "
+                          f"the data, {t0:.6g}-{tn:.6g} K (never extrapolated)"))
+        return min(t0, tref), tn, extensions, notes
+    guided = settings.extrapolate and who.geometry and who.atoms
+    for side, target in (("high", hi), ("low", lo)):
+        beyond = target > tn * 1.0001 if side == "high" else target < t0 * 0.9999
+        if not beyond or (side == "low" and target >= tref - 1e-9):
+            continue                    # a short stretch down to 298.15 K: the polynomial
+        ext = extrapolate.extend(t, cp, who.geometry, who.atoms, target,
+                                 side=side) if guided else None
+        if ext is None and side == "high" and tn < tref:
+            raise FitError(who.species_id, f"the data end at {tn:.6g} K, below 298.15 K where "
+                           "H and S are anchored, and no extrapolation model passed its "
+                           "guards to carry Cp there; add data up to 298.15 K")
+        if ext is None:
+            notes.append(("COV-EXTRAPOLATED", f"no extrapolation model passed its guards "
+                          f"on the {side} side; the polynomial is extrapolated to "
+                          f"{target:g} K unguided"))
+            continue
+        extensions.append(ext)
+        notes.append(("FIT-EXTRAPOLATED", f"{min(ext.t_from, ext.t_to):.6g}-"
+                      f"{max(ext.t_from, ext.t_to):.6g} K extrapolated with {ext.model} "
+                      f"(hold-out error {100 * ext.holdout_error:.2g} %, uncertainty "
+                      f"{100 * ext.u_rel_end:.2g} % at {ext.t_to:g} K)"))
+    return lo, hi, extensions, notes
+
+
+def _solve(who, form, rows, data: CpData, span, settings: FitSettings, fixed=None, pins=(),
+           previous=None) -> beyond.Fitted:
+    """The Fitted solution of the Cp rows (t, cp, σ) [K, J/(mol K)] and the table's H and S
+    columns over ``span`` (lo, hi) [K]: breakpoints chosen (breakchoice.py; ``previous``
+    the previous release's breakpoints on offer), or ``fixed``; dCp/dT = 0 at the ``pins``
+    [K]."""
+    all_t, all_cp, all_sig = rows
+    lo, hi = span
+    notes, choice = [], None
+    if fixed is None:
+        try:
+            bps, notes, choice = breakchoice.choose(all_t, all_cp / R, all_sig / R, form,
+                                                    settings, previous)
+        except ValueError as exc:
+            raise FitError(who.species_id, str(exc)) from None
+    else:
+        bps = list(fixed)
+    edges = [lo] + list(bps) + [hi]
+    if any(b <= lo or b >= hi for b in bps) or list(bps) != sorted(bps):
+        raise FitError(who.species_id, f"breakpoints {bps} do not lie inside {lo:g}-{hi:g} K")
+    col_rows, col_y, col_sig = _column_observations(data, who.entropy_298, bps, edges, form,
+                                                    settings)
+    a = np.vstack([basis.cp_rows(form.powers, all_t, bps)] + col_rows)
+    y = np.concatenate([all_cp / R] + col_y)
+    sig = np.concatenate([all_sig / R] + col_sig)
+    cons = [basis.continuity_rows(form.powers, bps, settings.continuity)] if bps else []
+    if len(pins):
+        cons.append(basis.slope_rows(form.powers, pins, bps))
+    cons = np.vstack(cons) if cons else None
+    sol = lsq.minimax(a, y, sig, cons) if settings.minimax else lsq.solve(a, y, sig, cons)
+    if not np.all(np.isfinite(sol.c)):
+        raise FitError(who.species_id, "the least-squares solution is not finite")
+    return beyond.Fitted(list(bps), edges, sol, list(notes), choice)
+
+
+def fit_species(who: SpeciesIdentity, data: CpData, settings: FitSettings = FitSettings(),
+                previous=None) -> FitResult:
     """Fit one species.
 
     Parameters
@@ -126,6 +168,8 @@ def fit_species(who: SpeciesIdentity, data: CpData,
     data : T [K], Cp [J/(mol K)], u(Cp) [J/(mol K)] or None, and the optional H − H298
         [J/mol] and S [J/(mol K)] columns with their uncertainties, sorted by T
     settings : the fit settings with the table's own overrides applied
+    previous : the breakpoints [K] of the species in the previous release, offered to an
+        optimised search (breakchoice.py), or None
 
     Returns
     -------
@@ -145,59 +189,28 @@ def fit_species(who: SpeciesIdentity, data: CpData,
     weighting = "u(Cp)" if u is not None else "relative"
     sigma = u if u is not None else settings.inferred_cp_uncertainty * cp
     notes = []
-    # --- extension past the data (ideal gases only) --------------------------------------
-    lo = min(float(t[0]), REFERENCE_TEMPERATURE,
-             settings.use_t_min if settings.use_t_min is not None else np.inf)
-    hi = max(float(t[-1]), settings.use_t_max if settings.use_t_max is not None else -np.inf)
-    extensions = []
-    if who.phase != "g" and (hi > t[-1] or lo < min(t[0], REFERENCE_TEMPERATURE)):
-        notes.append(("COV-EXTRAPOLATED", "condensed phase: the range of use is limited to the "
-                      f"data, {t[0]:.6g}-{t[-1]:.6g} K (never extrapolated)"))
-        hi = float(t[-1])
-        lo = min(float(t[0]), REFERENCE_TEMPERATURE)
-    elif settings.extrapolate and who.geometry and who.atoms:
-        for side, target in (("high", hi), ("low", lo)):
-            beyond = target > t[-1] * 1.0001 if side == "high" else target < t[0] * 0.9999
-            if not beyond or (side == "low" and target >= REFERENCE_TEMPERATURE - 1e-9
-                              and t[0] - REFERENCE_TEMPERATURE <= settings.max_anchor_extension):
-                continue
-            ext = extrapolate.extend(t, cp, who.geometry, who.atoms, target, side=side)
-            if ext is None:
-                notes.append(("COV-EXTRAPOLATED", f"no extrapolation model passed its guards "
-                              f"on the {side} side; the polynomial is extrapolated to "
-                              f"{target:g} K unguided"))
-                continue
-            extensions.append(ext)
-            notes.append(("FIT-EXTRAPOLATED", f"{min(ext.t_from, ext.t_to):.6g}-"
-                          f"{max(ext.t_from, ext.t_to):.6g} K extrapolated with {ext.model} "
-                          f"(hold-out error {100 * ext.holdout_error:.2g} %, uncertainty "
-                          f"{100 * ext.u_rel_end:.2g} % at {ext.t_to:g} K)"))
+    lo, hi, extensions, ext_notes = _range_of_use(who, t, cp, settings)
+    notes.extend(ext_notes)
     ext_t = np.array([x for e in extensions for x in e.t])
     ext_cp = np.array([x for e in extensions for x in e.cp])
     all_t, all_cp = np.concatenate([t, ext_t]), np.concatenate([cp, ext_cp])
-    # the polynomial follows the extension as closely as the data; the extension's own
-    # uncertainty is reported separately (library.uncertainty adds it)
-    all_sig = np.concatenate([sigma, settings.inferred_cp_uncertainty * ext_cp])
+    # the polynomial follows the extension within the extension's own uncertainty (never
+    # tighter than data without a stated u), so that the data, not the model, set the join
+    ext_u = np.array([x for e in extensions for x in e.u_rel])
+    all_sig = np.concatenate([sigma, np.maximum(settings.inferred_cp_uncertainty, ext_u)
+                              * ext_cp])
     srt = np.argsort(all_t, kind="stable")
     all_t, all_cp, all_sig = all_t[srt], all_cp[srt], all_sig[srt]
-    # --- breakpoints and the constrained solution ---------------------------------------
-    try:
-        bps, note = choose_breakpoints(all_t, all_cp / R, all_sig / R, form, settings)
-    except ValueError as exc:
-        raise FitError(species_id, str(exc)) from None
-    if note:
-        notes.append(note)
-    edges = [lo] + list(bps) + [hi]
-    if any(b <= lo or b >= hi for b in bps) or list(bps) != sorted(bps):
-        raise FitError(species_id, f"breakpoints {bps} do not lie inside {lo:g}-{hi:g} K")
-    col_rows, col_y, col_sig = _column_observations(data, s298, bps, edges, form, settings)
-    rows = np.vstack([basis.cp_rows(form.powers, all_t, bps)] + col_rows)
-    y = np.concatenate([all_cp / R] + col_y)
-    sig = np.concatenate([all_sig / R] + col_sig)
-    cons = basis.continuity_rows(form.powers, bps, settings.continuity) if bps else None
-    sol = lsq.minimax(rows, y, sig, cons) if settings.minimax else lsq.solve(rows, y, sig, cons)
-    if not np.all(np.isfinite(sol.c)):
-        raise FitError(species_id, "the least-squares solution is not finite")
+    fitted = _solve(who, form, (all_t, all_cp, all_sig), data, (lo, hi), settings,
+                    previous=previous)
+    if any(e.side == "high" for e in extensions):
+        def solve(rows, span, fixed=None, pins=()):
+            return _solve(who, form, rows, data, span, settings, fixed, pins, previous)
+
+        fitted = beyond.protect_data(species_id, form, (all_t, all_cp, all_sig),
+                                     all_t <= t[-1], data, (lo, hi), settings, fitted, solve)
+    bps, edges, sol = fitted.bps, fitted.edges, fitted.sol
+    notes.extend(fitted.notes)
     m = len(form.powers)
     scaled = sol.c.reshape(len(bps) + 1, m)
     cp_coeffs = [form.cp_coefficients(row) for row in scaled]
@@ -206,9 +219,16 @@ def fit_species(who: SpeciesIdentity, data: CpData,
                             coefficients=tuple(float(x) for x in form.pack(cp_coeffs[j], h0[j],
                                                                            s0[j], h298)))
                    for j in range(len(cp_coeffs)))
+    scale = uncertainty.covariance_scale(sol, stated=u is not None)
+    cov = sol.cov * scale
+    cp_rows = basis.cp_rows(form.powers, all_t, bps)
+    u_param = R * np.sqrt(np.maximum(np.einsum("ni,ij,nj->n", cp_rows, cov, cp_rows), 0.0))
+    model = uncertainty.model_error(all_t, all_cp, all_sig, R * (cp_rows @ sol.c), u_param,
+                                    edges)
     solved = Solved(form=form, ranges=ranges, breakpoints=tuple(bps), solution=sol,
                     extensions=tuple(extensions), notes=tuple(notes), weighting=weighting,
-                    sigma=sigma)
+                    covariance=cov, model_error=model, covariance_scale=scale,
+                    choice=fitted.choice)
     return _judge(species_id, solved, data, settings)
 
 
@@ -223,7 +243,10 @@ class Solved:
     extensions: tuple        # extrapolate.Extension
     notes: tuple             # (code, message)
     weighting: str           # "u(Cp)" or "relative"
-    sigma: np.ndarray        # σ(Cp) of the data rows [J/(mol K)]
+    covariance: np.ndarray   # of the scaled coefficients, by the uncertainty convention
+    model_error: tuple       # per range: standard uncertainties of the form (uncertainty.py)
+    covariance_scale: float  # the factor applied to the propagated covariance
+    choice: object           # breakchoice.Choice of optimised breakpoints, or None
 
 
 def _judge(species_id: str, solved: Solved, data: CpData, settings: FitSettings) -> FitResult:
@@ -231,7 +254,7 @@ def _judge(species_id: str, solved: Solved, data: CpData, settings: FitSettings)
     fails the acceptance thresholds of ``settings``."""
 
     form, ranges, sol, extensions = solved.form, solved.ranges, solved.solution, solved.extensions
-    t, cp, dh, s, sigma = data.t, data.cp, data.dh, data.s, solved.sigma
+    t, cp, dh, s = data.t, data.cp, data.dh, data.s
     rr = [(r.t_min, r.t_max, r.coefficients) for r in ranges]
     ev = forms.evaluate_ranges(rr, t, form)
     rel = (ev["Cp"] - cp) / cp
@@ -249,30 +272,29 @@ def _judge(species_id: str, solved: Solved, data: CpData, settings: FitSettings)
     cp_dense = forms.evaluate_ranges(rr, dense, form)["Cp"]
     extrap = tuple({"t_min": min(e.t_from, e.t_to), "t_max": max(e.t_from, e.t_to),
                     "model": e.model, "holdout_error": e.holdout_error,
-                    "u_rel_end": e.u_rel_end} for e in sorted(extensions, key=lambda e: e.t_to))
+                    "u_rel_end": e.u_rel_end,
+                    "u_rel_start": e.u_rel[0] if e.side == "high" else e.u_rel[-1]}
+                   for e in sorted(extensions, key=lambda e: e.t_to))
+    free = sol.residual.size - sol.dof            # coefficients free under the constraints
+    record, verdict = acceptance.judge(t, cp, ev["Cp"], data.u_cp, free, settings)
     result = FitResult(form=form.name, ranges=ranges, breakpoints=solved.breakpoints,
                        data_t_min=float(t[0]), data_t_max=float(t[-1]), points=len(t),
                        cp_max_rel_dev=float(np.abs(rel).max()),
                        cp_rms_rel_dev=float(np.sqrt(np.mean(rel ** 2))),
                        worst_t=float(t[worst]), weighting=solved.weighting, h_max_dev=h_dev,
                        s_max_dev=s_dev, covariance=tuple(tuple(float(x) for x in row)
-                                                         for row in sol.cov),
+                                                         for row in solved.covariance),
+                       model_error=solved.model_error,
+                       birge_ratio=float(np.sqrt(sol.chi2 / sol.dof)), acceptance=record,
+                       covariance_scale=solved.covariance_scale,
+                       breakpoint_choice=solved.choice.to_dict() if solved.choice else None,
                        powers=tuple(form.powers), extrapolated=extrap,
                        settings=settings.to_dict(), notes=solved.notes)
     if np.any(cp_dense <= 0) or not np.all(np.isfinite(cp_dense)):
         bad = dense[np.argmax(~(cp_dense > 0))]
         raise FitRejected(species_id, f"fitted Cp is not positive at {bad:.6g} K inside the "
                           "range of use")
-    fails = []
-    # a point fails acceptance when it is off by more than the threshold and by more than
-    # three of its own standard uncertainties (a point stated as uncertain may scatter)
-    off = np.abs(rel) > settings.accept_cp_max_rel
-    if solved.weighting == "u(Cp)":
-        off &= np.abs(ev["Cp"] - cp) > 3 * sigma
-    if off.any():
-        k = int(np.argmax(np.where(off, np.abs(rel), 0.0)))
-        fails.append(f"|dCp/Cp| {100 * abs(rel[k]):.3g} % at {t[k]:.6g} K > "
-                     f"{100 * settings.accept_cp_max_rel:g} %")
+    fails = [verdict] if verdict else []
     if h_dev is not None and h_dev > settings.accept_h_max:
         fails.append(f"max |dH| {h_dev:.4g} J/mol > {settings.accept_h_max:g}")
     if s_dev is not None and s_dev > settings.accept_s_max:

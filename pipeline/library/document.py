@@ -8,9 +8,13 @@ import numpy as np
 
 from ..core import jsonread, schemas
 from ..core.constants import GAS_CONSTANT as R
+from ..core.constants import REFERENCE_TEMPERATURE
 from ..core.errors import InputError, SpeciesNotFound
 from ..core.limits import MAX_LIBRARY_BYTES
 from ..physics import basis, forms
+
+#: relative tolerance at the ends of the range of use (round-off in a stored end)
+END_TOLERANCE = 1e-12
 
 #: name of the link in a release home that points at the published release
 CURRENT = "current"
@@ -90,7 +94,9 @@ def ranges_of(species: dict) -> list:
 def check_range(species: dict, t) -> None:
     """InputError unless every T [K] is finite and inside the range of use of ``species``."""
     lo, hi = species["ranges"][0]["t_min"], species["ranges"][-1]["t_max"]
-    bad = t[(t < lo) | (t > hi) | ~np.isfinite(t)]
+    # the ends themselves are inside, also when written with a last-digit difference
+    slack = END_TOLERANCE * max(abs(lo), abs(hi))
+    bad = t[(t < lo - slack) | (t > hi + slack) | ~np.isfinite(t)]
     if len(bad):
         raise InputError(f"T = {bad[0]:g} K is outside the range of use of {species['id']}",
                          expected=f"{lo:g} K <= T <= {hi:g} K")
@@ -109,33 +115,75 @@ def evaluate_entry(species: dict, temperatures) -> dict:
 
 
 def uncertainty(species: dict, t) -> dict:
-    """Standard uncertainties of Cp [J/(mol K)], H [J/mol], S [J/(mol K)] from the stored
-    covariance of the scaled coefficients (H and S relative to their exact 298.15 K anchors),
-    plus the extrapolation model's uncertainty inside extrapolated intervals."""
+    """Standard uncertainties of Cp [J/(mol K)], H [J/mol], S [J/(mol K)] at ``t`` [K] by the
+    library's convention (fit/uncertainty.py): the parameter share from the stored covariance
+    of the scaled coefficients (H and S relative to their exact 298.15 K anchors), the model
+    error of the form in each range, and the extrapolation model's share, whose integral from
+    298.15 K enters H and S; the shares are added in quadrature."""
     t = np.atleast_1d(np.asarray(t, dtype=float))
     unc = species.get("uncertainty") or {}
     cov = np.asarray(unc.get("covariance") or [], dtype=float)
     powers = unc.get("powers") or []
     bps = species.get("breakpoints", [])
     edges = [species["ranges"][0]["t_min"]] + list(bps) + [species["ranges"][-1]["t_max"]]
-    if cov.size == 0:
-        zero = np.zeros_like(t)
-        return {"u_Cp": zero, "u_H": zero.copy(), "u_S": zero.copy()}
-    out = {}
-    for key, rows, scale in (("u_Cp", basis.cp_rows(powers, t, bps), R),
-                             ("u_H", basis.integral_rows(powers, t, bps, edges, "H"), R),
-                             ("u_S", basis.integral_rows(powers, t, bps, edges, "S"), R)):
-        var = np.einsum("ni,ij,nj->n", rows, cov, rows)
-        out[key] = scale * np.sqrt(np.maximum(var, 0.0))
-    guided = [e for e in species["extrapolated"] if e.get("u_rel_end")]
-    cp = forms.evaluate_ranges(ranges_of(species), t, species["form"])["Cp"] if guided else None
+    out = {"u_Cp": np.zeros_like(t), "u_H": np.zeros_like(t), "u_S": np.zeros_like(t)}
+    if cov.size:
+        for key, rows in (("u_Cp", basis.cp_rows(powers, t, bps)),
+                          ("u_H", basis.integral_rows(powers, t, bps, edges, "H")),
+                          ("u_S", basis.integral_rows(powers, t, bps, edges, "S"))):
+            var = np.einsum("ni,ij,nj->n", rows, cov, rows)
+            out[key] = R * np.sqrt(np.maximum(var, 0.0))
+    for key, share in _model_share(unc.get("model_error") or [], bps, t).items():
+        out[key] = np.hypot(out[key], share)
+    for key, share in _extrapolation_share(species, t).items():
+        out[key] = np.hypot(out[key], share)
+    return out
+
+
+def _model_share(model_error, bps, t) -> dict:
+    """The form's own misfit by range; for H and S never more than the Cp share integrated
+    from 298.15 K (they are exact there)."""
+    if not model_error:
+        return {}
+    j = forms.range_of(t, bps)
+    cp, h, s = (np.array([m[k] for m in model_error])[j] for k in ("cp", "h", "s"))
+    tref = REFERENCE_TEMPERATURE
+    return {"u_Cp": cp, "u_H": np.minimum(h, cp * np.abs(t - tref)),
+            "u_S": np.minimum(s, cp * np.abs(np.log(t / tref)))}
+
+
+def _extrapolation_share(species: dict, t, steps: int = 48) -> dict:
+    """Inside each model-filled interval: u_rel(T) Cp(T), u_rel growing from its value at the
+    data edge to its value at the far end in proportion to |ln(T/edge)|. The share is
+    systematic, so u(H) at T adds up u_rel Cp over the part of 298.15 K..T it covers, and u(S)
+    u_rel Cp / T (trapezoids on ``steps`` points)."""
+    guided = [e for e in species.get("extrapolated", []) if e.get("u_rel_end") is not None]
+    if not guided:
+        return {}
+    ranges, form = ranges_of(species), species["form"]
+    tref = REFERENCE_TEMPERATURE
+    high = species["data_range"]["t_max"]
+
+    def u_abs(x, e):
+        edge, far = (e["t_min"], e["t_max"]) if e["t_max"] >= high else (e["t_max"], e["t_min"])
+        start = e.get("u_rel_start") or 0.0
+        frac = np.abs(np.log(x / edge)) / (abs(np.log(far / edge)) or 1.0)
+        rel = start + (e["u_rel_end"] - start) * frac
+        inside = (x >= e["t_min"] * (1 - 1e-12)) & (x <= e["t_max"] * (1 + 1e-12))
+        return np.where(inside, rel * forms.evaluate_ranges(ranges, x.ravel(), form)["Cp"]
+                        .reshape(x.shape), 0.0)
+
+    out = {"u_Cp": np.zeros_like(t), "u_H": np.zeros_like(t), "u_S": np.zeros_like(t)}
     for e in guided:
-        inside = (t >= e["t_min"]) & (t <= e["t_max"])
-        span = np.log(e["t_max"] / e["t_min"]) or 1.0
-        edge = e["t_min"] if e["t_max"] >= species["data_range"]["t_max"] else e["t_max"]
-        frac = np.abs(np.log(t / edge)) / span
-        extra = e["u_rel_end"] * frac * cp
-        out["u_Cp"] = np.where(inside, np.hypot(out["u_Cp"], extra), out["u_Cp"])
+        out["u_Cp"] = out["u_Cp"] + u_abs(t, e)
+        a = np.clip(np.minimum(t, tref), e["t_min"], e["t_max"])
+        b = np.clip(np.maximum(t, tref), e["t_min"], e["t_max"])
+        grid = np.geomspace(a, np.maximum(b, a), steps, axis=-1)          # (n, steps)
+        f = u_abs(grid, e)
+        dx = np.diff(grid, axis=-1)
+        out["u_H"] = out["u_H"] + np.sum(dx * (f[:, 1:] + f[:, :-1]) / 2, axis=-1)
+        g = f / grid
+        out["u_S"] = out["u_S"] + np.sum(dx * (g[:, 1:] + g[:, :-1]) / 2, axis=-1)
     return out
 
 

@@ -35,6 +35,19 @@ def cp_rows(powers, t, breakpoints):
     return a
 
 
+def slope_rows(powers, t, breakpoints):
+    """Rows of d(Cp/R)/dτ at temperatures ``t`` [K] -> (n, nr*m)."""
+    t = np.atleast_1d(np.asarray(t, dtype=float))
+    m, nr = len(powers), len(breakpoints) + 1
+    idx = range_of(t, breakpoints)
+    v = powers_row(powers, t / T_SCALE, 1)
+    a = np.zeros((len(t), nr * m))
+    for j in range(nr):
+        sel = idx == j
+        a[sel, j * m:(j + 1) * m] = v[sel]
+    return a
+
+
 def continuity_rows(powers, breakpoints, order=1):
     """Equality constraints: Cp and its derivatives up to ``order`` equal on both sides of
     every breakpoint [K] -> (nb * (order + 1), nr * m)."""

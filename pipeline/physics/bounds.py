@@ -8,8 +8,9 @@ Statistical Mechanics, 1976, ch. 8):
   vibrations) = 7/2 R or 4 R — Wilhoit's Cp(0) [2];
 * with all 3N − 5 (linear) or 3N − 6 (nonlinear) vibrations classical, the
   rigid-rotor/harmonic-oscillator limit is Cp(∞) = (3N − 3/2) R (linear) or
-  (3N − 2) R (nonlinear) [2]. Anharmonicity and electronic states can exceed it
-  somewhat, so exceeding it is a warning, not an error.
+  (3N − 2) R (nonlinear) [2]. Anharmonicity and electronic states exceed it at high
+  temperature (``cp_ceiling`` allows for both); only beyond that is a value suspect, and
+  then a warning, not an error.
 * a monatomic gas stays at 5/2 R unless electronic states are excited (which
   only raise Cp).
 
@@ -21,7 +22,11 @@ References
 [1] D. A. McQuarrie, Statistical Mechanics, Harper & Row (1976), ch. 5 and 8.
 [2] R. C. Wilhoit, Thermodynamics Research Center Current Data News 3 (2), 1975 (Wilhoit's
     extrapolation; its limiting values Cp(0) and Cp(inf)) — citation from memory.
+[3] K. S. Pitzer, Quantum Chemistry, Prentice-Hall (1953), on the anharmonic oscillator's
+    thermodynamic functions — from memory.
 """
+
+import numpy as np
 
 from ..core.constants import GAS_CONSTANT as R
 from .statmech import ROTATION, TRANSLATION
@@ -43,6 +48,28 @@ def cp_infinity(geometry: str, atoms: int) -> float:
     if geometry == "linear":
         return (3 * atoms - 1.5) * R
     return (3 * atoms - 2) * R
+
+
+#: a low chemical bond dissociation energy D/k [K] (about 1.7 eV, the low end of chemical
+#: bonds; common practice): a Morse oscillator's heat capacity rises above R by about
+#: R kT/D in the classical limit [3]
+LOW_DISSOCIATION_TEMPERATURE = 20000.0
+#: the largest heat capacity of one excited electronic level [R units]: the peak of the
+#: two-level (Schottky) function r x² e^-x / (1 + r e^-x)² for an excited level as
+#: degenerate as the ground level (r = 1, peak 0.439 at x = 2.40) [1]; O2's a¹Δg level,
+#: two-thirds as degenerate as its ground level, adds less
+ELECTRONIC_PEAK = 0.44
+
+
+def cp_ceiling(geometry: str, atoms: int, t):
+    """Cp [J/(mol K)] at ``t`` [K] above which a polyatomic ideal gas is not explained by
+    physics: the classical limit Cp(∞), plus a first-order anharmonic rise R T/D for each
+    vibration (D = LOW_DISSOCIATION_TEMPERATURE), plus one excited electronic level at its
+    peak (ELECTRONIC_PEAK R). Real O2 at 6000 K, for example, stays below it."""
+    t = np.asarray(t, dtype=float)
+    modes = vibrational_modes(geometry, atoms)
+    return cp_infinity(geometry, atoms) + R * (modes * t / LOW_DISSOCIATION_TEMPERATURE
+                                               + ELECTRONIC_PEAK)
 
 
 def vibrational_modes(geometry: str, atoms: int) -> int:

@@ -25,8 +25,9 @@ class Outcome:
     checked: CheckResult   # what was read and checked
 
 
-def release_files(outcome: Outcome, ctx: Settings) -> dict:
-    """Every file of the release, each checked against its schema where it has one."""
+def release_files(outcome: Outcome, ctx: Settings, say=None) -> dict:
+    """Every file of the release, each checked against its schema where it has one;
+    ``say(stage, i, n, label)`` hears of each step (the report species by species)."""
 
     from . import report, tables
 
@@ -34,12 +35,15 @@ def release_files(outcome: Outcome, ctx: Settings) -> dict:
     file_stems([sp["id"] for sp in doc["species"]])  # unique file names or stop
     files = document.release_files(doc, document.findings_document(outcome.findings))
     out = ctx.outputs
+    say = say or (lambda *a: None)
+    say("write tables", 0, 0, "tables.parquet")
     files["tables.parquet"] = tables.tables_parquet_bytes(doc, out.table_step)
     if out.tables_csv:
         files.update(tables.csv_files(doc, out.table_step))
     if out.report:
         files.update(report.report_files(doc, plot_points(doc, checked),
-                                         ctx.fit.accept_cp_max_rel))
+                                         ctx.fit.accept_cp_max_rel, say=say))
+    say("write provenance", 0, 0, "provenance.json, manifest.json")
     files["provenance.json"] = document.json_bytes(
         provenance.prov_document(outcome.fitted, checked.inputs, sorted(files.items())))
     man = provenance.manifest(outcome.fitted, outcome.quarantined, checked.inputs,

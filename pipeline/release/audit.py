@@ -12,6 +12,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from ..core.errors import InputError
+from ..core.settings import Settings
 from ..library import diff
 from . import provenance
 
@@ -69,6 +70,17 @@ def read_release(curated_dir: Path) -> Recorded:
         raise InputError(f"{curated_dir} is not a release with a manifest ({exc})",
                          expected="a folder written by thermoledger build") from None
     return Recorded(folder=curated_dir, manifest=man, library=lib)
+
+
+def recorded_settings(recorded: Recorded) -> Settings:
+    """The settings the release was built with (its manifest); InputError when this version
+    cannot rebuild with them."""
+    try:
+        return Settings.from_dict(recorded.manifest.get("settings") or {})
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"{recorded.folder}/manifest.json records settings this version cannot "
+                         f"use ({exc})", expected="a release written by this version of "
+                         "thermoledger, or the settings given on the command line") from None
 
 
 def compare(recorded: Recorded, inputs, new_files: dict, new_doc: dict,

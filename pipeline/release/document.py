@@ -27,6 +27,14 @@ UNITS = {"temperature": "K", "enthalpy": "J/mol", "entropy": "J/(mol*K)",
          "coefficients": "published kelvin form named by 'form'; Cp/R, H/(RT), S/R dimensionless"}
 
 
+UNCERTAINTY_CONVENTION = (
+    "standard uncertainties (k = 1) after JCGM 100:2008: the coefficient covariance propagates "
+    "the stated u(Cp), widened by the Birge ratio squared when above 1, never narrowed (with "
+    "no u(Cp) stated, scaled by the residual scatter); plus the model error of the form per "
+    "range; plus, in extrapolated intervals, the extrapolation model's uncertainty, integrated "
+    "into H and S; shares added in quadrature")
+
+
 def extrapolated_intervals(fit) -> list:
     """Intervals of the range of use outside the data, with how they were filled."""
     out = []
@@ -38,7 +46,8 @@ def extrapolated_intervals(fit) -> list:
         e = models.get((round(a, 6), round(b, 6)))
         out.append({"t_min": a, "t_max": b, "model": e["model"] if e else "polynomial",
                     "holdout_error": e["holdout_error"] if e else None,
-                    "u_rel_end": e["u_rel_end"] if e else None})
+                    "u_rel_end": e["u_rel_end"] if e else None,
+                    "u_rel_start": e["u_rel_start"] if e else None})
     return out
 
 
@@ -58,15 +67,21 @@ def species_entry(fitted) -> dict:
         "ranges": [{"t_min": r.t_min, "t_max": r.t_max, "coefficients": list(r.coefficients)}
                    for r in fit.ranges],
         "breakpoints": list(fit.breakpoints),
+        "breakpoint_choice": fit.breakpoint_choice,
         "data_range": {"t_min": fit.data_t_min, "t_max": fit.data_t_max},
         "extrapolated": extrapolated_intervals(fit),
         "quality": {"cp_max_rel_dev": fit.cp_max_rel_dev, "cp_rms_rel_dev": fit.cp_rms_rel_dev,
                     "h_max_dev": fit.h_max_dev, "s_max_dev": fit.s_max_dev,
-                    "points": fit.points, "worst_t": fit.worst_t, "weighting": fit.weighting},
+                    "points": fit.points, "worst_t": fit.worst_t, "weighting": fit.weighting,
+                    "acceptance": dict(fit.acceptance)},
         "uncertainty": {"basis": "Cp/R = sum over p of c[j][p] * (T / 1000 K)^p in range j; "
                                  "covariance of c, ranges stacked",
                         "powers": list(fit.powers),
-                        "covariance": [list(row) for row in fit.covariance]},
+                        "covariance": [list(row) for row in fit.covariance],
+                        "convention": UNCERTAINTY_CONVENTION,
+                        "covariance_scale": fit.covariance_scale,
+                        "birge_ratio": fit.birge_ratio,
+                        "model_error": [dict(m) for m in fit.model_error]},
         "sources": sources,
         "excluded": [{"file": f, "line": int(ln), "code": c} for f, ln, c in fitted.excluded],
         "conversions": list(meta.notes),

@@ -179,34 +179,48 @@ def index_page(doc) -> bytes:
     return page("Build report", "".join(body), script=SORT_JS)
 
 
-def report_files(doc, points, accept, workers=None) -> dict:
+def report_files(doc, points, accept, workers=None, say=None) -> dict:
     """{relative path: bytes} of the report; ``points`` maps species id to its data:
     t, cp (rows used), t_out, cp_out (rows left out), and optional (t, deviation) pairs
     'dh' and 's' against the table's columns. Large reports are drawn by up to ``workers``
-    processes (default: the cores of the machine); the files do not depend on how many."""
+    processes (default: the cores of the machine); the files do not depend on how many.
+    ``say(stage, i, n, label)`` hears of every species drawn."""
     import os
 
     species = doc["species"]
+    say = say or (lambda *a: None)
     workers = workers or min(os.cpu_count() or 1, 4)
     files = {}
+    size = 25
+    chunks = [species[i:i + size] for i in range(0, len(species), size)]
+    done = 0
+
+    def tick(chunk):
+        nonlocal done
+        for sp in chunk:
+            done += 1
+            say("write report", done, len(species), sp["id"])
+
     if workers > 1 and len(species) > 60:
         from concurrent.futures import ProcessPoolExecutor
 
-        chunks = [species[i::workers] for i in range(workers)]
         pool = ProcessPoolExecutor(workers, initializer=workers_die_with_parent,
                                    initargs=(os.getpid(),))
         try:
             parts = pool.map(_species_files, chunks,
                              [{s["id"]: points.get(s["id"], {}) for s in c} for c in chunks],
-                             [accept] * workers)
-            for part in parts:
+                             [accept] * len(chunks))
+            for chunk, part in zip(chunks, parts):
                 files.update(part)
+                tick(chunk)
         except BaseException:
             stop_workers(pool)  # an interrupted build waits for no worker
             raise
         pool.shutdown()
     else:
-        files.update(_species_files(species, points, accept))
+        for chunk in chunks:
+            files.update(_species_files(chunk, points, accept))
+            tick(chunk)
     per_source = Counter(s["sources"][0]["source"] for s in species)
     hist, bars = plots.overview_figures([100 * s["quality"]["cp_max_rel_dev"]
                                          for s in species], per_source)

@@ -1,0 +1,131 @@
+"""The fit beyond the data: an extension that leaves the data alone and rises monotonically.
+
+A high-side extension (extrapolate.py) is first fitted together with the data. When that
+worsens the largest relative Cp deviation inside the data by more than
+``extension_tolerance``, or makes the fitted Cp fall somewhere beyond the data (an interior
+maximum, checked on a fine grid of the polynomial), the data are fitted alone and the
+extension gets a range of its own from the last data point, joined to the data's fit with
+the required continuity (``extension_range``); where Cp would still fall, dCp/dT is held at
+zero at the point where it falls fastest (an active set of shape constraints, at most
+MAX_PINS points). FitRejected when Cp still falls.
+"""
+
+from typing import NamedTuple
+
+import numpy as np
+
+from ..core.constants import GAS_CONSTANT as R
+from ..core.errors import FitRejected
+from ..core.records import CpData
+from ..core.settings import FitSettings
+from ..physics import basis, forms
+from . import lsq
+
+
+class Fitted(NamedTuple):
+    """A constrained solution and how its breakpoints were found."""
+
+    bps: list        # [K]
+    edges: list      # [K], t_min, breakpoints, t_max
+    sol: lsq.Solution
+    notes: list      # (code, message)
+    choice: object   # breakchoice.Choice or None
+
+
+def worst_inside(form, fitted: Fitted, data: CpData) -> float:
+    """Largest relative Cp deviation of a solution from the data rows."""
+    return float(np.max(np.abs(R * (basis.cp_rows(form.powers, data.t, fitted.bps)
+                                    @ fitted.sol.c) / data.cp - 1.0)))
+
+
+def first_fall(form, fitted: Fitted, t_from: float, t_to: float, points: int = 400):
+    """(where Cp first falls, where it falls fastest) [K] between ``t_from`` and ``t_to`` (a
+    maximum beyond the data), or None when it never falls (checked on a fine grid)."""
+    bps, sol = fitted.bps, fitted.sol
+    grid = np.geomspace(t_from, t_to, points)
+    cp = basis.cp_rows(form.powers, grid, bps) @ sol.c
+    slope = basis.slope_rows(form.powers, grid, bps) @ sol.c
+    falls = np.diff(cp) < -1e-9 * np.abs(cp[:-1])
+    if not falls.any():
+        return None
+    return float(grid[np.argmax(falls)]), float(grid[np.argmin(slope)])
+
+
+#: at most this many points where dCp/dT is held at zero to keep Cp from falling beyond the data
+MAX_PINS = 3
+
+
+def protect_data(species_id, form, rows, inside, data: CpData, span, settings: FitSettings,
+                 fitted: Fitted, solve) -> Fitted:
+    """``fitted`` (data and a high-side extension, ``rows`` (t, cp, σ) with ``inside`` the
+    rows up to the last data point) when it leaves the fit inside the data alone and rises
+    without a maximum beyond the data; otherwise as the module describes. ``solve(rows,
+    span, fixed=None, pins=())`` makes a Fitted of some rows over ``span`` [K]."""
+    tn, hi = float(data.t[-1]), span[1]
+    alone = solve(tuple(r[inside] for r in rows), (span[0], tn))
+    allowed = worst_inside(form, alone, data) + settings.extension_tolerance
+    if worst_inside(form, fitted, data) <= allowed and first_fall(form, fitted, tn, hi) is None:
+        return fitted
+    if len(alone.bps) + 2 <= 4 and hi / tn >= settings.min_range_ratio:
+        ext = tuple(r[~inside] for r in rows)
+        pins = []
+        while True:
+            own = extension_range(form, alone, ext, (tn, hi), settings.continuity, pins)
+            fall = first_fall(form, own, tn, hi)
+            if fall is None or len(pins) == MAX_PINS:
+                break
+            pins.append(fall[1])    # an active set: Cp levels off where it fell fastest
+        fitted = own._replace(notes=alone.notes + [(
+            "FIT-BREAKPOINT", f"a breakpoint at the last data point, {tn:.6g} K: the "
+            f"extrapolated interval to {hi:g} K has a range of its own, so the fit inside the "
+            "data is the data-only fit")])
+    else:
+        pins = []
+        while (fall := first_fall(form, fitted, tn, hi)) is not None and len(pins) < MAX_PINS:
+            pins.append(fall[1])
+            fitted = solve(rows, span, fixed=fitted.bps, pins=pins)._replace(
+                notes=fitted.notes, choice=fitted.choice)
+    fall = first_fall(form, fitted, tn, hi)
+    if fall is not None:
+        raise FitRejected(species_id, f"the fitted Cp has a maximum at {fall[0]:.6g} K "
+                          f"beyond the data (to {tn:.6g} K) and falls toward {hi:g} K; narrow "
+                          "the range of use or add data")
+    if worst_inside(form, fitted, data) > allowed:
+        fitted.notes.append(("FIT-EXTRAPOLATED", "extending the range of use to "
+                          f"{hi:g} K worsens the largest Cp deviation inside the data from "
+                          f"{100 * (allowed - settings.extension_tolerance):.3g} % to "
+                          f"{100 * worst_inside(form, fitted, data):.3g} % (no room for a "
+                          "range of its own)"))
+    return fitted
+
+
+def extension_range(form, alone: Fitted, ext_rows, span, order: int, pins=()) -> Fitted:
+    """``alone`` (the data-only solution) with one more range over ``span`` (tn, hi) [K]
+    fitted to the extension rows (t, cp, σ): its Cp and derivatives up to ``order`` equal
+    the data fit's at tn, and dCp/dT = 0 at the ``pins`` [K]. The constraints are
+    inhomogeneous, so the range is solved as d = d_p + N z (d_p a particular solution, N the
+    null space of the constraints); the coefficients of the data ranges are left as they
+    are and the covariance is block-diagonal (the join's correlation is not kept)."""
+    bps, edges, sol, notes = alone.bps, alone.edges, alone.sol, alone.notes
+    tn, hi = span
+    m = len(form.powers)
+    tau = tn / forms.T_SCALE
+    last = sol.c[-m:]
+    k = np.vstack([basis.powers_row(form.powers, tau, d) for d in range(order + 1)])
+    target = k @ last
+    if len(pins):
+        k = np.vstack([k, basis.powers_row(form.powers, np.asarray(pins) / forms.T_SCALE, 1)])
+        target = np.concatenate([target, np.zeros(len(pins))])
+    d_p = np.linalg.lstsq(k, target, rcond=None)[0]
+    null = lsq.null_basis(k, m)
+    t, cp, sig = ext_rows
+    a = basis.powers_row(form.powers, t / forms.T_SCALE)
+    part = lsq.solve(a @ null, cp / R - a @ d_p, sig / R)
+    d = d_p + null @ part.c
+    cov = np.zeros((sol.c.size + m, sol.c.size + m))
+    cov[:sol.c.size, :sol.c.size] = sol.cov
+    cov[sol.c.size:, sol.c.size:] = null @ part.cov @ null.T
+    joined = lsq.Solution(c=np.concatenate([sol.c, d]), residual=sol.residual, cov=cov,
+                          chi2=sol.chi2, dof=sol.dof)
+    return Fitted(list(bps) + [tn], list(edges[:-1]) + [tn, hi], joined, list(notes),
+                  alone.choice)

@@ -1,0 +1,96 @@
+"""The uncertainty convention of a fit: what the stated standard uncertainties of Cp, H and S
+are made of.
+
+Convention (JCGM 100:2008, the GUM, sections 4.2-4.3 and 5.1; Birge ratio: R. T. Birge,
+Phys. Rev. 40, 207 (1932)):
+
+* Parameter share. The covariance of the coefficients propagates the σ of the data rows.
+  When the table states u(Cp), σ = u(Cp) and the covariance is multiplied by the squared
+  Birge ratio χ²/ν only when that exceeds 1: scatter beyond the stated uncertainty widens
+  the result, scatter below it never narrows it (a Type B input is not replaced by a Type A
+  estimate from the same data). When the table states none, σ is an assumed relative
+  uncertainty that only shapes the weights, and the scatter itself is the evaluation (Type
+  A): the covariance is multiplied by χ²/ν whatever its value.
+* Model share. A polynomial form with a given number of ranges cannot follow Cp exactly
+  even when the data are exact. The misfit d(T) = P(T) − F(T) between the fitted polynomial
+  P and a flexible smooth reference F of the same rows (a cubic smoothing spline in ln T,
+  weights 1/σ², smoothing chosen by generalised cross-validation: P. Craven & G. Wahba,
+  Numer. Math. 31, 377 (1979); scipy.interpolate.make_smoothing_spline) estimates it. Its
+  standard uncertainty per range is half the 95th percentile of |d| over the rows of the
+  range (so that the usual coverage factor k = 2 covers 95 % of the misfit, which is not
+  normally distributed), after removing the share of d that is the noise of the data
+  themselves (the parameter variance, which the reference also carries). For H − H298 and
+  S the same is done with the running integrals of d and d/T from 298.15 K.
+* Extrapolation share (library.document.uncertainty): inside an extrapolated interval the
+  model's relative uncertainty of Cp; it is systematic, so its integral from the data edge
+  is added to u(H) and its integral over T to u(S), at every temperature it reaches.
+
+The three shares are independent and added in quadrature.
+"""
+
+import numpy as np
+from scipy.interpolate import make_lsq_spline
+
+from ..core.constants import REFERENCE_TEMPERATURE
+from .lsq import Solution
+
+#: the misfit's coverage probability that k = 2 is taken to mean (GUM 6.2-6.3)
+COVERAGE = 0.95
+#: rows per knot interval of the reference spline
+ROWS_PER_KNOT = 6
+
+
+def covariance_scale(sol: Solution, stated: bool) -> float:
+    """The factor the propagated covariance is multiplied by: max(1, χ²/ν) when u(Cp) is
+    stated, χ²/ν otherwise (see the module's convention)."""
+    reduced = sol.chi2 / sol.dof
+    return max(1.0, reduced) if stated else reduced
+
+
+def _half_quantile(values) -> float:
+    v = np.abs(np.asarray(values, dtype=float))
+    return float(np.quantile(v, COVERAGE) / 2.0) if len(v) else 0.0
+
+
+def _cumulative(t, f):
+    """∫ f dT from 298.15 K to each t (trapezoids; t sorted)."""
+    steps = np.concatenate([[0.0], np.cumsum(np.diff(t) * (f[1:] + f[:-1]) / 2.0)])
+    return steps - np.interp(REFERENCE_TEMPERATURE, t, steps)
+
+
+def reference_spline(x, y, sigma):
+    """The weighted least-squares cubic spline of ``y`` ± ``sigma`` at ascending ``x`` with
+    interior knots at every ROWS_PER_KNOT-th row (Schoenberg-Whitney holds by construction)."""
+    inner = x[ROWS_PER_KNOT:-ROWS_PER_KNOT + 1:ROWS_PER_KNOT] if len(x) > 2 * ROWS_PER_KNOT \
+        else x[:0]
+    inner = inner[(inner > x[0]) & (inner < x[-1])]
+    knots = np.concatenate([[x[0]] * 4, inner, [x[-1]] * 4])
+    return make_lsq_spline(x, y, knots, k=3, w=1.0 / sigma)
+
+
+def model_error(t, cp, sigma, fitted, u_param, edges) -> tuple:
+    """Per range: {"cp": [J/(mol K)], "h": [J/mol], "s": [J/(mol K)]}, the standard
+    uncertainties of the polynomial form itself.
+
+    t, cp, sigma : the fitted rows (data and extension) [K], [J/(mol K)], sorted by T
+    fitted : the polynomial's Cp at t; u_param : its parameter standard uncertainty at t
+    edges : the range limits [K]
+    """
+    t, cp, sigma = (np.asarray(a, dtype=float) for a in (t, cp, sigma))
+    keep = np.concatenate([[True], np.diff(t) > 0])
+    x = np.log(t[keep])
+    if len(x) < 2 * ROWS_PER_KNOT:
+        return tuple({"cp": 0.0, "h": 0.0, "s": 0.0} for _ in range(len(edges) - 1))
+    reference = reference_spline(x, cp[keep], sigma[keep])
+    d = np.asarray(fitted, dtype=float)[keep] - reference(x)
+    noise = np.asarray(u_param, dtype=float)[keep]
+    tk = t[keep]
+    e_h, e_s = _cumulative(tk, d), _cumulative(tk, d / tk)
+    out = []
+    for j in range(len(edges) - 1):
+        inside = (tk >= edges[j]) & (tk <= edges[j + 1])
+        share = float(np.mean(noise[inside] ** 2)) if inside.any() else 0.0
+        u_cp = np.sqrt(max(0.0, _half_quantile(d[inside]) ** 2 - share))
+        out.append({"cp": float(u_cp), "h": _half_quantile(e_h[inside]),
+                    "s": _half_quantile(e_s[inside])})
+    return tuple(out)

@@ -5,9 +5,9 @@ worsens the largest relative Cp deviation inside the data by more than
 ``extension_tolerance``, or makes the fitted Cp fall somewhere beyond the data (an interior
 maximum, checked on a fine grid of the polynomial), the data are fitted alone and the
 extension gets a range of its own from the last data point, joined to the data's fit with
-the required continuity (``extension_range``); where Cp would still fall, dCp/dT is held at
-zero at the point where it falls fastest (an active set of shape constraints, at most
-MAX_PINS points). FitRejected when Cp still falls.
+the required continuity and dCp/dT ≥ 0 imposed exactly on a fine grid (``extension_range``).
+Without room for another range, dCp/dT is held at zero where the shared fit falls fastest
+(at most MAX_PINS points). FitRejected when Cp still falls.
 """
 
 from typing import NamedTuple
@@ -51,8 +51,11 @@ def first_fall(form, fitted: Fitted, t_from: float, t_to: float, points: int = 4
     return float(grid[np.argmax(falls)]), float(grid[np.argmin(slope)])
 
 
-#: at most this many points where dCp/dT is held at zero to keep Cp from falling beyond the data
+#: at most this many points where dCp/dT is held at zero to keep Cp from falling beyond the
+#: data, when the extension shares a range with the data
 MAX_PINS = 3
+#: grid points of the extension's own range where dCp/dT >= 0 is imposed
+MONOTONE_POINTS = 200
 
 
 def protect_data(species_id, form, rows, inside, data: CpData, span, settings: FitSettings,
@@ -67,14 +70,8 @@ def protect_data(species_id, form, rows, inside, data: CpData, span, settings: F
     if worst_inside(form, fitted, data) <= allowed and first_fall(form, fitted, tn, hi) is None:
         return fitted
     if len(alone.bps) + 2 <= 4 and hi / tn >= settings.min_range_ratio:
-        ext = tuple(r[~inside] for r in rows)
-        pins = []
-        while True:
-            own = extension_range(form, alone, ext, (tn, hi), settings.continuity, pins)
-            fall = first_fall(form, own, tn, hi)
-            if fall is None or len(pins) == MAX_PINS:
-                break
-            pins.append(fall[1])    # an active set: Cp levels off where it fell fastest
+        own = extension_range(form, alone, tuple(r[~inside] for r in rows), (tn, hi),
+                              settings.continuity)
         fitted = own._replace(notes=alone.notes + [(
             "FIT-BREAKPOINT", f"a breakpoint at the last data point, {tn:.6g} K: the "
             f"extrapolated interval to {hi:g} K has a range of its own, so the fit inside the "
@@ -99,28 +96,26 @@ def protect_data(species_id, form, rows, inside, data: CpData, span, settings: F
     return fitted
 
 
-def extension_range(form, alone: Fitted, ext_rows, span, order: int, pins=()) -> Fitted:
+def extension_range(form, alone: Fitted, ext_rows, span, order: int) -> Fitted:
     """``alone`` (the data-only solution) with one more range over ``span`` (tn, hi) [K]
     fitted to the extension rows (t, cp, σ): its Cp and derivatives up to ``order`` equal
-    the data fit's at tn, and dCp/dT = 0 at the ``pins`` [K]. The constraints are
-    inhomogeneous, so the range is solved as d = d_p + N z (d_p a particular solution, N the
-    null space of the constraints); the coefficients of the data ranges are left as they
-    are and the covariance is block-diagonal (the join's correlation is not kept)."""
+    the data fit's at tn, and dCp/dT ≥ 0 on a grid of MONOTONE_POINTS over the range. The
+    equalities are inhomogeneous, so the range is solved as d = d_p + N z (d_p a particular
+    solution, N the null space of the equalities), with the inequalities on z solved
+    exactly (lsq.at_least); the coefficients of the data ranges are left as they are and
+    the covariance is block-diagonal (the join's correlation is not kept)."""
     bps, edges, sol, notes = alone.bps, alone.edges, alone.sol, alone.notes
     tn, hi = span
     m = len(form.powers)
-    tau = tn / forms.T_SCALE
-    last = sol.c[-m:]
-    k = np.vstack([basis.powers_row(form.powers, tau, d) for d in range(order + 1)])
-    target = k @ last
-    if len(pins):
-        k = np.vstack([k, basis.powers_row(form.powers, np.asarray(pins) / forms.T_SCALE, 1)])
-        target = np.concatenate([target, np.zeros(len(pins))])
-    d_p = np.linalg.lstsq(k, target, rcond=None)[0]
+    k = np.vstack([basis.powers_row(form.powers, tn / forms.T_SCALE, d)
+                   for d in range(order + 1)])
+    d_p = np.linalg.lstsq(k, k @ sol.c[-m:], rcond=None)[0]
     null = lsq.null_basis(k, m)
     t, cp, sig = ext_rows
     a = basis.powers_row(form.powers, t / forms.T_SCALE)
-    part = lsq.solve(a @ null, cp / R - a @ d_p, sig / R)
+    slope = basis.powers_row(form.powers, np.geomspace(tn, hi, MONOTONE_POINTS)
+                             / forms.T_SCALE, 1)
+    part = lsq.at_least(a @ null, cp / R - a @ d_p, sig / R, slope @ null, -(slope @ d_p))
     d = d_p + null @ part.c
     cov = np.zeros((sol.c.size + m, sol.c.size + m))
     cov[:sol.c.size, :sol.c.size] = sol.cov

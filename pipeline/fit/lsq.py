@@ -11,6 +11,11 @@ problem projected onto the constraint set: the σ given are propagated as they a
 is then scaled by the reduced chi-square χ²/(n − q) (the Birge ratio squared) is the
 caller's convention (see fit/uncertainty.py).
 
+Inequality constraints G x ≥ h (``at_least``) are solved exactly by the reduction of least
+squares with inequalities to a least-distance problem and that to non-negative least
+squares: C. L. Lawson & R. J. Hanson, Solving Least Squares Problems, Prentice-Hall (1974),
+ch. 23 (scipy.optimize.nnls).
+
 Lawson's iteratively reweighted scheme turns the same solver into a minimax (Chebyshev)
 fit: C. L. Lawson, PhD thesis, UCLA (1961); see also Rice & Usow, Math. Comp. 22, 118 (1968).
 """
@@ -20,6 +25,7 @@ from functools import lru_cache
 
 import numpy as np
 from scipy.linalg.lapack import dgeqrf, dorgqr, dtrtri
+from scipy.optimize import nnls
 
 
 def null_basis(c: np.ndarray, k: int) -> np.ndarray:
@@ -94,6 +100,36 @@ def solve(a, y, sigma, c=None, weights=None) -> Solution:
     chi2 = float(res @ res)
     cov_z = ginv / (norms[:, None] * norms[None, :])
     return Solution(c=coef, residual=res, cov=basis @ cov_z @ basis.T, chi2=chi2, dof=dof)
+
+
+def at_least(a, y, sigma, g, h) -> Solution:
+    """min ||(A x − y)/σ|| subject to G x ≥ h (A of full column rank), by Lawson & Hanson's
+    reduction to a least-distance problem solved with NNLS. The covariance is that of the
+    unconstrained problem (active constraints only narrow it)."""
+    free = solve(a, y, sigma)
+    g, h = np.asarray(g, dtype=float), np.asarray(h, dtype=float)
+    if not len(h) or np.all(g @ free.c >= h):
+        return free
+    w = 1.0 / np.asarray(sigma, dtype=float)
+    e, f = np.asarray(a, dtype=float) * w[:, None], np.asarray(y, dtype=float) * w
+    q, r = np.linalg.qr(e)
+    rinv = np.linalg.inv(r)
+    # x = R⁻¹ (z + Qᵀf): min ||z|| subject to (G R⁻¹) z ≥ h − G R⁻¹ Qᵀ f
+    gz = g @ rinv
+    hz = h - gz @ (q.T @ f)
+    scale = max(np.abs(gz).max(), np.abs(hz).max(), 1e-300)
+    gz, hz = gz / scale, hz / scale
+    big = np.vstack([gz.T, hz[None, :]])
+    target = np.zeros(big.shape[0])
+    target[-1] = 1.0
+    u, _ = nnls(big, target, maxiter=50 * big.shape[1])
+    resid = big @ u - target
+    if abs(resid[-1]) < 1e-12:           # no feasible point: keep the unconstrained one
+        return free
+    z = -resid[:-1] / resid[-1]
+    x = rinv @ (z + q.T @ f)
+    res = (np.asarray(a, dtype=float) @ x - np.asarray(y, dtype=float)) * w
+    return Solution(c=x, residual=res, cov=free.cov, chi2=float(res @ res), dof=free.dof)
 
 
 def minimax(a, y, sigma, c=None, iterations=200, tol=1e-9) -> Solution:

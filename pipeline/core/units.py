@@ -141,15 +141,21 @@ ROUND_OFF = 1e-13
 def trim_round_off(values) -> np.ndarray:
     """``values`` with conversion round-off removed: each one within ROUND_OFF (relative) of
     its rounding to TEMPERATURE_DIGITS significant digits becomes that rounding; values given
-    with more digits, and non-finite ones, are kept."""
+    with more digits, and non-finite or zero ones, are kept."""
     arr = np.asarray(values, dtype=float)
-    out = arr.ravel().copy()
-    for i, v in enumerate(out):
-        if np.isfinite(v):
-            r = float(f"{v:.{TEMPERATURE_DIGITS}g}")
-            if abs(v - r) <= ROUND_OFF * abs(v):
-                out[i] = r
-    return out.reshape(arr.shape)
+    ok = np.isfinite(arr) & (arr != 0)
+    # digits after the decimal point that keep TEMPERATURE_DIGITS significant ones; scaling
+    # by an exact power of ten (|k| <= 22) and rounding gives the nearest double to the
+    # decimal rounding, as formatting would
+    k = np.where(ok, TEMPERATURE_DIGITS - 1 - np.floor(np.log10(np.abs(np.where(ok, arr, 1.0)))),
+                 0).astype(int)
+    ok &= np.abs(k) <= 22
+    k = np.where(ok, k, 0)
+    up, down = 10.0 ** np.maximum(k, 0), 10.0 ** np.maximum(-k, 0)
+    with np.errstate(invalid="ignore", over="ignore"):   # non-finite values are kept
+        rounded = np.round(arr * up / down) * down / up
+        near = ok & (np.abs(arr - rounded) <= ROUND_OFF * np.abs(arr))
+    return np.where(near, rounded, arr)
 
 
 def from_si(values, unit_text: str, kind: str, molar_mass: float | None = None) -> np.ndarray:

@@ -66,8 +66,10 @@ def protect_data(species_id, form, rows, inside, data: CpData, span, settings: F
     span, fixed=None, pins=())`` makes a Fitted of some rows over ``span`` [K]."""
     tn, hi = float(data.t[-1]), span[1]
     alone = solve(tuple(r[inside] for r in rows), (span[0], tn))
-    allowed = worst_inside(form, alone, data) + settings.extension_tolerance
-    if worst_inside(form, fitted, data) <= allowed and first_fall(form, fitted, tn, hi) is None:
+    best = worst_inside(form, alone, data)
+    allowed = best + settings.extension_tolerance
+    fall = first_fall(form, fitted, tn, hi)
+    if worst_inside(form, fitted, data) <= allowed and fall is None:
         return fitted
     if len(alone.bps) + 2 <= 4 and hi / tn >= settings.min_range_ratio:
         own = extension_range(form, alone, tuple(r[~inside] for r in rows), (tn, hi),
@@ -76,23 +78,24 @@ def protect_data(species_id, form, rows, inside, data: CpData, span, settings: F
             "FIT-BREAKPOINT", f"a breakpoint at the last data point, {tn:.6g} K: the "
             f"extrapolated interval to {hi:g} K has a range of its own, so the fit inside the "
             "data is the data-only fit")])
+        fall = first_fall(form, fitted, tn, hi)
     else:
         pins = []
-        while (fall := first_fall(form, fitted, tn, hi)) is not None and len(pins) < MAX_PINS:
+        while fall is not None and len(pins) < MAX_PINS:
             pins.append(fall[1])
             fitted = solve(rows, span, fixed=fitted.bps, pins=pins)._replace(
                 notes=fitted.notes, choice=fitted.choice)
-    fall = first_fall(form, fitted, tn, hi)
+            fall = first_fall(form, fitted, tn, hi)
     if fall is not None:
         raise FitRejected(species_id, f"the fitted Cp has a maximum at {fall[0]:.6g} K "
                           f"beyond the data (to {tn:.6g} K) and falls toward {hi:g} K; narrow "
                           "the range of use or add data")
-    if worst_inside(form, fitted, data) > allowed:
+    worst = worst_inside(form, fitted, data)
+    if worst > allowed:
         fitted.notes.append(("FIT-EXTRAPOLATED", "extending the range of use to "
-                          f"{hi:g} K worsens the largest Cp deviation inside the data from "
-                          f"{100 * (allowed - settings.extension_tolerance):.3g} % to "
-                          f"{100 * worst_inside(form, fitted, data):.3g} % (no room for a "
-                          "range of its own)"))
+                             f"{hi:g} K worsens the largest Cp deviation inside the data from "
+                             f"{100 * best:.3g} % to {100 * worst:.3g} % (no room for a range "
+                             "of its own)"))
     return fitted
 
 

@@ -44,10 +44,9 @@ class Choice:
 def _fixed(t, settings: FitSettings):
     bps = sorted(float(b) for b in settings.fixed_breakpoints)
     edges = [float(t[0])] + bps + [float(t[-1])]
-    narrow = [(a, b) for a, b in zip(edges[:-1], edges[1:])
-              if b < a * settings.min_range_ratio * (1 - 1e-12)]
+    narrow = breakpoints.too_narrow(edges, settings.min_range_ratio, 1e-12)
     if narrow:
-        a, b = narrow[0]
+        a, b = narrow
         raise ValueError(f"the range {a:.6g}-{b:.6g} K of the fixed breakpoints is only "
                          f"{b / a:.4g} times wider at the top than at the bottom; every "
                          f"range must be at least {settings.min_range_ratio:g} times wider")
@@ -116,7 +115,7 @@ def _suits(t, previous, nr: int, rules) -> bool:
     edges = [float(t[0])] + [float(b) for b in previous] + [float(t[-1])]
     lo, hi = rules.bounds
     counts = np.diff(np.searchsorted(t, edges[1:-1], side="right"), prepend=0, append=len(t))
-    return bool(all(b >= a * rules.ratio * (1 - 1e-12) for a, b in zip(edges[:-1], edges[1:]))
+    return bool(breakpoints.too_narrow(edges, rules.ratio, 1e-12) is None
                 and counts.min() >= rules.need
                 and (lo is None or edges[1] >= lo) and (hi is None or edges[-2] <= hi))
 

@@ -121,10 +121,19 @@ def optimise(obs: Observations, powers, n_ranges: int, rules: SearchRules = Sear
         if not changed:
             break
     edges = [t[0]] + list(current) + [t[-1]]
-    if any(b / a < ratio * (1 - 1e-9) for a, b in zip(edges[:-1], edges[1:])):
+    if too_narrow(edges, ratio):
         raise ValueError(f"no breakpoints leave {n_ranges} ranges of at least {need} points "
                          f"each at least {ratio:g} times wider at the top than at the bottom")
     return [float(round(b, 3)) for b in current]
+
+
+def too_narrow(edges, ratio: float, rel: float = 1e-9):
+    """The first range (T_low, T_high) [K] of ``edges`` that is less than ``ratio`` times wider
+    at the top than at the bottom (``rel`` allows for round-off), or None."""
+    for a, b in zip(edges[:-1], edges[1:]):
+        if b < a * ratio * (1 - rel):
+            return float(a), float(b)
+    return None
 
 
 def _pick(obj, cands, here):

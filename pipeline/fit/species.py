@@ -222,7 +222,7 @@ def fit_species(who: SpeciesIdentity, data: CpData, settings: FitSettings = FitS
     scale = uncertainty.covariance_scale(sol, stated=u is not None)
     cov = sol.cov * scale
     cp_rows = basis.cp_rows(form.powers, all_t, bps)
-    u_param = R * np.sqrt(np.maximum(np.einsum("ni,ij,nj->n", cp_rows, cov, cp_rows), 0.0))
+    u_param = R * basis.standard_deviation(cp_rows, cov)
     model = uncertainty.model_error(all_t, all_cp, all_sig, R * (cp_rows @ sol.c), u_param,
                                     edges)
     solved = Solved(form=form, ranges=ranges, breakpoints=tuple(bps), solution=sol,

@@ -131,8 +131,7 @@ def uncertainty(species: dict, t) -> dict:
         for key, rows in (("u_Cp", basis.cp_rows(powers, t, bps)),
                           ("u_H", basis.integral_rows(powers, t, bps, edges, "H")),
                           ("u_S", basis.integral_rows(powers, t, bps, edges, "S"))):
-            var = np.einsum("ni,ij,nj->n", rows, cov, rows)
-            out[key] = R * np.sqrt(np.maximum(var, 0.0))
+            out[key] = R * basis.standard_deviation(rows, cov)
     for key, share in _model_share(unc.get("model_error") or [], bps, t).items():
         out[key] = np.hypot(out[key], share)
     for key, share in _extrapolation_share(species, t).items():

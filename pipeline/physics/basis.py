@@ -48,6 +48,12 @@ def slope_rows(powers, t, breakpoints):
     return a
 
 
+def standard_deviation(rows, cov) -> np.ndarray:
+    """sqrt(diag(rows · cov · rowsᵀ)): the standard deviation of each row's value for
+    coefficients of covariance ``cov`` (negative round-off clipped to zero)."""
+    return np.sqrt(np.maximum(np.einsum("ni,ij,nj->n", rows, cov, rows), 0.0))
+
+
 def continuity_rows(powers, breakpoints, order=1):
     """Equality constraints: Cp and its derivatives up to ``order`` equal on both sides of
     every breakpoint [K] -> (nb * (order + 1), nr * m)."""

@@ -41,7 +41,7 @@ def examine(raw_dir, ctx: Settings = Settings()) -> CheckResult:
     for table in got.tables:
         errors = [x for x in about.get(table.meta.file, ()) if x.severity == ERROR]
         if errors:
-            quarantined.append((table.meta, tuple(errors)))
+            quarantined.append((table.meta, tuple(sorted(errors, key=lambda f: f.sort_key()))))
         else:
             accepted.append(table)
     selections, more, dropped = reconcile.reconcile(accepted, found, ctx)
@@ -59,7 +59,8 @@ def held_back(tables, findings) -> tuple:
     be read at all."""
     read = {t.meta.file for t in tables}
     about = by_subject(f for f in findings if f.severity == ERROR)
-    return tuple((k, tuple(v)) for k, v in sorted(about.items()) if k not in read)
+    return tuple((k, tuple(sorted(v, key=lambda f: f.sort_key())))
+                 for k, v in sorted(about.items()) if k not in read)
 
 
 def fit_selection(sel, ctx: Settings, previous=None):

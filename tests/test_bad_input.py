@@ -209,11 +209,22 @@ def test_too_many_rows_is_one_finding(tmp_path, monkeypatch):
 
 
 def test_many_bad_rows_are_summed_up(tmp_path):
-    rows = [(200 + i, "x") for i in range(300)]
+    rows = [(200 + i, "x") for i in range(300)] + [(600, 29.9), (700, 30.1)]
     write_case(tmp_path / "raw", rows=rows)
     result = build.examine(tmp_path / "raw")
     bad = [f for f in result.findings if f.code == "CELL-NOT-NUMBER"]
     assert len(bad) == 21 and len(bad[-1].lines) == 280 and "280 more row(s)" in bad[-1].message
+
+
+def test_a_table_no_row_of_which_can_be_read_gets_one_finding_naming_the_cause(tmp_path):
+    rows = [(200 + i, "x") for i in range(300)]
+    write_case(tmp_path / "raw", rows=rows)
+    result = build.examine(tmp_path / "raw")
+    (meta, reasons), = [q for q in result.quarantined if q[0].file == "lab/t.csv"]
+    assert [f.code for f in reasons] == ["TAB-NO-ROWS", "TOO-FEW-POINTS"]  # the cause first
+    assert len(reasons[0].lines) == 300
+    assert "none of the 300 data row(s)" in reasons[0].message and "'x'" in reasons[0].message
+    assert [f.code for f in result.findings if f.code in ("CELL-NOT-NUMBER", "ROW-WIDTH")] == []
 
 
 def test_an_unexpected_exception_becomes_the_tables_finding(tmp_path, monkeypatch):

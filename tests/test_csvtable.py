@@ -50,10 +50,17 @@ def test_non_numeric_cell_names_line_and_column():
     assert list(p.data["line"]) == [2, 4]
 
 
-@pytest.mark.parametrize("cell", ["nan", "inf", "-inf", "1e400", "0x1A", "1_000", "29,1"])
+@pytest.mark.parametrize("cell", ["nan", "inf", "-inf", "1e400", "0x1A", "1_000", "1.234,5"])
 def test_non_finite_or_odd_numbers_are_rejected(cell):
-    p = parse(f'T [K],Cp [J/(mol*K)]\n200,"{cell}"\n')
+    p = parse(f'T [K],Cp [J/(mol*K)]\n200,"{cell}"\n300,29.2\n')
     assert [c for c, *_ in codes(p)] == ["CELL-NOT-NUMBER"]
+
+
+@pytest.mark.parametrize("cell", ["29,1", "1,234"])
+def test_a_comma_in_a_number_of_a_comma_delimited_file_is_refused(cell):
+    p = parse(f'T [K],Cp [J/(mol*K)]\n200,"{cell}"\n300,29.2\n')
+    assert codes(p) == [("CELL-AMBIGUOUS", 2, "Cp")]
+    assert list(p.data["line"]) == [3]
 
 
 def test_missing_cp_column():
@@ -96,10 +103,17 @@ def test_empty_and_headers_only(text, code):
     assert code in [c for c, *_ in codes(parse(text))]
 
 
-def test_bad_encoding_names_line():
-    text, found = csvtable.decode(b"T [K],Cp [J/(mol*K)]\n300,29\n\xff\xfe,1\n", "x.csv")
+def test_bytes_that_are_text_in_no_encoding_name_their_line():
+    # 0x81 is undefined in Windows-1252 and a control code in Latin-1: not text
+    text, found = csvtable.decode(b"T [K],Cp [J/(mol*K)]\n300,29\n\xff\x81,1\n", "x.csv")
     assert text is None
     assert (found[0].code, found[0].line) == ("TAB-ENCODING", 3)
+
+
+def test_latin1_text_is_read_with_an_info_finding():
+    text, found = csvtable.decode("T [°C],Cp [J/(mol*K)]\n25,29.1\n".encode("latin-1"), "x.csv")
+    assert text.startswith("T [°C]")
+    assert [(f.code, f.severity, f.line) for f in found] == [("TAB-LEGACY-ENCODING", "info", 1)]
 
 
 @settings(max_examples=300, deadline=None)

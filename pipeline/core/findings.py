@@ -43,8 +43,10 @@ _CODES = [
          "add the file or remove its entry"),
     Code("TAB-UNLISTED", WARNING, "a CSV file in a source folder is not listed in source.json",
          "list it under tables or move it out of raw/"),
-    Code("TAB-ENCODING", ERROR, "the table is not valid UTF-8 text",
+    Code("TAB-ENCODING", ERROR, "the table is text in none of UTF-8, Windows-1252 or Latin-1",
          "save the table as UTF-8"),
+    Code("TAB-LEGACY-ENCODING", INFO, "the table is not UTF-8 and was read as Windows-1252 "
+         "(Latin-1 text reads the same)", "save the table as UTF-8 to be sure of ° and µ"),
     Code("TAB-SYNTAX", ERROR, "the file cannot be split into CSV rows",
          "save the table as plain comma-separated text"),
     Code("SRC-NO-METADATA", WARNING, "a folder under raw/ has no source.json; skipped",
@@ -64,10 +66,15 @@ _CODES = [
     Code("STAGE-FAILED", ERROR, "an unexpected failure while processing this table; the table "
          "is held back and the build goes on", "report the message to the maintainers"),
     # --- header and cells
-    Code("COL-NO-UNIT", ERROR, "a column name has no [unit]",
-         "write the unit in brackets, e.g. 'Cp [J/(mol*K)]'"),
-    Code("COL-UNKNOWN", WARNING, "a column name is not one of T, Cp, H-H298, S, u(Cp); ignored",
-         "rename the column or remove it"),
+    Code("COL-NO-UNIT", ERROR, "a column name has no unit",
+         "write the unit, e.g. 'Cp [J/(mol*K)]' or 'Cp/(J K-1 mol-1)', or add a units row"),
+    Code("COL-UNKNOWN", WARNING, "a column name is not one of T, Cp, H-H298, S, u(Cp), "
+         "u(H-H298), u(S); ignored",
+         "rename the column, or map it in the table's 'columns' entry of source.json"),
+    Code("COL-UNIT-CONFLICT", ERROR, "a column's own unit and the units row under it differ",
+         "keep one of the two units"),
+    Code("COL-MAP-UNUSED", ERROR, "the 'columns' mapping of source.json names a header cell the "
+         "table does not have", "write the header cell exactly as the file has it"),
     Code("COL-REPEATED", ERROR, "a column appears twice", "keep one column of each quantity"),
     Code("COL-REQUIRED", ERROR, "a required column (T or Cp) is missing",
          "add the column with its unit"),
@@ -84,6 +91,12 @@ _CODES = [
     Code("CELL-NOT-NUMBER", ERROR, "a cell is not a finite decimal number",
          "write a plain finite number"),
     Code("CELL-EMPTY", ERROR, "a required cell is empty", "fill in the value or remove the row"),
+    Code("CELL-AMBIGUOUS", ERROR, "a number with a comma in a comma-delimited file (1,234: "
+         "decimal comma or thousands separator?)", "write a point as the decimal mark"),
+    Code("TAB-DECIMAL-MIXED", ERROR, "the numbers of the file use both the point and the comma "
+         "as decimal mark; not read", "use one decimal mark throughout"),
+    Code("TAB-NO-ROWS", ERROR, "no data row could be read; the finding names the cause",
+         "see the message: usually the delimiter, the decimal mark or the header"),
     Code("UCP-PARTIAL", ERROR, "u(Cp) is given for some rows but not all",
          "give u(Cp) on every row or on none"),
     # --- structure of the clean table
@@ -168,6 +181,11 @@ _CODES = [
 
 CODES: dict[str, Code] = {c.code: c for c in _CODES}
 
+#: codes about reading the input (files, layout, units, cells): the root causes that later
+#: findings of the same table (too few points, ...) follow from, so they are shown first
+READING_PREFIXES = ("SRC-", "TAB-", "COL-", "ROW-", "CELL-", "UNIT-UNKNOWN", "UNIT-DIMENSION",
+                    "UNIT-TOO-COMPLEX", "VALUE-RANGE", "UCP-PARTIAL")
+
 
 @dataclass(frozen=True)
 class Finding:
@@ -192,8 +210,10 @@ class Finding:
     extra: dict = field(default_factory=dict, compare=False)
 
     def sort_key(self):
-        """Sort order of findings: source, file, line, severity, code, column, message."""
-        return (self.source, self.file, self.line if self.line is not None else -1,
+        """Sort order of findings: source, file, problems of reading the input before what
+        follows from them (the root cause first), line, severity, code, column, message."""
+        return (self.source, self.file, not self.code.startswith(READING_PREFIXES),
+                self.line if self.line is not None else -1,
                 SEVERITY_ORDER[self.severity], self.code, self.column, self.message)
 
     def to_dict(self) -> dict:

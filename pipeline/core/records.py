@@ -78,6 +78,7 @@ class TableMeta:
     acknowledgements: tuple = ()  # ({'code', 'line', 'reason'} dicts, index in source.json)
     index: int = 0         # position of the table in source.json 'tables'
     fit_overrides: tuple = ()  # ((setting, value), ...) from the table's "fit" entry
+    reading: dict = field(default_factory=dict, compare=False, hash=False)  # how it was read
 
     @property
     def species_id(self) -> str:

@@ -71,16 +71,42 @@ def is_plain_number(text: str) -> bool:
     return bool(_NUMBER.match(text))
 
 
+#: how papers and spreadsheets write products and powers, and what pint reads instead
+_PRODUCT = str.maketrans({"·": " ", "⋅": " ", "•": " ", "−": "-", "°": "deg"})
+_SUPERSCRIPTS = str.maketrans("⁰¹²³⁴⁵⁶⁷⁸⁹⁻⁺", "0123456789-+")
+_SUPERSCRIPT_RUN = re.compile(r"[⁻⁺]?[⁰¹²³⁴⁵⁶⁷⁸⁹]+")
+#: an integer written straight after a unit symbol (K-1, mol-1, cm3) is its exponent
+_BARE_POWER = re.compile(r"(?<=[A-Za-z)])([+-]?[0-9]+)(?=$|[\s*/)])")
+
+
+def normalise(text: str) -> str:
+    """Unit text as papers write it, rewritten for pint: ``J·K⁻¹·mol⁻¹`` and ``J K-1 mol-1``
+    become ``J K**-1 mol**-1``, ``°C`` becomes ``degC``; a product by juxtaposition (a space)
+    is pint's own. Nothing else is changed, so a unit pint cannot read still fails."""
+    text = _SUPERSCRIPT_RUN.sub(lambda m: "**" + m.group().translate(_SUPERSCRIPTS),
+                                text.translate(_PRODUCT))
+    return _BARE_POWER.sub(r"**\1", text).strip()
+
+
 @lru_cache(maxsize=512)
 def _parse_unit(text: str):
     check_complexity(text)
     ureg = registry()
     try:
-        unit = ureg.parse_units(text.replace("°", "deg"))
+        unit = ureg.parse_units(normalise(text))
     except Exception as exc:  # pint raises many types for malformed text
         raise UnitError(f"unit '{text}' cannot be read ({type(exc).__name__})",
                         expected="a unit such as K, degC, J/(mol*K), cal/(mol*K), kJ/mol") from None
     return unit
+
+
+def is_unit(text: str) -> bool:
+    """True when pint reads ``text`` (after ``normalise``) as a unit of any dimension."""
+    try:
+        _parse_unit(text)
+    except UnitError:
+        return False
+    return True
 
 
 def _dimension_of(unit, kind: str, text: str) -> str:
@@ -92,6 +118,8 @@ def _dimension_of(unit, kind: str, text: str) -> str:
     if mass is not None and q.check(mass):
         return "mass"
     expected = molar if mass is None else f"{molar} or {mass}"
+    if re.search(r"/\s*[A-Za-z_]+\s+[A-Za-z(]", text):
+        expected += "; 'J/mol K' reads as (J/mol)*K: write J/(mol K)"
     raise UnitError(f"unit '{text}' has dimension {q.dimensionality}, not that of {kind}",
                     expected=expected)
 

@@ -1,19 +1,18 @@
 """Read and parse one heat-capacity CSV table (raw text -> clean SI table).
 
-Format (our own): one header row whose cells are ``name [unit]``; known names
-are ``T``, ``Cp``, ``H-H298``, ``S`` and their standard uncertainties ``u(Cp)``,
-``u(H-H298)``, ``u(S)``. ``T`` and ``Cp`` are
-required. Every data cell is a plain decimal number; empty cells are allowed
-in the optional columns only. Parsing never raises on bad input: it returns the
-rows it could read and a finding for each problem.
+Format (our own, read tolerantly): a header row naming the quantities ``T``, ``Cp``,
+``H-H298``, ``S`` and their standard uncertainties ``u(Cp)``, ``u(H-H298)``, ``u(S)``, each
+with its unit (``header.py``: bracket, ``Q/unit`` and ``Q (unit)`` styles, or a units row),
+then rows of plain decimal numbers; comma, semicolon or tab between cells, a decimal comma
+where the delimiter is not a comma, ``#`` comment lines (``dialect.py``). ``T`` and ``Cp``
+are required; empty (or dash) cells are allowed in the optional columns only. Parsing never
+raises on bad input: it returns the rows it could read, how it read them, and a finding for
+each problem — or one finding naming the cause when no row could be read.
 """
 
 import csv
-import io
-import itertools
 import math
-import re
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
@@ -24,32 +23,30 @@ from ..core.findings import Finding, clip, finding
 from ..core.limits import MAX_COLUMNS, MAX_ROWS, PHYSICAL_RANGE
 from ..core.records import DATA_COLUMNS
 from ..physics import statmech
+from . import dialect as dialects
+from .header import COLUMNS, layout, looks_like_units_row
 
 #: per-row findings of one code listed one by one before the rest are summed up in one
 MAX_ROW_FINDINGS = 20
 
-#: raw column name -> (internal column, unit kind, required)
-COLUMNS = {
-    "T": ("T", "temperature", True),
-    "Cp": ("Cp", "heat_capacity", True),
-    "H-H298": ("dH", "enthalpy", False),
-    "S": ("S", "heat_capacity", False),
-    "u(Cp)": ("u_Cp", "heat_capacity", False),
-    "u(H-H298)": ("u_dH", "enthalpy", False),
-    "u(S)": ("u_S", "heat_capacity", False),
-}
+#: what an optional cell may hold to say "no value"
+EMPTY_MARKS = ("", "-", "–", "—")
 
-_HEADER = re.compile(r"^\s*(?P<name>[^\[\]]*?)\s*\[(?P<unit>[^\[\]]*)\]\s*$")
+#: findings about single rows; when no row at all can be read they give way to one
+#: finding naming the cause
+ROW_CODES = ("ROW-WIDTH", "CELL-NOT-NUMBER", "CELL-EMPTY", "CELL-AMBIGUOUS")
 
 
 @dataclass(frozen=True)
 class ParsedTable:
-    """One CSV table parsed into SI: rows, header as written, conversion notes, findings."""
+    """One CSV table parsed into SI: rows, header as written, conversion notes, findings,
+    and how the file was read (``reading``, recorded in the provenance)."""
 
     data: pd.DataFrame        # columns DATA_COLUMNS, SI units
     columns: tuple            # header cells as written
     notes: tuple              # conversions and assumptions
     findings: tuple
+    reading: dict = field(default_factory=dict)
 
 
 def empty_frame() -> pd.DataFrame:
@@ -59,55 +56,47 @@ def empty_frame() -> pd.DataFrame:
                          for c in DATA_COLUMNS})
 
 
-def parse_number(cell: str) -> float | None:
-    """A finite float from a plain decimal literal, else None (no 'nan', 'inf', '1_0', '0x1')."""
+def parse_number(cell: str, mark: str = ".") -> float | None:
+    """A finite float from a plain decimal literal (with ``mark`` as its decimal mark), else
+    None (no 'nan', 'inf', '1_0', '0x1', no thousands separators)."""
     text = cell.strip()
+    if mark == ",":
+        if "." in text:
+            return None
+        text = text.replace(",", ".", 1)
     if not units.is_plain_number(text):
         return None
     value = float(text)
     return value if math.isfinite(value) else None
 
 
-def decode(raw: bytes, file: str) -> tuple[str | None, list[Finding]]:
-    """Decode raw bytes as UTF-8 (a BOM is allowed); name the line of the first bad byte."""
-    try:
-        return raw.decode("utf-8-sig"), []
-    except UnicodeDecodeError as exc:
-        line = raw[: exc.start].count(b"\n") + 1
-        return None, [finding("TAB-ENCODING", f"byte 0x{raw[exc.start]:02x} at offset {exc.start} "
-                              "is not UTF-8", file=file, line=line, expected="UTF-8 text")]
+def decode(raw: bytes, file: str):
+    """(text or None, findings) of raw bytes; see dialect.decode for the encodings read."""
+    text, _, problems = dialects.decode(raw, file)
+    return text, problems
 
 
-def _read_header(cells, file):
-    """Map header cells to (internal column, unit, kind) by position; findings for bad cells."""
-    found, problems, seen = {}, [], set()
-    for pos, cell in enumerate(cells):
-        m = _HEADER.match(cell)
-        if not m:
-            problems.append(finding("COL-NO-UNIT", f"column '{cell.strip()}' has no [unit]",
-                                    file=file, line=1, column=cell.strip(),
-                                    expected="name [unit], e.g. 'Cp [J/(mol*K)]'"))
+def _refused(finding_, reading=None):
+    return ParsedTable(empty_frame(), (), (), (finding_,), dict(reading or {}))
+
+
+def _records(lines, numbers, delimiter):
+    """[(line number, cells)] of the content lines; a trailing delimiter is dropped."""
+    reader = csv.reader(lines, delimiter=delimiter, strict=True)
+    out = []
+    for cells in reader:
+        if not any(c.strip() for c in cells):
             continue
-        name, unit = m.group("name"), m.group("unit").strip()
-        if name not in COLUMNS:
-            problems.append(finding("COL-UNKNOWN", f"column '{name}' is not a known quantity; "
-                                    "its values are ignored", file=file, line=1, column=name,
-                                    seen=cell.strip(),
-                                    expected=", ".join(COLUMNS)))
-            continue
-        if name in seen:
-            problems.append(finding("COL-REPEATED", f"column '{name}' appears more than once",
-                                    file=file, line=1, column=name))
-            continue
-        seen.add(name)
-        internal, kind, _ = COLUMNS[name]
-        found[pos] = (name, internal, unit, kind)
-    return found, problems
+        out.append((numbers[reader.line_num - 1], [c.strip() for c in cells]))
+        if len(out) > MAX_ROWS + 1:                # never more than the limit
+            break
+    return out
 
 
 def parse_table(text: str, *, file: str, molar_mass: float | None = None,
                 standard_pressure: float = constants.STANDARD_PRESSURE,
-                phase: str = "g") -> ParsedTable:
+                phase: str = "g", columns: dict | None = None,
+                encoding: str = "utf-8") -> ParsedTable:
     """Parse CSV ``text`` into a clean table in SI units.
 
     Parameters
@@ -117,6 +106,8 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
     molar_mass : float [g/mol], for mass-based units
     standard_pressure : float [Pa], the pressure the S column refers to
     phase : str, 'g' for an ideal gas (its S column is moved to 1 bar)
+    columns : the table's ``columns`` mapping of source.json (header cell -> quantity, unit)
+    encoding : how the bytes were decoded (recorded in ``reading``)
 
     Notes
     -----
@@ -129,101 +120,91 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
     notes: list[str] = []
     if "\0" in text:
         line = text[: text.index("\0")].count("\n") + 1
-        return ParsedTable(empty_frame(), (), (), (finding(
-            "TAB-SYNTAX", "the file contains NUL characters (a binary file?)", file=file,
-            line=line, expected="plain comma-separated text"),))
+        return _refused(finding("TAB-SYNTAX", "the file contains NUL characters (a binary file?)",
+                                file=file, line=line, expected="plain comma-separated text"))
+    lines, numbers, comments = dialects.content_lines(text)
+    delimiter = dialects.sniff_delimiter(lines)
+    reading = dialects.Dialect(encoding, delimiter, ".", comments)
     try:
-        rows = list(itertools.islice(_rows(text), MAX_ROWS + 2))  # never more than the limit
+        rows = _records(lines[: MAX_ROWS + 3], numbers, delimiter)
     except csv.Error as exc:
-        return ParsedTable(empty_frame(), (), (), (finding(
-            "TAB-SYNTAX", f"the CSV cannot be split into rows ({exc})", file=file),))
+        return _refused(finding("TAB-SYNTAX", f"the CSV cannot be split into rows ({exc})",
+                                file=file), reading.to_dict())
     if not rows:
-        return ParsedTable(empty_frame(), (), (), (finding("TAB-EMPTY", "the file is empty", file=file,
-                                                   expected="a header row and data rows"),))
+        return _refused(finding("TAB-EMPTY", "the file is empty", file=file,
+                                expected="a header row and data rows"), reading.to_dict())
     header_line, header = rows[0]
+    while header and not header[-1]:                # a trailing delimiter
+        header = header[:-1]
+    units_row = None
+    if len(rows) > 1 and looks_like_units_row(rows[1][1], lambda c: parse_number(c) is not None
+                                              or parse_number(c, ",") is not None):
+        units_row = rows[1][1]
+        rows = [rows[0]] + rows[2:]
     if len(header) > MAX_COLUMNS or len(rows) - 1 > MAX_ROWS:
-        return ParsedTable(empty_frame(), (), (), (finding(
+        return _refused(finding(
             "TAB-TOO-LARGE", f"{len(header)} columns and {len(rows) - 1}"
             f"{'+' if len(rows) > MAX_ROWS + 1 else ''} data rows; the limit is "
             f"{MAX_COLUMNS} columns and {MAX_ROWS} rows", file=file,
             seen=f"{len(header)} columns, {len(rows) - 1} rows",
-            expected=f"<= {MAX_COLUMNS} columns, <= {MAX_ROWS} rows"),))
-    layout, problems = _read_header(header, file)
+            expected=f"<= {MAX_COLUMNS} columns, <= {MAX_ROWS} rows"), reading.to_dict())
+    cols, problems = layout(header, units_row, columns, file, header_line)
     findings += problems
-    names = {v[0] for v in layout.values()}
-    for name, (_, _, required) in COLUMNS.items():
-        if required and name not in names:
-            findings.append(finding("COL-REQUIRED", f"required column '{name}' is missing",
-                                    file=file, line=header_line, column=name,
-                                    seen=", ".join(c.strip() for c in header) or "(none)",
-                                    expected=f"a column '{name} [unit]'"))
-    # units: check each column's unit before reading cells
-    usable = {}
-    for pos, (name, internal, unit, kind) in layout.items():
+    numeric = [(line, c.header, cells[c.position]) for line, cells in rows[1:] for c in cols
+               if c.position < len(cells)]
+    mark, mixed = dialects.decimal_mark(numeric, delimiter, file)
+    if mark is None:
+        return _refused(mixed[0], reading.to_dict())
+    reading = dialects.Dialect(encoding, delimiter, mark, comments)
+    usable = []
+    for col in cols:
+        kind = COLUMNS[col.quantity][1]
         try:
-            basis = units.check_unit(unit, kind)
+            basis = units.check_unit(col.unit, kind)
             if basis == "mass" and molar_mass is None:
-                raise UnitError(f"unit '{unit}' is per mass but the formula gave no molar mass")
+                raise UnitError(f"unit '{col.unit}' is per mass but the formula gave no molar mass")
         except UnitError as exc:
             code = getattr(exc, "code", None) or (
                 "UNIT-UNKNOWN" if "cannot be read" in exc.what else "UNIT-DIMENSION")
-            findings.append(finding(code, exc.what, file=file, line=header_line, column=name,
-                                    seen=unit, expected=exc.expected or kind))
+            findings.append(finding(code, exc.what, file=file, line=header_line,
+                                    column=col.quantity, seen=clip(col.unit, 40),
+                                    expected=exc.expected or kind))
             continue
-        usable[pos] = (name, internal, unit, kind, basis)
+        usable.append((col, basis))
+    record = {**reading.to_dict(), "header_line": header_line,
+              "units_row": header_line + 1 if units_row is not None else None,
+              "columns": [c.to_dict() for c in cols]}
+    notes += [f"column '{c.header}' read as {c.quantity} [{c.unit}] by the columns mapping of "
+              "source.json" for c in cols if c.origin == "mapping"]
     if len(rows) == 1:
         findings.append(finding("TAB-EMPTY", "the table has a header but no data rows",
                                 file=file, line=header_line, expected="data rows"))
-    values = {pos: [] for pos in usable}
-    lines = []
-    for line, cells in rows[1:]:
-        if len(cells) != len(header):
-            findings.append(finding("ROW-WIDTH", f"row has {len(cells)} cells, header has "
-                                    f"{len(header)}", file=file, line=line,
-                                    seen=str(len(cells)), expected=str(len(header))))
-            continue
-        parsed, ok = {}, True
-        for pos, (name, internal, unit, kind, basis) in usable.items():
-            cell = cells[pos]
-            required = COLUMNS[name][2]
-            if not cell.strip():
-                if required:
-                    findings.append(finding("CELL-EMPTY", f"empty {name} cell", file=file,
-                                            line=line, column=name, expected="a number"))
-                    ok = False
-                parsed[pos] = math.nan
-                continue
-            number = parse_number(cell)
-            if number is None:
-                findings.append(finding("CELL-NOT-NUMBER", f"'{clip(cell, 40)}' is not a finite "
-                                        "decimal number", file=file, line=line, column=name,
-                                        seen=clip(cell, 40), expected="a finite decimal number"))
-                ok = False
-                continue
-            parsed[pos] = number
-        if ok:
-            lines.append(line)
-            for pos in usable:
-                values[pos].append(parsed[pos])
-    frame = {c: np.full(len(lines), np.nan) for c in DATA_COLUMNS if c != "line"}
-    frame["line"] = np.asarray(lines, dtype="int64")
-    keep = np.ones(len(lines), dtype=bool)
-    for pos, (name, internal, unit, kind, basis) in usable.items():
-        frame[internal] = units.to_si(values[pos], unit, kind, molar_mass)
+    values, lines_read, row_problems = _read_rows(rows[1:], len(header), usable, mark,
+                                                  delimiter, file)
+    if not lines_read and len(row_problems) > 1:
+        row_problems = [_root_cause(row_problems, len(rows) - 1, len(header), delimiter, file)]
+    findings += row_problems
+    frame = {c: np.full(len(lines_read), np.nan) for c in DATA_COLUMNS if c != "line"}
+    frame["line"] = np.asarray(lines_read, dtype="int64")
+    keep = np.ones(len(lines_read), dtype=bool)
+    for k, (col, basis) in enumerate(usable):
+        name, unit = col.quantity, col.unit
+        internal, kind, _ = COLUMNS[name]
+        frame[internal] = units.to_si(values[k], unit, kind, molar_mass)
         notes += _conversion_notes(name, unit, kind, basis, molar_mass)
         bad = _out_of_range(frame[internal], internal)
         for i in np.flatnonzero(bad):
             lo, hi = PHYSICAL_RANGE[internal]
             findings.append(finding(
-                "VALUE-RANGE", f"{name} = {values[pos][i]:.6g} [{unit}] is "
+                "VALUE-RANGE", f"{name} = {values[k][i]:.6g} [{unit}] is "
                 f"{frame[internal][i]:.6g} {units.KINDS[kind][2]} in SI, outside the physical "
-                "range of the column; the row is left out", file=file, line=int(lines[i]),
-                column=name, seen=f"{values[pos][i]:.6g}",
+                "range of the column; the row is left out", file=file, line=int(lines_read[i]),
+                column=name, seen=f"{values[k][i]:.6g}",
                 expected=f"{lo:g} to {hi:g} {units.KINDS[kind][2]}"))
         keep &= ~bad
     frame = {c: v[keep] for c, v in frame.items()}
     data = pd.DataFrame({c: frame[c] for c in DATA_COLUMNS})
-    if "u_Cp" in {v[1] for v in usable.values()} and len(data):
+    if any(c.quantity == "u(Cp)" for c, _ in usable) and len(data):
         given = data["u_Cp"].notna()
         if given.any() and not given.all():
             first = int(data.loc[~given, "line"].iloc[0])
@@ -234,7 +215,82 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
         shift = statmech.entropy_shift_to_standard(standard_pressure)
         data["S"] = data["S"] + shift
         notes.append(f"S moved from {standard_pressure:g} Pa to 1 bar: {shift:+.4f} J/(mol*K)")
-    return ParsedTable(data, tuple(header), tuple(notes), tuple(_summarise(findings)))
+    return ParsedTable(data, tuple(header), tuple(notes), tuple(_summarise(findings)), record)
+
+
+def _read_rows(rows, width, usable, mark, delimiter, file):
+    """(values per usable column, lines read, findings) of the data rows."""
+    values = [[] for _ in usable]
+    lines, problems = [], []
+    for line, cells in rows:
+        if len(cells) > width and not any(cells[width:]):
+            cells = cells[:width]                       # a trailing delimiter
+        if len(cells) != width:
+            problems.append(finding("ROW-WIDTH", f"row has {len(cells)} cells, header has "
+                                    f"{width}", file=file, line=line, seen=str(len(cells)),
+                                    expected=str(width), extra={"cells": cells}))
+            continue
+        parsed, ok = [], True
+        for col, _ in usable:
+            cell = cells[col.position]
+            required = COLUMNS[col.quantity][2]
+            if cell in EMPTY_MARKS:
+                if required:
+                    problems.append(finding("CELL-EMPTY", f"empty {col.quantity} cell", file=file,
+                                            line=line, column=col.quantity, seen=cell,
+                                            expected="a number"))
+                    ok = False
+                parsed.append(math.nan)
+                continue
+            number = parse_number(cell, mark)
+            if number is None:
+                problems.append(_not_a_number(cell, col.quantity, delimiter, file, line))
+                ok = False
+                continue
+            parsed.append(number)
+        if ok:
+            lines.append(line)
+            for k, v in enumerate(parsed):
+                values[k].append(v)
+    return values, lines, problems
+
+
+def _not_a_number(cell, column, delimiter, file, line):
+    if dialects.ambiguous_comma(cell, delimiter):
+        return finding("CELL-AMBIGUOUS", f"'{clip(cell, 40)}' has a comma in a comma-delimited "
+                       "file: a decimal comma and a thousands separator cannot be told apart",
+                       file=file, line=line, column=column, seen=clip(cell, 40),
+                       expected="a point as the decimal mark, or ';' between cells")
+    return finding("CELL-NOT-NUMBER", f"'{clip(cell, 40)}' is not a finite decimal number",
+                   file=file, line=line, column=column, seen=clip(cell, 40),
+                   expected="a finite decimal number")
+
+
+def _root_cause(problems, n_rows, width, delimiter, file):
+    """One finding for a table none of whose rows could be read, naming the likely cause."""
+    by_code = {}
+    for f in problems:
+        by_code.setdefault(f.code, []).append(f)
+    code, group = max(by_code.items(), key=lambda kv: (len(kv[1]), kv[0]))
+    first = group[0]
+    lines = tuple(sorted({f.line for f in problems}))
+    if code == "ROW-WIDTH":
+        widths = sorted({len(f.extra["cells"]) for f in group})
+        cause = (f"rows have {'/'.join(map(str, widths))} cells where the header has {width}")
+        commas = delimiter == "," and widths[0] > width and all(
+            any(dialects.ambiguous_comma(a + "," + b, ",") for a, b in
+                zip(f.extra["cells"], f.extra["cells"][1:])) for f in group)
+        hint = ("the numbers look written with a decimal comma in a comma-delimited file: "
+                "write them with a point, or put ';' between cells") if commas else \
+            ("check the delimiter and the header: the file was read as "
+             f"{dialects.DELIMITERS[delimiter]}-delimited")
+    else:
+        columns = sorted({f.column for f in group})
+        cause = f"{first.message} (column {', '.join(columns)})"
+        hint = first.expected
+    return finding("TAB-NO-ROWS", f"none of the {n_rows} data row(s) could be read: {cause}; "
+                   f"first at line {first.line}", file=file, line=first.line,
+                   column=first.column, lines=lines, seen=first.seen, expected=hint)
 
 
 def _out_of_range(values: np.ndarray, column: str) -> np.ndarray:
@@ -266,21 +322,11 @@ def _summarise(findings):
     return out
 
 
-def _rows(text: str):
-    """Yield (line number, cells) for non-blank CSV records; line numbers count from 1."""
-    reader = csv.reader(io.StringIO(text, newline=""), strict=True)
-    for cells in reader:
-        if not cells or all(not c.strip() for c in cells):
-            continue
-        yield reader.line_num, [c.strip() for c in cells]
-
-
-
-
 def _conversion_notes(name, unit, kind, basis, molar_mass):
     out = []
     si = units.KINDS[kind][2]
-    if unit.replace(" ", "") != si:
+    if units.to_si([0.0, 1.0], unit, kind, molar_mass or 1.0).tolist() != [0.0, 1.0] or \
+            basis == "mass":
         out.append(f"{name} converted from [{unit}] to [{si}]")
     if units.names_bare_calorie(unit):
         out.append(f"{name}: 'cal' read as the thermochemical calorie (4.184 J)")

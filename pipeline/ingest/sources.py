@@ -16,7 +16,7 @@ from ..core.limits import ANCHOR_RANGE, MAX_SOURCE_BYTES, MAX_TABLE_BYTES, MAX_T
 from ..core.names import sha256
 from ..core.records import InputFile, SourceMeta, Table, TableMeta
 from ..physics import statmech
-from . import csvtable
+from . import csvtable, dialect
 
 
 @dataclass(frozen=True)
@@ -161,7 +161,7 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
         s298 += shift   # the pressure is > 0: checked against ANCHOR_RANGE when read
         notes.append(f"entropy_298 moved from {source.standard_pressure:g} Pa to 1 bar: "
                      f"{shift:+.4f} J/(mol*K)")
-    text, enc = csvtable.decode(raw, rel)
+    text, encoding, enc = dialect.decode(raw, rel)
     problems += [f.located(source=source.id) for f in enc]
     molar_mass = comp.molar_mass if comp else None
     if text is None:
@@ -169,7 +169,8 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
     else:
         parsed = csvtable.parse_table(text, file=rel, molar_mass=molar_mass,
                                       standard_pressure=source.standard_pressure,
-                                      phase=entry["phase"])
+                                      phase=entry["phase"], columns=entry.get("columns"),
+                                      encoding=encoding)
         problems += [f.located(source=source.id) for f in parsed.findings]
     meta = TableMeta(source=source, file=rel, species=entry["species"], formula=entry["formula"],
                      phase=entry["phase"], geometry=entry.get("geometry"),
@@ -182,7 +183,8 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
                      index=index,
                      fit_overrides=tuple(sorted(
                          (k, tuple(v) if isinstance(v, list) and k != "breakpoints" else v)
-                         for k, v in entry.get("fit", {}).items())))
+                         for k, v in entry.get("fit", {}).items())),
+                     reading=parsed.reading if parsed else {"encoding": encoding or None})
     data = parsed.data if parsed else csvtable.empty_frame()
     return Table(meta=meta, data=data), infile, problems
 

@@ -111,7 +111,8 @@ def _source_ref(use) -> dict:
     meta = use.meta
     return {"source": meta.source.id, "file": meta.file, "sha256": meta.sha256,
             "used": use.rows > 0, "rows": use.rows, "t_min": use.t_min, "t_max": use.t_max,
-            "priority": meta.source.priority, "citation": meta.source.citation}
+            "priority": meta.source.priority, "citation": meta.source.citation,
+            "reading": dict(meta.reading)}
 
 
 def library_document(fitted, quarantined, inputs_sha256: str, settings: dict,

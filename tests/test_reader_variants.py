@@ -148,7 +148,7 @@ def test_decimal_commas_in_a_comma_file_get_one_finding_naming_the_cause():
     p = read(text.encode())
     (f,) = p.findings
     assert f.code == "TAB-NO-ROWS" and len(f.lines) == len(T) - 3
-    assert "decimal comma in a comma-delimited file" in f.expected
+    assert "decimal comma in a comma-delimited file" in f.message
 
 
 def test_a_units_row_that_disagrees_with_the_header_is_refused():
@@ -219,3 +219,62 @@ def test_variants_build_into_one_library_that_records_how_each_file_was_read(tmp
     assert reading["paper"]["delimiter"] == "tab"
     assert [c["from"] for c in reading["mapped"]["columns"]] == \
         ["mapping", "header", "mapping", "header"]
+
+
+ROWS = [(200.0, 29.1075), (298.15, 29.1253), (400.0, 29.2497)]
+
+
+def _rows(delimiter=",", mark=".", end=""):
+    return "".join(delimiter.join(f"{v!r}".replace(".", mark) for v in row) + end + "\n"
+                   for row in ROWS)
+
+
+#: the layouts a new user's spreadsheets and papers produced that the reader once refused
+REFUSED_BEFORE = {
+    "semicolon, decimal comma": "T [K];Cp [J/(mol*K)]\n" + _rows(";", ","),
+    "semicolon, decimal point": "T [K];Cp [J/(mol*K)]\n" + _rows(";"),
+    "tab-separated": "T [K]\tCp [J/(mol*K)]\n" + _rows("\t"),
+    "comment lines above the header": "# lab X\n# run 7\nT [K],Cp [J/(mol*K)]\n" + _rows(),
+    "units row": "T,Cp\nK,J/(mol*K)\n" + _rows(),
+    "units row in parentheses": "T,Cp\n(K),(J/(mol*K))\n" + _rows(),
+    "T/K, Cp/(J K-1 mol-1)": "T/K,Cp/(J K-1 mol-1)\n" + _rows(),
+    "T / K, Cp / J·K⁻¹·mol⁻¹": "T / K,Cp / J·K⁻¹·mol⁻¹\n" + _rows(),
+    "Cp [J mol-1 K-1]": "T [K],Cp [J mol-1 K-1]\n" + _rows(),
+    "a dash in an optional cell": "T [K],Cp [J/(mol*K)],S [J/(mol*K)]\n"
+    + "".join(f"{t!r},{c!r},-\n" for t, c in ROWS),
+    "a trailing delimiter": "T [K],Cp [J/(mol*K)],\n" + _rows(end=","),
+    "lower-case t and cp": "t [K],cp [J/(mol*K)]\n" + _rows(),
+}
+
+
+@pytest.mark.parametrize("name", list(REFUSED_BEFORE))
+def test_layouts_once_refused_now_read_to_the_plain_table(name):
+    plain = read(("T [K],Cp [J/(mol*K)]\n" + _rows()).encode())
+    got = read(REFUSED_BEFORE[name].encode())
+    assert got.findings == () and len(got.data) == 3
+    assert_same_table(got, plain)
+
+
+def test_latin1_text_reads_to_the_plain_table_with_an_info_finding():
+    text = "# messung bei 21 °C\nT [K],Cp [J/(mol*K)]\n" + _rows()
+    raw = text.encode("latin-1")
+    decoded, encoding, found = dialect.decode(raw, "x.csv")
+    assert [f.code for f in found] == ["TAB-LEGACY-ENCODING"] and encoding == "cp1252"
+    assert_same_table(read(raw), read(("T [K],Cp [J/(mol*K)]\n" + _rows()).encode()))
+
+
+def test_the_build_summary_and_the_report_show_the_root_cause_first(tmp_path, capsys):
+    raw = tmp_path / "raw"
+    commas = "T [K],Cp [J/(mol*K)]\n" + "".join(f"{t:.2f},{c:.4f}\n".replace(".", ",")
+                                                   for t, c in zip(T, CP))
+    write_source(raw, "lab", [dict(table_entry("n2.csv", "N2", "N2", "linear",
+                                               s="191.609 J/(mol*K)"),
+                                   header=[], rows=[], text=commas)])
+    code, out, err = run_cli(capsys, "build", "--raw", raw, "--out", tmp_path / "cur")
+    (line,) = [x for x in out.splitlines() if "QUARANTINED" in x]
+    assert "TAB-NO-ROWS" in line and "none of the 13 data row(s)" in line
+    assert "decimal comma in a comma-delimited file" in line
+    report = (tmp_path / "cur" / "report" / "index.html").read_text()
+    row = report[report.index("n2.csv"):]
+    assert row[:row.index("</tr>")].count("TAB-NO-ROWS") == 1 and \
+        "TOO-FEW-POINTS" not in row[:row.index("</tr>")]

@@ -109,9 +109,11 @@ def check_gas_bounds(table, ctx):
     floor = bounds.TRANSLATION_CP * (1 - settings.equipartition_tolerance)
     low = cp < floor
     if low.any():
+        cv = ("; Cv + R clears it: does the column hold Cv (Cp = Cv + R)?"
+              if np.all(cp + R >= floor) else "")
         out.append(finding("CP-BELOW-EQUIPARTITION", f"{int(low.sum())} row(s) below 5/2 R = "
                            f"{bounds.TRANSLATION_CP:.4f} J/(mol*K), the translational minimum of "
-                           "any ideal gas", column="Cp", line=int(lines[low][0]),
+                           f"any ideal gas{cv}", column="Cp", line=int(lines[low][0]),
                            lines=tuple(int(x) for x in lines[low]),
                            seen=f"{cp[low].min():.6g}", expected=f">= {floor:.6g}",
                            **_where(table)))

@@ -62,15 +62,16 @@ def _curve(table):
     return d["T"].to_numpy(), d["Cp"].to_numpy()
 
 
-def compare(a, b):
-    """Compare two tables where they overlap.
+def compare(a, b, scale=(1.0, 0.0)):
+    """Compare two tables where they overlap, b's temperatures read as α T + β by ``scale``.
 
     Returns None without an overlap of at least two points each, else
     (largest |Cp_b/Cp_a − 1| [-], T where it is [K], median Cp_b/Cp_a [-], t_lo, t_hi).
     """
     ta, ca = _curve(a)
     tb, cb = _curve(b)
-    if len(ta) < 2 or len(tb) < 2:
+    tb = scale[0] * tb + scale[1]
+    if len(ta) < 2 or len(tb) < 2 or tb[0] <= 0:
         return None
     lo, hi = max(ta[0], tb[0]), min(ta[-1], tb[-1])
     grid = np.union1d(ta[(ta >= lo) & (ta <= hi)], tb[(tb >= lo) & (tb <= hi)])
@@ -81,6 +82,55 @@ def compare(a, b):
     rel = ib / ia - 1.0
     k = int(np.argmax(np.abs(rel)))
     return float(abs(rel[k])), float(grid[k]), float(np.median(ib / ia)), float(lo), float(hi)
+
+
+#: temperature-scale mix-ups: (what happened, fix, α, β) with the true T = α T_read + β [K]
+_C, _F = 273.15, 1.8
+T_SCALES = (
+    ("degrees Celsius under a kelvin label", "relabel the column T [degC]", 1.0, _C),
+    ("kelvin under a Celsius label", "relabel the column T [K]", 1.0, -_C),
+    ("degrees Fahrenheit under a Celsius label", "relabel the column T [degF]",
+     1 / _F, _C - (_C + 32.0) / _F),
+    ("degrees Celsius under a Fahrenheit label", "relabel the column T [degC]",
+     _F, _C + 32.0 - _F * _C),
+    ("degrees Fahrenheit under a kelvin label", "relabel the column T [degF]",
+     1 / _F, _C - 32.0 / _F),
+    ("kelvin under a Fahrenheit label", "relabel the column T [K]", _F, 32.0 - _F * _C),
+    ("degrees Rankine under a kelvin label", "relabel the column T [degR]", 1 / _F, 0.0),
+    ("kelvin under a Rankine label", "relabel the column T [K]", _F, 0.0),
+)
+#: defaults for how far two sources' anchors may differ when no uncertainty is stated
+#: (common practice): ΔfH° [J/mol] and S° [J/(mol K)]
+ANCHOR_TOLERANCE = {"enthalpy_of_formation_298": 1000.0, "entropy_298": 0.5}
+
+
+def temperature_scale(primary, other, tol):
+    """(what, fix, α, β, deviation) of the temperature-scale mix-up that makes ``other``
+    agree with ``primary`` within ``tol`` where as labelled it does not, or None."""
+    best = None
+    for what, fix, alpha, beta in T_SCALES:
+        got = compare(primary, other, (alpha, beta))
+        if got is not None and got[0] <= tol and (best is None or got[0] < best[4]):
+            best = (what, fix, alpha, beta, got[0])
+    return best
+
+
+def anchor_disagreements(sid, primary, other):
+    """SRC-ANCHOR-DISAGREE warnings: ``other``'s ΔfH° or S° at 298.15 K differs from the
+    preferred table's by more than ANCHOR_TOLERANCE."""
+    out = []
+    for key, label, unit, scale in (("enthalpy_of_formation_298", "ΔfH°(298.15 K)", "kJ/mol",
+                                     1e-3), ("entropy_298", "S°(298.15 K)", "J/(mol*K)", 1.0)):
+        a, b = getattr(primary.meta, key), getattr(other.meta, key)
+        if a is None or b is None or abs(a - b) <= ANCHOR_TOLERANCE[key]:
+            continue
+        out.append(finding("SRC-ANCHOR-DISAGREE", f"{sid}: {label} is {b * scale:.6g} {unit} "
+                           f"in {other.meta.source.id} but {a * scale:.6g} {unit} in "
+                           f"{primary.meta.source.id} (the preferred source, whose value is "
+                           "used)", source=other.meta.source.id, file=other.meta.file,
+                           column=key, seen=f"{b * scale:.6g}", expected=f"{a * scale:.6g} ± "
+                           f"{ANCHOR_TOLERANCE[key] * scale:g} {unit}"))
+    return out
 
 
 def _factor_of(ratio, molar_mass, tol):
@@ -147,7 +197,20 @@ def _select(sid, tables, about, ctx):
             notes.append(finding("SEL-TIE", f"{sid}: {primary.meta.source.id} and "
                                  f"{other.meta.source.id} have equal priority; "
                                  f"{primary.meta.source.id} is preferred", **where))
+        notes += anchor_disagreements(sid, primary, other)
         got = compare(primary, other)
+        scale = temperature_scale(primary, other, min(tol, got[0] / 3)) \
+            if got is not None and got[0] > tol else None
+        if scale:
+            what, fix, alpha, beta, dev = scale
+            err = finding("SRC-T-SCALE", f"{sid}: this table agrees with {primary.meta.file} "
+                          f"(within {100 * dev:.2f} %) only with its T read as {alpha:.6g} T "
+                          f"{beta:+.6g} K: {what} (or the reverse mix-up in the other table)",
+                          seen="T as labelled", expected=f"T = {alpha:.6g} T {beta:+.6g} K",
+                          fix=fix, **dict(where, column="T"))
+            new.append(err)
+            quarantined.append((other.meta, (err,)))
+            continue
         if got is None:
             keep.append(other)
             continue

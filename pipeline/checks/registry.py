@@ -16,6 +16,7 @@ from ..core.records import Table
 from ..core.settings import Settings
 from .columns import check_columns
 from .coverage import check_gaps, check_range_of_use
+from .labels import check_entropy_floor, check_frozen_vibrations, check_rotor_floor
 from .physical import check_condensed_bounds, check_gas_bounds, check_unit_blocks
 from .smoothness import check_smoothness
 from .structure import (
@@ -38,11 +39,14 @@ STRUCTURE_CHECKS = (
     check_fit_settings,
     check_anchor_reach,
     check_gas_bounds,
+    check_rotor_floor,
+    check_entropy_floor,
     check_condensed_bounds,
     check_unit_blocks,
 )
 #: second tier: need clean numbers
 QUALITY_CHECKS = (
+    check_frozen_vibrations,
     check_smoothness,
     check_columns,
     check_gaps,

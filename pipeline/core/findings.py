@@ -117,6 +117,18 @@ _CODES = [
     # --- physics and units
     Code("CP-BELOW-EQUIPARTITION", ERROR, "Cp of an ideal gas below 5/2 R",
          "check the unit of the Cp column and the values"),
+    Code("CP-BELOW-ROTOR-FLOOR", ERROR, "ideal-gas Cp below 7/2 R (linear) or 4 R (nonlinear) "
+         "where rotation is fully excited", "check the unit, the geometry and the quantity"),
+    Code("LABEL-CV-AS-CP", ERROR, "the Cp column probably holds Cv (Cp = Cv + R fits the "
+         "physics)", "add R to every value, or correct the column"),
+    Code("LABEL-MOLAR-MASS", ERROR, "a per-mass table times its formula's molar mass is no "
+         "possible Cp of a gas of that formula (a wrong formula?)",
+         "check the formula of the table in source.json"),
+    Code("LABEL-CELSIUS-AS-KELVIN", ERROR, "the T column probably holds degrees Celsius under "
+         "a kelvin label (the entropy below 298.15 K breaks its floor; T + 273.15 mends it)",
+         "relabel the column T [degC]"),
+    Code("S-BELOW-FLOOR", ERROR, "S°(T) from entropy_298 and the table falls below what "
+         "translation and rotation alone give", "check Cp at the low end and entropy_298"),
     Code("CP-IMPLAUSIBLE", ERROR, "Cp of an ideal gas far above any physical value for its "
          "atoms", "check the unit of the Cp column and the values"),
     Code("CP-ABOVE-CLASSICAL", WARNING, "Cp above what the classical limit of its geometry "
@@ -154,6 +166,12 @@ _CODES = [
     # --- sources
     Code("SRC-DISAGREE", WARNING, "two sources of one species disagree beyond the tolerance",
          "check which source is right; the preferred one is fitted"),
+    Code("SRC-T-SCALE", ERROR, "a table agrees with another source of the species only with "
+         "its temperatures read on another scale (Celsius, Fahrenheit, Rankine, kelvin)",
+         "relabel the T column of the mislabelled table"),
+    Code("SRC-ANCHOR-DISAGREE", WARNING, "two sources of a species state ΔfH° or S° at 298.15 K "
+         "that differ beyond 1 kJ/mol or 0.5 J/(mol K)",
+         "check which value is right; the preferred source's is used"),
     Code("SRC-FACTOR", ERROR, "a table differs from another source of the species by a unit factor",
          "correct the unit in the header"),
     Code("SEL-MERGED", INFO, "rows of a lower-priority source fill the range outside the "

@@ -101,6 +101,12 @@ class CheckSettings:
     #: the tight band of an ideal gas, used to choose between unit factors, starts this
     #: fraction below Cp(0) (rotation excited, vibrations frozen; common practice)
     rotor_band_margin: float = 0.03
+    #: ideal gas with rotation excited: Cp below Cp(0) (7/2 R, 4 R) by more than this
+    #: fraction is an error (normal hydrogen at 5 θ_rot is 0.5 % below; common practice)
+    rotor_floor_margin: float = 0.02
+    #: S°(T) below its translational + rotational floor by more than this [J/(mol K)] is an
+    #: error (the trapezoidal integral and rounded anchors stay well inside; common practice)
+    entropy_floor_margin: float = 2.0
     #: a gap between consecutive points is ungrounded beyond this ratio T2/T1 and this width [K]
     gap_ratio: float = 1.5
     gap_width: float = 250.0

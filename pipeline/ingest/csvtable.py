@@ -287,10 +287,11 @@ def _root_cause(problems, n_rows, width, delimiter, file):
     else:
         columns = sorted({f.column for f in group})
         cause = f"{first.message} (column {', '.join(columns)})"
-        hint = first.expected
-    return finding("TAB-NO-ROWS", f"none of the {n_rows} data row(s) could be read: {cause}; "
-                   f"first at line {first.line}", file=file, line=first.line,
-                   column=first.column, lines=lines, seen=first.seen, expected=hint)
+        hint = f"expected {first.expected}"
+    return finding("TAB-NO-ROWS", f"none of the {n_rows} data row(s) could be read: {cause} "
+                   f"(first at line {first.line}); {hint}", file=file, line=first.line,
+                   column=first.column, lines=lines, seen=first.seen,
+                   expected="rows the header can read")
 
 
 def _out_of_range(values: np.ndarray, column: str) -> np.ndarray:

@@ -70,7 +70,7 @@ def make_table(t, cp, formula, geometry, *, phase="g", u=None, dh=None, s=None, 
     meta = TableMeta(source=source, file=file, species=name or formula, formula=formula,
                      phase=phase, geometry=geometry, molar_mass=comp.molar_mass,
                      atoms=comp.atoms, enthalpy_of_formation_298=h298,
-                     entropy_298=200.0 if s298 is None else s298, sha256="0" * 64, size=0,
+                     entropy_298=s298, sha256="0" * 64, size=0,
                      columns=("T [K]", "Cp [J/(mol*K)]"))
     return Table(meta=meta, data=data)
 

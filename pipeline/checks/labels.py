@@ -18,7 +18,7 @@ Each is caught by physics, not by thresholds fitted to data, and named with its 
 import numpy as np
 from scipy.optimize import nnls
 
-from ..core import chemistry
+from ..core import chemistry, units
 from ..core.constants import GAS_CONSTANT as R
 from ..core.constants import REFERENCE_TEMPERATURE
 from ..core.findings import finding
@@ -193,7 +193,9 @@ def _isolated(mask):
 
 
 def _per_mass(meta) -> bool:
-    return any("per-mass values" in n for n in meta.notes if n.startswith("Cp"))
+    """True when the file gave Cp per mass (its unit as read, recorded by the reader)."""
+    return any(c["quantity"] == "Cp" and units.check_unit(c["unit"], "heat_capacity") == "mass"
+               for c in meta.reading.get("columns", ()))
 
 
 def _fits_as_cv(t, cp, meta, floor, excited) -> bool:

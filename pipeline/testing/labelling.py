@@ -106,9 +106,15 @@ def trial(rng, mistake: str | None):
     m_wrong = chemistry.composition(wrong).molar_mass
     table = make_table(t, cp * m_wrong / m_true, wrong, wrong_geometry,
                        s298=ENTROPY_298[formula])
-    note = f"Cp: per-mass values multiplied by the molar mass {m_wrong:.6g} g/mol"
-    meta = replace(table.meta, notes=(note,))
-    return formula, Table(meta=meta, data=table.data), True
+    return formula, per_mass(table), True
+
+
+def per_mass(table):
+    """``table`` as the reader leaves a file whose Cp column was given in J/(g K)."""
+    reading = {"columns": [{"header": "T [K]", "quantity": "T", "unit": "K", "from": "header"},
+                           {"header": "Cp [J/(g*K)]", "quantity": "Cp", "unit": "J/(g*K)",
+                            "from": "header"}]}
+    return Table(meta=replace(table.meta, reading=reading), data=table.data)
 
 
 def labelling_rates(trials=200, seed=2026, ctx=Settings()):
@@ -135,9 +141,7 @@ def labelling_rates(trials=200, seed=2026, ctx=Settings()):
     for i in range(trials):
         _, table, _ = trial(rng, None)
         if i % 2:
-            m = table.meta.molar_mass
-            note = f"Cp: per-mass values multiplied by the molar mass {m:.6g} g/mol"
-            table = Table(meta=replace(table.meta, notes=(note,)), data=table.data)
+            table = per_mass(table)
         found = run_checks(table, ctx)
         false_errors += any(f.severity == "error" for f in found)
         false_warnings += any(f.severity == "warning" for f in found)

@@ -5,7 +5,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from thermoledger.core import constants
-from thermoledger.ingest import csvtable
+from thermoledger.ingest import csvtable, dialect
 
 
 def parse(text, **kw):
@@ -105,13 +105,13 @@ def test_empty_and_headers_only(text, code):
 
 def test_bytes_that_are_text_in_no_encoding_name_their_line():
     # 0x81 is undefined in Windows-1252 and a control code in Latin-1: not text
-    text, found = csvtable.decode(b"T [K],Cp [J/(mol*K)]\n300,29\n\xff\x81,1\n", "x.csv")
+    text, _, found = dialect.decode(b"T [K],Cp [J/(mol*K)]\n300,29\n\xff\x81,1\n", "x.csv")
     assert text is None
     assert (found[0].code, found[0].line) == ("TAB-ENCODING", 3)
 
 
 def test_latin1_text_is_read_with_an_info_finding():
-    text, found = csvtable.decode("T [°C],Cp [J/(mol*K)]\n25,29.1\n".encode("latin-1"), "x.csv")
+    text, _, found = dialect.decode("T [°C],Cp [J/(mol*K)]\n25,29.1\n".encode("latin-1"), "x.csv")
     assert text.startswith("T [°C]")
     assert [(f.code, f.severity, f.line) for f in found] == [("TAB-LEGACY-ENCODING", "info", 1)]
 
@@ -119,7 +119,7 @@ def test_latin1_text_is_read_with_an_info_finding():
 @settings(max_examples=300, deadline=None)
 @given(st.binary(max_size=300))
 def test_random_bytes_never_raise(raw):
-    text, found = csvtable.decode(raw, "x.csv")
+    text, _, found = dialect.decode(raw, "x.csv")
     if text is not None:
         p = parse(text, molar_mass=30.0)
         assert list(p.data.columns) == ["line", "T", "Cp", "u_Cp", "dH", "S", "u_dH", "u_S"]

@@ -58,7 +58,7 @@ def check_columns(table, ctx):
     if covers:
         ih = ih - float(spl.integrate(t[0], tref))
         is_ = is_ - float(spl_t.integrate(t[0], tref))
-    where = dict(source=table.meta.source.id, file=table.meta.file)
+    where = table.meta.where
     out = []
     if has_h:
         h = d["dH"].to_numpy()

@@ -17,7 +17,7 @@ def check_gaps(table, ctx):
     for i in range(len(t) - 1):
         if t[i + 1] / t[i] > s.gap_ratio and t[i + 1] - t[i] > s.gap_width:
             out.append(finding("COV-GAP", f"no data between {t[i]:.6g} K and {t[i + 1]:.6g} K",
-                               source=table.meta.source.id, file=table.meta.file, column="T",
+                               **table.meta.where, column="T",
                                line=int(lines[i + 1]), lines=(int(lines[i]), int(lines[i + 1])),
                                seen=f"{t[i + 1] - t[i]:.6g} K",
                                expected=f"gaps <= {s.gap_width:g} K or a ratio <= {s.gap_ratio:g}"))
@@ -32,7 +32,7 @@ def check_range_of_use(table, ctx):
     t = t[np.isfinite(t) & (t > 0)]
     if not len(t):
         return []
-    where = dict(source=table.meta.source.id, file=table.meta.file, column="T")
+    where = dict(table.meta.where, column="T")
     out = []
     if f.use_t_max is not None and f.use_t_max > t.max():
         out.append(finding("COV-EXTRAPOLATED", f"range of use goes to {f.use_t_max:g} K but the "

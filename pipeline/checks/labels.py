@@ -35,10 +35,6 @@ MODEL_ALLOWANCE = 0.02
 THETA = np.geomspace(40.0, 20000.0, 40)
 
 
-def _where(table):
-    return dict(source=table.meta.source.id, file=table.meta.file)
-
-
 def _applies(table):
     meta = table.meta
     return meta.phase == "g" and meta.geometry in ("linear", "nonlinear") and bool(meta.atoms)
@@ -72,14 +68,14 @@ def check_rotor_floor(table, ctx):
             f"J/(mol*K), the least Cp of a {meta.geometry} ideal gas whose rotation is "
             f"excited (T >= {start:.4g} K)")
     where = dict(column="Cp", line=int(lines[low][0]), lines=tuple(int(x) for x in lines[low]),
-                 seen=f"{cp[k]:.6g} at {t[k]:.6g} K", expected=f">= {floor:.6g}", **_where(table))
+                 seen=f"{cp[k]:.6g} at {t[k]:.6g} K", expected=f">= {floor:.6g}", **table.meta.where)
     if _per_mass(meta):
         need = meta.molar_mass * float(np.max(floor / cp[low]))
         return [finding("LABEL-MOLAR-MASS", f"{base}: the column is per mass and the formula "
                         f"{meta.formula} gives {meta.molar_mass:.4f} g/mol, but the values need "
                         f"a molar mass of at least {need:.4f} g/mol", fix="check the formula "
                         "(and the species) of this per-mass table in source.json", **where)]
-    if _fits_as_cv(t, cp, meta, floor, excited):
+    if np.all(cp[excited] + R >= floor):
         return [finding("LABEL-CV-AS-CP", f"{base}; Cv + R (Cp = Cv + R for an ideal gas) "
                         "fits the floor and the shape of a rigid rotor with its vibrations, so "
                         "the column probably holds Cv", fix="add R = 8.314462618 J/(mol*K) to "
@@ -119,9 +115,11 @@ def check_frozen_vibrations(table, ctx):
                         lines=tuple(int(x) for x in lines), seen=f"misfit {given * R:.3g}",
                         expected=f"<= {max(3 * noise, MODEL_ALLOWANCE * R):.3g} J/(mol*K)",
                         fix="check the formula (and the species) of this per-mass table in "
-                            "source.json", **_where(table))]
+                            "source.json", **table.meta.where)]
+    if given <= 3.0 * noise / R:
+        return []
     as_cv = _misfit(t, cp / R + 1.0 - bounds.cp_zero(meta.geometry) / R, modes)
-    if given <= 3.0 * noise / R or as_cv * 2.0 >= given:
+    if as_cv * 2.0 >= given:
         return []
     return [finding("LABEL-CV-AS-CP", f"the low end of the table ({t.min():.6g}-{t.max():.6g} "
                     f"K) is not what {modes} vibration(s) of a {meta.geometry} molecule can give "
@@ -131,7 +129,7 @@ def check_frozen_vibrations(table, ctx):
                     lines=tuple(int(x) for x in lines), seen=f"misfit {given * R:.3g}",
                     expected=f"<= {3 * noise:.3g} J/(mol*K)", fix="add R = 8.314462618 "
                     "J/(mol*K) to every value, or correct the column at its source",
-                    **_where(table))]
+                    **table.meta.where)]
 
 
 def check_entropy_floor(table, ctx):
@@ -148,7 +146,7 @@ def check_entropy_floor(table, ctx):
         return []
     gap, i, s_at, s_floor = short
     where = dict(column="T", line=int(lines[i]), seen=f"S({t[i]:.6g} K) = {s_at:.2f}",
-                 expected=f">= {s_floor:.2f} J/(mol*K)", **_where(table))
+                 expected=f">= {s_floor:.2f} J/(mol*K)", **table.meta.where)
     base = (f"S°({t[i]:.6g} K) = entropy_298 − ∫Cp/T dT = {s_at:.2f} J/(mol*K) is "
             f"{gap:.2f} below the {s_floor:.2f} that translation (Sackur–Tetrode) and rotation "
             "alone give at that temperature")
@@ -196,10 +194,6 @@ def _per_mass(meta) -> bool:
     """True when the file gave Cp per mass (its unit as read, recorded by the reader)."""
     return any(c["quantity"] == "Cp" and units.check_unit(c["unit"], "heat_capacity") == "mass"
                for c in meta.reading.get("columns", ()))
-
-
-def _fits_as_cv(t, cp, meta, floor, excited) -> bool:
-    return bool(np.all(cp[excited] + R >= floor))
 
 
 def _noise(u, cp) -> float:

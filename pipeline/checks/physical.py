@@ -78,10 +78,6 @@ def whole_table_factor(cp, geometry, atoms, molar_mass, settings):
     return best[0], best[1], best[2], [c[0] for c in chosen[1:]]
 
 
-def _where(table):
-    return dict(source=table.meta.source.id, file=table.meta.file)
-
-
 def check_gas_bounds(table, ctx):
     """Equipartition (error), classical limit (warning), or a whole-table unit factor (error)."""
     settings = ctx.checks
@@ -104,7 +100,7 @@ def check_gas_bounds(table, ctx):
                         column="Cp", line=int(lines[0]), lines=tuple(int(x) for x in lines),
                         seen=f"{cp.min():.4g}-{cp.max():.4g}",
                         expected=f"{cp.min() * f:.4g}-{cp.max() * f:.4g}", fix=fix,
-                        **_where(table))]
+                        **table.meta.where)]
     out = []
     floor = bounds.TRANSLATION_CP * (1 - settings.equipartition_tolerance)
     low = cp < floor
@@ -116,7 +112,7 @@ def check_gas_bounds(table, ctx):
                            f"any ideal gas{cv}", column="Cp", line=int(lines[low][0]),
                            lines=tuple(int(x) for x in lines[low]),
                            seen=f"{cp[low].min():.6g}", expected=f">= {floor:.6g}",
-                           **_where(table)))
+                           **table.meta.where))
     _, high = gas_band(meta.geometry, meta.atoms, settings)
     ceiling = implausible_cp(meta.geometry, meta.atoms, settings)
     wild = cp > ceiling
@@ -127,7 +123,7 @@ def check_gas_bounds(table, ctx):
                            "contributions)", column="Cp", line=int(lines[wild][0]),
                            lines=tuple(int(x) for x in lines[wild]),
                            seen=f"{cp[wild].max():.6g}", expected=f"<= {ceiling:.6g}",
-                           **_where(table)))
+                           **table.meta.where))
     if meta.geometry == "monatomic":
         top = np.full(len(cp), high)
         what = (f"monatomic gas above 5/2 R by more than {settings.monatomic_excess:g} R "
@@ -143,7 +139,7 @@ def check_gas_bounds(table, ctx):
         out.append(finding("CP-ABOVE-CLASSICAL", f"{int(above.sum())} row(s) {what}", column="Cp",
                            line=int(lines[above][0]), lines=tuple(int(x) for x in lines[above]),
                            seen=f"{cp[k]:.6g}", expected=f"<= {top[k]:.6g}",
-                           **_where(table)))
+                           **table.meta.where))
     return out
 
 
@@ -163,7 +159,7 @@ def check_condensed_bounds(table, ctx):
     return [finding("CP-ABOVE-DULONG-PETIT", f"{int(above.sum())} row(s) above "
                     f"{settings.dulong_petit_factor:g} x 3R per atom = {limit:.4g} J/(mol*K)",
                     column="Cp", line=int(lines[0]), lines=tuple(int(x) for x in lines),
-                    seen=f"{cp[above].max():.6g}", expected=f"<= {limit:.6g}", **_where(table))]
+                    seen=f"{cp[above].max():.6g}", expected=f"<= {limit:.6g}", **table.meta.where)]
 
 
 def check_unit_blocks(table, ctx):
@@ -212,7 +208,7 @@ def check_unit_blocks(table, ctx):
                            seen=f"{cp[run[0]]:.6g}", expected=f"{cp[run[0]] * f:.6g}",
                            fix=f"multiply lines {int(block[0])}-{int(block[-1])} by {f:.6g} "
                                f"or correct their unit ({fix.split(': ', 1)[-1]})",
-                           **_where(table)))
+                           **table.meta.where))
     return out
 
 

@@ -127,7 +127,7 @@ def anchor_disagreements(sid, primary, other):
         out.append(finding("SRC-ANCHOR-DISAGREE", f"{sid}: {label} is {b * scale:.6g} {unit} "
                            f"in {other.meta.source.id} but {a * scale:.6g} {unit} in "
                            f"{primary.meta.source.id} (the preferred source, whose value is "
-                           "used)", source=other.meta.source.id, file=other.meta.file,
+                           "used)", **other.meta.where,
                            column=key, seen=f"{b * scale:.6g}", expected=f"{a * scale:.6g} ± "
                            f"{ANCHOR_TOLERANCE[key] * scale:g} {unit}"))
     return out
@@ -171,8 +171,7 @@ def reconcile(accepted, findings, ctx):
             sel, notes, dropped = _select(sid, groups[sid], about, ctx)
         except Exception as exc:  # noqa: BLE001 - one bad species never stops the rest
             for table in groups[sid]:
-                f = stage_failed("reconcile", exc, source=table.meta.source.id,
-                                 file=table.meta.file)
+                f = stage_failed("reconcile", exc, **table.meta.where)
                 new.append(f)
                 quarantined.append((table.meta, (f,)))
             continue
@@ -192,7 +191,7 @@ def _select(sid, tables, about, ctx):
     primary = ranked[0]
     notes, keep = [], [primary]
     for other in ranked[1:]:
-        where = dict(source=other.meta.source.id, file=other.meta.file, column="Cp")
+        where = dict(**other.meta.where, column="Cp")
         if other.meta.source.priority == primary.meta.source.priority:
             notes.append(finding("SEL-TIE", f"{sid}: {primary.meta.source.id} and "
                                  f"{other.meta.source.id} have equal priority; "
@@ -252,15 +251,14 @@ def _select(sid, tables, about, ctx):
             if table is not primary:
                 notes.append(finding("SEL-MERGED", f"{sid}: {len(d)} row(s) of this table "
                                      f"({lo:.6g}-{hi:.6g} K) fill the range outside "
-                                     f"{primary.meta.file}", source=table.meta.source.id,
-                                     file=table.meta.file))
+                                     f"{primary.meta.file}", **table.meta.where))
         else:
             uses.append(SourceUse(table.meta, 0, None, None))
             if table is not primary:
                 notes.append(finding("SEL-SUPERSEDED", f"{sid}: {primary.meta.file} (priority "
                                      f"{primary.meta.source.priority}) covers this table's "
                                      f"range (priority {table.meta.source.priority})",
-                                     source=table.meta.source.id, file=table.meta.file))
+                                     **table.meta.where))
     data = pd.concat(rows, ignore_index=True).sort_values(["T"], kind="stable") if rows \
         else primary.data.assign(file=primary.meta.file).iloc[0:0]
     sel = Selection(species_id=sid, primary=primary, data=data, uses=tuple(uses),

@@ -61,8 +61,7 @@ def validate_table(table: Table, ctx: Settings = Settings(), prior=()):
     try:
         return _validate_table(table, ctx, prior)
     except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
-        return [stage_failed("validate", exc, source=table.meta.source.id,
-                             file=table.meta.file)]
+        return [stage_failed("validate", exc, **table.meta.where)]
 
 
 def _validate_table(table: Table, ctx: Settings, prior):

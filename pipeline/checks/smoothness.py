@@ -31,7 +31,7 @@ def check_smoothness(table, ctx):
     if len(t) < 8 or np.any(np.diff(t) <= 0):
         return []
     found, sigma = smooth.find_outliers(t, cp, sigmas=s.outlier_sigmas, floor=s.outlier_floor)
-    where = dict(source=table.meta.source.id, file=table.meta.file, column="Cp")
+    where = dict(table.meta.where, column="Cp")
     out = []
     idx = sorted(i for i, _, _ in found)
     clusters, used = [], set()

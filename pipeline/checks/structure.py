@@ -56,7 +56,7 @@ def check_duplicate_temperatures(table: Table, ctx: Settings):
     same = np.abs(np.diff(ts)) <= 1e-9 * np.maximum(1.0, np.abs(ts[1:]))
     for i in np.nonzero(same)[0]:
         out.append(finding("T-DUPLICATE", f"T = {ts[i + 1]:.6g} K repeats line {int(lines[i])}",
-                           source=table.meta.source.id, file=table.meta.file,
+                           **table.meta.where,
                            line=int(lines[i + 1]), column="T", seen=f"{ts[i + 1]:.6g}",
                            expected="each temperature once"))
     return out
@@ -70,7 +70,7 @@ def check_enough_points(table: Table, ctx: Settings):
     if n >= need:
         return []
     return [finding("TOO-FEW-POINTS", f"{n} data points; a {fit.ranges}-range fit needs at "
-                    f"least {need}", source=table.meta.source.id, file=table.meta.file,
+                    f"least {need}", **table.meta.where,
                     seen=str(n), expected=f">= {need}")]
 
 

@@ -85,6 +85,11 @@ class TableMeta:
         """The id of the species in the library, e.g. 'CO2(g)'."""
         return f"{self.species}({self.phase})"
 
+    @property
+    def where(self) -> dict:
+        """The fields that locate a finding about this table: its source id and file."""
+        return dict(source=self.source.id, file=self.file)
+
 
 @dataclass(frozen=True)
 class Table:

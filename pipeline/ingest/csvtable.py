@@ -12,7 +12,7 @@ each problem — or one finding naming the cause when no row could be read.
 
 import csv
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 import pandas as pd
@@ -68,12 +68,6 @@ def parse_number(cell: str, mark: str = ".") -> float | None:
         return None
     value = float(text)
     return value if math.isfinite(value) else None
-
-
-def decode(raw: bytes, file: str):
-    """(text or None, findings) of raw bytes; see dialect.decode for the encodings read."""
-    text, _, problems = dialects.decode(raw, file)
-    return text, problems
 
 
 def _refused(finding_, reading=None):
@@ -155,7 +149,7 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
     mark, mixed = dialects.decimal_mark(numeric, delimiter, file)
     if mark is None:
         return _refused(mixed[0], reading.to_dict())
-    reading = dialects.Dialect(encoding, delimiter, mark, comments)
+    reading = replace(reading, decimal_mark=mark)
     usable = []
     for col in cols:
         kind = COLUMNS[col.quantity][1]

@@ -2,15 +2,16 @@
 each stage's work, and its tests, live in its own sub-package."""
 
 import tempfile
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 from . import fit, ingest
-from .checks import acknowledge, reconcile, registry
+from .checks import acknowledge, reconcile, registry, transitions
 from .core.errors import FitError, InputError, OutputError
 from .core.findings import ERROR, by_subject, finding, stage_failed
 from .core.records import CheckResult, CpData, FittedSpecies, SpeciesIdentity
 from .core.settings import Settings, for_table
+from .fit import phases
 from .library import document as library
 from .release import assemble, provenance, publish
 from .release import audit as audit_stage
@@ -35,10 +36,12 @@ class BuildResult:
 def examine(raw_dir, ctx: Settings = Settings()) -> CheckResult:
     """Ingest, validate and reconcile (the ``check`` command); no fitting, nothing written."""
     got = ingest.ingest(raw_dir)
-    found = list(got.findings) + list(registry.validate(got.tables, ctx, got.findings))
+    tables, chains, linked = transitions.link(got.tables, got.transitions, ctx,
+                                              got.findings)
+    found = list(got.findings) + list(linked) + list(registry.validate(tables, ctx, got.findings))
     about = by_subject(found)
     accepted, quarantined = [], []
-    for table in got.tables:
+    for table in tables:
         errors = [x for x in about.get(table.meta.file, ()) if x.severity == ERROR]
         if errors:
             quarantined.append((table.meta, tuple(sorted(errors, key=lambda f: f.sort_key()))))
@@ -47,10 +50,10 @@ def examine(raw_dir, ctx: Settings = Settings()) -> CheckResult:
     selections, more, dropped = reconcile.reconcile(accepted, found, ctx)
     found += more
     quarantined += dropped
-    found = acknowledge.apply(got.tables, found)
-    return CheckResult(tables=got.tables, findings=tuple(found), inputs=got.inputs,
+    found = acknowledge.apply(tables, found)
+    return CheckResult(tables=tables, findings=tuple(found), inputs=got.inputs,
                        selections=tuple(selections), quarantined=tuple(quarantined),
-                       held_back=held_back(got.tables, found))
+                       held_back=held_back(tables, found), chains=chains)
 
 
 def held_back(tables, findings) -> tuple:
@@ -58,16 +61,18 @@ def held_back(tables, findings) -> tuple:
     a source.json that failed (its whole source is held back) or a listed table that could not
     be read at all."""
     read = {t.meta.file for t in tables}
-    about = by_subject(f for f in findings if f.severity == ERROR)
+    about = by_subject(f for f in findings if f.severity == ERROR
+                       and not (f.column or "").startswith("transitions/"))
     return tuple((k, tuple(sorted(v, key=lambda f: f.sort_key())))
                  for k, v in sorted(about.items()) if k not in read)
 
 
-def fit_selection(sel, ctx: Settings, previous=None):
+def fit_selection(sel, ctx: Settings, previous=None, who=None):
     """Fit one reconciled species with the build's settings and its table's overrides;
-    ``previous`` its breakpoints in the previous release (offered to the search)."""
+    ``previous`` its breakpoints in the previous release (offered to the search); ``who``
+    its identity and anchors (by default those of its preferred table)."""
     meta = sel.primary.meta
-    return fit.fit_species(SpeciesIdentity.of_table(meta), CpData.of_frame(sel.data),
+    return fit.fit_species(who or SpeciesIdentity.of_table(meta), CpData.of_frame(sel.data),
                            for_table(ctx.fit, meta.fit_overrides), previous)
 
 
@@ -94,8 +99,10 @@ def offered_breakpoints(doc: dict) -> dict:
 
 
 def species_findings(sel, about) -> tuple:
-    """Warnings and infos of every table used for a species (``about``: findings by file)."""
-    own = [f for u in sel.uses for f in about.get(u.meta.file, ()) if f.severity != ERROR]
+    """Warnings and infos of every table used for a species (``about``: findings by file),
+    leaving out those marked as about another phase of a shared file."""
+    own = [f for u in sel.uses for f in about.get(u.meta.file, ()) if f.severity != ERROR
+           and f.extra.get("species", sel.species_id) == sel.species_id]
     return tuple(dict.fromkeys(own))  # keep order, drop repeats
 
 
@@ -117,45 +124,67 @@ def build(raw_dir, out_dir, ctx: Settings = Settings(), *, write=True, progress=
 
 
 def _fit_all(checked: CheckResult, ctx: Settings, say, previous: dict):
-    """(fitted, quarantined, findings, entries) after fitting every selection; a species whose
-    fit fails or raises is quarantined with its finding, and the rest go on."""
+    """(fitted, quarantined, findings, entries) after fitting every selection, the phases of
+    a species along their chain of transitions (fit/phases.py); a species whose fit fails
+    or raises is quarantined with its finding, and the rest go on."""
     findings = list(checked.findings)
     quarantined = list(checked.quarantined)
-    fitted, entries = [], {}
-    n_sel = len(checked.selections)
+    fitted, done = {}, {}
+    order = phases.fitting_order(checked.selections, checked.chains)
     about = by_subject(findings)
-    for k, sel in enumerate(checked.selections):
+    for k, sel in enumerate(order):
         meta = sel.primary.meta
-        say("fit", k + 1, n_sel, sel.species_id)
-        where = dict(source=meta.source.id, file=meta.file)
+        say("fit", k + 1, len(order), sel.species_id)
         try:
-            result = fit_selection(sel, ctx, previous.get(sel.species_id))
-            notes = [finding(code, msg, **where) for code, msg in result.notes]
+            chain = phases.chain_of(sel.species_id, checked.chains)
+            who, anchor = phases.identity(meta, chain, done) if chain else (None, {})
+            result = fit_selection(sel, ctx, previous.get(sel.species_id), who)
+            notes = [finding(code, msg, **meta.where) for code, msg in result.notes]
+            notes = [f.about_species(sel.species_id) for f in notes] if meta.shared else notes
             rows = tuple(sorted(zip(sel.data["file"].tolist(),
                                     (int(x) for x in sel.data["line"]))))
             for f in notes:
                 about.setdefault(meta.file, []).append(f)
-            done = FittedSpecies(table=sel.primary, fit=result,
-                                 findings=species_findings(sel, about), uses=sel.uses,
-                                 excluded=sel.excluded, rows=rows)
-            entry = release_document.species_entry(done)
-            bad = release_document.non_finite(entry)
-            if bad:
-                raise FitError(sel.species_id, f"the fitted entry holds a non-finite number at "
-                               f"{bad}")
         except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
-            if isinstance(exc, FitError):
-                code = "FIT-REJECTED" if isinstance(exc, fit.FitRejected) else "FIT-FAILED"
-                f = finding(code, exc.reason, **where)
-            else:
-                f = stage_failed("fit", exc, **where)
+            f = _fit_failure(exc, meta)
             findings.append(f)
             quarantined.append((meta, (f,)))
             continue
         findings += notes
-        fitted.append(done)
-        entries[sel.species_id] = entry
-    return fitted, quarantined, findings, entries
+        done[sel.species_id] = (result, anchor)
+        fitted[sel.species_id] = FittedSpecies(table=sel.primary, fit=result, uses=sel.uses,
+                                               excluded=sel.excluded, rows=rows, anchor=anchor)
+    metas = {sid: sp.table.meta for sid, sp in fitted.items()}
+    for chain in checked.chains:
+        more = phases.check_chain(chain, done, metas)
+        findings += more
+        for f in more:
+            about.setdefault(f.file, []).append(f)
+    out, entries = [], {}
+    selection = {s.species_id: s for s in order}
+    for sid in sorted(fitted):
+        done_ = replace(fitted[sid], findings=species_findings(selection[sid], about))
+        try:
+            entry = release_document.species_entry(done_)
+            bad = release_document.non_finite(entry)
+            if bad:
+                raise FitError(sid, f"the fitted entry holds a non-finite number at {bad}")
+        except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
+            f = _fit_failure(exc, done_.table.meta)
+            findings.append(f)
+            quarantined.append((done_.table.meta, (f,)))
+            continue
+        out.append(done_)
+        entries[sid] = entry
+    return out, quarantined, findings, entries
+
+
+def _fit_failure(exc, meta):
+    """The finding of a species whose fit failed or raised."""
+    if isinstance(exc, FitError):
+        code = "FIT-REJECTED" if isinstance(exc, fit.FitRejected) else "FIT-FAILED"
+        return finding(code, exc.reason, **meta.where)
+    return stage_failed("fit", exc, **meta.where)
 
 
 def _build(raw_dir, out_dir, ctx: Settings, progress, previous: dict) -> BuildResult:
@@ -164,7 +193,8 @@ def _build(raw_dir, out_dir, ctx: Settings, progress, previous: dict) -> BuildRe
     checked = examine(raw_dir, ctx)
     fitted, quarantined, findings, entries = _fit_all(checked, ctx, say, previous)
     digest = ingest.inputs_digest(checked.inputs)
-    doc = release_document.library_document(fitted, quarantined, digest, ctx.to_dict(), entries)
+    doc = release_document.library_document(fitted, quarantined, digest, ctx.to_dict(), entries,
+                                            checked.chains)
     outcome = assemble.Outcome(document=doc, findings=tuple(findings), fitted=tuple(fitted),
                                quarantined=tuple(quarantined), checked=checked)
     files = assemble.release_files(outcome, ctx, say)

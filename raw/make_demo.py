@@ -18,6 +18,15 @@ monitored by the analysers. Two sources feed its property library:
   nh3.csv (a cell 'n/a'), co-cal.csv (calories labelled as joules), a digit
   swap in one row of n2o.csv, and a CO2 table that drifts from the computed one.
 
+* ``isru-furnace-2026`` — SYNTHETIC: the condensed phases of the stand's regolith
+  reduction furnace — wüstite FeO (crystal and melt, one table with a phase column) and
+  titanium from ilmenite reduction (alpha and beta crystals, melt). Heat capacities come
+  from smooth Maier–Kelley-type models, Cp = a + b T − c/T², whose coefficients were chosen
+  to behave like handbook data (they are not fitted to or copied from any table), with
+  seeded 0.1 % Gaussian noise; the Ti melt is an enthalpy-increment table (T and H − H298
+  only, as drop calorimetry gives) and the alpha-Ti table carries S and −(G − H298)/T.
+  Transition temperatures and enthalpies are recalled from memory of handbook values.
+
 Enthalpies of formation and entropies at 298.15 K are recalled from memory of
 the CODATA Key Values (Cox, Wagman & Medvedev, 1989) and the NIST-JANAF tables
 (Chase, 1998); demo metadata only.
@@ -176,8 +185,113 @@ def synthetic_source(folder: Path):
     (folder / "source.json").write_text(json.dumps(meta, indent=2) + "\n", encoding="utf-8")
 
 
+#: condensed phases of the furnace: Maier–Kelley-type models (a [J/(mol K)], b [J/(mol K²)],
+#: c [J K/mol]) chosen for the demo, and (from memory, handbook values) the transitions
+#: (T [K], ΔH [kJ/mol], u(ΔH) [kJ/mol]) and anchors (ΔfH° [kJ/mol], S° [J/(mol K)])
+FURNACE = {
+    ("Ti", "cr-alpha"): (22.2, 9.8e-3, 1.0e4),
+    ("Ti", "cr-beta"): (21.0, 7.0e-3, 0.0),
+    ("Ti", "l"): (47.2, 0.0, 0.0),
+    ("FeO", "cr"): (50.8, 8.6e-3, 3.3e5),
+    ("FeO", "l"): (68.2, 0.0, 0.0),
+}
+FURNACE_TRANSITIONS = [("Ti", "cr-alpha", "cr-beta", 1155.0, 4.17, 0.2),
+                       ("Ti", "cr-beta", "l", 1941.0, 14.15, 0.5),
+                       ("FeO", "cr", "l", 1650.0, 24.06, 1.0)]
+FURNACE_ANCHORS = {"Ti": (0.0, 30.72), "FeO": (-272.04, 60.75)}
+
+
+def furnace_cp(name, phase, t):
+    a, b, c = FURNACE[(name, phase)]
+    t = np.asarray(t, dtype=float)
+    return a + b * t - c / t ** 2
+
+
+def furnace_h_s(name, phase, t):
+    """H(T) - H(298.15 K) of the phase stable at 298.15 K [J/mol] and S [J/(mol K)] of
+    ``phase`` at ``t`` [K], through the transitions of the model."""
+    h, s = 0.0, FURNACE_ANCHORS[name][1]
+    lo, current = 298.15, None
+    chain = [x for x in FURNACE_TRANSITIONS if x[0] == name]
+    current = chain[0][1]
+    for _, below, above, tt, dh, _ in chain:
+        if current == phase:
+            break
+        h += quad(lambda y: furnace_cp(name, below, y), lo, tt)[0] + 1000 * dh
+        s += quad(lambda y: furnace_cp(name, below, y) / y, lo, tt)[0] + 1000 * dh / tt
+        lo, current = tt, above
+    dh_out = [h + quad(lambda y: furnace_cp(name, phase, y), lo, x)[0] for x in t]
+    s_out = [s + quad(lambda y: furnace_cp(name, phase, y) / y, lo, x)[0] for x in t]
+    return np.array(dh_out), np.array(s_out)
+
+
+def furnace_source(folder: Path):
+    folder.mkdir(exist_ok=True)
+    rng = np.random.default_rng(20261203)
+
+    def noisy(x, rel=0.001):
+        return x * (1 + rel * rng.standard_normal(len(x)))
+
+    t = np.array([298.15] + list(np.arange(300.0, 1151.0, 50.0)) + [1155.0])
+    cp = noisy(furnace_cp("Ti", "cr-alpha", t))
+    dh, s = furnace_h_s("Ti", "cr-alpha", t)
+    rows = [[f"{x:g}", f"{c:.4f}", f"{e:.4f}", f"{e - h / x:.4f}"]
+            for x, c, h, e in zip(t, cp, dh, s)]
+    write_csv(folder / "ti-alpha.csv", ["T [K]", "Cp [J/(mol*K)]", "S [J/(mol*K)]",
+                                        "-(G-H298)/T [J/(mol*K)]"], rows)
+    t = np.array([1155.0] + list(np.arange(1200.0, 1901.0, 50.0)) + [1941.0])
+    rows = [[f"{x:g}", f"{c:.4f}"] for x, c in zip(t, noisy(furnace_cp("Ti", "cr-beta", t)))]
+    write_csv(folder / "ti-beta.csv", ["T [K]", "Cp [J/(mol*K)]"], rows)
+    t = np.array([1941.0] + list(np.arange(1975.0, 2501.0, 25.0)))
+    dh, _ = furnace_h_s("Ti", "l", t)
+    rows = [[f"{x:g}", f"{h / 1000:.4f}"] for x, h in zip(t, noisy(dh, 0.0003))]
+    write_csv(folder / "ti-melt-drop.csv", ["T [K]", "H-H298 [kJ/mol]"], rows)
+    t_cr = np.array([298.15] + list(np.arange(300.0, 1601.0, 50.0)) + [1650.0])
+    t_l = np.array([1650.0] + list(np.arange(1700.0, 2301.0, 50.0)))
+    rows = [["cr", f"{x:g}", f"{c:.4f}"] for x, c in zip(t_cr, noisy(furnace_cp("FeO", "cr",
+                                                                                 t_cr)))]
+    rows += [["l", f"{x:g}", f"{c:.4f}"] for x, c in zip(t_l, noisy(furnace_cp("FeO", "l",
+                                                                               t_l)))]
+    write_csv(folder / "feo.csv", ["phase", "T [K]", "Cp [J/(mol*K)]"], rows)
+    h_ti, s_ti = FURNACE_ANCHORS["Ti"]
+    h_feo, s_feo = FURNACE_ANCHORS["FeO"]
+    meta = {
+        "source": "isru-furnace-2026",
+        "title": "Condensed phases of the regolith reduction furnace (synthetic)",
+        "citation": "Synthetic demo data generated by thermoledger raw/make_demo.py",
+        "method": "compilation",
+        "standard_pressure": "1 bar",
+        "priority": 10,
+        "license": "CC0-1.0",
+        "notes": "SYNTHETIC demo data: Maier-Kelley-type Cp models chosen for the demo with "
+                 "seeded 0.1 % Gaussian noise (0.03 % on the drop-calorimetry increments). "
+                 "Transition temperatures and enthalpies, and the 298.15 K anchors, recalled "
+                 "from memory of handbook values; demo metadata only.",
+        "tables": [
+            {"file": "ti-alpha.csv", "species": "Ti", "formula": "Ti", "phase": "cr-alpha",
+             "enthalpy_of_formation_298": f"{h_ti:.2f} kJ/mol",
+             "entropy_298": f"{s_ti:.2f} J/(mol*K)"},
+            {"file": "ti-beta.csv", "species": "Ti", "formula": "Ti", "phase": "cr-beta",
+             "fit": {"ranges": 1}},
+            {"file": "ti-melt-drop.csv", "species": "Ti", "formula": "Ti", "phase": "l",
+             "notes": "drop calorimetry: H(T) - H(298.15 K) of alpha-Ti, no Cp column",
+             "fit": {"ranges": 1}},
+            {"file": "feo.csv", "species": "FeO", "formula": "FeO", "anchor_phase": "cr",
+             "enthalpy_of_formation_298": f"{h_feo:.2f} kJ/mol",
+             "entropy_298": f"{s_feo:.2f} J/(mol*K)"},
+        ],
+        "transitions": [
+            {"species": n, "from": a, "to": b, "temperature": f"{tt:g} K",
+             "enthalpy": f"{dh:g} kJ/mol", "u_enthalpy": f"{u:g} kJ/mol"}
+            for n, a, b, tt, dh, u in FURNACE_TRANSITIONS],
+    }
+    (folder / "source.json").write_text(json.dumps(meta, indent=2, ensure_ascii=False) + "\n",
+                                        encoding="utf-8")
+
+
 if __name__ == "__main__":
     computed_source(ROOT / "isru-rrho-2026")
     synthetic_source(ROOT / "isru-benchlog-2026")
+    furnace_source(ROOT / "isru-furnace-2026")
     print(f"demo sources written under {ROOT}; S(1 bar) - S(1 atm) = "
           f"{ENTROPY_ATM_TO_BAR:.4f} J/(mol*K)")

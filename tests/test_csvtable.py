@@ -64,10 +64,16 @@ def test_a_comma_in_a_number_of_a_comma_delimited_file_is_refused(cell):
 
 
 def test_missing_cp_column():
-    p = parse("T [K],H-H298 [kJ/mol]\n300,0.05\n")
+    p = parse("T [K],S [J/(mol*K)]\n300,0.05\n")
     assert ("COL-REQUIRED", 1, "Cp") in codes(p)
     assert "expected" not in p.findings[0].message  # message is plain; expectation separate
     assert p.findings[0].expected == "a column 'Cp [unit]'"
+
+
+def test_an_enthalpy_increment_table_needs_no_cp_column():
+    p = parse("T [K],H-H298 [kJ/mol]\n300,0.05\n400,2.5\n")
+    assert codes(p) == []
+    assert p.data["Cp"].isna().all() and list(p.data["dH"]) == [50.0, 2500.0]
 
 
 def test_unknown_unit():
@@ -122,7 +128,9 @@ def test_random_bytes_never_raise(raw):
     text, _, found = dialect.decode(raw, "x.csv")
     if text is not None:
         p = parse(text, molar_mass=30.0)
-        assert list(p.data.columns) == ["line", "T", "Cp", "u_Cp", "dH", "S", "u_dH", "u_S"]
+        assert list(p.data.columns)[:9] == ["line", "T", "Cp", "u_Cp", "dH", "S", "u_dH", "u_S",
+                                            "gef"]
+        assert list(p.data.columns)[9:] in ([], ["phase"])
 
 
 cells = st.one_of(st.floats(allow_nan=True, allow_infinity=True).map(repr),

@@ -16,7 +16,8 @@ def table(t, cp, u=None):
                          "Cp": np.asarray(cp, float),
                          "u_Cp": np.full(n, np.nan) if u is None else np.asarray(u, float),
                          "dH": np.full(n, np.nan), "S": np.full(n, np.nan),
-                         "u_dH": np.full(n, np.nan), "u_S": np.full(n, np.nan)})
+                         "u_dH": np.full(n, np.nan), "u_S": np.full(n, np.nan),
+                         "gef": np.full(n, np.nan)})
     meta = TableMeta(source=SRC, file="s/x.csv", species="X", formula="N2", phase="g",
                      geometry="linear", molar_mass=28.0, atoms=2, enthalpy_of_formation_298=0.0,
                      entropy_298=190.0, sha256="0" * 64, size=1)

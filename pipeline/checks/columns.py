@@ -1,6 +1,12 @@
-"""Consistency of the H−H298 and S columns with the Cp column and the metadata.
+"""Consistency of the H−H298, S and −(G−H298)/T columns with the Cp column and the metadata.
 
     H(T) − H(298.15) = ∫_{298.15}^{T} Cp dT,    S(T) − S(298.15) = ∫_{298.15}^{T} Cp/T dT
+    −(G − H298)/T = S − (H − H298)/T            (the Gibbs energy function, gef)
+
+Where a table gives S and H − H298 beside gef, the identity is checked row by row; else gef
+is checked against the integrals of Cp with its constants fitted (S(298.15) through the
+table, plus the H offset of a phase above 298.15 K), and at 298.15 K, where gef = S°, against
+entropy_298.
 
 The integrals of the table's Cp are taken with a cubic spline through the points
 (scipy.interpolate.CubicSpline); the difference from a monotone cubic (PCHIP)
@@ -40,9 +46,11 @@ def check_columns(table, ctx):
     """CONS-* findings: the H-H298 [J/mol] and S [J/(mol K)] columns of ``table`` against the
     integrals of its Cp, and their values at 298.15 K against zero and entropy_298."""
     data = table.data
-    has_h = data["dH"].notna().sum() >= 2
+    # an increment table's Cp is the derivative of its H - H298 (ingest/increments.py)
+    has_h = data["dH"].notna().sum() >= 2 and "Cp" not in table.meta.derived
     has_s = data["S"].notna().sum() >= 2
-    if not (has_h or has_s):
+    has_g = data["gef"].notna().sum() >= 2
+    if not (has_h or has_s or has_g):
         return []
     d = valid_rows(data)
     t, cp, lines = d["T"].to_numpy(), d["Cp"].to_numpy(), d["line"].to_numpy()
@@ -107,4 +115,51 @@ def check_columns(table, ctx):
                                line=int(lines[i]), lines=tuple(int(x) for x in lines[bad]),
                                seen=f"{s[i]:.6g}", expected=f"{is_[i] + base:.6g} ± {tol[i]:.3g}",
                                **where))
+    if has_g:
+        out += _gef(d, ih, is_, covers, u_rel, table.meta)
+    return out
+
+
+def _gef(d, ih, is_, covers, u_rel, meta) -> list:
+    """CONS-GEF findings of the −(G−H298)/T column [J/(mol K)]; ``ih`` [J/mol] and ``is_``
+    [J/(mol K)] the integrals of Cp from 298.15 K when ``covers``, else from the first row."""
+    t, lines = d["T"].to_numpy(), d["line"].to_numpy()
+    g, s, h = (d[c].to_numpy() for c in ("gef", "S", "dH"))
+    m = np.isfinite(g)
+    direct = m & np.isfinite(s) & np.isfinite(h)
+    out = []
+    if direct.sum() >= 2:
+        want = s - h / t
+        tol = S_ROUNDING + TABLE_ROUNDING_REL * (np.abs(g) + np.abs(s)) + \
+            (H_ROUNDING + TABLE_ROUNDING_REL * np.abs(h)) / t
+        bad = direct & (np.abs(g - want) > tol)
+        what = "S - (H-H298)/T of the same row"
+    else:
+        # g = b + is_ - (a + ih)/T: b the entropy at the integrals' origin, a the H offset
+        y = g[m] - is_[m] + ih[m] / t[m]
+        if covers:        # S(298.15) at the row nearest 298.15 K, as for the S column
+            coef, a = [float(y[int(np.argmin(np.abs(t[m] - REFERENCE_TEMPERATURE)))])], 0.0
+        else:
+            coef, *_ = np.linalg.lstsq(np.column_stack([np.ones(m.sum()), -1.0 / t[m]]), y,
+                                       rcond=None)
+            a = coef[1]
+        want = np.full(len(t), np.nan)
+        want[m] = coef[0] + is_[m] - (a + ih[m]) / t[m]
+        tol = 3 * u_rel * (np.abs(is_) + np.abs(ih) / t) + S_ROUNDING + TABLE_ROUNDING_REL * \
+            np.abs(g)
+        bad = m & (np.abs(g - want) > tol)
+        what = "the integrals of the Cp column"
+        s298 = meta.entropy_298
+        if covers and s298 is not None and abs(coef[0] - s298) > S298_TOLERANCE:
+            out.append(finding("CONS-GEF", f"the -(G-H298)/T column gives S(298.15 K) = "
+                               f"{coef[0]:.6g} J/(mol*K) but entropy_298 is {s298:.6g}",
+                               column="-(G-H298)/T", seen=f"{coef[0]:.6g}",
+                               expected=f"{s298:.6g} ± {S298_TOLERANCE}", **meta.where))
+    if bad.any():
+        i = int(np.argmax(bad))
+        out.append(finding("CONS-GEF", f"-(G-H298)/T = {g[i]:.6g} J/(mol*K) at T = {t[i]:.6g} K, "
+                           f"but {what} give {want[i]:.6g} ({int(bad.sum())} row(s) disagree)",
+                           column="-(G-H298)/T", line=int(lines[i]),
+                           lines=tuple(int(x) for x in lines[bad]), seen=f"{g[i]:.6g}",
+                           expected=f"{want[i]:.6g} ± {tol[i]:.3g}", **meta.where))
     return out

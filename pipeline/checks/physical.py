@@ -11,8 +11,10 @@ import math
 
 import numpy as np
 
+from ..core import chemistry, phases
 from ..core.constants import GAS_CONSTANT as R
 from ..core.constants import THERMOCHEMICAL_CALORIE
+from ..core.errors import InputError
 from ..core.findings import finding
 from ..core.records import valid_rows
 from ..physics import bounds
@@ -56,22 +58,28 @@ def implausible_cp(geometry, atoms, settings) -> float:
 
 
 def whole_table_factor(cp, geometry, atoms, molar_mass, settings):
-    """The factor that brings a table that breaks the bounds back inside them, or None.
+    """The factor that brings an ideal-gas table that breaks the bounds back inside them, or
+    None. Returns (name, factor, fix, alternatives) — alternatives are other names that also
+    fit."""
+    return band_factor(cp, gas_band(geometry, atoms, settings),
+                       gas_band(geometry, atoms, settings, tight=True), molar_mass)
 
-    Returns (name, factor, fix, alternatives) — alternatives are other names that also fit.
-    """
-    lo, hi = gas_band(geometry, atoms, settings)
+
+def band_factor(cp, band, tight, molar_mass, strict=False):
+    """The unit factor that brings ``cp`` [J/(mol K)], all outside ``band`` (low, high),
+    inside it — preferring one that brings it inside the ``tight`` band, and only such a one
+    when ``strict`` — or None. Returns (name, factor, fix, alternatives)."""
+    lo, hi = band
     if np.all((cp >= lo) & (cp <= hi)):
         return None
     fits = {False: [], True: []}
     for name, f, fix in factor_candidates(molar_mass):
         with np.errstate(over="ignore"):
             v = cp * f
-        for tight in (False, True):
-            a, b = gas_band(geometry, atoms, settings, tight)
+        for is_tight, (a, b) in ((False, band), (True, tight)):
             if np.all((v >= a) & (v <= b)):
-                fits[tight].append((name, f, fix))
-    chosen = fits[True] or fits[False]
+                fits[is_tight].append((name, f, fix))
+    chosen = fits[True] or ([] if strict else fits[False])
     if not chosen:
         return None
     best = chosen[0]
@@ -144,22 +152,58 @@ def check_gas_bounds(table, ctx):
 
 
 def check_condensed_bounds(table, ctx):
-    """Condensed phases: Dulong–Petit plausibility (about 3R per atom, common practice)."""
+    """Condensed phases: a whole table off by a unit factor (4.184, 1000, R, per gram) is an
+    error, judged against the Neumann–Kopp band at and above 250 K (bounds.condensed_band);
+    a crystal far above 3R per atom (more than anharmonicity and vacancies give near melting,
+    common practice) is a warning, and a liquid above the band."""
     settings = ctx.checks
     meta = table.meta
     if meta.phase == "g" or not meta.atoms:
         return []
+    try:
+        elements = chemistry.composition(meta.formula).elements
+    except InputError:
+        return []
     data = table.data
-    cp = data["Cp"].to_numpy()
-    limit = settings.dulong_petit_factor * bounds.DULONG_PETIT_PER_ATOM * meta.atoms
-    above = np.isfinite(cp) & (cp > limit)
+    t, cp, lines = (data[c].to_numpy() for c in ("T", "Cp", "line"))
+    ok = np.isfinite(cp) & (cp > 0) & np.isfinite(t)
+    warm = ok & (t >= bounds.CONDENSED_BAND_FROM)
+    if warm.any():
+        tw = t[warm]
+        hit = band_factor(cp[warm], bounds.condensed_band(elements, tw),
+                          bounds.condensed_band(elements, tw, tight=True), meta.molar_mass,
+                          strict=True)
+        if hit:
+            name, f, fix, others = hit
+            nk = float(bounds.neumann_kopp(elements, tw[0]))
+            also = f"; also consistent with: {', '.join(others)}" if others else ""
+            c = cp[warm]
+            return [finding("UNIT-FACTOR", f"whole table off by a factor {f:.6g} ({name}): Cp "
+                            f"{c.min():.4g}-{c.max():.4g} J/(mol*K) above 250 K is far from the "
+                            f"Neumann-Kopp estimate of {meta.formula} ({nk:.4g} J/(mol*K) at "
+                            f"{tw[0]:.6g} K), Cp x "
+                            f"{f:.6g} = {c.min() * f:.4g}-{c.max() * f:.4g} fits it{also}",
+                            column="Cp", line=int(lines[warm][0]),
+                            lines=tuple(int(x) for x in lines[warm]),
+                            seen=f"{c.min():.4g}-{c.max():.4g}",
+                            expected=f"{c.min() * f:.4g}-{c.max() * f:.4g}", fix=fix,
+                            **meta.where)]
+    if phases.is_crystal(meta.phase):
+        limit = settings.dulong_petit_factor * bounds.DULONG_PETIT_PER_ATOM * meta.atoms
+        what = f"{settings.dulong_petit_factor:g} x 3R per atom = {limit:.4g} J/(mol*K)"
+    else:
+        limit = np.where(ok, bounds.condensed_band(elements, np.where(ok, t, 1.0))[1], np.inf)
+        what = (f"{bounds.CONDENSED_HIGH:g} x the Neumann-Kopp sum at their temperature (more "
+                "than liquids reach)")
+    above = ok & (cp > limit)
     if not above.any():
         return []
-    lines = data["line"].to_numpy()[above]
-    return [finding("CP-ABOVE-DULONG-PETIT", f"{int(above.sum())} row(s) above "
-                    f"{settings.dulong_petit_factor:g} x 3R per atom = {limit:.4g} J/(mol*K)",
-                    column="Cp", line=int(lines[0]), lines=tuple(int(x) for x in lines),
-                    seen=f"{cp[above].max():.6g}", expected=f"<= {limit:.6g}", **table.meta.where)]
+    return [finding("CP-ABOVE-DULONG-PETIT", f"{int(above.sum())} row(s) above {what}",
+                    column="Cp", line=int(lines[above][0]),
+                    lines=tuple(int(x) for x in lines[above]),
+                    seen=f"{cp[above].max():.6g}",
+                    expected=f"<= {float(np.min(np.broadcast_to(limit, cp.shape)[above])):.6g}",
+                    **meta.where)]
 
 
 def check_unit_blocks(table, ctx):

@@ -16,6 +16,7 @@ from ..core.records import Table
 from ..core.settings import Settings
 from .columns import check_columns
 from .coverage import check_gaps, check_range_of_use
+from .jumps import check_unlisted_transition
 from .labels import check_entropy_floor, check_frozen_vibrations, check_rotor_floor
 from .physical import check_condensed_bounds, check_gas_bounds, check_unit_blocks
 from .smoothness import check_smoothness
@@ -44,8 +45,9 @@ STRUCTURE_CHECKS = (
     check_condensed_bounds,
     check_unit_blocks,
 )
-#: second tier: need clean numbers
+#: second tier: need clean numbers (a jump in Cp stops it: the rest would only echo it)
 QUALITY_CHECKS = (
+    check_unlisted_transition,
     check_frozen_vibrations,
     check_smoothness,
     check_columns,
@@ -59,9 +61,12 @@ def validate_table(table: Table, ctx: Settings = Settings(), prior=()):
     """All findings of one table; ``prior`` are its ingest findings (errors stop tier two).
     An unexpected exception of a check becomes the table's STAGE-FAILED finding."""
     try:
-        return _validate_table(table, ctx, prior)
+        found = _validate_table(table, ctx, prior)
     except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
-        return [stage_failed("validate", exc, **table.meta.where)]
+        found = [stage_failed("validate", exc, **table.meta.where)]
+    if not table.meta.shared:
+        return found
+    return [f.about_species(table.meta.species_id) for f in found]
 
 
 def _validate_table(table: Table, ctx: Settings, prior):
@@ -71,7 +76,10 @@ def _validate_table(table: Table, ctx: Settings, prior):
     if any(f.severity == ERROR for f in list(prior) + out) or len(table.data) == 0:
         return out
     for check in QUALITY_CHECKS:
-        out += check(table, ctx)
+        found = check(table, ctx)
+        out += found
+        if check is check_unlisted_transition and found:
+            break
     return out
 
 

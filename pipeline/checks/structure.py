@@ -63,11 +63,12 @@ def check_duplicate_temperatures(table: Table, ctx: Settings):
 
 
 def check_enough_points(table: Table, ctx: Settings):
-    """TOO-FEW-POINTS findings: fewer data points than the table's ranges need."""
+    """TOO-FEW-POINTS findings: fewer data points than the table's ranges need (none when no
+    row could be read at all: the reading findings say why)."""
     n = int(np.isfinite(table.data["T"]).sum())
     fit = for_table(ctx.fit, table.meta.fit_overrides)
     need = fit.min_points
-    if n >= need:
+    if n >= need or not len(table.data):
         return []
     return [finding("TOO-FEW-POINTS", f"{n} data points; a {fit.ranges}-range fit needs at "
                     f"least {need}", **table.meta.where,
@@ -131,8 +132,8 @@ def check_anchor_reach(table: Table, ctx: Settings):
     """
     t = table.data["T"].to_numpy()
     t = t[np.isfinite(t) & (t > 0)]
-    if not len(t):
-        return []
+    if not len(t) or table.meta.reached or not table.meta.anchored:
+        return []         # anchored through a transition (checks/transitions.py)
     meta, tref = table.meta, constants.REFERENCE_TEMPERATURE
     gap = float(t.min()) - tref
     reach = ctx.fit.max_anchor_extension

@@ -76,15 +76,20 @@ def _from_library(work, what: str):
 
 
 def cmd_props(args) -> int:
-    """``thermoledger props``: Cp, H, S, G of one species at the given temperatures [K]."""
+    """``thermoledger props``: Cp, H, S, G of one species at the given temperatures [K]; the
+    phase stable at each temperature for a species whose phases are linked by transitions,
+    unless --phase names one."""
     doc = library.load(args.library)
-    sp = library.find_species(doc, args.species)
-    values = _from_library(lambda: library.evaluate_entry(sp, args.temperatures),
-                           f"{args.library}: {sp['id']} cannot be evaluated")
+    ids = library.phases_at(doc, args.species, args.temperatures, args.phase)
+    by_id = {s["id"]: s for s in doc["species"]}
+    values = _from_library(lambda: library.evaluate_phases(doc, ids, args.temperatures),
+                           f"{args.library}: {', '.join(dict.fromkeys(ids))} cannot be "
+                           "evaluated")
+    sps = [by_id[i] for i in ids]
     if args.json:
-        print(json.dumps(render.props_json(sp, args.temperatures, values), indent=1))
+        print(json.dumps(render.props_json(sps, args.temperatures, values), indent=1))
     else:
-        _say(render.props_table(sp, args.temperatures, values, args.library))
+        _say(render.props_table(sps, args.temperatures, values, args.library))
     return 0
 
 

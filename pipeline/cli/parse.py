@@ -108,6 +108,8 @@ def parser() -> argparse.ArgumentParser:
     q.add_argument("temperatures", nargs="+", type=number(0, 1e6, what="a temperature in K",
                                                           open_low=True), metavar="T",
                    help="temperatures [K]")
+    q.add_argument("--phase", help="evaluate this phase (g, l, cr, cr-<form>) instead of the "
+                                   "phase stable at each temperature")
     q.add_argument("--json", action="store_true", help="print the values as JSON")
     return p
 

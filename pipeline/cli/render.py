@@ -49,10 +49,11 @@ def build_summary(result, out, notice: str) -> list:
                                                for e in sp["extrapolated"]) if sp["extrapolated"] else ""
         span = f"{sp['ranges'][0]['t_min']:g}-{sp['ranges'][-1]['t_max']:g} K"
         breaks = "/".join(f"{r['t_max']:g}" for r in sp["ranges"][:-1])
+        breaks = f"break {breaks:>6s} K" if breaks else "one range     "
         used = [f"{x['file']}" + (f" ({x['rows']} rows)" if i else "")
                 for i, x in enumerate(s for s in sp["sources"] if s["used"])]
         dropped = f"  {len(sp['excluded'])} row(s) left out" if sp["excluded"] else ""
-        lines.append(f"  fitted      {sp['id']:14s} {span:14s} break {breaks:>6s} K  "
+        lines.append(f"  fitted      {sp['id']:14s} {span:14s} {breaks}  "
                      f"max |dCp/Cp| {100 * q['cp_max_rel_dev']:.3f} %  "
                      f"from {' + '.join(used)}{dropped}{flag}")
     for entry in result.document["quarantined"]:
@@ -88,29 +89,41 @@ def check_summary(result) -> list:
 PROPS_UNITS = {"T": "K", "Cp": "J/(mol*K)", "H": "J/mol", "S": "J/(mol*K)", "G": "J/mol"}
 
 
-def props_json(sp: dict, temperatures, values: dict) -> dict:
-    """The ``props --json`` document of one species at ``temperatures`` [K]."""
+def props_json(sps, temperatures, values: dict) -> dict:
+    """The ``props --json`` document at ``temperatures`` [K]; ``sps`` the library entry
+    evaluated at each temperature (one species, or the stable phase of each)."""
     keys = ("Cp", "u_Cp", "H", "u_H", "S", "u_S", "G")
-    return {"id": sp["id"], "form": sp["form"], "units": PROPS_UNITS,
-            "rows": [{"T": t, **{k: float(values[k][i]) for k in keys},
+    first = sps[0]
+    return {"id": first["id"] if len({sp["id"] for sp in sps}) == 1 else None,
+            "form": first["form"], "units": PROPS_UNITS,
+            "rows": [{"T": t, "id": sp["id"], "phase": sp["phase"],
+                      **{k: float(values[k][i]) for k in keys},
                       "extrapolated": bool(values["extrapolated"][i])}
-                     for i, t in enumerate(temperatures)]}
+                     for i, (t, sp) in enumerate(zip(temperatures, sps))]}
 
 
-def props_table(sp: dict, temperatures, values: dict, where) -> list:
-    """The ``props`` table: Cp, H, S, G with standard uncertainties, extrapolation flagged."""
+def props_table(sps, temperatures, values: dict, where) -> list:
+    """The ``props`` table: Cp, H, S, G with standard uncertainties, extrapolation flagged;
+    the phase of each row when the stable phase changes with temperature."""
+    several = len({sp["id"] for sp in sps}) > 1
     lines = [f"{sp['id']}  {sp['form']}, {sp['ranges'][0]['t_min']:g}-"
-             f"{sp['ranges'][-1]['t_max']:g} K, from {where}",
-             f"{'T [K]':>10} {'Cp [J/(mol*K)]':>20} {'H [kJ/mol]':>20} {'S [J/(mol*K)]':>18} "
-             f"{'G [kJ/mol]':>12}"]
-    for i, t in enumerate(temperatures):
+             f"{sp['ranges'][-1]['t_max']:g} K, from {where}" for sp in
+             {sp["id"]: sp for sp in sps}.values()]
+    lines.append(f"{'T [K]':>10} {'Cp [J/(mol*K)]':>20} {'H [kJ/mol]':>20} {'S [J/(mol*K)]':>18} "
+                 f"{'G [kJ/mol]':>12}" + ("  phase" if several else ""))
+    for i, (t, sp) in enumerate(zip(temperatures, sps)):
         note = "  extrapolated" if values["extrapolated"][i] else ""
+        phase = f"  {sp['phase']}" if several else ""
         lines.append(f"{t:10.2f} {values['Cp'][i]:11.4f} ± {values['u_Cp'][i]:6.4f} "
                      f"{values['H'][i] / 1000:11.4f} ± {values['u_H'][i] / 1000:6.4f} "
                      f"{values['S'][i]:9.4f} ± {values['u_S'][i]:6.4f} "
-                     f"{values['G'][i] / 1000:12.4f}{note}")
-    lines.append("± standard uncertainty of the fit (H and S relative to their exact 298.15 K "
-                 "anchors; extrapolated intervals include the model's).")
+                     f"{values['G'][i] / 1000:12.4f}{phase}{note}")
+    if several:
+        lines.append("phase: the phase stable at that temperature (the one below at a transition "
+                     "temperature; --phase names one).")
+    lines.append("± standard uncertainty of the fit (H and S relative to their exact anchors at "
+                 "298.15 K or at a transition, plus the u of the transitions on the way; "
+                 "extrapolated intervals include the model's).")
     lines.append("H on the assigned-enthalpy scale (H(298.15 K) = enthalpy of formation); "
                  "S at 1 bar.")
     return lines

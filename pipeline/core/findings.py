@@ -65,6 +65,12 @@ _CODES = [
          "keep each key once; the meaning of a repeated key is ambiguous"),
     Code("STAGE-FAILED", ERROR, "an unexpected failure while processing this table; the table "
          "is held back and the build goes on", "report the message to the maintainers"),
+    Code("SRC-NO-PHASE", ERROR, "a table has no phase: none in source.json and no phase column",
+         "add \"phase\" to the table's entry, or a phase column to the CSV"),
+    Code("SRC-PHASE-TWICE", ERROR, "a table has a phase column and a phase in source.json",
+         "give the phase in one place"),
+    Code("SRC-ANCHOR-PHASE", ERROR, "the anchors of a table with several phases do not say which "
+         "phase they belong to", "add \"anchor_phase\" to the table's entry"),
     # --- header and cells
     Code("COL-NO-UNIT", ERROR, "a column name has no unit",
          "write the unit, e.g. 'Cp [J/(mol*K)]' or 'Cp/(J K-1 mol-1)', or add a units row"),
@@ -91,6 +97,8 @@ _CODES = [
     Code("CELL-NOT-NUMBER", ERROR, "a cell is not a finite decimal number",
          "write a plain finite number"),
     Code("CELL-EMPTY", ERROR, "a required cell is empty", "fill in the value or remove the row"),
+    Code("CELL-NOT-PHASE", ERROR, "a cell of the phase column is not a phase",
+         "write g, l, cr or cr-<form> (e.g. cr-alpha)"),
     Code("CELL-AMBIGUOUS", ERROR, "a number with a comma in a comma-delimited file (1,234: "
          "decimal comma or thousands separator?)", "write a point as the decimal mark"),
     Code("TAB-DECIMAL-MIXED", ERROR, "the numbers of the file use both the point and the comma "
@@ -112,6 +120,9 @@ _CODES = [
          "add data points"),
     Code("ANCHOR-OUT-OF-REACH", ERROR, "the data do not reach 298.15 K, where H and S are "
          "anchored, and the build cannot carry them there", "add data that contain 298.15 K"),
+    Code("ANCHOR-MISSING", ERROR, "a phase has no ΔfH° and S° at 298.15 K and no transition "
+         "links it to a phase that has", "give the anchors of the phase stable at 298.15 K and "
+         "list the transitions"),
     Code("RANGE-EXTENDED", WARNING, "the fitted range was extended past the data to reach "
          "298.15 K (marked extrapolated, with its uncertainty)", "add data that contain 298.15 K"),
     # --- physics and units
@@ -156,6 +167,8 @@ _CODES = [
          "make entropy_298 and the S column agree"),
     Code("CONS-H298", ERROR, "the H-H298 column is not zero at 298.15 K",
          "H-H298 must vanish at 298.15 K"),
+    Code("CONS-GEF", ERROR, "the -(G-H298)/T column disagrees with the Cp, H-H298 and S "
+         "columns or with entropy_298", "check the column's unit, sign and values"),
     # --- coverage
     Code("COV-GAP", WARNING, "a gap in temperature leaves the fit ungrounded there",
          "add data inside the gap"),
@@ -176,6 +189,24 @@ _CODES = [
          "correct the unit in the header"),
     Code("SEL-MERGED", INFO, "rows of a lower-priority source fill the range outside the "
          "preferred source", "none needed"),
+    # --- phases and transitions
+    Code("TRS-NOT-ENDOTHERMIC", ERROR, "an enthalpy of transition is not positive on heating",
+         "give ΔH_trs from the phase stable below to the one stable above"),
+    Code("TRS-PHASE-MISSING", WARNING, "a transition names a phase with no table in the build; "
+         "not used", "add the phase's table or remove the transition"),
+    Code("TRS-OUTSIDE-DATA", ERROR, "a transition temperature lies outside the data of one "
+         "of its phases", "check the temperature, or add data up to the transition"),
+    Code("TRS-CHAIN", ERROR, "the transitions of a species do not form one chain of phases "
+         "on heating", "list each transition once, from the phase stable below to the one "
+         "stable above"),
+    Code("TRS-DISAGREE", WARNING, "two sources state one transition differently",
+         "check which is right; the preferred source's is used"),
+    Code("TRS-GIBBS-MISMATCH", WARNING, "two phases' Gibbs energies differ at their transition "
+         "beyond the stated uncertainties", "check the anchors and ΔH_trs of both phases"),
+    Code("TRS-ORDER", WARNING, "a phase has a lower Gibbs energy than the phase the "
+         "transitions make stable", "check the anchors, transitions and data of both phases"),
+    Code("TRS-UNLISTED", ERROR, "Cp jumps inside one table: a probable phase transition that "
+         "is not listed", "split the table by phase (a phase column) and list the transition"),
     # --- acknowledgements
     Code("ACK-UNUSED", WARNING, "an acknowledgement in source.json matches no finding",
          "remove it or correct its code and line"),
@@ -245,6 +276,11 @@ class Finding:
     def counts(self) -> bool:
         """True when the finding counts towards the totals (not acknowledged)."""
         return not self.acknowledged
+
+    def about_species(self, species_id: str) -> "Finding":
+        """The same finding marked as about one species (one phase of a table that holds
+        several): it travels with that species only."""
+        return replace(self, extra={**self.extra, "species": species_id})
 
     def located(self, **fields) -> "Finding":
         """The same finding with ``fields`` (source, file, line, ...) replaced."""

@@ -30,7 +30,8 @@ MAX_UNIT_EXPONENT = 6
 MAX_LIBRARY_BYTES = 512 * 1024 * 1024
 
 #: physical range of each internal column after conversion to SI: (low, high), inclusive;
-#: T [K], Cp, S [J/(mol K)], H-H298 [J/mol] and their standard uncertainties (VALUE-RANGE)
+#: T [K], Cp, S, -(G-H298)/T [J/(mol K)], H-H298 [J/mol] and their standard uncertainties
+#: (VALUE-RANGE)
 PHYSICAL_RANGE = {
     "T": (0.01, 1.0e5),
     "Cp": (-1.0e6, 1.0e6),
@@ -39,12 +40,16 @@ PHYSICAL_RANGE = {
     "u_Cp": (1.0e-9, 1.0e6),
     "u_dH": (-1.0e9, 1.0e9),
     "u_S": (-1.0e6, 1.0e6),
+    "gef": (-1.0e6, 1.0e6),
 }
 #: physical range of the anchors and the standard pressure in source.json (SRC-QUANTITY)
 ANCHOR_RANGE = {
     "enthalpy_of_formation_298": (-1.0e8, 1.0e8),    # [J/mol]
     "entropy_298": (1.0e-3, 1.0e5),                   # [J/(mol K)], third-law entropies > 0
     "standard_pressure": (1.0, 1.0e8),                # [Pa]
+    "transition_temperature": (0.01, 1.0e5),          # [K]
+    "transition_enthalpy": (-1.0e7, 1.0e7),           # [J/mol], the sign is checked later
+    "transition_u_enthalpy": (0.0, 1.0e7),            # [J/mol]
 }
 #: a range of use or breakpoint [K] lies inside this interval (FIT-SETTING)
 TEMPERATURE_SETTING_RANGE = (10.0, 1.0e5)

@@ -13,7 +13,11 @@ dH          [J/mol]         H(T) - H(298.15 K) (NaN when not given)
 S           [J/(mol K)]     entropy at the standard pressure, 1 bar (NaN when not given)
 u_dH        [J/mol]         standard uncertainty of dH (NaN when not given)
 u_S         [J/(mol K)]     standard uncertainty of S (NaN when not given)
+gef         [J/(mol K)]     Gibbs energy function -(G - H298)/T (NaN when not given)
 ==========  ==============  =================================================
+
+Cp is NaN on every row of an enthalpy-increment table until ingest derives it from H − H298
+(ingest/increments.py).
 """
 
 from dataclasses import dataclass, field
@@ -21,7 +25,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-DATA_COLUMNS = ("line", "T", "Cp", "u_Cp", "dH", "S", "u_dH", "u_S")
+DATA_COLUMNS = ("line", "T", "Cp", "u_Cp", "dH", "S", "u_dH", "u_S", "gef")
 
 
 def valid_rows(data: pd.DataFrame) -> pd.DataFrame:
@@ -65,12 +69,12 @@ class TableMeta:
     file: str              # path relative to raw/, with '/' separators
     species: str
     formula: str
-    phase: str             # g, l or cr
+    phase: str             # g, l, cr or cr-<form> (core/phases.py)
     geometry: str | None   # monatomic, linear, nonlinear (ideal gases)
     molar_mass: float | None  # [g/mol]
     atoms: int | None
-    enthalpy_of_formation_298: float | None  # [J/mol]
-    entropy_298: float | None  # [J/(mol K)] at 1 bar
+    enthalpy_of_formation_298: float | None  # [J/mol]; None: reached through transitions
+    entropy_298: float | None  # [J/(mol K)] at 1 bar; None: reached through transitions
     sha256: str            # of the raw CSV bytes
     size: int              # [bytes]
     columns: tuple = ()    # raw header cells as written
@@ -78,12 +82,20 @@ class TableMeta:
     acknowledgements: tuple = ()  # ({'code', 'line', 'reason'} dicts, index in source.json)
     index: int = 0         # position of the table in source.json 'tables'
     fit_overrides: tuple = ()  # ((setting, value), ...) from the table's "fit" entry
+    reached: bool = False  # H and S reach this phase through a transition (checks/transitions)
+    derived: tuple = ()    # columns ingest derived from others, e.g. ('Cp',) from H - H298
+    shared: bool = False   # one phase of a file that holds several (a phase column)
     reading: dict = field(default_factory=dict, compare=False, hash=False)  # how it was read
 
     @property
     def species_id(self) -> str:
         """The id of the species in the library, e.g. 'CO2(g)'."""
         return f"{self.species}({self.phase})"
+
+    @property
+    def anchored(self) -> bool:
+        """True when source.json gives this table's own ΔfH° and S° at 298.15 K."""
+        return self.enthalpy_of_formation_298 is not None and self.entropy_298 is not None
 
     @property
     def where(self) -> dict:
@@ -100,21 +112,99 @@ class Table:
 
 
 @dataclass(frozen=True)
+class Transition:
+    """A phase transition of a species at the standard pressure, as a source states it."""
+
+    species: str           # the species name, e.g. 'Fe'
+    lower: str             # phase stable below the temperature, e.g. 'cr-alpha'
+    upper: str             # phase stable above it, e.g. 'cr-gamma'
+    temperature: float     # [K]
+    enthalpy: float        # [J/mol], H(upper) - H(lower) at the temperature, on heating
+    u_enthalpy: float | None  # [J/mol], standard uncertainty when stated
+    source: SourceMeta
+    index: int             # position in source.json 'transitions'
+
+    @property
+    def lower_id(self) -> str:
+        return f"{self.species}({self.lower})"
+
+    @property
+    def upper_id(self) -> str:
+        return f"{self.species}({self.upper})"
+
+    @property
+    def entropy(self) -> float:
+        """ΔS_trs = ΔH_trs / T_trs [J/(mol K)]: G is continuous at the transition."""
+        return self.enthalpy / self.temperature
+
+    @property
+    def where(self) -> dict:
+        """The fields that locate a finding about this transition in its source.json."""
+        return dict(source=self.source.id, file=f"{self.source.folder}/source.json",
+                    column=f"transitions/{self.index}")
+
+
+@dataclass(frozen=True)
+class Chain:
+    """The phases of one species in the order they are stable on heating, linked by
+    transitions, with the phase whose anchors start the chain."""
+
+    species: str           # the species name, e.g. 'Fe'
+    phases: tuple          # phase labels, stable one after the other on heating
+    transitions: tuple     # Transition between consecutive phases (len(phases) - 1)
+    root: str              # the phase anchored at 298.15 K that H and S start from
+    own: tuple             # phases fitted with their own anchors (the root among them)
+
+    def ids(self) -> tuple:
+        """The species ids of the phases, in order."""
+        return tuple(f"{self.species}({p})" for p in self.phases)
+
+    def stable_ranges(self, t_min: float, t_max: float) -> dict:
+        """{phase: (T_lo, T_hi) [K]} where each phase is the stable one, the first from
+        ``t_min`` and the last up to ``t_max``."""
+        temps = [t_min] + [x.temperature for x in self.transitions] + [t_max]
+        return {p: (temps[k], temps[k + 1]) for k, p in enumerate(self.phases)}
+
+
+@dataclass(frozen=True)
 class SpeciesIdentity:
-    """Who is being fitted: the identity and anchors the fit needs besides the data."""
+    """Who is being fitted: the identity and anchors the fit needs besides the data.
+
+    H and S are anchored at ``anchor_t``: 298.15 K with ΔfH° and S° for a phase with its
+    own anchors, or a transition temperature with the values the neighbouring phase and
+    the transition give. ``h_reference`` is the zero of the H − H298 column: H(298.15 K) of
+    the phase stable there. ``span`` holds temperatures [K] the range of use must reach
+    (the phase's transitions)."""
 
     species_id: str                        # e.g. 'CO2(g)'
-    enthalpy_of_formation_298: float       # [J/mol], H(298.15 K) on the assigned scale
-    entropy_298: float                     # [J/(mol K)] at 1 bar
-    phase: str = "g"                       # g, l or cr
+    enthalpy_of_formation_298: float | None  # [J/mol], H(298.15 K) on the assigned scale
+    entropy_298: float | None              # [J/(mol K)] at 1 bar
+    phase: str = "g"                       # g, l, cr or cr-<form>
     geometry: str | None = None            # monatomic, linear, nonlinear (ideal gases)
     atoms: int | None = None               # atoms in one molecule
+    anchor_t: float = 298.15               # [K] where H and S are anchored
+    anchor_h: float | None = None          # [J/mol] H at anchor_t (None: ΔfH°)
+    anchor_s: float | None = None          # [J/(mol K)] S at anchor_t (None: S°)
+    h_reference: float | None = None       # [J/mol] zero of H - H298 (None: ΔfH°)
+    span: tuple = ()                       # [K] temperatures the range of use must reach
 
     @classmethod
     def of_table(cls, meta: "TableMeta") -> "SpeciesIdentity":
         """The identity and anchors of the species of table metadata ``meta``."""
         return cls(meta.species_id, meta.enthalpy_of_formation_298, meta.entropy_298,
                    meta.phase, meta.geometry, meta.atoms)
+
+    @property
+    def anchor(self) -> tuple:
+        """(T [K], H [J/mol], S [J/(mol K)]) where H and S are fixed."""
+        h = self.enthalpy_of_formation_298 if self.anchor_h is None else self.anchor_h
+        s = self.entropy_298 if self.anchor_s is None else self.anchor_s
+        return self.anchor_t, h, s
+
+    @property
+    def reference_h(self) -> float:
+        """H(298.15 K) [J/mol] that H − H298 is counted from."""
+        return self.enthalpy_of_formation_298 if self.h_reference is None else self.h_reference
 
 
 @dataclass(frozen=True)
@@ -203,6 +293,7 @@ class CheckResult:
     selections: tuple      # checks.reconcile.Selection per species
     quarantined: tuple     # (TableMeta, error findings)
     held_back: tuple = ()  # (file, error findings): sources and tables that could not be read
+    chains: tuple = ()     # Chain of every species whose phases are linked by transitions
 
 
 @dataclass(frozen=True)
@@ -215,3 +306,4 @@ class FittedSpecies:
     uses: tuple = ()               # reconcile.SourceUse of every table considered
     excluded: tuple = ()           # (file, line, code) of rows left out of the fit
     rows: tuple = ()               # (file, line) of every data row that entered the fit
+    anchor: dict = field(default_factory=dict, compare=False)  # where H and S were fixed

@@ -88,8 +88,9 @@ class CheckSettings:
     implausible_excess: float = 10.0
     #: monatomic gas: Cp above 5/2 R by more than this (electronic states) is a warning [R units]
     monatomic_excess: float = 1.5
-    #: condensed phase: Cp above this multiple of 3R per atom is a warning
-    dulong_petit_factor: float = 1.3
+    #: crystal: Cp above this multiple of 3R per atom is a warning (anharmonicity, vacancies
+    #: and conduction electrons take metals near melting to about 1.3-1.4; common practice)
+    dulong_petit_factor: float = 1.5
     #: a point is an outlier beyond this many robust standard deviations ...
     outlier_sigmas: float = 6.0
     #: ... and beyond this relative deviation from its neighbours' smooth curve

@@ -30,10 +30,10 @@ from ..physics import basis, forms
 from . import acceptance, beyond, breakchoice, extrapolate, lsq, uncertainty
 
 
-def integration_constants(form, cp_coeffs, edges, h298, s298):
-    """h0 [J/mol], s0 [J/(mol K)] per range: anchored at 298.15 K, continuous at breakpoints."""
+def integration_constants(form, cp_coeffs, edges, h298, s298, tref=REFERENCE_TEMPERATURE):
+    """h0 [J/mol], s0 [J/(mol K)] per range: H = ``h298`` and S = ``s298`` at ``tref`` [K]
+    (298.15 K, or the transition a phase is anchored at), continuous at breakpoints."""
     nr = len(cp_coeffs)
-    tref = REFERENCE_TEMPERATURE
     j0 = int(np.clip(np.searchsorted(np.asarray(edges[1:-1]), tref, side="left"), 0, nr - 1))
     h0, s0 = [0.0] * nr, [0.0] * nr
     a = cp_coeffs
@@ -47,9 +47,14 @@ def integration_constants(form, cp_coeffs, edges, h298, s298):
     return h0, s0
 
 
-def _column_observations(data: CpData, s298, bps, edges, form, settings):
-    """Rows, targets and σ of the H−H298 and S columns (empty when not fitted together)."""
+def _column_observations(data: CpData, who: SpeciesIdentity, bps, edges, form, settings):
+    """Rows, targets and σ of the H−H298 and S columns (empty when not fitted together).
+
+    The rows integrate Cp from the anchor temperature; H − H298 counts from ``who``'s
+    reference enthalpy, so the target of a row is H − H298 less (H_anchor − H_reference)."""
     t, dh, s, u_dh, u_s = data.t, data.dh, data.s, data.u_dh, data.u_s
+    tref, h_anchor, s298 = who.anchor
+    offset = h_anchor - who.reference_h
     rows, y, sig = [], [], []
     if settings.simultaneous and dh is not None:
         m = np.isfinite(dh)
@@ -57,47 +62,55 @@ def _column_observations(data: CpData, s298, bps, edges, form, settings):
             given = u_dh is not None and np.all(np.isfinite(u_dh[m]))
             uh = u_dh[m] if given else np.maximum(
                 settings.h_uncertainty_rel * np.abs(dh[m]), settings.h_uncertainty_abs)
-            rows.append(basis.integral_rows(form.powers, t[m], bps, edges, "H"))
-            y.append(dh[m] / R)
+            rows.append(basis.integral_rows(form.powers, t[m], bps, edges, "H", tref))
+            y.append((dh[m] - offset) / R)
             sig.append(uh / R)
     if settings.simultaneous and s is not None and s298 is not None:
         m = np.isfinite(s)
         if m.sum():
             given = u_s is not None and np.all(np.isfinite(u_s[m]))
             us = u_s[m] if given else np.full(m.sum(), settings.s_uncertainty_abs)
-            rows.append(basis.integral_rows(form.powers, t[m], bps, edges, "S"))
+            rows.append(basis.integral_rows(form.powers, t[m], bps, edges, "S", tref))
             y.append((s[m] - s298) / R)
             sig.append(us / R)
     return rows, y, sig
 
 
 def _range_of_use(who: SpeciesIdentity, t, cp, settings: FitSettings):
-    """(lo, hi [K], extensions, notes): the fitted range, which always holds 298.15 K, and
-    the model extensions that fill it beyond the data.
+    """(lo, hi [K], extensions, notes): the fitted range, which always holds the anchor
+    temperature (298.15 K, or the transition a phase is anchored at) and the phase's other
+    transitions, and the model extensions that fill it beyond the data.
 
-    298.15 K is reached inside the data, by stretching the lowest range at most
-    ``max_anchor_extension`` below them (marked extrapolated), or, above the data of an
+    The anchor is reached inside the data, by stretching the end ranges at most
+    ``max_anchor_extension`` beyond them (marked extrapolated), or, above the data of an
     ideal gas, by its extrapolation model; FitError otherwise (never an anchor placed on an
-    unguided polynomial).
+    unguided polynomial). A condensed phase is never extrapolated further.
     """
-    tref, t0, tn = REFERENCE_TEMPERATURE, float(t[0]), float(t[-1])
-    lo = min(t0, tref, settings.use_t_min if settings.use_t_min is not None else np.inf)
-    hi = max(tn, tref, settings.use_t_max if settings.use_t_max is not None else -np.inf)
-    if t0 - tref > settings.max_anchor_extension:
+    tref, t0, tn = who.anchor_t, float(t[0]), float(t[-1])
+    reach = [tref, *who.span]
+    lo = min(t0, *reach, settings.use_t_min if settings.use_t_min is not None else np.inf)
+    hi = max(tn, *reach, settings.use_t_max if settings.use_t_max is not None else -np.inf)
+    if t0 - min(reach) > settings.max_anchor_extension:
         raise FitError(who.species_id, f"the data start at {t0:.6g} K, more than "
-                       f"{settings.max_anchor_extension:g} K above 298.15 K where H and S are "
-                       "anchored; add data down to 298.15 K")
+                       f"{settings.max_anchor_extension:g} K above {min(reach):.6g} K where H "
+                       f"and S are anchored; add data down to {min(reach):.6g} K")
     notes, extensions = [], []
     if who.phase != "g":
-        if tn < tref:
-            raise FitError(who.species_id, f"the data end at {tn:.6g} K, below 298.15 K where "
-                           "H and S are anchored; a condensed phase that exists only below "
-                           "298.15 K is anchored through its transitions, which this build "
-                           "cannot do yet")
-        if hi > tn or lo < min(t0, tref):
+        if max(reach) - tn > settings.max_anchor_extension:
+            raise FitError(who.species_id, f"the data end at {tn:.6g} K, more than "
+                           f"{settings.max_anchor_extension:g} K below {max(reach):.6g} K, "
+                           "which the phase must reach (its anchor or a transition); a "
+                           "condensed phase that exists only below 298.15 K is anchored "
+                           "through its transitions")
+        lo_c, hi_c = min(t0, *reach), max(tn, *reach)
+        if lo_c < t0 or hi_c > tn:
+            notes.append(("COV-EXTRAPOLATED", f"condensed phase: Cp is stretched from its data "
+                          f"({t0:.6g}-{tn:.6g} K) to {lo_c:.6g}-{hi_c:.6g} K to reach its "
+                          "anchor and transitions"))
+        if hi > hi_c or lo < lo_c:
             notes.append(("COV-EXTRAPOLATED", "condensed phase: the range of use is limited to "
-                          f"the data, {t0:.6g}-{tn:.6g} K (never extrapolated)"))
-        return min(t0, tref), tn, extensions, notes
+                          f"{lo_c:.6g}-{hi_c:.6g} K (never extrapolated further)"))
+        return lo_c, hi_c, extensions, notes
     guided = settings.extrapolate and who.geometry and who.atoms
     for side, target in (("high", hi), ("low", lo)):
         beyond = target > tn * 1.0001 if side == "high" else target < t0 * 0.9999
@@ -142,8 +155,7 @@ def _solve(who, form, rows, data: CpData, span, settings: FitSettings, fixed=Non
     edges = [lo] + list(bps) + [hi]
     if any(b <= lo or b >= hi for b in bps) or list(bps) != sorted(bps):
         raise FitError(who.species_id, f"breakpoints {bps} do not lie inside {lo:g}-{hi:g} K")
-    col_rows, col_y, col_sig = _column_observations(data, who.entropy_298, bps, edges, form,
-                                                    settings)
+    col_rows, col_y, col_sig = _column_observations(data, who, bps, edges, form, settings)
     a = np.vstack([basis.cp_rows(form.powers, all_t, bps)] + col_rows)
     y = np.concatenate([all_cp / R] + col_y)
     sig = np.concatenate([all_sig / R] + col_sig)
@@ -176,7 +188,8 @@ def fit_species(who: SpeciesIdentity, data: CpData, settings: FitSettings = FitS
     FitResult, whose ranges hold the coefficients of ``settings.form`` for T in kelvin.
     Raises FitError when the fit cannot be made and FitRejected when it fails acceptance.
     """
-    species_id, h298, s298 = who.species_id, who.enthalpy_of_formation_298, who.entropy_298
+    species_id = who.species_id
+    t_anchor, h_anchor, s_anchor = who.anchor
     form = forms.FORMS.get(settings.form)
     if form is None:
         raise FitError(species_id, f"form '{settings.form}' is not available; choose one of "
@@ -214,10 +227,10 @@ def fit_species(who: SpeciesIdentity, data: CpData, settings: FitSettings = FitS
     m = len(form.powers)
     scaled = sol.c.reshape(len(bps) + 1, m)
     cp_coeffs = [form.cp_coefficients(row) for row in scaled]
-    h0, s0 = integration_constants(form, cp_coeffs, edges, h298, s298)
+    h0, s0 = integration_constants(form, cp_coeffs, edges, h_anchor, s_anchor, t_anchor)
     ranges = tuple(FitRange(t_min=float(edges[j]), t_max=float(edges[j + 1]),
-                            coefficients=tuple(float(x) for x in form.pack(cp_coeffs[j], h0[j],
-                                                                           s0[j], h298)))
+                            coefficients=tuple(float(x) for x in form.pack(
+                                cp_coeffs[j], h0[j], s0[j], who.reference_h)))
                    for j in range(len(cp_coeffs)))
     scale = uncertainty.covariance_scale(sol, stated=u is not None)
     cov = sol.cov * scale
@@ -229,7 +242,7 @@ def fit_species(who: SpeciesIdentity, data: CpData, settings: FitSettings = FitS
                     extensions=tuple(extensions), notes=tuple(notes), weighting=weighting,
                     covariance=cov, model_error=model, covariance_scale=scale,
                     choice=fitted.choice)
-    return _judge(species_id, solved, data, settings)
+    return _judge(who, solved, data, settings)
 
 
 @dataclass(frozen=True)
@@ -249,9 +262,11 @@ class Solved:
     choice: object           # breakchoice.Choice of optimised breakpoints, or None
 
 
-def _judge(species_id: str, solved: Solved, data: CpData, settings: FitSettings) -> FitResult:
+def _judge(who: SpeciesIdentity, solved: Solved, data: CpData,
+           settings: FitSettings) -> FitResult:
     """The FitResult of ``solved`` with its quality against ``data``; FitRejected when it
     fails the acceptance thresholds of ``settings``."""
+    species_id = who.species_id
 
     form, ranges, sol, extensions = solved.form, solved.ranges, solved.solution, solved.extensions
     t, cp, dh, s = data.t, data.cp, data.dh, data.s
@@ -260,10 +275,9 @@ def _judge(species_id: str, solved: Solved, data: CpData, settings: FitSettings)
     rel = (ev["Cp"] - cp) / cp
     worst = int(np.argmax(np.abs(rel)))
     h_dev = s_dev = None
-    ref = forms.evaluate_ranges(rr, [REFERENCE_TEMPERATURE], form)
     if dh is not None and np.isfinite(dh).any():
         m = np.isfinite(dh)
-        h_dev = float(np.max(np.abs(ev["H"][m] - ref["H"][0] - dh[m])))
+        h_dev = float(np.max(np.abs(ev["H"][m] - who.reference_h - dh[m])))
     if s is not None and np.isfinite(s).any():
         m = np.isfinite(s)
         s_dev = float(np.max(np.abs(ev["S"][m] - s[m])))

@@ -5,7 +5,9 @@ Format (our own, read tolerantly): a header row naming the quantities ``T``, ``C
 with its unit (``header.py``: bracket, ``Q/unit`` and ``Q (unit)`` styles, or a units row),
 then rows of plain decimal numbers; comma, semicolon or tab between cells, a decimal comma
 where the delimiter is not a comma, ``#`` comment lines (``dialect.py``). ``T`` and ``Cp``
-are required; empty (or dash) cells are allowed in the optional columns only. Parsing never
+are required (``H-H298`` may stand in for ``Cp``: an enthalpy-increment table); a ``phase``
+column names the phase of each row; ``-(G-H298)/T`` is the Gibbs energy function; empty (or
+dash) cells are allowed in the optional columns only. Parsing never
 raises on bad input: it returns the rows it could read, how it read them, and a finding for
 each problem — or one finding naming the cause when no row could be read.
 """
@@ -17,7 +19,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 import pandas as pd
 
-from ..core import constants, units
+from ..core import constants, phases, units
 from ..core.errors import UnitError
 from ..core.findings import Finding, clip, finding
 from ..core.limits import MAX_COLUMNS, MAX_ROWS, PHYSICAL_RANGE
@@ -153,6 +155,9 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
     usable = []
     for col in cols:
         kind = COLUMNS[col.quantity][1]
+        if kind is None:
+            usable.append((col, None))
+            continue
         try:
             basis = units.check_unit(col.unit, kind)
             if basis == "mass" and molar_mass is None:
@@ -173,6 +178,9 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
     if len(rows) == 1:
         findings.append(finding("TAB-EMPTY", "the table has a header but no data rows",
                                 file=file, line=header_line, expected="data rows"))
+    have = {c.quantity for c, _ in usable}
+    if "T" not in have or not have & {"Cp", "H-H298"}:
+        rows = rows[:1] if len(rows) > 1 else rows   # no rows without T and Cp (or H-H298)
     values, lines_read, row_problems = _read_rows(rows[1:], len(header), usable, mark,
                                                   delimiter, file)
     if not lines_read and len(row_problems) > 1:
@@ -184,6 +192,9 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
     for k, (col, basis) in enumerate(usable):
         name, unit = col.quantity, col.unit
         internal, kind, _ = COLUMNS[name]
+        if kind is None:
+            frame[internal] = np.asarray(values[k], dtype=object)
+            continue
         frame[internal] = units.to_si(values[k], unit, kind, molar_mass)
         notes += _conversion_notes(name, unit, kind, basis, molar_mass)
         bad = _out_of_range(frame[internal], internal)
@@ -197,7 +208,8 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
                 expected=f"{lo:g} to {hi:g} {units.KINDS[kind][2]}"))
         keep &= ~bad
     frame = {c: v[keep] for c, v in frame.items()}
-    data = pd.DataFrame({c: frame[c] for c in DATA_COLUMNS})
+    data = pd.DataFrame({c: frame[c] for c in DATA_COLUMNS + (("phase",) if "phase" in frame
+                                                             else ())})
     if any(c.quantity == "u(Cp)" for c, _ in usable) and len(data):
         given = data["u_Cp"].notna()
         if given.any() and not given.all():
@@ -227,7 +239,7 @@ def _read_rows(rows, width, usable, mark, delimiter, file):
         parsed, ok = [], True
         for col, _ in usable:
             cell = cells[col.position]
-            required = COLUMNS[col.quantity][2]
+            required = COLUMNS[col.quantity][2] or COLUMNS[col.quantity][1] is None
             if cell in EMPTY_MARKS:
                 if required:
                     problems.append(finding("CELL-EMPTY", f"empty {col.quantity} cell", file=file,
@@ -235,6 +247,15 @@ def _read_rows(rows, width, usable, mark, delimiter, file):
                                             expected="a number"))
                     ok = False
                 parsed.append(math.nan)
+                continue
+            if COLUMNS[col.quantity][1] is None:         # the phase of the row
+                if not phases.is_phase(cell):
+                    problems.append(finding("CELL-NOT-PHASE", f"'{clip(cell, 40)}' is not a "
+                                            "phase", file=file, line=line, column="phase",
+                                            seen=clip(cell, 40),
+                                            expected="g, l, cr or cr-<form>, e.g. cr-alpha"))
+                    ok = False
+                parsed.append(cell)
                 continue
             number = parse_number(cell, mark)
             if number is None:

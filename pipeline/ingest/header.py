@@ -1,12 +1,15 @@
 """Which column holds which quantity, in which unit: the header, a units row, a mapping.
 
 A header cell names a quantity (case-insensitive: ``T``, ``Cp``, ``H-H298``, ``S``,
-``u(Cp)``, ``u(H-H298)``, ``u(S)``) followed by its unit in one of the styles tables are
+``-(G-H298)/T`` (or ``gef``, the Gibbs energy function), ``u(Cp)``, ``u(H-H298)``,
+``u(S)``) followed by its unit in one of the styles tables are
 written in: ``Cp [J/(mol*K)]``, ``Cp/(J K-1 mol-1)``, ``Cp / J·K⁻¹·mol⁻¹``, ``Cp (J/(mol K))``
 (``Cp/R`` is Cp in units of R, as the quantity-calculus convention reads it). A header
 without units may be followed by a units row (``K``, ``[K]`` or ``(K)`` under each column).
 Anything else is mapped in source.json: ``"columns": {"Temp (C)": {"quantity": "T",
 "unit": "degC"}}``; a mapping wins over what the file says, and says so in the notes.
+A ``phase`` column (no unit) gives the phase of each row of a table that holds several.
+``Cp`` may be missing when ``H-H298`` is given: an enthalpy-increment table.
 """
 
 import re
@@ -15,12 +18,14 @@ from dataclasses import dataclass
 from ..core import units
 from ..core.findings import Finding, clip, finding
 
-#: quantity -> (internal column, unit kind, required)
+#: quantity -> (internal column, unit kind (None: text without unit), required)
 COLUMNS = {
     "T": ("T", "temperature", True),
     "Cp": ("Cp", "heat_capacity", True),
     "H-H298": ("dH", "enthalpy", False),
     "S": ("S", "heat_capacity", False),
+    "-(G-H298)/T": ("gef", "heat_capacity", False),
+    "phase": ("phase", None, False),
     "u(Cp)": ("u_Cp", "heat_capacity", False),
     "u(H-H298)": ("u_dH", "enthalpy", False),
     "u(S)": ("u_S", "heat_capacity", False),
@@ -29,8 +34,11 @@ COLUMNS = {
 #: the quantity a column mapping may also name: read nothing from the column
 IGNORE = "ignore"
 
-_H = r"h°?\s*-\s*h°?\s*(?:\(\s*)?298(?:\.15)?(?:\s*k)?(?:\s*\))?"
+_H298 = r"h°?\s*(?:\(\s*)?298(?:\.15)?(?:\s*k)?(?:\s*\))?"
+_H = rf"h°?\s*-\s*{_H298}"
 _NAME_PATTERNS = [(name, re.compile(pattern, re.IGNORECASE)) for name, pattern in (
+    ("-(G-H298)/T", rf"(?:-\s*\(\s*g°?\s*-\s*{_H298}\s*\)\s*/\s*t\b|gef\b)"),
+    ("phase", r"phase\b"),
     ("u(H-H298)", rf"u\(\s*{_H}\s*\)"),
     ("u(Cp)", r"u\(\s*c\s*p°?\s*\)"),
     ("u(S)", r"u\(\s*s°?\s*\)"),
@@ -111,7 +119,7 @@ def layout(header, units_row, mapping, file: str, line: int):
             spec = mapping[written]
             if spec["quantity"] == IGNORE:
                 continue
-            name, unit, origin = spec["quantity"], spec["unit"], "mapping"
+            name, unit, origin = spec["quantity"], spec.get("unit", ""), "mapping"
         else:
             name, unit = split_cell(written)
             origin = "header"
@@ -125,7 +133,9 @@ def layout(header, units_row, mapping, file: str, line: int):
                 continue
             below = unit_cell(units_row[pos]) if units_row is not None and pos < len(units_row) \
                 else ""
-            if unit is None and below:
+            if COLUMNS[name][1] is None:
+                unit = ""              # a text column: no unit
+            elif unit is None and below:
                 unit, origin = below, "units row"
             elif unit and below and below.replace(" ", "") != unit.replace(" ", ""):
                 problems.append(finding(
@@ -133,7 +143,7 @@ def layout(header, units_row, mapping, file: str, line: int):
                     f"but the units row under it says [{clip(below, 30)}]", file=file,
                     line=line + 1, column=name, seen=clip(below, 30), expected=clip(unit, 30)))
                 continue
-            if not unit:
+            if not unit and COLUMNS[name][1] is not None:
                 problems.append(finding(
                     "COL-NO-UNIT", f"column '{clip(written, 40)}' has no unit", file=file,
                     line=line, column=clip(written, 40),
@@ -153,7 +163,8 @@ def layout(header, units_row, mapping, file: str, line: int):
                                 expected="a header cell as written: " +
                                 clip(", ".join(c.strip() for c in header), 80)))
     for name, (_, _, required) in COLUMNS.items():
-        if required and name not in seen:
+        increments = name == "Cp" and "H-H298" in seen   # Cp comes from fitting H - H298
+        if required and name not in seen and not increments:
             problems.append(finding("COL-REQUIRED", f"required column '{name}' is missing",
                                     file=file, line=line, column=name,
                                     seen=clip(", ".join(c.strip() for c in header), 80) or "(none)",

@@ -9,14 +9,14 @@ import hashlib
 from dataclasses import dataclass
 from pathlib import Path
 
-from ..core import chemistry, constants, jsonread, schemas, units
+from ..core import chemistry, constants, jsonread, phases, schemas, units
 from ..core.errors import InputError
 from ..core.findings import Finding, clip, finding, stage_failed
 from ..core.limits import ANCHOR_RANGE, MAX_SOURCE_BYTES, MAX_TABLE_BYTES, MAX_TABLES_PER_SOURCE
 from ..core.names import sha256
-from ..core.records import InputFile, SourceMeta, Table, TableMeta
+from ..core.records import InputFile, SourceMeta, Table, TableMeta, Transition
 from ..physics import statmech
-from . import csvtable, dialect
+from . import csvtable, dialect, phased
 
 
 @dataclass(frozen=True)
@@ -26,6 +26,7 @@ class IngestResult:
     tables: tuple          # of Table (possibly with error findings against them)
     findings: tuple        # of Finding
     inputs: tuple          # of InputFile, sorted by path
+    transitions: tuple = ()  # of Transition, as the sources state them
 
 
 def discover(raw_dir: Path) -> tuple[list[Path], list[Finding]]:
@@ -78,6 +79,32 @@ def parse_source(text: str, *, file: str, folder: str, digest: str):
     return meta, doc["tables"], []
 
 
+def parse_transitions(doc_entries, source: SourceMeta):
+    """(Transition records, findings) of the 'transitions' of a source.json."""
+    out, problems = [], []
+    rel = f"{source.folder}/source.json"
+    for index, entry in enumerate(doc_entries):
+        values = {}
+        for key, kind in (("temperature", "temperature"), ("enthalpy", "enthalpy"),
+                          ("u_enthalpy", "enthalpy")):
+            if key not in entry:
+                values[key] = None
+                continue
+            try:
+                values[key] = quantity(entry[key], kind, f"transition_{key}")
+            except InputError as exc:
+                problems.append(finding("SRC-QUANTITY", exc.what, source=source.id, file=rel,
+                                        column=f"transitions/{index}/{key}",
+                                        seen=clip(entry[key]), expected=exc.expected))
+        if values["temperature"] is None or values["enthalpy"] is None or (
+                "u_enthalpy" in entry and values["u_enthalpy"] is None):
+            continue
+        out.append(Transition(species=entry["species"], lower=entry["from"], upper=entry["to"],
+                              temperature=values["temperature"], enthalpy=values["enthalpy"],
+                              u_enthalpy=values["u_enthalpy"], source=source, index=index))
+    return out, problems
+
+
 def quantity(text: str, kind: str, field: str) -> float:
     """A quantity of source.json in SI, checked against its physical range (ANCHOR_RANGE)."""
     value = units.parse_quantity(text, kind)
@@ -95,6 +122,8 @@ def _schema_message(error) -> str:
 
 
 def _expected(error) -> str:
+    if error.validator == "pattern" and error.validator_value == phases.PHASE_PATTERN:
+        return "a phase: g, l, cr or cr-<form> (e.g. cr-alpha)"
     if error.validator == "enum":
         return "one of " + ", ".join(map(str, error.validator_value))
     if error.validator in ("type", "pattern", "minimum", "maximum", "minLength", "const"):
@@ -109,28 +138,29 @@ def _expected(error) -> str:
 
 
 def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, index: int = 0):
-    """Read one table listed in source.json -> (Table or None, InputFile or None, findings)."""
+    """Read one table listed in source.json -> (tables, InputFile or None, findings): one
+    table per phase it holds (phased.py); none when it cannot be read at all."""
     rel = f"{source.folder}/{entry['file']}"
     where = dict(source=source.id, file=rel)
     path = folder / entry["file"]
     problems: list[Finding] = []
     if path.is_symlink() or not _inside(path, raw_dir):
-        return None, None, [finding("SRC-PATH", "table is a link or lies outside raw/; not read",
-                                    **where)]
+        return [], None, [finding("SRC-PATH", "table is a link or lies outside raw/; not read",
+                                  **where)]
     listed_at = dict(source=source.id, file=f"{source.folder}/source.json",
                      column=f"tables/{index}/file", seen=entry["file"], extra={"table": rel})
     if not path.exists():
-        return None, None, [finding("TAB-MISSING", f"listed table {entry['file']} does not exist",
-                                    **listed_at)]
+        return [], None, [finding("TAB-MISSING", f"listed table {entry['file']} does not exist",
+                                  **listed_at)]
     if not path.is_file():
         kind = "a folder" if path.is_dir() else "not a regular file (a pipe or device?)"
-        return None, None, [finding("TAB-NOT-FILE", f"listed table {entry['file']} is {kind}",
-                                    expected="a plain CSV file", **listed_at)]
+        return [], None, [finding("TAB-NOT-FILE", f"listed table {entry['file']} is {kind}",
+                                  expected="a plain CSV file", **listed_at)]
     size = path.stat().st_size
     if size > MAX_TABLE_BYTES:
-        return None, None, [finding("TAB-TOO-LARGE", f"the file is {size} bytes; the limit is "
-                                    f"{MAX_TABLE_BYTES}", seen=str(size),
-                                    expected=f"<= {MAX_TABLE_BYTES} bytes", **where)]
+        return [], None, [finding("TAB-TOO-LARGE", f"the file is {size} bytes; the limit is "
+                                  f"{MAX_TABLE_BYTES}", seen=str(size),
+                                  expected=f"<= {MAX_TABLE_BYTES} bytes", **where)]
     raw = path.read_bytes()
     digest = sha256(raw)
     infile = InputFile(path=rel, sha256=digest, size=len(raw))
@@ -144,6 +174,9 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
                                 seen=entry["formula"], expected=exc.expected))
     anchors = {}
     for key, kind in (("enthalpy_of_formation_298", "enthalpy"), ("entropy_298", "heat_capacity")):
+        if key not in entry:           # a phase reached through its transitions
+            anchors[key] = None
+            continue
         try:
             anchors[key] = quantity(entry[key], kind, key)
         except InputError as exc:
@@ -154,7 +187,7 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
                                     seen=clip(entry[key]), expected=exc.expected))
     notes = []
     s298 = anchors["entropy_298"]
-    gas_at_other_pressure = (entry["phase"] == "g"
+    gas_at_other_pressure = (entry.get("phase") == "g"
                              and source.standard_pressure != constants.STANDARD_PRESSURE)
     if s298 is not None and gas_at_other_pressure:
         shift = statmech.entropy_shift_to_standard(source.standard_pressure)
@@ -169,11 +202,11 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
     else:
         parsed = csvtable.parse_table(text, file=rel, molar_mass=molar_mass,
                                       standard_pressure=source.standard_pressure,
-                                      phase=entry["phase"], columns=entry.get("columns"),
+                                      phase=entry.get("phase"), columns=entry.get("columns"),
                                       encoding=encoding)
         problems += [f.located(source=source.id) for f in parsed.findings]
     meta = TableMeta(source=source, file=rel, species=entry["species"], formula=entry["formula"],
-                     phase=entry["phase"], geometry=entry.get("geometry"),
+                     phase=entry.get("phase") or "", geometry=entry.get("geometry"),
                      molar_mass=molar_mass, atoms=comp.atoms if comp else None,
                      enthalpy_of_formation_298=anchors["enthalpy_of_formation_298"],
                      entropy_298=s298, sha256=digest, size=len(raw),
@@ -186,7 +219,12 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
                          for k, v in entry.get("fit", {}).items())),
                      reading=parsed.reading if parsed else {"encoding": encoding or None})
     data = parsed.data if parsed else csvtable.empty_frame()
-    return Table(meta=meta, data=data), infile, problems
+    if text is None and entry.get("phase") is None:
+        return [], infile, problems
+    if text is None:
+        return [Table(meta=meta, data=data)], infile, problems
+    tables, more = phased.split(meta, data, entry)
+    return tables, infile, problems + more
 
 
 def _guarded_read(folder, entry, source, raw_dir, index):
@@ -195,7 +233,7 @@ def _guarded_read(folder, entry, source, raw_dir, index):
         return read_table(folder, entry, source, raw_dir, index)
     except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
         rel = f"{source.folder}/{entry.get('file', '?')}"
-        return None, None, [stage_failed("ingest", exc, source=source.id, file=rel)]
+        return [], None, [stage_failed("ingest", exc, source=source.id, file=rel)]
 
 
 def _inside(path: Path, root: Path) -> bool:
@@ -212,7 +250,7 @@ def ingest(raw_dir) -> IngestResult:
     if not raw_dir.is_dir():
         raise InputError(f"raw folder {raw_dir} does not exist", expected="a folder of sources")
     folders, findings = discover(raw_dir)
-    tables, inputs, seen_ids = [], [], {}
+    tables, inputs, seen_ids, transitions = [], [], {}, []
     for folder in folders:
         meta_path = folder / "source.json"
         rel = f"{folder.name}/source.json"
@@ -237,28 +275,32 @@ def ingest(raw_dir) -> IngestResult:
         findings += problems
         if source is None:
             continue
+        stated, problems = parse_transitions(jsonread.loads(text, file=rel).get(
+            "transitions", []), source)
+        findings += problems
         if source.id in seen_ids:
             findings.append(finding("SRC-DUPLICATE-ID", f"source id '{source.id}' is also "
                                     f"declared in {seen_ids[source.id]}", file=rel,
                                     column="source", seen=source.id))
             continue
         seen_ids[source.id] = rel
+        transitions += stated
         listed = set()
         for index, entry in enumerate(entries):
             listed.add(entry["file"])
-            table, infile, problems = _guarded_read(folder, entry, source, raw_dir, index)
+            read, infile, problems = _guarded_read(folder, entry, source, raw_dir, index)
             findings += problems
             if infile:
                 inputs.append(infile)
-            if table is not None:
-                tables.append(table)
+            tables += read
         for csv_path in sorted(folder.glob("*.csv")):
             if csv_path.name not in listed:
                 findings.append(finding("TAB-UNLISTED", f"{csv_path.name} is not listed in "
                                         "source.json; not read", source=source.id,
                                         file=f"{folder.name}/{csv_path.name}"))
     inputs.sort(key=lambda f: f.path)
-    return IngestResult(tables=tuple(tables), findings=tuple(findings), inputs=tuple(inputs))
+    return IngestResult(tables=tuple(tables), findings=tuple(findings), inputs=tuple(inputs),
+                        transitions=tuple(transitions))
 
 
 def inputs_digest(inputs) -> str:

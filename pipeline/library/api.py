@@ -19,7 +19,6 @@ from pathlib import Path
 
 import numpy as np
 
-from ..core.constants import REFERENCE_TEMPERATURE
 from ..core.errors import SpeciesNotFound
 from ..physics import forms
 from . import document
@@ -47,15 +46,17 @@ class Species:
     S is at the standard pressure of 1 bar; G = H − T S.
     """
 
-    def __init__(self, entry: dict):
+    def __init__(self, entry: dict, transitions=()):
         self.entry = entry
+        self.transitions = tuple(x for x in transitions if entry["id"] in (x["from"], x["to"]))
         self.id: str = entry["id"]
         self.formula: str = entry["formula"]
         self.phase: str = entry["phase"]
         self.form: str = entry["form"]
         self.molar_mass: float = entry["molar_mass"]                          # [g/mol]
-        self.enthalpy_of_formation_298: float = entry["enthalpy_of_formation_298"]  # [J/mol]
-        self.entropy_298: float = entry["entropy_298"]                        # [J/(mol K)]
+        # [J/mol] and [J/(mol K)]; None for a phase reached through transitions
+        self.enthalpy_of_formation_298: float | None = entry["enthalpy_of_formation_298"]
+        self.entropy_298: float | None = entry["entropy_298"]
         self.t_min: float = entry["ranges"][0]["t_min"]                      # [K]
         self.t_max: float = entry["ranges"][-1]["t_max"]                     # [K]
         self.data_range: tuple = (entry["data_range"]["t_min"], entry["data_range"]["t_max"])
@@ -105,10 +106,11 @@ class Species:
 
     @property
     def h298(self) -> float:
-        """H(298.15 K) [J/mol] as the coefficients give it (equal to ΔfH° to round-off)."""
+        """H(298.15 K) [J/mol] that H − H298 counts from: as the coefficients give it (equal
+        to ΔfH° to round-off), or, for a phase reached through transitions, H(298.15 K) of
+        the phase stable there."""
         if self._h298 is None:
-            self._h298 = float(forms.evaluate_ranges(self._ranges, [REFERENCE_TEMPERATURE],
-                                                     self.form)["H"][0])
+            self._h298 = document.enthalpy_zero(self.entry)
         return self._h298
 
     def uncertainty(self, temperature) -> dict:
@@ -131,7 +133,7 @@ class Species:
         """The evaluated table as columns of arrays: at ``temperatures`` [K], or at 298.15 K
         and every ``step`` K over the range of use (see ``library.tables``)."""
         points = None if temperatures is None else self._checked(temperatures)[0]
-        return species_rows(self.entry, step, points)
+        return species_rows(self.entry, step, points, self.transitions)
 
     def to_pandas(self, temperatures=None, step: float = 100.0):
         """``table`` as a pandas DataFrame, one row per temperature."""
@@ -186,8 +188,15 @@ class Library:
         case), in ``phase`` when given."""
         sid = self._resolve(name, phase)
         if sid not in self._cache:
-            self._cache[sid] = Species(self._entries[sid])
+            self._cache[sid] = Species(self._entries[sid], self.document.get("transitions", ()))
         return self._cache[sid]
+
+    def stable(self, name: str, temperature: float) -> Species:
+        """The phase of ``name`` stable at ``temperature`` [K] when the library links its
+        phases by transitions (the phase below at a transition temperature), else the one
+        species ``name`` means."""
+        t, _ = _kelvin(temperature)
+        return self.get(document.phases_at(self.document, name, [float(t)])[0])
 
     def _resolve(self, name: str, phase: str | None) -> str:
         return document.resolve_id(self._entries, name, phase)
@@ -197,7 +206,8 @@ class Library:
         species)."""
         import pandas as pd
 
-        frames = [pd.DataFrame(species_rows(self._entries[i], step)) for i in self.ids]
+        trs = self.document.get("transitions", ())
+        frames = [pd.DataFrame(species_rows(self._entries[i], step, None, trs)) for i in self.ids]
         return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame()
 
 

@@ -75,6 +75,46 @@ def resolve_id(ids, name: str, phase: str | None = None) -> str:
     raise SpeciesNotFound(name, _close(name, ids))
 
 
+def phases_at(doc: dict, name: str, temperatures, phase: str | None = None) -> list:
+    """The species id to evaluate at each of ``temperatures`` [K]: the one ``name`` (and
+    ``phase``) means, or, for a name whose phases are linked by transitions, the phase
+    stable at each temperature (the phase below at a transition temperature itself).
+    SpeciesNotFound or InputError (outside every phase's stable range) otherwise."""
+    by_id = {s["id"]: s for s in doc["species"]}
+    try:
+        return [resolve_id(by_id, name, phase)] * len(temperatures)
+    except SpeciesNotFound as exc:
+        chain = [x for x in doc.get("transitions", [])
+                 if isinstance(name, str) and x["species"].casefold() == name.casefold()]
+        if not (exc.ambiguous and chain):
+            raise
+    ids = [chain[0]["from"]] + [x["to"] for x in chain]
+    temps = [by_id[ids[0]]["ranges"][0]["t_min"]] + [x["temperature"] for x in chain] + \
+        [by_id[ids[-1]]["ranges"][-1]["t_max"]]
+    out = []
+    for t in temperatures:
+        k = next((k for k in range(len(ids)) if temps[k] <= t <= temps[k + 1]), None)
+        if k is None:
+            raise InputError(f"T = {t:g} K is outside the range where a phase of {name} is "
+                             "stable in the library", expected=f"{temps[0]:g} K <= T <= "
+                             f"{temps[-1]:g} K")
+        out.append(ids[k])
+    return out
+
+
+def evaluate_phases(doc: dict, ids, temperatures) -> dict:
+    """``evaluate_entry`` of entry ``ids[i]`` at ``temperatures[i]`` [K], row by row."""
+    by_id = {s["id"]: s for s in doc["species"]}
+    t = np.asarray(temperatures, dtype=float)
+    out = {}
+    for sid in dict.fromkeys(ids):
+        rows = np.array([i for i, x in enumerate(ids) if x == sid])
+        got = evaluate_entry(by_id[sid], t[rows])
+        for k, v in got.items():
+            out.setdefault(k, np.zeros(len(t), dtype=v.dtype))[rows] = v
+    return out
+
+
 def _close(name: str, ids) -> tuple:
     """Up to three ids whose id or name (without the phase) is close to ``name``, in any
     case."""
@@ -117,36 +157,57 @@ def evaluate_entry(species: dict, temperatures) -> dict:
 def uncertainty(species: dict, t) -> dict:
     """Standard uncertainties of Cp [J/(mol K)], H [J/mol], S [J/(mol K)] at ``t`` [K] by the
     library's convention (fit/uncertainty.py): the parameter share from the stored covariance
-    of the scaled coefficients (H and S relative to their exact 298.15 K anchors), the model
-    error of the form in each range, and the extrapolation model's share, whose integral from
-    298.15 K enters H and S; the shares are added in quadrature."""
+    of the scaled coefficients (H and S relative to their exact anchors at 298.15 K or at a
+    transition), the model error of the form in each range, the extrapolation model's share,
+    whose integral from 298.15 K enters H and S, and for a phase reached through transitions
+    the stated u(ΔH_trs) of each transition on the way (u/T_trs for S); the shares are added
+    in quadrature."""
     t = np.atleast_1d(np.asarray(t, dtype=float))
     unc = species.get("uncertainty") or {}
     cov = np.asarray(unc.get("covariance") or [], dtype=float)
     powers = unc.get("powers") or []
     bps = species.get("breakpoints", [])
     edges = [species["ranges"][0]["t_min"]] + list(bps) + [species["ranges"][-1]["t_max"]]
+    tref = anchor_temperature(species)
     out = {"u_Cp": np.zeros_like(t), "u_H": np.zeros_like(t), "u_S": np.zeros_like(t)}
     if cov.size:
         for key, rows in (("u_Cp", basis.cp_rows(powers, t, bps)),
-                          ("u_H", basis.integral_rows(powers, t, bps, edges, "H")),
-                          ("u_S", basis.integral_rows(powers, t, bps, edges, "S"))):
+                          ("u_H", basis.integral_rows(powers, t, bps, edges, "H", tref)),
+                          ("u_S", basis.integral_rows(powers, t, bps, edges, "S", tref))):
             out[key] = R * basis.standard_deviation(rows, cov)
-    for key, share in _model_share(unc.get("model_error") or [], bps, t).items():
+    for key, share in _model_share(unc.get("model_error") or [], bps, t, tref).items():
         out[key] = np.hypot(out[key], share)
     for key, share in _extrapolation_share(species, t).items():
         out[key] = np.hypot(out[key], share)
+    anchor = species.get("anchor") or {}
+    out["u_H"] = np.hypot(out["u_H"], anchor.get("u_enthalpy", 0.0))
+    out["u_S"] = np.hypot(out["u_S"], anchor.get("u_entropy", 0.0))
     return out
 
 
-def _model_share(model_error, bps, t) -> dict:
+def anchor_temperature(species: dict) -> float:
+    """T [K] where H and S of a library entry are fixed: 298.15 K, or the transition a phase
+    is reached through."""
+    return (species.get("anchor") or {}).get("temperature", REFERENCE_TEMPERATURE)
+
+
+def enthalpy_zero(species: dict) -> float:
+    """H(298.15 K) [J/mol] that H − H298 of a library entry counts from: its own ΔfH°, or
+    that of the phase stable at 298.15 K for a phase reached through transitions."""
+    a = species.get("anchor")
+    if a:
+        return a["enthalpy_zero"]
+    return float(forms.evaluate_ranges(ranges_of(species), [REFERENCE_TEMPERATURE],
+                                       species["form"])["H"][0])
+
+
+def _model_share(model_error, bps, t, tref=REFERENCE_TEMPERATURE) -> dict:
     """The form's own misfit by range; for H and S never more than the Cp share integrated
-    from 298.15 K (they are exact there)."""
+    from the anchor temperature ``tref`` [K] (they are exact there)."""
     if not model_error:
         return {}
     j = forms.range_of(t, bps)
     cp, h, s = (np.array([m[k] for m in model_error])[j] for k in ("cp", "h", "s"))
-    tref = REFERENCE_TEMPERATURE
     return {"u_Cp": cp, "u_H": np.minimum(h, cp * np.abs(t - tref)),
             "u_S": np.minimum(s, cp * np.abs(np.log(t / tref)))}
 

@@ -2,40 +2,77 @@
 
 For every species, at 298.15 K and then every ``step`` kelvin (or a given grid) over its
 range of use, with the standard uncertainties of the fit and a flag for rows outside the
-data (extrapolated). ``release.tables`` writes them as Parquet and CSV.
+data (extrapolated). A phase linked to others by transitions also has a row at each of its
+transition temperatures, and ``stable`` says where it is the stable phase; the stable rows
+of all the phases of a species, in order of temperature, make the table published
+thermochemical tables show, with H − H298 and S just below and just above each transition
+(``stable_rows``). ``release.tables`` writes them as Parquet and CSV.
 """
 
 import numpy as np
 
 from ..core.constants import REFERENCE_TEMPERATURE
-from ..physics import forms
 from . import document as library
 
-COLUMNS = ("id", "T", "Cp", "u_Cp", "H_minus_H298", "u_H", "S", "u_S", "gef", "H",
-           "extrapolated")
+COLUMNS = ("id", "phase", "T", "Cp", "u_Cp", "H_minus_H298", "u_H", "S", "u_S", "gef", "H",
+           "stable", "extrapolated")
+TEXT = ("id", "phase")
+FLAGS = ("stable", "extrapolated")
 HEADERS = {"gef": "gef = -(G-H298)/T"}  # the Gibbs energy function
 UNITS = {"T": "K", "Cp": "J/(mol*K)", "u_Cp": "J/(mol*K)", "H_minus_H298": "J/mol",
          "u_H": "J/mol", "S": "J/(mol*K)", "u_S": "J/(mol*K)", "gef": "J/(mol*K)", "H": "J/mol"}
 
 
-def grid(t_min, t_max, step=100.0, points=None):
-    """298.15 K (when in range), then every ``step`` K inside [t_min, t_max], ends included."""
+def grid(t_min, t_max, step=100.0, points=None, extra=()):
+    """298.15 K (when in range), then every ``step`` K inside [t_min, t_max], ends and the
+    ``extra`` temperatures inside included."""
     if points is not None:
         t = np.asarray(sorted(points), dtype=float)
         return t[(t >= t_min) & (t <= t_max)]
     t = np.arange(np.ceil(t_min / step) * step, t_max + step, step)
-    t = np.concatenate([[t_min], t[(t > t_min) & (t < t_max)], [t_max]])
+    t = np.concatenate([[t_min], t[(t > t_min) & (t < t_max)], [t_max],
+                        [x for x in extra if t_min <= x <= t_max]])
     if t_min <= REFERENCE_TEMPERATURE <= t_max:
         t = np.append(t, REFERENCE_TEMPERATURE)
     return np.unique(t)
 
 
-def species_rows(sp, step=100.0, points=None) -> dict:
-    """Columns of the evaluated table of one library species entry."""
-    t = grid(sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"], step, points)
+def stable_interval(sp, transitions=()) -> tuple:
+    """(T_lo, T_hi) [K] where the phase of entry ``sp`` is the stable one: between the
+    transitions into and out of it, else its whole range of use."""
+    lo, hi = sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"]
+    for x in transitions:
+        if x["to"] == sp["id"]:
+            lo = x["temperature"]
+        if x["from"] == sp["id"]:
+            hi = x["temperature"]
+    return lo, hi
+
+
+def species_rows(sp, step=100.0, points=None, transitions=()) -> dict:
+    """Columns of the evaluated table of one library species entry; ``transitions`` those of
+    the library (rows at the entry's transition temperatures, and where it is stable)."""
+    mine = [x["temperature"] for x in transitions if sp["id"] in (x["from"], x["to"])]
+    t = grid(sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"], step, points, mine)
     ev = library.evaluate_entry(sp, t)
-    h298 = forms.evaluate_ranges(library.ranges_of(sp), [REFERENCE_TEMPERATURE], sp["form"])["H"][0]
-    return {"id": [sp["id"]] * len(t), "T": t, "Cp": ev["Cp"], "u_Cp": ev["u_Cp"],
-            "H_minus_H298": ev["H"] - h298, "u_H": ev["u_H"], "S": ev["S"], "u_S": ev["u_S"],
-            "gef": -(ev["G"] - h298) / t, "H": ev["H"],
+    h298 = library.enthalpy_zero(sp)
+    lo, hi = stable_interval(sp, transitions)
+    return {"id": [sp["id"]] * len(t), "phase": [sp.get("phase", "")] * len(t), "T": t,
+            "Cp": ev["Cp"], "u_Cp": ev["u_Cp"], "H_minus_H298": ev["H"] - h298,
+            "u_H": ev["u_H"], "S": ev["S"], "u_S": ev["u_S"], "gef": -(ev["G"] - h298) / t,
+            "H": ev["H"], "stable": (t >= lo) & (t <= hi),
             "extrapolated": ev["extrapolated"].astype(bool)}
+
+
+def stable_rows(doc, name, step=100.0) -> dict:
+    """The table of species ``name`` across its phases: at each temperature the stable
+    phase (named in 'phase'), both phases at a transition (below, then above)."""
+    chain = [x for x in doc.get("transitions", []) if x["species"] == name]
+    ids = [chain[0]["from"]] + [x["to"] for x in chain]
+    by_id = {s["id"]: s for s in doc["species"]}
+    parts = [species_rows(by_id[i], step, None, chain) for i in ids if i in by_id]
+    keep = [np.asarray(p["stable"]) for p in parts]
+    out = {c: np.concatenate([np.asarray(p[c])[k] for p, k in zip(parts, keep)])
+           for c in COLUMNS}
+    order = np.argsort(out["T"], kind="stable")       # phases in order: below, then above
+    return {c: v[order] for c, v in out.items()}

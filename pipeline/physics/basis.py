@@ -83,16 +83,16 @@ def _piece(powers, lo, hi, kind):
     return np.array([i0(p, th) - i0(p, tl) for p in powers]).T
 
 
-def integral_rows(powers, t, breakpoints, edges, kind):
-    """Rows of (H(T) − H(298.15))/R [K] (kind 'H') or (S(T) − S(298.15))/R [-] (kind 'S').
+def integral_rows(powers, t, breakpoints, edges, kind, tref=REFERENCE_TEMPERATURE):
+    """Rows of (H(T) − H(tref))/R [K] (kind 'H') or (S(T) − S(tref))/R [-] (kind 'S'),
+    tref [K] 298.15 K unless a phase is anchored elsewhere (at a transition).
 
-    The integral from 298.15 K to T runs through every range it crosses; ``edges`` are
+    The integral from tref to T runs through every range it crosses; ``edges`` are
     [t_min, b1, ..., t_max] [K] (the outer edges only bound the first and last range).
     """
     t = np.atleast_1d(np.asarray(t, dtype=float))
     m, nr = len(powers), len(breakpoints) + 1
     inner = [-np.inf] + list(breakpoints) + [np.inf]
-    tref = REFERENCE_TEMPERATURE
     out = np.zeros((len(t), nr * m))
     lo_all = np.minimum(t, tref)
     hi_all = np.maximum(t, tref)

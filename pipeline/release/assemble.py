@@ -4,8 +4,8 @@ tables, report, schemas, provenance, manifest and Data Package, as {relative pat
 from dataclasses import dataclass
 
 import numpy as np
+import pandas as pd
 
-from ..core.constants import REFERENCE_TEMPERATURE
 from ..core.names import file_stems
 from ..core.records import CheckResult
 from ..core.settings import Settings
@@ -61,7 +61,10 @@ def plot_points(doc: dict, checked: CheckResult) -> dict:
     """Per species: the rows used [K, J/(mol K)] and left out, and the deviations of the fit
     from the table's H-H298 [J/mol] and S [J/(mol K)] columns, for the report's plots."""
     by_sel = {s.species_id: s for s in checked.selections}
-    rows_of = {t.meta.file: t.data for t in checked.tables}
+    rows_of = {}
+    for t in checked.tables:               # the phases of one file together
+        rows_of[t.meta.file] = pd.concat([rows_of[t.meta.file], t.data]) \
+            if t.meta.file in rows_of else t.data
     out = {}
     for sp in doc["species"]:
         d = by_sel[sp["id"]].data
@@ -74,7 +77,7 @@ def plot_points(doc: dict, checked: CheckResult) -> dict:
             cp_out += hit["Cp"].tolist()
         p["t_out"], p["cp_out"] = np.array(t_out), np.array(cp_out)
         rr = library.ranges_of(sp)
-        h298 = forms.evaluate_ranges(rr, [REFERENCE_TEMPERATURE], sp["form"])["H"][0]
+        h298 = library.enthalpy_zero(sp)
         for col, key in (("dH", "dh"), ("S", "s")):
             m = d[col].notna().to_numpy()
             if m.any():

@@ -55,14 +55,15 @@ def species_entry(fitted) -> dict:
     """library.json entry of one FittedSpecies."""
     meta, fit = fitted.table.meta, fitted.fit
     sources = [_source_ref(u) for u in fitted.uses]
-    return {
+    own = fitted.anchor.get("basis", "own") == "own"
+    entry = {
         "id": meta.species_id,
         "formula": meta.formula,
         "phase": meta.phase,
         "geometry": meta.geometry,
         "molar_mass": meta.molar_mass,
-        "enthalpy_of_formation_298": meta.enthalpy_of_formation_298,
-        "entropy_298": meta.entropy_298,
+        "enthalpy_of_formation_298": meta.enthalpy_of_formation_298 if own else None,
+        "entropy_298": meta.entropy_298 if own else None,
         "form": fit.form,
         "ranges": [{"t_min": r.t_min, "t_max": r.t_max, "coefficients": list(r.coefficients)}
                    for r in fit.ranges],
@@ -87,6 +88,23 @@ def species_entry(fitted) -> dict:
         "conversions": list(meta.notes),
         "findings": [f.to_dict() for f in sorted(fitted.findings, key=lambda f: f.sort_key())],
     }
+    if fitted.anchor:
+        entry["anchor"] = dict(fitted.anchor)
+    return entry
+
+
+def transition_entries(chains, ids) -> list:
+    """library.json 'transitions': every transition of ``chains`` whose two phases are among
+    the species ``ids`` of the library, by species and temperature."""
+    out = []
+    for c in sorted(chains, key=lambda c: c.species):
+        for x in c.transitions:
+            if x.lower_id in ids and x.upper_id in ids:
+                out.append({"species": c.species, "from": x.lower_id, "to": x.upper_id,
+                            "temperature": x.temperature, "enthalpy": x.enthalpy,
+                            "u_enthalpy": x.u_enthalpy, "entropy": x.entropy,
+                            "source": x.source.id, "citation": x.source.citation})
+    return out
 
 
 def non_finite(doc, path="") -> str:
@@ -116,13 +134,15 @@ def _source_ref(use) -> dict:
 
 
 def library_document(fitted, quarantined, inputs_sha256: str, settings: dict,
-                     entries=None) -> dict:
+                     entries=None, chains=()) -> dict:
     """The whole library.json document.
 
     ``quarantined`` is a sequence of (TableMeta, findings) for tables left out; ``entries``
-    optionally maps species ids to their species_entry, already made.
+    optionally maps species ids to their species_entry, already made; ``chains`` the phase
+    chains of the build (their transitions between fitted phases are listed).
     """
     entries = entries or {}
+    ids = {s.table.meta.species_id for s in fitted}
     return {
         "library_format": 1,
         "notice": NOTICE,
@@ -134,6 +154,7 @@ def library_document(fitted, quarantined, inputs_sha256: str, settings: dict,
                   "settings": settings, "manifest": "manifest.json"},
         "species": [entries.get(s.table.meta.species_id) or species_entry(s)
                     for s in sorted(fitted, key=lambda s: s.table.meta.species_id)],
+        "transitions": transition_entries(chains, ids),
         "quarantined": [
             {"id": meta.species_id, "source": meta.source.id, "file": meta.file,
              "reasons": [f.to_dict() for f in sorted(reasons, key=lambda f: f.sort_key())]}
@@ -175,9 +196,15 @@ def json_bytes(doc) -> bytes:
 #: descriptor (provenance.py) and the Parquet writer both read this list
 LIBRARY_PARQUET_COLUMNS = [
     ("id", "string", "species id, formula(phase)"), ("formula", "string", ""),
-    ("phase", "string", "g, l or cr"), ("geometry", "string", ""),
+    ("phase", "string", "g, l, cr or cr-<form>"), ("geometry", "string", ""),
     ("molar_mass", "number", "g/mol"), ("enthalpy_of_formation_298", "number", "J/mol"),
-    ("entropy_298", "number", "J/(mol K), 1 bar"), ("form", "string", "nasa7, nasa9, shomate"),
+    ("entropy_298", "number", "J/(mol K), 1 bar; empty for a phase reached through transitions"),
+    ("anchor_basis", "string", "own (ΔfH°, S° at 298.15 K) or transition"),
+    ("anchor_temperature", "number", "K, where H and S are fixed"),
+    ("anchor_enthalpy", "number", "J/mol, H at anchor_temperature"),
+    ("anchor_entropy", "number", "J/(mol K), S at anchor_temperature"),
+    ("enthalpy_zero", "number", "J/mol, H(298.15 K) of the phase stable there: zero of H-H298"),
+    ("form", "string", "nasa7, nasa9, shomate"),
     ("range_index", "integer", ""), ("t_min", "number", "K"), ("t_max", "number", "K"),
     ("coefficients", "array", "published form named by 'form'"),
     ("data_t_min", "number", "K"), ("data_t_max", "number", "K"),
@@ -185,6 +212,18 @@ LIBRARY_PARQUET_COLUMNS = [
     ("points", "integer", ""), ("extrapolated", "string", "JSON"),
     ("sources", "string", "JSON"), ("findings", "string", "JSON"),
 ]
+
+
+def _anchor_columns(sp: dict) -> dict:
+    """The anchor columns of library.parquet (an entry without 'anchor' is anchored at
+    298.15 K by its ΔfH° and S°)."""
+    a = sp.get("anchor") or {"basis": "own", "temperature": constants.REFERENCE_TEMPERATURE,
+                             "enthalpy": sp["enthalpy_of_formation_298"],
+                             "entropy": sp["entropy_298"],
+                             "enthalpy_zero": sp["enthalpy_of_formation_298"]}
+    return {"anchor_basis": a["basis"], "anchor_temperature": a["temperature"],
+            "anchor_enthalpy": a["enthalpy"], "anchor_entropy": a["entropy"],
+            "enthalpy_zero": a["enthalpy_zero"]}
 
 
 def library_parquet_bytes(doc: dict) -> bytes:
@@ -195,7 +234,8 @@ def library_parquet_bytes(doc: dict) -> bytes:
             row = {"id": sp["id"], "formula": sp["formula"], "phase": sp["phase"],
                    "geometry": sp["geometry"], "molar_mass": sp["molar_mass"],
                    "enthalpy_of_formation_298": sp["enthalpy_of_formation_298"],
-                   "entropy_298": sp["entropy_298"], "form": sp["form"], "range_index": j,
+                   "entropy_298": sp["entropy_298"], **_anchor_columns(sp),
+                   "form": sp["form"], "range_index": j,
                    "t_min": r["t_min"], "t_max": r["t_max"],
                    "data_t_min": sp["data_range"]["t_min"], "data_t_max": sp["data_range"]["t_max"],
                    "cp_max_rel_dev": sp["quality"]["cp_max_rel_dev"],
@@ -211,9 +251,9 @@ def library_parquet_bytes(doc: dict) -> bytes:
              "array": pa.list_(pa.float64())}
     arrays = {name: pa.array(cols[name], type=arrow[kind])
               for name, kind, _ in LIBRARY_PARQUET_COLUMNS}
-    meta = {k: json.dumps(doc[k], ensure_ascii=False) for k in (
+    meta = {k: json.dumps(doc.get(k, []), ensure_ascii=False) for k in (
         "library_format", "notice", "gas_constant", "reference_temperature", "standard_pressure",
-        "units", "build")}
+        "units", "build", "transitions")}
     table = pa.table(arrays).replace_schema_metadata({f"thermoledger.{k}": v
                                                       for k, v in meta.items()})
     buf = io.BytesIO()

@@ -126,10 +126,51 @@ class DeviationPlotter:
         """The SVG of fit − column for H − H298 [J/mol] at t_h [K] and S [J/(mol K)] at t_s."""
         self.h_line.set_data(t_h, dh_dev)
         self.s_line.set_data(t_s, s_dev)
-        for ax in (self.left, self.right):
+        for ax, t in ((self.left, t_h), (self.right, t_s)):
+            ax.set_visible(len(t) > 0)         # a table without the column: no panel
             ax.relim()
             ax.autoscale_view()
         return _svg(self.fig)
+
+
+@styled
+def phase_figure(name, transitions, by_id) -> bytes:
+    """SVG of every phase of species ``name``: Cp [J/(mol K)] over each phase's range of use
+    and H − H298 [kJ/mol] with its jumps, solid where the phase is stable (between its
+    ``transitions``), dashed elsewhere, a dotted line at each transition."""
+    fig = Figure(figsize=(7.2, 5.0))
+    top, bottom = fig.subplots(2, 1, sharex=True, gridspec_kw={"height_ratios": [1, 1]})
+    fig.subplots_adjust(left=0.1, right=0.8, top=0.93, bottom=0.1, hspace=0.08)
+    order = [transitions[0]["from"]] + [x["to"] for x in transitions]
+    temps = [0.0] + [x["temperature"] for x in transitions] + [np.inf]
+    colours = [DATA, FIT, SHADE, BAD, INK, GRID]
+    for k, sid in enumerate(order):
+        sp = by_id.get(sid)
+        if sp is None:
+            continue
+        lo, hi = sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"]
+        t = np.unique(np.concatenate([np.linspace(lo, hi, 300),
+                                      np.clip(temps[k:k + 2], lo, hi)]))
+        v = forms.evaluate_ranges(library.ranges_of(sp), t, sp["form"])
+        zero = (sp.get("anchor") or {}).get("enthalpy_zero", sp["enthalpy_of_formation_298"])
+        stable = (t >= temps[k]) & (t <= temps[k + 1])
+        colour = colours[k % len(colours)]
+        for mask, style, label in ((stable, "-", sid), (~stable, "--", None)):
+            top.plot(np.where(mask, t, np.nan), v["Cp"], style, color=colour, lw=1.4,
+                     label=label)
+            bottom.plot(np.where(mask, t, np.nan), (v["H"] - zero) / 1000, style,
+                        color=colour, lw=1.4)
+    for x in transitions:
+        for ax in (top, bottom):
+            ax.axvline(x["temperature"], color=INK, lw=0.8, ls=":")
+    top.set_title(f"{name}: every phase, transitions dotted")
+    top.set_ylabel("Cp [J/(mol K)]")
+    bottom.set_ylabel("H - H298 [kJ/mol]")
+    bottom.set_xlabel("T [K]")
+    top.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False)
+    for ax in (top, bottom):
+        ax.grid(color=GRID, lw=0.5)
+    return _svg(fig)
 
 
 @styled

@@ -85,8 +85,46 @@ def status(sp) -> tuple:
     return "ok", "ok"
 
 
-def species_page(sp, points, has_dev) -> bytes:
-    """The HTML page of one library species entry."""
+def _anchor_rows(sp) -> list:
+    """(label, text) rows saying where H and S of the entry are fixed."""
+    a = sp.get("anchor") or {}
+    if a.get("basis") == "transition":
+        return [("H and S fixed at", f"{a['temperature']:g} K through the transition from "
+                 f"{a['via']}: H = {a['enthalpy'] / 1000:.4f} kJ/mol, S = {a['entropy']:.4f} "
+                 "J/(mol K)"),
+                ("H - H298 counted from", f"{a['enthalpy_zero'] / 1000:.4f} kJ/mol, H(298.15 K) "
+                 "of the phase stable there")]
+    return [("enthalpy of formation", f"{sp['enthalpy_of_formation_298'] / 1000:.4f} kJ/mol"),
+            ("entropy at 298.15 K", f"{sp['entropy_298']:.4f} J/(mol K) at 1 bar")]
+
+
+def _phase_section(sp, transitions) -> list:
+    """The phases section of a species page: the plot of every phase of its species with
+    the transitions marked, and the transition table (empty without transitions)."""
+    mine = [x for x in transitions if sp["id"] in (x["from"], x["to"])]
+    if not mine:
+        return []
+    name = mine[0]["species"]
+    out = [f"<h2>Phases of {e(name)}</h2><figure><img src=\"../img/{e(file_stem(name))}-"
+           f"phases.svg\" alt=\"Cp and H - H298 of every phase of {e(name)}\"/><figcaption>"
+           "each phase over its own range of use; solid where it is the stable phase, dashed "
+           "elsewhere; dotted lines at the transitions</figcaption></figure>",
+           "<table><tr><th>transition</th><th>T [K]</th><th>ΔH_trs [kJ/mol]</th>"
+           "<th>ΔS_trs [J/(mol K)]</th><th>source</th></tr>"]
+    for x in transitions:
+        if x["species"] != name:
+            continue
+        u = "" if x["u_enthalpy"] is None else f" ± {x['u_enthalpy'] / 1000:.3g}"
+        out.append(f"<tr><td>{e(x['from'])} → {e(x['to'])}</td><td class=\"num\">"
+                   f"{x['temperature']:g}</td><td class=\"num\">{x['enthalpy'] / 1000:.4g}{u}"
+                   f"</td><td class=\"num\">{x['entropy']:.4f}</td><td>{e(x['source'])}</td>"
+                   "</tr>")
+    out.append("</table>")
+    return out
+
+
+def species_page(sp, points, has_dev, transitions=None) -> bytes:
+    """The HTML page of one library species entry; ``transitions`` those of the library."""
     name = file_stem(sp["id"])
     q = sp["quality"]
     rows = [("form", sp["form"]), ("range of use", f"{sp['ranges'][0]['t_min']:g}-"
@@ -98,11 +136,11 @@ def species_page(sp, points, has_dev) -> bytes:
             ("rms dCp/Cp", f"{100 * q['cp_rms_rel_dev']:.4f} %"),
             ("max |dH| vs column", "-" if q["h_max_dev"] is None else f"{q['h_max_dev']:.4g} J/mol"),
             ("max |dS| vs column", "-" if q["s_max_dev"] is None else f"{q['s_max_dev']:.4g} J/(mol K)"),
-            ("enthalpy of formation", f"{sp['enthalpy_of_formation_298'] / 1000:.4f} kJ/mol"),
-            ("entropy at 298.15 K", f"{sp['entropy_298']:.4f} J/(mol K) at 1 bar")]
+            *_anchor_rows(sp)]
     body = ["<h2>At a glance</h2><table>"]
     body += [f"<tr><th>{e(k)}</th><td>{e(v)}</td></tr>" for k, v in rows]
     body.append("</table>")
+    body += _phase_section(sp, transitions or [])
     if sp["extrapolated"]:
         body.append("<h2>Outside the data</h2><table><tr><th>interval [K]</th><th>how</th>"
                     "<th>hold-out error</th><th>uncertainty at the end</th></tr>")
@@ -188,6 +226,7 @@ def report_files(doc, points, accept, workers=None, say=None) -> dict:
     import os
 
     species = doc["species"]
+    transitions = doc.get("transitions", [])
     say = say or (lambda *a: None)
     workers = workers or min(os.cpu_count() or 1, 4)
     files = {}
@@ -209,7 +248,7 @@ def report_files(doc, points, accept, workers=None, say=None) -> dict:
         try:
             parts = pool.map(_species_files, chunks,
                              [{s["id"]: points.get(s["id"], {}) for s in c} for c in chunks],
-                             [accept] * len(chunks))
+                             [accept] * len(chunks), [transitions] * len(chunks))
             for chunk, part in zip(chunks, parts):
                 files.update(part)
                 tick(chunk)
@@ -219,8 +258,12 @@ def report_files(doc, points, accept, workers=None, say=None) -> dict:
         pool.shutdown()
     else:
         for chunk in chunks:
-            files.update(_species_files(chunk, points, accept))
+            files.update(_species_files(chunk, points, accept, transitions))
             tick(chunk)
+    by_id = {s["id"]: s for s in species}
+    for name in sorted({x["species"] for x in transitions}):
+        files[f"report/img/{file_stem(name)}-phases.svg"] = plots.phase_figure(
+            name, [x for x in transitions if x["species"] == name], by_id)
     per_source = Counter(s["sources"][0]["source"] for s in species)
     hist, bars = plots.overview_figures([100 * s["quality"]["cp_max_rel_dev"]
                                          for s in species], per_source)
@@ -254,7 +297,7 @@ def stop_workers(pool) -> None:
     pool.shutdown(wait=False, cancel_futures=True)
 
 
-def _species_files(species, points, accept) -> dict:
+def _species_files(species, points, accept, transitions=()) -> dict:
     files = {}
     cp_plot, dev_plot = plots.SpeciesPlotter(), None
     for sp in species:
@@ -269,5 +312,5 @@ def _species_files(species, points, accept) -> dict:
             th, dh = p.get("dh", (np.zeros(0), np.zeros(0)))
             ts, ds = p.get("s", (np.zeros(0), np.zeros(0)))
             files[f"report/img/{name}-hs.svg"] = dev_plot.render(th, dh, ts, ds)
-        files[f"report/species/{name}.html"] = species_page(sp, p, has_dev)
+        files[f"report/species/{name}.html"] = species_page(sp, p, has_dev, transitions)
     return files

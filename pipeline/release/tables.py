@@ -12,7 +12,7 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from ..core.names import file_stem
-from ..library.tables import COLUMNS, HEADERS, UNITS, species_rows
+from ..library.tables import COLUMNS, FLAGS, HEADERS, TEXT, UNITS, species_rows, stable_rows
 
 DANGEROUS = ("=", "+", "-", "@", "\t", "\r")
 
@@ -20,12 +20,14 @@ DANGEROUS = ("=", "+", "-", "@", "\t", "\r")
 def tables_parquet_bytes(doc, step=100.0, points=None) -> bytes:
     """tables.parquet: the evaluated table of every species (T [K], Cp [J/(mol K)], ...),
     units in the key-value metadata."""
-    parts = [species_rows(sp, step, points) for sp in doc["species"]]
+    trs = doc.get("transitions", [])
+    parts = [species_rows(sp, step, points, trs) for sp in doc["species"]]
     cols = {c: (np.concatenate([p[c] for p in parts]) if parts else np.array([]))
             for c in COLUMNS}
-    cols["id"] = [x for p in parts for x in p["id"]]
-    table = pa.table({c: pa.array(cols[c], type=pa.string() if c == "id" else (
-        pa.bool_() if c == "extrapolated" else pa.float64())) for c in COLUMNS})
+    for c in TEXT:
+        cols[c] = [x for p in parts for x in p[c]]
+    table = pa.table({c: pa.array(cols[c], type=pa.string() if c in TEXT else (
+        pa.bool_() if c in FLAGS else pa.float64())) for c in COLUMNS})
     table = table.replace_schema_metadata({"thermoledger.units": str(UNITS),
                                            "thermoledger.notice": doc["notice"]})
     buf = io.BytesIO()
@@ -38,22 +40,32 @@ def neutralise(cell: str) -> str:
     return "'" + cell if cell.startswith(DANGEROUS) else cell
 
 
-def csv_bytes(sp, step=100.0, points=None) -> bytes:
+def csv_bytes(sp, step=100.0, points=None, transitions=()) -> bytes:
     """The evaluated table of one species as CSV bytes, text cells neutralised."""
-    rows = species_rows(sp, step, points)
+    return _csv(f"{sp['id']} ({sp['form']})", species_rows(sp, step, points, transitions))
+
+
+def _csv(title, rows) -> bytes:
     out = io.StringIO(newline="")
     w = csv.writer(out, lineterminator="\n")
-    w.writerow([neutralise(f"# {sp['id']} ({sp['form']}) from thermoledger; review by a "
-                           "qualified person before engineering use")])
+    w.writerow([neutralise(f"# {title} from thermoledger; review by a qualified person before "
+                           "engineering use")])
     w.writerow([neutralise(f"{HEADERS.get(c, c)} [{UNITS[c]}]" if c in UNITS else c)
                 for c in ("species",) + COLUMNS[1:]])
     for i in range(len(rows["T"])):
-        w.writerow([neutralise(sp["id"])] + [repr(float(rows[c][i])) for c in COLUMNS[1:-1]]
-                   + ["yes" if rows["extrapolated"][i] else "no"])
+        w.writerow([neutralise(str(rows[c][i])) if c in TEXT else
+                    ("yes" if rows[c][i] else "no") if c in FLAGS else repr(float(rows[c][i]))
+                    for c in COLUMNS])
     return out.getvalue().encode("utf-8")
 
 
 def csv_files(doc, step=100.0, points=None) -> dict:
-    """{tables/<file stem>.csv: bytes} for every species of ``doc``."""
-    return {f"tables/{file_stem(sp['id'])}.csv": csv_bytes(sp, step, points)
-            for sp in doc["species"]}
+    """{tables/<file stem>.csv: bytes} for every species of ``doc``, and for every species
+    with transitions the table across its phases (tables/<name>.csv, stable rows only)."""
+    trs = doc.get("transitions", [])
+    files = {f"tables/{file_stem(sp['id'])}.csv": csv_bytes(sp, step, points, trs)
+             for sp in doc["species"]}
+    for name in sorted({x["species"] for x in trs}):
+        files[f"tables/{file_stem(name)}.csv"] = _csv(f"{name}, stable phase at each "
+                                                      "temperature", stable_rows(doc, name, step))
+    return files

@@ -55,7 +55,7 @@ _SRC = SourceMeta(id="ref", folder="ref", title="reference", citation="see tests
 
 
 def make_table(t, cp, formula, geometry, *, phase="g", u=None, dh=None, s=None, name=None,
-               file="ref/table.csv", source=_SRC, s298=None, h298=0.0):
+               file="ref/table.csv", source=_SRC, s298=None, h298=0.0, gef=None):
     """An in-memory Table as ingest would produce it (lines start at 2)."""
     t = np.asarray(t, float)
     n = len(t)
@@ -66,7 +66,7 @@ def make_table(t, cp, formula, geometry, *, phase="g", u=None, dh=None, s=None, 
 
     data = pd.DataFrame({"line": np.arange(2, n + 2), "T": t, "Cp": np.asarray(cp, float),
                          "u_Cp": col(u), "dH": col(dh), "S": col(s), "u_dH": col(None),
-                         "u_S": col(None)})
+                         "u_S": col(None), "gef": col(gef)})
     meta = TableMeta(source=source, file=file, species=name or formula, formula=formula,
                      phase=phase, geometry=geometry, molar_mass=comp.molar_mass,
                      atoms=comp.atoms, enthalpy_of_formation_298=h298,

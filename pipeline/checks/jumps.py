@@ -1,0 +1,86 @@
+"""A jump in Cp inside one table: a phase transition the table does not list.
+
+Inside one phase Cp is a smooth function of T; at a first-order transition it jumps (and
+H with it). For every gap between consecutive rows, a quadratic in ln T is fitted by least
+squares to the WINDOW rows on each side and both are carried to the middle of the gap: the
+difference of the two, in ln Cp, is the jump there. Smooth data give jumps at the level of
+their scatter; a transition gives one jump far above that level and above STEP_MIN (common
+practice: a few per cent, more than the scatter of careful calorimetry, as large as the
+smallest jumps of Cp at melting), with both sides well fitted by their own quadratic, and
+the same jump again when the rows next to the gap are left out (a single slipped row makes
+a jump only while it is in a window: it is left to the smoothness checks).
+"""
+
+import numpy as np
+from numpy.lib.stride_tricks import sliding_window_view
+
+from ..core.findings import finding
+from ..core.records import valid_rows
+
+#: rows on each side of a gap, the smallest relative jump reported, how far above the
+#: median jump it must be, and how much worse than the jump each side's own fit may be
+WINDOW = 5
+STEP_MIN = 0.02
+STEP_OVER_MEDIAN = 12.0
+SIDE_FIT = 0.25
+
+
+def _side_fits(x, y, w):
+    """Quadratic least-squares coefficients of every window of ``w`` consecutive points, and
+    the rms residual of each -> ((k, 3), (k,))."""
+    xs, ys = sliding_window_view(x, w), sliding_window_view(y, w)
+    a = np.stack([np.ones_like(xs), xs, xs ** 2], axis=-1)          # (k, w, 3)
+    ata = np.einsum("kwi,kwj->kij", a, a)
+    aty = np.einsum("kwi,kw->ki", a, ys)
+    c = np.linalg.solve(ata + 1e-12 * np.eye(3), aty[..., None])[..., 0]
+    resid = np.einsum("kwi,ki->kw", a, c) - ys
+    return c, np.sqrt(np.mean(resid ** 2, axis=1))
+
+
+def steps(t, cp, w=WINDOW):
+    """(jump in ln Cp at each gap between rows k-1 and k, k = w+1..n-w-1 [-], the larger rms
+    of its two side fits [-], the jump again with the row next to the gap left out on both
+    sides [-], T in the middle of the gap [K]); empty when the table is too short. A slipped
+    row next to the gap makes the first jump but not the second; a transition makes both."""
+    t, cp = np.asarray(t, dtype=float), np.asarray(cp, dtype=float)
+    n = len(t)
+    if n < 2 * w + 2:
+        return (np.zeros(0),) * 4
+    x, y = np.log(t), np.log(cp)
+    c, rms = _side_fits(x, y, w)
+    k = np.arange(w + 1, n - w)                       # gaps with room for the second look
+    mid = 0.5 * (x[k - 1] + x[k])
+
+    def value(cc, m):
+        return cc[:, 0] + cc[:, 1] * m + cc[:, 2] * m ** 2
+
+    jump = value(c[k], mid) - value(c[k - w], mid)
+    apart = value(c[k + 1], mid) - value(c[k - w - 1], mid)
+    return jump, np.maximum(rms[k - w], rms[k]), apart, np.exp(mid)
+
+
+def check_unlisted_transition(table, ctx):
+    """TRS-UNLISTED: Cp jumps between two rows of one table, far beyond the scatter of the
+    rest; reported with the temperature, instead of as a bad fit."""
+    d = valid_rows(table.data).drop_duplicates("T")
+    t, cp, lines = d["T"].to_numpy(), d["Cp"].to_numpy(), d["line"].to_numpy()
+    jump, side, apart, at = steps(t, cp)
+    if not len(jump):
+        return []
+    size = np.abs(jump)
+    k = int(np.argmax(size))
+    typical = float(np.median(size))
+    if size[k] < max(STEP_MIN, STEP_OVER_MEDIAN * typical) or side[k] > SIDE_FIT * size[k] \
+            or not apart[k] * jump[k] > 0.5 * jump[k] ** 2:
+        return []
+    i = k + WINDOW + 1                                  # the first row above the gap
+    meta = table.meta
+    what = ("an ideal gas has no phase transitions: are two sources, or two units, joined "
+            "here?" if meta.phase == "g" else "a phase transition the table does not list: "
+            "split the rows by phase (a phase column) and state the transition")
+    return [finding("TRS-UNLISTED", f"Cp jumps by {100 * (np.exp(jump[k]) - 1):+.3g} % between "
+                    f"{t[i - 1]:.6g} and {t[i]:.6g} K (near {at[k]:.6g} K); between the other "
+                    f"rows the median jump is {100 * typical:.2g} %; {what}",
+                    column="Cp", line=int(lines[i]), lines=(int(lines[i - 1]), int(lines[i])),
+                    seen=f"{100 * (np.exp(jump[k]) - 1):+.3g} % at {at[k]:.6g} K",
+                    expected="a smooth Cp inside one phase", **meta.where)]

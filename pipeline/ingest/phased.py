@@ -1,0 +1,106 @@
+"""One table per phase: split a table with a ``phase`` column, place its anchors, and give an
+enthalpy-increment table its Cp.
+
+A table listed with a ``phase`` in source.json is one phase. A table whose CSV has a
+``phase`` column holds several: it becomes one table per phase (same file, rows by their
+phase), and its ΔfH° and S°, when given, belong to the phase named by ``anchor_phase``
+(never guessed). A phase without anchors of its own is reached through its transitions.
+"""
+
+from dataclasses import replace
+
+import numpy as np
+
+from ..core import constants, phases
+from ..core.findings import finding
+from ..core.records import Table
+from ..physics import statmech
+from .increments import cp_from_increments
+
+
+def split(meta, data, entry) -> tuple[list, list]:
+    """(tables, findings) of one listed table read into ``meta`` and ``data`` (its rows, a
+    'phase' column when the CSV has one); ``entry`` is its source.json entry."""
+    listed = entry.get("phase")
+    anchor_phase = entry.get("anchor_phase")
+    at = dict(source=meta.source.id, file=f"{meta.source.folder}/source.json",
+              extra={"table": meta.file})
+    col = f"tables/{meta.index}"
+    if "phase" not in data.columns:
+        if listed is None and not len(data):
+            return [], []              # nothing read: the reading findings say why
+        if listed is None:
+            return [], [finding("SRC-NO-PHASE", "the table has neither a 'phase' in source.json "
+                                "nor a phase column", column=f"{col}/phase",
+                                expected="\"phase\": \"g\", \"l\", \"cr\" or \"cr-<form>\"",
+                                **at)]
+        if anchor_phase is not None:
+            return [], [finding("SRC-ANCHOR-PHASE", "anchor_phase applies only to a table with "
+                                "a phase column", column=f"{col}/anchor_phase",
+                                seen=anchor_phase, expected="no anchor_phase", **at)]
+        return [_with_cp(Table(meta=meta, data=data))], []
+    if listed is not None:
+        return [], [finding("SRC-PHASE-TWICE", "the table has a phase column and a 'phase' in "
+                            "source.json; give the phase in one place", column=f"{col}/phase",
+                            seen=listed, expected="no 'phase' for a table with a phase column",
+                            **at)]
+    present = list(dict.fromkeys(data["phase"].tolist()))
+    if meta.anchored and anchor_phase not in present:
+        return [], [finding("SRC-ANCHOR-PHASE", "the table holds several phases; say which one "
+                            "enthalpy_of_formation_298 and entropy_298 belong to",
+                            column=f"{col}/anchor_phase", seen=str(anchor_phase),
+                            expected="one of " + ", ".join(present), **at)]
+    if "g" in present and not meta.geometry:
+        return [], [finding("SRC-SCHEMA", "the table holds ideal-gas rows (phase g) but "
+                            "source.json gives no geometry", column=f"{col}/geometry",
+                            expected="monatomic, linear or nonlinear", **at)]
+    out = []
+    for phase in present:
+        rows = data[data["phase"] == phase].drop(columns="phase").reset_index(drop=True)
+        part = replace(meta, phase=phase, geometry=meta.geometry if phase == "g" else None,
+                       shared=len(present) > 1,
+                       enthalpy_of_formation_298=meta.enthalpy_of_formation_298
+                       if phase == anchor_phase else None,
+                       entropy_298=_entropy(meta, phase, anchor_phase),
+                       notes=meta.notes + (f"rows of phase {phase} of a table with a phase "
+                                           "column",))
+        if phases.is_gas(phase) and meta.source.standard_pressure != constants.STANDARD_PRESSURE \
+                and rows["S"].notna().any():
+            shift = statmech.entropy_shift_to_standard(meta.source.standard_pressure)
+            rows["S"] = rows["S"] + shift
+            part = replace(part, notes=part.notes + (
+                f"S moved from {meta.source.standard_pressure:g} Pa to 1 bar: {shift:+.4f} "
+                "J/(mol*K)",))
+        out.append(_with_cp(Table(meta=part, data=rows)))
+    return out, []
+
+
+def _entropy(meta, phase, anchor_phase):
+    """S° of ``phase`` at 1 bar: the entry's, moved from the source's pressure for a gas."""
+    if phase != anchor_phase or meta.entropy_298 is None:
+        return None
+    if phases.is_gas(phase) and meta.source.standard_pressure != constants.STANDARD_PRESSURE:
+        return meta.entropy_298 + statmech.entropy_shift_to_standard(
+            meta.source.standard_pressure)
+    return meta.entropy_298
+
+
+def _with_cp(table: Table) -> Table:
+    """``table``, with Cp derived from its H − H298 column when it has no Cp at all."""
+    d = table.data
+    if not len(d) or d["Cp"].notna().any() or d["dH"].notna().sum() < 3:
+        return table
+    m = d["dH"].notna().to_numpy() & np.isfinite(d["T"].to_numpy())
+    u = d["u_dH"].to_numpy()[m]
+    got = cp_from_increments(d["T"].to_numpy()[m], d["dH"].to_numpy()[m],
+                             u if np.all(np.isfinite(u)) else None)
+    if got is None:
+        return table
+    cp, degree, rms = got
+    d = d.copy()
+    d.loc[m, "Cp"] = cp
+    note = (f"Cp derived from the H-H298 column (an enthalpy-increment table): the derivative of "
+            f"a least-squares polynomial with Cp of degree {degree} in T, rms residual "
+            f"{rms:.3g} J/mol")
+    return Table(meta=replace(table.meta, notes=table.meta.notes + (note,), derived=("Cp",)),
+                 data=d)

@@ -10,6 +10,7 @@ import pyarrow.parquet as pq
 import pytest
 from thermoledger import build
 from thermoledger.core.constants import GAS_CONSTANT as R
+from thermoledger.core.names import file_stem
 from thermoledger.core.settings import OutputSettings, Settings
 from thermoledger.testing import condensed as C
 
@@ -30,13 +31,23 @@ def by_hand(sp, t):
     return cp, h, s
 
 
+class Built:
+    """A release built by the ``thermoledger build`` command: its library and findings."""
+
+    def __init__(self, out):
+        self.document = json.loads((out / "library.json").read_text())
+        self.findings = json.loads((out / "findings.json").read_text())["findings"]
+
+
 @pytest.fixture(scope="module")
 def aluminium(tmp_path_factory):
+    from thermoledger.cli import main as cli
+
     root = tmp_path_factory.mktemp("al") / "raw"
     C.write_aluminium(root)
     out = root.parent / "out"
-    result = build.build(root, out, QUICK)
-    return root, out, result
+    assert cli.main(["build", "--raw", str(root), "--out", str(out), "--quiet"]) == 0
+    return root, out, Built(out)
 
 
 def test_crystal_liquid_gas_is_one_coherent_entry_set_without_invented_anchors(aluminium,
@@ -45,7 +56,7 @@ def test_crystal_liquid_gas_is_one_coherent_entry_set_without_invented_anchors(a
     code, text, _ = run_cli(capsys, "check", "--raw", root)
     assert code == 0 and "0 error(s)" in text
     lib = {s["id"]: s for s in result.document["species"]}
-    assert set(lib) == {"Al(cr)", "Al(l)", "Al(g)"} and not result.quarantined
+    assert set(lib) == {"Al(cr)", "Al(l)", "Al(g)"} and not result.document["quarantined"]
     liquid = lib["Al(l)"]
     # nothing was invented for the liquid: no ΔfH°, no S° at 298.15 K
     assert liquid["enthalpy_of_formation_298"] is None and liquid["entropy_298"] is None
@@ -54,8 +65,12 @@ def test_crystal_liquid_gas_is_one_coherent_entry_set_without_invented_anchors(a
     assert lib["Al(g)"]["anchor"]["basis"] == "own"     # the vapour keeps its CODATA anchors
     assert [(x["from"], x["to"]) for x in result.document["transitions"]] == [
         ("Al(cr)", "Al(l)"), ("Al(l)", "Al(g)")]
-    codes = {f.code for f in result.findings}
+    codes = {f["code"] for f in result.findings}
     assert not codes & {"TRS-GIBBS-MISMATCH", "TRS-ORDER", "ANCHOR-MISSING", "FIT-FAILED"}
+    page = next((out / "current" / "report" / "species").glob("Al_l-*.html")).read_text()
+    assert "Phases of Al" in page and "Al(cr) → Al(l)" in page and "10.71 ± 0.2" in page
+    svg = next((out / "current" / "report" / "img").glob("Al-*-phases.svg")).read_text()
+    assert svg.count("stroke-dasharray") >= 2 and "H - H298" in svg     # transitions marked
 
 
 def test_h_and_s_jump_by_the_transition_and_g_is_continuous(aluminium):
@@ -133,15 +148,19 @@ def test_tables_carry_the_phase_and_rows_on_both_sides_of_each_transition(alumin
     rows = pq.read_table(release / "tables.parquet").to_pylist()
     at_fusion = [(r["id"], r["stable"]) for r in rows if r["T"] == pytest.approx(933.47)]
     assert ("Al(cr)", True) in at_fusion and ("Al(l)", True) in at_fusion
-    text = (release / "tables" / "Al.csv").read_text() if (release / "tables").is_dir() else None
     lib = json.loads((release / "library.json").read_text())
     from thermoledger.library.tables import stable_rows
+    from thermoledger.release.tables import csv_files
 
     table = stable_rows(lib, "Al")
     k = np.flatnonzero(table["T"] == 933.47)
     assert [table["phase"][i] for i in k] == ["cr", "l"]          # below, then above
     assert np.diff(table["H_minus_H298"][k])[0] == pytest.approx(10710.0, abs=1e-6)
-    assert text is None or "Al(l)" in text
+    lines = csv_files(lib)[f"tables/{file_stem('Al')}.csv"].decode().splitlines()
+    assert lines[1].startswith("species,phase,T [K]")
+    at = [ln.split(",")[:3] for ln in lines[2:] if ln.split(",")[2] == "933.47"]
+    assert at == [["Al(cr)", "cr", "933.47"], ["Al(l)", "l", "933.47"]]
+    assert [ln.split(",")[1] for ln in lines[2:]][-1] == "g"     # the vapour at the top
     parquet = pq.read_table(release / "library.parquet").to_pylist()
     liquid = [r for r in parquet if r["id"] == "Al(l)"]
     assert liquid[0]["anchor_basis"] == "transition" and liquid[0]["entropy_298"] is None
@@ -239,6 +258,19 @@ def test_a_metastable_phase_with_its_own_anchors_is_checked_by_gibbs_energy(tmp_
         if mismatch:
             assert "Al(l)" in found[0].message and found[0].file == "al/al-l.csv"
             assert found[0] in [f for f in result.findings if f.severity == "warning"]
+
+
+def test_a_vapour_whose_anchors_contradict_the_liquid_is_out_of_order(tmp_path):
+    root = tmp_path / "raw"
+    C.write_aluminium(root)
+    doc = json.loads((root / "al" / "source.json").read_text())
+    doc["tables"][2]["enthalpy_of_formation_298"] = "250.0 kJ/mol"   # CODATA: 330.0
+    C.write_source(root / "al", doc)
+    result = build.build(root, None, QUICK, write=False)
+    found = {f.code: f for f in result.findings if f.code.startswith("TRS")}
+    assert set(found) == {"TRS-GIBBS-MISMATCH", "TRS-ORDER"}
+    assert "Al(g) has a Gibbs energy" in found["TRS-ORDER"].message
+    assert "where the transitions make Al(l) the stable phase" in found["TRS-ORDER"].message
 
 
 def test_a_jump_in_one_table_is_an_unlisted_transition_not_a_bad_fit(tmp_path):

@@ -27,17 +27,3 @@ def is_crystal(phase: str) -> bool:
     """True for a crystal phase (cr, cr-alpha, cr2, ...)."""
     return phase.startswith("cr")
 
-
-def species_id(name: str, phase: str) -> str:
-    """The id of a species in a phase, e.g. 'Fe(cr-alpha)'."""
-    return f"{name}({phase})"
-
-
-def name_of(species_id_: str) -> str:
-    """The name of the substance of a species id: 'Fe' of 'Fe(cr-alpha)'."""
-    return species_id_.rsplit("(", 1)[0] if species_id_.endswith(")") else species_id_
-
-
-def phase_of(species_id_: str) -> str:
-    """The phase of a species id: 'cr-alpha' of 'Fe(cr-alpha)'."""
-    return species_id_.rsplit("(", 1)[1][:-1] if species_id_.endswith(")") else ""

@@ -14,6 +14,8 @@ same way, with its Cp carried down to 298.15 K by its polynomial. Across the cha
 phase may have a lower Gibbs energy than the phase stable at that temperature (TRS-ORDER).
 """
 
+from dataclasses import replace
+
 import numpy as np
 
 from ..core.constants import REFERENCE_TEMPERATURE
@@ -63,8 +65,7 @@ def identity(meta, chain, done: dict) -> tuple:
     span = tuple(x.temperature for x in chain.transitions if p in (x.lower, x.upper))
     root_id = f"{chain.species}({chain.root})"
     if p in chain.own:
-        who = SpeciesIdentity.of_table(meta)
-        who = SpeciesIdentity(**{**who.__dict__, "span": span})
+        who = replace(SpeciesIdentity.of_table(meta), span=span)
         return who, {"basis": "own", "temperature": REFERENCE_TEMPERATURE,
                      "enthalpy": meta.enthalpy_of_formation_298, "entropy": meta.entropy_298,
                      "enthalpy_zero": meta.enthalpy_of_formation_298, "via": None}

@@ -50,33 +50,35 @@ def discover(raw_dir: Path) -> tuple[list[Path], list[Finding]]:
 
 
 def parse_source(text: str, *, file: str, folder: str, digest: str):
-    """Parse source.json text -> (SourceMeta or None, table entries, findings)."""
+    """Parse source.json text -> (SourceMeta or None, table entries, transition entries,
+    findings)."""
     try:
         doc = jsonread.loads(text, file=file)
     except InputError as exc:
-        return None, [], [finding(exc.code, exc.what, file=file, line=exc.line,
-                                  expected=exc.expected)]
+        return None, [], [], [finding(exc.code, exc.what, file=file, line=exc.line,
+                                      expected=exc.expected)]
     if isinstance(doc, dict) and isinstance(doc.get("tables"), list) and \
             len(doc["tables"]) > MAX_TABLES_PER_SOURCE:
-        return None, [], [finding("SRC-TOO-LARGE", f"{len(doc['tables'])} tables listed",
-                                  file=file, column="tables",
-                                  expected=f"at most {MAX_TABLES_PER_SOURCE} per source")]
+        return None, [], [], [finding("SRC-TOO-LARGE", f"{len(doc['tables'])} tables listed",
+                                      file=file, column="tables",
+                                      expected=f"at most {MAX_TABLES_PER_SOURCE} per source")]
     errors = schemas.errors_of(doc, "source.schema.json")
     if errors:
-        return None, [], [finding("SRC-SCHEMA", _schema_message(e), file=file,
-                                  column=schemas.where(e),
-                                  seen=clip(repr(e.instance)), expected=_expected(e))
-                          for e in errors]
+        return None, [], [], [finding("SRC-SCHEMA", _schema_message(e), file=file,
+                                      column=schemas.where(e),
+                                      seen=clip(repr(e.instance)), expected=_expected(e))
+                              for e in errors]
     try:
         pressure = quantity(doc["standard_pressure"], "pressure", "standard_pressure")
     except InputError as exc:
-        return None, [], [finding("SRC-QUANTITY", exc.what, file=file, column="standard_pressure",
-                                  seen=clip(doc["standard_pressure"]),
-                                  expected="'1 bar' or '1 atm'")]
+        return None, [], [], [finding("SRC-QUANTITY", exc.what, file=file,
+                                      column="standard_pressure",
+                                      seen=clip(doc["standard_pressure"]),
+                                      expected="'1 bar' or '1 atm'")]
     meta = SourceMeta(id=doc["source"], folder=folder, title=doc["title"],
                       citation=doc["citation"], method=doc["method"], license=doc["license"],
                       priority=int(doc["priority"]), standard_pressure=pressure, sha256=digest)
-    return meta, doc["tables"], []
+    return meta, doc["tables"], doc.get("transitions", []), []
 
 
 def parse_transitions(doc_entries, source: SourceMeta):
@@ -270,13 +272,12 @@ def ingest(raw_dir) -> IngestResult:
         except UnicodeDecodeError:
             findings.append(finding("SRC-UNREADABLE", "source.json is not UTF-8", file=rel))
             continue
-        source, entries, problems = parse_source(text, file=rel, folder=folder.name,
-                                                 digest=sha256(raw))
+        source, entries, stated, problems = parse_source(text, file=rel, folder=folder.name,
+                                                         digest=sha256(raw))
         findings += problems
         if source is None:
             continue
-        stated, problems = parse_transitions(jsonread.loads(text, file=rel).get(
-            "transitions", []), source)
+        stated, problems = parse_transitions(stated, source)
         findings += problems
         if source.id in seen_ids:
             findings.append(finding("SRC-DUPLICATE-ID", f"source id '{source.id}' is also "

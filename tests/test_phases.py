@@ -8,6 +8,8 @@ import re
 import numpy as np
 import pyarrow.parquet as pq
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 from thermoledger import build
 from thermoledger.core.constants import GAS_CONSTANT as R
 from thermoledger.core.names import file_stem
@@ -130,6 +132,30 @@ def test_published_melting_points_and_enthalpies_of_fusion_are_kept(melting, nam
     assert not [f for f in melting.findings if f.severity == "error"]
 
 
+def test_a_phase_stable_below_298_k_is_reached_downwards(tmp_path):
+    # NaCl with a made-up low-temperature crystal form below 250 K: only the chain rule is
+    # checked here (the Einstein-model Cp is a test input, not a check value)
+    folder = tmp_path / "raw" / "lab"
+    folder.mkdir(parents=True)
+    theta, dh = C.MELTING["NaCl"][6], 0.5
+    for name, lo, hi in (("low", 150.0, 250.0), ("cr", 250.0, 900.0)):
+        t = np.linspace(lo, hi, 15)
+        C.write_csv(folder / f"{name}.csv", ["T [K]", "Cp [J/(mol*K)]"],
+                    [[f"{x:.3f}", f"{c:.5f}"] for x, c in zip(t, C.einstein_cp(2, theta, t))])
+    C.write_source(folder, C.source_doc("lab", [
+        {"file": "low.csv", "species": "NaCl", "formula": "NaCl", "phase": "cr-low",
+         "fit": {"ranges": 1}},
+        {"file": "cr.csv", "species": "NaCl", "formula": "NaCl", "phase": "cr",
+         "enthalpy_of_formation_298": "-411.12 kJ/mol", "entropy_298": "72.11 J/(mol*K)"}],
+        [C.transition("NaCl", "cr-low", "cr", 250.0, dh)]))
+    result = build.build(tmp_path / "raw", None, QUICK, write=False)
+    lib = {s["id"]: s for s in result.document["species"]}
+    low, cr = lib["NaCl(cr-low)"], lib["NaCl(cr)"]
+    assert low["anchor"]["basis"] == "transition" and low["anchor"]["via"] == "NaCl(cr)"
+    assert by_hand(cr, 250.0)[1] - by_hand(low, 250.0)[1] == pytest.approx(500.0, abs=1e-6)
+    assert by_hand(cr, 250.0)[2] - by_hand(low, 250.0)[2] == pytest.approx(2.0, abs=1e-9)
+
+
 def test_props_names_the_stable_phase_and_a_phase_can_be_asked_for(aluminium, capsys):
     out = aluminium[1]
     code, text, _ = run_cli(capsys, "props", out, "Al", "300", "1000", "3000", "--json")
@@ -234,6 +260,22 @@ def test_transition_checks_name_what_is_wrong(tmp_path):
     got = _examine_with(tmp_path, [])
     (f,) = [f for f in got.findings if f.code == "ANCHOR-MISSING"]
     assert f.file == "al/al-l.csv" and "no transition links it" in f.message
+
+
+def test_a_second_table_of_an_anchored_phase_needs_no_anchors_of_its_own(tmp_path):
+    root = tmp_path / "raw"
+    C.write_aluminium(root, gas=False)
+    folder = root / "lab2"
+    t = np.linspace(298.15, 900.0, 12)
+    folder.mkdir()
+    C.write_csv(folder / "al.csv", ["T [K]", "Cp [J/(mol*K)]"],
+                [[f"{x:.2f}", f"{c:.4f}"] for x, c in zip(t, C.shomate(C.AL_CRYSTAL, t)[0])])
+    C.write_source(folder, C.source_doc("lab2", [{"file": "al.csv", "species": "Al",
+                                                  "formula": "Al", "phase": "cr"}], priority=5))
+    checked = build.examine(root)
+    assert not [f for f in checked.findings if f.severity == "error"]
+    result = build.build(root, None, QUICK, write=False)
+    assert {s["id"] for s in result.document["species"]} == {"Al(cr)", "Al(l)"}
 
 
 def test_a_metastable_phase_with_its_own_anchors_is_checked_by_gibbs_energy(tmp_path):
@@ -376,3 +418,28 @@ def test_an_old_gas_only_library_still_loads(demo_release, tmp_path):
     n2 = lib["N2(g)"]
     assert n2.h_minus_h298(298.15) == pytest.approx(0.0, abs=1e-6)
     assert lib.to_pandas()["stable"].all()
+
+
+@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow,
+                                                                 HealthCheck.function_scoped_fixture])
+@given(st.lists(st.sampled_from(["cr", "l", "g", "cr-alpha", "", "solid", "L", "cr-", "-",
+                                 "cr_a", "crα", "l l"]), min_size=1, max_size=6),
+       st.text(max_size=12), st.text(max_size=12))
+def test_random_phase_cells_and_transition_quantities_are_answered(tmp_path_factory, cells,
+                                                                   t_text, h_text):
+    root = tmp_path_factory.mktemp("fuzz") / "raw"
+    folder = root / "lab"
+    folder.mkdir(parents=True)
+    rows = [[cells[i % len(cells)], f"{300 + 50 * i}", "24.5"] for i in range(12)]
+    C.write_csv(folder / "t.csv", ["phase", "T [K]", "Cp [J/(mol*K)]"], rows)
+    trs = [{"species": "Al", "from": "cr", "to": "l", "temperature": t_text,
+            "enthalpy": h_text}]
+    C.write_source(folder, C.source_doc("lab", [{
+        "file": "t.csv", "species": "Al", "formula": "Al", "anchor_phase": "cr",
+        "enthalpy_of_formation_298": "0 kJ/mol", "entropy_298": "28.3 J/(mol*K)"}], trs))
+    checked = build.examine(root)                      # never raises
+    assert all(f.file and f.file.startswith("lab/") for f in checked.findings)
+    codes = {f.code for f in checked.findings}
+    bad = [c for c in set(cells) if c not in ("cr", "l", "g", "cr-alpha")]
+    if bad and "SRC-SCHEMA" not in codes:       # a bad transition text refuses the source
+        assert codes & {"CELL-NOT-PHASE", "CELL-EMPTY", "TAB-NO-ROWS"}

@@ -151,7 +151,7 @@ def link(tables, stated, ctx, prior=()):
     by_name = {}
     for x in usable:
         by_name.setdefault(x.species, []).append(x)
-    chains, reached, linked = [], set(), set()
+    chains, reached, explained = [], set(), set()
     for name in sorted(by_name):
         phases, links = _chain(name, by_name[name])
         if phases is None:
@@ -166,7 +166,7 @@ def link(tables, stated, ctx, prior=()):
                     if _primary(by_id[f"{name}({p})"]).meta.anchored]
         own = [k for k in anchored if _reaches_298(by_id[f"{name}({phases[k]})"], reach)]
         if not own:
-            reached.update(f"{name}({p})" for p in phases)   # no second finding for them
+            explained.update(f"{name}({p})" for p in phases)
             for p in phases:
                 for tb in by_id[f"{name}({p})"]:
                     found.append(finding(
@@ -178,22 +178,19 @@ def link(tables, stated, ctx, prior=()):
         root = min(own, key=lambda k: (abs(k - stable), k))
         chains.append(Chain(species=name, phases=phases, transitions=links, root=phases[root],
                             own=tuple(phases[k] for k in own)))
-        linked.update(f"{name}({p})" for p in phases)
         reached.update(f"{name}({p})" for k, p in enumerate(phases) if k not in own)
     out = []
     unread = {f.extra.get("table") for f in prior if f.code == "SRC-QUANTITY"}
     for tb in tables:
-        meta = tb.meta
-        if meta.species_id in reached:
-            if meta.species_id in linked:
-                tb = replace(tb, meta=replace(meta, reached=True))
-            out.append(tb)
-            continue
-        out.append(tb)
-        if not meta.anchored and meta.file not in unread:
-            found.append(finding("ANCHOR-MISSING", f"{meta.species_id} has no ΔfH° and S° at "
-                                 "298.15 K and no transition links it to a phase that has",
+        meta, sid = tb.meta, tb.meta.species_id
+        if sid in reached:
+            tb = replace(tb, meta=replace(meta, reached=True))
+        elif sid not in explained and _primary(by_id[sid]) is tb and not meta.anchored \
+                and meta.file not in unread:
+            found.append(finding("ANCHOR-MISSING", f"{sid} has no ΔfH° and S° at 298.15 K and "
+                                 "no transition links it to a phase that has",
                                  expected="enthalpy_of_formation_298 and entropy_298 in "
                                  "source.json, or a transition to an anchored phase",
                                  **meta.where))
+        out.append(tb)
     return tuple(out), tuple(chains), found

@@ -160,12 +160,13 @@ def _order(chain, done, metas) -> list:
         if p not in fitted or b <= a:
             continue
         grid = np.linspace(a, b, 25)[1:-1]
+        # the uncertainty budget of the transition out of p (the last one for the top phase)
+        x = chain.transitions[min(chain.phases.index(p), len(chain.transitions) - 1)]
         for q, fq in fitted.items():
             if q == p:
                 continue
             inside = grid[(grid >= fq.ranges[0].t_min) & (grid <= fq.ranges[-1].t_max)]
             for t in inside:
-                x = chain.transitions[min(chain.phases.index(p), len(chain.transitions) - 1)]
                 gap = _values(fitted[p], t)["G"] - _values(fq, t)["G"]
                 if gap > _tolerance(x, t) and (p, q) not in seen:
                     seen.add((p, q))

@@ -190,6 +190,9 @@ def fit_species(who: SpeciesIdentity, data: CpData, settings: FitSettings = FitS
     """
     species_id = who.species_id
     t_anchor, h_anchor, s_anchor = who.anchor
+    if h_anchor is None or s_anchor is None:
+        raise FitError(species_id, "no ΔfH° and S° to anchor H and S: the table that states "
+                       "them was held back, or none does and no transition reaches this phase")
     form = forms.FORMS.get(settings.form)
     if form is None:
         raise FitError(species_id, f"form '{settings.form}' is not available; choose one of "

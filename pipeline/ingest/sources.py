@@ -95,12 +95,13 @@ def parse_transitions(doc_entries, source: SourceMeta):
             try:
                 values[key] = quantity(entry[key], kind, f"transition_{key}")
             except InputError as exc:
+                values[key] = None
                 problems.append(finding("SRC-QUANTITY", exc.what, source=source.id, file=rel,
                                         column=f"transitions/{index}/{key}",
                                         seen=clip(entry[key]), expected=exc.expected))
         if values["temperature"] is None or values["enthalpy"] is None or (
                 "u_enthalpy" in entry and values["u_enthalpy"] is None):
-            continue
+            continue            # not used; its SRC-QUANTITY finding says why
         out.append(Transition(species=entry["species"], lower=entry["from"], upper=entry["to"],
                               temperature=values["temperature"], enthalpy=values["enthalpy"],
                               u_enthalpy=values["u_enthalpy"], source=source, index=index))

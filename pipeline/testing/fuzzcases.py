@@ -173,6 +173,36 @@ def _source_case(rng):
     return good_table().encode(), text.encode()
 
 
+PHASES = ["cr", "l", "g", "cr-alpha", "cr2", "", "solid", "L", "cr-", "-", "l l", "\u03b1", 7]
+
+
+def _phases_case(rng):
+    """A table with a phase column and a source with transitions, both fuzzed."""
+    n = rng.randint(1, 30)
+    labels = [rng.choice(PHASES) for _ in range(rng.randint(1, 3))]
+    rows = [(str(labels[i * len(labels) // n]), 200 + 50 * i, f"{24.0 + 0.01 * i:.4f}")
+            for i in range(n)]
+    header = rng.choice(["phase,T [K],Cp [J/(mol*K)]", "Phase,T [K],H-H298 [kJ/mol]",
+                         "phase,T [K],Cp [J/(mol*K)],-(G-H298)/T [J/(mol*K)]"])
+    if header.count(",") == 3:
+        rows = [r + (rng.choice(["30.1", "", "x", "-5"]),) for r in rows]
+    doc = json.loads(json.dumps(SOURCE))
+    entry = {"file": "t.csv", "species": "Al", "formula": rng.choice(["Al", "Al2O3", "Zz"]),
+             "enthalpy_of_formation_298": rng.choice(QUANTITIES),
+             "entropy_298": rng.choice(QUANTITIES)}
+    if rng.random() < 0.7:
+        entry["anchor_phase"] = rng.choice(PHASES)
+    if rng.random() < 0.2:
+        entry["phase"] = rng.choice(PHASES)
+    doc["tables"] = [entry]
+    doc["transitions"] = [{"species": rng.choice(["Al", "X"]), "from": rng.choice(PHASES),
+                           "to": rng.choice(PHASES),
+                           "temperature": rng.choice(QUANTITIES + ["500 K", "5000 K", "0 K"]),
+                           "enthalpy": rng.choice(QUANTITIES + ["10 kJ/mol", "-3 kJ/mol"])}
+                          for _ in range(rng.randint(0, 3))]
+    return _csv(rows, header).encode(), json.dumps(doc).encode()
+
+
 def _random_text_case(rng):
     alphabet = "0123456789.,;-+eE KTCpHS[]()/*\n\t\"'#°µ\x00\u00e9\uff11"
     return "".join(rng.choice(alphabet) for _ in range(rng.randint(0, 600))).encode(), None
@@ -202,6 +232,7 @@ KINDS = {  # name: (generator, share of the cases)
     "encodings": (_encoding_case, 8),
     "structure": (_structure_case, 10),
     "source.json": (_source_case, 20),
+    "phases and transitions": (_phases_case, 8),
     "random text": (_random_text_case, 8),
     "mutated bytes": (_mutated_case, 14),
 }

@@ -232,7 +232,7 @@ KINDS = {  # name: (generator, share of the cases)
     "encodings": (_encoding_case, 8),
     "structure": (_structure_case, 10),
     "source.json": (_source_case, 20),
-    "phases and transitions": (_phases_case, 8),
+    "phases": (_phases_case, 8),
     "random text": (_random_text_case, 8),
     "mutated bytes": (_mutated_case, 14),
 }

@@ -131,12 +131,13 @@ def _fit_all(checked: CheckResult, ctx: Settings, say, previous: dict):
     quarantined = list(checked.quarantined)
     fitted, done = {}, {}
     order = phases.fitting_order(checked.selections, checked.chains)
+    chain_of = phases.chains_by_id(checked.chains)
     about = by_subject(findings)
     for k, sel in enumerate(order):
         meta = sel.primary.meta
         say("fit", k + 1, len(order), sel.species_id)
         try:
-            chain = phases.chain_of(sel.species_id, checked.chains)
+            chain = chain_of.get(sel.species_id)
             who, anchor = phases.identity(meta, chain, done) if chain else (None, {})
             result = fit_selection(sel, ctx, previous.get(sel.species_id), who)
             notes = [finding(code, msg, **meta.where) for code, msg in result.notes]

@@ -155,9 +155,13 @@ class Chain:
     root: str              # the phase anchored at 298.15 K that H and S start from
     own: tuple             # phases fitted with their own anchors (the root among them)
 
+    def id_of(self, phase: str) -> str:
+        """The species id of ``phase`` of this species, e.g. 'Ti(cr-beta)'."""
+        return f"{self.species}({phase})"
+
     def ids(self) -> tuple:
         """The species ids of the phases, in order."""
-        return tuple(f"{self.species}({p})" for p in self.phases)
+        return tuple(self.id_of(p) for p in self.phases)
 
     def stable_ranges(self, t_min: float, t_max: float) -> dict:
         """{phase: (T_lo, T_hi) [K]} where each phase is the stable one, the first from

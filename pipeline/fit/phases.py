@@ -39,22 +39,21 @@ def fitting_order(selections, chains) -> list:
         r = c.phases.index(c.root)
         seq = list(c.phases[r:]) + list(reversed(c.phases[:r]))
         for k, p in enumerate(seq):
-            place[f"{c.species}({p})"] = (c.species, k)
+            place[c.id_of(p)] = (c.species, k)
     return sorted(selections, key=lambda s: place.get(s.species_id, (s.species_id, 0)))
 
 
-def chain_of(species_id: str, chains):
-    """The Chain that holds ``species_id``, or None."""
-    for c in chains:
-        if species_id in c.ids():
-            return c
-    return None
+def chains_by_id(chains) -> dict:
+    """{species id: the Chain that holds it} of every phase in ``chains``."""
+    return {sid: c for c in chains for sid in c.ids()}
 
 
 def _values(fit, t):
-    """Cp, H, S, G of a FitResult at T [K] (its polynomial, also outside its range)."""
+    """Cp, H, S, G of a FitResult at T [K], a number or an array (its polynomial, also
+    outside its range)."""
     rr = [(r.t_min, r.t_max, r.coefficients) for r in fit.ranges]
-    return {k: float(v[0]) for k, v in forms.evaluate_ranges(rr, [t], fit.form).items()}
+    got = forms.evaluate_ranges(rr, t, fit.form)
+    return got if np.ndim(t) else {k: float(v[0]) for k, v in got.items()}
 
 
 def identity(meta, chain, done: dict) -> tuple:
@@ -63,7 +62,7 @@ def identity(meta, chain, done: dict) -> tuple:
     phase it is reached from was not fitted."""
     p = meta.phase
     span = tuple(x.temperature for x in chain.transitions if p in (x.lower, x.upper))
-    root_id = f"{chain.species}({chain.root})"
+    root_id = chain.id_of(chain.root)
     if p in chain.own:
         who = replace(SpeciesIdentity.of_table(meta), span=span)
         return who, {"basis": "own", "temperature": REFERENCE_TEMPERATURE,
@@ -97,7 +96,7 @@ def _tolerance(x, t):
     """Twice the standard uncertainty [J/mol] of a Gibbs-energy difference at ``t`` [K]
     between two phases joined by ``x``: its ΔH_trs and both phases' anchors."""
     u_trs = x.u_enthalpy if x.u_enthalpy is not None else U_TRANSITION_REL * abs(x.enthalpy)
-    return 2.0 * float(np.sqrt(u_trs ** 2 + 2 * U_ANCHOR_H ** 2 + 2 * (t * U_ANCHOR_S) ** 2))
+    return 2.0 * np.sqrt(u_trs ** 2 + 2 * U_ANCHOR_H ** 2 + 2 * (t * U_ANCHOR_S) ** 2)
 
 
 def _used(x, anchor) -> bool:
@@ -149,13 +148,12 @@ def check_chain(chain, done: dict, metas: dict) -> list:
 def _order(chain, done, metas) -> list:
     """TRS-ORDER: a phase whose Gibbs energy lies below the stable phase's, on a grid over
     the stable ranges (each phase evaluated inside its own range only)."""
-    fitted = {p: done[f"{chain.species}({p})"][0] for p in chain.phases
-              if f"{chain.species}({p})" in done}
+    fitted = {p: done[chain.id_of(p)][0] for p in chain.phases if chain.id_of(p) in done}
     if len(fitted) < 2:
         return []
     lo = min(f.ranges[0].t_min for f in fitted.values())
     hi = max(f.ranges[-1].t_max for f in fitted.values())
-    out, seen = [], set()
+    out = []
     for p, (a, b) in chain.stable_ranges(lo, hi).items():
         if p not in fitted or b <= a:
             continue
@@ -163,17 +161,18 @@ def _order(chain, done, metas) -> list:
         # the uncertainty budget of the transition out of p (the last one for the top phase)
         x = chain.transitions[min(chain.phases.index(p), len(chain.transitions) - 1)]
         for q, fq in fitted.items():
-            if q == p:
-                continue
             inside = grid[(grid >= fq.ranges[0].t_min) & (grid <= fq.ranges[-1].t_max)]
-            for t in inside:
-                gap = _values(fitted[p], t)["G"] - _values(fq, t)["G"]
-                if gap > _tolerance(x, t) and (p, q) not in seen:
-                    seen.add((p, q))
-                    sid = f"{chain.species}({q})"
-                    out.append(finding(
-                        "TRS-ORDER", f"{sid} has a Gibbs energy {gap / 1000:.4g} kJ/mol below "
-                        f"{chain.species}({p}) at {t:.6g} K, where the transitions make "
-                        f"{chain.species}({p}) the stable phase", seen=f"{t:.6g} K",
-                        expected=f"{chain.species}({p}) lowest in G", **metas[sid].where))
+            if q == p or not len(inside):
+                continue
+            gap = _values(fitted[p], inside)["G"] - _values(fq, inside)["G"]
+            below = np.flatnonzero(gap > _tolerance(x, inside))
+            if not len(below):
+                continue
+            k = below[0]
+            sid, stable = chain.id_of(q), chain.id_of(p)
+            out.append(finding(
+                "TRS-ORDER", f"{sid} has a Gibbs energy {gap[k] / 1000:.4g} kJ/mol below "
+                f"{stable} at {inside[k]:.6g} K, where the transitions make {stable} the "
+                "stable phase", seen=f"{inside[k]:.6g} K", expected=f"{stable} lowest in G",
+                **metas[sid].where))
     return out

@@ -180,7 +180,7 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
                                 file=file, line=header_line, expected="data rows"))
     have = {c.quantity for c, _ in usable}
     if "T" not in have or not have & {"Cp", "H-H298"}:
-        rows = rows[:1] if len(rows) > 1 else rows   # no rows without T and Cp (or H-H298)
+        rows = rows[:1]                 # no rows without T and Cp (or H-H298)
     values, lines_read, row_problems = _read_rows(rows[1:], len(header), usable, mark,
                                                   delimiter, file)
     if not lines_read and len(row_problems) > 1:
@@ -217,11 +217,20 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
             findings.append(finding("UCP-PARTIAL", f"u(Cp) is missing on {int((~given).sum())} "
                                     f"of {len(data)} rows, first at line {first}", file=file,
                                     line=first, column="u(Cp)", expected="all rows or none"))
-    if phase == "g" and data["S"].notna().any() and standard_pressure != constants.STANDARD_PRESSURE:
-        shift = statmech.entropy_shift_to_standard(standard_pressure)
-        data["S"] = data["S"] + shift
-        notes.append(f"S moved from {standard_pressure:g} Pa to 1 bar: {shift:+.4f} J/(mol*K)")
+    if phase == "g" and data["S"].notna().any():
+        data["S"], note = at_one_bar(data["S"], standard_pressure, "S")
+        notes += [note] if note else []
     return ParsedTable(data, tuple(header), tuple(notes), tuple(_summarise(findings)), record)
+
+
+def at_one_bar(entropy, pressure: float, label: str):
+    """(entropy moved to 1 bar, the note saying so or None): an ideal gas's entropy [J/(mol K)],
+    a number or a column, tabulated at ``pressure`` [Pa]: S(1 bar) = S(p) + R ln(p / 1 bar).
+    Unchanged at 1 bar."""
+    if entropy is None or pressure == constants.STANDARD_PRESSURE:
+        return entropy, None
+    shift = statmech.entropy_shift_to_standard(pressure)
+    return entropy + shift, f"{label} moved from {pressure:g} Pa to 1 bar: {shift:+.4f} J/(mol*K)"
 
 
 def _read_rows(rows, width, usable, mark, delimiter, file):

@@ -11,10 +11,10 @@ from dataclasses import replace
 
 import numpy as np
 
-from ..core import constants, phases
+from ..core import phases
 from ..core.findings import finding
 from ..core.records import Table
-from ..physics import statmech
+from . import csvtable
 from .increments import cp_from_increments
 
 
@@ -57,32 +57,22 @@ def split(meta, data, entry) -> tuple[list, list]:
     out = []
     for phase in present:
         rows = data[data["phase"] == phase].drop(columns="phase").reset_index(drop=True)
+        s298, anchor_note = csvtable.at_one_bar(meta.entropy_298, meta.source.standard_pressure,
+                                                "entropy_298") if phases.is_gas(phase) \
+            else (meta.entropy_298, None)
+        notes = [f"rows of phase {phase} of a table with a phase column"] + \
+            ([anchor_note] if anchor_note and phase == anchor_phase else [])
+        if phases.is_gas(phase) and rows["S"].notna().any():
+            rows["S"], note = csvtable.at_one_bar(rows["S"], meta.source.standard_pressure, "S")
+            notes += [note] if note else []
         part = replace(meta, phase=phase, geometry=meta.geometry if phase == "g" else None,
                        shared=len(present) > 1,
                        enthalpy_of_formation_298=meta.enthalpy_of_formation_298
                        if phase == anchor_phase else None,
-                       entropy_298=_entropy(meta, phase, anchor_phase),
-                       notes=meta.notes + (f"rows of phase {phase} of a table with a phase "
-                                           "column",))
-        if phases.is_gas(phase) and meta.source.standard_pressure != constants.STANDARD_PRESSURE \
-                and rows["S"].notna().any():
-            shift = statmech.entropy_shift_to_standard(meta.source.standard_pressure)
-            rows["S"] = rows["S"] + shift
-            part = replace(part, notes=part.notes + (
-                f"S moved from {meta.source.standard_pressure:g} Pa to 1 bar: {shift:+.4f} "
-                "J/(mol*K)",))
+                       entropy_298=s298 if phase == anchor_phase else None,
+                       notes=meta.notes + tuple(notes))
         out.append(_with_cp(Table(meta=part, data=rows)))
     return out, []
-
-
-def _entropy(meta, phase, anchor_phase):
-    """S° of ``phase`` at 1 bar: the entry's, moved from the source's pressure for a gas."""
-    if phase != anchor_phase or meta.entropy_298 is None:
-        return None
-    if phases.is_gas(phase) and meta.source.standard_pressure != constants.STANDARD_PRESSURE:
-        return meta.entropy_298 + statmech.entropy_shift_to_standard(
-            meta.source.standard_pressure)
-    return meta.entropy_298
 
 
 def _with_cp(table: Table) -> Table:

@@ -9,13 +9,12 @@ import hashlib
 from dataclasses import dataclass
 from pathlib import Path
 
-from ..core import chemistry, constants, jsonread, phases, schemas, units
+from ..core import chemistry, jsonread, phases, schemas, units
 from ..core.errors import InputError
 from ..core.findings import Finding, clip, finding, stage_failed
 from ..core.limits import ANCHOR_RANGE, MAX_SOURCE_BYTES, MAX_TABLE_BYTES, MAX_TABLES_PER_SOURCE
 from ..core.names import sha256
 from ..core.records import InputFile, SourceMeta, Table, TableMeta, Transition
-from ..physics import statmech
 from . import csvtable, dialect, phased
 
 
@@ -188,15 +187,10 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
                                     file=f"{source.folder}/source.json",
                                     column=f"tables/{index}/{key}", extra={"table": rel},
                                     seen=clip(entry[key]), expected=exc.expected))
-    notes = []
-    s298 = anchors["entropy_298"]
-    gas_at_other_pressure = (entry.get("phase") == "g"
-                             and source.standard_pressure != constants.STANDARD_PRESSURE)
-    if s298 is not None and gas_at_other_pressure:
-        shift = statmech.entropy_shift_to_standard(source.standard_pressure)
-        s298 += shift   # the pressure is > 0: checked against ANCHOR_RANGE when read
-        notes.append(f"entropy_298 moved from {source.standard_pressure:g} Pa to 1 bar: "
-                     f"{shift:+.4f} J/(mol*K)")
+    s298, note = anchors["entropy_298"], None
+    if entry.get("phase") == "g":      # the pressure is > 0: checked against ANCHOR_RANGE
+        s298, note = csvtable.at_one_bar(s298, source.standard_pressure, "entropy_298")
+    notes = [note] if note else []
     text, encoding, enc = dialect.decode(raw, rel)
     problems += [f.located(source=source.id) for f in enc]
     molar_mass = comp.molar_mass if comp else None

@@ -75,6 +75,13 @@ def resolve_id(ids, name: str, phase: str | None = None) -> str:
     raise SpeciesNotFound(name, _close(name, ids))
 
 
+def chain(transitions, name: str) -> tuple:
+    """(the transitions of species ``name`` (any case) among a library's 'transitions', the
+    species ids of its phases in order on heating); both empty when it has none."""
+    links = [x for x in transitions if x["species"].casefold() == name.casefold()]
+    return links, ([links[0]["from"]] + [x["to"] for x in links] if links else [])
+
+
 def phases_at(doc: dict, name: str, temperatures, phase: str | None = None) -> list:
     """The species id to evaluate at each of ``temperatures`` [K]: the one ``name`` (and
     ``phase``) means, or, for a name whose phases are linked by transitions, the phase
@@ -84,12 +91,10 @@ def phases_at(doc: dict, name: str, temperatures, phase: str | None = None) -> l
     try:
         return [resolve_id(by_id, name, phase)] * len(temperatures)
     except SpeciesNotFound as exc:
-        chain = [x for x in doc.get("transitions", [])
-                 if isinstance(name, str) and x["species"].casefold() == name.casefold()]
-        if not (exc.ambiguous and chain):
+        links, ids = chain(doc.get("transitions", []), name)
+        if not (exc.ambiguous and links):
             raise
-    ids = [chain[0]["from"]] + [x["to"] for x in chain]
-    temps = [by_id[ids[0]]["ranges"][0]["t_min"]] + [x["temperature"] for x in chain] + \
+    temps = [by_id[ids[0]]["ranges"][0]["t_min"]] + [x["temperature"] for x in links] + \
         [by_id[ids[-1]]["ranges"][-1]["t_max"]]
     out = []
     for t in temperatures:

@@ -67,10 +67,9 @@ def species_rows(sp, step=100.0, points=None, transitions=()) -> dict:
 def stable_rows(doc, name, step=100.0) -> dict:
     """The table of species ``name`` across its phases: at each temperature the stable
     phase (named in 'phase'), both phases at a transition (below, then above)."""
-    chain = [x for x in doc.get("transitions", []) if x["species"] == name]
-    ids = [chain[0]["from"]] + [x["to"] for x in chain]
+    links, ids = library.chain(doc.get("transitions", []), name)
     by_id = {s["id"]: s for s in doc["species"]}
-    parts = [species_rows(by_id[i], step, None, chain) for i in ids if i in by_id]
+    parts = [species_rows(by_id[i], step, None, links) for i in ids if i in by_id]
     keep = [np.asarray(p["stable"]) for p in parts]
     out = {c: np.concatenate([np.asarray(p[c])[k] for p, k in zip(parts, keep)])
            for c in COLUMNS}

@@ -134,14 +134,15 @@ class DeviationPlotter:
 
 
 @styled
-def phase_figure(name, transitions, by_id) -> bytes:
+def phase_figure(name, all_transitions, by_id) -> bytes:
     """SVG of every phase of species ``name``: Cp [J/(mol K)] over each phase's range of use
     and H − H298 [kJ/mol] with its jumps, solid where the phase is stable (between its
-    ``transitions``), dashed elsewhere, a dotted line at each transition."""
+    transitions among the library's ``all_transitions``), dashed elsewhere, a dotted line
+    at each transition."""
     fig = Figure(figsize=(7.2, 5.0))
     top, bottom = fig.subplots(2, 1, sharex=True, gridspec_kw={"height_ratios": [1, 1]})
     fig.subplots_adjust(left=0.1, right=0.8, top=0.93, bottom=0.1, hspace=0.08)
-    order = [transitions[0]["from"]] + [x["to"] for x in transitions]
+    transitions, order = library.chain(all_transitions, name)
     temps = [0.0] + [x["temperature"] for x in transitions] + [np.inf]
     colours = [DATA, FIT, SHADE, BAD, INK, GRID]
     for k, sid in enumerate(order):

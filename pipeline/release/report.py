@@ -263,7 +263,7 @@ def report_files(doc, points, accept, workers=None, say=None) -> dict:
     by_id = {s["id"]: s for s in species}
     for name in sorted({x["species"] for x in transitions}):
         files[f"report/img/{file_stem(name)}-phases.svg"] = plots.phase_figure(
-            name, [x for x in transitions if x["species"] == name], by_id)
+            name, transitions, by_id)
     per_source = Counter(s["sources"][0]["source"] for s in species)
     hist, bars = plots.overview_figures([100 * s["quality"]["cp_max_rel_dev"]
                                          for s in species], per_source)

@@ -6,14 +6,14 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 
 from . import fit, ingest
-from .checks import acknowledge, reconcile, registry, transitions
+from .checks import acknowledge, reconcile, references, registry, transitions
 from .core.errors import FitError, InputError, OutputError
 from .core.findings import ERROR, by_subject, finding, stage_failed
 from .core.records import CheckResult, CpData, FittedSpecies, SpeciesIdentity
 from .core.settings import Settings, for_table
 from .fit import phases
 from .library import document as library
-from .release import assemble, provenance, publish
+from .release import assemble, formation, provenance, publish
 from .release import audit as audit_stage
 from .release import document as release_document
 
@@ -38,7 +38,9 @@ def examine(raw_dir, ctx: Settings = Settings()) -> CheckResult:
     got = ingest.ingest(raw_dir)
     tables, chains, linked = transitions.link(got.tables, got.transitions, ctx,
                                               got.findings)
-    found = list(got.findings) + list(linked) + list(registry.validate(tables, ctx, got.findings))
+    declared, unclear = references.declare(got.sources, ctx.references)
+    found = list(got.findings) + list(linked) + list(unclear) + \
+        list(registry.validate(tables, ctx, got.findings))
     about = by_subject(found)
     accepted, quarantined = [], []
     for table in tables:
@@ -53,7 +55,7 @@ def examine(raw_dir, ctx: Settings = Settings()) -> CheckResult:
     found = acknowledge.apply(tables, found)
     return CheckResult(tables=tables, findings=tuple(found), inputs=got.inputs,
                        selections=tuple(selections), quarantined=tuple(quarantined),
-                       held_back=held_back(tables, found), chains=chains)
+                       held_back=held_back(tables, found), chains=chains, references=declared)
 
 
 def held_back(tables, findings) -> tuple:
@@ -196,6 +198,8 @@ def _build(raw_dir, out_dir, ctx: Settings, progress, previous: dict) -> BuildRe
     digest = ingest.inputs_digest(checked.inputs)
     doc = release_document.library_document(fitted, quarantined, digest, ctx.to_dict(), entries,
                                             checked.chains)
+    findings += formation.attach(doc, checked.references, checked.tables,
+                                 ctx.checks.stated_formation_u)
     outcome = assemble.Outcome(document=doc, findings=tuple(findings), fitted=tuple(fitted),
                                quarantined=tuple(quarantined), checked=checked)
     files = assemble.release_files(outcome, ctx, say)

@@ -26,6 +26,11 @@ monitored by the analysers. Two sources feed its property library:
   seeded 0.1 % Gaussian noise; the Ti melt is an enthalpy-increment table (T and H − H298
   only, as drop calorimetry gives) and the alpha-Ti table carries S and −(G − H298)/T.
   Transition temperatures and enthalpies are recalled from memory of handbook values.
+  Graphite (electrodes and crucible; carbon's reference state) is a table of handbook Cp
+  values recalled from memory of NIST-JANAF with the same noise. H2 (for the Sabatier
+  branch and methane pyrolysis) joins the computed source, so that formation properties
+  of every species made of C, H, N, O, Ti and Ar appear; S and Fe have no reference
+  species in the demo, and SO2 and FeO show the finding that says so.
 
 Enthalpies of formation and entropies at 298.15 K are recalled from memory of
 the CODATA Key Values (Cox, Wagman & Medvedev, 1989) and the NIST-JANAF tables
@@ -39,6 +44,7 @@ import numpy as np
 from scipy.integrate import quad
 from thermoledger.core.constants import ENTROPY_ATM_TO_BAR, GAS_CONSTANT
 from thermoledger.physics.statmech import rrho_cp_over_r
+from thermoledger.testing.formation import GRAPHITE_CP, GRAPHITE_S298
 
 ROOT = Path(__file__).resolve().parent
 
@@ -47,6 +53,7 @@ ROOT = Path(__file__).resolve().parent
 SPECIES = {
     "Ar": ("Ar", "monatomic", [], [], [], 0.0, 154.846),
     "N2": ("N2", "linear", [2358.57], [1], [], 0.0, 191.609),
+    "H2": ("H2", "linear", [4401.2], [1], [], 0.0, 130.680),
     "O2": ("O2", "linear", [1580.19], [1], [(3, 0.0), (2, 7918.1), (1, 13195.1)], 0.0, 205.152),
     "CO": ("CO", "linear", [2169.81], [1], [], -110.53, 197.660),
     "NO": ("NO", "linear", [1904.2], [1], [(2, 0.0), (2, 121.1)], 90.29, 210.758),
@@ -56,6 +63,9 @@ SPECIES = {
     "SO2": ("SO2", "nonlinear", [1151.0, 518.0, 1362.0], [1, 1, 1], [], -296.81, 248.223),
     "NH3": ("NH3", "nonlinear", [3337.0, 950.0, 3444.0, 1627.0], [1, 1, 2, 2], [], -45.94, 192.77),
 }
+
+#: u(ΔfH°), u(S°) of the anchors that state them (CODATA Key Values, from memory; demo only)
+ANCHOR_U = {"CO": ("0.17 kJ/mol", "0.004 J/(mol*K)"), "CO2": ("0.13 kJ/mol", "0.010 J/(mol*K)")}
 
 GRID = np.array([200.0, 250.0, 298.15, 300.0, 350.0] + list(np.arange(400.0, 3001.0, 100.0)))
 
@@ -95,7 +105,7 @@ def integrals(name, t):
 def computed_source(folder: Path):
     folder.mkdir(exist_ok=True)
     tables = []
-    for name in ("Ar", "N2", "O2", "CO", "NO", "CO2", "CH4"):
+    for name in ("Ar", "N2", "O2", "H2", "CO", "NO", "CO2", "CH4"):
         cp = cp_molar(name, GRID)
         file = f"{name.lower()}.csv"
         extra = {}
@@ -121,6 +131,8 @@ def computed_source(folder: Path):
             extra = {"fit": {"use_t_max": 6000}}
         if name == "CH4":  # published with the 9-coefficient form in three ranges
             extra = {"fit": {"form": "nasa9", "ranges": 3}}
+        if name in ANCHOR_U:  # the standard uncertainties the key values state
+            extra["u_enthalpy_of_formation_298"], extra["u_entropy_298"] = ANCHOR_U[name]
         tables.append({**entry(name, file), **extra})
     meta = {
         "source": "isru-rrho-2026",
@@ -175,9 +187,15 @@ def synthetic_source(folder: Path):
                  "0.15 % Gaussian noise, in mixed units, entropies at 1 atm. Deliberate "
                  "defects: nh3.csv line 9 reads n/a; co-cal.csv holds calories labelled as "
                  "joules; n2o.csv line 14 has two digits swapped; co2-benchlog.csv drifts "
-                 "up to +1.2 % from the computed source above 1000 K.",
+                 "up to +1.2 % from the computed source above 1000 K. The CO2 entry states "
+                 "formation properties copied from memory of NIST-JANAF, log10 Kf(1500 K) "
+                 "with two digits swapped (31.8 for 13.8).",
         "tables": [entry("N2O", "n2o.csv", atm=True), entry("SO2", "so2.csv", atm=True),
-                   entry("CO2", "co2-benchlog.csv", atm=True),
+                   {**entry("CO2", "co2-benchlog.csv", atm=True),
+                    # copied from a handbook into the log, one value with a slipped digit
+                    "stated_formation": [
+                        {"temperature": "1000 K", "gibbs_energy": "-395.886 kJ/mol"},
+                        {"temperature": "1500 K", "log10_kf": 31.8}]},
                    entry("CO", "co-cal.csv", atm=True,
                          notes="deliberately defective: calories labelled as joules"),
                    entry("NH3", "nh3.csv", atm=True, notes="deliberately defective (line 9)")],
@@ -253,6 +271,9 @@ def furnace_source(folder: Path):
     rows += [["l", f"{x:g}", f"{c:.4f}"] for x, c in zip(t_l, noisy(furnace_cp("FeO", "l",
                                                                                t_l)))]
     write_csv(folder / "feo.csv", ["phase", "T [K]", "Cp [J/(mol*K)]"], rows)
+    t, cp = np.array(GRAPHITE_CP).T
+    rows = [[f"{x:g}", f"{c:.4f}"] for x, c in zip(t, noisy(cp))]
+    write_csv(folder / "graphite.csv", ["T [K]", "Cp [J/(mol*K)]"], rows)
     h_ti, s_ti = FURNACE_ANCHORS["Ti"]
     h_feo, s_feo = FURNACE_ANCHORS["FeO"]
     meta = {
@@ -264,7 +285,9 @@ def furnace_source(folder: Path):
         "priority": 10,
         "license": "CC0-1.0",
         "notes": "SYNTHETIC demo data: Maier-Kelley-type Cp models chosen for the demo with "
-                 "seeded 0.1 % Gaussian noise (0.03 % on the drop-calorimetry increments). "
+                 "seeded 0.1 % Gaussian noise (0.03 % on the drop-calorimetry increments); "
+                 "graphite from handbook Cp values recalled from memory of NIST-JANAF with "
+                 "the same noise. "
                  "Transition temperatures and enthalpies, and the 298.15 K anchors, recalled "
                  "from memory of handbook values; demo metadata only.",
         "tables": [
@@ -279,6 +302,11 @@ def furnace_source(folder: Path):
             {"file": "feo.csv", "species": "FeO", "formula": "FeO", "anchor_phase": "cr",
              "enthalpy_of_formation_298": f"{h_feo:.2f} kJ/mol",
              "entropy_298": f"{s_feo:.2f} J/(mol*K)"},
+            {"file": "graphite.csv", "species": "C", "formula": "C", "phase": "cr",
+             "notes": "graphite electrodes and crucible; the reference state of carbon",
+             "enthalpy_of_formation_298": "0 kJ/mol",
+             "entropy_298": f"{GRAPHITE_S298[0]:.2f} J/(mol*K)",
+             "u_entropy_298": f"{GRAPHITE_S298[1]:.2f} J/(mol*K)"},
         ],
         "transitions": [
             {"species": n, "from": a, "to": b, "temperature": f"{tt:g} K",

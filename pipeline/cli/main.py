@@ -9,6 +9,8 @@ from .. import build
 from ..core.errors import InputError, ThermoledgerError
 from ..core.paths import write_atomic
 from ..library import document as library
+from ..library import reaction
+from ..library.formation import Formation
 from ..release import document as release_document
 from . import render
 from .parse import named_fit_options, parser, settings_of
@@ -86,10 +88,36 @@ def cmd_props(args) -> int:
                            f"{args.library}: {', '.join(dict.fromkeys(ids))} cannot be "
                            "evaluated")
     sps = [by_id[i] for i in ids]
+    made = None if args.no_formation else Formation(doc)
+    formed = _from_library(lambda: made.at_ids(ids, args.temperatures), f"{args.library}: "
+                           "formation properties cannot be evaluated") if made else None
+    missing = made.missing(ids[0]) if made and formed is None else []
+    refs = made.states if made else {}
     if args.json:
-        print(json.dumps(render.props_json(sps, args.temperatures, values), indent=1))
+        print(json.dumps(render.props_json(sps, args.temperatures, values, formed, missing,
+                                           refs), indent=1))
     else:
         _say(render.props_table(sps, args.temperatures, values, args.library))
+        if made:
+            _say(render.formation_table(sps, args.temperatures, formed, missing, refs))
+    return 0
+
+
+def cmd_reaction(args) -> int:
+    """``thermoledger reaction``: ΔrH°, ΔrS°, ΔrG° and log10 K of an equation at the given
+    temperatures, from a curated library."""
+    from ..core import units
+
+    t = units.to_si(args.temperatures, args.temperature_unit, "temperature")
+    doc = library.load(args.library)
+    got = _from_library(lambda: reaction.evaluate(doc, args.equation, t),
+                        f"{args.library}: the reaction cannot be evaluated")
+    shown = render.reaction_units(args.energy_unit, args.entropy_unit)
+    if args.json:
+        print(json.dumps(render.reaction_json(got, args.temperatures, args.temperature_unit,
+                                              shown), indent=1))
+    else:
+        _say(render.reaction_table(got, args.library, shown))
     return 0
 
 
@@ -116,7 +144,7 @@ def cmd_diff(args) -> int:
 
 
 COMMANDS = {"build": cmd_build, "check": cmd_check, "audit": cmd_audit, "diff": cmd_diff,
-            "props": cmd_props}
+            "props": cmd_props, "reaction": cmd_reaction}
 
 
 class Interrupted(BaseException):

@@ -58,6 +58,7 @@ def parser() -> argparse.ArgumentParser:
     b.add_argument("--table-step", type=number(0.1, 1e5, what="a step in K"), default=100.0,
                    metavar="K",
                    help="temperature step of the evaluated tables after 298.15 K (100)")
+    _reference_option(b)
     _fit_options(b)
 
     c = sub.add_parser("check", help="ingest and validate only; print the findings",
@@ -68,6 +69,7 @@ def parser() -> argparse.ArgumentParser:
     c.add_argument("--report", type=Path, metavar="FILE",
                    help="also write the findings as JSON (schemas/findings.schema.json)")
     c.add_argument("--json", action="store_true", help="print the findings report as JSON")
+    _reference_option(c)
     _fit_options(c)
 
     a = sub.add_parser("audit", help="rebuild into a temporary folder and compare with curated/",
@@ -110,8 +112,51 @@ def parser() -> argparse.ArgumentParser:
                    help="temperatures [K]")
     q.add_argument("--phase", help="evaluate this phase (g, l, cr, cr-<form>) instead of the "
                                    "phase stable at each temperature")
+    q.add_argument("--no-formation", action="store_true",
+                   help="leave out ΔfH°, ΔfG° and log10 Kf")
     q.add_argument("--json", action="store_true", help="print the values as JSON")
+
+    r = sub.add_parser("reaction", help="reaction enthalpy, entropy, Gibbs energy and log10 K",
+                       description="Print ΔrH°, ΔrS°, ΔrG° and log10 K of a balanced equation "
+                                   "at the given temperatures, with standard uncertainties, "
+                                   "from the species of a curated library.")
+    r.add_argument("library", type=Path, help="library.json or a curated folder")
+    r.add_argument("equation", help="a balanced equation such as \"2 CO + O2 = 2 CO2\" "
+                                    "(species joined by ' + '; a phase in parentheses where a "
+                                    "name has several: \"C(cr) + O2 = CO2\")")
+    r.add_argument("temperatures", nargs="+", type=number(-1e6, 1e6, what="a temperature"),
+                   metavar="T", help="temperatures (K unless --temperature-unit)")
+    r.add_argument("--temperature-unit", default="K", metavar="UNIT",
+                   help="unit of the temperatures given: K, degC, degF, degR (K)")
+    r.add_argument("--energy-unit", default="kJ/mol", metavar="UNIT",
+                   help="unit of ΔrH° and ΔrG° (kJ/mol); e.g. J/mol, kcal/mol")
+    r.add_argument("--entropy-unit", default="J/(mol*K)", metavar="UNIT",
+                   help="unit of ΔrS° (J/(mol*K)); e.g. cal/(mol*K)")
+    r.add_argument("--json", action="store_true", help="print the values as JSON")
     return p
+
+
+def _reference_option(p) -> None:
+    p.add_argument("--reference-state", action="append", default=[], metavar="EL=SPECIES",
+                   help="reference state of element EL for formation properties: a species "
+                        "name (its stable phase at each T) or id, e.g. C=C(cr); repeatable; "
+                        "wins over source.json 'reference_states' and the defaults")
+
+
+def reference_states(given) -> tuple:
+    """((element, species), ...) sorted from --reference-state EL=SPECIES options;
+    InputError for one that cannot be read."""
+    from ..core.atomic_weights import STANDARD_ATOMIC_WEIGHTS
+
+    out = {}
+    for text in given or ():
+        el, sep, name = text.partition("=")
+        el, name = el.strip(), name.strip()
+        if not sep or el not in STANDARD_ATOMIC_WEIGHTS or not name or len(name) > 80:
+            raise InputError(f"--reference-state '{text[:80]}' is not understood",
+                             expected="ELEMENT=SPECIES with an element symbol, e.g. C=C(cr)")
+        out[el] = name
+    return tuple(sorted(out.items()))
 
 
 def _fit_options(p, recorded=False):
@@ -207,4 +252,5 @@ def settings_of(args) -> Settings:
                                     continuity=args.continuity, minimax=args.minimax,
                                     use_t_min=lo, use_t_max=hi,
                                     accept_cp_max_rel=args.accept_cp),
-                    outputs=_outputs(args))
+                    outputs=_outputs(args),
+                    references=reference_states(getattr(args, "reference_state", ())))

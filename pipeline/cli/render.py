@@ -1,6 +1,8 @@
 """Command-line output: the text each command prints, built from the stages' results.
 Every function returns lines (or a string); the commands print them."""
 
+import math
+
 from ..core.findings import ERROR, INFO, WARNING, format_block
 
 
@@ -89,17 +91,134 @@ def check_summary(result) -> list:
 PROPS_UNITS = {"T": "K", "Cp": "J/(mol*K)", "H": "J/mol", "S": "J/(mol*K)", "G": "J/mol"}
 
 
-def props_json(sps, temperatures, values: dict) -> dict:
+def props_json(sps, temperatures, values: dict, formed=None, missing=(), refs=None) -> dict:
     """The ``props --json`` document at ``temperatures`` [K]; ``sps`` the library entry
-    evaluated at each temperature (one species, or the stable phase of each)."""
+    evaluated at each temperature (one species, or the stable phase of each); ``formed``
+    its formation properties (None: none, ``missing`` says why; ``refs`` the reference
+    states by element)."""
     keys = ("Cp", "u_Cp", "H", "u_H", "S", "u_S", "G")
     first = sps[0]
-    return {"id": first["id"] if len({sp["id"] for sp in sps}) == 1 else None,
-            "form": first["form"], "units": PROPS_UNITS,
-            "rows": [{"T": t, "id": sp["id"], "phase": sp["phase"],
-                      **{k: float(values[k][i]) for k in keys},
-                      "extrapolated": bool(values["extrapolated"][i])}
-                     for i, (t, sp) in enumerate(zip(temperatures, sps))]}
+    doc = {"id": first["id"] if len({sp["id"] for sp in sps}) == 1 else None,
+           "form": first["form"], "units": {**PROPS_UNITS, **FORMATION_UNITS},
+           "rows": [{"T": t, "id": sp["id"], "phase": sp["phase"],
+                     **{k: float(values[k][i]) for k in keys},
+                     **{k: _number(formed[k][i]) if formed else None for k in FORMATION_UNITS},
+                     "extrapolated": bool(values["extrapolated"][i] or (
+                         formed is not None and formed["ref_extrapolated"][i]))}
+                    for i, (t, sp) in enumerate(zip(temperatures, sps))]}
+    if refs is not None:
+        doc["formation"] = {"reference_states": _used_refs(sps, refs) if formed else {},
+                            "missing": list(missing)}
+    return doc
+
+
+FORMATION_UNITS = {"dfH": "J/mol", "u_dfH": "J/mol", "dfG": "J/mol", "u_dfG": "J/mol",
+                   "log10Kf": "1", "u_log10Kf": "1"}
+
+
+def _number(x):
+    """A float for JSON, None for NaN (no value)."""
+    x = float(x)
+    return None if math.isnan(x) else x
+
+
+def _used_refs(sps, refs) -> dict:
+    """{element: reference species ids} of the elements of ``sps``."""
+    from ..library.references import elements_of
+
+    return {el: refs[el]["ids"] for el, _ in elements_of(sps[0]["formula"])}
+
+
+def formation_table(sps, temperatures, formed, missing, refs) -> list:
+    """The formation block ``props`` prints under its table: ΔfH°, ΔfG° and log10 Kf with
+    standard uncertainties, or why there are none."""
+    if formed is None:
+        return [f"no formation properties: {'; '.join(missing)}"]
+    used = ", ".join(f"{el}: {' / '.join(ids)}" for el, ids in _used_refs(sps, refs).items())
+    lines = [f"formation from the elements in their reference states ({used}):",
+             f"{'T [K]':>10} {'ΔfH° [kJ/mol]':>20} {'ΔfG° [kJ/mol]':>20} {'log10 Kf':>18}"]
+    for i, t in enumerate(temperatures):
+        if math.isnan(formed["dfH"][i]):
+            lines.append(f"{t:10.2f}  (no reference phase of an element in range)")
+            continue
+        note = "  extrapolated reference" if formed["ref_extrapolated"][i] else ""
+        lines.append(f"{t:10.2f} {formed['dfH'][i] / 1000:11.4f} ± {formed['u_dfH'][i] / 1000:6.4f} "
+                     f"{formed['dfG'][i] / 1000:11.4f} ± {formed['u_dfG'][i] / 1000:6.4f} "
+                     f"{formed['log10Kf'][i]:9.4f} ± {formed['u_log10Kf'][i]:6.4f}{note}")
+    lines.append("± standard uncertainty, with those of ΔfH° and S° (library/budget.py); "
+                 "species independent unless linked by transitions.")
+    return lines
+
+
+def reaction_units(energy: str, entropy: str) -> dict:
+    """{'dH', 'dG': energy unit, 'dS': entropy unit} checked by the units library (UnitError
+    for a unit of the wrong kind)."""
+    from ..core import units
+
+    units.check_unit(energy, "enthalpy")
+    units.check_unit(entropy, "heat_capacity")
+    return {"dH": energy, "dS": entropy, "dG": energy}
+
+
+def _in(values, unit, key):
+    from ..core import units
+
+    return units.from_si(values, unit, "heat_capacity" if key == "dS" else "enthalpy")
+
+
+REACTION_NOTE = ("± standard uncertainty (k = 1) from each species' fit covariance, form "
+                 "misfit, extrapolation model, ΔfH° and S° and its transitions; species "
+                 "independent unless linked by transitions. K at the standard pressure of 1 bar; "
+                 "ΔrH° and ΔrG° on the assigned-enthalpy scale.")
+
+
+def reaction_json(got: dict, given, t_unit: str, shown: dict) -> dict:
+    """The ``reaction --json`` document: values in the units asked for."""
+    from ..release.document import NOTICE
+
+    rows = []
+    for i, t in enumerate(got["T"]):
+        row = {"T": float(t), "T_given": float(given[i])}
+        for key in ("dH", "dS", "dG"):
+            row[key] = float(_in(got[key][i], shown[key], key))
+            row[f"u_{key}"] = float(_in(got[f"u_{key}"][i], shown[key], key))
+        row["log10K"], row["u_log10K"] = float(got["log10K"][i]), float(got["u_log10K"][i])
+        row["ids"] = [ids[i] for ids in got["ids"]]
+        row["extrapolated"] = bool(got["extrapolated"][i])
+        rows.append(row)
+    return {"equation": got["equation"],
+            "species": [{"nu": x.nu, "name": x.name} for x in got["terms"]],
+            "units": {"T": "K", "T_given": t_unit, **shown, "log10K": "1"},
+            "convention": REACTION_NOTE, "rows": rows, "notice": NOTICE}
+
+
+def _pm(value, u) -> str:
+    """'value ± u' with u to two significant digits and the value to the same place."""
+    if not (u > 0 and math.isfinite(u)):
+        return f"{value:.6g} ± 0"
+    places = min(max(1 - math.floor(math.log10(u)), 0), 8)
+    return f"{value:.{places}f} ± {u:.{places}f}"
+
+
+def reaction_table(got: dict, where, shown: dict) -> list:
+    """The ``reaction`` table: ΔrH°, ΔrS°, ΔrG° and log10 K with standard uncertainties."""
+    from ..release.document import NOTICE
+
+    ids = [list(dict.fromkeys(x)) for x in got["ids"]]
+    varies = any(len(x) > 1 for x in ids)
+    lines = [f"{got['equation']}   from {where}",
+             "species: " + ", ".join(" / ".join(x) for x in ids),
+             f"{'T [K]':>9}  {'ΔrH° [' + shown['dH'] + ']':>24}  {'ΔrS° [' + shown['dS'] + ']':>24}"
+             f"  {'ΔrG° [' + shown['dG'] + ']':>24}  {'log10 K':>18}"]
+    for i, t in enumerate(got["T"]):
+        cells = [_pm(float(_in(got[k][i], shown[k], k)), float(_in(got[f"u_{k}"][i], shown[k], k)))
+                 for k in ("dH", "dS", "dG")]
+        note = "  " + ", ".join(x[i] for x in got["ids"]) if varies else ""
+        note += "  extrapolated" if got["extrapolated"][i] else ""
+        lines.append(f"{t:9.2f}  {cells[0]:>24}  {cells[1]:>24}  {cells[2]:>24}  "
+                     f"{_pm(got['log10K'][i], got['u_log10K'][i]):>18}{note}")
+    lines += [REACTION_NOTE, f"caution: {NOTICE}"]
+    return lines
 
 
 def props_table(sps, temperatures, values: dict, where) -> list:

@@ -46,7 +46,7 @@ def composition(formula: str) -> Composition:
         reason = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
         raise InputError(f"formula '{formula}' cannot be read ({reason})",
                          expected="a formula such as CO2, CH4, N2O") from None
-    atoms = sum(counts.values())
+    atoms = sum(n for sym, n in counts.items() if sym != "e-")   # electrons of an ion left out
     if atoms < 1 or mass <= 0:
         raise InputError(f"formula '{formula}' has no atoms", expected="a formula such as CO2")
     return Composition(formula=formula, hill=hill, molar_mass=mass, atoms=atoms,

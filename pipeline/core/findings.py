@@ -207,6 +207,21 @@ _CODES = [
          "transitions make stable", "check the anchors, transitions and data of both phases"),
     Code("TRS-UNLISTED", ERROR, "Cp jumps inside one table: a probable phase transition that "
          "is not listed", "split the table by phase (a phase column) and list the transition"),
+    # --- formation properties (release/formation.py)
+    Code("FORM-NO-REFERENCE", INFO, "no formation properties for a species: one of its "
+         "elements has no usable reference species in the library",
+         "add the element's reference species (e.g. graphite for C) or declare another in "
+         "source.json 'reference_states'"),
+    Code("FORM-REF-UNCLEAR", WARNING, "the reference state of an element cannot be used as "
+         "declared (unknown element, sources naming different species, several unlinked "
+         "phases, not the element alone, or ΔfH° not 0)",
+         "name one species or phase in source.json 'reference_states' or --reference-state"),
+    Code("FORM-DISAGREE", WARNING, "a formation property the source states differs from the "
+         "library's beyond their uncertainties",
+         "check the source's value, the species' anchors and the elements' reference species"),
+    Code("FORM-STATED-UNCHECKED", INFO, "a formation property the source states could not be "
+         "compared (outside the range of use, or no formation properties)",
+         "state values inside the range of use of the species and its elements' references"),
     # --- acknowledgements
     Code("ACK-UNUSED", WARNING, "an acknowledgement in source.json matches no finding",
          "remove it or correct its code and line"),
@@ -271,6 +286,11 @@ class Finding:
         d.pop("extra")
         d["lines"] = list(self.lines)
         return d
+
+    @classmethod
+    def from_dict(cls, d: dict) -> "Finding":
+        """The Finding ``to_dict`` wrote."""
+        return cls(**{**d, "lines": tuple(d.get("lines", ()))})
 
     @property
     def counts(self) -> bool:

@@ -50,6 +50,18 @@ ANCHOR_RANGE = {
     "transition_temperature": (0.01, 1.0e5),          # [K]
     "transition_enthalpy": (-1.0e7, 1.0e7),           # [J/mol], the sign is checked later
     "transition_u_enthalpy": (0.0, 1.0e7),            # [J/mol]
+    "u_enthalpy_of_formation_298": (0.0, 1.0e7),      # [J/mol]
+    "u_entropy_298": (0.0, 1.0e4),                    # [J/(mol K)]
+    "stated_temperature": (0.01, 1.0e5),              # [K]
+    "stated_enthalpy": (-1.0e8, 1.0e8),               # [J/mol], ΔfH°(T)
+    "stated_gibbs_energy": (-1.0e8, 1.0e8),           # [J/mol], ΔfG°(T)
 }
 #: a range of use or breakpoint [K] lies inside this interval (FIT-SETTING)
 TEMPERATURE_SETTING_RANGE = (10.0, 1.0e5)
+
+#: standard uncertainties of anchors and enthalpies of transition a source does not state
+#: (common practice): u(ΔfH°) [J/mol], u(S°) [J/(mol K)] and u(ΔH_trs) relative to ΔH_trs.
+#: ΔfH° = 0 of an element's reference species is exact by definition.
+DEFAULT_U_ANCHOR_H = 500.0
+DEFAULT_U_ANCHOR_S = 0.25
+DEFAULT_U_TRANSITION_REL = 0.02

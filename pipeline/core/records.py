@@ -59,6 +59,7 @@ class SourceMeta:
     priority: int
     standard_pressure: float  # [Pa] of the source's tabulated entropies
     sha256: str            # of source.json
+    references: tuple = ()  # ((element, species name or id), ...): its "reference_states"
 
 
 @dataclass(frozen=True)
@@ -85,6 +86,11 @@ class TableMeta:
     reached: bool = False  # H and S reach this phase through a transition (checks/transitions)
     derived: tuple = ()    # columns ingest derived from others, e.g. ('Cp',) from H - H298
     shared: bool = False   # one phase of a file that holds several (a phase column)
+    u_enthalpy_of_formation_298: float | None = None  # [J/mol], when source.json states it
+    u_entropy_298: float | None = None  # [J/(mol K)], when source.json states it
+    #: formation properties the source states: ((T [K], 'enthalpy' | 'gibbs_energy' |
+    #: 'log10_kf', value [J/mol or -], index in "stated_formation"), ...)
+    stated_formation: tuple = ()
     reading: dict = field(default_factory=dict, compare=False, hash=False)  # how it was read
 
     @property
@@ -298,6 +304,7 @@ class CheckResult:
     quarantined: tuple     # (TableMeta, error findings)
     held_back: tuple = ()  # (file, error findings): sources and tables that could not be read
     chains: tuple = ()     # Chain of every species whose phases are linked by transitions
+    references: tuple = ()  # ((element, species name or id, origin), ...) declared
 
 
 @dataclass(frozen=True)

@@ -111,6 +111,10 @@ class CheckSettings:
     #: a gap between consecutive points is ungrounded beyond this ratio T2/T1 and this width [K]
     gap_ratio: float = 1.5
     gap_width: float = 250.0
+    #: standard uncertainty assumed for a formation property a source states [J/mol] (its
+    #: rounding and the revisions between compilations; common practice); a stated value
+    #: beyond twice the combined uncertainty from the library's is FORM-DISAGREE
+    stated_formation_u: float = 500.0
 
     def to_dict(self) -> dict:
         """The settings as plain JSON values (recorded in the library and the manifest)."""
@@ -140,11 +144,14 @@ class Settings:
     fit: FitSettings = FitSettings()
     checks: CheckSettings = CheckSettings()
     outputs: OutputSettings = OutputSettings()
+    #: reference states of elements chosen for this build, over the sources' and the
+    #: defaults: ((element, species name or id), ...) sorted (core/elements.py)
+    references: tuple = ()
 
     def to_dict(self) -> dict:
         """The settings as plain JSON values (recorded in the library and the manifest)."""
         return {"fit": self.fit.to_dict(), "checks": self.checks.to_dict(),
-                "outputs": self.outputs.to_dict()}
+                "outputs": self.outputs.to_dict(), "references": dict(self.references)}
 
     @classmethod
     def from_dict(cls, d: dict) -> "Settings":
@@ -160,7 +167,7 @@ class Settings:
             if "fixed_breakpoints" in given:
                 given["fixed_breakpoints"] = tuple(given["fixed_breakpoints"])
             parts[key] = kind(**given)
-        return cls(**parts)
+        return cls(**parts, references=tuple(sorted((d.get("references") or {}).items())))
 
 
 def for_table(fit: FitSettings, overrides) -> FitSettings:

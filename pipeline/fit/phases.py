@@ -21,14 +21,14 @@ import numpy as np
 from ..core.constants import REFERENCE_TEMPERATURE
 from ..core.errors import FitError
 from ..core.findings import finding
+from ..core.limits import DEFAULT_U_ANCHOR_H, DEFAULT_U_ANCHOR_S, DEFAULT_U_TRANSITION_REL
 from ..core.records import SpeciesIdentity
 from ..physics import forms
 
-#: default standard uncertainties of stated anchors [J/mol], [J/(mol K)] and the relative
-#: one of an enthalpy of transition when none is stated (common practice)
-U_ANCHOR_H = 500.0
-U_ANCHOR_S = 0.25
-U_TRANSITION_REL = 0.02
+#: default standard uncertainties of anchors [J/mol], [J/(mol K)] and the relative one of an
+#: enthalpy of transition when none is stated (common practice)
+U_ANCHOR_H, U_ANCHOR_S = DEFAULT_U_ANCHOR_H, DEFAULT_U_ANCHOR_S
+U_TRANSITION_REL = DEFAULT_U_TRANSITION_REL
 
 
 def fitting_order(selections, chains) -> list:

@@ -70,6 +70,11 @@ def split(meta, data, entry) -> tuple[list, list]:
                        enthalpy_of_formation_298=meta.enthalpy_of_formation_298
                        if phase == anchor_phase else None,
                        entropy_298=s298 if phase == anchor_phase else None,
+                       u_enthalpy_of_formation_298=meta.u_enthalpy_of_formation_298
+                       if phase == anchor_phase else None,
+                       u_entropy_298=meta.u_entropy_298 if phase == anchor_phase else None,
+                       stated_formation=meta.stated_formation
+                       if phase == (anchor_phase or present[0]) else (),
                        notes=meta.notes + tuple(notes))
         out.append(_with_cp(Table(meta=part, data=rows)))
     return out, []

@@ -26,6 +26,7 @@ class IngestResult:
     findings: tuple        # of Finding
     inputs: tuple          # of InputFile, sorted by path
     transitions: tuple = ()  # of Transition, as the sources state them
+    sources: tuple = ()    # of SourceMeta, every source read
 
 
 def discover(raw_dir: Path) -> tuple[list[Path], list[Finding]]:
@@ -76,7 +77,8 @@ def parse_source(text: str, *, file: str, folder: str, digest: str):
                                       expected="'1 bar' or '1 atm'")]
     meta = SourceMeta(id=doc["source"], folder=folder, title=doc["title"],
                       citation=doc["citation"], method=doc["method"], license=doc["license"],
-                      priority=int(doc["priority"]), standard_pressure=pressure, sha256=digest)
+                      priority=int(doc["priority"]), standard_pressure=pressure, sha256=digest,
+                      references=tuple(sorted(doc.get("reference_states", {}).items())))
     return meta, doc["tables"], doc.get("transitions", []), []
 
 
@@ -105,6 +107,27 @@ def parse_transitions(doc_entries, source: SourceMeta):
                               temperature=values["temperature"], enthalpy=values["enthalpy"],
                               u_enthalpy=values["u_enthalpy"], source=source, index=index))
     return out, problems
+
+
+def stated_formation(items, source: SourceMeta, index: int, table: str) -> tuple:
+    """(((T [K], kind, value, position), ...), findings) of a table's "stated_formation":
+    ΔfH°(T) and ΔfG°(T) as quantities with units, log10 Kf(T) as a plain number."""
+    out, problems = [], []
+    for k, item in enumerate(items):
+        try:
+            t = quantity(item["temperature"], "temperature", "stated_temperature")
+            for key in ("enthalpy", "gibbs_energy", "log10_kf"):
+                if key in item:
+                    value = float(item[key]) if key == "log10_kf" else \
+                        quantity(item[key], "enthalpy", f"stated_{key}")
+                    out.append((t, key, value, k))
+        except InputError as exc:
+            problems.append(finding("SRC-QUANTITY", exc.what, source=source.id,
+                                    file=f"{source.folder}/source.json",
+                                    column=f"tables/{index}/stated_formation/{k}",
+                                    extra={"table": table}, seen=clip(str(item)),
+                                    expected=exc.expected))
+    return tuple(out), problems
 
 
 def quantity(text: str, kind: str, field: str) -> float:
@@ -175,7 +198,9 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
                                 column=f"tables/{index}/formula", extra={"table": rel},
                                 seen=entry["formula"], expected=exc.expected))
     anchors = {}
-    for key, kind in (("enthalpy_of_formation_298", "enthalpy"), ("entropy_298", "heat_capacity")):
+    for key, kind in (("enthalpy_of_formation_298", "enthalpy"), ("entropy_298", "heat_capacity"),
+                      ("u_enthalpy_of_formation_298", "enthalpy"),
+                      ("u_entropy_298", "heat_capacity")):
         if key not in entry:           # a phase reached through its transitions
             anchors[key] = None
             continue
@@ -187,6 +212,8 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
                                     file=f"{source.folder}/source.json",
                                     column=f"tables/{index}/{key}", extra={"table": rel},
                                     seen=clip(entry[key]), expected=exc.expected))
+    stated, more = stated_formation(entry.get("stated_formation", ()), source, index, rel)
+    problems += more
     s298, note = anchors["entropy_298"], None
     if entry.get("phase") == "g":      # the pressure is > 0: checked against ANCHOR_RANGE
         s298, note = csvtable.at_one_bar(s298, source.standard_pressure, "entropy_298")
@@ -207,6 +234,8 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
                      molar_mass=molar_mass, atoms=comp.atoms if comp else None,
                      enthalpy_of_formation_298=anchors["enthalpy_of_formation_298"],
                      entropy_298=s298, sha256=digest, size=len(raw),
+                     u_enthalpy_of_formation_298=anchors["u_enthalpy_of_formation_298"],
+                     u_entropy_298=anchors["u_entropy_298"], stated_formation=stated,
                      columns=parsed.columns if parsed else (),
                      notes=tuple(notes) + (parsed.notes if parsed else ()),
                      acknowledgements=tuple(dict(a) for a in entry.get("acknowledge", ())),
@@ -247,7 +276,7 @@ def ingest(raw_dir) -> IngestResult:
     if not raw_dir.is_dir():
         raise InputError(f"raw folder {raw_dir} does not exist", expected="a folder of sources")
     folders, findings = discover(raw_dir)
-    tables, inputs, seen_ids, transitions = [], [], {}, []
+    tables, inputs, seen_ids, transitions, sources = [], [], {}, [], []
     for folder in folders:
         meta_path = folder / "source.json"
         rel = f"{folder.name}/source.json"
@@ -280,6 +309,7 @@ def ingest(raw_dir) -> IngestResult:
                                     column="source", seen=source.id))
             continue
         seen_ids[source.id] = rel
+        sources.append(source)
         transitions += stated
         listed = set()
         for index, entry in enumerate(entries):
@@ -296,7 +326,7 @@ def ingest(raw_dir) -> IngestResult:
                                         file=f"{folder.name}/{csv_path.name}"))
     inputs.sort(key=lambda f: f.path)
     return IngestResult(tables=tuple(tables), findings=tuple(findings), inputs=tuple(inputs),
-                        transitions=tuple(transitions))
+                        transitions=tuple(transitions), sources=tuple(sources))
 
 
 def inputs_digest(inputs) -> str:

@@ -19,9 +19,11 @@ from pathlib import Path
 
 import numpy as np
 
-from ..core.errors import SpeciesNotFound
+from ..core.errors import InputError, SpeciesNotFound
 from ..physics import forms
-from . import document
+from . import document, reaction
+from .formation import COLUMNS as FORMATION
+from .formation import Formation
 from .tables import species_rows
 
 
@@ -46,8 +48,9 @@ class Species:
     S is at the standard pressure of 1 bar; G = H − T S.
     """
 
-    def __init__(self, entry: dict, transitions=()):
+    def __init__(self, entry: dict, transitions=(), library: "Library | None" = None):
         self.entry = entry
+        self._library = library
         self.transitions = tuple(x for x in transitions if entry["id"] in (x["from"], x["to"]))
         self.id: str = entry["id"]
         self.formula: str = entry["formula"]
@@ -122,6 +125,22 @@ class Species:
         return {k: _shaped(u[key], shape, scalar)
                 for k, key in (("cp", "u_Cp"), ("h", "u_H"), ("s", "u_S"))}
 
+    def formation(self, temperature) -> dict:
+        """Formation properties at T [K] from the elements in their reference states:
+        {'dfH', 'u_dfH', 'dfG', 'u_dfG'} [J/mol] and {'log10Kf', 'u_log10Kf'}, each shaped
+        like ``temperature`` (NaN where an element's reference species has no phase in
+        range). InputError (a ValueError) when the species has none: an element without a
+        reference species in the library, or a Species not taken from a Library."""
+        flat, shape, scalar = self._checked(temperature)
+        made = self._library.formation_of if self._library is not None else None
+        got = made.at(self.id, flat) if made is not None else None
+        if got is None:
+            why = "; ".join(made.missing(self.id)) if made is not None else \
+                "it was not taken from a Library"
+            raise InputError(f"{self.id} has no formation properties: {why}",
+                             expected="reference species for each of its elements")
+        return {k: _shaped(got[k], shape, scalar) for k in FORMATION}
+
     def is_extrapolated(self, temperature):
         """True where T [K] lies outside the data the fit was made from."""
         t, scalar = _kelvin(temperature)
@@ -133,7 +152,8 @@ class Species:
         """The evaluated table as columns of arrays: at ``temperatures`` [K], or at 298.15 K
         and every ``step`` K over the range of use (see ``library.tables``)."""
         points = None if temperatures is None else self._checked(temperatures)[0]
-        return species_rows(self.entry, step, points, self.transitions)
+        made = self._library.formation_of if self._library is not None else None
+        return species_rows(self.entry, step, points, self.transitions, made)
 
     def to_pandas(self, temperatures=None, step: float = 100.0):
         """``table`` as a pandas DataFrame, one row per temperature."""
@@ -157,6 +177,7 @@ class Library:
         self.build: dict = doc.get("build", {})
         self._entries = {s["id"]: s for s in doc["species"]}
         self._cache: dict = {}
+        self._formation = None
 
     def __repr__(self) -> str:
         where = f" from {self.path}" if self.path else ""
@@ -188,7 +209,8 @@ class Library:
         case), in ``phase`` when given."""
         sid = self._resolve(name, phase)
         if sid not in self._cache:
-            self._cache[sid] = Species(self._entries[sid], self.document.get("transitions", ()))
+            self._cache[sid] = Species(self._entries[sid], self.document.get("transitions", ()),
+                                       self)
         return self._cache[sid]
 
     def stable(self, name: str, temperature: float) -> Species:
@@ -197,6 +219,29 @@ class Library:
         species ``name`` means."""
         t, _ = _kelvin(temperature)
         return self.get(document.phases_at(self.document, name, [float(t)])[0])
+
+    @property
+    def formation_of(self) -> Formation:
+        """Formation properties of the library's species (library/formation.py)."""
+        if self._formation is None:
+            self._formation = Formation(self.document)
+        return self._formation
+
+    @property
+    def reference_states(self) -> list:
+        """The reference state of every element: {element, species, atoms, ids, origin,
+        problem} (ids empty, and problem saying why, for an element without one)."""
+        return [dict(s) for s in self.formation_of.states.values()]
+
+    def reaction(self, equation: str, temperatures) -> dict:
+        """ΔrH°, ΔrS°, ΔrG° and log10 K of a balanced ``equation`` (e.g. '2 CO + O2 = 2 CO2')
+        at T [K]: arrays 'dH', 'u_dH' [J/mol], 'dS', 'u_dS' [J/(mol K)], 'dG', 'u_dG' [J/mol],
+        'log10K', 'u_log10K', 'extrapolated', and 'ids' (the species id of each term at
+        each T); see library/reaction.py. InputError for an unbalanced or unreadable
+        equation, SpeciesNotFound for a missing species."""
+        t, _ = _kelvin(temperatures)
+        return reaction.evaluate(self.document, equation, t.reshape(-1),
+                                 self.formation_of.budgets)
 
     def _resolve(self, name: str, phase: str | None) -> str:
         return document.resolve_id(self._entries, name, phase)
@@ -207,7 +252,9 @@ class Library:
         import pandas as pd
 
         trs = self.document.get("transitions", ())
-        frames = [pd.DataFrame(species_rows(self._entries[i], step, None, trs)) for i in self.ids]
+        made = self.formation_of
+        frames = [pd.DataFrame(species_rows(self._entries[i], step, None, trs, made))
+                  for i in self.ids]
         return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame()
 
 

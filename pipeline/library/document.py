@@ -7,11 +7,11 @@ from pathlib import Path
 import numpy as np
 
 from ..core import jsonread, schemas
-from ..core.constants import GAS_CONSTANT as R
 from ..core.constants import REFERENCE_TEMPERATURE
 from ..core.errors import InputError, SpeciesNotFound
 from ..core.limits import MAX_LIBRARY_BYTES
-from ..physics import basis, forms
+from ..physics import forms
+from . import budget
 
 #: relative tolerance at the ends of the range of use (round-off in a stored end)
 END_TOLERANCE = 1e-12
@@ -94,17 +94,31 @@ def phases_at(doc: dict, name: str, temperatures, phase: str | None = None) -> l
         links, ids = chain(doc.get("transitions", []), name)
         if not (exc.ambiguous and links):
             raise
-    temps = [by_id[ids[0]]["ranges"][0]["t_min"]] + [x["temperature"] for x in links] + \
+    edges = chain_edges(by_id, links, ids)
+    where = stable_index(edges, temperatures)
+    if (where < 0).any():
+        t = np.asarray(temperatures, dtype=float)[where < 0][0]
+        raise InputError(f"T = {t:g} K is outside the range where a phase of {name} is "
+                         "stable in the library", expected=f"{edges[0]:g} K <= T <= "
+                         f"{edges[-1]:g} K")
+    return [ids[k] for k in where]
+
+
+def chain_edges(by_id: dict, links, ids) -> list:
+    """[T_min of the first phase, T_trs ..., T_max of the last] [K] of the phases ``ids``
+    linked by the transitions ``links`` (one phase: its range of use)."""
+    return [by_id[ids[0]]["ranges"][0]["t_min"]] + [x["temperature"] for x in links] + \
         [by_id[ids[-1]]["ranges"][-1]["t_max"]]
-    out = []
-    for t in temperatures:
-        k = next((k for k in range(len(ids)) if temps[k] <= t <= temps[k + 1]), None)
-        if k is None:
-            raise InputError(f"T = {t:g} K is outside the range where a phase of {name} is "
-                             "stable in the library", expected=f"{temps[0]:g} K <= T <= "
-                             f"{temps[-1]:g} K")
-        out.append(ids[k])
-    return out
+
+
+def stable_index(edges, temperatures) -> np.ndarray:
+    """For each T [K], the k with edges[k] <= T <= edges[k + 1] (the lower k at an edge), or
+    -1 outside every interval (NaN included)."""
+    t = np.atleast_1d(np.asarray(temperatures, dtype=float))
+    e = np.asarray(edges, dtype=float)
+    k = np.clip(np.searchsorted(e, t, side="left") - 1, 0, len(e) - 2)
+    inside = (t >= e[0]) & (t <= e[-1])
+    return np.where(inside, k, -1)
 
 
 def evaluate_phases(doc: dict, ids, temperatures) -> dict:
@@ -166,28 +180,13 @@ def uncertainty(species: dict, t) -> dict:
     transition), the model error of the form in each range, the extrapolation model's share,
     whose integral from 298.15 K enters H and S, and for a phase reached through transitions
     the stated u(ΔH_trs) of each transition on the way (u/T_trs for S); the shares are added
-    in quadrature."""
+    in quadrature (library/budget.py names them)."""
     t = np.atleast_1d(np.asarray(t, dtype=float))
-    unc = species.get("uncertainty") or {}
-    cov = np.asarray(unc.get("covariance") or [], dtype=float)
-    powers = unc.get("powers") or []
-    bps = species.get("breakpoints", [])
-    edges = [species["ranges"][0]["t_min"]] + list(bps) + [species["ranges"][-1]["t_max"]]
-    tref = anchor_temperature(species)
-    out = {"u_Cp": np.zeros_like(t), "u_H": np.zeros_like(t), "u_S": np.zeros_like(t)}
-    if cov.size:
-        for key, rows in (("u_Cp", basis.cp_rows(powers, t, bps)),
-                          ("u_H", basis.integral_rows(powers, t, bps, edges, "H", tref)),
-                          ("u_S", basis.integral_rows(powers, t, bps, edges, "S", tref))):
-            out[key] = R * basis.standard_deviation(rows, cov)
-    for key, share in _model_share(unc.get("model_error") or [], bps, t, tref).items():
-        out[key] = np.hypot(out[key], share)
-    for key, share in _extrapolation_share(species, t).items():
-        out[key] = np.hypot(out[key], share)
+    out = budget.spread(budget.own_shares(species, t), t)
     anchor = species.get("anchor") or {}
-    out["u_H"] = np.hypot(out["u_H"], anchor.get("u_enthalpy", 0.0))
-    out["u_S"] = np.hypot(out["u_S"], anchor.get("u_entropy", 0.0))
-    return out
+    return {"u_Cp": budget.cp_share(species, t),
+            "u_H": np.hypot(out["u_H"], anchor.get("u_enthalpy", 0.0)),
+            "u_S": np.hypot(out["u_S"], anchor.get("u_entropy", 0.0))}
 
 
 def anchor_temperature(species: dict) -> float:
@@ -204,52 +203,6 @@ def enthalpy_zero(species: dict) -> float:
         return a["enthalpy_zero"]
     return float(forms.evaluate_ranges(ranges_of(species), [REFERENCE_TEMPERATURE],
                                        species["form"])["H"][0])
-
-
-def _model_share(model_error, bps, t, tref=REFERENCE_TEMPERATURE) -> dict:
-    """The form's own misfit by range; for H and S never more than the Cp share integrated
-    from the anchor temperature ``tref`` [K] (they are exact there)."""
-    if not model_error:
-        return {}
-    j = forms.range_of(t, bps)
-    cp, h, s = (np.array([m[k] for m in model_error])[j] for k in ("cp", "h", "s"))
-    return {"u_Cp": cp, "u_H": np.minimum(h, cp * np.abs(t - tref)),
-            "u_S": np.minimum(s, cp * np.abs(np.log(t / tref)))}
-
-
-def _extrapolation_share(species: dict, t, steps: int = 48) -> dict:
-    """Inside each model-filled interval: u_rel(T) Cp(T), u_rel growing from its value at the
-    data edge to its value at the far end in proportion to |ln(T/edge)|. The share is
-    systematic, so u(H) at T adds up u_rel Cp over the part of 298.15 K..T it covers, and u(S)
-    u_rel Cp / T (trapezoids on ``steps`` points)."""
-    guided = [e for e in species.get("extrapolated", []) if e.get("u_rel_end") is not None]
-    if not guided:
-        return {}
-    ranges, form = ranges_of(species), species["form"]
-    tref = REFERENCE_TEMPERATURE
-    high = species["data_range"]["t_max"]
-
-    def u_abs(x, e):
-        edge, far = (e["t_min"], e["t_max"]) if e["t_max"] >= high else (e["t_max"], e["t_min"])
-        start = e.get("u_rel_start") or 0.0
-        frac = np.abs(np.log(x / edge)) / (abs(np.log(far / edge)) or 1.0)
-        rel = start + (e["u_rel_end"] - start) * frac
-        inside = (x >= e["t_min"] * (1 - 1e-12)) & (x <= e["t_max"] * (1 + 1e-12))
-        return np.where(inside, rel * forms.evaluate_ranges(ranges, x.ravel(), form)["Cp"]
-                        .reshape(x.shape), 0.0)
-
-    out = {"u_Cp": np.zeros_like(t), "u_H": np.zeros_like(t), "u_S": np.zeros_like(t)}
-    for e in guided:
-        out["u_Cp"] = out["u_Cp"] + u_abs(t, e)
-        a = np.clip(np.minimum(t, tref), e["t_min"], e["t_max"])
-        b = np.clip(np.maximum(t, tref), e["t_min"], e["t_max"])
-        grid = np.geomspace(a, np.maximum(b, a), steps, axis=-1)          # (n, steps)
-        f = u_abs(grid, e)
-        dx = np.diff(grid, axis=-1)
-        out["u_H"] = out["u_H"] + np.sum(dx * (f[:, 1:] + f[:, :-1]) / 2, axis=-1)
-        g = f / grid
-        out["u_S"] = out["u_S"] + np.sum(dx * (g[:, 1:] + g[:, :-1]) / 2, axis=-1)
-    return out
 
 
 def release_folder(path) -> Path:

@@ -6,21 +6,26 @@ data (extrapolated). A phase linked to others by transitions also has a row at e
 transition temperatures, and ``stable`` says where it is the stable phase; the stable rows
 of all the phases of a species, in order of temperature, make the table published
 thermochemical tables show, with H − H298 and S just below and just above each transition
-(``stable_rows``). ``release.tables`` writes them as Parquet and CSV.
+(``stable_rows``). ΔfH°, ΔfG° and log10 Kf (library/formation.py) are given where the
+species' elements have reference states. ``release.tables`` writes them as Parquet and CSV.
 """
 
 import numpy as np
 
 from ..core.constants import REFERENCE_TEMPERATURE
 from . import document as library
+from .formation import COLUMNS as FORMATION
+from .formation import Formation
 
 COLUMNS = ("id", "phase", "T", "Cp", "u_Cp", "H_minus_H298", "u_H", "S", "u_S", "gef", "H",
-           "stable", "extrapolated")
+           "dfH", "u_dfH", "dfG", "u_dfG", "log10Kf", "u_log10Kf", "stable", "extrapolated")
 TEXT = ("id", "phase")
 FLAGS = ("stable", "extrapolated")
 HEADERS = {"gef": "gef = -(G-H298)/T"}  # the Gibbs energy function
 UNITS = {"T": "K", "Cp": "J/(mol*K)", "u_Cp": "J/(mol*K)", "H_minus_H298": "J/mol",
-         "u_H": "J/mol", "S": "J/(mol*K)", "u_S": "J/(mol*K)", "gef": "J/(mol*K)", "H": "J/mol"}
+         "u_H": "J/mol", "S": "J/(mol*K)", "u_S": "J/(mol*K)", "gef": "J/(mol*K)", "H": "J/mol",
+         "dfH": "J/mol", "u_dfH": "J/mol", "dfG": "J/mol", "u_dfG": "J/mol", "log10Kf": "1",
+         "u_log10Kf": "1"}
 
 
 def grid(t_min, t_max, step=100.0, points=None, extra=()):
@@ -49,18 +54,23 @@ def stable_interval(sp, transitions=()) -> tuple:
     return lo, hi
 
 
-def species_rows(sp, step=100.0, points=None, transitions=()) -> dict:
+def species_rows(sp, step=100.0, points=None, transitions=(), formation=None) -> dict:
     """Columns of the evaluated table of one library species entry; ``transitions`` those of
-    the library (rows at the entry's transition temperatures, and where it is stable)."""
+    the library (rows at the entry's transition temperatures, and where it is stable);
+    ``formation`` the library's Formation (formation properties, NaN where there are none:
+    no reference state for an element, or no reference phase in range)."""
     mine = [x["temperature"] for x in transitions if sp["id"] in (x["from"], x["to"])]
     t = grid(sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"], step, points, mine)
     ev = library.evaluate_entry(sp, t)
     h298 = library.enthalpy_zero(sp)
     lo, hi = stable_interval(sp, transitions)
+    made = formation.at(sp["id"], t) if formation is not None else None
+    nothing = np.full(len(t), np.nan)
     return {"id": [sp["id"]] * len(t), "phase": [sp.get("phase", "")] * len(t), "T": t,
             "Cp": ev["Cp"], "u_Cp": ev["u_Cp"], "H_minus_H298": ev["H"] - h298,
             "u_H": ev["u_H"], "S": ev["S"], "u_S": ev["u_S"], "gef": -(ev["G"] - h298) / t,
-            "H": ev["H"], "stable": (t >= lo) & (t <= hi),
+            "H": ev["H"], **{k: made[k] if made else nothing for k in FORMATION},
+            "stable": (t >= lo) & (t <= hi),
             "extrapolated": ev["extrapolated"].astype(bool)}
 
 
@@ -69,7 +79,8 @@ def stable_rows(doc, name, step=100.0) -> dict:
     phase (named in 'phase'), both phases at a transition (below, then above)."""
     links, ids = library.chain(doc.get("transitions", []), name)
     by_id = {s["id"]: s for s in doc["species"]}
-    parts = [species_rows(by_id[i], step, None, links) for i in ids if i in by_id]
+    made = Formation(doc)
+    parts = [species_rows(by_id[i], step, None, links, made) for i in ids if i in by_id]
     keep = [np.asarray(p["stable"]) for p in parts]
     out = {c: np.concatenate([np.asarray(p[c])[k] for p, k in zip(parts, keep)])
            for c in COLUMNS}

@@ -17,6 +17,7 @@ import pyarrow.parquet as pq
 from .. import __version__
 from ..core import constants, schemas
 from ..core.errors import OutputError
+from ..library import budget
 
 NOTICE = ("Curated property data for engineering use must be reviewed by a qualified person "
           "before use in design. Intervals marked 'extrapolated' lie outside the source data. "
@@ -64,6 +65,9 @@ def species_entry(fitted) -> dict:
         "molar_mass": meta.molar_mass,
         "enthalpy_of_formation_298": meta.enthalpy_of_formation_298 if own else None,
         "entropy_298": meta.entropy_298 if own else None,
+        "anchor_uncertainty": budget.stated_anchor_u(
+            meta.formula, meta.enthalpy_of_formation_298, meta.u_enthalpy_of_formation_298,
+            meta.u_entropy_298) if own else None,
         "form": fit.form,
         "ranges": [{"t_min": r.t_min, "t_max": r.t_max, "coefficients": list(r.coefficients)}
                    for r in fit.ranges],
@@ -253,7 +257,7 @@ def library_parquet_bytes(doc: dict) -> bytes:
               for name, kind, _ in LIBRARY_PARQUET_COLUMNS}
     meta = {k: json.dumps(doc.get(k, []), ensure_ascii=False) for k in (
         "library_format", "notice", "gas_constant", "reference_temperature", "standard_pressure",
-        "units", "build", "transitions")}
+        "units", "build", "transitions", "reference_states")}
     table = pa.table(arrays).replace_schema_metadata({f"thermoledger.{k}": v
                                                       for k, v in meta.items()})
     buf = io.BytesIO()

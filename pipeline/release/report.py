@@ -123,8 +123,61 @@ def _phase_section(sp, transitions) -> list:
     return out
 
 
-def species_page(sp, points, has_dev, transitions=None) -> bytes:
-    """The HTML page of one library species entry; ``transitions`` those of the library."""
+def formation_rows(doc) -> dict:
+    """{species id: (rows, None) or (None, why)} for the species pages: ΔfH°, ΔfG° and log10
+    Kf [J/mol, -] with standard uncertainties at 298.15 K and every 500 K of the range of
+    use, and the reference species of the elements."""
+    from ..library.formation import Formation
+    from ..library.references import elements_of
+
+    made = Formation(doc)
+    out = {}
+    for sp in doc["species"]:
+        missing = made.missing(sp["id"])
+        if missing:
+            out[sp["id"]] = (None, "; ".join(missing))
+            continue
+        lo, hi = sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"]
+        t = np.unique([x for x in [298.15, *np.arange(500.0, hi + 1.0, 500.0), hi]
+                       if lo <= x <= hi])
+        got = made.at(sp["id"], t)
+        refs = {el: made.states[el]["ids"] for el, _ in elements_of(sp["formula"])}
+        out[sp["id"]] = ({"T": t, **got, "refs": refs}, None)
+    return out
+
+
+def _formation_section(got) -> list:
+    """The formation section of a species page."""
+    rows, why = got
+    if rows is None:
+        return ["<h2>Formation from the elements</h2>",
+                f"<p>No formation properties: {e(why)}.</p>"]
+    refs = "; ".join(f"{el}: {' → '.join(ids)}" for el, ids in rows["refs"].items())
+    out = ["<h2>Formation from the elements</h2>",
+           f"<p>Elements in their reference states ({e(refs)}), at 1 bar; ± standard "
+           "uncertainty, with those of ΔfH° and S°.</p>",
+           "<table><tr><th>T [K]</th><th>ΔfH° [kJ/mol]</th><th>ΔfG° [kJ/mol]</th>"
+           "<th>log10 Kf</th></tr>"]
+    for i, t in enumerate(rows["T"]):
+        if np.isnan(rows["dfH"][i]):
+            out.append(f"<tr><td class=\"num\">{t:g}</td><td colspan=\"3\">no reference "
+                       "phase of an element in range</td></tr>")
+            continue
+        flag = " (reference extrapolated)" if rows["ref_extrapolated"][i] else ""
+        out.append(f"<tr><td class=\"num\">{t:g}</td>"
+                   f"<td class=\"num\">{rows['dfH'][i] / 1000:.3f} ± "
+                   f"{rows['u_dfH'][i] / 1000:.2g}</td>"
+                   f"<td class=\"num\">{rows['dfG'][i] / 1000:.3f} ± "
+                   f"{rows['u_dfG'][i] / 1000:.2g}</td>"
+                   f"<td class=\"num\">{rows['log10Kf'][i]:.4f} ± "
+                   f"{rows['u_log10Kf'][i]:.2g}{e(flag)}</td></tr>")
+    out.append("</table>")
+    return out
+
+
+def species_page(sp, points, has_dev, transitions=None, formation=None) -> bytes:
+    """The HTML page of one library species entry; ``transitions`` those of the library,
+    ``formation`` its entry of ``formation_rows``."""
     name = file_stem(sp["id"])
     q = sp["quality"]
     rows = [("form", sp["form"]), ("range of use", f"{sp['ranges'][0]['t_min']:g}-"
@@ -141,6 +194,8 @@ def species_page(sp, points, has_dev, transitions=None) -> bytes:
     body += [f"<tr><th>{e(k)}</th><td>{e(v)}</td></tr>" for k, v in rows]
     body.append("</table>")
     body += _phase_section(sp, transitions or [])
+    if formation is not None:
+        body += _formation_section(formation)
     if sp["extrapolated"]:
         body.append("<h2>Outside the data</h2><table><tr><th>interval [K]</th><th>how</th>"
                     "<th>hold-out error</th><th>uncertainty at the end</th></tr>")
@@ -227,6 +282,7 @@ def report_files(doc, points, accept, workers=None, say=None) -> dict:
 
     species = doc["species"]
     transitions = doc.get("transitions", [])
+    formed = formation_rows(doc)
     say = say or (lambda *a: None)
     workers = workers or min(os.cpu_count() or 1, 4)
     files = {}
@@ -248,7 +304,8 @@ def report_files(doc, points, accept, workers=None, say=None) -> dict:
         try:
             parts = pool.map(_species_files, chunks,
                              [{s["id"]: points.get(s["id"], {}) for s in c} for c in chunks],
-                             [accept] * len(chunks), [transitions] * len(chunks))
+                             [accept] * len(chunks), [transitions] * len(chunks),
+                             [{s["id"]: formed[s["id"]] for s in c} for c in chunks])
             for chunk, part in zip(chunks, parts):
                 files.update(part)
                 tick(chunk)
@@ -258,7 +315,7 @@ def report_files(doc, points, accept, workers=None, say=None) -> dict:
         pool.shutdown()
     else:
         for chunk in chunks:
-            files.update(_species_files(chunk, points, accept, transitions))
+            files.update(_species_files(chunk, points, accept, transitions, formed))
             tick(chunk)
     by_id = {s["id"]: s for s in species}
     for name in sorted({x["species"] for x in transitions}):
@@ -297,7 +354,7 @@ def stop_workers(pool) -> None:
     pool.shutdown(wait=False, cancel_futures=True)
 
 
-def _species_files(species, points, accept, transitions=()) -> dict:
+def _species_files(species, points, accept, transitions=(), formed=None) -> dict:
     files = {}
     cp_plot, dev_plot = plots.SpeciesPlotter(), None
     for sp in species:
@@ -312,5 +369,6 @@ def _species_files(species, points, accept, transitions=()) -> dict:
             th, dh = p.get("dh", (np.zeros(0), np.zeros(0)))
             ts, ds = p.get("s", (np.zeros(0), np.zeros(0)))
             files[f"report/img/{name}-hs.svg"] = dev_plot.render(th, dh, ts, ds)
-        files[f"report/species/{name}.html"] = species_page(sp, p, has_dev, transitions)
+        files[f"report/species/{name}.html"] = species_page(sp, p, has_dev, transitions,
+                                                            (formed or {}).get(sp["id"]))
     return files

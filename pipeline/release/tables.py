@@ -6,12 +6,14 @@ leading apostrophe (the usual defence against formula injection, common practice
 
 import csv
 import io
+import math
 
 import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
 
 from ..core.names import file_stem
+from ..library.formation import Formation
 from ..library.tables import COLUMNS, FLAGS, HEADERS, TEXT, UNITS, species_rows, stable_rows
 
 DANGEROUS = ("=", "+", "-", "@", "\t", "\r")
@@ -21,7 +23,8 @@ def tables_parquet_bytes(doc, step=100.0, points=None) -> bytes:
     """tables.parquet: the evaluated table of every species (T [K], Cp [J/(mol K)], ...),
     units in the key-value metadata."""
     trs = doc.get("transitions", [])
-    parts = [species_rows(sp, step, points, trs) for sp in doc["species"]]
+    made = Formation(doc)
+    parts = [species_rows(sp, step, points, trs, made) for sp in doc["species"]]
     cols = {c: (np.concatenate([p[c] for p in parts]) if parts else np.array([]))
             for c in COLUMNS}
     for c in TEXT:
@@ -40,9 +43,10 @@ def neutralise(cell: str) -> str:
     return "'" + cell if cell.startswith(DANGEROUS) else cell
 
 
-def csv_bytes(sp, step=100.0, points=None, transitions=()) -> bytes:
+def csv_bytes(sp, step=100.0, points=None, transitions=(), formation=None) -> bytes:
     """The evaluated table of one species as CSV bytes, text cells neutralised."""
-    return _csv(f"{sp['id']} ({sp['form']})", species_rows(sp, step, points, transitions))
+    return _csv(f"{sp['id']} ({sp['form']})", species_rows(sp, step, points, transitions,
+                                                          formation))
 
 
 def _csv(title, rows) -> bytes:
@@ -54,16 +58,23 @@ def _csv(title, rows) -> bytes:
                 for c in ("species",) + COLUMNS[1:]])
     for i in range(len(rows["T"])):
         w.writerow([neutralise(str(rows[c][i])) if c in TEXT else
-                    ("yes" if rows[c][i] else "no") if c in FLAGS else repr(float(rows[c][i]))
+                    ("yes" if rows[c][i] else "no") if c in FLAGS else _number(rows[c][i])
                     for c in COLUMNS])
     return out.getvalue().encode("utf-8")
+
+
+def _number(x) -> str:
+    """A number cell: the shortest round-trip repr, empty for NaN (no value)."""
+    x = float(x)
+    return "" if math.isnan(x) else repr(x)
 
 
 def csv_files(doc, step=100.0, points=None) -> dict:
     """{tables/<file stem>.csv: bytes} for every species of ``doc``, and for every species
     with transitions the table across its phases (tables/<name>.csv, stable rows only)."""
     trs = doc.get("transitions", [])
-    files = {f"tables/{file_stem(sp['id'])}.csv": csv_bytes(sp, step, points, trs)
+    made = Formation(doc)
+    files = {f"tables/{file_stem(sp['id'])}.csv": csv_bytes(sp, step, points, trs, made)
              for sp in doc["species"]}
     for name in sorted({x["species"] for x in trs}):
         files[f"tables/{file_stem(name)}.csv"] = _csv(f"{name}, stable phase at each "

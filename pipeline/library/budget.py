@@ -1,0 +1,253 @@
+"""The uncertainty budget of a library entry: the standard uncertainty of its H and S split
+into named shares, so that sums over species (formation and reaction properties) keep the
+correlations the library knows of.
+
+Each share is a pair of signed standard-uncertainty contributions (to H [J/mol], to S
+[J/(mol K)]) at every temperature; a sum Σ ν_i X_i over species adds the shares of one name
+linearly and different names in quadrature (JCGM 100:2008, 5.2, with the correlations
+below). The shares, by name:
+
+- ``("fit", id, k)``: the k-th principal component of the covariance of entry ``id``'s scaled
+  coefficients. H, S and G = H − T S of one fit move together, exactly.
+- ``("model-h", id)``, ``("model-s", id)``, ``("extrap-h", id)``, ``("extrap-s", id)``: the
+  form's misfit and the extrapolation model's share (library/document.py), for H and for S
+  apart (their correlation is not known, so G takes them in quadrature).
+- ``("transition", from, to)``: u(ΔH_trs), moving H by u and S by u/T_trs of every phase
+  reached through that transition.
+- ``("anchor-h", id)``, ``("anchor-s", id)``: u(ΔfH°) and u(S°) of the entry anchored at
+  298.15 K (``anchor_u``).
+
+A phase reached through a transition carries every share of the phase it is reached from,
+taken at T_trs. Different species are independent unless they share a name: the phases of
+one species linked by transitions are correlated through their common anchors and
+transitions; no other correlation is assumed.
+"""
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..core import chemistry
+from ..core.constants import GAS_CONSTANT as R
+from ..core.constants import REFERENCE_TEMPERATURE
+from ..core.limits import DEFAULT_U_ANCHOR_H, DEFAULT_U_ANCHOR_S, DEFAULT_U_TRANSITION_REL
+from ..physics import basis, forms
+
+#: shares of an anchor's stated uncertainty (left out of u(H − H298) and u(S) of a table)
+ANCHOR_SHARES = ("anchor-h", "anchor-s")
+
+
+@dataclass(frozen=True)
+class Budget:
+    """H [J/mol], S [J/(mol K)] (and Cp) at temperatures t [K], with their shares."""
+
+    t: np.ndarray
+    h: np.ndarray
+    s: np.ndarray
+    shares: dict            # name -> (dH, dS) arrays
+
+    @property
+    def g(self) -> np.ndarray:
+        return self.h - self.t * self.s
+
+
+def anchor_u(entry: dict) -> dict:
+    """{'enthalpy': u(ΔfH°) [J/mol], 'entropy': u(S°) [J/(mol K)], and their bases} of an entry
+    anchored at 298.15 K, as the library records them (``stated_anchor_u`` for a library
+    that records none)."""
+    return entry.get("anchor_uncertainty") or stated_anchor_u(
+        entry["formula"], entry["enthalpy_of_formation_298"])
+
+
+def stated_anchor_u(formula: str, dfh: float, u_h: float | None = None,
+                    u_s: float | None = None) -> dict:
+    """The anchor uncertainties of a species of ``formula`` with ΔfH° = ``dfh`` [J/mol]: the
+    stated ``u_h`` [J/mol] and ``u_s`` [J/(mol K)], else the common-practice defaults; u(ΔfH°)
+    = 0 when ΔfH° = 0 for a pure element (exact by definition of its reference state)."""
+    pure = len({e for e, _ in chemistry.composition(formula).elements if e != "e-"}) == 1
+    zero = pure and dfh == 0.0
+    h = (u_h, "stated") if u_h is not None else \
+        (0.0, "definition") if zero else (DEFAULT_U_ANCHOR_H, "common practice")
+    s = (u_s, "stated") if u_s is not None else (DEFAULT_U_ANCHOR_S, "common practice")
+    return {"enthalpy": h[0], "enthalpy_basis": h[1], "entropy": s[0], "entropy_basis": s[1]}
+
+
+def transition_u(x: dict) -> float:
+    """u(ΔH_trs) [J/mol] of a library transition: stated, else 2 % of ΔH_trs (common
+    practice)."""
+    u = x.get("u_enthalpy")
+    return u if u is not None else DEFAULT_U_TRANSITION_REL * abs(x["enthalpy"])
+
+
+def own_shares(entry: dict, t) -> dict:
+    """The shares of one entry's own fit at ``t`` [K]: its covariance components, its form's
+    misfit and its extrapolation model (H and S relative to its anchor temperature)."""
+    t = np.atleast_1d(np.asarray(t, dtype=float))
+    unc = entry.get("uncertainty") or {}
+    cov = np.asarray(unc.get("covariance") or [], dtype=float)
+    powers = unc.get("powers") or []
+    bps = entry.get("breakpoints", [])
+    edges = [entry["ranges"][0]["t_min"]] + list(bps) + [entry["ranges"][-1]["t_max"]]
+    tref = (entry.get("anchor") or {}).get("temperature", REFERENCE_TEMPERATURE)
+    sid = entry.get("id", "")
+    out = {}
+    if cov.size:
+        w, v = np.linalg.eigh((cov + cov.T) / 2)
+        root = v * np.sqrt(np.clip(w, 0.0, None))            # cov = root @ root.T
+        dh = R * basis.integral_rows(powers, t, bps, edges, "H", tref) @ root
+        ds = R * basis.integral_rows(powers, t, bps, edges, "S", tref) @ root
+        for k in np.flatnonzero(w > 0):
+            out[("fit", sid, int(k))] = (dh[:, k], ds[:, k])
+    zero = np.zeros_like(t)
+    for name, share in (("model", model_share(unc.get("model_error") or [], bps, t, tref)),
+                        ("extrap", extrapolation_share(entry, t))):
+        if share:
+            out[(f"{name}-h", sid)] = (share["u_H"], zero)
+            out[(f"{name}-s", sid)] = (zero, share["u_S"])
+    return out
+
+
+def cp_share(entry: dict, t) -> np.ndarray:
+    """u(Cp) [J/(mol K)] of one entry at ``t`` [K]: covariance, misfit and extrapolation."""
+    t = np.atleast_1d(np.asarray(t, dtype=float))
+    unc = entry.get("uncertainty") or {}
+    cov = np.asarray(unc.get("covariance") or [], dtype=float)
+    bps = entry.get("breakpoints", [])
+    u = R * basis.standard_deviation(basis.cp_rows(unc.get("powers") or [], t, bps), cov) \
+        if cov.size else np.zeros_like(t)
+    for share in (model_share(unc.get("model_error") or [], bps, t), extrapolation_share(entry, t)):
+        if share:
+            u = np.hypot(u, share["u_Cp"])
+    return u
+
+
+def spread(shares: dict, t, anchors: bool = True) -> dict:
+    """{'u_H', 'u_S', 'u_G'}: standard uncertainties of H [J/mol], S [J/(mol K)] and G = H − T S
+    [J/mol] at ``t`` [K] from ``shares`` (those of the anchors left out unless ``anchors``)."""
+    t = np.atleast_1d(np.asarray(t, dtype=float))
+    uh, us, ug = (np.zeros_like(t) for _ in range(3))
+    for name, (dh, ds) in shares.items():
+        if not anchors and name[0] in ANCHOR_SHARES:
+            continue
+        uh = uh + dh ** 2
+        us = us + ds ** 2
+        ug = ug + (dh - t * ds) ** 2
+    return {"u_H": np.sqrt(uh), "u_S": np.sqrt(us), "u_G": np.sqrt(ug)}
+
+
+def combine(parts) -> dict:
+    """The shares of Σ ν_i X_i for ``parts`` = [(ν_i, shares_i)]: shares of one name added
+    linearly, so that correlated species cancel where they should."""
+    out = {}
+    for nu, shares in parts:
+        for name, (dh, ds) in shares.items():
+            h0, s0 = out.get(name, (0.0, 0.0))
+            out[name] = (h0 + nu * dh, s0 + nu * ds)
+    return out
+
+
+def on_rows(shares: dict, rows) -> dict:
+    """``shares`` of the temperatures selected by the mask ``rows``, zero at the others."""
+    out = {}
+    for name, pair in shares.items():
+        full = np.zeros((2, len(rows)))
+        full[:, rows] = pair
+        out[name] = (full[0], full[1])
+    return out
+
+
+class Budgets:
+    """The budgets of the entries of one library document (``at``), phases reached through
+    transitions included."""
+
+    def __init__(self, doc: dict):
+        self.by_id = {s["id"]: s for s in doc["species"]}
+        self.links = {(x["from"], x["to"]): x for x in doc.get("transitions", [])}
+
+    def at(self, sid: str, t) -> Budget:
+        """The budget of entry ``sid`` at ``t`` [K] (inside its range of use)."""
+        entry = self.by_id[sid]
+        t = np.atleast_1d(np.asarray(t, dtype=float))
+        got = _evaluate(entry, t)
+        return Budget(t=t, h=got["H"] + self.zero_offset(sid), s=got["S"],
+                      shares={**self.anchor_shares(sid, len(t)), **own_shares(entry, t)})
+
+    def zero_offset(self, sid: str) -> float:
+        """ΔfH° of the phase that anchors ``sid`` minus H(298.15 K) of that phase's
+        coefficients [J/mol] (round-off): added to H, it makes H(298.15 K) equal ΔfH°
+        exactly."""
+        root = self.by_id[sid]
+        while (root.get("anchor") or {}).get("basis") == "transition":
+            root = self.by_id[root["anchor"]["via"]]
+        fitted = _evaluate(root, np.array([REFERENCE_TEMPERATURE]))["H"][0]
+        return float(root["enthalpy_of_formation_298"] - fitted)
+
+    def anchor_shares(self, sid: str, n: int) -> dict:
+        """The shares entry ``sid`` takes from its anchors: u(ΔfH°), u(S°) of an entry
+        anchored at 298.15 K; for a phase reached through a transition, the shares of the
+        phase it is reached from at T_trs and u(ΔH_trs). Constant in T (``n`` values)."""
+        entry = self.by_id[sid]
+        a = entry.get("anchor") or {}
+        ones = np.ones(n)
+        if a.get("basis") != "transition":
+            u = anchor_u(entry)
+            return {("anchor-h", sid): (u["enthalpy"] * ones, 0.0 * ones),
+                    ("anchor-s", sid): (0.0 * ones, u["entropy"] * ones)}
+        via, tt = a["via"], a["temperature"]
+        up = (via, sid) in self.links
+        x = self.links.get((via, sid)) or self.links[(sid, via)]
+        before = self.at(via, [tt])
+        out = {k: (dh[0] * ones, ds[0] * ones) for k, (dh, ds) in before.shares.items()}
+        sign = 1.0 if up else -1.0
+        u = transition_u(x)
+        out[("transition", x["from"], x["to"])] = (sign * u * ones, sign * u / tt * ones)
+        return out
+
+
+def _evaluate(entry: dict, t) -> dict:
+    return forms.evaluate_ranges([(r["t_min"], r["t_max"], r["coefficients"])
+                                  for r in entry["ranges"]], t, entry["form"])
+
+
+def model_share(model_error, bps, t, tref=REFERENCE_TEMPERATURE) -> dict:
+    """The form's own misfit by range; for H and S never more than the Cp share integrated
+    from the anchor temperature ``tref`` [K] (they are exact there)."""
+    if not model_error:
+        return {}
+    j = forms.range_of(t, bps)
+    cp, h, s = (np.array([m[k] for m in model_error])[j] for k in ("cp", "h", "s"))
+    return {"u_Cp": cp, "u_H": np.minimum(h, cp * np.abs(t - tref)),
+            "u_S": np.minimum(s, cp * np.abs(np.log(t / tref)))}
+
+
+def extrapolation_share(species: dict, t, steps: int = 48) -> dict:
+    """Inside each model-filled interval: u_rel(T) Cp(T), u_rel growing from its value at the
+    data edge to its value at the far end in proportion to |ln(T/edge)|. The share is
+    systematic, so u(H) at T adds up u_rel Cp over the part of 298.15 K..T it covers, and u(S)
+    u_rel Cp / T (trapezoids on ``steps`` points)."""
+    guided = [e for e in species.get("extrapolated", []) if e.get("u_rel_end") is not None]
+    if not guided:
+        return {}
+    tref = REFERENCE_TEMPERATURE
+    high = species["data_range"]["t_max"]
+
+    def u_abs(x, e):
+        edge, far = (e["t_min"], e["t_max"]) if e["t_max"] >= high else (e["t_max"], e["t_min"])
+        start = e.get("u_rel_start") or 0.0
+        frac = np.abs(np.log(x / edge)) / (abs(np.log(far / edge)) or 1.0)
+        rel = start + (e["u_rel_end"] - start) * frac
+        inside = (x >= e["t_min"] * (1 - 1e-12)) & (x <= e["t_max"] * (1 + 1e-12))
+        return np.where(inside, rel * _evaluate(species, x.ravel())["Cp"].reshape(x.shape), 0.0)
+
+    out = {"u_Cp": np.zeros_like(t), "u_H": np.zeros_like(t), "u_S": np.zeros_like(t)}
+    for e in guided:
+        out["u_Cp"] = out["u_Cp"] + u_abs(t, e)
+        a = np.clip(np.minimum(t, tref), e["t_min"], e["t_max"])
+        b = np.clip(np.maximum(t, tref), e["t_min"], e["t_max"])
+        grid = np.geomspace(a, np.maximum(b, a), steps, axis=-1)          # (n, steps)
+        f = u_abs(grid, e)
+        dx = np.diff(grid, axis=-1)
+        out["u_H"] = out["u_H"] + np.sum(dx * (f[:, 1:] + f[:, :-1]) / 2, axis=-1)
+        g = f / grid
+        out["u_S"] = out["u_S"] + np.sum(dx * (g[:, 1:] + g[:, :-1]) / 2, axis=-1)
+    return out

@@ -172,6 +172,18 @@ class Budgets:
         return Budget(t=t, h=got["H"] + self.zero_offset(sid), s=got["S"],
                       shares={**self.anchor_shares(sid, len(t)), **own_shares(entry, t)})
 
+    def add(self, total: dict, nu: float, ids, t) -> None:
+        """Add ν times the budget of entry ``ids[i]`` at ``t[i]`` [K] (None: skipped) to
+        ``total`` = {'h', 's' arrays, 'parts' list of (ν, shares), 'extrapolated' mask}."""
+        for sid in dict.fromkeys(i for i in ids if i is not None):
+            rows = np.array([i == sid for i in ids])
+            b = self.at(sid, t[rows])
+            total["h"][rows] += nu * b.h
+            total["s"][rows] += nu * b.s
+            total["parts"].append((nu, on_rows(b.shares, rows)))
+            data = self.by_id[sid]["data_range"]
+            total["extrapolated"][rows] |= (t[rows] < data["t_min"]) | (t[rows] > data["t_max"])
+
     def zero_offset(self, sid: str) -> float:
         """ΔfH° of the phase that anchors ``sid`` minus H(298.15 K) of that phase's
         coefficients [J/mol] (round-off): added to H, it makes H(298.15 K) equal ΔfH°

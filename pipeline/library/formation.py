@@ -69,24 +69,17 @@ class Formation:
             return None
         t = np.atleast_1d(np.asarray(t, dtype=float))
         own = self.budgets.at(sid, t)
-        h, s = own.h.copy(), own.s.copy()
-        parts = [(1.0, own.shares)]
+        total = {"h": own.h.copy(), "s": own.s.copy(), "parts": [(1.0, own.shares)],
+                 "extrapolated": np.zeros(len(t), dtype=bool)}
         gone = np.zeros(len(t), dtype=bool)
-        extrapolated = np.zeros(len(t), dtype=bool)
         for el, n in references.elements_of(self.budgets.by_id[sid]["formula"]):
             st = self.states[el]
-            c = n / st["atoms"]
             ids = references.stable_ids(self.doc, st, t)
             gone |= np.array([i is None for i in ids])
-            for ref in dict.fromkeys(i for i in ids if i is not None):
-                rows = np.array([i == ref for i in ids])
-                b = self.budgets.at(ref, t[rows])
-                h[rows] -= c * b.h
-                s[rows] -= c * b.s
-                parts.append((-c, budget.on_rows(b.shares, rows)))
-                data = self.budgets.by_id[ref]["data_range"]
-                extrapolated[rows] |= (t[rows] < data["t_min"]) | (t[rows] > data["t_max"])
-        u = budget.spread(budget.combine(parts), t)
+            self.budgets.add(total, -n / st["atoms"], ids, t)
+        extrapolated = total["extrapolated"]
+        h, s = total["h"], total["s"]
+        u = budget.spread(budget.combine(total["parts"]), t)
         g = h - t * s
         scale = R * t * math.log(10.0)
         out = {"dfH": h, "u_dfH": u["u_H"], "dfG": g, "u_dfG": u["u_G"],

@@ -134,22 +134,17 @@ def evaluate(doc: dict, equation: str, temperatures, budgets=None) -> dict:
         raise InputError("a temperature is not a positive number", expected="T > 0 K")
     check_balance(doc, terms)
     budgets = budgets or budget.Budgets(doc)
-    h, s = np.zeros(len(t)), np.zeros(len(t))
-    parts, ids, extrapolated = [], [], np.zeros(len(t), dtype=bool)
+    total = {"h": np.zeros(len(t)), "s": np.zeros(len(t)), "parts": [],
+             "extrapolated": np.zeros(len(t), dtype=bool)}
+    ids = []
     for x in terms:
         at = document.phases_at(doc, x.name, t)
-        ids.append(at)
         for sid in dict.fromkeys(at):
-            rows = np.array([i == sid for i in at])
-            entry = budgets.by_id[sid]
-            document.check_range(entry, t[rows])
-            b = budgets.at(sid, t[rows])
-            h[rows] += x.nu * b.h
-            s[rows] += x.nu * b.s
-            parts.append((x.nu, budget.on_rows(b.shares, rows)))
-            data = entry["data_range"]
-            extrapolated[rows] |= (t[rows] < data["t_min"]) | (t[rows] > data["t_max"])
-    u = budget.spread(budget.combine(parts), t)
+            document.check_range(budgets.by_id[sid], t[np.array([i == sid for i in at])])
+        ids.append(at)
+        budgets.add(total, x.nu, at, t)
+    h, s, extrapolated = total["h"], total["s"], total["extrapolated"]
+    u = budget.spread(budget.combine(total["parts"]), t)
     g = h - t * s
     scale = R * t * math.log(10.0)
     return {"equation": written(terms), "terms": terms, "T": t, "dH": h, "u_dH": u["u_H"],

@@ -8,10 +8,10 @@ from pathlib import Path
 from . import fit, ingest
 from .checks import acknowledge, reconcile, references, registry, transitions
 from .core.errors import FitError, InputError, OutputError
-from .core.findings import ERROR, by_subject, finding, stage_failed
+from .core.findings import ERROR, INFO, by_subject, concerns, finding, stage_failed, subject
 from .core.records import CheckResult, CpData, FittedSpecies, SpeciesIdentity
 from .core.settings import Settings, for_table
-from .fit import phases
+from .fit import phases, published
 from .library import document as library
 from .release import assemble, formation, provenance, publish
 from .release import audit as audit_stage
@@ -44,7 +44,8 @@ def examine(raw_dir, ctx: Settings = Settings()) -> CheckResult:
     about = by_subject(found)
     accepted, quarantined = [], []
     for table in tables:
-        errors = [x for x in about.get(table.meta.file, ()) if x.severity == ERROR]
+        errors = [x for x in about.get(table.meta.file, ())
+                  if x.severity == ERROR and concerns(x, table.meta.species_id)]
         if errors:
             quarantined.append((table.meta, tuple(sorted(errors, key=lambda f: f.sort_key()))))
         else:
@@ -60,13 +61,20 @@ def examine(raw_dir, ctx: Settings = Settings()) -> CheckResult:
 
 def held_back(tables, findings) -> tuple:
     """(file, error findings) for every input with errors that is not a table that was read:
-    a source.json that failed (its whole source is held back) or a listed table that could not
-    be read at all."""
-    read = {t.meta.file for t in tables}
-    about = by_subject(f for f in findings if f.severity == ERROR
+    a source.json that failed (its whole source is held back), a listed table that could not
+    be read at all, or a set of a coefficient-set file that could not be read (the findings
+    marked with its species)."""
+    files = {t.meta.file for t in tables}
+    read = {(t.meta.file, t.meta.species_id) for t in tables}
+
+    def unread(f) -> bool:
+        species = f.extra.get("species")
+        return (subject(f), species) not in read if species else subject(f) not in files
+
+    about = by_subject(f for f in findings if f.severity == ERROR and unread(f)
                        and not (f.column or "").startswith("transitions/"))
     return tuple((k, tuple(sorted(v, key=lambda f: f.sort_key())))
-                 for k, v in sorted(about.items()) if k not in read)
+                 for k, v in sorted(about.items()))
 
 
 def fit_selection(sel, ctx: Settings, previous=None, who=None):
@@ -76,6 +84,17 @@ def fit_selection(sel, ctx: Settings, previous=None, who=None):
     meta = sel.primary.meta
     return fit.fit_species(who or SpeciesIdentity.of_table(meta), CpData.of_frame(sel.data),
                            for_table(ctx.fit, meta.fit_overrides), previous)
+
+
+def settle_set(sel, ctx: Settings, about):
+    """The result of a species whose preferred table is a published coefficient set: the set
+    as published, or repaired when asked and defective (fit/published.py); its findings
+    (``about``: findings by file) name its defects."""
+    meta = sel.primary.meta
+    defects = [f.code for f in about.get(meta.file, ()) if concerns(f, meta.species_id)
+               and f.severity != INFO and f.code.startswith("SET-")]
+    return published.settle(meta, sel.primary.data, for_table(ctx.fit, meta.fit_overrides),
+                            ctx.repairs(meta), defects)
 
 
 def previous_breakpoints(out_dir) -> dict:
@@ -141,7 +160,10 @@ def _fit_all(checked: CheckResult, ctx: Settings, say, previous: dict):
         try:
             chain = chain_of.get(sel.species_id)
             who, anchor = phases.identity(meta, chain, done) if chain else (None, {})
-            result = fit_selection(sel, ctx, previous.get(sel.species_id), who)
+            if meta.published is not None:
+                result = settle_set(sel, ctx, about)
+            else:
+                result = fit_selection(sel, ctx, previous.get(sel.species_id), who)
             notes = [finding(code, msg, **meta.where) for code, msg in result.notes]
             notes = [f.about_species(sel.species_id) for f in notes] if meta.shared else notes
             rows = tuple(sorted(zip(sel.data["file"].tolist(),

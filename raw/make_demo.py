@@ -32,6 +32,16 @@ monitored by the analysers. Two sources feed its property library:
   of every species made of C, H, N, O, Ti and Ar appear; S and Fe have no reference
   species in the demo, and SO2 and FeO show the finding that says so.
 
+* ``isru-plantsets-2026`` — COMPUTED: the coefficient sets of the stand's plant-simulation
+  mechanism file, as that team exported them (7-coefficient form, one CSV row per range):
+  NO(g), fitted to the computed source's model with thermoledger's constrained fitter, and
+  ethylene C2H4(g) (a product of the CO2 electrolyser's side reaction), whose two ranges
+  were fitted apart to the same model without continuity
+  (thermoledger.testing.coefsets.unconstrained_nasa7) — the defect for the audit to catch:
+  H and S step at 1000 K. Its source.json asks for the set to be repaired, so the report
+  shows the published set and its repair side by side. C2H4 wavenumbers are recalled from
+  memory of Shimanouchi (1972).
+
 Enthalpies of formation and entropies at 298.15 K are recalled from memory of
 the CODATA Key Values (Cox, Wagman & Medvedev, 1989) and the NIST-JANAF tables
 (Chase, 1998); demo metadata only.
@@ -43,7 +53,10 @@ from pathlib import Path
 import numpy as np
 from scipy.integrate import quad
 from thermoledger.core.constants import ENTROPY_ATM_TO_BAR, GAS_CONSTANT
+from thermoledger.core.settings import FitSettings
 from thermoledger.physics.statmech import rrho_cp_over_r
+from thermoledger.testing import fit_arrays
+from thermoledger.testing.coefsets import HEADER, set_rows, unconstrained_nasa7
 from thermoledger.testing.formation import GRAPHITE_CP, GRAPHITE_S298
 
 ROOT = Path(__file__).resolve().parent
@@ -62,6 +75,8 @@ SPECIES = {
     "N2O": ("N2O", "linear", [1285.0, 589.0, 2224.0], [1, 2, 1], [], 82.05, 219.957),
     "SO2": ("SO2", "nonlinear", [1151.0, 518.0, 1362.0], [1, 1, 1], [], -296.81, 248.223),
     "NH3": ("NH3", "nonlinear", [3337.0, 950.0, 3444.0, 1627.0], [1, 1, 2, 2], [], -45.94, 192.77),
+    "C2H4": ("C2H4", "nonlinear", [3026.0, 1623.0, 1342.0, 1023.0, 3103.0, 1236.0, 949.0, 943.0,
+                                   3106.0, 826.0, 2989.0, 1444.0], [1] * 12, [], 52.4, 219.32),
 }
 
 #: u(ΔfH°), u(S°) of the anchors that state them (CODATA Key Values, from memory; demo only)
@@ -317,8 +332,41 @@ def furnace_source(folder: Path):
                                         encoding="utf-8")
 
 
+def plant_sets_source(folder: Path):
+    """The plant-simulation team's coefficient sets (see the module docstring)."""
+    folder.mkdir(exist_ok=True)
+    t = np.concatenate([[298.15], np.arange(300.0, 3001.0, 50.0)])
+    rows = []
+    for name in ("C2H4", "NO"):
+        formula, geometry, *_, h, s = SPECIES[name]
+        cp = cp_molar(name, t)
+        if name == "C2H4":     # the two ranges fitted apart: steps at 1000 K
+            ranges = unconstrained_nasa7(t, cp, 1000.0 * h, s, 1000.0)
+        else:
+            fit = fit_arrays(f"{name}(g)", t, cp, None, 1000.0 * h, s,
+                             FitSettings(breakpoint_mode="conventional", extrapolate=False))
+            ranges = [(r.t_min, r.t_max, r.coefficients) for r in fit.ranges]
+        rows += set_rows(name, formula, "nasa7", ranges, geometry, digits=9)
+    write_csv(folder / "mechanism-thermo.csv", HEADER, rows)
+    meta = {
+        "source": "isru-plantsets-2026",
+        "title": "Coefficient sets of the ISRU stand's plant-simulation mechanism file",
+        "citation": "Computed with thermoledger raw/make_demo.py: 7-coefficient sets fitted to "
+                    "the rigid-rotor/harmonic-oscillator model of isru-rrho-2026",
+        "method": "compilation",
+        "standard_pressure": "1 bar",
+        "priority": 5,
+        "license": "CC0-1.0",
+        "notes": "COMPUTED demo data; the C2H4 set was fitted range by range without "
+                 "continuity on purpose (the defect the audit catches); see raw/make_demo.py.",
+        "coefficient_sets": [{"file": "mechanism-thermo.csv", "repair": ["C2H4"]}],
+    }
+    (folder / "source.json").write_text(json.dumps(meta, indent=2) + "\n", encoding="utf-8")
+
+
 if __name__ == "__main__":
     computed_source(ROOT / "isru-rrho-2026")
+    plant_sets_source(ROOT / "isru-plantsets-2026")
     synthetic_source(ROOT / "isru-benchlog-2026")
     furnace_source(ROOT / "isru-furnace-2026")
     print(f"demo sources written under {ROOT}; S(1 bar) - S(1 atm) = "

@@ -31,7 +31,7 @@ def test_demo_build_writes_library_and_reports_the_defective_table(demo_raw, tmp
     assert len(ids) >= 8 and "NH3(g)" not in ids
     assert [q["id"] for q in lib["quarantined"]] == ["CO(g)", "NH3(g)"]
     assert "isru-benchlog-2026/co-cal.csv:2 [Cp]: UNIT-FACTOR" in out
-    assert len({s["sources"][0]["source"] for s in lib["species"]}) == 3
+    assert len({s["sources"][0]["source"] for s in lib["species"]}) == 4
     assert tree_hashes(demo_raw) == before  # nothing under raw/ is written
 
 

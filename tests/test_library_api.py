@@ -43,10 +43,10 @@ def published(coefficients, form, t):
 
 
 def test_load_a_folder_or_a_file(lib, demo_release):
-    assert len(lib) == 16 and lib.ids == sorted(lib.ids) and "N2(g)" in lib.ids
+    assert len(lib) == 17 and lib.ids == sorted(lib.ids) and "N2(g)" in lib.ids
     same = thermoledger.load_library(demo_release / "library.json")
     assert same.ids == lib.ids
-    assert "Library of 16 species" in repr(lib)
+    assert "Library of 17 species" in repr(lib)
     assert lib.notice.startswith("Curated property data")
 
 

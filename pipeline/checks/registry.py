@@ -11,9 +11,10 @@ A table with any error finding is quarantined by the build; warnings travel with
 the species.
 """
 
-from ..core.findings import ERROR, by_subject, stage_failed
+from ..core.findings import ERROR, by_subject, concerns, stage_failed
 from ..core.records import Table
 from ..core.settings import Settings
+from .coefsets import SET_SKIPS, check_set_ranges, check_set_steps
 from .columns import check_columns
 from .coverage import check_gaps, check_range_of_use
 from .jumps import check_unlisted_transition
@@ -44,6 +45,8 @@ STRUCTURE_CHECKS = (
     check_entropy_floor,
     check_condensed_bounds,
     check_unit_blocks,
+    check_set_ranges,
+    check_set_steps,
 )
 #: second tier: need clean numbers (a jump in Cp stops it: the rest would only echo it)
 QUALITY_CHECKS = (
@@ -66,16 +69,24 @@ def validate_table(table: Table, ctx: Settings = Settings(), prior=()):
         found = [stage_failed("validate", exc, **table.meta.where)]
     if not table.meta.shared:
         return found
-    return [f.about_species(table.meta.species_id) for f in found]
+    sid = table.meta.species_id
+    if table.meta.published:           # one file holds many sets: say whose finding it is
+        found = [f if f.message.startswith(sid) else f.located(message=f"{sid}: {f.message}")
+                 for f in found]
+    return [f.about_species(sid) for f in found]
 
 
 def _validate_table(table: Table, ctx: Settings, prior):
+    skip = SET_SKIPS if table.meta.published else ()
     out = []
     for check in STRUCTURE_CHECKS:
-        out += check(table, ctx)
+        if check.__name__ not in skip:
+            out += check(table, ctx)
     if any(f.severity == ERROR for f in list(prior) + out) or len(table.data) == 0:
         return out
     for check in QUALITY_CHECKS:
+        if check.__name__ in skip:
+            continue
         found = check(table, ctx)
         out += found
         if check is check_unlisted_transition and found:
@@ -88,5 +99,7 @@ def validate(tables, ctx: Settings = Settings(), prior=()):
     by_file = by_subject(prior)
     out = []
     for table in tables:
-        out += validate_table(table, ctx, by_file.get(table.meta.file, ()))
+        sid = table.meta.species_id
+        out += validate_table(table, ctx, [f for f in by_file.get(table.meta.file, ())
+                                           if concerns(f, sid)])
     return tuple(out)

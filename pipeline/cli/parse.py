@@ -59,6 +59,7 @@ def parser() -> argparse.ArgumentParser:
                    metavar="K",
                    help="temperature step of the evaluated tables after 298.15 K (100)")
     _reference_option(b)
+    _repair_option(b)
     _fit_options(b)
 
     c = sub.add_parser("check", help="ingest and validate only; print the findings",
@@ -70,6 +71,7 @@ def parser() -> argparse.ArgumentParser:
                    help="also write the findings as JSON (schemas/findings.schema.json)")
     c.add_argument("--json", action="store_true", help="print the findings report as JSON")
     _reference_option(c)
+    _repair_option(c)
     _fit_options(c)
 
     a = sub.add_parser("audit", help="rebuild into a temporary folder and compare with curated/",
@@ -141,6 +143,14 @@ def _reference_option(p) -> None:
                    help="reference state of element EL for formation properties: a species "
                         "name (its stable phase at each T) or id, e.g. C=C(cr); repeatable; "
                         "wins over source.json 'reference_states' and the defaults")
+
+
+def _repair_option(p) -> None:
+    p.add_argument("--repair", action="append", default=[], metavar="NAME",
+                   help="refit the published coefficient sets of species NAME (a name or "
+                        "id), of source NAME, or 'all' into continuous sets when the audit "
+                        "finds steps or kinks at their breakpoints; repeatable; besides those "
+                        "source.json asks to repair")
 
 
 def reference_states(given) -> tuple:
@@ -253,4 +263,5 @@ def settings_of(args) -> Settings:
                                     use_t_min=lo, use_t_max=hi,
                                     accept_cp_max_rel=args.accept_cp),
                     outputs=_outputs(args),
-                    references=reference_states(getattr(args, "reference_state", ())))
+                    references=reference_states(getattr(args, "reference_state", ())),
+                    repair=tuple(sorted(set(getattr(args, "repair", ())))))

@@ -55,7 +55,9 @@ def build_summary(result, out, notice: str) -> list:
         used = [f"{x['file']}" + (f" ({x['rows']} rows)" if i else "")
                 for i, x in enumerate(s for s in sp["sources"] if s["used"])]
         dropped = f"  {len(sp['excluded'])} row(s) left out" if sp["excluded"] else ""
-        lines.append(f"  fitted      {sp['id']:14s} {span:14s} {breaks}  "
+        origin = (sp.get("origin") or {}).get("repair")
+        word = "fitted" if origin is None else "repaired" if origin == "repaired" else "published"
+        lines.append(f"  {word:11s} {sp['id']:14s} {span:14s} {breaks}  "
                      f"max |dCp/Cp| {100 * q['cp_max_rel_dev']:.3f} %  "
                      f"from {' + '.join(used)}{dropped}{flag}")
     for entry in result.document["quarantined"]:
@@ -67,7 +69,9 @@ def build_summary(result, out, notice: str) -> list:
                      f"{first['message']}{more}")
     for file, errs in result.held_back:
         first = errs[0]
-        scope = "whole source" if file.endswith("/source.json") else "table not read"
+        sets = sorted({f.extra["species"] for f in errs if f.extra.get("species")})
+        scope = "whole source" if file.endswith("/source.json") else \
+            f"set not read: {', '.join(sets)}" if sets else "table not read"
         where = first.file + (f":{first.line}" if first.line is not None else "")
         col = f" [{first.column}]" if first.column else ""
         more = f" (+{len(errs) - 1} more)" if len(errs) > 1 else ""

@@ -222,6 +222,27 @@ _CODES = [
     Code("FORM-STATED-UNCHECKED", INFO, "a formation property the source states could not be "
          "compared (outside the range of use, or no formation properties)",
          "state values inside the range of use of the species and its elements' references"),
+    # --- published coefficient sets (ingest/coefsets.py, checks/coefsets.py)
+    Code("SET-LAYOUT", ERROR, "a coefficient-set file lacks a required column or repeats one",
+         "give the header species, formula, phase, form, T_min [K], T_max [K], c1 ... c9"),
+    Code("SET-CELL", ERROR, "a cell of a coefficient set cannot be read as what its column "
+         "holds; the set is not read", "correct the cell as the message says"),
+    Code("SET-OVERLAP", ERROR, "two ranges of a coefficient set overlap",
+         "make each range start where the one below it ends"),
+    Code("SET-GAP", ERROR, "the ranges of a coefficient set leave a gap",
+         "make each range start where the one below it ends"),
+    Code("SET-NO-298", WARNING, "the set does not contain 298.15 K, where its H and S are "
+         "anchored (its H(298.15 K) and S° are read from the lowest range beyond its end)",
+         "extend the lowest range down to 298.15 K or below"),
+    Code("SET-STEP", ERROR, "Cp, H or S of a coefficient set jumps at a breakpoint beyond the "
+         "stated thresholds (a warning when the set is repaired)",
+         "check the coefficients against the original, or repair the set (--repair)"),
+    Code("SET-STEP-STRICT", WARNING, "Cp, H or S of a coefficient set jumps at a breakpoint by "
+         "more than programs loading a mechanism accept", "repair the set (--repair)"),
+    Code("SET-KINK", WARNING, "dCp/dT of a coefficient set jumps at a breakpoint",
+         "repair the set (--repair) if a smooth slope matters"),
+    Code("SET-REPAIRED", INFO, "a defective coefficient set was refitted into a continuous one; "
+         "the largest change it made", "compare the published and repaired sets in the report"),
     # --- acknowledgements
     Code("ACK-UNUSED", WARNING, "an acknowledgement in source.json matches no finding",
          "remove it or correct its code and line"),
@@ -318,6 +339,8 @@ def finding(code: str, message: str, **fields) -> Finding:
     """Build a Finding whose severity and default fix come from the registry."""
     entry = CODES[code]  # KeyError here is a programming error: unknown code
     fields.setdefault("fix", entry.fix)
+    if fields.get("lines"):
+        fields["lines"] = tuple(dict.fromkeys(fields["lines"]))  # rows of one line count once
     return Finding(code=code, severity=entry.severity, message=message, **fields)
 
 
@@ -325,6 +348,12 @@ def subject(f: Finding) -> str:
     """The file a finding is about: the table it names in ``extra`` (a source.json field of
     that table) or else its own file."""
     return f.extra.get("table") or f.file
+
+
+def concerns(f: Finding, species_id: str) -> bool:
+    """True unless ``f`` is marked as about another species of a file that holds several
+    (Finding.about_species)."""
+    return f.extra.get("species", species_id) == species_id
 
 
 def by_subject(findings) -> dict:

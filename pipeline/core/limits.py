@@ -65,3 +65,8 @@ TEMPERATURE_SETTING_RANGE = (10.0, 1.0e5)
 DEFAULT_U_ANCHOR_H = 500.0
 DEFAULT_U_ANCHOR_S = 0.25
 DEFAULT_U_TRANSITION_REL = 0.02
+
+#: ΔfH°(298.15 K) [J/mol] of an element's reference species within this of 0 counts as 0:
+#: a published coefficient set states it only to the rounding of its constants (the
+#: 7-coefficient N2 set of the GRI-Mech 3.0 file gives 1.4 J/mol; common practice)
+REFERENCE_H_TOLERANCE = 5.0

@@ -63,6 +63,29 @@ class SourceMeta:
 
 
 @dataclass(frozen=True)
+class PublishedSet:
+    """A coefficient set as a source publishes it (ingest/coefsets.py): its form and its
+    ranges exactly as written, with the CSV line of each range."""
+
+    form: str              # nasa7, nasa9 or shomate (physics/forms.py)
+    ranges: tuple          # ((t_min [K], t_max [K], coefficients tuple), ...) in file order
+    lines: tuple           # CSV line of each range
+    repair: bool = False   # source.json asks for a continuous refit when defects are found
+    keep_breakpoints: bool = True  # a repair keeps the set's breakpoints
+
+    @property
+    def ordered(self) -> tuple:
+        """(t_min, t_max, coefficients, line) of each range, ascending in T."""
+        rows = ((t_min, t_max, c, line) for (t_min, t_max, c), line in zip(self.ranges, self.lines))
+        return tuple(sorted(rows, key=lambda r: (r[0], r[1])))
+
+    @property
+    def breakpoints(self) -> tuple:
+        """[K] where one range hands over to the next (the upper end of each but the last)."""
+        return tuple(r[1] for r in self.ordered[:-1])
+
+
+@dataclass(frozen=True)
 class TableMeta:
     """One table as listed in source.json, with what ingest learnt while reading it."""
 
@@ -91,6 +114,7 @@ class TableMeta:
     #: formation properties the source states: ((T [K], 'enthalpy' | 'gibbs_energy' |
     #: 'log10_kf', value [J/mol or -], index in "stated_formation"), ...)
     stated_formation: tuple = ()
+    published: PublishedSet | None = None  # the table is a published coefficient set, evaluated
     reading: dict = field(default_factory=dict, compare=False, hash=False)  # how it was read
 
     @property
@@ -291,6 +315,9 @@ class FitResult:
     extrapolated: tuple = ()  # dicts: t_min, t_max, model, holdout_error, u_rel_end
     settings: dict = field(default_factory=dict, compare=False)
     notes: tuple = ()      # (code, message) of decisions the fit made
+    #: for a species from a published coefficient set: where it came from, the defects
+    #: found and, when repaired, the published ranges and the largest change (fit/published.py)
+    origin: dict = field(default_factory=dict, compare=False)
 
 
 @dataclass(frozen=True)

@@ -115,6 +115,18 @@ class CheckSettings:
     #: rounding and the revisions between compilations; common practice); a stated value
     #: beyond twice the combined uncertainty from the library's is FORM-DISAGREE
     stated_formation_u: float = 500.0
+    #: published coefficient sets (checks/coefsets.py): a step at a breakpoint is an error
+    #: beyond both thresholds of a quantity, relative to its scale (Cp: Cp; H: R T; S: R)
+    #: and absolute [J/(mol K), J/mol]; one a tenth as large still exceeds common practice for
+    #: the continuity that programs loading a reaction mechanism demand (a warning)
+    set_step_rel: float = 1e-3
+    set_step_cp_abs: float = 0.01
+    set_step_h_abs: float = 1.0
+    set_step_s_abs: float = 0.01
+    set_strict_factor: float = 0.1
+    #: a step of dCp/dT at a breakpoint beyond this fraction of Cp/T is a warning (published
+    #: sets are fitted with Cp, H and S continuous; their slopes differ by up to ~4 %)
+    set_kink_rel: float = 0.1
 
     def to_dict(self) -> dict:
         """The settings as plain JSON values (recorded in the library and the manifest)."""
@@ -147,11 +159,23 @@ class Settings:
     #: reference states of elements chosen for this build, over the sources' and the
     #: defaults: ((element, species name or id), ...) sorted (core/elements.py)
     references: tuple = ()
+    #: published coefficient sets to repair when defects are found: species names or ids,
+    #: source ids, or "all" (besides those source.json asks for), sorted
+    repair: tuple = ()
 
     def to_dict(self) -> dict:
         """The settings as plain JSON values (recorded in the library and the manifest)."""
         return {"fit": self.fit.to_dict(), "checks": self.checks.to_dict(),
-                "outputs": self.outputs.to_dict(), "references": dict(self.references)}
+                "outputs": self.outputs.to_dict(), "references": dict(self.references),
+                "repair": list(self.repair)}
+
+    def repairs(self, meta) -> bool:
+        """True when the published coefficient set of table ``meta`` is to be repaired if
+        defective: its source.json asks, or ``repair`` names it, its species or its source."""
+        if meta.published is None:
+            return False
+        names = {"all", meta.species, meta.species_id, meta.source.id}
+        return meta.published.repair or bool(names & set(self.repair))
 
     @classmethod
     def from_dict(cls, d: dict) -> "Settings":
@@ -167,7 +191,8 @@ class Settings:
             if "fixed_breakpoints" in given:
                 given["fixed_breakpoints"] = tuple(given["fixed_breakpoints"])
             parts[key] = kind(**given)
-        return cls(**parts, references=tuple(sorted((d.get("references") or {}).items())))
+        return cls(**parts, references=tuple(sorted((d.get("references") or {}).items())),
+                   repair=tuple(sorted(d.get("repair") or ())))
 
 
 def for_table(fit: FitSettings, overrides) -> FitSettings:

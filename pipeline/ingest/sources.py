@@ -15,7 +15,7 @@ from ..core.findings import Finding, clip, finding, stage_failed
 from ..core.limits import ANCHOR_RANGE, MAX_SOURCE_BYTES, MAX_TABLE_BYTES, MAX_TABLES_PER_SOURCE
 from ..core.names import sha256
 from ..core.records import InputFile, SourceMeta, Table, TableMeta, Transition
-from . import csvtable, dialect, phased
+from . import coefsets, csvtable, dialect, phased
 
 
 @dataclass(frozen=True)
@@ -50,36 +50,36 @@ def discover(raw_dir: Path) -> tuple[list[Path], list[Finding]]:
 
 
 def parse_source(text: str, *, file: str, folder: str, digest: str):
-    """Parse source.json text -> (SourceMeta or None, table entries, transition entries,
-    findings)."""
+    """Parse source.json text -> (SourceMeta or None, the checked document or {}, findings):
+    its "tables", "coefficient_sets" and "transitions" are read by the caller."""
     try:
         doc = jsonread.loads(text, file=file)
     except InputError as exc:
-        return None, [], [], [finding(exc.code, exc.what, file=file, line=exc.line,
-                                      expected=exc.expected)]
+        return None, {}, [finding(exc.code, exc.what, file=file, line=exc.line,
+                                  expected=exc.expected)]
     if isinstance(doc, dict) and isinstance(doc.get("tables"), list) and \
             len(doc["tables"]) > MAX_TABLES_PER_SOURCE:
-        return None, [], [], [finding("SRC-TOO-LARGE", f"{len(doc['tables'])} tables listed",
-                                      file=file, column="tables",
-                                      expected=f"at most {MAX_TABLES_PER_SOURCE} per source")]
+        return None, {}, [finding("SRC-TOO-LARGE", f"{len(doc['tables'])} tables listed",
+                                  file=file, column="tables",
+                                  expected=f"at most {MAX_TABLES_PER_SOURCE} per source")]
     errors = schemas.errors_of(doc, "source.schema.json")
     if errors:
-        return None, [], [], [finding("SRC-SCHEMA", _schema_message(e), file=file,
-                                      column=schemas.where(e),
-                                      seen=clip(repr(e.instance)), expected=_expected(e))
-                              for e in errors]
+        return None, {}, [finding("SRC-SCHEMA", _schema_message(e), file=file,
+                                  column=schemas.where(e),
+                                  seen=clip(repr(e.instance)), expected=_expected(e))
+                          for e in errors]
     try:
         pressure = quantity(doc["standard_pressure"], "pressure", "standard_pressure")
     except InputError as exc:
-        return None, [], [], [finding("SRC-QUANTITY", exc.what, file=file,
-                                      column="standard_pressure",
-                                      seen=clip(doc["standard_pressure"]),
-                                      expected="'1 bar' or '1 atm'")]
+        return None, {}, [finding("SRC-QUANTITY", exc.what, file=file,
+                                  column="standard_pressure",
+                                  seen=clip(doc["standard_pressure"]),
+                                  expected="'1 bar' or '1 atm'")]
     meta = SourceMeta(id=doc["source"], folder=folder, title=doc["title"],
                       citation=doc["citation"], method=doc["method"], license=doc["license"],
                       priority=int(doc["priority"]), standard_pressure=pressure, sha256=digest,
                       references=tuple(sorted(doc.get("reference_states", {}).items())))
-    return meta, doc["tables"], doc.get("transitions", []), []
+    return meta, doc, []
 
 
 def parse_transitions(doc_entries, source: SourceMeta):
@@ -162,33 +162,61 @@ def _expected(error) -> str:
 
 
 
+def _open_listed(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, listed: str):
+    """(raw bytes or None, InputFile or None, findings) of a file listed in source.json at
+    ``listed`` (e.g. 'tables/3'): confined to raw/, present, a plain file, within the size
+    limit."""
+    rel = f"{source.folder}/{entry['file']}"
+    where = dict(source=source.id, file=rel)
+    path = folder / entry["file"]
+    if path.is_symlink() or not _inside(path, raw_dir):
+        return None, None, [finding("SRC-PATH", "table is a link or lies outside raw/; not "
+                                    "read", **where)]
+    listed_at = dict(source=source.id, file=f"{source.folder}/source.json",
+                     column=f"{listed}/file", seen=entry["file"], extra={"table": rel})
+    if not path.exists():
+        return None, None, [finding("TAB-MISSING", f"listed table {entry['file']} does not "
+                                    "exist", **listed_at)]
+    if not path.is_file():
+        kind = "a folder" if path.is_dir() else "not a regular file (a pipe or device?)"
+        return None, None, [finding("TAB-NOT-FILE", f"listed table {entry['file']} is {kind}",
+                                    expected="a plain CSV file", **listed_at)]
+    size = path.stat().st_size
+    if size > MAX_TABLE_BYTES:
+        return None, None, [finding("TAB-TOO-LARGE", f"the file is {size} bytes; the limit is "
+                                    f"{MAX_TABLE_BYTES}", seen=str(size),
+                                    expected=f"<= {MAX_TABLE_BYTES} bytes", **where)]
+    raw = path.read_bytes()
+    return raw, InputFile(path=rel, sha256=sha256(raw), size=len(raw)), []
+
+
+def read_sets(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, index: int = 0):
+    """Read one coefficient-set file listed in source.json "coefficient_sets" -> (tables,
+    InputFile or None, findings): one table per set (coefsets.py)."""
+    raw, infile, problems = _open_listed(folder, entry, source, raw_dir,
+                                         f"coefficient_sets/{index}")
+    if raw is None:
+        return [], infile, problems
+    text, encoding, enc = dialect.decode(raw, infile.path)
+    problems = [f.located(source=source.id) for f in enc]
+    if text is None:
+        return [], infile, problems
+    base = TableMeta(source=source, file=infile.path, species="", formula="", phase="",
+                     geometry=None, molar_mass=None, atoms=None,
+                     enthalpy_of_formation_298=None, entropy_298=None, sha256=infile.sha256,
+                     size=infile.size, index=index, reading={"encoding": encoding})
+    tables, more = coefsets.set_tables(text, entry, base)
+    return tables, infile, problems + [f.located(source=source.id) for f in more]
+
+
 def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, index: int = 0):
     """Read one table listed in source.json -> (tables, InputFile or None, findings): one
     table per phase it holds (phased.py); none when it cannot be read at all."""
     rel = f"{source.folder}/{entry['file']}"
-    where = dict(source=source.id, file=rel)
-    path = folder / entry["file"]
-    problems: list[Finding] = []
-    if path.is_symlink() or not _inside(path, raw_dir):
-        return [], None, [finding("SRC-PATH", "table is a link or lies outside raw/; not read",
-                                  **where)]
-    listed_at = dict(source=source.id, file=f"{source.folder}/source.json",
-                     column=f"tables/{index}/file", seen=entry["file"], extra={"table": rel})
-    if not path.exists():
-        return [], None, [finding("TAB-MISSING", f"listed table {entry['file']} does not exist",
-                                  **listed_at)]
-    if not path.is_file():
-        kind = "a folder" if path.is_dir() else "not a regular file (a pipe or device?)"
-        return [], None, [finding("TAB-NOT-FILE", f"listed table {entry['file']} is {kind}",
-                                  expected="a plain CSV file", **listed_at)]
-    size = path.stat().st_size
-    if size > MAX_TABLE_BYTES:
-        return [], None, [finding("TAB-TOO-LARGE", f"the file is {size} bytes; the limit is "
-                                  f"{MAX_TABLE_BYTES}", seen=str(size),
-                                  expected=f"<= {MAX_TABLE_BYTES} bytes", **where)]
-    raw = path.read_bytes()
-    digest = sha256(raw)
-    infile = InputFile(path=rel, sha256=digest, size=len(raw))
+    raw, infile, problems = _open_listed(folder, entry, source, raw_dir, f"tables/{index}")
+    if raw is None:
+        return [], infile, problems
+    digest = infile.sha256
     comp = None
     try:
         comp = chemistry.composition(entry["formula"])
@@ -253,10 +281,11 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
     return tables, infile, problems + more
 
 
-def _guarded_read(folder, entry, source, raw_dir, index):
-    """read_table, with an unexpected exception turned into that table's finding."""
+def _guarded_read(folder, entry, source, raw_dir, index, reader=read_table):
+    """``reader`` (read_table or read_sets), with an unexpected exception turned into that
+    file's finding."""
     try:
-        return read_table(folder, entry, source, raw_dir, index)
+        return reader(folder, entry, source, raw_dir, index)
     except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
         rel = f"{source.folder}/{entry.get('file', '?')}"
         return [], None, [stage_failed("ingest", exc, source=source.id, file=rel)]
@@ -296,12 +325,12 @@ def ingest(raw_dir) -> IngestResult:
         except UnicodeDecodeError:
             findings.append(finding("SRC-UNREADABLE", "source.json is not UTF-8", file=rel))
             continue
-        source, entries, stated, problems = parse_source(text, file=rel, folder=folder.name,
-                                                         digest=sha256(raw))
+        source, doc, problems = parse_source(text, file=rel, folder=folder.name,
+                                             digest=sha256(raw))
         findings += problems
         if source is None:
             continue
-        stated, problems = parse_transitions(stated, source)
+        stated, problems = parse_transitions(doc.get("transitions", []), source)
         findings += problems
         if source.id in seen_ids:
             findings.append(finding("SRC-DUPLICATE-ID", f"source id '{source.id}' is also "
@@ -312,13 +341,15 @@ def ingest(raw_dir) -> IngestResult:
         sources.append(source)
         transitions += stated
         listed = set()
-        for index, entry in enumerate(entries):
-            listed.add(entry["file"])
-            read, infile, problems = _guarded_read(folder, entry, source, raw_dir, index)
-            findings += problems
-            if infile:
-                inputs.append(infile)
-            tables += read
+        for key, reader in (("tables", read_table), ("coefficient_sets", read_sets)):
+            for index, entry in enumerate(doc.get(key, [])):
+                listed.add(entry["file"])
+                read, infile, problems = _guarded_read(folder, entry, source, raw_dir, index,
+                                                       reader)
+                findings += problems
+                if infile:
+                    inputs.append(infile)
+                tables += read
         for csv_path in sorted(folder.glob("*.csv")):
             if csv_path.name not in listed:
                 findings.append(finding("TAB-UNLISTED", f"{csv_path.name} is not listed in "

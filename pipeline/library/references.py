@@ -9,6 +9,7 @@ with no ids and the reason, and species containing it get no formation propertie
 
 from ..core import chemistry
 from ..core.elements import default_reference
+from ..core.limits import REFERENCE_H_TOLERANCE
 from . import document
 
 
@@ -65,7 +66,7 @@ def _ids(doc, by_id, el, name) -> tuple:
             by_id[i]["anchor"].get("basis") == "own"]
     for i in root:
         h = by_id[i]["enthalpy_of_formation_298"]
-        if h != 0.0:
+        if abs(h) > REFERENCE_H_TOLERANCE:
             return [], None, (f"{i} has ΔfH°(298.15 K) = {h / 1000:.6g} kJ/mol; an element's "
                               "reference state has 0 by definition")
     return ids, atoms, None

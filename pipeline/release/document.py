@@ -36,6 +36,10 @@ UNCERTAINTY_CONVENTION = (
     "into H and S; shares added in quadrature")
 
 
+PUBLISHED_BASIS = ("a published coefficient set adopted as published: no covariance; H and S "
+                   "carry the uncertainty of their anchors only")
+
+
 def extrapolated_intervals(fit) -> list:
     """Intervals of the range of use outside the data, with how they were filled."""
     out = []
@@ -79,8 +83,9 @@ def species_entry(fitted) -> dict:
                     "h_max_dev": fit.h_max_dev, "s_max_dev": fit.s_max_dev,
                     "points": fit.points, "worst_t": fit.worst_t, "weighting": fit.weighting,
                     "acceptance": dict(fit.acceptance)},
-        "uncertainty": {"basis": "Cp/R = sum over p of c[j][p] * (T / 1000 K)^p in range j; "
-                                 "covariance of c, ranges stacked",
+        "uncertainty": {"basis": PUBLISHED_BASIS if fit.acceptance.get("rule") == "published"
+                        else "Cp/R = sum over p of c[j][p] * (T / 1000 K)^p in range j; "
+                             "covariance of c, ranges stacked",
                         "powers": list(fit.powers),
                         "covariance": [list(row) for row in fit.covariance],
                         "convention": UNCERTAINTY_CONVENTION,
@@ -94,6 +99,8 @@ def species_entry(fitted) -> dict:
     }
     if fitted.anchor:
         entry["anchor"] = dict(fitted.anchor)
+    if fit.origin:
+        entry["origin"] = dict(fit.origin)
     return entry
 
 

@@ -48,7 +48,7 @@ def lineage(fitted) -> dict:
         sources.append({"source": u.meta.source.id, "file": u.meta.file,
                         "sha256": u.meta.sha256, "lines": by_file.get(u.meta.file, []),
                         "t_min": u.t_min, "t_max": u.t_max})
-    return {
+    out = {
         "id": meta.species_id,
         "form": fit.form,
         "fit_settings": fit.settings,
@@ -58,6 +58,9 @@ def lineage(fitted) -> dict:
                       "acknowledged": f.acknowledged} for f in
                      sorted(fitted.findings, key=lambda f: f.sort_key())],
     }
+    if fit.origin:
+        out["origin"] = dict(fit.origin)
+    return out
 
 
 def manifest(fitted, quarantined, inputs, outputs, settings: dict, inputs_digest: str) -> dict:

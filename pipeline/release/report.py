@@ -10,7 +10,9 @@ from collections import Counter
 
 import numpy as np
 
+from ..checks.coefsets import steps
 from ..core.names import file_stem
+from ..core.records import PublishedSet
 from . import plots
 from .document import NOTICE
 
@@ -175,6 +177,58 @@ def _formation_section(got) -> list:
     return out
 
 
+def _steps_of(form, ranges) -> list:
+    """checks.coefsets.steps of library ranges (dicts)."""
+    return steps(PublishedSet(form=form, ranges=tuple(
+        (r["t_min"], r["t_max"], tuple(r["coefficients"])) for r in ranges),
+        lines=tuple(range(len(ranges)))))
+
+
+def _origin_section(sp) -> list:
+    """The published-set section of a species page: where the set came from and what the
+    audit found; for a repaired set, the published and repaired coefficients side by side,
+    the steps at each breakpoint before and after, and the largest change."""
+    o = sp.get("origin")
+    if not o:
+        return []
+    lines = ", ".join(str(n) for n in o["lines"])
+    found = ", ".join(o["defects"]) or "no defects"
+    out = ["<h2>Published coefficient set</h2>",
+           f"<p>From {e(o['file'])} (lines {e(lines)}, source {e(o['source'])}), "
+           f"{e(o['form'])} form. Audit: {e(found)}. "]
+    if o["repair"] != "repaired":
+        out.append({"not needed": "Adopted as published: the coefficients below are the "
+                                  "source's, unchanged.",
+                    "not requested": "Adopted as published although defective: no repair "
+                                     "was asked for."}[o["repair"]] + "</p>")
+        return out
+    keep = "its breakpoints kept" if o.get("keep_breakpoints") else "breakpoints chosen anew"
+    out.append(f"Repaired: refitted into a continuous set ({e(keep)}), anchored to the set's "
+               "own ΔfH° and S°.</p>")
+    out.append("<table><tr><th>range [K]</th><th>published</th><th>repaired</th></tr>")
+    for a, b in zip(o["published_ranges"], sp["ranges"]):
+        out.append(f"<tr><td>{a['t_min']:g}-{a['t_max']:g}</td><td><code>"
+                   + e(", ".join(repr(c) for c in a["coefficients"])) + "</code></td><td><code>"
+                   + e(", ".join(repr(c) for c in b["coefficients"])) + "</code></td></tr>")
+    out.append("</table><table><tr><th>breakpoint [K]</th><th>quantity</th>"
+               "<th>step, published</th><th>step, repaired</th></tr>")
+    before, after = _steps_of(o["form"], o["published_ranges"]), _steps_of(sp["form"], sp["ranges"])
+    after_at = {round(x["t"], 6): x for x in after}
+    for x in before:
+        y = after_at.get(round(x["t"], 6))
+        for name, (lo, hi, _, unit) in x["quantities"].items():
+            now = "-" if y is None else f"{y['quantities'][name][1] - y['quantities'][name][0]:+.3g}"
+            out.append(f"<tr><td class=\"num\">{x['t']:g}</td><td>{e(name)} [{e(unit)}]</td>"
+                       f"<td class=\"num\">{hi - lo:+.3g}</td><td class=\"num\">{e(now)}</td></tr>")
+    out.append("</table>")
+    c = o["largest_change"]
+    out.append(f"<p>Largest change the repair made inside the range: Cp {c['Cp']['change']:+.4g} "
+               f"J/(mol K) ({100 * c['Cp']['relative']:+.3g} %) at {c['Cp']['temperature']:g} K; "
+               f"H {c['H']['change']:+.4g} J/mol at {c['H']['temperature']:g} K; "
+               f"S {c['S']['change']:+.4g} J/(mol K) at {c['S']['temperature']:g} K.</p>")
+    return out
+
+
 def species_page(sp, points, has_dev, transitions=None, formation=None) -> bytes:
     """The HTML page of one library species entry; ``transitions`` those of the library,
     ``formation`` its entry of ``formation_rows``."""
@@ -193,6 +247,7 @@ def species_page(sp, points, has_dev, transitions=None, formation=None) -> bytes
     body = ["<h2>At a glance</h2><table>"]
     body += [f"<tr><th>{e(k)}</th><td>{e(v)}</td></tr>" for k, v in rows]
     body.append("</table>")
+    body += _origin_section(sp)
     body += _phase_section(sp, transitions or [])
     if formation is not None:
         body += _formation_section(formation)

@@ -7,6 +7,7 @@ file just over the byte limit, runs ``thermoledger check`` on each in a fresh pr
 prints wall time [s] and the peak resident memory of that process [MiB].
 """
 
+import argparse
 import json
 import subprocess
 import sys
@@ -48,7 +49,8 @@ def run(raw):
     return time.monotonic() - t0, int(p.stderr.strip().splitlines()[-1]) / 1024
 
 
-def main() -> int:
+def main(argv=None) -> int:
+    argparse.ArgumentParser(description=__doc__.splitlines()[0]).parse_args(argv)
     print(f"limits: {MAX_ROWS} rows, {MAX_TABLE_BYTES} bytes per table")
     cases = {"rows at the limit": lambda: rows(MAX_ROWS),
              "rows over the limit": lambda: rows(MAX_ROWS + 1000),

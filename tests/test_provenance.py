@@ -185,15 +185,18 @@ def _cli(*argv):
 
 @pytest.fixture
 def two_releases(demo_raw, tmp_path, capsys):
-    """Raw folders A and B (one row differs) and the release trees they build."""
-    raw_b = tmp_path / "raw-b"
-    shutil.copytree(demo_raw, raw_b)
+    """Raw folders A and B (one row differs) and the release trees they build. They hold the
+    demo's computed source alone (eight species, every stage and output of a build): the
+    tests that use them build many times, and what they test does not grow with the size."""
+    raw_a, raw_b = tmp_path / "raw-a", tmp_path / "raw-b"
+    for raw in (raw_a, raw_b):
+        shutil.copytree(demo_raw / "isru-rrho-2026", raw / "isru-rrho-2026")
     edit_n2_row(raw_b)
-    run(capsys, "build", "--raw", demo_raw, "--out", tmp_path / "ref-a")
+    run(capsys, "build", "--raw", raw_a, "--out", tmp_path / "ref-a")
     run(capsys, "build", "--raw", raw_b, "--out", tmp_path / "ref-b")
     a, b = tree(tmp_path / "ref-a"), tree(tmp_path / "ref-b")
     assert a != b
-    return demo_raw, raw_b, a, b
+    return raw_a, raw_b, a, b
 
 
 def test_concurrent_builds_never_interleave(two_releases, tmp_path):

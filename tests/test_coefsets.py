@@ -29,7 +29,7 @@ import numpy as np
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
-from thermoledger import ingest
+from thermoledger import ingest, load_library
 from thermoledger.checks.coefsets import steps
 from thermoledger.core.records import PublishedSet
 from thermoledger.physics.forms import evaluate_ranges
@@ -219,6 +219,7 @@ def test_a_repaired_set_is_continuous_and_close_to_the_published_one(tmp_path, c
                                                           rel=0.05)
     assert sp["enthalpy_of_formation_298"] == pytest.approx(a["H"][0], abs=1e-6)
     assert any(f["code"] == "SET-REPAIRED" for f in sp["findings"])
+    assert load_library(out)["O2"].origin["largest_change"] == change
     lineage = json.loads((out / "manifest.json").read_text())["species"][0]
     assert lineage["origin"]["largest_change"] == change
     page = next((out / "report" / "species").glob("O2_g-*.html")).read_text()
@@ -282,6 +283,23 @@ def test_a_set_is_compared_with_the_tables_and_anchors_of_other_sources(tmp_path
     cs.write_sets(raw, "offset", cs.set_rows("CO2", f, "nasa7", scaled, g))
     code, found = _check(capsys, raw)
     assert "SRC-DISAGREE" in {x["code"] for x in found if x["source"] == "offset"}
+
+
+def test_a_preferred_set_is_never_filled_from_a_table_beyond_its_range(tmp_path, capsys):
+    raw = tmp_path / "raw"
+    t = np.arange(300.0, 5001.0, 100.0)
+    rows = [[f"{x:g}", f"{_cp0('Oxygen', x):.4f}"] for x in t]
+    write_source(raw, "eos", [{**table_entry("o2.csv", "O2", "O2", "linear",
+                                             s="205.152 J/(mol*K)"),
+                               "header": ["T [K]", "Cp [J/(mol*K)]"], "rows": rows}],
+                 priority=1)
+    cs.write_sets(raw, "gri", cs.library_rows(cs.NASA7, "nasa7", ["O2"]), priority=9)
+    species, _, _ = _build(capsys, tmp_path, raw)
+    sp = species["O2(g)"]
+    assert [tuple(r["coefficients"]) for r in sp["ranges"]] == [r[2] for r in cs.NASA7["O2"][2]]
+    assert [(s["source"], s["used"]) for s in sp["sources"]] == [("gri", True), ("eos", False)]
+    assert any(f["code"] == "SEL-SUPERSEDED" and "published coefficient set" in f["message"]
+               for f in sp["findings"])
 
 
 def test_a_set_tabulated_at_one_atmosphere_moves_to_one_bar(tmp_path, capsys):

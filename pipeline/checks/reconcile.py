@@ -247,6 +247,8 @@ def _select(sid, tables, about, ctx):
             lo, hi = float(d["T"].min()), float(d["T"].max())
             covered = (lo, hi) if covered is None else (min(covered[0], lo),
                                                          max(covered[1], hi))
+            if table is primary and primary.meta.published is not None:
+                covered = (-np.inf, np.inf)  # a published set is taken as it is, never filled
             uses.append(SourceUse(table.meta, int(len(d)), lo, hi))
             if table is not primary:
                 notes.append(finding("SEL-MERGED", f"{sid}: {len(d)} row(s) of this table "
@@ -255,8 +257,10 @@ def _select(sid, tables, about, ctx):
         else:
             uses.append(SourceUse(table.meta, 0, None, None))
             if table is not primary:
+                what = "is a published coefficient set, taken as it is, over" if \
+                    primary.meta.published is not None else "covers"
                 notes.append(finding("SEL-SUPERSEDED", f"{sid}: {primary.meta.file} (priority "
-                                     f"{primary.meta.source.priority}) covers this table's "
+                                     f"{primary.meta.source.priority}) {what} this table's "
                                      f"range (priority {table.meta.source.priority})",
                                      **table.meta.where))
     data = pd.concat(rows, ignore_index=True).sort_values(["T"], kind="stable") if rows \

@@ -65,6 +65,9 @@ class Species:
         self.data_range: tuple = (entry["data_range"]["t_min"], entry["data_range"]["t_max"])
         self.extrapolated_intervals: tuple = tuple(
             (e["t_min"], e["t_max"]) for e in entry["extrapolated"])
+        #: for a species from a published coefficient set: its file, defects, whether it was
+        #: repaired and (then) the published ranges and the largest change; None otherwise
+        self.origin: dict | None = entry.get("origin")
         self._ranges = document.ranges_of(entry)
         self._h298 = None
 

@@ -227,6 +227,19 @@ def test_a_repaired_set_is_continuous_and_close_to_the_published_one(tmp_path, c
     assert repr(published[0][2][0]) in page and repr(sp["ranges"][0]["coefficients"][0]) in page
 
 
+def test_a_shomate_set_of_three_ranges_is_repaired_in_its_own_form(tmp_path, capsys):
+    cs.write_sets(tmp_path / "raw", "webbook", cs.set_rows("N2", "N2", "shomate", SHOMATE_N2[2],
+                                                           "linear"))
+    species, _, _ = _build(capsys, tmp_path, tmp_path / "raw", "--repair", "webbook")
+    sp = species["N2(g)"]
+    assert sp["form"] == "shomate" and sp["breakpoints"] == [500.0, 2000.0]
+    assert sp["origin"]["defects"] == ["SET-STEP-STRICT"] and sp["origin"]["repair"] == "repaired"
+    assert _max_steps("shomate", sp["ranges"]) < 1e-9
+    change = sp["origin"]["largest_change"]
+    assert abs(change["Cp"]["relative"]) < REPAIR_CP and abs(change["H"]["change"]) < REPAIR_H
+    assert abs(change["S"]["change"]) < REPAIR_S
+
+
 def test_a_repair_can_choose_new_breakpoints(tmp_path, capsys):
     rows = cs.set_rows("O2", "O2", "nasa7", _unconstrained_o2(), "linear")
     cs.write_sets(tmp_path / "raw", "apart", rows, entry={"repair": True,

@@ -129,7 +129,3 @@ def check_set_steps(table: Table, ctx: Settings):
                            "both)") for f in out]
     return out
 
-
-#: checks of tables that a published set skips: its own checks say more precisely what a
-#: step at a breakpoint, a column mismatch or a missing 298.15 K means
-SET_SKIPS = ("check_unlisted_transition", "check_columns", "check_anchor_reach")

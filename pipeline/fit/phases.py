@@ -51,8 +51,7 @@ def chains_by_id(chains) -> dict:
 def _values(fit, t):
     """Cp, H, S, G of a FitResult at T [K], a number or an array (its polynomial, also
     outside its range)."""
-    rr = [(r.t_min, r.t_max, r.coefficients) for r in fit.ranges]
-    got = forms.evaluate_ranges(rr, t, fit.form)
+    got = forms.evaluate_ranges(fit.ranges, t, fit.form)
     return got if np.ndim(t) else {k: float(v[0]) for k, v in got.items()}
 
 

@@ -54,8 +54,7 @@ def adopt(meta: TableMeta, data, defects=()) -> FitResult:
     its evaluated table ``data`` (a frame) is exact by construction."""
     ranges = published_ranges(meta)
     t = data["T"].to_numpy(dtype=float)
-    got = forms.evaluate_ranges([(r.t_min, r.t_max, r.coefficients) for r in ranges], t,
-                                meta.published.form)
+    got = forms.evaluate_ranges(ranges, t, meta.published.form)
     rel = np.abs(got["Cp"] / data["Cp"].to_numpy(dtype=float) - 1.0)
     dh = got["H"] - meta.enthalpy_of_formation_298 - data["dH"].to_numpy(dtype=float)
     ds = got["S"] - data["S"].to_numpy(dtype=float)
@@ -74,8 +73,7 @@ def largest_change(before, after, form: str) -> dict:
     """{'Cp', 'H', 'S'}: the largest |after − before| [SI] over the range of ``before``
     (FitRange sequences), with where it is and, for Cp, relative to Cp."""
     t = np.linspace(before[0].t_min, before[-1].t_max, CHANGE_POINTS)
-    a = forms.evaluate_ranges([(r.t_min, r.t_max, r.coefficients) for r in before], t, form)
-    b = forms.evaluate_ranges([(r.t_min, r.t_max, r.coefficients) for r in after], t, form)
+    a, b = forms.evaluate_ranges(before, t, form), forms.evaluate_ranges(after, t, form)
     out = {}
     for name in ("Cp", "H", "S"):
         diff = b[name] - a[name]

@@ -29,7 +29,7 @@ from ..core.errors import InputError
 from ..core.findings import clip, finding
 from ..core.limits import MAX_ROWS
 from ..core.records import DATA_COLUMNS, PublishedSet, Table, TableMeta
-from ..physics.forms import FORMS, evaluate_ranges
+from ..physics.forms import FORMS, evaluate_ranges, range_of
 from . import csvtable
 
 REQUIRED = ("species", "formula", "phase", "form", "T_min", "T_max")
@@ -204,7 +204,7 @@ def evaluate(published: PublishedSet, pressure: float, phase: str) -> tuple[pd.D
     if phases.is_gas(phase):
         s, _ = csvtable.at_one_bar(s, pressure, "S")
         s298, _ = csvtable.at_one_bar(s298, pressure, "S")
-    index = np.searchsorted([r[1] for r in ordered[:-1]], t, side="left")
+    index = range_of(t, published.breakpoints)
     frame = pd.DataFrame({"line": np.asarray([ordered[k][3] for k in index], dtype=int),
                           "T": t, "Cp": props["Cp"][:-1], "u_Cp": np.nan,
                           "dH": props["H"][:-1] - h298, "S": s, "u_dH": np.nan,

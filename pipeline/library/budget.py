@@ -217,8 +217,7 @@ class Budgets:
 
 
 def _evaluate(entry: dict, t) -> dict:
-    return forms.evaluate_ranges([(r["t_min"], r["t_max"], r["coefficients"])
-                                  for r in entry["ranges"]], t, entry["form"])
+    return forms.evaluate_ranges(entry["ranges"], t, entry["form"])
 
 
 def model_share(model_error, bps, t, tref=REFERENCE_TEMPERATURE) -> dict:

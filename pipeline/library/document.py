@@ -147,7 +147,7 @@ def _close(name: str, ids) -> tuple:
 
 def ranges_of(species: dict) -> list:
     """(t_min [K], t_max [K], coefficients) of each range of a library species entry."""
-    return [(r["t_min"], r["t_max"], r["coefficients"]) for r in species["ranges"]]
+    return forms.as_ranges(species["ranges"])
 
 
 def check_range(species: dict, t) -> None:

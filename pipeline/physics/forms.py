@@ -138,14 +138,30 @@ def range_of(t, breakpoints):
                            side="left")
 
 
+def as_ranges(ranges) -> list:
+    """(t_min, t_max, coefficients) of each range, given as such tuples, as library entry
+    ranges (dicts) or as FitRange records."""
+    out = []
+    for r in ranges:
+        if isinstance(r, dict):
+            out.append((r["t_min"], r["t_max"], r["coefficients"]))
+        elif hasattr(r, "coefficients"):
+            out.append((r.t_min, r.t_max, r.coefficients))
+        else:
+            out.append(tuple(r))
+    return out
+
+
 def range_index(ranges, t):
-    """``range_of`` for a sequence of (t_min, t_max, coefficients) ranges."""
-    return range_of(t, [r[1] for r in ranges[:-1]])
+    """``range_of`` for a sequence of ranges (see ``as_ranges``)."""
+    return range_of(t, [r[1] for r in as_ranges(ranges)[:-1]])
 
 
 def evaluate_ranges(ranges, t, form):
-    """Cp [J/(mol K)], H [J/mol], S [J/(mol K)] and G [J/mol] at ``t`` [K]."""
+    """Cp [J/(mol K)], H [J/mol], S [J/(mol K)] and G [J/mol] at ``t`` [K] of ``ranges``:
+    (t_min, t_max, coefficients) tuples, library entry ranges or FitRange records."""
     f = FORMS[form] if isinstance(form, str) else form
+    ranges = as_ranges(ranges)
     t = np.atleast_1d(np.asarray(t, dtype=float))
     idx = range_index(ranges, t)
     cp, h, s = (np.empty_like(t) for _ in range(3))

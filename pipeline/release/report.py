@@ -13,6 +13,7 @@ import numpy as np
 from ..checks.coefsets import steps
 from ..core.names import file_stem
 from ..core.records import PublishedSet
+from ..physics import forms
 from . import plots
 from .document import NOTICE
 
@@ -179,9 +180,8 @@ def _formation_section(got) -> list:
 
 def _steps_of(form, ranges) -> list:
     """checks.coefsets.steps of library ranges (dicts)."""
-    return steps(PublishedSet(form=form, ranges=tuple(
-        (r["t_min"], r["t_max"], tuple(r["coefficients"])) for r in ranges),
-        lines=tuple(range(len(ranges)))))
+    return steps(PublishedSet(form=form, ranges=tuple(forms.as_ranges(ranges)),
+                              lines=tuple(range(len(ranges)))))
 
 
 def _origin_section(sp) -> list:

@@ -28,7 +28,9 @@ from thermoledger.ingest import sources as ingest
 from thermoledger.physics import statmech
 
 
-def make_raw(raw: Path, n: int, points: int, seed: int = 1) -> None:
+def make_raw(raw: Path, n: int, points: int, seed: int = 1, flagged: bool = False) -> None:
+    """Write n species into four sources; with flagged, every table has one outlier (+3 %)
+    that its source.json acknowledges, so every table carries a finding."""
     rng = np.random.default_rng(seed)
     t = np.unique(np.append(np.geomspace(200.0, 3000.0, points - 1), 298.15))
     per_source = {}
@@ -39,6 +41,8 @@ def make_raw(raw: Path, n: int, points: int, seed: int = 1) -> None:
         nu = rng.uniform(300.0, 3500.0, modes)
         cp = GAS_CONSTANT * statmech.rrho_cp_over_r(t, geometry, nu)
         cp *= 1 + 1e-3 * rng.standard_normal(t.size)
+        if flagged:
+            cp[t.size // 2] *= 1.03
         formula = f"C{atoms - 1}O" if atoms > 2 else "CO"
         source = f"bench-{i % 4}"
         folder = raw / source
@@ -50,6 +54,9 @@ def make_raw(raw: Path, n: int, points: int, seed: int = 1) -> None:
             {"file": f"{name}.csv", "species": name, "formula": formula, "phase": "g",
              "geometry": geometry, "enthalpy_of_formation_298": "-100 kJ/mol",
              "entropy_298": "250 J/(mol*K)"})
+        if flagged:
+            per_source[source][-1]["acknowledge"] = [
+                {"code": "SMOOTH-OUTLIER", "reason": "planted by the benchmark"}]
     for k, (source, tables) in enumerate(sorted(per_source.items())):
         doc = {"source": source, "title": "benchmark", "citation": "synthetic",
                "method": "estimation", "standard_pressure": "1 bar", "priority": k,

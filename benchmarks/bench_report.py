@@ -14,8 +14,8 @@ from pathlib import Path
 from bench_build import make_raw
 from thermoledger import build
 from thermoledger.core.settings import OutputSettings, Settings
-from thermoledger.library import tables
-from thermoledger.release import report
+from thermoledger.release import report, tables
+from thermoledger.release.assemble import plot_points
 
 
 def main(argv=None) -> int:
@@ -29,12 +29,12 @@ def main(argv=None) -> int:
         ctx = Settings(outputs=OutputSettings(report=False))
         result = build.build(raw, Path(tmp) / "out", ctx, write=False)
         checked = build.examine(raw, ctx)
-        points = build.plot_points(result.document, checked)
+        points = plot_points(result.document, checked)
         t0 = time.perf_counter()
         files = report.report_files(result.document, points, ctx.fit.accept_cp_max_rel)
         t_report = time.perf_counter() - t0
         t0 = time.perf_counter()
-        tables.parquet_bytes(result.document)
+        tables.tables_parquet_bytes(result.document)
         t_tables = time.perf_counter() - t0
     size = sum(len(b) for b in files.values()) / 2**20
     print(f"report for {args.species} species: {t_report:.1f} s "

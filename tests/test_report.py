@@ -1,6 +1,7 @@
 """Evaluated tables, the HTML report, progress and JSON output."""
 
 import json
+import re
 import shutil
 import subprocess
 from html.parser import HTMLParser
@@ -176,7 +177,7 @@ def test_report_renders_in_a_real_headless_browser(release, tmp_path):
 
     index = (release / "report" / "index.html").as_uri()
     dom = chromium("--dump-dom", "--virtual-time-budget=2000", index).stdout
-    assert "<table class=\"sortable\" id=\"summary\">" in dom
+    assert "<table class=\"paged\" id=\"summary\">" in dom
     n = len(json.loads((release / "library.json").read_text())["species"])
     assert dom.count("<tr><td><a href=\"species/") == n
     shot = tmp_path / "index.png"           # kept out of the repository
@@ -206,3 +207,59 @@ def test_progress_bar_on_a_terminal_shows_stage_and_eta():
     text = term.getvalue()
     bar.close()
     assert "fit" in text and "5/5" in text and "<" in text   # tqdm's elapsed<remaining
+
+
+def _many_species(release, n):
+    """A library document of ``n`` species made by renaming the demo's first entry."""
+    doc = json.loads((release / "library.json").read_text())
+    first = doc["species"][0]
+    doc["species"] = [dict(first, id=f"X{k:04d}(g)") for k in range(n)]
+    return doc
+
+
+def test_index_pages_a_long_table_and_keeps_every_row_as_data(release):
+    from thermoledger.release import report
+
+    html = report.index_page(_many_species(release, 250)).decode()
+    head, _, data = html.partition("id=\"summary-rows\">")
+    assert head.count("<tr><td><a href=\"species/") == report.PAGE_ROWS   # first page only
+    rows = json.loads(data.partition("</script>")[0])
+    assert [r["k"][0] for r in rows] == [f"X{k:04d}(g)" for k in range(250)]
+    assert "first 100 of 250 rows" in head
+
+
+@pytest.mark.skipif(CHROMIUM is None, reason="Chromium is not installed on this machine")
+def test_index_filters_and_pages_in_a_real_headless_browser(release, tmp_path):
+    from thermoledger.release import report
+
+    index = tmp_path / "index.html"
+    index.write_bytes(report.index_page(_many_species(release, 250)))
+
+    def dom(fragment):
+        out = subprocess.run([CHROMIUM, *FLAGS, f"--user-data-dir={tmp_path / 'profile'}",
+                              "--dump-dom", "--virtual-time-budget=2000",
+                              index.as_uri() + fragment], capture_output=True, text=True,
+                             timeout=120).stdout
+        return re.findall(r"<tr><td><a href=\"species/[^\"]+\">([^<]+)</a>", out), out
+
+    shown, _ = dom("")
+    assert shown == [f"X{k:04d}(g)" for k in range(100)]
+    shown, text = dom("#page=3")
+    assert shown == [f"X{k:04d}(g)" for k in range(200, 250)] and "rows 201-250 of 250" in text
+    shown, text = dom("#q=x012")
+    assert shown == [f"X{k:04d}(g)" for k in range(120, 130)]
+    assert "rows 1-10 of 10 (filtered from 250)" in text
+
+
+def test_plots_are_plain_svg_with_the_data_drawn(release):
+    import xml.etree.ElementTree as ET
+
+    for svg in (release / "report" / "img").glob("*.svg"):
+        root = ET.fromstring(svg.read_bytes())        # well-formed XML
+        assert root.tag == "{http://www.w3.org/2000/svg}svg"
+    lib = json.loads((release / "library.json").read_text())
+    n2 = next(s for s in lib["species"] if s["id"] == "N2(g)")
+    text = (release / "report" / "img" / f"{N2}-cp.svg").read_text()
+    assert "N2(g): heat capacity" in text and "<polyline" in text
+    assert text.count("<rect") >= 3          # background, frames, and the extrapolated span
+    assert len(n2["breakpoints"]) == 2 and text.count("stroke-dasharray=\"2,2\"") == 4

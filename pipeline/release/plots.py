@@ -1,150 +1,78 @@
-"""Plots of the build report, rendered at build time to SVG with matplotlib.
+"""Plots of the build report, drawn at build time as plain SVG (svgchart.py).
 
-Figures are made directly (no pyplot state, no backend chosen) and the style applies only
-inside our own drawing (``rc_context``): importing this module changes no global state. Each
-kind of plot is one figure reused from species to species (only the data change), which
-makes a thousand species a matter of seconds. Text stays text in the SVG (the viewer's own
-sans-serif font; nothing is fetched), and the SVG hash salt and metadata are fixed so the
-same inputs give byte-identical files."""
+Each function takes the numbers of one species (or of the whole build) and returns the bytes
+of one SVG file; the same inputs give the same bytes."""
 
-import functools
-import io
-
-import matplotlib
 import numpy as np
-from matplotlib.figure import Figure
 
 from ..library import document as library
 from ..physics import forms
-
-STYLE = {"svg.hashsalt": "thermoledger", "svg.fonttype": "none", "font.size": 8,
-         "axes.titlesize": 9, "axes.labelsize": 8, "font.family": "sans-serif"}
-
-
-def styled(draw):
-    """Run ``draw`` with the report's STYLE in force, and the caller's rcParams back after."""
-    @functools.wraps(draw)
-    def inner(*args, **kwargs):
-        with matplotlib.rc_context(STYLE):
-            return draw(*args, **kwargs)
-    return inner
+from .svgchart import Chart, span_of
 
 # our own palette
 INK, DATA, FIT, BAD, SHADE, GRID = "#22313f", "#1f7a8c", "#d1495b", "#8f2d56", "#edae49", "#d9d9d9"
+EMPTY = np.zeros(0)
 
 
-def _svg(fig) -> bytes:
-    buf = io.BytesIO()
-    fig.savefig(buf, format="svg", metadata={"Date": None, "Creator": None})
-    return buf.getvalue()
-
-
-class SpeciesPlotter:
-    """Cp with data, fit, breakpoints and extrapolated intervals, over the relative deviation
-    of the fit with the acceptance threshold — one reusable figure."""
-
-    @styled
-    def __init__(self):
-        self.fig = Figure(figsize=(7.2, 5.0))
-        self.top, self.bottom = self.fig.subplots(2, 1, sharex=True,
-                                                  gridspec_kw={"height_ratios": [3, 2]})
-        self.fig.subplots_adjust(left=0.1, right=0.97, top=0.93, bottom=0.1, hspace=0.08)
-        self.fit_line, = self.top.plot([], [], color=FIT, lw=1.4)
-        self.data_pts, = self.top.plot([], [], "o", ms=3, color=DATA)
-        self.out_pts, = self.top.plot([], [], "x", ms=6, color=BAD)
-        self.dev_line, = self.bottom.plot([], [], "o-", ms=3, lw=0.8, color=DATA)
-        self.accept_hi = self.bottom.axhline(0, color=BAD, lw=0.8, ls="--")
-        self.accept_lo = self.bottom.axhline(0, color=BAD, lw=0.8, ls="--")
-        self.bottom.axhline(0, color=INK, lw=0.6)
-        self.title = self.top.set_title("")
-        self.top.set_ylabel("Cp [J/(mol K)]")
-        self.bottom.set_ylabel("(fit - data)/data [%]")
-        self.bottom.set_xlabel("T [K]")
-        for ax in (self.top, self.bottom):
-            ax.grid(color=GRID, lw=0.5)
-        from matplotlib.ticker import MaxNLocator
-
-        for ax in (self.top, self.bottom):
-            ax.yaxis.set_major_locator(MaxNLocator(5))
-        self.bottom.xaxis.set_major_locator(MaxNLocator(7))
-        self.marks = []
-
-    @styled
-    def render(self, sp, t, cp, t_out, cp_out, accept) -> bytes:
-        """The SVG of library entry ``sp`` with the rows used (t [K], cp [J/(mol K)]), the
-        rows left out, and the acceptance threshold ``accept`` (a fraction)."""
-        for artist in self.marks:
-            artist.remove()
-        self.marks = []
-        lo, hi = sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"]
+def species_figure(sp, t, cp, t_out, cp_out, accept) -> bytes:
+    """Cp of library entry ``sp`` with the rows used (t [K], cp [J/(mol K)]), the rows left
+    out, breakpoints and extrapolated intervals, over the relative deviation of the fit with
+    the acceptance threshold ``accept`` (a fraction)."""
+    lo, hi = sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"]
+    ranges = library.ranges_of(sp)
+    tf = np.geomspace(lo, hi, 300)
+    cp_fit = forms.evaluate_ranges(ranges, tf, sp["form"])["Cp"]
+    dev = EMPTY
+    if len(t):
+        dev = 100 * (forms.evaluate_ranges(ranges, t, sp["form"])["Cp"] - cp) / cp
+    span = max(float(np.max(np.abs(dev))) if len(dev) else 0.0, 100 * accept) * 1.2
+    xlim = (lo - 0.02 * (hi - lo), hi + 0.02 * (hi - lo))
+    chart = Chart(720, 500, grid=GRID, ink=INK)
+    top = chart.panel((72, 34, 626, 266), xlim, span_of(cp_fit, cp, cp_out),
+                      title=f"{sp['id']}: heat capacity and deviation of the fit",
+                      ylabel="Cp [J/(mol K)]", x_labels=False)
+    bottom = chart.panel((72, 310, 626, 140), xlim, (-span, span), xlabel="T [K]",
+                         ylabel="(fit - data)/data [%]")
+    for panel in (top, bottom):
         for e in sp["extrapolated"]:
-            for ax in (self.top, self.bottom):
-                self.marks.append(ax.axvspan(e["t_min"], e["t_max"], color=SHADE, alpha=0.3,
-                                             lw=0))
+            panel.vspan(e["t_min"], e["t_max"], SHADE)
         for b in sp.get("breakpoints", []):
-            for ax in (self.top, self.bottom):
-                self.marks.append(ax.axvline(b, color=INK, lw=0.8, ls=":"))
-        tf = np.geomspace(lo, hi, 300)
-        self.fit_line.set_data(tf, forms.evaluate_ranges(library.ranges_of(sp), tf, sp["form"])["Cp"])
-        self.data_pts.set_data(t, cp)
-        self.out_pts.set_data(t_out, cp_out)
-        dev = np.zeros(0)
-        if len(t):
-            fitted = forms.evaluate_ranges(library.ranges_of(sp), t, sp["form"])["Cp"]
-            dev = 100 * (fitted - cp) / cp
-        self.dev_line.set_data(t, dev)
-        self.accept_hi.set_ydata([100 * accept] * 2)
-        self.accept_lo.set_ydata([-100 * accept] * 2)
-        self.title.set_text(f"{sp['id']}: heat capacity and deviation of the fit")
-        self.top.relim()
-        self.top.autoscale_view()
-        span = max(float(np.max(np.abs(dev))) if len(dev) else 0.0, 100 * accept) * 1.2
-        self.bottom.set_ylim(-span, span)
-        self.bottom.set_xlim(lo - 0.02 * (hi - lo), hi + 0.02 * (hi - lo))
-        return _svg(self.fig)
+            panel.vline(b, INK)
+    top.line(tf, cp_fit, FIT)
+    top.dots(t, cp, DATA)
+    top.crosses(t_out, cp_out, BAD)
+    for y in (100 * accept, -100 * accept):
+        bottom.hline(y, BAD, dash="5,3")
+    bottom.hline(0.0, INK, width=0.6)
+    bottom.line(t, dev, DATA, width=0.8)
+    bottom.dots(t, dev, DATA)
+    return chart.to_bytes()
 
 
-class DeviationPlotter:
-    """H − H298 and S deviations of the fit from a table's columns."""
+def deviation_figure(t_h, dh_dev, t_s, s_dev) -> bytes:
+    """Fit − column for H − H298 [J/mol] at t_h [K] and S [J/(mol K)] at t_s [K]; a table
+    without the column gets no panel."""
+    chart = Chart(720, 260, grid=GRID, ink=INK)
+    for k, (t, d, title) in enumerate(((t_h, dh_dev, "H - H298: fit - column [J/mol]"),
+                                       (t_s, s_dev, "S: fit - column [J/(mol K)]"))):
+        if not len(t):
+            continue
+        panel = chart.panel((72 + 360 * k, 34, 270, 168), span_of(t, pad=0.03),
+                            span_of(d, [0.0]), title=title, xlabel="T [K]", xticks=5)
+        panel.hline(0.0, INK, width=0.6)
+        panel.line(t, d, DATA, width=0.8)
+        panel.dots(t, d, DATA)
+    return chart.to_bytes()
 
-    @styled
-    def __init__(self):
-        self.fig = Figure(figsize=(7.2, 2.6))
-        self.left, self.right = self.fig.subplots(1, 2)
-        self.fig.subplots_adjust(left=0.1, right=0.97, top=0.86, bottom=0.2, wspace=0.3)
-        self.h_line, = self.left.plot([], [], "o-", ms=3, lw=0.8, color=DATA)
-        self.s_line, = self.right.plot([], [], "o-", ms=3, lw=0.8, color=DATA)
-        self.left.set_title("H - H298: fit - column [J/mol]")
-        self.right.set_title("S: fit - column [J/(mol K)]")
-        for ax in (self.left, self.right):
-            ax.axhline(0, color=INK, lw=0.6)
-            ax.set_xlabel("T [K]")
-            ax.grid(color=GRID, lw=0.5)
-
-    @styled
-    def render(self, t_h, dh_dev, t_s, s_dev) -> bytes:
-        """The SVG of fit − column for H − H298 [J/mol] at t_h [K] and S [J/(mol K)] at t_s."""
-        self.h_line.set_data(t_h, dh_dev)
-        self.s_line.set_data(t_s, s_dev)
-        for ax, t in ((self.left, t_h), (self.right, t_s)):
-            ax.set_visible(len(t) > 0)         # a table without the column: no panel
-            ax.relim()
-            ax.autoscale_view()
-        return _svg(self.fig)
-
-
-@styled
 def phase_figure(name, all_transitions, by_id) -> bytes:
     """SVG of every phase of species ``name``: Cp [J/(mol K)] over each phase's range of use
     and H − H298 [kJ/mol] with its jumps, solid where the phase is stable (between its
     transitions among the library's ``all_transitions``), dashed elsewhere, a dotted line
     at each transition."""
-    fig = Figure(figsize=(7.2, 5.0))
-    top, bottom = fig.subplots(2, 1, sharex=True, gridspec_kw={"height_ratios": [1, 1]})
-    fig.subplots_adjust(left=0.1, right=0.8, top=0.93, bottom=0.1, hspace=0.08)
     transitions, order = library.chain(all_transitions, name)
     temps = [0.0] + [x["temperature"] for x in transitions] + [np.inf]
     colours = [DATA, FIT, SHADE, BAD, INK, GRID]
+    curves = []
     for k, sid in enumerate(order):
         sp = by_id.get(sid)
         if sp is None:
@@ -155,45 +83,49 @@ def phase_figure(name, all_transitions, by_id) -> bytes:
         v = forms.evaluate_ranges(library.ranges_of(sp), t, sp["form"])
         zero = (sp.get("anchor") or {}).get("enthalpy_zero", sp["enthalpy_of_formation_298"])
         stable = (t >= temps[k]) & (t <= temps[k + 1])
-        colour = colours[k % len(colours)]
-        for mask, style, label in ((stable, "-", sid), (~stable, "--", None)):
-            top.plot(np.where(mask, t, np.nan), v["Cp"], style, color=colour, lw=1.4,
-                     label=label)
-            bottom.plot(np.where(mask, t, np.nan), (v["H"] - zero) / 1000, style,
-                        color=colour, lw=1.4)
+        curves.append((sid, colours[k % len(colours)], t, v["Cp"], (v["H"] - zero) / 1000, stable))
+    every_t = [c[2] for c in curves] or [EMPTY]
+    xlim = span_of(*every_t, pad=0.02)
+    chart = Chart(720, 500, grid=GRID, ink=INK)
+    top = chart.panel((72, 34, 504, 208), xlim, span_of(*[c[3] for c in curves]),
+                      title=f"{name}: every phase, transitions dotted", ylabel="Cp [J/(mol K)]",
+                      x_labels=False)
+    bottom = chart.panel((72, 252, 504, 208), xlim, span_of(*[c[4] for c in curves]),
+                         xlabel="T [K]", ylabel="H - H298 [kJ/mol]")
+    for k, (sid, colour, t, cp, h, stable) in enumerate(curves):
+        for mask, dash in ((stable, None), (~stable, "6,3")):
+            top.line(np.where(mask, t, np.nan), cp, colour, dash=dash)
+            bottom.line(np.where(mask, t, np.nan), h, colour, dash=dash)
+        chart.key(588, 48 + 18 * k, colour, sid)
     for x in transitions:
-        for ax in (top, bottom):
-            ax.axvline(x["temperature"], color=INK, lw=0.8, ls=":")
-    top.set_title(f"{name}: every phase, transitions dotted")
-    top.set_ylabel("Cp [J/(mol K)]")
-    bottom.set_ylabel("H - H298 [kJ/mol]")
-    bottom.set_xlabel("T [K]")
-    top.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False)
-    for ax in (top, bottom):
-        ax.grid(color=GRID, lw=0.5)
-    return _svg(fig)
+        for panel in (top, bottom):
+            panel.vline(x["temperature"], INK)
+    return chart.to_bytes()
 
 
-@styled
 def overview_figures(worst_percent, per_source) -> tuple:
     """SVGs of the distribution of the worst deviations [%] and of species per source."""
-
-    fig = Figure(figsize=(5.0, 3.0))
-    ax = fig.subplots()
-    fig.subplots_adjust(left=0.14, right=0.96, top=0.88, bottom=0.17)
-    if worst_percent:
-        ax.hist(worst_percent, bins=min(30, max(5, len(worst_percent) // 3)), color=DATA,
-                edgecolor="white")
-    ax.set_xlabel("worst |(fit - data)/data| of a species [%]")
-    ax.set_ylabel("species")
-    ax.set_title("How close are the fits?")
-    ax.grid(color=GRID, lw=0.5)
-    hist = _svg(fig)
-    fig = Figure(figsize=(5.0, 0.6 + 0.35 * max(len(per_source), 1)))
-    ax = fig.subplots()
-    fig.subplots_adjust(left=0.35, right=0.96, top=0.8, bottom=0.3)
+    worst = np.asarray(worst_percent, dtype=float)
+    chart = Chart(500, 300, grid=GRID, ink=INK)
+    if worst.size:
+        counts, edges = np.histogram(worst, bins=min(30, max(5, worst.size // 3)))
+    else:
+        counts, edges = np.zeros(0), np.array([0.0, 1.0])
+    panel = chart.panel((70, 36, 410, 210), (edges[0], edges[-1]),
+                        (0.0, max(float(counts.max()) if counts.size else 1.0, 1.0) * 1.05),
+                        title="How close are the fits?", ylabel="species",
+                        xlabel="worst |(fit - data)/data| of a species [%]", xticks=6)
+    panel.bars(edges[:-1], edges[1:], counts, DATA)
+    hist = chart.to_bytes()
     names = sorted(per_source)
-    ax.barh(names, [per_source[n] for n in names], color=SHADE)
-    ax.set_xlabel("species fitted from the source")
-    ax.set_title("Where the data came from")
-    return hist, _svg(fig)
+    rows = max(len(names), 1)
+    chart = Chart(500, 70 + 24 * rows, grid=GRID, ink=INK)
+    most = max(per_source.values(), default=1)
+    panel = chart.panel((170, 30, 310, 24 * rows), (0.0, most * 1.05), (0.0, rows),
+                        title="Where the data came from", xlabel="species fitted from the source",
+                        yticks=0)
+    for k, n in enumerate(names):
+        y = rows - k - 0.5
+        panel.hbar(y, per_source[n], 0.7, SHADE)
+        chart.text(panel.left - 6, float(panel.py(y)) + 3, n, anchor="end")
+    return hist, chart.to_bytes()

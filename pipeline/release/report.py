@@ -6,6 +6,7 @@ safety caution. Wording, sections and colours are our own.
 """
 
 import html
+import json
 from collections import Counter
 
 import numpy as np
@@ -32,25 +33,68 @@ td.num{text-align:right;font-variant-numeric:tabular-nums}
 figure{margin:8px 0}img{max-width:100%;background:#fff}
 code{font-size:12px;word-break:break-all}
 .overview{display:flex;flex-wrap:wrap;gap:12px}
+.pager{margin:8px 0}.pager input{padding:3px 6px;min-width:16em}.pager .info{font-size:13px}
 """
 
-SORT_JS = """
-document.querySelectorAll('table.sortable th').forEach(function(th, i){
-  th.addEventListener('click', function(){
-    var body = th.closest('table').tBodies[0];
-    var rows = Array.prototype.slice.call(body.rows);
-    var up = th.dataset.up !== '1'; th.dataset.up = up ? '1' : '0';
-    rows.sort(function(a, b){
-      var x = a.cells[i].dataset.v || a.cells[i].textContent;
-      var y = b.cells[i].dataset.v || b.cells[i].textContent;
-      var nx = parseFloat(x), ny = parseFloat(y);
-      var c = (!isNaN(nx) && !isNaN(ny)) ? nx - ny : x.localeCompare(y);
+PAGE_ROWS = 100   # rows of a long index table shown at once
+
+PAGER_JS = """
+document.querySelectorAll('table.paged').forEach(function(table){
+  var rows = JSON.parse(document.getElementById(table.id + '-rows').textContent);
+  var box = document.getElementById(table.id + '-pager');
+  var q = '', page = 0, col = -1, up = true, size = PAGE_ROWS;
+  var input = box.querySelector('input'), info = box.querySelector('.info');
+  var prev = box.querySelector('.prev'), next = box.querySelector('.next');
+  function readHash(){
+    var h = new URLSearchParams(location.hash.slice(1));
+    if (h.get('table') && h.get('table') !== table.id) return;
+    q = (h.get('q') || '').toLowerCase(); input.value = h.get('q') || '';
+    page = Math.max(0, (parseInt(h.get('page') || '1', 10) || 1) - 1);
+  }
+  function draw(){
+    var shown = rows.filter(function(r){ return r.s.indexOf(q) >= 0; });
+    if (col >= 0) shown.sort(function(a, b){
+      var x = a.k[col], y = b.k[col];
+      var c = (typeof x === 'number' && typeof y === 'number') ? x - y : String(x).localeCompare(String(y));
       return up ? c : -c;
     });
-    rows.forEach(function(r){ body.appendChild(r); });
+    var pages = Math.max(1, Math.ceil(shown.length / size));
+    page = Math.min(page, pages - 1);
+    var part = shown.slice(page * size, (page + 1) * size);
+    table.tBodies[0].innerHTML = part.map(function(r){ return r.h; }).join('');
+    info.textContent = shown.length ? ('rows ' + (page * size + 1) + '-' + (page * size + part.length) +
+      ' of ' + shown.length + (shown.length < rows.length ? ' (filtered from ' + rows.length + ')' : '')) :
+      'no row matches';
+    prev.disabled = page === 0; next.disabled = page >= pages - 1;
+  }
+  input.addEventListener('input', function(){ q = input.value.toLowerCase(); page = 0; draw(); });
+  prev.addEventListener('click', function(){ page -= 1; draw(); });
+  next.addEventListener('click', function(){ page += 1; draw(); });
+  table.querySelectorAll('th').forEach(function(th, i){
+    th.addEventListener('click', function(){ up = (col === i) ? !up : true; col = i; page = 0; draw(); });
   });
+  window.addEventListener('hashchange', function(){ readHash(); draw(); });
+  readHash(); draw();
 });
-"""
+""".replace("PAGE_ROWS", str(PAGE_ROWS))
+
+
+def paged_table(table_id, headings, rows) -> str:
+    """A table that shows PAGE_ROWS rows at a time, with a filter box, pages and sorting by
+    a click on a heading (PAGER_JS). ``rows`` are (row html, sort keys, search text); all of
+    them travel as JSON in the page, and the first page is written out for readers without
+    scripts. ``#q=text&page=N`` in the address opens a filtered page."""
+    data = [{"h": h, "k": list(k), "s": text.lower()} for h, k, text in rows]
+    blob = json.dumps(data, ensure_ascii=False, separators=(",", ":")).replace("</", "<\\/")
+    first = "".join(h for h, _, _ in rows[:PAGE_ROWS])
+    more = len(rows) - PAGE_ROWS
+    note = f"first {PAGE_ROWS} of {len(rows)} rows" if more > 0 else f"{len(rows)} rows"
+    return (f"<div class=\"pager\" id=\"{table_id}-pager\"><input type=\"search\" placeholder=\""
+            f"filter rows\" aria-label=\"filter rows\"/> <button class=\"prev\">&#8592; previous"
+            f"</button> <button class=\"next\">next &#8594;</button> <span class=\"info\">{note}"
+            f"</span></div><table class=\"paged\" id=\"{table_id}\"><thead><tr>"
+            + "".join(f"<th>{h}</th>" for h in headings) + f"</tr></thead><tbody>{first}</tbody>"
+            f"</table><script type=\"application/json\" id=\"{table_id}-rows\">{blob}</script>")
 
 
 LEGEND = ("<span style=\"color:#d1495b\">&#9473;</span> fitted curve · "
@@ -297,34 +341,39 @@ def species_page(sp, points, has_dev, transitions=None, formation=None) -> bytes
 
 
 def index_page(doc) -> bytes:
-    """The report's index: every species sortable, tables held back, overview plots."""
-    body = [f"<p>{len(doc['species'])} species fitted, {len(doc['quarantined'])} table(s) held "
-            "back. Click a column heading to sort.</p>",
-            "<div class=\"overview\"><figure><img src=\"img/overview-deviation.svg\" alt=\""
-            "distribution of worst deviations\"/></figure><figure><img src=\"img/overview-"
-            "sources.svg\" alt=\"species per source\"/></figure></div>",
-            "<h2>Species</h2><table class=\"sortable\" id=\"summary\"><thead><tr><th>species"
-            "</th><th>form</th><th>range of use [K]</th><th>worst |dCp/Cp| [%]</th>"
-            "<th>findings</th><th>status</th></tr></thead><tbody>"]
+    """The report's index: overview plots, then every species and every table held back in
+    paged tables that filter and sort (PAGE_ROWS rows at a time)."""
+    rows = []
     for sp in doc["species"]:
         cls, label = status(sp)
         worst = 100 * sp["quality"]["cp_max_rel_dev"]
-        body.append(f"<tr><td><a href=\"species/{e(file_stem(sp['id']))}.html\">{e(sp['id'])}"
-                    f"</a></td><td>{e(sp['form'])}</td><td>{sp['ranges'][0]['t_min']:g}-"
-                    f"{sp['ranges'][-1]['t_max']:g}</td><td class=\"num\" data-v=\"{worst!r}\">"
-                    f"{worst:.4f}</td><td class=\"num\">{len(sp['findings'])}</td><td><span "
-                    f"class=\"tag {cls}\">{e(label)}</span></td></tr>")
-    body.append("</tbody></table>")
+        lo, hi = sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"]
+        n = len(sp["findings"])
+        html_row = (f"<tr><td><a href=\"species/{e(file_stem(sp['id']))}.html\">{e(sp['id'])}"
+                    f"</a></td><td>{e(sp['form'])}</td><td>{lo:g}-{hi:g}</td><td class=\"num\">"
+                    f"{worst:.4f}</td><td class=\"num\">{n}</td><td><span class=\"tag {cls}\">"
+                    f"{e(label)}</span></td></tr>")
+        rows.append((html_row, (sp["id"], sp["form"], lo, worst, n, label),
+                     f"{sp['id']} {sp['form']} {label}"))
+    body = [f"<p>{len(doc['species'])} species fitted, {len(doc['quarantined'])} table(s) held "
+            "back. Type in a box to filter a table; click a column heading to sort.</p>",
+            "<div class=\"overview\"><figure><img src=\"img/overview-deviation.svg\" alt=\""
+            "distribution of worst deviations\"/></figure><figure><img src=\"img/overview-"
+            "sources.svg\" alt=\"species per source\"/></figure></div>",
+            "<h2>Species</h2>",
+            paged_table("summary", ("species", "form", "range of use [K]", "worst |dCp/Cp| [%]",
+                                    "findings", "status"), rows)]
     if doc["quarantined"]:
-        body.append("<h2>Held back</h2><table class=\"sortable\"><thead><tr><th>species</th>"
-                    "<th>file</th><th>first reason</th></tr></thead><tbody>")
+        held = []
         for q in doc["quarantined"]:
             r = q["reasons"][0]
             where = q["file"] + (f":{r['line']}" if r["line"] is not None else "")
-            body.append(f"<tr><td>{e(q['id'])}</td><td>{e(where)}</td><td><span class=\"tag "
-                        f"held\">{e(r['code'])}</span> {e(r['message'])}</td></tr>")
-        body.append("</tbody></table>")
-    return page("Build report", "".join(body), script=SORT_JS)
+            held.append((f"<tr><td>{e(q['id'])}</td><td>{e(where)}</td><td><span class=\"tag "
+                         f"held\">{e(r['code'])}</span> {e(r['message'])}</td></tr>",
+                         (q["id"], where, r["code"]), f"{q['id']} {where} {r['code']}"))
+        body += ["<h2>Held back</h2>", paged_table("held", ("species", "file", "first reason"),
+                                                  held)]
+    return page("Build report", "".join(body), script=PAGER_JS)
 
 
 def report_files(doc, points, accept, workers=None, say=None) -> dict:
@@ -411,19 +460,17 @@ def stop_workers(pool) -> None:
 
 def _species_files(species, points, accept, transitions=(), formed=None) -> dict:
     files = {}
-    cp_plot, dev_plot = plots.SpeciesPlotter(), None
     for sp in species:
         name = file_stem(sp["id"])
         p = points.get(sp["id"], {})
-        files[f"report/img/{name}-cp.svg"] = cp_plot.render(
+        files[f"report/img/{name}-cp.svg"] = plots.species_figure(
             sp, p.get("t", np.zeros(0)), p.get("cp", np.zeros(0)), p.get("t_out", np.zeros(0)),
             p.get("cp_out", np.zeros(0)), accept)
         has_dev = "dh" in p or "s" in p
         if has_dev:
-            dev_plot = dev_plot or plots.DeviationPlotter()
             th, dh = p.get("dh", (np.zeros(0), np.zeros(0)))
             ts, ds = p.get("s", (np.zeros(0), np.zeros(0)))
-            files[f"report/img/{name}-hs.svg"] = dev_plot.render(th, dh, ts, ds)
+            files[f"report/img/{name}-hs.svg"] = plots.deviation_figure(th, dh, ts, ds)
         files[f"report/species/{name}.html"] = species_page(sp, p, has_dev, transitions,
                                                             (formed or {}).get(sp["id"]))
     return files

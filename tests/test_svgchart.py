@@ -1,0 +1,63 @@
+"""The plain SVG charts of the report (release/svgchart.py)."""
+
+import math
+import xml.etree.ElementTree as ET
+
+import numpy as np
+import pytest
+from hypothesis import assume, given
+from hypothesis import strategies as st
+from thermoledger.release.svgchart import Chart, label, nice_ticks, span_of
+
+
+@pytest.mark.parametrize("lo,hi,n,want", [
+    (0.0, 10.0, 5, [0, 2, 4, 6, 8, 10]),
+    (200.0, 3000.0, 7, [500, 1000, 1500, 2000, 2500, 3000]),
+    (-1.2, 1.2, 5, [-1, -0.5, 0, 0.5, 1]),
+    (0.0, 0.001, 4, [0, 0.00025, 0.0005, 0.00075, 0.001]),
+])
+def test_ticks_fall_on_round_numbers(lo, hi, n, want):
+    assert nice_ticks(lo, hi, n) == pytest.approx(want)
+
+
+@given(st.floats(-1e6, 1e6), st.floats(1e-6, 1e6), st.integers(2, 10))
+def test_ticks_lie_in_the_span_and_are_evenly_spaced(lo, width, n):
+    assume(width > 1e-4 * abs(lo))   # a span not lost in the rounding of its offset
+    hi = lo + width
+    ticks = nice_ticks(lo, hi, n)
+    assert 1 <= len(ticks) <= 2 * n + 2
+    assert all(lo - 1e-6 * width <= v <= hi + 1e-6 * width for v in ticks)
+    steps = np.diff(ticks)
+    assert np.allclose(steps, steps[0], rtol=1e-6) if len(steps) else True
+    mantissa = steps[0] / 10 ** math.floor(math.log10(steps[0])) if len(steps) else 1
+    assert any(math.isclose(mantissa, m, rel_tol=1e-6) for m in (1, 2, 2.5, 5, 10))
+
+
+def test_labels_and_spans():
+    assert [label(v) for v in (0.0, -0.0, 1500.0, 2.5e-05, 123456789.0)] == \
+        ["0", "0", "1500", "2.5e-05", "1.23457e+08"]
+    assert span_of([np.nan, np.inf]) == (0.0, 1.0)
+    assert span_of([2.0, 2.0]) == (1.0, 3.0)
+    assert span_of([0.0, 10.0], pad=0.1) == (-1.0, 11.0)
+
+
+def test_a_chart_is_deterministic_well_formed_and_breaks_lines_at_nan():
+    def draw():
+        chart = Chart(300, 200)
+        p = chart.panel((40, 20, 240, 150), (0, 10), (0, 1), title="a <b> & c", xlabel="T [K]")
+        p.line([0, 1, 2, np.nan, 4, 5], [0.1, 0.2, 0.3, 0.4, 0.5, 0.6], "#000")
+        p.dots([1, 2], [0.5, np.nan], "#111")
+        p.vspan(8, 20, "#222")           # clipped to the panel
+        p.vline(50, "#333")              # outside: not drawn
+        return chart.to_bytes()
+
+    svg = draw()
+    assert svg == draw()
+    root = ET.fromstring(svg)
+    ns = "{http://www.w3.org/2000/svg}"
+    assert len(root.findall(f".//{ns}polyline")) == 2       # the NaN splits the line
+    assert len(root.findall(f".//{ns}circle")) == 1
+    assert b"a &lt;b&gt; &amp; c" in svg
+    span = [r for r in root.iter(f"{ns}rect") if r.get("fill") == "#222"][0]
+    assert float(span.get("x")) + float(span.get("width")) == pytest.approx(280.0)
+    assert not [x for x in root.iter(f"{ns}line") if x.get("stroke") == "#333"]

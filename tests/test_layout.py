@@ -146,3 +146,62 @@ def test_one_version_in_one_place():
     assert md.version("thermoledger") == thermoledger.__version__
     text = (SOURCE.parent / "pyproject.toml").read_text()
     assert 'dynamic = ["version"]' in text and thermoledger.__version__ not in text
+
+
+def test_reading_a_library_from_the_command_line_loads_no_build_library():
+    """`props` starts without pandas, scipy, pyarrow, pint or jsonschema (start-up: 0.24 s
+    against 2.4 s when the command line imported every stage)."""
+    code = (
+        "import sys\n"
+        "from thermoledger.cli import main\n"
+        f"assert main.main(['props', {str(SOURCE.parent / 'curated')!r}, 'N2', '1000']) == 0\n"
+        "print(sorted({m.split('.')[0] for m in sys.modules}\n"
+        "             & {'pandas', 'scipy', 'pyarrow', 'pint', 'jsonschema'}))\n")
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                          timeout=120)
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.strip().splitlines()[-1] == "[]"
+
+
+def _leaves(doc, path=()):
+    if isinstance(doc, dict):
+        for k, v in doc.items():
+            yield from _leaves(v, (*path, k))
+    elif isinstance(doc, list):
+        for k, v in enumerate(doc):
+            yield from _leaves(v, (*path, k))
+    else:
+        yield path
+
+
+def test_the_compiled_validator_agrees_with_the_explaining_one():
+    """schemas.errors_of trusts jsonschema-rs to pass a valid document: on the demo release's
+    documents and on each of them with one field replaced by a value of another type, both
+    validators give the same verdict."""
+    import copy
+    import json
+
+    from thermoledger.core import schemas
+
+    release = SOURCE.parent / "curated"
+    docs = {"library.schema.json": json.loads((release / "library.json").read_text()),
+            "manifest.schema.json": json.loads((release / "manifest.json").read_text()),
+            "findings.schema.json": json.loads((release / "findings.json").read_text()),
+            "source.schema.json": json.loads(next((SOURCE.parent / "raw").glob(
+                "*/source.json")).read_text())}
+    rng = __import__("random").Random(7)
+    checked = 0
+    for name, doc in docs.items():
+        assert schemas.compiled(name).is_valid(doc) and schemas.errors_of(doc, name) == []
+        leaves = list(_leaves(doc))
+        for path in rng.sample(leaves, min(60, len(leaves))):
+            for value in ("text", -1.5, None, [], {"x": 1}, True):
+                bad = copy.deepcopy(doc)
+                target = bad
+                for k in path[:-1]:
+                    target = target[k]
+                target[path[-1]] = value
+                slow = not list(schemas.validator(name).iter_errors(bad))
+                assert schemas.compiled(name).is_valid(bad) == slow, (name, path, value)
+                checked += 1
+    assert checked > 500

@@ -1,17 +1,15 @@
 """Command line: each command wires the stages and prints what ``render`` makes of their
-results; parsing lives in ``parse``."""
+results; parsing lives in ``parse``. Each command imports the stages it uses when it runs,
+so that reading a library (``props``, ``reaction``) starts without loading the build's
+libraries (pandas, scipy, pint)."""
 
 import json
 import signal
 import sys
 
-from .. import build
 from ..core.errors import InputError, ThermoledgerError
 from ..core.paths import write_atomic
 from ..library import document as library
-from ..library import reaction
-from ..library.formation import Formation
-from ..release import document as release_document
 from . import render
 from .parse import named_fit_options, parser, settings_of
 from .progress import Progress
@@ -24,6 +22,9 @@ def _say(lines, out=None) -> None:
 def cmd_build(args) -> int:
     """``thermoledger build``: every stage, one release published; 1 with --strict when anything
     was held back."""
+    from .. import build
+    from ..release import document as release_document
+
     bar = Progress(quiet=args.quiet or args.json)
     try:
         result = build.build(args.raw, args.out, settings_of(args), wait=args.wait, progress=bar)
@@ -50,6 +51,9 @@ def cmd_build(args) -> int:
 
 def cmd_check(args) -> int:
     """``thermoledger check``: ingest, validate and reconcile; findings printed; 1 on errors."""
+    from .. import build
+    from ..release import document as release_document
+
     result = build.examine(args.raw, settings_of(args))
     n_err = render.totals(result.findings)[0]
     doc = release_document.findings_document(result.findings)
@@ -81,6 +85,8 @@ def cmd_props(args) -> int:
     """``thermoledger props``: Cp, H, S, G of one species at the given temperatures [K]; the
     phase stable at each temperature for a species whose phases are linked by transitions,
     unless --phase names one."""
+    from ..library.formation import Formation
+
     doc = library.load(args.library)
     ids = library.phases_at(doc, args.species, args.temperatures, args.phase)
     by_id = {s["id"]: s for s in doc["species"]}
@@ -107,6 +113,7 @@ def cmd_reaction(args) -> int:
     """``thermoledger reaction``: ΔrH°, ΔrS°, ΔrG° and log10 K of an equation at the given
     temperatures, from a curated library."""
     from ..core import units
+    from ..library import reaction
 
     t = units.to_si(args.temperatures, args.temperature_unit, "temperature")
     doc = library.load(args.library)
@@ -123,6 +130,7 @@ def cmd_reaction(args) -> int:
 
 def cmd_audit(args) -> int:
     """``thermoledger audit``: rebuild and compare with a release; 0 pass, 1 differences."""
+    from .. import build
     from ..release import audit
 
     rep = build.audit(args.raw, args.curated, override=named_fit_options(args))

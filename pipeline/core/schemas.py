@@ -20,12 +20,24 @@ def schema_bytes(name: str) -> bytes:
 
 @lru_cache(maxsize=len(NAMES))
 def validator(name: str):
-    """A checked Draft 2020-12 validator of schemas/``name``, built once per process."""
+    """A checked Draft 2020-12 validator of schemas/``name`` (the jsonschema package), built
+    once per process: it explains every error."""
     from jsonschema import Draft202012Validator
 
     schema = json.loads(schema_bytes(name))
     Draft202012Validator.check_schema(schema)
     return Draft202012Validator(schema)
+
+
+@lru_cache(maxsize=len(NAMES))
+def compiled(name: str):
+    """A compiled Draft 2020-12 validator of schemas/``name`` (jsonschema-rs), built once per
+    process: 30-300 times faster than ``validator`` on a whole library, used to tell valid
+    from invalid before ``validator`` explains what is wrong."""
+    import jsonschema_rs
+
+    return jsonschema_rs.Draft202012Validator(json.loads(schema_bytes(name)),
+                                              validate_formats=False)
 
 
 def where(error) -> str:
@@ -34,5 +46,9 @@ def where(error) -> str:
 
 
 def errors_of(doc, name: str) -> list:
-    """Every way ``doc`` breaks schemas/``name``, sorted by the path of the offending field."""
+    """Every way ``doc`` breaks schemas/``name``, sorted by the path of the offending field:
+    the compiled validator passes a valid document at once; the errors of an invalid one come
+    from the jsonschema package, whose messages name the field."""
+    if compiled(name).is_valid(doc):
+        return []
     return sorted(validator(name).iter_errors(doc), key=lambda e: list(map(str, e.path)))

@@ -13,7 +13,7 @@ measured increments.
 """
 
 import numpy as np
-from scipy import stats
+from scipy.special import fdtri
 
 #: highest Cp degree tried and the F-test level of each added degree (common practice)
 MAX_DEGREE = 3
@@ -48,7 +48,7 @@ def cp_from_increments(t, dh, u_dh=None):
         if best is not None:
             dof = n - p
             f = (best_rss - rss) / (rss / dof) if rss > 0 else np.inf
-            if not f > stats.f.ppf(1 - F_LEVEL, 1, dof):
+            if not f > fdtri(1, dof, 1 - F_LEVEL):
                 break
         best, best_rss, degree = coef, rss, k
     b = best[1:]

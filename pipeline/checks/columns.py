@@ -21,7 +21,6 @@ from scipy.interpolate import CubicSpline, PchipInterpolator
 
 from ..core.constants import REFERENCE_TEMPERATURE
 from ..core.findings import finding
-from ..core.records import valid_rows
 
 H_ROUNDING = 2.0     # [J/mol], allowance for tabulated rounding (common practice)
 S_ROUNDING = 0.01    # [J/(mol K)]
@@ -52,11 +51,11 @@ def check_columns(table, ctx):
     has_g = data["gef"].notna().sum() >= 2
     if not (has_h or has_s or has_g):
         return []
-    d = valid_rows(data)
-    t, cp, lines = d["T"].to_numpy(), d["Cp"].to_numpy(), d["line"].to_numpy()
+    d = table.valid
+    t, cp, lines = d["T"], d["Cp"], d["line"]
     if len(t) < 4 or np.any(np.diff(t) <= 0):
         return []
-    u = d["u_Cp"].to_numpy()
+    u = d["u_Cp"]
     u_rel = float(np.median(u / cp)) if np.all(np.isfinite(u)) else \
         ctx.fit.inferred_cp_uncertainty
     ih, is_, eh, es, spl, spl_t = _integrals(t, cp)
@@ -69,7 +68,7 @@ def check_columns(table, ctx):
     where = table.meta.where
     out = []
     if has_h:
-        h = d["dH"].to_numpy()
+        h = d["dH"]
         m = np.isfinite(h)
         ref = h[m][0] - ih[m][0]
         if covers:
@@ -90,7 +89,7 @@ def check_columns(table, ctx):
                                lines=tuple(int(x) for x in lines[bad]), seen=f"{h[i]:.6g}",
                                expected=f"{ih[i] + ref:.6g} ± {tol[i]:.3g}", **where))
     if has_s:
-        s = d["S"].to_numpy()
+        s = d["S"]
         m = np.isfinite(s)
         s298 = table.meta.entropy_298
         base = s[m][0] - is_[m][0]
@@ -123,8 +122,8 @@ def check_columns(table, ctx):
 def _gef(d, ih, is_, covers, u_rel, meta) -> list:
     """CONS-GEF findings of the −(G−H298)/T column [J/(mol K)]; ``ih`` [J/mol] and ``is_``
     [J/(mol K)] the integrals of Cp from 298.15 K when ``covers``, else from the first row."""
-    t, lines = d["T"].to_numpy(), d["line"].to_numpy()
-    g, s, h = (d[c].to_numpy() for c in ("gef", "S", "dH"))
+    t, lines = d["T"], d["line"]
+    g, s, h = (d[c] for c in ("gef", "S", "dH"))
     m = np.isfinite(g)
     direct = m & np.isfinite(s) & np.isfinite(h)
     out = []

@@ -3,7 +3,6 @@
 import numpy as np
 
 from ..core.findings import finding
-from ..core.records import valid_rows
 from ..core.settings import for_table
 
 
@@ -11,8 +10,8 @@ def check_gaps(table, ctx):
     """COV-GAP findings: gaps between consecutive temperatures [K] wider than the settings' ratio
     and width."""
     s = ctx.checks
-    d = valid_rows(table.data)
-    t, lines = d["T"].to_numpy(), d["line"].to_numpy()
+    d = table.valid
+    t, lines = d["T"], d["line"]
     out = []
     for i in range(len(t) - 1):
         if t[i + 1] / t[i] > s.gap_ratio and t[i + 1] - t[i] > s.gap_width:

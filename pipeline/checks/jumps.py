@@ -15,7 +15,7 @@ import numpy as np
 from numpy.lib.stride_tricks import sliding_window_view
 
 from ..core.findings import finding
-from ..core.records import valid_rows
+from ..core.records import first_of_each_t
 
 #: rows on each side of a gap, the smallest relative jump reported, how far above the
 #: median jump it must be, and how much worse than the jump each side's own fit may be
@@ -62,8 +62,8 @@ def steps(t, cp, w=WINDOW):
 def check_unlisted_transition(table, ctx):
     """TRS-UNLISTED: Cp jumps between two rows of one table, far beyond the scatter of the
     rest; reported with the temperature, instead of as a bad fit."""
-    d = valid_rows(table.data).drop_duplicates("T")
-    t, cp, lines = d["T"].to_numpy(), d["Cp"].to_numpy(), d["line"].to_numpy()
+    d = first_of_each_t(table.valid)
+    t, cp, lines = d["T"], d["Cp"], d["line"]
     jump, side, apart, at = steps(t, cp)
     if not len(jump):
         return []

@@ -22,7 +22,7 @@ from ..core import chemistry, units
 from ..core.constants import GAS_CONSTANT as R
 from ..core.constants import REFERENCE_TEMPERATURE
 from ..core.findings import finding
-from ..core.records import valid_rows
+from ..core.records import take
 from ..physics import bounds, rotors
 from ..physics.statmech import einstein
 
@@ -50,8 +50,8 @@ def check_rotor_floor(table, ctx):
     if not _applies(table):
         return []
     meta, settings = table.meta, ctx.checks
-    d = valid_rows(table.data)
-    t, cp, lines = d["T"].to_numpy(), d["Cp"].to_numpy(), d["line"].to_numpy()
+    d = table.valid
+    t, cp, lines = d["T"], d["Cp"], d["line"]
     below_translation = np.any(cp < bounds.TRANSLATION_CP * (1 - settings.equipartition_tolerance))
     if not len(t) or below_translation and not _per_mass(meta):
         return []             # below 5/2 R: check_gas_bounds names it (equipartition, factor)
@@ -94,15 +94,15 @@ def check_frozen_vibrations(table, ctx):
     if not _applies(table):
         return []
     meta = table.meta
-    d = valid_rows(table.data)
-    d = d[d["T"] <= LOW_END]
-    t, cp, lines = d["T"].to_numpy(), d["Cp"].to_numpy(), d["line"].to_numpy()
+    d = table.valid
+    d = take(d, d["T"] <= LOW_END)
+    t, cp, lines = d["T"], d["Cp"], d["line"]
     keep = t >= rotors.excited_from(meta.formula, _elements(meta))
     t, cp, lines = t[keep], cp[keep], lines[keep]
     if len(t) < 5 or t.min() > 0.6 * LOW_END:
         return []
     modes = bounds.vibrational_modes(meta.geometry, meta.atoms)
-    noise = _noise(d["u_Cp"].to_numpy()[keep], cp)
+    noise = _noise(d["u_Cp"][keep], cp)
     given = _misfit(t, cp / R - bounds.cp_zero(meta.geometry) / R, modes)
     if _per_mass(meta):
         if given <= max(3.0 * noise / R, MODEL_ALLOWANCE):
@@ -139,8 +139,8 @@ def check_entropy_floor(table, ctx):
     if meta.phase != "g" or not meta.geometry or not meta.molar_mass or \
             meta.entropy_298 is None:
         return []
-    d = valid_rows(table.data).sort_values("T")
-    t, cp, lines = d["T"].to_numpy(), d["Cp"].to_numpy(), d["line"].to_numpy()
+    d = table.valid
+    t, cp, lines = d["T"], d["Cp"], d["line"]
     short = _entropy_shortfall(t, cp, meta)
     if short is None or short[0] <= ctx.checks.entropy_floor_margin:
         return []

@@ -16,7 +16,6 @@ from ..core.constants import GAS_CONSTANT as R
 from ..core.constants import THERMOCHEMICAL_CALORIE
 from ..core.errors import InputError
 from ..core.findings import finding
-from ..core.records import valid_rows
 from ..physics import bounds
 
 
@@ -209,10 +208,10 @@ def check_condensed_bounds(table, ctx):
 def check_unit_blocks(table, ctx):
     """A block of rows off by a recognisable factor, seen as jumps in ln Cp."""
     settings = ctx.checks
-    d = valid_rows(table.data)
-    if len(d) < 4:
+    d = table.valid
+    if len(d["T"]) < 4:
         return []
-    cp, lines = d["Cp"].to_numpy(), d["line"].to_numpy()
+    cp, lines = d["Cp"], d["line"]
     d = np.diff(np.log(cp))
     cands = [(n, f, fix) for n, f, fix in factor_candidates(table.meta.molar_mass) if f > 1]
     tol = settings.factor_tolerance + 2.0 * float(np.median(np.abs(d)))

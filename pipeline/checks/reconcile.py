@@ -26,7 +26,7 @@ import pandas as pd
 from scipy.interpolate import PchipInterpolator
 
 from ..core.findings import by_subject, finding, stage_failed
-from ..core.records import valid_rows
+from ..core.records import first_of_each_t
 from .physical import factor_candidates
 from .smoothness import EXCLUDING
 
@@ -58,8 +58,8 @@ class Selection:
 
 
 def _curve(table):
-    d = valid_rows(table.data).drop_duplicates("T")
-    return d["T"].to_numpy(), d["Cp"].to_numpy()
+    d = first_of_each_t(table.valid)
+    return d["T"], d["Cp"]
 
 
 def compare(a, b, scale=(1.0, 0.0)):

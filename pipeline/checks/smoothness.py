@@ -9,7 +9,6 @@ import numpy as np
 
 from ..core import units
 from ..core.findings import finding
-from ..core.records import valid_rows
 from . import smooth_model as smooth
 
 JITTER_RUN, JITTER_MIN = smooth.RUN_ROWS, smooth.RUN_MIN
@@ -17,10 +16,10 @@ JITTER_RUN, JITTER_MIN = smooth.RUN_ROWS, smooth.RUN_MIN
 
 def sorted_valid(table):
     """(t [K], cp [J/(mol K)], u or None, lines) sorted by T, only finite positive values."""
-    d = valid_rows(table.data)
-    u = d["u_Cp"].to_numpy()
-    return d["T"].to_numpy(), d["Cp"].to_numpy(), (u if np.all(np.isfinite(u)) else None), \
-        d["line"].to_numpy()
+    d = table.valid
+    u = d["u_Cp"]
+    return d["T"], d["Cp"], (u if np.all(np.isfinite(u)) else None), \
+        d["line"]
 
 
 def check_smoothness(table, ctx):

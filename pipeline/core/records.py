@@ -21,6 +21,7 @@ Cp is NaN on every row of an enthalpy-increment table until ingest derives it fr
 """
 
 from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 import pandas as pd
@@ -28,12 +29,30 @@ import pandas as pd
 DATA_COLUMNS = ("line", "T", "Cp", "u_Cp", "dH", "S", "u_dH", "u_S", "gef")
 
 
-def valid_rows(data: pd.DataFrame) -> pd.DataFrame:
-    """The rows of a table frame whose T [K] and Cp [J/(mol K)] are finite and positive,
-    sorted by T (stable, so equal temperatures keep their file order)."""
+def valid_columns(data: pd.DataFrame) -> dict:
+    """{column: read-only numpy array} of the rows of a table frame whose T [K] and Cp
+    [J/(mol K)] are finite and positive, sorted by T (stable, so equal temperatures keep their
+    file order)."""
     t, cp = data["T"].to_numpy(), data["Cp"].to_numpy()
-    ok = np.isfinite(t) & np.isfinite(cp) & (t > 0) & (cp > 0)
-    return data[ok].sort_values("T", kind="stable")
+    ok = np.flatnonzero(np.isfinite(t) & np.isfinite(cp) & (t > 0) & (cp > 0))
+    order = ok[np.argsort(t[ok], kind="stable")]
+    out = {}
+    for name in data.columns:
+        column = data[name].to_numpy()[order]
+        column.setflags(write=False)
+        out[name] = column
+    return out
+
+
+def take(columns: dict, keep) -> dict:
+    """The rows ``keep`` (a boolean mask or indices) of every column of ``columns``."""
+    return {name: column[keep] for name, column in columns.items()}
+
+
+def first_of_each_t(columns: dict) -> dict:
+    """The first row of each temperature of T-sorted ``columns`` (pandas drop_duplicates)."""
+    t = columns["T"]
+    return take(columns, np.r_[True, t[1:] != t[:-1]]) if len(t) else columns
 
 
 def given(frame: pd.DataFrame, column: str, *, every: bool = False):
@@ -139,6 +158,12 @@ class Table:
 
     meta: TableMeta
     data: pd.DataFrame = field(compare=False)
+
+    @cached_property
+    def valid(self) -> dict:
+        """The valid rows of ``data`` sorted by T (``valid_columns``), computed once: most
+        checks read them."""
+        return valid_columns(self.data)
 
 
 @dataclass(frozen=True)

@@ -278,3 +278,33 @@ def test_the_build_summary_and_the_report_show_the_root_cause_first(tmp_path, ca
     row = report[report.index("n2.csv"):]
     assert row[:row.index("</tr>")].count("TAB-NO-ROWS") == 1 and \
         "TOO-FEW-POINTS" not in row[:row.index("</tr>")]
+
+
+_CELL = st.text(alphabet="0123456789.eE-+ TCpK[]()/*ab", max_size=8)
+
+
+@st.composite
+def _delimited_lines(draw):
+    """Lines of cells joined by one delimiter, as many cells on every line."""
+    delimiter, width = draw(st.sampled_from([",", ";", "\t"])), draw(st.integers(2, 5))
+    rows = st.lists(_CELL, min_size=width, max_size=width).map(delimiter.join)
+    return draw(st.lists(rows, min_size=1, max_size=45))
+
+
+@given(st.one_of(_delimited_lines(), st.lists(st.text(alphabet="0123456789.eE-+ TCpK[]()/*,;\tab",
+                                          min_size=1, max_size=30), min_size=1, max_size=45)))
+def test_the_quick_delimiter_answer_is_what_csv_sniffer_says(lines):
+    """sniff_delimiter answers at once when one candidate delimiter stands on every line as
+    often; that answer must be csv.Sniffer's own."""
+    import csv
+
+    from thermoledger.ingest.dialect import DELIMITERS, SNIFF_LINES, sniff_delimiter
+
+    sample = "\n".join(lines[:SNIFF_LINES])
+    try:
+        sniffed = csv.Sniffer().sniff(sample, delimiters="".join(DELIMITERS)).delimiter
+    except csv.Error:
+        sniffed = ","
+    if not any(d in sample for d in DELIMITERS):
+        sniffed = ","
+    assert sniff_delimiter(lines) == sniffed

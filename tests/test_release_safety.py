@@ -341,3 +341,14 @@ def test_a_folder_that_only_looks_like_a_release_home_is_refused(tmp_path, raw, 
     code, _, err = run(capsys, *build_args(raw, fake))
     assert code == 2 and "not a thermoledger release" in err
     assert everything(tmp_path) == before
+
+
+def test_json_documents_refuse_numbers_json_cannot_carry():
+    from thermoledger.core.errors import OutputError
+    from thermoledger.release.document import json_bytes
+
+    want = '{\n  "a": [\n    1.5,\n    null,\n    "é"\n  ]\n}\n'
+    assert json_bytes({"a": [1.5, None, "é"]}) == want.encode()
+    for bad in (float("nan"), float("inf"), -float("inf")):
+        with pytest.raises(OutputError, match="JSON cannot carry"):
+            json_bytes({"species": [{"quality": {"x": bad}}]})

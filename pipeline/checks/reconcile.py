@@ -237,14 +237,17 @@ def _select(sid, tables, about, ctx):
     for table in keep:
         ex = excluded_lines(table, about.get(table.meta.file, ()))
         excluded += [(table.meta.file, ln, code) for ln, code in sorted(ex)]
-        d = table.data[~table.data["line"].isin([ln for ln, _ in ex])]
-        d = d[np.isfinite(d["T"]) & np.isfinite(d["Cp"])]
+        t, cp = table.data["T"].to_numpy(), table.data["Cp"].to_numpy()
+        keep_row = np.isfinite(t) & np.isfinite(cp)
+        if ex:
+            keep_row &= ~np.isin(table.data["line"].to_numpy(), [ln for ln, _ in ex])
         if covered is not None:
-            d = d[(d["T"] < covered[0]) | (d["T"] > covered[1])]
-        if len(d):
+            keep_row &= (t < covered[0]) | (t > covered[1])
+        if keep_row.any():
+            d = table.data.iloc[np.flatnonzero(keep_row)]
             d = d.assign(file=table.meta.file)
             rows.append(d)
-            lo, hi = float(d["T"].min()), float(d["T"].max())
+            lo, hi = float(t[keep_row].min()), float(t[keep_row].max())
             covered = (lo, hi) if covered is None else (min(covered[0], lo),
                                                          max(covered[1], hi))
             if table is primary and primary.meta.published is not None:
@@ -263,8 +266,12 @@ def _select(sid, tables, about, ctx):
                                      f"{primary.meta.source.priority}) {what} this table's "
                                      f"range (priority {table.meta.source.priority})",
                                      **table.meta.where))
-    data = pd.concat(rows, ignore_index=True).sort_values(["T"], kind="stable") if rows \
-        else primary.data.assign(file=primary.meta.file).iloc[0:0]
+    if rows:
+        data = pd.concat(rows, ignore_index=True) if len(rows) > 1 else \
+            rows[0].reset_index(drop=True)
+        data = data.iloc[np.argsort(data["T"].to_numpy(), kind="stable")]
+    else:
+        data = primary.data.assign(file=primary.meta.file).iloc[0:0]
     sel = Selection(species_id=sid, primary=primary, data=data, uses=tuple(uses),
                     excluded=tuple(excluded), findings=tuple(notes))
     return sel, new + notes, quarantined

@@ -218,8 +218,10 @@ def _affine(unit_text: str, kind: str):
     return basis, scale, offset
 
 
+@lru_cache(maxsize=4096)
 def parse_quantity(text: str, kind: str) -> float:
-    """Parse a quantity string such as '-393.51 kJ/mol' to a float in the SI unit of ``kind``.
+    """Parse a quantity string such as '-393.51 kJ/mol' to a float in the SI unit of ``kind``
+    (remembered per text: a catalogue states the same anchors and pressures many times).
 
     A bare number (no unit) is an error: units are never guessed.
     """

@@ -83,8 +83,13 @@ def sniff_delimiter(lines: list[str]) -> str:
     """The delimiter of ``lines`` by csv.Sniffer among comma, semicolon and tab; a comma when
     no candidate splits the lines consistently."""
     sample = "\n".join(lines[:SNIFF_LINES])
-    if not any(d in sample for d in DELIMITERS):
+    present = [d for d in DELIMITERS if d in sample]
+    if not present:
         return ","
+    if len(present) == 1 and "\"" not in sample and "'" not in sample:
+        counts = {line.count(present[0]) for line in lines[:SNIFF_LINES]}
+        if len(counts) == 1:     # one candidate, as often on every line: what csv.Sniffer says
+            return present[0]
     try:
         return csv.Sniffer().sniff(sample, delimiters="".join(DELIMITERS)).delimiter
     except csv.Error:

@@ -3,9 +3,10 @@ each stage's work, and its tests, live in its own sub-package."""
 
 import tempfile
 from dataclasses import dataclass, replace
+from functools import partial
 from pathlib import Path
 
-from . import fit, ingest
+from . import fit, ingest, partitions
 from .checks import acknowledge, reconcile, references, registry, transitions
 from .core.errors import FitError, InputError, OutputError
 from .core.findings import ERROR, INFO, by_subject, concerns, finding, stage_failed, subject
@@ -33,9 +34,22 @@ class BuildResult:
     inputs: tuple = ()     # InputFile of every raw input read
 
 
-def examine(raw_dir, ctx: Settings = Settings()) -> CheckResult:
-    """Ingest, validate and reconcile (the ``check`` command); no fitting, nothing written."""
-    got = ingest.ingest(raw_dir)
+def examine(raw_dir, ctx: Settings = Settings(), workers: int = 1) -> CheckResult:
+    """Ingest, validate and reconcile (the ``check`` command); no fitting, nothing written.
+    ``workers`` processes check the species partitions (0: as many as suit the machine and
+    the size of ``raw_dir``); the result does not depend on how many."""
+    count = partitions.worker_count(raw_dir, workers)
+    return partitions.run(partial(_check_part, raw_dir, ctx), count).checked
+
+
+def _check_part(raw_dir, ctx, part) -> partitions.PartResult:
+    return partitions.PartResult(checked=examine_part(raw_dir, ctx, part))
+
+
+def examine_part(raw_dir, ctx: Settings = Settings(), part=None) -> CheckResult:
+    """``examine`` of the species of one partition (partitions.Part; all by default), in
+    this process."""
+    got = ingest.ingest(raw_dir, part)
     tables, chains, linked = transitions.link(got.tables, got.transitions, ctx,
                                               got.findings)
     declared, unclear = references.declare(got.sources, ctx.references)
@@ -128,19 +142,21 @@ def species_findings(sel, about) -> tuple:
 
 
 def build(raw_dir, out_dir, ctx: Settings = Settings(), *, write=True, progress=None,
-          wait: float = 0.0, previous=None) -> BuildResult:
+          wait: float = 0.0, previous=None, workers: int = 0) -> BuildResult:
     """Run every stage; publish the outputs as the new release of ``out_dir`` unless
     ``write`` is False. The output folder is vetted (publish.vet_output_folder) and locked
     before any work, so a refused or busy folder costs nothing. ``previous`` maps species
     ids to the breakpoints offered to the search; by default those of the release already
-    published in ``out_dir``."""
+    published in ``out_dir``. ``workers`` processes read, check and fit the species
+    partitions (0: as many as suit the machine and the build); the release does not depend
+    on how many."""
     if not write:
-        return _build(raw_dir, None, ctx, progress, previous or {})
+        return _build(raw_dir, None, ctx, progress, previous or {}, workers)
     real = publish.vet_output_folder(out_dir, [raw_dir])
     with publish.locked(real, wait):
         if previous is None:
             previous = previous_breakpoints(real)
-        result = _build(raw_dir, real, ctx, progress, previous)
+        result = _build(raw_dir, real, ctx, progress, previous, workers)
     return result
 
 
@@ -212,11 +228,28 @@ def _fit_failure(exc, meta):
     return stage_failed("fit", exc, **meta.where)
 
 
-def _build(raw_dir, out_dir, ctx: Settings, progress, previous: dict) -> BuildResult:
-    say = progress or (lambda stage, i=0, n=0, label="": None)
-    say("read and check", 0, 0, str(raw_dir))
-    checked = examine(raw_dir, ctx)
+def _build_part(raw_dir, ctx: Settings, previous: dict, say, part) -> partitions.PartResult:
+    """Read, check and fit the species of one partition."""
+    checked = examine_part(raw_dir, ctx, part)
     fitted, quarantined, findings, entries = _fit_all(checked, ctx, say, previous)
+    return partitions.PartResult(checked=checked, fitted=tuple(fitted),
+                                 quarantined=tuple(quarantined), findings=tuple(findings),
+                                 entries=tuple(entries.items()))
+
+
+def _quiet(stage, i=0, n=0, label=""):
+    return None
+
+
+def _build(raw_dir, out_dir, ctx: Settings, progress, previous: dict,
+           workers: int = 0) -> BuildResult:
+    say = progress or _quiet
+    say("read and check", 0, 0, str(raw_dir))
+    count = partitions.worker_count(raw_dir, workers)
+    done = partitions.run(partial(_build_part, raw_dir, ctx, previous,
+                                  say if count == 1 else _quiet), count, say)
+    checked, fitted, entries = done.checked, list(done.fitted), dict(done.entries)
+    quarantined, findings = list(done.quarantined), list(done.findings)
     digest = ingest.inputs_digest(checked.inputs)
     doc = release_document.library_document(fitted, quarantined, digest, ctx.to_dict(), entries,
                                             checked.chains)

@@ -2,7 +2,7 @@
 
 Stages, in the order data flow through them (DEVELOPERS.md, "Layout"):
 
-    core → physics → ingest → checks → fit → library → release → build → cli
+    core → physics → ingest → checks → fit → library → release → partitions → build → cli
 
 A module may import from its own stage and from earlier ones, never from a later one.
 ``library`` (what a user of a curated library imports) depends only on ``core`` and
@@ -18,7 +18,7 @@ from pathlib import Path
 import pytest
 
 SOURCE = Path(__file__).resolve().parent.parent / "pipeline"
-ORDER = ["core", "physics", "ingest", "checks", "fit", "library", "release", "build", "cli",
+ORDER = ["core", "physics", "ingest", "checks", "fit", "library", "release", "partitions", "build", "cli",
          "testing"]
 ONLY = {"library": {"core", "physics", "library"}}
 

@@ -272,6 +272,11 @@ def _select(sid, tables, about, ctx):
         data = data.iloc[np.argsort(data["T"].to_numpy(), kind="stable")]
     else:
         data = primary.data.assign(file=primary.meta.file).iloc[0:0]
+    shared = {t.meta.file for t in tables if t.meta.shared}   # files of several species
+    notes, new = ([f.about_species(sid) if f.file in shared else f for f in x]
+                  for x in (notes, new))
+    quarantined = [(meta, tuple(f.about_species(sid) if f.file in shared else f
+                                for f in reasons)) for meta, reasons in quarantined]
     sel = Selection(species_id=sid, primary=primary, data=data, uses=tuple(uses),
                     excluded=tuple(excluded), findings=tuple(notes))
     return sel, new + notes, quarantined

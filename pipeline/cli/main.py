@@ -27,7 +27,8 @@ def cmd_build(args) -> int:
 
     bar = Progress(quiet=args.quiet or args.json)
     try:
-        result = build.build(args.raw, args.out, settings_of(args), wait=args.wait, progress=bar)
+        result = build.build(args.raw, args.out, settings_of(args), wait=args.wait, progress=bar,
+                             workers=args.workers)
     except Interrupted as stop:
         bar.close()
         if bar.published:
@@ -54,7 +55,7 @@ def cmd_check(args) -> int:
     from .. import build
     from ..release import document as release_document
 
-    result = build.examine(args.raw, settings_of(args))
+    result = build.examine(args.raw, settings_of(args), workers=args.workers)
     n_err = render.totals(result.findings)[0]
     doc = release_document.findings_document(result.findings)
     if args.json:

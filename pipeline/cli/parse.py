@@ -31,6 +31,13 @@ _T_LO, _T_HI = TEMPERATURE_SETTING_RANGE
 temperature = number(_T_LO, _T_HI, what="a temperature in K")
 
 
+def _workers_option(p) -> None:
+    p.add_argument("--workers", type=int, choices=range(0, 65), default=0, metavar="N",
+                   help="processes that read, check and fit the species partitions; 0 (the "
+                        "default) chooses one per core, at most 4, for a build of 400 or more "
+                        "tables and one otherwise; the outputs do not depend on it")
+
+
 def parser() -> argparse.ArgumentParser:
     """The parser of every command."""
     p = argparse.ArgumentParser(
@@ -58,6 +65,7 @@ def parser() -> argparse.ArgumentParser:
     b.add_argument("--table-step", type=number(0.1, 1e5, what="a step in K"), default=100.0,
                    metavar="K",
                    help="temperature step of the evaluated tables after 298.15 K (100)")
+    _workers_option(b)
     _reference_option(b)
     _repair_option(b)
     _fit_options(b)
@@ -70,6 +78,7 @@ def parser() -> argparse.ArgumentParser:
     c.add_argument("--report", type=Path, metavar="FILE",
                    help="also write the findings as JSON (schemas/findings.schema.json)")
     c.add_argument("--json", action="store_true", help="print the findings report as JSON")
+    _workers_option(c)
     _reference_option(c)
     _repair_option(c)
     _fit_options(c)

@@ -299,8 +299,11 @@ def _inside(path: Path, root: Path) -> bool:
         return False
 
 
-def ingest(raw_dir) -> IngestResult:
-    """Read every source under ``raw_dir``; never raises on bad input, never writes."""
+def ingest(raw_dir, part=None) -> IngestResult:
+    """Read every source under ``raw_dir``; never raises on bad input, never writes. With
+    ``part`` (partitions.Part), read only the tables, sets and transitions of the species
+    names it owns; every source.json is read, and its findings are found, by every part."""
+    owns = part.owns if part is not None else (lambda name: True)
     raw_dir = Path(raw_dir)
     if not raw_dir.is_dir():
         raise InputError(f"raw folder {raw_dir} does not exist", expected="a folder of sources")
@@ -339,13 +342,18 @@ def ingest(raw_dir) -> IngestResult:
             continue
         seen_ids[source.id] = rel
         sources.append(source)
-        transitions += stated
+        transitions += [x for x in stated if owns(x.species)]
         listed = set()
         for key, reader in (("tables", read_table), ("coefficient_sets", read_sets)):
             for index, entry in enumerate(doc.get(key, [])):
                 listed.add(entry["file"])
+                if reader is read_table and not owns(entry["species"]):
+                    continue
                 read, infile, problems = _guarded_read(folder, entry, source, raw_dir, index,
                                                        reader)
+                if reader is read_sets:       # a set file holds the sets of many species
+                    read = [t for t in read if owns(t.meta.species)]
+                    problems = [f for f in problems if not _species_name(f) or owns(_species_name(f))]
                 findings += problems
                 if infile:
                     inputs.append(infile)
@@ -358,6 +366,13 @@ def ingest(raw_dir) -> IngestResult:
     inputs.sort(key=lambda f: f.path)
     return IngestResult(tables=tuple(tables), findings=tuple(findings), inputs=tuple(inputs),
                         transitions=tuple(transitions), sources=tuple(sources))
+
+
+def _species_name(f) -> str:
+    """The species name a finding of a set file is about ('' for the file as a whole: every
+    part keeps those)."""
+    sid = f.extra.get("species") or ""
+    return sid.rsplit("(", 1)[0] if sid else ""
 
 
 def inputs_digest(inputs) -> str:

@@ -1,31 +1,40 @@
-"""Benchmark: fit time per species, whole-build throughput and peak memory.
+"""Benchmark: whole-command throughput and peak memory at several sizes, against a naive script.
 
-    .venv/bin/python benchmarks/bench_build.py --species 1000 --points 100
+    .venv/bin/python benchmarks/bench_build.py --sizes 1000,10000,100000
 
 Generates N synthetic ideal-gas species (rigid-rotor/harmonic-oscillator Cp from random
-wavenumbers, 0.1 % seeded noise) as raw sources in a temporary folder, then measures
+wavenumbers, 0.1 % seeded noise, 100 points 200-3000 K, in four sources) as raw sources in
+a temporary folder, then runs the real commands in a child process and measures, per size:
 
-* ingest, validation and check (ingest + validate + reconcile) times [s],
-* fit time per species (the fitting stage alone, median and mean) [ms],
-* the whole build (ingest, validate, select, fit, export) [species/s],
-* peak resident memory of the process [MiB].
+* ``build --no-report`` and ``build`` (with the report), and ``check``: wall time, start-up
+  included [s], species per second, and the peak resident memory of the whole process tree
+  (the command and its workers, sampled every 20 ms) [MiB];
+* the naive script a competent user would write instead (pandas read of each table, one
+  least-squares fit of the nasa7 Cp polynomial in two ranges joined at 1000 K with Cp and
+  dCp/dT continuous (the KKT system in scaled variables), no
+  validation, no breakpoint search, no report): species per second, in this process.
+
+``--flagged`` plants one outlier in every table and acknowledges it in source.json, so that
+every table carries a finding (a quadratic scan of the findings would show at once).
+Start-up of ``check`` (an empty folder) and ``props`` (the demo library) is printed too.
 """
 
 import argparse
 import json
-import resource
-import statistics
+import os
+import subprocess
 import sys
 import tempfile
+import threading
 import time
 from pathlib import Path
 
 import numpy as np
-from thermoledger import build
-from thermoledger.checks import registry as validate
 from thermoledger.core.constants import GAS_CONSTANT
-from thermoledger.ingest import sources as ingest
 from thermoledger.physics import statmech
+
+ROOT = Path(__file__).resolve().parent.parent
+COMMAND = [str(Path(sys.executable).with_name("thermoledger"))]
 
 
 def make_raw(raw: Path, n: int, points: int, seed: int = 1, flagged: bool = False) -> None:
@@ -47,7 +56,7 @@ def make_raw(raw: Path, n: int, points: int, seed: int = 1, flagged: bool = Fals
         source = f"bench-{i % 4}"
         folder = raw / source
         folder.mkdir(parents=True, exist_ok=True)
-        name = f"s{i:05d}"
+        name = f"s{i:06d}"
         lines = ["T [K],Cp [J/(mol*K)]"] + [f"{a:.6g},{b:.6f}" for a, b in zip(t, cp)]
         (folder / f"{name}.csv").write_text("\n".join(lines) + "\n")
         per_source.setdefault(source, []).append(
@@ -64,41 +73,116 @@ def make_raw(raw: Path, n: int, points: int, seed: int = 1, flagged: bool = Fals
         (raw / source / "source.json").write_text(json.dumps(doc))
 
 
+def _tree_rss(root: int) -> int:
+    """Resident memory [KiB] of process ``root`` and all its descendants."""
+    parent = {}
+    for entry in os.listdir("/proc"):
+        if entry.isdigit():
+            try:
+                with open(f"/proc/{entry}/stat") as fh:
+                    parent[int(entry)] = int(fh.read().rsplit(")", 1)[1].split()[1])
+            except (OSError, IndexError, ValueError):
+                continue
+    tree, grew = {root}, True
+    while grew:
+        more = {p for p, pp in parent.items() if pp in tree} - tree
+        tree |= more
+        grew = bool(more)
+    total = 0
+    for pid in tree:
+        try:
+            with open(f"/proc/{pid}/status") as fh:
+                total += next(int(x.split()[1]) for x in fh if x.startswith("VmRSS:"))
+        except (OSError, StopIteration):
+            continue
+    return total
+
+
+def timed(argv) -> tuple:
+    """(wall seconds, peak tree memory [MiB], exit code) of one command."""
+    t0 = time.perf_counter()
+    proc = subprocess.Popen(COMMAND + argv, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    peak = [0]
+
+    def sample():
+        while proc.poll() is None:
+            peak[0] = max(peak[0], _tree_rss(proc.pid))
+            time.sleep(0.02)
+
+    thread = threading.Thread(target=sample, daemon=True)
+    thread.start()
+    err = proc.communicate()[1]
+    wall = time.perf_counter() - t0
+    thread.join()
+    if proc.returncode not in (0, 1):
+        sys.exit(f"{' '.join(argv)} failed ({proc.returncode}): {err.decode()[-400:]}")
+    return wall, peak[0] / 1024.0, proc.returncode
+
+
+def naive(raw: Path, limit: int) -> float:
+    """Species per second of the naive script on the first ``limit`` tables of ``raw``."""
+    import pandas as pd
+
+    files = sorted(raw.glob("*/*.csv"))[:limit]
+    powers = np.arange(5)
+    at = 1000.0 ** powers                                   # Cp basis at the joint
+    slope = np.r_[0.0, powers[1:] * 1000.0 ** (powers[1:] - 1)]
+    c = np.array([np.r_[at, -at], np.r_[slope, -slope]])    # Cp and dCp/dT continuous
+    t0 = time.perf_counter()
+    for path in files:
+        d = pd.read_csv(path)
+        t, cp = d.iloc[:, 0].to_numpy(), d.iloc[:, 1].to_numpy() / GAS_CONSTANT
+        low = t <= 1000.0
+        a = np.zeros((len(t), 10))
+        a[low, :5] = t[low, None] ** powers
+        a[~low, 5:] = t[~low, None] ** powers
+        scale = np.abs(a).max(axis=0)                       # scaled variables
+        a_s, c_s = a / scale, c / scale
+        kkt = np.block([[a_s.T @ a_s, c_s.T], [c_s, np.zeros((2, 2))]])
+        np.linalg.solve(kkt, np.r_[a_s.T @ cp, 0.0, 0.0])
+    return len(files) / (time.perf_counter() - t0)
+
+
 def main(argv=None) -> int:
     p = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    p.add_argument("--species", type=int, default=1000)
+    p.add_argument("--sizes", default="1000,10000",
+                   help="comma-separated numbers of species (1000,10000)")
     p.add_argument("--points", type=int, default=100)
+    p.add_argument("--workers", type=int, default=0, help="passed to build and check (0: auto)")
+    p.add_argument("--flagged", action="store_true",
+                   help="one acknowledged outlier in every table")
+    p.add_argument("--skip-report", action="store_true", help="do not time the default build")
     args = p.parse_args(argv)
+    sizes = [int(x) for x in args.sizes.split(",")]
     with tempfile.TemporaryDirectory() as tmp:
-        raw, out = Path(tmp) / "raw", Path(tmp) / "curated"
-        make_raw(raw, args.species, args.points)
-        t0 = time.perf_counter()
-        got = ingest.ingest(raw)
-        t_ingest = time.perf_counter() - t0
-        t0 = time.perf_counter()
-        validate.validate(got.tables, build.Settings(), got.findings)
-        t_validate = time.perf_counter() - t0
-        t0 = time.perf_counter()
-        checked = build.examine(raw)
-        t_check = time.perf_counter() - t0
-        fit_ms = []
-        for sel in checked.selections:
-            s = time.perf_counter()
-            build.fit_selection(sel, build.Settings())
-            fit_ms.append(1000.0 * (time.perf_counter() - s))
-        t0 = time.perf_counter()
-        result = build.build(raw, out)
-        t_build = time.perf_counter() - t0
-    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
-    print(f"species: {args.species}, points per table: {args.points}")
-    print(f"ingest: {t_ingest:.2f} s; validate: {t_validate:.2f} s "
-          f"({1000 * t_validate / args.species:.2f} ms/species)")
-    print(f"check (ingest + validate + reconcile): {t_check:.2f} s")
-    print(f"fit per species: median {statistics.median(fit_ms):.3f} ms, "
-          f"mean {statistics.mean(fit_ms):.3f} ms")
-    print(f"whole build: {t_build:.2f} s, {len(result.fitted) / t_build:.1f} species/s "
-          f"({len(result.fitted)} fitted, {len(result.quarantined)} quarantined)")
-    print(f"peak memory (max RSS): {peak:.0f} MiB")
+        empty = Path(tmp) / "empty"
+        empty.mkdir()
+        start_check = min(timed(["check", "--raw", str(empty)])[0] for _ in range(3))
+        start_props = min(timed(["props", str(ROOT / "curated"), "N2", "1000"])[0]
+                          for _ in range(3))
+        print(f"start-up: check {start_check:.2f} s (empty folder), props {start_props:.2f} s")
+        print(f"{'species':>8} {'command':<22} {'wall [s]':>9} {'species/s':>10} {'peak [MiB]':>11}")
+        for n in sizes:
+            raw, out = Path(tmp) / f"raw{n}", Path(tmp) / f"out{n}"
+            make_raw(raw, n, args.points, flagged=args.flagged)
+            w = ["--workers", str(args.workers)]
+            runs = [("check", ["check", "--raw", str(raw), *w]),
+                    ("build --no-report", ["build", "--raw", str(raw), "--out", str(out),
+                                           "--quiet", "--no-report", *w])]
+            if not args.skip_report:
+                runs.append(("build (with report)", ["build", "--raw", str(raw), "--out",
+                                                      str(out) + "r", "--quiet", *w]))
+            for label, cmd in runs:
+                wall, peak, _ = timed(cmd)
+                print(f"{n:>8} {label:<22} {wall:>9.1f} {n / wall:>10.0f} {peak:>11.0f}",
+                      flush=True)
+            rate = naive(raw, min(n, 2000))
+            print(f"{n:>8} {'naive script':<22} {n / rate:>9.1f} {rate:>10.0f} {'-':>11}",
+                  flush=True)
+            import shutil
+
+            for folder in (raw, out, Path(str(out) + "r")):
+                shutil.rmtree(folder, ignore_errors=True)
     return 0
 
 

@@ -65,6 +65,8 @@ def examine_part(raw_dir, ctx: Settings = Settings(), part=None) -> CheckResult:
         else:
             accepted.append(table)
     selections, more, dropped = reconcile.reconcile(accepted, found, ctx)
+    for table in tables:              # the checks are done
+        table.forget_valid()
     found += more
     quarantined += dropped
     found = acknowledge.apply(tables, found)

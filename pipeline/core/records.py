@@ -165,6 +165,11 @@ class Table:
         checks read them."""
         return valid_columns(self.data)
 
+    def forget_valid(self) -> None:
+        """Drop the cached ``valid`` rows once the checks are done (they would double the
+        memory of a large build)."""
+        self.__dict__.pop("valid", None)
+
 
 @dataclass(frozen=True)
 class Transition:

@@ -32,14 +32,15 @@ class BuildResult:
     files: dict = None     # {relative path: bytes} of the release
     held_back: tuple = ()  # (file, error findings): sources and tables that could not be read
     inputs: tuple = ()     # InputFile of every raw input read
+    reused: tuple = (0, 1)  # (partitions taken from the last build, partitions)
 
 
 def examine(raw_dir, ctx: Settings = Settings(), workers: int = 1) -> CheckResult:
     """Ingest, validate and reconcile (the ``check`` command); no fitting, nothing written.
     ``workers`` processes check the species partitions (0: as many as suit the machine and
     the size of ``raw_dir``); the result does not depend on how many."""
-    count = partitions.worker_count(raw_dir, workers)
-    return partitions.run(partial(_check_part, raw_dir, ctx), count).checked
+    cut = partitions.plan(raw_dir, workers)
+    return partitions.run(partial(_check_part, raw_dir, ctx), cut)[0].checked
 
 
 def _check_part(raw_dir, ctx, part) -> partitions.PartResult:
@@ -144,21 +145,29 @@ def species_findings(sel, about) -> tuple:
 
 
 def build(raw_dir, out_dir, ctx: Settings = Settings(), *, write=True, progress=None,
-          wait: float = 0.0, previous=None, workers: int = 0) -> BuildResult:
+          wait: float = 0.0, previous=None, workers: int = 0, parts: int = 0,
+          fresh: bool = False) -> BuildResult:
     """Run every stage; publish the outputs as the new release of ``out_dir`` unless
     ``write`` is False. The output folder is vetted (publish.vet_output_folder) and locked
     before any work, so a refused or busy folder costs nothing. ``previous`` maps species
     ids to the breakpoints offered to the search; by default those of the release already
-    published in ``out_dir``. ``workers`` processes read, check and fit the species
-    partitions (0: as many as suit the machine and the build); the release does not depend
-    on how many."""
+    published in ``out_dir``. ``workers`` processes read, check and fit the ``parts``
+    species partitions (0: as suits the machine and the build, partitions.plan); the release
+    does not depend on either. A partition whose inputs, settings, offered breakpoints and
+    code are those of a partition of the last build into ``out_dir`` is taken from it
+    (partitions.PartStore) unless ``fresh``."""
+    cut = partitions.plan(raw_dir, workers, parts)
     if not write:
-        return _build(raw_dir, None, ctx, progress, previous or {}, workers)
+        return _build(raw_dir, None, ctx, progress, previous or {}, cut)
     real = publish.vet_output_folder(out_dir, [raw_dir])
     with publish.locked(real, wait):
         if previous is None:
             previous = previous_breakpoints(real)
-        result = _build(raw_dir, real, ctx, progress, previous, workers)
+        store = partitions.PartStore(
+            real / partitions.STORE, partitions.part_keys(raw_dir, cut.parts, ctx.to_dict(),
+                                                          previous), use=not fresh)
+        result = _build(raw_dir, real, ctx, progress, previous, cut, store)
+        store.commit()
     return result
 
 
@@ -244,12 +253,11 @@ def _quiet(stage, i=0, n=0, label=""):
 
 
 def _build(raw_dir, out_dir, ctx: Settings, progress, previous: dict,
-           workers: int = 0) -> BuildResult:
+           cut=partitions.Plan(), store=None) -> BuildResult:
     say = progress or _quiet
     say("read and check", 0, 0, str(raw_dir))
-    count = partitions.worker_count(raw_dir, workers)
-    done = partitions.run(partial(_build_part, raw_dir, ctx, previous,
-                                  say if count == 1 else _quiet), count, say)
+    done, reused = partitions.run(partial(_build_part, raw_dir, ctx, previous,
+                                          say if cut.workers == 1 else _quiet), cut, say, store)
     checked, fitted, entries = done.checked, list(done.fitted), dict(done.entries)
     quarantined, findings = list(done.quarantined), list(done.findings)
     digest = ingest.inputs_digest(checked.inputs)
@@ -265,7 +273,8 @@ def _build(raw_dir, out_dir, ctx: Settings, progress, previous: dict,
         out_dir, files, check=_verify, on_swap=lambda: say("published"))
     return BuildResult(fitted=tuple(fitted), quarantined=tuple(quarantined),
                        findings=tuple(findings), document=doc, written=tuple(written),
-                       files=files, held_back=checked.held_back, inputs=checked.inputs)
+                       files=files, held_back=checked.held_back, inputs=checked.inputs,
+                       reused=(reused, cut.parts))
 
 
 def _verify(folder):

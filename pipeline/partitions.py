@@ -11,14 +11,22 @@ partition alike and kept once.
 """
 
 import hashlib
+import json
 import os
+import pickle
+import re
 from dataclasses import dataclass
+from functools import lru_cache
+from pathlib import Path
 
 from .core.records import CheckResult
+from .release import publish
 
 #: below this many listed tables and sets, a build runs in one process (forking workers
-#: costs more than it saves)
+#: costs more than it saves) and in one partition
 PARALLEL_FROM = 400
+#: listed tables per partition of a large build, and the most partitions
+PART_SIZE, MAX_PARTS = 256, 1024
 
 
 def partition_of(name: str, parts: int) -> int:
@@ -124,9 +132,6 @@ def merge(parts) -> PartResult:
 def listed_entries(raw_dir) -> int:
     """How many tables and coefficient sets the source.json files under ``raw_dir`` list (a
     quick count to choose the number of workers; unreadable files count as none)."""
-    import json
-    from pathlib import Path
-
     n = 0
     for path in Path(raw_dir).glob("*/source.json"):
         try:
@@ -137,12 +142,30 @@ def listed_entries(raw_dir) -> int:
     return n
 
 
+@dataclass(frozen=True)
+class Plan:
+    """How a build is cut: ``parts`` partitions worked by ``workers`` processes."""
+
+    parts: int = 1
+    workers: int = 1
+
+
+def plan(raw_dir, workers: int = 0, parts: int = 0) -> Plan:
+    """``workers`` when given (> 0), else one process per core (at most 4) for a build of
+    PARALLEL_FROM listed tables or more and one for a smaller one; ``parts`` when given,
+    else about PART_SIZE listed tables per partition for a large build (so that an edited
+    table costs the refit of its partition only) and one partition for a small one."""
+    entries = listed_entries(raw_dir)
+    large = entries >= PARALLEL_FROM
+    w = workers if workers > 0 else (min(_cores(), 4) if large else 1)
+    p = parts if parts > 0 else (max(w, min(MAX_PARTS, -(-entries // PART_SIZE))) if large
+                                 else w)
+    return Plan(parts=p, workers=w)
+
+
 def worker_count(raw_dir, asked: int = 0) -> int:
-    """``asked`` when given (> 0), else one process per core (at most 4) for a large build
-    and one for a small one."""
-    if asked > 0:
-        return asked
-    return min(_cores(), 4) if listed_entries(raw_dir) >= PARALLEL_FROM else 1
+    """The worker processes of ``plan``."""
+    return plan(raw_dir, asked).workers
 
 
 def _cores() -> int:
@@ -152,26 +175,136 @@ def _cores() -> int:
     return os.cpu_count() or 1
 
 
-def run(work, count: int, say=None) -> PartResult:
-    """``work(Part)`` for each of ``count`` partitions, in worker processes when ``count`` >
-    1, merged (``merge``). A worker that dies or is interrupted stops the build."""
+def run(work, cut: Plan, say=None, store=None) -> tuple:
+    """(merged PartResult, partitions reused): ``work(Part)`` for each partition of ``cut``
+    that ``store`` (a PartStore, or None) does not already hold, in ``cut.workers`` worker
+    processes when more than one; what was computed is saved into ``store``. A worker that
+    dies or is interrupted stops the build."""
     say = say or (lambda *a: None)
-    if count <= 1:
-        return merge([work(WHOLE)])
-    from concurrent.futures import ProcessPoolExecutor
+    results = [store.load(k) if store else None for k in range(cut.parts)]
+    todo = [k for k, r in enumerate(results) if r is None]
+    if cut.workers <= 1 or len(todo) <= 1:
+        for n, k in enumerate(todo):
+            results[k] = work(Part(k, cut.parts))
+            say("partitions", n + 1, len(todo), f"partition {k + 1} of {cut.parts}")
+    else:
+        from concurrent.futures import ProcessPoolExecutor
 
-    from .release.report import stop_workers, workers_die_with_parent
+        from .release.report import stop_workers, workers_die_with_parent
 
-    pool = ProcessPoolExecutor(count, initializer=workers_die_with_parent,
-                               initargs=(os.getpid(),))
-    try:
-        futures = [pool.submit(work, Part(k, count)) for k in range(count)]
-        results = []
-        for k, fut in enumerate(futures):
-            results.append(fut.result())
-            say("partitions", k + 1, count, f"partition {k + 1} of {count}")
-    except BaseException:
-        stop_workers(pool)
-        raise
-    pool.shutdown()
-    return merge(results)
+        pool = ProcessPoolExecutor(min(cut.workers, len(todo)),
+                                   initializer=workers_die_with_parent, initargs=(os.getpid(),))
+        try:
+            done = pool.map(work, [Part(k, cut.parts) for k in todo])
+            for n, (k, result) in enumerate(zip(todo, done)):
+                results[k] = result
+                say("partitions", n + 1, len(todo), f"partition {k + 1} of {cut.parts}")
+        except BaseException:
+            stop_workers(pool)
+            raise
+        pool.shutdown()
+    if store:
+        for k in todo:
+            store.save(k, results[k])
+    return merge(results), cut.parts - len(todo)
+
+
+# ---- reuse of partitions between builds -------------------------------------------------
+#: the folder of a release home that keeps the partitions of its last build
+STORE = publish.STORE
+_STORED = re.compile(r"^part-[0-9a-f]{64}\.pickle$")
+STORE_FORMAT = 1
+
+
+@lru_cache(maxsize=1)
+def code_digest() -> str:
+    """sha256 over the source of every module of the package: a partition computed by other
+    code is never reused."""
+    h = hashlib.sha256()
+    root = Path(__file__).resolve().parent
+    for path in sorted(root.rglob("*.py")):
+        h.update(f"{path.relative_to(root)}\0".encode() + path.read_bytes())
+    return h.hexdigest()
+
+
+def _file_digest(path: Path) -> str:
+    if path.is_symlink():
+        return "link:" + os.readlink(path)
+    if path.is_file():
+        return hashlib.sha256(path.read_bytes()).hexdigest()
+    return "dir" if path.is_dir() else "absent"
+
+
+def part_keys(raw_dir, parts: int, settings: dict, previous: dict) -> list:
+    """The key of each partition: a sha256 of everything its result depends on. Shared by
+    all: the code, the settings, every path under ``raw_dir`` (unlisted files are
+    findings), every source.json and coefficient-set file; its own: the tables its species
+    names list and the breakpoints ``previous`` offers them."""
+    raw = Path(raw_dir)
+    shared = hashlib.sha256(f"{STORE_FORMAT}\0{code_digest()}\0".encode())
+    shared.update(json.dumps(settings, sort_keys=True, default=str).encode())
+    shared.update("\n".join(sorted(str(p.relative_to(raw)) for p in raw.rglob("*"))).encode())
+    own = [hashlib.sha256() for _ in range(parts)]
+    for sid, points in sorted(previous.items()):
+        own[partition_of(sid.rsplit("(", 1)[0], parts)].update(f"{sid}{points}\n".encode())
+    for src in sorted(raw.glob("*/source.json")):
+        shared.update(f"{src.parent.name}\0{_file_digest(src)}\n".encode())
+        try:
+            doc = json.loads(src.read_bytes())
+            for entry in doc.get("coefficient_sets", ()):
+                shared.update(f"{entry['file']}\0{_file_digest(src.parent / entry['file'])}"
+                              "\n".encode())
+            for entry in doc.get("tables", ()):
+                part = partition_of(str(entry["species"]), parts)
+                own[part].update(f"{entry['file']}\0{_file_digest(src.parent / entry['file'])}"
+                                 "\n".encode())
+        except (OSError, ValueError, AttributeError, TypeError, KeyError, RecursionError):
+            continue      # such a source.json is refused by ingest; its bytes are in the key
+    base = shared.hexdigest()
+    return [hashlib.sha256(f"{base}{k}{h.hexdigest()}".encode()).hexdigest()
+            for k, h in enumerate(own)]
+
+
+class PartStore:
+    """The partitions of the last build kept in a release home (``STORE``): a partition whose
+    key (``part_keys``) is unchanged is loaded instead of computed. The files are pickles
+    written by thermoledger, trusted like its code; ``load`` treats a file it cannot read as
+    absent."""
+
+    def __init__(self, folder: Path, keys: list, use: bool = True):
+        self.folder, self.keys, self.use = Path(folder), keys, use
+        self.pending = {}
+
+    def _path(self, k: int) -> Path:
+        return self.folder / f"part-{self.keys[k]}.pickle"
+
+    def load(self, k: int):
+        if not self.use:
+            return None
+        try:
+            with open(self._path(k), "rb") as fh:
+                fmt, key, result = pickle.load(fh)
+        except Exception:  # noqa: BLE001 - a missing or damaged file is recomputed
+            return None
+        return result if (fmt, key) == (STORE_FORMAT, self.keys[k]) else None
+
+    def save(self, k: int, result) -> None:
+        """Keep ``result`` of partition ``k`` to be written by ``commit``: pickled now, as
+        the build goes on to add to the library entries it holds."""
+        self.pending[k] = pickle.dumps((STORE_FORMAT, self.keys[k], result),
+                                       protocol=pickle.HIGHEST_PROTOCOL)
+
+    def commit(self) -> None:
+        """Write the partitions kept by ``save`` (after the release was published) and
+        delete the stored partitions this build did not use (only files named as this class
+        names them)."""
+        from .core.paths import write_atomic
+
+        for k, data in sorted(self.pending.items()):
+            write_atomic(self._path(k), data)
+        self.pending = {}
+        keep = {self._path(k).name for k in range(len(self.keys))}
+        if self.folder.is_dir():
+            for path in self.folder.iterdir():
+                if _STORED.match(path.name) and path.name not in keep:
+                    path.unlink()

@@ -3,6 +3,7 @@ one partition, and a release built from several partitions in several worker pro
 for byte the release built from one."""
 
 import json
+import shutil
 import subprocess
 import sys
 from pathlib import Path
@@ -67,3 +68,66 @@ def test_the_worker_count_follows_the_size_of_the_build(tmp_path, monkeypatch):
     (tmp_path / "bad").mkdir()
     (tmp_path / "bad" / "source.json").write_text("[" * 5000)   # unreadable: counts as none
     assert partitions.listed_entries(tmp_path) == 0
+
+
+def _edit_one_table(raw):
+    csv = raw / "isru-rrho-2026" / "co.csv"
+    lines = csv.read_text().splitlines()
+    cells = lines[5].split(",")
+    cells[1] = f"{float(cells[1]) * 1.0001:.6f}"          # one Cp value, +0.01 %
+    lines[5] = ",".join(cells)
+    csv.write_text("\n".join(lines) + "\n")
+
+
+def test_an_edited_table_refits_its_partition_only_and_gives_the_full_build(tmp_path):
+    """Incremental build: the unchanged partitions come from the last build, and the release
+    is byte for byte the one a full build (--fresh) makes from the same previous release."""
+    raw, out = tmp_path / "raw", tmp_path / "out"
+    shutil.copytree(RAW, raw)
+    first = build.build(raw, out, parts=4)
+    again = build.build(raw, out, parts=4)
+    assert first.reused == (0, 4) and again.reused == (0, 4)   # breakpoints offered changed
+    assert build.build(raw, out, parts=4).reused == (4, 4)       # nothing changed
+    shutil.copytree(out, tmp_path / "full", symlinks=True)
+    _edit_one_table(raw)
+    edited = build.build(raw, out, parts=4)
+    full = build.build(raw, tmp_path / "full", parts=4, fresh=True)
+    assert edited.reused == (3, 4) and full.reused == (0, 4)
+    assert tree_hashes(out) == tree_hashes(tmp_path / "full")
+    assert len(list((out / partitions.STORE).iterdir())) == 4   # the old partition pruned
+
+
+def test_other_settings_or_a_damaged_store_recompute(tmp_path, capsys):
+    from thermoledger.core.settings import FitSettings, Settings
+
+    raw, out = tmp_path / "raw", tmp_path / "out"
+    shutil.copytree(RAW, raw)
+    for _ in range(3):
+        last = build.build(raw, out, parts=2)
+    assert last.reused == (2, 2)
+    other = Settings(fit=FitSettings(form="nasa9"))
+    assert build.build(raw, out, other, parts=2).reused == (0, 2)
+    for path in (out / partitions.STORE).iterdir():
+        path.write_bytes(b"not a pickle")
+    assert build.build(raw, out, other, parts=2).reused == (0, 2)
+    for _ in range(2):      # other partitions, then other breakpoints offered (nasa9's)
+        code, text, _ = run_cli(capsys, "build", "--raw", raw, "--out", out, "--quiet")
+        assert code == 0 and "reused" not in text
+    code, text, _ = run_cli(capsys, "build", "--raw", raw, "--out", out, "--quiet")
+    assert "reused 1 of 1 partition(s) of species from the last build" in text
+    code, text, _ = run_cli(capsys, "build", "--raw", raw, "--out", out, "--quiet", "--fresh")
+    assert code == 0 and "reused" not in text
+
+
+def test_a_build_that_fails_leaves_no_store(tmp_path, monkeypatch):
+    from thermoledger.release import assemble
+
+    def broken(*args, **kwargs):
+        raise RuntimeError("disk on fire")
+
+    monkeypatch.setattr(assemble, "release_files", broken)
+    try:
+        build.build(RAW, tmp_path / "out")
+    except RuntimeError:
+        pass
+    assert not (tmp_path / "out").exists()

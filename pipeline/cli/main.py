@@ -28,7 +28,7 @@ def cmd_build(args) -> int:
     bar = Progress(quiet=args.quiet or args.json)
     try:
         result = build.build(args.raw, args.out, settings_of(args), wait=args.wait, progress=bar,
-                             workers=args.workers)
+                             workers=args.workers, fresh=args.fresh)
     except Interrupted as stop:
         bar.close()
         if bar.published:

@@ -60,6 +60,9 @@ def parser() -> argparse.ArgumentParser:
     b.add_argument("--quiet", action="store_true", help="no progress bar or log lines")
     b.add_argument("--json", action="store_true", help="print a JSON summary for scripts")
     b.add_argument("--no-report", action="store_true", help="skip the HTML report")
+    b.add_argument("--fresh", action="store_true",
+                   help="recompute every partition of species instead of taking the unchanged "
+                        "ones from the last build (the outputs are the same)")
     b.add_argument("--tables-csv", action="store_true",
                    help="also write one CSV of evaluated properties per species (tables/)")
     b.add_argument("--table-step", type=number(0.1, 1e5, what="a step in K"), default=100.0,

@@ -36,7 +36,9 @@ def build_json(result, out, notice: str) -> dict:
                             for q in result.document["quarantined"]],
             "errors": n_err, "warnings": n_warn, "acknowledged": n_ack,
             "held_back": [{"file": f, "code": errs[0].code} for f, errs in result.held_back],
-            "out": str(out), "files": len(result.written), "notice": notice}
+            "out": str(out), "files": len(result.written),
+            "partitions": {"reused": result.reused[0], "of": result.reused[1]},
+            "notice": notice}
 
 
 def build_summary(result, out, notice: str) -> list:
@@ -78,6 +80,10 @@ def build_summary(result, out, notice: str) -> list:
         lines.append(f"  HELD BACK   {scope:14s} {where}{col}: {first.code} {first.message}{more}")
     lines.append(f"wrote {len(result.written)} files into {out}/ (manifest.json lists each with "
                  "its sha256; datapackage.json and provenance.json describe the release)")
+    reused, parts = result.reused
+    if reused:
+        lines.append(f"reused {reused} of {parts} partition(s) of species from the last build "
+                     "(inputs, settings and code unchanged; --fresh recomputes them)")
     lines.append(f"caution: {notice}")
     return lines
 

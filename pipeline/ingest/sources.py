@@ -7,6 +7,7 @@ each problem. Nothing under raw/ is ever written; paths are confined to it.
 
 import hashlib
 from dataclasses import dataclass
+from functools import lru_cache
 from pathlib import Path
 
 from ..core import chemistry, jsonread, phases, schemas, units
@@ -328,8 +329,7 @@ def ingest(raw_dir, part=None) -> IngestResult:
         except UnicodeDecodeError:
             findings.append(finding("SRC-UNREADABLE", "source.json is not UTF-8", file=rel))
             continue
-        source, doc, problems = parse_source(text, file=rel, folder=folder.name,
-                                             digest=sha256(raw))
+        source, doc, problems = _parsed_source(text, rel, folder.name, sha256(raw))
         findings += problems
         if source is None:
             continue
@@ -358,6 +358,8 @@ def ingest(raw_dir, part=None) -> IngestResult:
                 if infile:
                     inputs.append(infile)
                 tables += read
+        if part is not None and part.index != 0:
+            continue          # a file-level scan: the first part reports it for all
         for csv_path in sorted(folder.glob("*.csv")):
             if csv_path.name not in listed:
                 findings.append(finding("TAB-UNLISTED", f"{csv_path.name} is not listed in "
@@ -366,6 +368,13 @@ def ingest(raw_dir, part=None) -> IngestResult:
     inputs.sort(key=lambda f: f.path)
     return IngestResult(tables=tuple(tables), findings=tuple(findings), inputs=tuple(inputs),
                         transitions=tuple(transitions), sources=tuple(sources))
+
+
+@lru_cache(maxsize=64)
+def _parsed_source(text: str, file: str, folder: str, digest: str):
+    """``parse_source``, remembered: every partition of a build reads every source.json.
+    Callers must not change the document it returns."""
+    return parse_source(text, file=file, folder=folder, digest=digest)
 
 
 def _species_name(f) -> str:

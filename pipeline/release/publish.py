@@ -41,6 +41,7 @@ from ..core.names import sha256
 from ..library.document import CURRENT
 
 LOCK = ".lock"
+STORE = ".parts"   # the partitions of the last build (partitions.PartStore)
 RELEASES = "releases"
 _STAGING = re.compile(r"^\.staging-\d+$")
 _RELEASE_ID = re.compile(r"^[0-9a-f]{16}$")
@@ -91,7 +92,7 @@ def _unknown_entries(folder: Path) -> list:
     out = []
     for entry in folder.iterdir():
         name = entry.name
-        if name in (LOCK, RELEASES, CURRENT) or _STAGING.match(name):
+        if name in (LOCK, RELEASES, CURRENT, STORE) or _STAGING.match(name):
             continue
         if name.startswith(".current-") or name.startswith(".link-"):
             continue

@@ -8,6 +8,9 @@ canonical order (``merge``), so a release built from any number of partitions is
 byte the one built from a single partition: the partition count is a setting of the
 machine, not of the release. Source-level findings (of a source.json) are found by every
 partition alike and kept once.
+
+A release home keeps the partitions of its last build (``PartStore``); a rebuild takes
+those whose key (``part_keys``: everything a partition's result depends on) is unchanged.
 """
 
 import hashlib
@@ -161,11 +164,6 @@ def plan(raw_dir, workers: int = 0, parts: int = 0) -> Plan:
     p = parts if parts > 0 else (max(w, min(MAX_PARTS, -(-entries // PART_SIZE))) if large
                                  else w)
     return Plan(parts=p, workers=w)
-
-
-def worker_count(raw_dir, asked: int = 0) -> int:
-    """The worker processes of ``plan``."""
-    return plan(raw_dir, asked).workers
 
 
 def _cores() -> int:

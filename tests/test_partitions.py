@@ -60,11 +60,16 @@ def test_check_gives_the_same_findings_in_any_number_of_workers(capsys):
     assert got[1] == got[3] and json.loads(got[1][1])["counts"]["error"] == 2
 
 
-def test_the_worker_count_follows_the_size_of_the_build(tmp_path, monkeypatch):
-    assert partitions.worker_count(RAW, 3) == 3
-    assert partitions.worker_count(RAW) == 1                     # a small build
+def test_workers_and_partitions_follow_the_size_of_the_build(tmp_path, monkeypatch):
+    assert partitions.plan(RAW, 3) == partitions.Plan(parts=3, workers=3)
+    assert partitions.plan(RAW) == partitions.Plan(parts=1, workers=1)     # a small build
+    assert partitions.plan(RAW, 2, 7) == partitions.Plan(parts=7, workers=2)
     monkeypatch.setattr(partitions, "PARALLEL_FROM", 5)
-    assert partitions.worker_count(RAW) == min(partitions._cores(), 4)
+    monkeypatch.setattr(partitions, "PART_SIZE", 4)
+    entries = partitions.listed_entries(RAW)
+    workers = min(partitions._cores(), 4)
+    assert partitions.plan(RAW) == partitions.Plan(parts=max(workers, -(-entries // 4)),
+                                                   workers=workers)
     (tmp_path / "bad").mkdir()
     (tmp_path / "bad" / "source.json").write_text("[" * 5000)   # unreadable: counts as none
     assert partitions.listed_entries(tmp_path) == 0

@@ -7,8 +7,9 @@ wavenumbers, 0.1 % seeded noise, 100 points 200-3000 K, in four sources) as raw 
 a temporary folder, then runs the real commands in a child process and measures, per size:
 
 * ``build --no-report`` and ``build`` (with the report), and ``check``: wall time, start-up
-  included [s], species per second, and the peak resident memory of the whole process tree
-  (the command and its workers, sampled every 20 ms) [MiB];
+  included [s], species per second, and the peak memory of the whole process tree (the
+  command and its workers: the sum of their proportional set sizes, so that pages a worker
+  shares with its parent count once; sampled every 20 ms) [MiB];
 * the naive script a competent user would write instead (pandas read of each table, one
   least-squares fit of the nasa7 Cp polynomial in two ranges joined at 1000 K with Cp and
   dCp/dT continuous (the KKT system in scaled variables), no
@@ -74,7 +75,8 @@ def make_raw(raw: Path, n: int, points: int, seed: int = 1, flagged: bool = Fals
 
 
 def _tree_rss(root: int) -> int:
-    """Resident memory [KiB] of process ``root`` and all its descendants."""
+    """Memory [KiB] of process ``root`` and all its descendants (the sum of their
+    proportional set sizes)."""
     parent = {}
     for entry in os.listdir("/proc"):
         if entry.isdigit():
@@ -89,10 +91,10 @@ def _tree_rss(root: int) -> int:
         tree |= more
         grew = bool(more)
     total = 0
-    for pid in tree:
+    for pid in tree:     # proportional set size: pages shared after a fork count once
         try:
-            with open(f"/proc/{pid}/status") as fh:
-                total += next(int(x.split()[1]) for x in fh if x.startswith("VmRSS:"))
+            with open(f"/proc/{pid}/smaps_rollup") as fh:
+                total += next(int(x.split()[1]) for x in fh if x.startswith("Pss:"))
         except (OSError, StopIteration):
             continue
     return total

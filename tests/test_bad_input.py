@@ -10,6 +10,8 @@ import signal
 from contextlib import contextmanager
 
 import pytest
+from hypothesis import given
+from hypothesis import strategies as st
 from thermoledger import build
 from thermoledger.core import jsonread, units
 from thermoledger.core.errors import InputError, UnitError
@@ -293,3 +295,37 @@ def test_ordinary_units_still_read():
 def test_quantities_take_plain_ascii_numbers_only(text):
     with pytest.raises(UnitError):
         units.parse_quantity(text, "enthalpy")
+
+
+def _depth_by_hand(text: str) -> int:
+    """Nesting depth by a character-by-character reading (the reference for jsonread.depth)."""
+    level = deepest = 0
+    in_string = escaped = False
+    for ch in text:
+        if in_string:
+            if escaped:
+                escaped = False
+            elif ch == "\\":
+                escaped = True
+            elif ch == '"':
+                in_string = False
+        elif ch == '"':
+            in_string = True
+        elif ch in "[{":
+            level += 1
+            deepest = max(deepest, level)
+        elif ch in "]}":
+            level -= 1
+    return deepest
+
+
+_JSON = st.recursive(st.none() | st.booleans() | st.floats(allow_nan=False)
+                     | st.text(alphabet='ab"\\[]{}\n é'),
+                     lambda inner: st.lists(inner) | st.dictionaries(
+                         st.text(alphabet='"\\[{ab'), inner), max_leaves=30)
+
+
+@given(_JSON, st.booleans())
+def test_json_depth_skips_brackets_in_strings_and_escaped_quotes(doc, indent):
+    text = json.dumps(doc, indent=2 if indent else None, ensure_ascii=False)
+    assert jsonread.depth(text) == _depth_by_hand(text)

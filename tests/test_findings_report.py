@@ -94,3 +94,14 @@ def test_readme_shows_what_the_demo_prints(demo_raw, tmp_path, capsys, monkeypat
     readme = (PROJECT / "README.md").read_text()
     for line in out.splitlines():
         assert line.rstrip() in readme, f"README.md lacks this line of '{command}': {line}"
+
+
+def test_a_finding_as_written_has_every_field_but_extra_in_order():
+    from dataclasses import fields
+
+    from thermoledger.core.findings import Finding, finding
+
+    f = finding("SMOOTH-OUTLIER", "x", source="s", file="f", line=3, lines=(3, 4),
+                extra={"species": "a"})
+    assert list(f.to_dict()) == [x.name for x in fields(Finding) if x.name != "extra"]
+    assert f.to_dict()["lines"] == [3, 4] and Finding.from_dict(f.to_dict()) == f

@@ -9,7 +9,7 @@ species into the library; ``info`` records a decision (for example which
 source was preferred).
 """
 
-from dataclasses import asdict, dataclass, field, replace
+from dataclasses import dataclass, field, replace
 
 ERROR, WARNING, INFO = "error", "warning", "info"
 SEVERITY_ORDER = {ERROR: 0, WARNING: 1, INFO: 2}
@@ -303,10 +303,10 @@ class Finding:
 
     def to_dict(self) -> dict:
         """The finding as written into findings.json and the library (``extra`` left out)."""
-        d = asdict(self)
-        d.pop("extra")
-        d["lines"] = list(self.lines)
-        return d
+        return {"code": self.code, "severity": self.severity, "message": self.message,
+                "source": self.source, "file": self.file, "line": self.line,
+                "column": self.column, "seen": self.seen, "expected": self.expected,
+                "fix": self.fix, "lines": list(self.lines), "acknowledged": self.acknowledged}
 
     @classmethod
     def from_dict(cls, d: dict) -> "Finding":

@@ -36,11 +36,25 @@ def _constant(name):
 
 
 def depth(text: str) -> int:
-    """Deepest nesting of arrays and objects in ``text`` (strings skipped) [levels]."""
-    bare = np.frombuffer(_STRINGS.sub('""', text).encode("utf-8", "replace"), dtype=np.uint8)
-    step = np.zeros(len(bare), dtype=np.int64)
-    step[(bare == ord("[")) | (bare == ord("{"))] = 1
-    step[(bare == ord("]")) | (bare == ord("}"))] = -1
+    """Deepest nesting of arrays and objects in ``text`` (strings skipped) [levels]. Only
+    quotes and brackets are looked at: a quote after an odd run of backslashes is escaped,
+    and a bracket after an odd number of real quotes lies inside a string."""
+    b = np.frombuffer(text.encode("utf-8", "replace"), dtype=np.uint8)
+    quotes = np.flatnonzero(b == ord('"'))
+    after_slash = quotes[(quotes > 0) & (b[np.maximum(quotes - 1, 0)] == ord("\\"))]
+    escaped = set()
+    for q in after_slash.tolist():          # rare: count the backslashes before the quote
+        k = q - 1
+        while k >= 0 and b[k] == ord("\\"):
+            k -= 1
+        if (q - 1 - k) % 2:
+            escaped.add(q)
+    if escaped:
+        quotes = quotes[~np.isin(quotes, list(escaped))]
+    opening = (b == ord("[")) | (b == ord("{"))
+    brackets = np.flatnonzero(opening | (b == ord("]")) | (b == ord("}")))
+    outside = np.searchsorted(quotes, brackets) % 2 == 0
+    step = np.where(opening[brackets[outside]], 1, -1)
     return int(np.cumsum(step).max(initial=0))
 
 

@@ -24,7 +24,7 @@ from ..physics import forms
 from . import document, reaction
 from .formation import COLUMNS as FORMATION
 from .formation import Formation
-from .tables import species_rows
+from .tables import species_rows, transitions_of
 
 
 def _kelvin(temperature) -> tuple[np.ndarray, bool]:
@@ -254,9 +254,9 @@ class Library:
         species)."""
         import pandas as pd
 
-        trs = self.document.get("transitions", ())
+        trs = transitions_of(self.document.get("transitions", ()))
         made = self.formation_of
-        frames = [pd.DataFrame(species_rows(self._entries[i], step, None, trs, made))
+        frames = [pd.DataFrame(species_rows(self._entries[i], step, None, trs.get(i, ()), made))
                   for i in self.ids]
         return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame()
 

@@ -42,6 +42,17 @@ def grid(t_min, t_max, step=100.0, points=None, extra=()):
     return np.unique(t)
 
 
+def transitions_of(transitions) -> dict:
+    """{species id: the transitions into or out of it, in their order}: what ``species_rows``
+    needs of a library's transitions, looked up once instead of scanned per species."""
+    out = {}
+    for x in transitions:
+        out.setdefault(x["from"], []).append(x)
+        if x["to"] != x["from"]:
+            out.setdefault(x["to"], []).append(x)
+    return out
+
+
 def stable_interval(sp, transitions=()) -> tuple:
     """(T_lo, T_hi) [K] where the phase of entry ``sp`` is the stable one: between the
     transitions into and out of it, else its whole range of use."""

@@ -14,7 +14,7 @@ import pyarrow.parquet as pq
 
 from ..core.names import file_stem
 from ..library.formation import Formation
-from ..library.tables import COLUMNS, FLAGS, HEADERS, TEXT, UNITS, species_rows, stable_rows
+from ..library.tables import COLUMNS, FLAGS, HEADERS, TEXT, UNITS, species_rows, stable_rows, transitions_of
 
 DANGEROUS = ("=", "+", "-", "@", "\t", "\r")
 
@@ -22,9 +22,10 @@ DANGEROUS = ("=", "+", "-", "@", "\t", "\r")
 def tables_parquet_bytes(doc, step=100.0, points=None) -> bytes:
     """tables.parquet: the evaluated table of every species (T [K], Cp [J/(mol K)], ...),
     units in the key-value metadata."""
-    trs = doc.get("transitions", [])
+    trs = transitions_of(doc.get("transitions", []))
     made = Formation(doc)
-    parts = [species_rows(sp, step, points, trs, made) for sp in doc["species"]]
+    parts = [species_rows(sp, step, points, trs.get(sp["id"], ()), made)
+             for sp in doc["species"]]
     cols = {c: (np.concatenate([p[c] for p in parts]) if parts else np.array([]))
             for c in COLUMNS}
     for c in TEXT:
@@ -74,7 +75,9 @@ def csv_files(doc, step=100.0, points=None) -> dict:
     with transitions the table across its phases (tables/<name>.csv, stable rows only)."""
     trs = doc.get("transitions", [])
     made = Formation(doc)
-    files = {f"tables/{file_stem(sp['id'])}.csv": csv_bytes(sp, step, points, trs, made)
+    own = transitions_of(trs)
+    files = {f"tables/{file_stem(sp['id'])}.csv": csv_bytes(sp, step, points,
+                                                             own.get(sp["id"], ()), made)
              for sp in doc["species"]}
     for name in sorted({x["species"] for x in trs}):
         files[f"tables/{file_stem(name)}.csv"] = _csv(f"{name}, stable phase at each "

@@ -9,7 +9,7 @@ a temporary folder, then runs the real commands in a child process and measures,
 * ``build --no-report`` and ``build`` (with the report), and ``check``: wall time, start-up
   included [s], species per second, and the peak memory of the whole process tree (the
   command and its workers: the sum of their proportional set sizes, so that pages a worker
-  shares with its parent count once; sampled every 20 ms) [MiB];
+  shares with its parent count once; sampled every 0.2 s) [MiB];
 * the naive script a competent user would write instead (pandas read of each table, one
   least-squares fit of the nasa7 Cp polynomial in two ranges joined at 1000 K with Cp and
   dCp/dT continuous (the KKT system in scaled variables), no
@@ -109,7 +109,7 @@ def timed(argv) -> tuple:
     def sample():
         while proc.poll() is None:
             peak[0] = max(peak[0], _tree_rss(proc.pid))
-            time.sleep(0.02)
+            time.sleep(0.2)      # reading smaps of big processes costs CPU itself
 
     thread = threading.Thread(target=sample, daemon=True)
     thread.start()

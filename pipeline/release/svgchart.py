@@ -88,20 +88,22 @@ class Panel:
                 self.parts.append(f"<polyline points=\"{pts}\" fill=\"none\" stroke=\"{colour}\" "
                                   f"stroke-width=\"{width}\"{style}/>")
 
-    def dots(self, x, y, colour, radius=2.2) -> None:
-        px, py = self.px(x), self.py(y)
-        for a, b in zip(px, py):
+    def _finite_points(self, x, y):
+        """(px, py) of every point of (x, y) whose pixel coordinates are finite."""
+        for a, b in zip(self.px(x), self.py(y)):
             if math.isfinite(a) and math.isfinite(b):
-                self.parts.append(f"<circle cx=\"{a:.2f}\" cy=\"{b:.2f}\" r=\"{radius}\" "
-                                  f"fill=\"{colour}\"/>")
+                yield a, b
+
+    def dots(self, x, y, colour, radius=2.2) -> None:
+        for a, b in self._finite_points(x, y):
+            self.parts.append(f"<circle cx=\"{a:.2f}\" cy=\"{b:.2f}\" r=\"{radius}\" "
+                              f"fill=\"{colour}\"/>")
 
     def crosses(self, x, y, colour, size=3.5) -> None:
-        px, py = self.px(x), self.py(y)
-        for a, b in zip(px, py):
-            if math.isfinite(a) and math.isfinite(b):
-                self.parts.append(f"<path d=\"M{a - size:.2f},{b - size:.2f}L{a + size:.2f},"
-                                  f"{b + size:.2f}M{a - size:.2f},{b + size:.2f}L{a + size:.2f},"
-                                  f"{b - size:.2f}\" stroke=\"{colour}\" stroke-width=\"1.3\"/>")
+        for a, b in self._finite_points(x, y):
+            self.parts.append(f"<path d=\"M{a - size:.2f},{b - size:.2f}L{a + size:.2f},"
+                              f"{b + size:.2f}M{a - size:.2f},{b + size:.2f}L{a + size:.2f},"
+                              f"{b - size:.2f}\" stroke=\"{colour}\" stroke-width=\"1.3\"/>")
 
     def vspan(self, x0, x1, colour, opacity=0.3) -> None:
         a, b = sorted((float(self.px(x0)), float(self.px(x1))))

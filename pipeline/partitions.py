@@ -235,11 +235,15 @@ def _file_digest(path: Path) -> str:
 
 def part_keys(raw_dir, parts: int, settings: dict, previous: dict) -> list:
     """The key of each partition: a sha256 of everything its result depends on. Shared by
-    all: the code, the settings, every path under ``raw_dir`` (unlisted files are
+    all: the code and the versions of the numerical libraries, the settings, every path
+    under ``raw_dir`` (unlisted files are
     findings), every source.json and coefficient-set file; its own: the tables its species
     names list and the breakpoints ``previous`` offers them."""
+    from .release.provenance import dependency_versions
+
     raw = Path(raw_dir)
     shared = hashlib.sha256(f"{STORE_FORMAT}\0{code_digest()}\0".encode())
+    shared.update(json.dumps(dependency_versions(), sort_keys=True).encode())
     shared.update(json.dumps(settings, sort_keys=True, default=str).encode())
     shared.update("\n".join(sorted(str(p.relative_to(raw)) for p in raw.rglob("*"))).encode())
     own = [hashlib.sha256() for _ in range(parts)]

@@ -136,3 +136,13 @@ def test_a_build_that_fails_leaves_no_store(tmp_path, monkeypatch):
     except RuntimeError:
         pass
     assert not (tmp_path / "out").exists()
+
+
+def test_a_bad_worker_count_is_refused_with_a_clear_message(capsys):
+    import pytest
+
+    for bad in ("100", "-1", "two"):
+        with pytest.raises(SystemExit) as stop:
+            run_cli(capsys, "check", "--raw", RAW, "--workers", bad)
+        assert stop.value.code == 2
+        assert f"'{bad}' is not a whole number from 0 to 64" in capsys.readouterr().err

@@ -27,12 +27,23 @@ def number(lo: float, hi: float, *, what: str, open_low: bool = False):
     return parse
 
 
+def whole(lo: int, hi: int, *, what: str):
+    """An argparse type: a whole number in [lo, hi]."""
+    def parse(text: str) -> int:
+        if not text.strip().isdigit() or not lo <= int(text) <= hi:
+            raise argparse.ArgumentTypeError(f"'{text}' is not a whole number from {lo} to "
+                                             f"{hi} ({what})")
+        return int(text)
+    return parse
+
+
 _T_LO, _T_HI = TEMPERATURE_SETTING_RANGE
 temperature = number(_T_LO, _T_HI, what="a temperature in K")
 
 
 def _workers_option(p) -> None:
-    p.add_argument("--workers", type=int, choices=range(0, 65), default=0, metavar="N",
+    p.add_argument("--workers", type=whole(0, 64, what="a number of processes"), default=0,
+                   metavar="N",
                    help="processes that read, check and fit the species partitions; 0 (the "
                         "default) chooses one per core, at most 4, for a build of 400 or more "
                         "tables and one otherwise; the outputs do not depend on it")

@@ -61,3 +61,11 @@ def test_a_chart_is_deterministic_well_formed_and_breaks_lines_at_nan():
     span = [r for r in root.iter(f"{ns}rect") if r.get("fill") == "#222"][0]
     assert float(span.get("x")) + float(span.get("width")) == pytest.approx(280.0)
     assert not [x for x in root.iter(f"{ns}line") if x.get("stroke") == "#333"]
+
+
+@given(st.lists(st.tuples(st.floats(-1e9, 1e9), st.floats(-1e9, 1e9)), min_size=1, max_size=50))
+def test_points_are_written_as_an_f_string_would(points):
+    from thermoledger.release.svgchart import _repeat
+
+    a, b = (np.array(v) for v in zip(*points))
+    assert _repeat("%.2f,%.2f", " ", a, b) == " ".join(f"{x:.2f},{y:.2f}" for x, y in points)

@@ -59,10 +59,11 @@ def given(frame: pd.DataFrame, column: str, *, every: bool = False):
     """``frame[column]`` as an array when any value is given (all, with ``every``), else None."""
     if not len(frame):
         return None
-    present = frame[column].notna()
+    values = frame[column].to_numpy(dtype=float)
+    present = ~np.isnan(values)
     if not (present.all() if every else present.any()):
         return None
-    return frame[column].to_numpy(dtype=float)
+    return values
 
 
 @dataclass(frozen=True)

@@ -22,6 +22,7 @@ from dataclasses import dataclass
 from functools import lru_cache
 from pathlib import Path
 
+from .core.limits import MAX_SOURCE_BYTES, MAX_TABLE_BYTES
 from .core.records import CheckResult
 from .release import publish
 
@@ -138,6 +139,8 @@ def listed_entries(raw_dir) -> int:
     n = 0
     for path in Path(raw_dir).glob("*/source.json"):
         try:
+            if path.stat().st_size > MAX_SOURCE_BYTES:
+                continue
             doc = json.loads(path.read_bytes())
             n += len(doc.get("tables", ())) + len(doc.get("coefficient_sets", ()))
         except (OSError, ValueError, AttributeError, TypeError, RecursionError):
@@ -225,11 +228,20 @@ def code_digest() -> str:
     return h.hexdigest()
 
 
-def _file_digest(path: Path) -> str:
+def _file_digest(path: Path, raw: Path) -> str:
+    """What a listed file contributes to a key: its sha256, or what ingest sees instead of
+    content (a link, a folder, nothing, a path outside raw/, a file too large to be read,
+    by its size)."""
     if path.is_symlink():
         return "link:" + os.readlink(path)
+    try:
+        path.resolve().relative_to(raw.resolve())
+    except ValueError:
+        return "outside"
     if path.is_file():
-        return hashlib.sha256(path.read_bytes()).hexdigest()
+        size = path.stat().st_size
+        return f"size:{size}" if size > MAX_TABLE_BYTES else \
+            hashlib.sha256(path.read_bytes()).hexdigest()
     return "dir" if path.is_dir() else "absent"
 
 
@@ -250,15 +262,17 @@ def part_keys(raw_dir, parts: int, settings: dict, previous: dict) -> list:
     for sid, points in sorted(previous.items()):
         own[partition_of(sid.rsplit("(", 1)[0], parts)].update(f"{sid}{points}\n".encode())
     for src in sorted(raw.glob("*/source.json")):
-        shared.update(f"{src.parent.name}\0{_file_digest(src)}\n".encode())
+        shared.update(f"{src.parent.name}\0{_file_digest(src, raw)}\n".encode())
         try:
+            if src.stat().st_size > MAX_SOURCE_BYTES:
+                continue      # refused by ingest: its size is in the key
             doc = json.loads(src.read_bytes())
             for entry in doc.get("coefficient_sets", ()):
-                shared.update(f"{entry['file']}\0{_file_digest(src.parent / entry['file'])}"
+                shared.update(f"{entry['file']}\0{_file_digest(src.parent / entry['file'], raw)}"
                               "\n".encode())
             for entry in doc.get("tables", ()):
                 part = partition_of(str(entry["species"]), parts)
-                own[part].update(f"{entry['file']}\0{_file_digest(src.parent / entry['file'])}"
+                own[part].update(f"{entry['file']}\0{_file_digest(src.parent / entry['file'], raw)}"
                                  "\n".encode())
         except (OSError, ValueError, AttributeError, TypeError, KeyError, RecursionError):
             continue      # such a source.json is refused by ingest; its bytes are in the key

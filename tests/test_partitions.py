@@ -146,3 +146,26 @@ def test_a_bad_worker_count_is_refused_with_a_clear_message(capsys):
             run_cli(capsys, "check", "--raw", RAW, "--workers", bad)
         assert stop.value.code == 2
         assert f"'{bad}' is not a whole number from 0 to 64" in capsys.readouterr().err
+
+
+def test_a_key_never_reads_outside_raw_nor_a_file_ingest_refuses(tmp_path, monkeypatch):
+    """A listed path outside raw/ or a file over the size limit enters the key by what
+    ingest sees of it, never by its content; a change of size still changes the key."""
+    from thermoledger.core import limits
+
+    raw = tmp_path / "raw"
+    shutil.copytree(RAW, raw)
+    src = raw / "isru-rrho-2026" / "source.json"
+    doc = json.loads(src.read_text())
+    doc["tables"][0]["file"] = "../../secret.csv"
+    src.write_text(json.dumps(doc))
+    (tmp_path / "secret.csv").write_text("a")
+    before = partitions.part_keys(raw, 3, {}, {})
+    (tmp_path / "secret.csv").write_text("b")               # not read: the key is the same
+    assert partitions.part_keys(raw, 3, {}, {}) == before
+    monkeypatch.setattr(partitions, "MAX_TABLE_BYTES", 10)
+    big = raw / "isru-rrho-2026" / doc["tables"][1]["file"]
+    small = partitions.part_keys(raw, 3, {}, {})
+    big.write_text(big.read_text().replace("1000,", "1000.0,", 1))   # one byte longer
+    assert partitions.part_keys(raw, 3, {}, {}) != small
+    assert limits.MAX_TABLE_BYTES > 10

@@ -257,7 +257,7 @@ def _build(raw_dir, out_dir, ctx: Settings, progress, previous: dict,
     say = progress or _quiet
     say("read and check", 0, 0, str(raw_dir))
     done, reused = partitions.run(partial(_build_part, raw_dir, ctx, previous,
-                                          say if cut.workers == 1 else _quiet), cut, say, store)
+                                          say if cut.parts == 1 else _quiet), cut, say, store)
     checked, fitted, entries = done.checked, list(done.fitted), dict(done.entries)
     quarantined, findings = list(done.quarantined), list(done.findings)
     digest = ingest.inputs_digest(checked.inputs)

@@ -29,6 +29,8 @@ from .release import publish
 #: below this many listed tables and sets, a build runs in one process (forking workers
 #: costs more than it saves) and in one partition
 PARALLEL_FROM = 400
+#: the progress stage of partitions worked (counted in partitions)
+STAGE = "read, check and fit"
 #: listed tables per partition of a large build, and the most partitions
 PART_SIZE, MAX_PARTS = 256, 1024
 
@@ -187,7 +189,7 @@ def run(work, cut: Plan, say=None, store=None) -> tuple:
     if cut.workers <= 1 or len(todo) <= 1:
         for n, k in enumerate(todo):
             results[k] = work(Part(k, cut.parts))
-            say("partitions", n + 1, len(todo), f"partition {k + 1} of {cut.parts}")
+            say(STAGE, n + 1, len(todo), f"partition {k + 1} of {cut.parts}")
     else:
         from concurrent.futures import ProcessPoolExecutor
 
@@ -199,7 +201,7 @@ def run(work, cut: Plan, say=None, store=None) -> tuple:
             done = pool.map(work, [Part(k, cut.parts) for k in todo])
             for n, (k, result) in enumerate(zip(todo, done)):
                 results[k] = result
-                say("partitions", n + 1, len(todo), f"partition {k + 1} of {cut.parts}")
+                say(STAGE, n + 1, len(todo), f"partition {k + 1} of {cut.parts}")
         except BaseException:
             stop_workers(pool)
             raise

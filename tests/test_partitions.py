@@ -169,3 +169,9 @@ def test_a_key_never_reads_outside_raw_nor_a_file_ingest_refuses(tmp_path, monke
     big.write_text(big.read_text().replace("1000,", "1000.0,", 1))   # one byte longer
     assert partitions.part_keys(raw, 3, {}, {}) != small
     assert limits.MAX_TABLE_BYTES > 10
+
+
+def test_the_progress_counts_partitions_in_partitions():
+    from thermoledger.cli.progress import UNITS
+
+    assert UNITS[partitions.STAGE] == "partitions"

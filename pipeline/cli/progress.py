@@ -4,6 +4,9 @@ with --quiet. A callable ``(stage, i, n, label)`` for build.build."""
 import sys
 import time
 
+#: what a stage counts, when not species
+UNITS = {"read, check and fit": "partitions"}   # partitions.STAGE
+
 
 class Progress:
     """Progress of a build: a bar on a terminal, plain log lines otherwise, nothing when quiet."""
@@ -27,13 +30,14 @@ class Progress:
         if stage != self.stage:
             self.close()
             self.stage = stage
+            unit = UNITS.get(stage, "species")
             if self.tty and n:
                 from tqdm import tqdm
 
-                self.bar = tqdm(total=n, desc=stage, unit="species", file=self.stream,
+                self.bar = tqdm(total=n, desc=stage, unit=unit, file=self.stream,
                                 leave=False, dynamic_ncols=True, mininterval=self.mininterval)
             elif not self.tty:
-                extra = f" ({n} species)" if n else (f": {label}" if label else "")
+                extra = f" ({n} {unit})" if n else (f": {label}" if label else "")
                 print(f"[{time.monotonic() - self.t0:6.1f} s] {stage}{extra}", file=self.stream)
         if self.bar is not None:
             self.bar.set_postfix_str(label, refresh=False)

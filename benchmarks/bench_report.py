@@ -29,7 +29,7 @@ def main(argv=None) -> int:
         ctx = Settings(outputs=OutputSettings(report=False))
         result = build.build(raw, Path(tmp) / "out", ctx, write=False)
         checked = build.examine(raw, ctx)
-        points = plot_points(result.document, checked)
+        points = plot_points(result.document["species"], checked)
         t0 = time.perf_counter()
         files = report.report_files(result.document, points, ctx.fit.accept_cp_max_rel)
         t_report = time.perf_counter() - t0

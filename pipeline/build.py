@@ -10,7 +10,7 @@ from . import fit, ingest, partitions
 from .checks import acknowledge, reconcile, references, registry, transitions
 from .core.errors import FitError, InputError, OutputError
 from .core.findings import ERROR, INFO, by_subject, concerns, finding, stage_failed, subject
-from .core.records import CheckResult, CpData, FittedSpecies, SpeciesIdentity
+from .core.records import CheckResult, CpData, FittedSpecies, SpeciesIdentity, Table
 from .core.settings import Settings, for_table
 from .fit import phases, published
 from .library import document as library
@@ -240,12 +240,32 @@ def _fit_failure(exc, meta):
 
 
 def _build_part(raw_dir, ctx: Settings, previous: dict, say, part) -> partitions.PartResult:
-    """Read, check and fit the species of one partition."""
+    """Read, check and fit the species of one partition, and gather the rows its report
+    plots (also without a report, so that the result does not depend on the outputs asked
+    for); the tables go on without their rows (what follows needs their metadata only)."""
     checked = examine_part(raw_dir, ctx, part)
     fitted, quarantined, findings, entries = _fit_all(checked, ctx, say, previous)
+    points = assemble.plot_points(entries.values(), checked)   # whatever the outputs
+    checked, fitted = _without_rows(checked, fitted)
     return partitions.PartResult(checked=checked, fitted=tuple(fitted),
                                  quarantined=tuple(quarantined), findings=tuple(findings),
-                                 entries=tuple(entries.items()))
+                                 entries=tuple(entries.items()), points=tuple(points.items()))
+
+
+def _without_rows(checked: CheckResult, fitted) -> tuple:
+    """(checked, fitted) with every table and selection emptied of its rows: a large build
+    keeps about 25 KB less per species until its release is written."""
+    bare = {}
+
+    def empty(table):
+        if id(table) not in bare:
+            bare[id(table)] = Table(meta=table.meta, data=table.data.iloc[0:0])
+        return bare[id(table)]
+
+    checked = replace(checked, tables=tuple(empty(t) for t in checked.tables),
+                      selections=tuple(replace(s, primary=empty(s.primary), data=s.data.iloc[0:0])
+                                       for s in checked.selections))
+    return checked, [replace(f, table=empty(f.table)) for f in fitted]
 
 
 def _quiet(stage, i=0, n=0, label=""):
@@ -266,7 +286,8 @@ def _build(raw_dir, out_dir, ctx: Settings, progress, previous: dict,
     findings += formation.attach(doc, checked.references, checked.tables,
                                  ctx.checks.stated_formation_u)
     outcome = assemble.Outcome(document=doc, findings=tuple(findings), fitted=tuple(fitted),
-                               quarantined=tuple(quarantined), checked=checked)
+                               quarantined=tuple(quarantined), checked=checked,
+                               points=dict(done.points))
     files = assemble.release_files(outcome, ctx, say)
     say("publish", 0, 0, str(out_dir or ""))
     written = [] if out_dir is None else publish.publish(

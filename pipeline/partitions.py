@@ -66,6 +66,7 @@ class PartResult:
     quarantined: tuple = ()   # (TableMeta, findings), after fitting
     findings: tuple = ()      # every finding, after fitting
     entries: tuple = ()       # (species id, library entry)
+    points: tuple = ()        # (species id, report plot points), when there is a report
 
 
 def _table_key(table):
@@ -132,7 +133,8 @@ def merge(parts) -> PartResult:
                                  key=_quarantine_order)),
         findings=tuple(sorted(_unique(f for p in parts for f in p.findings),
                               key=_finding_order)),
-        entries=tuple(sorted((e for p in parts for e in p.entries), key=lambda e: e[0])))
+        entries=tuple(sorted((e for p in parts for e in p.entries), key=lambda e: e[0])),
+        points=tuple(sorted((e for p in parts for e in p.points), key=lambda e: e[0])))
 
 
 def listed_entries(raw_dir) -> int:
@@ -249,7 +251,8 @@ def _file_digest(path: Path, raw: Path) -> str:
 
 def part_keys(raw_dir, parts: int, settings: dict, previous: dict) -> list:
     """The key of each partition: a sha256 of everything its result depends on. Shared by
-    all: the code and the versions of the numerical libraries, the settings, every path
+    all: the code and the versions of the numerical libraries, the settings (but the
+    outputs asked for, which only the release reads), every path
     under ``raw_dir`` (unlisted files are
     findings), every source.json and coefficient-set file; its own: the tables its species
     names list and the breakpoints ``previous`` offers them."""
@@ -258,7 +261,8 @@ def part_keys(raw_dir, parts: int, settings: dict, previous: dict) -> list:
     raw = Path(raw_dir)
     shared = hashlib.sha256(f"{STORE_FORMAT}\0{code_digest()}\0".encode())
     shared.update(json.dumps(dependency_versions(), sort_keys=True).encode())
-    shared.update(json.dumps(settings, sort_keys=True, default=str).encode())
+    shared.update(json.dumps({k: v for k, v in settings.items() if k != "outputs"},
+                             sort_keys=True, default=str).encode())   # outputs: release only
     shared.update("\n".join(sorted(str(p.relative_to(raw)) for p in raw.rglob("*"))).encode())
     own = [hashlib.sha256() for _ in range(parts)]
     for sid, points in sorted(previous.items()):

@@ -175,3 +175,20 @@ def test_the_progress_counts_partitions_in_partitions():
     from thermoledger.cli.progress import UNITS
 
     assert UNITS[partitions.STAGE] == "partitions"
+
+
+def test_partitions_kept_without_the_report_serve_a_build_with_it(tmp_path):
+    """The kept partitions do not depend on the outputs asked for: after --no-report builds,
+    a build with the report reuses them and writes the report a full build writes."""
+    from thermoledger.core.settings import OutputSettings, Settings
+
+    raw, out = tmp_path / "raw", tmp_path / "out"
+    shutil.copytree(RAW, raw)
+    bare = Settings(outputs=OutputSettings(report=False))
+    for _ in range(2):
+        build.build(raw, out, bare, parts=2)
+    shutil.copytree(out, tmp_path / "full", symlinks=True)
+    assert build.build(raw, out, parts=2).reused == (2, 2)
+    assert build.build(raw, tmp_path / "full", parts=2, fresh=True).reused == (0, 2)
+    assert tree_hashes(out) == tree_hashes(tmp_path / "full")
+    assert any(name.startswith("report/img/") for name in tree_hashes(out))

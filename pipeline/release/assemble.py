@@ -22,7 +22,8 @@ class Outcome:
     findings: tuple        # every finding of the build
     fitted: tuple          # FittedSpecies
     quarantined: tuple     # (TableMeta, findings)
-    checked: CheckResult   # what was read and checked
+    checked: CheckResult   # what was read and checked (tables without their rows)
+    points: dict = None    # {species id: plot_points of it}, for the report
 
 
 def release_files(outcome: Outcome, ctx: Settings, say=None) -> dict:
@@ -41,8 +42,8 @@ def release_files(outcome: Outcome, ctx: Settings, say=None) -> dict:
     if out.tables_csv:
         files.update(tables.csv_files(doc, out.table_step))
     if out.report:
-        files.update(report.report_files(doc, plot_points(doc, checked),
-                                         ctx.fit.accept_cp_max_rel, say=say))
+        files.update(report.report_files(doc, outcome.points, ctx.fit.accept_cp_max_rel,
+                                         say=say))
     say("write provenance", 0, 0, "provenance.json, manifest.json")
     files["provenance.json"] = document.json_bytes(
         provenance.prov_document(outcome.fitted, checked.inputs, sorted(files.items())))
@@ -57,16 +58,17 @@ def release_files(outcome: Outcome, ctx: Settings, say=None) -> dict:
     return files
 
 
-def plot_points(doc: dict, checked: CheckResult) -> dict:
-    """Per species: the rows used [K, J/(mol K)] and left out, and the deviations of the fit
-    from the table's H-H298 [J/mol] and S [J/(mol K)] columns, for the report's plots."""
+def plot_points(species, checked: CheckResult) -> dict:
+    """Per species entry of ``species``: the rows used [K, J/(mol K)] and left out, and the
+    deviations of the fit from the table's H-H298 [J/mol] and S [J/(mol K)] columns, for
+    the report's plots (computed where the rows are: in the species' partition)."""
     by_sel = {s.species_id: s for s in checked.selections}
     rows_of = {}
     for t in checked.tables:               # the phases of one file together
         rows_of[t.meta.file] = pd.concat([rows_of[t.meta.file], t.data]) \
             if t.meta.file in rows_of else t.data
     out = {}
-    for sp in doc["species"]:
+    for sp in species:
         d = by_sel[sp["id"]].data
         p = {"t": d["T"].to_numpy(), "cp": d["Cp"].to_numpy()}
         t_out, cp_out = [], []

@@ -23,6 +23,8 @@ from functools import lru_cache
 from pathlib import Path
 
 from .core.limits import MAX_SOURCE_BYTES, MAX_TABLE_BYTES
+from .core.names import species_name
+from .core.processes import worker_pool
 from .core.records import CheckResult
 from .release import publish
 
@@ -35,6 +37,7 @@ STAGE = "read, check and fit"
 PART_SIZE, MAX_PARTS = 256, 1024
 
 
+@lru_cache(maxsize=1 << 17)
 def partition_of(name: str, parts: int) -> int:
     """The partition (0 .. parts-1) of species name ``name``: a hash, the same in every
     process and on every machine."""
@@ -97,13 +100,23 @@ def _quarantine_order(q):
     return (meta.file, meta.species_id, tuple(_finding_order(f) for f in reasons))
 
 
+def _merged_findings(groups) -> tuple:
+    """The findings of all ``groups``, each once, in the canonical order."""
+    return tuple(sorted(_unique(f for g in groups for f in g), key=_finding_order))
+
+
+def _merged_quarantined(groups) -> tuple:
+    """The (TableMeta, findings) of all ``groups`` in the canonical order."""
+    return tuple(sorted((q for g in groups for q in g), key=_quarantine_order))
+
+
 def merge_checks(parts) -> CheckResult:
     """One CheckResult of the partitions' ``parts``, in the canonical order: tables by
     source folder and position in source.json, findings by their sort key, quarantined and
     held-back inputs by file, selections and chains by species."""
     first = parts[0]
     tables = sorted((t for p in parts for t in p.tables), key=_table_key)
-    findings = sorted(_unique(f for p in parts for f in p.findings), key=_finding_order)
+    findings = _merged_findings(p.findings for p in parts)
     inputs = sorted(_unique((f for p in parts for f in p.inputs), key=lambda f: f.path),
                     key=lambda f: f.path)
     held = {}
@@ -114,8 +127,7 @@ def merge_checks(parts) -> CheckResult:
         tables=tuple(tables), findings=tuple(findings), inputs=tuple(inputs),
         selections=tuple(sorted((s for p in parts for s in p.selections),
                                 key=lambda s: s.species_id)),
-        quarantined=tuple(sorted((q for p in parts for q in p.quarantined),
-                                 key=_quarantine_order)),
+        quarantined=_merged_quarantined(p.quarantined for p in parts),
         held_back=tuple((k, tuple(sorted(_unique(v), key=_finding_order)))
                         for k, v in sorted(held.items())),
         chains=tuple(sorted((c for p in parts for c in p.chains), key=lambda c: c.species)),
@@ -129,10 +141,8 @@ def merge(parts) -> PartResult:
         checked=merge_checks([p.checked for p in parts]),
         fitted=tuple(sorted((s for p in parts for s in p.fitted),
                             key=lambda s: s.table.meta.species_id)),
-        quarantined=tuple(sorted((q for p in parts for q in p.quarantined),
-                                 key=_quarantine_order)),
-        findings=tuple(sorted(_unique(f for p in parts for f in p.findings),
-                              key=_finding_order)),
+        quarantined=_merged_quarantined(p.quarantined for p in parts),
+        findings=_merged_findings(p.findings for p in parts),
         entries=tuple(sorted((e for p in parts for e in p.entries), key=lambda e: e[0])),
         points=tuple(sorted((e for p in parts for e in p.points), key=lambda e: e[0])))
 
@@ -193,21 +203,11 @@ def run(work, cut: Plan, say=None, store=None) -> tuple:
             results[k] = work(Part(k, cut.parts))
             say(STAGE, n + 1, len(todo), f"partition {k + 1} of {cut.parts}")
     else:
-        from concurrent.futures import ProcessPoolExecutor
-
-        from .release.report import stop_workers, workers_die_with_parent
-
-        pool = ProcessPoolExecutor(min(cut.workers, len(todo)),
-                                   initializer=workers_die_with_parent, initargs=(os.getpid(),))
-        try:
+        with worker_pool(min(cut.workers, len(todo))) as pool:
             done = pool.map(work, [Part(k, cut.parts) for k in todo])
             for n, (k, result) in enumerate(zip(todo, done)):
                 results[k] = result
                 say(STAGE, n + 1, len(todo), f"partition {k + 1} of {cut.parts}")
-        except BaseException:
-            stop_workers(pool)
-            raise
-        pool.shutdown()
     if store:
         for k in todo:
             store.save(k, results[k])
@@ -266,7 +266,7 @@ def part_keys(raw_dir, parts: int, settings: dict, previous: dict) -> list:
     shared.update("\n".join(sorted(str(p.relative_to(raw)) for p in raw.rglob("*"))).encode())
     own = [hashlib.sha256() for _ in range(parts)]
     for sid, points in sorted(previous.items()):
-        own[partition_of(sid.rsplit("(", 1)[0], parts)].update(f"{sid}{points}\n".encode())
+        own[partition_of(species_name(sid), parts)].update(f"{sid}{points}\n".encode())
     for src in sorted(raw.glob("*/source.json")):
         shared.update(f"{src.parent.name}\0{_file_digest(src, raw)}\n".encode())
         try:

@@ -9,6 +9,7 @@ import sys
 from pathlib import Path
 
 from thermoledger import build, partitions
+from thermoledger.core.names import species_name
 from thermoledger.ingest import sources
 
 from .conftest import run_cli, tree_hashes
@@ -28,8 +29,8 @@ def test_every_table_lies_in_exactly_one_partition_and_phases_stay_together():
         assert set().union(*parts) == whole
         assert sum(len(p) for p in parts) == len(whole)       # disjoint
         for p in parts:        # the phases of a species name share a partition
-            names = {sid.rsplit("(", 1)[0] for _, sid in p}
-            assert not names & {sid.rsplit("(", 1)[0] for q in parts if q is not p
+            names = {species_name(sid) for _, sid in p}
+            assert not names & {species_name(sid) for q in parts if q is not p
                                 for _, sid in q}
 
 

@@ -1,4 +1,4 @@
-"""Content hashes and the file names derived from species ids (one home for both)."""
+"""Content hashes, and the names and file names derived from species ids (one home for all)."""
 
 import hashlib
 import re
@@ -19,6 +19,12 @@ def safe_name(text: str) -> str:
     name = re.sub(r"[^A-Za-z0-9._-]+", "_", text)
     name = re.sub(r"\.{2,}", "_", name).strip("._-")
     return name[:80] or "species"
+
+
+def species_name(species_id: str) -> str:
+    """The species name of a species id: 'Ti(cr-alpha)' -> 'Ti' (the text before the last
+    parenthesis, so that 'Ca(OH)2(cr)' -> 'Ca(OH)2')."""
+    return species_id.rsplit("(", 1)[0]
 
 
 def file_stem(species_id: str) -> str:

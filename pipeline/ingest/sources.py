@@ -14,7 +14,7 @@ from ..core import chemistry, jsonread, phases, schemas, units
 from ..core.errors import InputError
 from ..core.findings import Finding, clip, finding, stage_failed
 from ..core.limits import ANCHOR_RANGE, MAX_SOURCE_BYTES, MAX_TABLE_BYTES, MAX_TABLES_PER_SOURCE
-from ..core.names import sha256
+from ..core.names import sha256, species_name
 from ..core.records import InputFile, SourceMeta, Table, TableMeta, Transition
 from . import coefsets, csvtable, dialect, phased
 
@@ -353,7 +353,7 @@ def ingest(raw_dir, part=None) -> IngestResult:
                                                        reader)
                 if reader is read_sets:       # a set file holds the sets of many species
                     read = [t for t in read if owns(t.meta.species)]
-                    problems = [f for f in problems if not _species_name(f) or owns(_species_name(f))]
+                    problems = [f for f in problems if _owned(f, owns)]
                 findings += problems
                 if infile:
                     inputs.append(infile)
@@ -377,11 +377,11 @@ def _parsed_source(text: str, file: str, folder: str, digest: str):
     return parse_source(text, file=file, folder=folder, digest=digest)
 
 
-def _species_name(f) -> str:
-    """The species name a finding of a set file is about ('' for the file as a whole: every
-    part keeps those)."""
-    sid = f.extra.get("species") or ""
-    return sid.rsplit("(", 1)[0] if sid else ""
+def _owned(f, owns) -> bool:
+    """True when a finding of a set file is about a species ``owns`` names, or about the
+    file as a whole (every part keeps those)."""
+    sid = f.extra.get("species")
+    return not sid or owns(species_name(sid))
 
 
 def inputs_digest(inputs) -> str:

@@ -10,6 +10,7 @@ from ..core import jsonread, schemas
 from ..core.constants import REFERENCE_TEMPERATURE
 from ..core.errors import InputError, SpeciesNotFound
 from ..core.limits import MAX_LIBRARY_BYTES
+from ..core.names import species_name
 from ..physics import forms
 from . import budget
 
@@ -65,8 +66,8 @@ def resolve_id(ids, name: str, phase: str | None = None) -> str:
         return name
     folded = name.casefold()
     for match in ((lambda i: i.casefold() == folded),
-                  (lambda i: i.rsplit("(", 1)[0] == name),
-                  (lambda i: i.rsplit("(", 1)[0].casefold() == folded)):
+                  (lambda i: species_name(i) == name),
+                  (lambda i: species_name(i).casefold() == folded)):
         hits = sorted(i for i in ids if match(i))
         if len(hits) == 1:
             return hits[0]
@@ -140,7 +141,7 @@ def _close(name: str, ids) -> tuple:
     keys = {}
     for i in sorted(ids):
         keys.setdefault(i.casefold(), i)
-        keys.setdefault(i.rsplit("(", 1)[0].casefold(), i)
+        keys.setdefault(species_name(i).casefold(), i)
     hits = difflib.get_close_matches(name.casefold(), list(keys), n=6, cutoff=0.5)
     return tuple(dict.fromkeys(keys[h] for h in hits))[:3]
 

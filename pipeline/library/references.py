@@ -10,6 +10,7 @@ with no ids and the reason, and species containing it get no formation propertie
 from ..core import chemistry
 from ..core.elements import default_reference
 from ..core.limits import REFERENCE_H_TOLERANCE
+from ..core.names import species_name
 from . import document
 
 
@@ -48,7 +49,7 @@ def _ids(doc, by_id, el, name) -> tuple:
     if name.endswith(")") and "(" in name:
         ids = [name] if name in by_id else []
     else:
-        ids = sorted(i for i in by_id if i.rsplit("(", 1)[0] == name)
+        ids = sorted(i for i in by_id if species_name(i) == name)
         if len(ids) > 1:
             links, chain = document.chain(doc.get("transitions", []), name)
             if not set(ids) <= set(chain):

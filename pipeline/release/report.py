@@ -13,6 +13,7 @@ import numpy as np
 
 from ..checks.coefsets import steps
 from ..core.names import file_stem
+from ..core.processes import worker_pool
 from ..core.records import PublishedSet
 from ..physics import forms
 from . import plots
@@ -401,11 +402,7 @@ def report_files(doc, points, accept, workers=None, say=None) -> dict:
             say("write report", done, len(species), sp["id"])
 
     if workers > 1 and len(species) > 60:
-        from concurrent.futures import ProcessPoolExecutor
-
-        pool = ProcessPoolExecutor(workers, initializer=workers_die_with_parent,
-                                   initargs=(os.getpid(),))
-        try:
+        with worker_pool(workers) as pool:   # an interrupted build waits for no worker
             parts = pool.map(_species_files, chunks,
                              [{s["id"]: points.get(s["id"], {}) for s in c} for c in chunks],
                              [accept] * len(chunks), [transitions] * len(chunks),
@@ -413,10 +410,6 @@ def report_files(doc, points, accept, workers=None, say=None) -> dict:
             for chunk, part in zip(chunks, parts):
                 files.update(part)
                 tick(chunk)
-        except BaseException:
-            stop_workers(pool)  # an interrupted build waits for no worker
-            raise
-        pool.shutdown()
     else:
         for chunk in chunks:
             files.update(_species_files(chunk, points, accept, transitions, formed))
@@ -432,30 +425,6 @@ def report_files(doc, points, accept, workers=None, say=None) -> dict:
     files["report/img/overview-sources.svg"] = bars
     files["report/index.html"] = index_page(doc)
     return dict(sorted(files.items()))
-
-
-def workers_die_with_parent(parent_pid: int) -> None:
-    """Initializer of a worker process: it is killed when its parent dies (Linux
-    PR_SET_PDEATHSIG), leaves Ctrl-C to the parent, and exits at once if the parent is
-    already gone."""
-    import ctypes
-    import os
-    import signal
-
-    signal.signal(signal.SIGINT, signal.SIG_IGN)
-    try:
-        ctypes.CDLL(None, use_errno=True).prctl(1, int(signal.SIGKILL))  # 1 = PR_SET_PDEATHSIG
-    except (OSError, AttributeError):
-        pass  # not Linux: the parent's interrupt handler still stops the workers
-    if os.getppid() != parent_pid:
-        os._exit(1)
-
-
-def stop_workers(pool) -> None:
-    """Kill the processes of ``pool`` and release it without waiting for their work."""
-    for proc in list(getattr(pool, "_processes", {}).values()):
-        proc.kill()
-    pool.shutdown(wait=False, cancel_futures=True)
 
 
 def _species_files(species, points, accept, transitions=(), formed=None) -> dict:

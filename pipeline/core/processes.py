@@ -1,0 +1,44 @@
+"""Worker processes of the stages that fan out (species partitions, report pages): they die
+with their parent, leave Ctrl-C to it, and are killed, not waited for, when it stops."""
+
+import os
+from contextlib import contextmanager
+
+
+def workers_die_with_parent(parent_pid: int) -> None:
+    """Initializer of a worker process: it is killed when its parent dies (Linux
+    PR_SET_PDEATHSIG), leaves Ctrl-C to the parent, and exits at once if the parent is
+    already gone."""
+    import ctypes
+    import signal
+
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    try:
+        ctypes.CDLL(None, use_errno=True).prctl(1, int(signal.SIGKILL))  # 1 = PR_SET_PDEATHSIG
+    except (OSError, AttributeError):
+        pass  # not Linux: the parent's interrupt handler still stops the workers
+    if os.getppid() != parent_pid:
+        os._exit(1)
+
+
+def stop_workers(pool) -> None:
+    """Kill the processes of ``pool`` and release it without waiting for their work."""
+    for proc in list(getattr(pool, "_processes", {}).values()):
+        proc.kill()
+    pool.shutdown(wait=False, cancel_futures=True)
+
+
+@contextmanager
+def worker_pool(count: int):
+    """A ProcessPoolExecutor of ``count`` workers that die with this process; whatever
+    stops the block (an error, an interrupt) kills them instead of waiting for them."""
+    from concurrent.futures import ProcessPoolExecutor
+
+    pool = ProcessPoolExecutor(count, initializer=workers_die_with_parent,
+                               initargs=(os.getpid(),))
+    try:
+        yield pool
+    except BaseException:
+        stop_workers(pool)
+        raise
+    pool.shutdown()

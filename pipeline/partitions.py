@@ -57,8 +57,6 @@ class Part:
         return partition_of(name, self.count) == self.index
 
 
-WHOLE = Part()
-
 
 @dataclass(frozen=True)
 class PartResult:

@@ -87,21 +87,20 @@ class Panel:
             self.parts.append(f"<polyline points=\"{pts}\" fill=\"none\" stroke=\"{colour}\" "
                               f"stroke-width=\"{width}\"{style}/>")
 
-    def _finite_points(self, x, y):
-        """(px, py) of every point of (x, y) whose pixel coordinates are finite."""
-        for a, b in zip(self.px(x), self.py(y)):
-            if math.isfinite(a) and math.isfinite(b):
-                yield a, b
-
-    def dots(self, x, y, colour, radius=2.2) -> None:
+    def _finite(self, x, y) -> tuple:
+        """(px, py) of the points of (x, y) whose pixel coordinates are finite."""
         px, py = self.px(x), self.py(y)
         ok = np.isfinite(px) & np.isfinite(py)
-        if ok.any():
+        return px[ok], py[ok]
+
+    def dots(self, x, y, colour, radius=2.2) -> None:
+        px, py = self._finite(x, y)
+        if len(px):
             self.parts.append(_repeat(f"<circle cx=\"%.2f\" cy=\"%.2f\" r=\"{radius}\" "
-                                      f"fill=\"{colour}\"/>", "", px[ok], py[ok]))
+                                      f"fill=\"{colour}\"/>", "", px, py))
 
     def crosses(self, x, y, colour, size=3.5) -> None:
-        for a, b in self._finite_points(x, y):
+        for a, b in zip(*self._finite(x, y)):
             self.parts.append(f"<path d=\"M{a - size:.2f},{b - size:.2f}L{a + size:.2f},"
                               f"{b + size:.2f}M{a - size:.2f},{b + size:.2f}L{a + size:.2f},"
                               f"{b - size:.2f}\" stroke=\"{colour}\" stroke-width=\"1.3\"/>")

@@ -231,10 +231,13 @@ def _wait_for(predicate, limit=120.0):
 
 @pytest.mark.skipif(not Path("/proc/self/environ").exists(), reason="needs /proc")
 def test_workers_never_outlive_a_killed_build(tmp_path):
-    raw = small_raw(tmp_path / "raw", first=[f"S{i:02d}" for i in range(64)])  # > 60: workers
+    raw = small_raw(tmp_path / "raw", first=[f"S{i:02d}" for i in range(64)])
     tag = f"THERMOLEDGER_TEST_TAG={uuid.uuid4().hex}"
     key, value = tag.split("=")
-    p = _cli("build", "--raw", raw, "--out", tmp_path / "out", env_extra={key: value})
+    # two partition workers, each busy for seconds (extrapolation costs ~0.1 s a species),
+    # so that the workers are seen alive however fast the rest of the build is
+    p = _cli("build", "--raw", raw, "--out", tmp_path / "out", "--workers", "2",
+             "--range-of-use", "200", "6000", env_extra={key: value})
     assert _wait_for(lambda: len(_processes_tagged(tag)) >= 2), "no worker was started"
     p.send_signal(signal.SIGKILL)
     p.wait(60)

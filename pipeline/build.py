@@ -99,7 +99,7 @@ def fit_selection(sel, ctx: Settings, previous=None, who=None):
     ``previous`` its breakpoints in the previous release (offered to the search); ``who``
     its identity and anchors (by default those of its preferred table)."""
     meta = sel.primary.meta
-    return fit.fit_species(who or SpeciesIdentity.of_table(meta), CpData.of_frame(sel.data),
+    return fit.fit_species(who or SpeciesIdentity.of_table(meta), CpData.of_rows(sel.data),
                            for_table(ctx.fit, meta.fit_overrides), previous)
 
 
@@ -193,8 +193,7 @@ def _fit_all(checked: CheckResult, ctx: Settings, say, previous: dict):
                 result = fit_selection(sel, ctx, previous.get(sel.species_id), who)
             notes = [finding(code, msg, **meta.where) for code, msg in result.notes]
             notes = [f.about_species(sel.species_id) for f in notes] if meta.shared else notes
-            rows = tuple(sorted(zip(sel.data["file"].tolist(),
-                                    (int(x) for x in sel.data["line"]))))
+            rows = tuple(sorted(zip(sel.data["file"].tolist(), sel.data["line"].tolist())))
             for f in notes:
                 about.setdefault(meta.file, []).append(f)
         except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
@@ -259,11 +258,11 @@ def _without_rows(checked: CheckResult, fitted) -> tuple:
 
     def empty(table):
         if id(table) not in bare:
-            bare[id(table)] = Table(meta=table.meta, data=table.data.iloc[0:0])
+            bare[id(table)] = Table(meta=table.meta, data=table.data.head(0))
         return bare[id(table)]
 
     checked = replace(checked, tables=tuple(empty(t) for t in checked.tables),
-                      selections=tuple(replace(s, primary=empty(s.primary), data=s.data.iloc[0:0])
+                      selections=tuple(replace(s, primary=empty(s.primary), data=s.data.head(0))
                                        for s in checked.selections))
     return checked, [replace(f, table=empty(f.table)) for f in fitted]
 

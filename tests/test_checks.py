@@ -231,7 +231,7 @@ def test_sources_disagree_and_merge_by_priority():
     top = float(t[t <= 1500].max())
     assert used["lab-a/co2.csv"][2] == top
     assert used["lab-b/co2.csv"][1] > top  # only rows outside the preferred range
-    assert sorted(sel.data["file"].unique()) == ["lab-a/co2.csv", "lab-b/co2.csv"]
+    assert sorted(set(sel.data["file"].tolist())) == ["lab-a/co2.csv", "lab-b/co2.csv"]
 
 
 def test_sources_differing_by_a_factor():

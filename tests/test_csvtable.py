@@ -73,7 +73,7 @@ def test_missing_cp_column():
 def test_an_enthalpy_increment_table_needs_no_cp_column():
     p = parse("T [K],H-H298 [kJ/mol]\n300,0.05\n400,2.5\n")
     assert codes(p) == []
-    assert p.data["Cp"].isna().all() and list(p.data["dH"]) == [50.0, 2500.0]
+    assert np.isnan(p.data["Cp"]).all() and list(p.data["dH"]) == [50.0, 2500.0]
 
 
 def test_unknown_unit():

@@ -1,9 +1,9 @@
 """Structural checks on clean tables: each defect gives its code and row."""
 
 import numpy as np
-import pandas as pd
 from thermoledger.checks import registry as validate
 from thermoledger.core.records import SourceMeta, Table, TableMeta
+from thermoledger.core.rows import Rows
 from thermoledger.core.settings import Settings
 
 SRC = SourceMeta(id="s", folder="s", title="t", citation="c", method="other", license="l",
@@ -12,12 +12,12 @@ SRC = SourceMeta(id="s", folder="s", title="t", citation="c", method="other", li
 
 def table(t, cp, u=None):
     n = len(t)
-    data = pd.DataFrame({"line": np.arange(2, n + 2), "T": np.asarray(t, float),
-                         "Cp": np.asarray(cp, float),
-                         "u_Cp": np.full(n, np.nan) if u is None else np.asarray(u, float),
-                         "dH": np.full(n, np.nan), "S": np.full(n, np.nan),
-                         "u_dH": np.full(n, np.nan), "u_S": np.full(n, np.nan),
-                         "gef": np.full(n, np.nan)})
+    data = Rows({"line": np.arange(2, n + 2), "T": np.asarray(t, float),
+                 "Cp": np.asarray(cp, float),
+                 "u_Cp": np.full(n, np.nan) if u is None else np.asarray(u, float),
+                 "dH": np.full(n, np.nan), "S": np.full(n, np.nan),
+                 "u_dH": np.full(n, np.nan), "u_S": np.full(n, np.nan),
+                 "gef": np.full(n, np.nan)})
     meta = TableMeta(source=SRC, file="s/x.csv", species="X", formula="N2", phase="g",
                      geometry="linear", molar_mass=28.0, atoms=2, enthalpy_of_formation_298=0.0,
                      entropy_298=190.0, sha256="0" * 64, size=1)

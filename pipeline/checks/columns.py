@@ -46,9 +46,9 @@ def check_columns(table, ctx):
     integrals of its Cp, and their values at 298.15 K against zero and entropy_298."""
     data = table.data
     # an increment table's Cp is the derivative of its H - H298 (ingest/increments.py)
-    has_h = data["dH"].notna().sum() >= 2 and "Cp" not in table.meta.derived
-    has_s = data["S"].notna().sum() >= 2
-    has_g = data["gef"].notna().sum() >= 2
+    has_h = data.given("dH").sum() >= 2 and "Cp" not in table.meta.derived
+    has_s = data.given("S").sum() >= 2
+    has_g = data.given("gef").sum() >= 2
     if not (has_h or has_s or has_g):
         return []
     d = table.valid

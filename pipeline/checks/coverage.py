@@ -27,7 +27,7 @@ def check_range_of_use(table, ctx):
     """COV-EXTRAPOLATED findings: a range of use [K] of the table's fit settings that reaches
     beyond its data."""
     f = for_table(ctx.fit, table.meta.fit_overrides)
-    t = table.data["T"].to_numpy()
+    t = table.data["T"]
     t = t[np.isfinite(t) & (t > 0)]
     if not len(t):
         return []

@@ -92,9 +92,9 @@ def check_gas_bounds(table, ctx):
     if meta.phase != "g" or not meta.geometry or not meta.atoms:
         return []
     data = table.data
-    ok = np.isfinite(data["Cp"].to_numpy()) & (data["Cp"].to_numpy() > 0)
-    cp = data["Cp"].to_numpy()[ok]
-    lines = data["line"].to_numpy()[ok]
+    ok = np.isfinite(data["Cp"]) & (data["Cp"] > 0)
+    cp = data["Cp"][ok]
+    lines = data["line"][ok]
     if not len(cp):
         return []
     hit = whole_table_factor(cp, meta.geometry, meta.atoms, meta.molar_mass, settings)
@@ -136,7 +136,7 @@ def check_gas_bounds(table, ctx):
         what = (f"monatomic gas above 5/2 R by more than {settings.monatomic_excess:g} R "
                 "(electronic states rarely add that much)")
     else:
-        top = bounds.cp_ceiling(meta.geometry, meta.atoms, data["T"].to_numpy()[ok])
+        top = bounds.cp_ceiling(meta.geometry, meta.atoms, data["T"][ok])
         what = ("above the classical rigid-rotor/harmonic-oscillator limit Cp(inf) = "
                 f"{bounds.cp_infinity(meta.geometry, meta.atoms):.4g} J/(mol*K) by more than "
                 "anharmonicity and an excited electronic level can add at that temperature")
@@ -164,7 +164,7 @@ def check_condensed_bounds(table, ctx):
     except InputError:
         return []
     data = table.data
-    t, cp, lines = (data[c].to_numpy() for c in ("T", "Cp", "line"))
+    t, cp, lines = (data[c] for c in ("T", "Cp", "line"))
     ok = np.isfinite(cp) & (cp > 0) & np.isfinite(t)
     warm = ok & (t >= bounds.CONDENSED_BAND_FROM)
     if warm.any():

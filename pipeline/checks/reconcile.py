@@ -22,11 +22,11 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-import pandas as pd
 from scipy.interpolate import PchipInterpolator
 
 from ..core.findings import by_subject, finding, stage_failed
 from ..core.records import first_of_each_t
+from ..core.rows import Rows, concat
 from .physical import factor_candidates
 from .smoothness import EXCLUDING
 
@@ -51,7 +51,7 @@ class Selection:
 
     species_id: str
     primary: object       # the preferred Table: metadata and anchors come from it
-    data: pd.DataFrame    # rows to fit: the documented columns plus 'file'
+    data: Rows            # rows to fit: the documented columns plus 'file'
     uses: tuple           # SourceUse per table considered, preferred first
     excluded: tuple       # (file, line, code) of rows left out
     findings: tuple       # findings that travel with the species
@@ -237,15 +237,14 @@ def _select(sid, tables, about, ctx):
     for table in keep:
         ex = excluded_lines(table, about.get(table.meta.file, ()))
         excluded += [(table.meta.file, ln, code) for ln, code in sorted(ex)]
-        t, cp = table.data["T"].to_numpy(), table.data["Cp"].to_numpy()
+        t, cp = table.data["T"], table.data["Cp"]
         keep_row = np.isfinite(t) & np.isfinite(cp)
         if ex:
-            keep_row &= ~np.isin(table.data["line"].to_numpy(), [ln for ln, _ in ex])
+            keep_row &= ~np.isin(table.data["line"], [ln for ln, _ in ex])
         if covered is not None:
             keep_row &= (t < covered[0]) | (t > covered[1])
         if keep_row.any():
-            d = table.data.iloc[np.flatnonzero(keep_row)]
-            d = d.assign(file=table.meta.file)
+            d = table.data.take(keep_row).with_columns(file=table.meta.file)
             rows.append(d)
             lo, hi = float(t[keep_row].min()), float(t[keep_row].max())
             covered = (lo, hi) if covered is None else (min(covered[0], lo),
@@ -267,11 +266,10 @@ def _select(sid, tables, about, ctx):
                                      f"range (priority {table.meta.source.priority})",
                                      **table.meta.where))
     if rows:
-        data = pd.concat(rows, ignore_index=True) if len(rows) > 1 else \
-            rows[0].reset_index(drop=True)
-        data = data.iloc[np.argsort(data["T"].to_numpy(), kind="stable")]
+        data = concat(rows) if len(rows) > 1 else rows[0]
+        data = data.take(np.argsort(data["T"], kind="stable"))
     else:
-        data = primary.data.assign(file=primary.meta.file).iloc[0:0]
+        data = primary.data.head(0).with_columns(file=np.empty(0, dtype=str))
     shared = {t.meta.file for t in tables if t.meta.shared}   # files of several species
     notes, new = ([f.about_species(sid) if f.file in shared else f for f in x]
                   for x in (notes, new))

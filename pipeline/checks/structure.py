@@ -23,7 +23,7 @@ def _rows_where(table: Table, mask: np.ndarray, code: str, what: str, column: st
 
 def check_temperature_positive(table: Table, ctx: Settings):
     """T-NOT-POSITIVE findings: rows whose T [K] is not above zero."""
-    t = table.data["T"].to_numpy()
+    t = table.data["T"]
     mask = ~(t > 0) & ~np.isnan(t)
     return _rows_where(table, mask, "T-NOT-POSITIVE", "T = {v:.6g} K is not above 0 K", "T",
                        "T > 0 K", t)
@@ -31,7 +31,7 @@ def check_temperature_positive(table: Table, ctx: Settings):
 
 def check_cp_positive(table: Table, ctx: Settings):
     """CP-NOT-POSITIVE findings: rows whose Cp [J/(mol K)] is not above zero."""
-    cp = table.data["Cp"].to_numpy()
+    cp = table.data["Cp"]
     mask = ~(cp > 0) & ~np.isnan(cp)
     return _rows_where(table, mask, "CP-NOT-POSITIVE", "Cp = {v:.6g} J/(mol*K) is not above zero",
                        "Cp", "Cp > 0", cp)
@@ -39,7 +39,7 @@ def check_cp_positive(table: Table, ctx: Settings):
 
 def check_uncertainty_positive(table: Table, ctx: Settings):
     """UCP-NOT-POSITIVE findings: rows whose u(Cp) [J/(mol K)] is not above zero."""
-    u = table.data["u_Cp"].to_numpy()
+    u = table.data["u_Cp"]
     mask = ~(u > 0) & ~np.isnan(u)
     return _rows_where(table, mask, "UCP-NOT-POSITIVE", "u(Cp) = {v:.6g} J/(mol*K) is not above "
                        "zero", "u(Cp)", "u(Cp) > 0", u)
@@ -48,10 +48,10 @@ def check_uncertainty_positive(table: Table, ctx: Settings):
 def check_duplicate_temperatures(table: Table, ctx: Settings):
     """T-DUPLICATE findings: temperatures [K] that appear more than once."""
     data = table.data
-    t = data["T"].to_numpy()
+    t = data["T"]
     out = []
     order = np.argsort(t, kind="stable")
-    ts, lines = t[order], data["line"].to_numpy()[order]
+    ts, lines = t[order], data["line"][order]
     # the same temperature to 1e-9 K after conversion counts as repeated
     same = np.abs(np.diff(ts)) <= 1e-9 * np.maximum(1.0, np.abs(ts[1:]))
     for i in np.nonzero(same)[0]:
@@ -84,7 +84,7 @@ def check_fit_settings(table: Table, ctx: Settings):
     if not over:
         return []
     fit = for_table(ctx.fit, meta.fit_overrides)
-    t = table.data["T"].to_numpy()
+    t = table.data["T"]
     t = t[np.isfinite(t) & (t > 0)]
     where = dict(source=meta.source.id, file=f"{meta.source.folder}/source.json",
                  extra={"table": meta.file})
@@ -130,7 +130,7 @@ def check_anchor_reach(table: Table, ctx: Settings):
     whose data end below 298.15 K exists only there and is held back until it can be
     anchored through its transitions.
     """
-    t = table.data["T"].to_numpy()
+    t = table.data["T"]
     t = t[np.isfinite(t) & (t > 0)]
     if not len(t) or table.meta.reached or not table.meta.anchored:
         return []         # anchored through a transition (checks/transitions.py)

@@ -35,7 +35,7 @@ SAME_H_REL = 0.05
 
 def _span(tables):
     """(lowest, highest) T [K] of the rows of ``tables``, or None when they have none."""
-    t = np.concatenate([tb.data["T"].to_numpy(dtype=float) for tb in tables] or [np.array([])])
+    t = np.concatenate([np.asarray(tb.data["T"], dtype=float) for tb in tables] or [np.array([])])
     t = t[np.isfinite(t) & (t > 0)]
     return (float(t.min()), float(t.max())) if len(t) else None
 

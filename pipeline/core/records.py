@@ -1,6 +1,6 @@
 """Frozen records passed between stages.
 
-Table data travel as a pandas DataFrame with these columns (SI units):
+Table data travel as ``Rows`` (core/rows.py: named numpy columns) with these columns (SI units):
 
 ==========  ==============  =================================================
 column      unit            meaning
@@ -24,21 +24,22 @@ from dataclasses import dataclass, field
 from functools import cached_property
 
 import numpy as np
-import pandas as pd
+
+from .rows import Rows
 
 DATA_COLUMNS = ("line", "T", "Cp", "u_Cp", "dH", "S", "u_dH", "u_S", "gef")
 
 
-def valid_columns(data: pd.DataFrame) -> dict:
-    """{column: read-only numpy array} of the rows of a table frame whose T [K] and Cp
+def valid_columns(data: Rows) -> dict:
+    """{column: read-only numpy array} of the rows of a table whose T [K] and Cp
     [J/(mol K)] are finite and positive, sorted by T (stable, so equal temperatures keep their
     file order)."""
-    t, cp = data["T"].to_numpy(), data["Cp"].to_numpy()
+    t, cp = data["T"], data["Cp"]
     ok = np.flatnonzero(np.isfinite(t) & np.isfinite(cp) & (t > 0) & (cp > 0))
     order = ok[np.argsort(t[ok], kind="stable")]
     out = {}
     for name in data.columns:
-        column = data[name].to_numpy()[order]
+        column = data[name][order]
         column.setflags(write=False)
         out[name] = column
     return out
@@ -50,16 +51,16 @@ def take(columns: dict, keep) -> dict:
 
 
 def first_of_each_t(columns: dict) -> dict:
-    """The first row of each temperature of T-sorted ``columns`` (pandas drop_duplicates)."""
+    """The first row of each temperature of T-sorted ``columns`` (the first of each run of equal T)."""
     t = columns["T"]
     return take(columns, np.r_[True, t[1:] != t[:-1]]) if len(t) else columns
 
 
-def given(frame: pd.DataFrame, column: str, *, every: bool = False):
-    """``frame[column]`` as an array when any value is given (all, with ``every``), else None."""
-    if not len(frame):
+def given(rows: Rows, column: str, *, every: bool = False):
+    """``rows[column]`` as an array when any value is given (all, with ``every``), else None."""
+    if not len(rows):
         return None
-    values = frame[column].to_numpy(dtype=float)
+    values = np.asarray(rows[column], dtype=float)
     present = ~np.isnan(values)
     if not (present.all() if every else present.any()):
         return None
@@ -158,7 +159,7 @@ class Table:
     """A table read into SI units: its metadata and its rows (the documented columns)."""
 
     meta: TableMeta
-    data: pd.DataFrame = field(compare=False)
+    data: Rows = field(compare=False)
 
     @cached_property
     def valid(self) -> dict:
@@ -295,11 +296,11 @@ class CpData:
                 object.__setattr__(self, name, np.asarray(v, dtype=float)[order])
 
     @classmethod
-    def of_frame(cls, frame: pd.DataFrame) -> "CpData":
-        """From a table frame with the documented columns; u(Cp) only when every row has it."""
-        return cls(t=frame["T"].to_numpy(dtype=float), cp=frame["Cp"].to_numpy(dtype=float),
-                   u_cp=given(frame, "u_Cp", every=True), dh=given(frame, "dH"),
-                   s=given(frame, "S"), u_dh=given(frame, "u_dH"), u_s=given(frame, "u_S"))
+    def of_rows(cls, rows: Rows) -> "CpData":
+        """From table rows with the documented columns; u(Cp) only when every row has it."""
+        return cls(t=np.asarray(rows["T"], dtype=float), cp=np.asarray(rows["Cp"], dtype=float),
+                   u_cp=given(rows, "u_Cp", every=True), dh=given(rows, "dH"),
+                   s=given(rows, "S"), u_dh=given(rows, "u_dH"), u_s=given(rows, "u_S"))
 
 
 @dataclass(frozen=True)

@@ -51,13 +51,13 @@ def _origin(meta: TableMeta, defects) -> dict:
 
 def adopt(meta: TableMeta, data, defects=()) -> FitResult:
     """The published set as the species' result, coefficients unchanged; its quality against
-    its evaluated table ``data`` (a frame) is exact by construction."""
+    its evaluated table ``data`` (Rows) is exact by construction."""
     ranges = published_ranges(meta)
-    t = data["T"].to_numpy(dtype=float)
+    t = np.asarray(data["T"], dtype=float)
     got = forms.evaluate_ranges(ranges, t, meta.published.form)
-    rel = np.abs(got["Cp"] / data["Cp"].to_numpy(dtype=float) - 1.0)
-    dh = got["H"] - meta.enthalpy_of_formation_298 - data["dH"].to_numpy(dtype=float)
-    ds = got["S"] - data["S"].to_numpy(dtype=float)
+    rel = np.abs(got["Cp"] / np.asarray(data["Cp"], dtype=float) - 1.0)
+    dh = got["H"] - meta.enthalpy_of_formation_298 - np.asarray(data["dH"], dtype=float)
+    ds = got["S"] - np.asarray(data["S"], dtype=float)
     origin = {**_origin(meta, defects), "repair": "not needed" if not any(
         c in REPAIRABLE for c in defects) else "not requested"}
     return FitResult(form=meta.published.form, ranges=ranges,
@@ -92,7 +92,7 @@ def repair(meta: TableMeta, data, settings: FitSettings, defects=()) -> FitResul
     over = dict(form=published.form, ranges=len(before), use_t_min=None, use_t_max=None)
     if published.keep_breakpoints and len(before) > 1:
         over.update(breakpoint_mode="fixed", fixed_breakpoints=published.breakpoints)
-    result = fit_species(SpeciesIdentity.of_table(meta), CpData.of_frame(data),
+    result = fit_species(SpeciesIdentity.of_table(meta), CpData.of_rows(data),
                          replace(settings, **over))
     change = largest_change(before, result.ranges, published.form)
     origin = {**_origin(meta, defects), "repair": "repaired",

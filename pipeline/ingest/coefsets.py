@@ -22,13 +22,13 @@ import re
 from collections import defaultdict
 
 import numpy as np
-import pandas as pd
 
 from ..core import chemistry, constants, phases, units
 from ..core.errors import InputError
 from ..core.findings import clip, finding
 from ..core.limits import MAX_ROWS
-from ..core.records import DATA_COLUMNS, PublishedSet, Table, TableMeta
+from ..core.records import PublishedSet, Table, TableMeta
+from ..core.rows import Rows
 from ..physics.forms import FORMS, evaluate_ranges, range_of
 from . import csvtable
 
@@ -191,8 +191,8 @@ def grid(published: PublishedSet) -> np.ndarray:
     return np.unique(t[(t >= lo) & (t <= hi)])
 
 
-def evaluate(published: PublishedSet, pressure: float, phase: str) -> tuple[pd.DataFrame, dict]:
-    """(table frame of the set evaluated on its grid, {'h298', 's298'} read from the set at
+def evaluate(published: PublishedSet, pressure: float, phase: str) -> tuple[Rows, dict]:
+    """(table rows of the set evaluated on its grid, {'h298', 's298'} read from the set at
     298.15 K): H − H298 counted from the set's own H(298.15 K); S moved to 1 bar for a gas
     tabulated at another pressure."""
     ordered = published.ordered
@@ -205,11 +205,11 @@ def evaluate(published: PublishedSet, pressure: float, phase: str) -> tuple[pd.D
         s, _ = csvtable.at_one_bar(s, pressure, "S")
         s298, _ = csvtable.at_one_bar(s298, pressure, "S")
     index = range_of(t, published.breakpoints)
-    frame = pd.DataFrame({"line": np.asarray([ordered[k][3] for k in index], dtype=int),
-                          "T": t, "Cp": props["Cp"][:-1], "u_Cp": np.nan,
-                          "dH": props["H"][:-1] - h298, "S": s, "u_dH": np.nan,
-                          "u_S": np.nan, "gef": np.nan})
-    return frame[list(DATA_COLUMNS)], {"h298": float(h298), "s298": float(s298)}
+    rows = Rows({"line": np.asarray([ordered[k][3] for k in index], dtype="int64"),
+                 "T": t, "Cp": props["Cp"][:-1], "u_Cp": np.nan,
+                 "dH": props["H"][:-1] - h298, "S": s, "u_dH": np.nan,
+                 "u_S": np.nan, "gef": np.nan})
+    return rows, {"h298": float(h298), "s298": float(s298)}
 
 
 def repair_wanted(entry: dict, species: str) -> bool:

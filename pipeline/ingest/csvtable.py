@@ -17,13 +17,13 @@ import math
 from dataclasses import dataclass, field, replace
 
 import numpy as np
-import pandas as pd
 
 from ..core import constants, phases, units
 from ..core.errors import UnitError
 from ..core.findings import Finding, clip, finding
 from ..core.limits import MAX_COLUMNS, MAX_ROWS, PHYSICAL_RANGE
 from ..core.records import DATA_COLUMNS
+from ..core.rows import Rows
 from ..physics import statmech
 from . import dialect as dialects
 from .header import COLUMNS, layout, looks_like_units_row
@@ -44,18 +44,16 @@ class ParsedTable:
     """One CSV table parsed into SI: rows, header as written, conversion notes, findings,
     and how the file was read (``reading``, recorded in the provenance)."""
 
-    data: pd.DataFrame        # columns DATA_COLUMNS, SI units
+    data: Rows                # columns DATA_COLUMNS, SI units
     columns: tuple            # header cells as written
     notes: tuple              # conversions and assumptions
     findings: tuple
     reading: dict = field(default_factory=dict)
 
 
-def empty_frame() -> pd.DataFrame:
+def empty_rows() -> Rows:
     """A table with the documented columns and no rows."""
-
-    return pd.DataFrame({c: pd.Series(dtype="int64" if c == "line" else "float64")
-                         for c in DATA_COLUMNS})
+    return Rows({c: np.empty(0, dtype="int64" if c == "line" else float) for c in DATA_COLUMNS})
 
 
 def parse_number(cell: str, mark: str = ".") -> float | None:
@@ -73,7 +71,7 @@ def parse_number(cell: str, mark: str = ".") -> float | None:
 
 
 def _refused(finding_, reading=None):
-    return ParsedTable(empty_frame(), (), (), (finding_,), dict(reading or {}))
+    return ParsedTable(empty_rows(), (), (), (finding_,), dict(reading or {}))
 
 
 def _records(lines, numbers, delimiter):
@@ -208,18 +206,17 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
                 expected=f"{lo:g} to {hi:g} {units.KINDS[kind][2]}"))
         keep &= ~bad
     frame = {c: v[keep] for c, v in frame.items()}
-    data = pd.DataFrame({c: frame[c] for c in DATA_COLUMNS + (("phase",) if "phase" in frame
-                                                             else ())})
+    if phase == "g" and not np.isnan(frame["S"]).all():
+        frame["S"], note = at_one_bar(frame["S"], standard_pressure, "S")
+        notes += [note] if note else []
+    data = Rows({c: frame[c] for c in DATA_COLUMNS + (("phase",) if "phase" in frame else ())})
     if any(c.quantity == "u(Cp)" for c, _ in usable) and len(data):
-        given = data["u_Cp"].notna()
+        given = data.given("u_Cp")
         if given.any() and not given.all():
-            first = int(data.loc[~given, "line"].iloc[0])
+            first = int(data["line"][~given][0])
             findings.append(finding("UCP-PARTIAL", f"u(Cp) is missing on {int((~given).sum())} "
                                     f"of {len(data)} rows, first at line {first}", file=file,
                                     line=first, column="u(Cp)", expected="all rows or none"))
-    if phase == "g" and data["S"].notna().any():
-        data["S"], note = at_one_bar(data["S"], standard_pressure, "S")
-        notes += [note] if note else []
     return ParsedTable(data, tuple(header), tuple(notes), tuple(_summarise(findings)), record)
 
 

@@ -26,7 +26,7 @@ def split(meta, data, entry) -> tuple[list, list]:
     at = dict(source=meta.source.id, file=f"{meta.source.folder}/source.json",
               extra={"table": meta.file})
     col = f"tables/{meta.index}"
-    if "phase" not in data.columns:
+    if "phase" not in data:
         if listed is None and not len(data):
             return [], []              # nothing read: the reading findings say why
         if listed is None:
@@ -56,14 +56,15 @@ def split(meta, data, entry) -> tuple[list, list]:
                             expected="monatomic, linear or nonlinear", **at)]
     out = []
     for phase in present:
-        rows = data[data["phase"] == phase].drop(columns="phase").reset_index(drop=True)
+        rows = data.take(data["phase"] == phase).without("phase")
         s298, anchor_note = csvtable.at_one_bar(meta.entropy_298, meta.source.standard_pressure,
                                                 "entropy_298") if phases.is_gas(phase) \
             else (meta.entropy_298, None)
         notes = [f"rows of phase {phase} of a table with a phase column"] + \
             ([anchor_note] if anchor_note and phase == anchor_phase else [])
-        if phases.is_gas(phase) and rows["S"].notna().any():
-            rows["S"], note = csvtable.at_one_bar(rows["S"], meta.source.standard_pressure, "S")
+        if phases.is_gas(phase) and rows.given("S").any():
+            s, note = csvtable.at_one_bar(rows["S"], meta.source.standard_pressure, "S")
+            rows = rows.with_columns(S=s)
             notes += [note] if note else []
         part = replace(meta, phase=phase, geometry=meta.geometry if phase == "g" else None,
                        shared=len(present) > 1,
@@ -83,17 +84,17 @@ def split(meta, data, entry) -> tuple[list, list]:
 def _with_cp(table: Table) -> Table:
     """``table``, with Cp derived from its H − H298 column when it has no Cp at all."""
     d = table.data
-    if not len(d) or d["Cp"].notna().any() or d["dH"].notna().sum() < 3:
+    if not len(d) or d.given("Cp").any() or d.given("dH").sum() < 3:
         return table
-    m = d["dH"].notna().to_numpy() & np.isfinite(d["T"].to_numpy())
-    u = d["u_dH"].to_numpy()[m]
-    got = cp_from_increments(d["T"].to_numpy()[m], d["dH"].to_numpy()[m],
-                             u if np.all(np.isfinite(u)) else None)
+    m = d.given("dH") & np.isfinite(d["T"])
+    u = d["u_dH"][m]
+    got = cp_from_increments(d["T"][m], d["dH"][m], u if np.all(np.isfinite(u)) else None)
     if got is None:
         return table
     cp, degree, rms = got
-    d = d.copy()
-    d.loc[m, "Cp"] = cp
+    full = np.array(d["Cp"])
+    full[m] = cp
+    d = d.with_columns(Cp=full)
     note = (f"Cp derived from the H-H298 column (an enthalpy-increment table): the derivative of "
             f"a least-squares polynomial with Cp of degree {degree} in T, rms residual "
             f"{rms:.3g} J/mol")

@@ -273,7 +273,7 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
                          (k, tuple(v) if isinstance(v, list) and k != "breakpoints" else v)
                          for k, v in entry.get("fit", {}).items())),
                      reading=parsed.reading if parsed else {"encoding": encoding or None})
-    data = parsed.data if parsed else csvtable.empty_frame()
+    data = parsed.data if parsed else csvtable.empty_rows()
     if text is None and entry.get("phase") is None:
         return [], infile, problems
     if text is None:

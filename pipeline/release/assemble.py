@@ -4,10 +4,10 @@ tables, report, schemas, provenance, manifest and Data Package, as {relative pat
 from dataclasses import dataclass
 
 import numpy as np
-import pandas as pd
 
 from ..core.names import file_stems
 from ..core.records import CheckResult
+from ..core.rows import concat
 from ..core.settings import Settings
 from ..library import document as library
 from ..physics import forms
@@ -63,29 +63,30 @@ def plot_points(species, checked: CheckResult) -> dict:
     deviations of the fit from the table's H-H298 [J/mol] and S [J/(mol K)] columns, for
     the report's plots (computed where the rows are: in the species' partition)."""
     by_sel = {s.species_id: s for s in checked.selections}
-    rows_of = {}
+    parts_of = {}
     for t in checked.tables:               # the phases of one file together
-        rows_of[t.meta.file] = pd.concat([rows_of[t.meta.file], t.data]) \
-            if t.meta.file in rows_of else t.data
+        parts_of.setdefault(t.meta.file, []).append(t.data)
+    rows_of = {file: parts[0] if len(parts) == 1 else concat(parts)
+               for file, parts in parts_of.items()}
     out = {}
     for sp in species:
         d = by_sel[sp["id"]].data
-        p = {"t": d["T"].to_numpy(), "cp": d["Cp"].to_numpy()}
+        p = {"t": d["T"], "cp": d["Cp"]}
         t_out, cp_out = [], []
         for x in sp["excluded"]:
             rows = rows_of[x["file"]]
-            hit = rows[rows["line"] == x["line"]]
-            t_out += hit["T"].tolist()
-            cp_out += hit["Cp"].tolist()
+            hit = rows["line"] == x["line"]
+            t_out += rows["T"][hit].tolist()
+            cp_out += rows["Cp"][hit].tolist()
         p["t_out"], p["cp_out"] = np.array(t_out), np.array(cp_out)
         rr = library.ranges_of(sp)
         h298 = library.enthalpy_zero(sp)
         for col, key in (("dH", "dh"), ("S", "s")):
-            m = d[col].notna().to_numpy()
+            m = d.given(col)
             if m.any():
-                t = d["T"].to_numpy()[m]
+                t = d["T"][m]
                 ev = forms.evaluate_ranges(rr, t, sp["form"])
                 fitted_v = ev["H"] - h298 if col == "dH" else ev["S"]
-                p[key] = (t, fitted_v - d[col].to_numpy()[m])
+                p[key] = (t, fitted_v - d[col][m])
         out[sp["id"]] = p
     return out

@@ -23,13 +23,13 @@ Realistic noise: 0.1 % relative, Gaussian (the issue's specification).
 from dataclasses import replace
 
 import numpy as np
-import pandas as pd
 
 from ..checks import registry as validate
 from ..core import chemistry
 from ..core.constants import GAS_CONSTANT as R
 from ..core.constants import REFERENCE_TEMPERATURE
 from ..core.records import SourceMeta, Table, TableMeta
+from ..core.rows import Rows
 from ..core.settings import Settings
 from ..physics import statmech
 
@@ -64,9 +64,9 @@ def make_table(t, cp, formula, geometry, *, phase="g", u=None, dh=None, s=None, 
     def col(v):
         return np.full(n, np.nan) if v is None else np.asarray(v, float)
 
-    data = pd.DataFrame({"line": np.arange(2, n + 2), "T": t, "Cp": np.asarray(cp, float),
-                         "u_Cp": col(u), "dH": col(dh), "S": col(s), "u_dH": col(None),
-                         "u_S": col(None), "gef": col(gef)})
+    data = Rows({"line": np.arange(2, n + 2), "T": t, "Cp": np.asarray(cp, float),
+                 "u_Cp": col(u), "dH": col(dh), "S": col(s), "u_dH": col(None),
+                 "u_S": col(None), "gef": col(gef)})
     meta = TableMeta(source=source, file=file, species=name or formula, formula=formula,
                      phase=phase, geometry=geometry, molar_mass=comp.molar_mass,
                      atoms=comp.atoms, enthalpy_of_formation_298=h298,

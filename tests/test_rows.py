@@ -1,0 +1,74 @@
+"""Rows: named read-only numpy columns that behave like the numpy operations they stand for."""
+
+import pickle
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from thermoledger.core.rows import Rows, concat
+
+FLOATS = st.floats(allow_nan=True, allow_infinity=False, width=64)
+
+
+def rows_of(t, cp):
+    return Rows({"line": np.arange(2, len(t) + 2), "T": np.asarray(t, float),
+                 "Cp": np.asarray(cp, float)})
+
+
+@st.composite
+def tables(draw):
+    n = draw(st.integers(0, 30))
+    return rows_of(draw(st.lists(FLOATS, min_size=n, max_size=n)),
+                   draw(st.lists(FLOATS, min_size=n, max_size=n)))
+
+
+@settings(max_examples=200, deadline=None)
+@given(tables(), st.data())
+def test_take_and_concat_are_the_numpy_selections(rows, data):
+    n = len(rows)
+    mask = np.asarray(data.draw(st.lists(st.booleans(), min_size=n, max_size=n)), dtype=bool)
+    index = np.asarray(data.draw(st.lists(st.integers(0, max(n - 1, 0)), max_size=n if n else 0)),
+                       dtype=int)
+    for keep in (mask, index):
+        got = rows.take(keep)
+        assert got.columns == rows.columns and len(got) == len(rows["T"][keep])
+        for name in rows.columns:
+            np.testing.assert_array_equal(got[name], rows[name][keep])
+    both = concat([rows, rows.take(mask)])
+    for name in rows.columns:
+        np.testing.assert_array_equal(both[name], np.r_[rows[name], rows[name][mask]])
+    assert len(rows.head(0)) == 0 and rows.head(0).columns == rows.columns
+
+
+def test_columns_are_read_only_and_new_columns_make_new_rows():
+    cp = np.array([29.1, 29.2, 29.4])
+    rows = rows_of([300.0, 400.0, 500.0], cp)
+    with pytest.raises(ValueError):
+        rows["Cp"][0] = 1.0
+    cp[0] = 30.0          # the caller's array stays its own to change
+    assert cp[0] == 30.0
+    more = rows.with_columns(file="lab/x.csv", Cp=np.ones(3))
+    assert more.columns == ("line", "T", "Cp", "file")
+    assert more["file"].tolist() == ["lab/x.csv"] * 3 and more["Cp"].tolist() == [1.0] * 3
+    assert rows["Cp"][1] == 29.2                        # the original is unchanged
+    assert more.without("file").columns == rows.columns
+    np.testing.assert_array_equal(rows.with_columns(S=np.nan).given("S"), [False] * 3)
+
+
+def test_unequal_or_nested_columns_are_refused():
+    with pytest.raises(ValueError, match="has 2 rows, not 3"):
+        Rows({"T": np.ones(3), "Cp": np.ones(2)})
+    with pytest.raises(ValueError, match="not one-dimensional"):
+        Rows({"T": np.ones((3, 2))})
+    with pytest.raises(ValueError, match="needs a column before it"):
+        Rows({"file": "x.csv"})
+
+
+def test_rows_survive_a_trip_to_a_worker_process_read_only():
+    rows = rows_of([300.0, 400.0], [29.0, 30.0]).with_columns(file="a.csv")
+    back = pickle.loads(pickle.dumps(rows))
+    assert back.columns == rows.columns and back["file"].tolist() == ["a.csv", "a.csv"]
+    np.testing.assert_array_equal(back["T"], rows["T"])
+    with pytest.raises(ValueError):
+        back["T"][0] = 0.0

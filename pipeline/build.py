@@ -12,7 +12,6 @@ from .core.errors import FitError, InputError, OutputError
 from .core.findings import ERROR, INFO, by_subject, concerns, finding, stage_failed, subject
 from .core.records import CheckResult, CpData, FittedSpecies, SpeciesIdentity, Table
 from .core.settings import Settings, for_table
-from .fit import phases, published
 from .library import document as library
 from .release import assemble, formation, provenance, publish
 from .release import audit as audit_stage
@@ -110,7 +109,7 @@ def settle_set(sel, ctx: Settings, about):
     meta = sel.primary.meta
     defects = [f.code for f in about.get(meta.file, ()) if concerns(f, meta.species_id)
                and f.severity != INFO and f.code.startswith("SET-")]
-    return published.settle(meta, sel.primary.data, for_table(ctx.fit, meta.fit_overrides),
+    return fit.published.settle(meta, sel.primary.data, for_table(ctx.fit, meta.fit_overrides),
                             ctx.repairs(meta), defects)
 
 
@@ -178,15 +177,15 @@ def _fit_all(checked: CheckResult, ctx: Settings, say, previous: dict):
     findings = list(checked.findings)
     quarantined = list(checked.quarantined)
     fitted, done = {}, {}
-    order = phases.fitting_order(checked.selections, checked.chains)
-    chain_of = phases.chains_by_id(checked.chains)
+    order = fit.phases.fitting_order(checked.selections, checked.chains)
+    chain_of = fit.phases.chains_by_id(checked.chains)
     about = by_subject(findings)
     for k, sel in enumerate(order):
         meta = sel.primary.meta
         say("fit", k + 1, len(order), sel.species_id)
         try:
             chain = chain_of.get(sel.species_id)
-            who, anchor = phases.identity(meta, chain, done) if chain else (None, {})
+            who, anchor = fit.phases.identity(meta, chain, done) if chain else (None, {})
             if meta.published is not None:
                 result = settle_set(sel, ctx, about)
             else:
@@ -207,7 +206,7 @@ def _fit_all(checked: CheckResult, ctx: Settings, say, previous: dict):
                                                excluded=sel.excluded, rows=rows, anchor=anchor)
     metas = {sid: sp.table.meta for sid, sp in fitted.items()}
     for chain in checked.chains:
-        more = phases.check_chain(chain, done, metas)
+        more = fit.phases.check_chain(chain, done, metas)
         findings += more
         for f in more:
             about.setdefault(f.file, []).append(f)

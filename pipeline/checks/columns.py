@@ -17,7 +17,6 @@ quadrature error and the rounding of the tabulated column.
 """
 
 import numpy as np
-from scipy.interpolate import CubicSpline, PchipInterpolator
 
 from ..core.constants import REFERENCE_TEMPERATURE
 from ..core.findings import finding
@@ -30,6 +29,8 @@ S298_TOLERANCE = 0.05  # [J/(mol K)], S column vs entropy_298 (common practice)
 
 def _integrals(t, cp):
     """Cumulative ∫Cp dT and ∫Cp/T dT from t[0], spline and trapezoid [J/mol], [J/(mol K)]."""
+    from scipy.interpolate import CubicSpline, PchipInterpolator  # here: loaded on first use
+
     spl = CubicSpline(t, cp)
     spl_t = CubicSpline(t, cp / t)
     ih = np.array([spl.integrate(t[0], x) for x in t])

@@ -16,7 +16,6 @@ Each is caught by physics, not by thresholds fitted to data, and named with its 
 """
 
 import numpy as np
-from scipy.optimize import nnls
 
 from ..core import chemistry, units
 from ..core.constants import GAS_CONSTANT as R
@@ -25,6 +24,7 @@ from ..core.findings import finding
 from ..core.records import take
 from ..physics import bounds, rotors
 from ..physics.statmech import einstein
+from .smooth_model import nnls
 
 CELSIUS = 273.15  # [K], 0 °C
 #: the low end of a table tested for frozen vibrations: its rows up to this temperature [K]

@@ -22,7 +22,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.interpolate import PchipInterpolator
 
 from ..core.findings import by_subject, finding, stage_failed
 from ..core.records import first_of_each_t
@@ -77,6 +76,8 @@ def compare(a, b, scale=(1.0, 0.0)):
     grid = np.union1d(ta[(ta >= lo) & (ta <= hi)], tb[(tb >= lo) & (tb <= hi)])
     if hi <= lo or ((ta >= lo) & (ta <= hi)).sum() < 2 or ((tb >= lo) & (tb <= hi)).sum() < 2:
         return None
+    from scipy.interpolate import PchipInterpolator  # here: checking loads scipy on first use
+
     ia = np.exp(PchipInterpolator(np.log(ta), np.log(ca))(np.log(grid)))
     ib = np.exp(PchipInterpolator(np.log(tb), np.log(cb))(np.log(grid)))
     rel = ib / ia - 1.0

@@ -28,7 +28,6 @@ References
 """
 
 import numpy as np
-from scipy.optimize import nnls
 
 from ..physics.statmech import einstein
 
@@ -54,6 +53,13 @@ def robust_sigma(values) -> float:
     if not len(v):
         return 0.0
     return MAD_TO_SIGMA * float(np.median(np.abs(v - np.median(v))))
+
+
+def nnls(a, b, maxiter: int):
+    """scipy.optimize.nnls, imported on first use (checking an empty folder loads no scipy)."""
+    from scipy.optimize import nnls as solve
+
+    return solve(a, b, maxiter=maxiter)
 
 
 def _fit(b, cp):

@@ -13,11 +13,17 @@ measured increments.
 """
 
 import numpy as np
-from scipy.special import fdtri
 
 #: highest Cp degree tried and the F-test level of each added degree (common practice)
 MAX_DEGREE = 3
 F_LEVEL = 0.01
+
+
+def _f_quantile(dof: int) -> float:
+    """The 1 − F_LEVEL quantile of the F distribution with (1, dof) degrees of freedom."""
+    from scipy.special import fdtri  # here: only an increment table needs scipy
+
+    return float(fdtri(1, dof, 1 - F_LEVEL))
 
 
 def _design(tau, degree):
@@ -48,7 +54,7 @@ def cp_from_increments(t, dh, u_dh=None):
         if best is not None:
             dof = n - p
             f = (best_rss - rss) / (rss / dof) if rss > 0 else np.inf
-            if not f > fdtri(1, dof, 1 - F_LEVEL):
+            if not f > _f_quantile(dof):
                 break
         best, best_rss, degree = coef, rss, k
     b = best[1:]

@@ -11,9 +11,6 @@ import io
 import json
 import math
 
-import pyarrow as pa
-import pyarrow.parquet as pq
-
 from .. import __version__
 from ..core import constants, schemas
 from ..core.errors import OutputError
@@ -267,6 +264,9 @@ def library_parquet_bytes(doc: dict) -> bytes:
                    "findings": json.dumps(sp["findings"], ensure_ascii=False)}
             for k, v in row.items():
                 cols[k].append(v)
+    import pyarrow as pa  # here: checking and reading load no pyarrow
+    import pyarrow.parquet as pq
+
     arrow = {"string": pa.string(), "number": pa.float64(), "integer": pa.int32(),
              "array": pa.list_(pa.float64())}
     arrays = {name: pa.array(cols[name], type=arrow[kind])

@@ -1,6 +1,7 @@
 """Effective settings of the stages, with their defaults (one place, recorded in outputs)."""
 
 from dataclasses import asdict, dataclass, fields
+from functools import lru_cache
 
 
 @dataclass(frozen=True)
@@ -68,10 +69,19 @@ class FitSettings:
         return self.ranges * self.min_points_per_range
 
     def to_dict(self) -> dict:
-        """The settings as plain JSON values (recorded in the library and the manifest)."""
-        d = asdict(self)
-        d["fixed_breakpoints"] = list(self.fixed_breakpoints)
-        return d
+        """The settings as plain JSON values (recorded in the library and the manifest): a
+        new dict each time, made from one conversion per distinct settings (every species
+        of a build records them)."""
+        try:
+            plain = _plain_fit_settings(self)
+        except TypeError:            # an unhashable value (a list given for a tuple)
+            plain = asdict(self)
+        return {**plain, "fixed_breakpoints": list(self.fixed_breakpoints)}
+
+
+@lru_cache(maxsize=64)
+def _plain_fit_settings(settings: FitSettings) -> dict:
+    return asdict(settings)      # every field but fixed_breakpoints is a plain value
 
 
 @dataclass(frozen=True)

@@ -39,7 +39,9 @@ def registry():
 
 
 _EXPONENT = re.compile(r"(\*\*|\^)\s*(\([^()]*\)|[+-]?[0-9.eE]*)")
-_NUMBER = re.compile(r"^[+-]?([0-9]+(\.[0-9]*)?|\.[0-9]+)([eE][+-]?[0-9]+)?$")
+_PLAIN = r"[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?"
+_NUMBER = re.compile(rf"^{_PLAIN}$")
+_PLAIN_LINES = re.compile(rf"(?:{_PLAIN}\n)*{_PLAIN}")
 
 
 def check_complexity(text: str) -> None:
@@ -69,6 +71,13 @@ def check_complexity(text: str) -> None:
 def is_plain_number(text: str) -> bool:
     """True for a plain ASCII decimal literal (no 'nan', 'inf', '1_0', Unicode digits)."""
     return bool(_NUMBER.match(text))
+
+
+def all_plain_numbers(cells) -> bool:
+    """True when every one of ``cells`` (a non-empty sequence of strings) is a plain number
+    (``is_plain_number``): one regular-expression match over the whole column."""
+    joined = "\n".join(cells)
+    return joined.count("\n") == len(cells) - 1 and bool(_PLAIN_LINES.fullmatch(joined))
 
 
 #: how papers and spreadsheets write products and powers, and what pint reads instead

@@ -230,8 +230,39 @@ def at_one_bar(entropy, pressure: float, label: str):
     return entropy + shift, f"{label} moved from {pressure:g} Pa to 1 bar: {shift:+.4f} J/(mol*K)"
 
 
+def _read_clean(rows, width, usable, mark):
+    """(values per usable column, lines read) when every row has ``width`` cells and every
+    usable cell is a plain finite number, read in one pass per column; else None (the
+    row-by-row reader then says what is wrong where). The numbers are those ``parse_number``
+    gives cell by cell."""
+    if not rows or any(COLUMNS[c.quantity][1] is None for c, _ in usable) or \
+            any(len(cells) != width for _, cells in rows):
+        return None
+    values = []
+    for col, _ in usable:
+        cells = [r[1][col.position] for r in rows]
+        if mark == ",":
+            if any("." in c for c in cells):
+                return None
+            cells = [c.replace(",", ".", 1) for c in cells]
+        if not units.all_plain_numbers(cells):
+            return None
+        column = [float(c) for c in cells]
+        if not all(map(math.isfinite, column)):
+            return None
+        values.append(column)
+    return values, [line for line, _ in rows]
+
+
 def _read_rows(rows, width, usable, mark, delimiter, file):
     """(values per usable column, lines read, findings) of the data rows."""
+    clean = _read_clean(rows, width, usable, mark)
+    return (*clean, []) if clean is not None else _read_each(rows, width, usable, mark,
+                                                             delimiter, file)
+
+
+def _read_each(rows, width, usable, mark, delimiter, file):
+    """``_read_rows`` row by row and cell by cell, with a finding for each bad cell."""
     values = [[] for _ in usable]
     lines, problems = [], []
     for line, cells in rows:

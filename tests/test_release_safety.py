@@ -13,6 +13,8 @@ import uuid
 from pathlib import Path
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from thermoledger.core import names
 from thermoledger.library import document
 from thermoledger.release import provenance, publish
@@ -355,3 +357,22 @@ def test_json_documents_refuse_numbers_json_cannot_carry():
     for bad in (float("nan"), float("inf"), -float("inf")):
         with pytest.raises(OutputError, match="JSON cannot carry"):
             json_bytes({"species": [{"quality": {"x": bad}}]})
+
+
+JSON_LEAVES = st.one_of(st.none(), st.booleans(), st.integers(), st.text(max_size=5),
+                        st.floats(allow_nan=True, allow_infinity=True))
+JSON_DOCS = st.recursive(JSON_LEAVES, lambda inner: st.one_of(
+    st.lists(inner, max_size=4), st.tuples(inner, inner),
+    st.dictionaries(st.text(max_size=3), inner, max_size=4)), max_leaves=25)
+
+
+@settings(max_examples=300, deadline=None)
+@given(JSON_DOCS)
+def test_the_fast_non_finite_check_names_the_first_bad_number(doc):
+    """A fitted entry is scanned for NaN and infinities by the json module's C encoder and
+    walked only when it holds one: the path is that of the walk, '' for a clean entry."""
+    from thermoledger.release.document import _first_non_finite, non_finite
+
+    assert non_finite(doc) == _first_non_finite(doc, "")
+    assert non_finite({"species": [0.5, {"cp": doc}]}) == \
+        _first_non_finite({"species": [0.5, {"cp": doc}]}, "")

@@ -117,7 +117,16 @@ def transition_entries(chains, ids) -> list:
 
 def non_finite(doc, path="") -> str:
     """Path of the first NaN or infinity in a JSON-like document, or '' when all are finite
-    (JSON cannot carry them, and a library must never hold them)."""
+    (JSON cannot carry them, and a library must never hold them). The json module's C
+    encoder answers for a clean document; the walk names the place of a bad one."""
+    try:
+        json.dumps(doc, allow_nan=False, check_circular=False)
+        return ""
+    except (ValueError, TypeError):
+        return _first_non_finite(doc, path)
+
+
+def _first_non_finite(doc, path: str) -> str:
     if isinstance(doc, float):
         return "" if math.isfinite(doc) else (path or "(top)")
     if isinstance(doc, dict):
@@ -127,7 +136,7 @@ def non_finite(doc, path="") -> str:
     else:
         return ""
     for key, value in items:
-        hit = non_finite(value, f"{path}/{key}")
+        hit = _first_non_finite(value, f"{path}/{key}")
         if hit:
             return hit
     return ""

@@ -1,13 +1,21 @@
 """Physically shaped extension of ideal-gas Cp beyond the data, before the polynomial fit.
 
-Two models, each fitted in relative residuals:
+Two families of models, each fitted in relative residuals:
 
 * Wilhoit's form [1]: Cp = Cp(0) + [Cp(∞) − Cp(0)] y² [1 + (y − 1) Σ_{i<n} a_i y^i],
   y = T/(T + B), with Cp(0) and Cp(∞) fixed by geometry and atom count (bounds.py). For a
-  fixed B the a_i enter linearly; B is searched on a grid. n = 0..3 free terms.
-* an effective-oscillator form: Cp = Cp(0) + R Σ_k g_k E(θ_k/T) with k = 1..3 Einstein
-  functions (statmech.einstein) whose degeneracies add up to the vibrational mode count
-  3N − 5 or 3N − 6; θ_k and g_k by bounded nonlinear least squares (scipy).
+  fixed B the a_i enter linearly; B is searched on a grid (all B solved at once). n = 0..3
+  free terms.
+* effective oscillators: Cp = Cp(0) + R Σ_k g_k E(θ_k/T) (statmech.einstein) with
+  degeneracies adding up to the vibrational mode count 3N − 5 or 3N − 6. The oscillator
+  spectrum fixes the θ_k on a grid and is linear in g_k ≥ 0 (one non-negative least-squares
+  solve); the non-linear models fit k = 1..3 free θ_k and g_k, with an anharmonic rise or a
+  low-lying electronic state, by bounded non-linear least squares (scipy).
+
+The linear models (Wilhoit's and the spectrum) are tried first, and alone when the best of
+them passes the hold-out test below within PASS_SIGMAS times the scatter of the data
+(``pass_level``): about a millisecond per side. Only where they fail is the non-linear
+search run, over Wilhoit's form and the non-linear oscillator models (some 50 ms).
 
 The model is chosen per species by how well it predicts held-out data: each candidate is
 fitted to the data without the outer quarter (on the side of the extension) and judged by
@@ -36,11 +44,24 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import least_squares
 
+from ..checks.smooth_model import robust_sigma
 from ..core.constants import GAS_CONSTANT as R
 from ..physics import bounds
 from ..physics.statmech import einstein
 
 B_GRID = np.geomspace(30.0, 20000.0, 80)  # [K]
+#: Wilhoit's form is tried with 0 .. WILHOIT_TERMS free terms
+WILHOIT_TERMS = 3
+#: the oscillator spectrum: characteristic temperatures [K] of its fixed Einstein functions
+#: (from the lowest bending modes to well above any fundamental) and the weight of the row
+#: that holds the sum of their degeneracies at the mode count
+SPECTRUM_THETA = np.geomspace(50.0, 2.0e4, 40)
+SPECTRUM_SUM_WEIGHT = 1.0e3
+#: the fast models are used alone when their best hold-out error is at most PASS_SIGMAS
+#: times the scatter of the data, and never asked for better than PASS_FLOOR (our rule: the
+#: largest of some 25 held-out normal errors is about 2.5-3 sigma; coverage measured by
+#: benchmarks/coverage.py)
+PASS_SIGMAS, PASS_FLOOR = 5.0, 5.0e-4
 #: hold-out errors within this factor of each other do not tell two model families apart
 FAMILY_TIE = 2.0
 #: oscillator models: first guesses and bounds of the characteristic temperatures [K]
@@ -74,6 +95,7 @@ class Extension:
     t: tuple               # [K], generated temperatures
     cp: tuple              # [J/(mol K)], generated Cp
     u_rel: tuple           # [-], relative uncertainty at each generated temperature
+    searched: bool = False  # the linear models failed their test: the non-linear search ran
 
 
 def _wilhoit_terms(t, b, n, c0, cinf):
@@ -83,24 +105,34 @@ def _wilhoit_terms(t, b, n, c0, cinf):
     return base, (np.stack(cols, axis=1) if cols else np.zeros((len(t), 0)))
 
 
-def fit_wilhoit(t, cp, n, c0, cinf):
-    """Best (B, a) of Wilhoit's form with n free terms (relative least squares)."""
-    best = None
-    for b in B_GRID:
-        base, cols = _wilhoit_terms(t, b, n, c0, cinf)
+def fit_wilhoit(t, cp, c0, cinf, terms: int = WILHOIT_TERMS) -> list:
+    """Wilhoit's form with n = 0 .. terms free terms, one model each: for every B of B_GRID
+    at once the a_i by relative least squares, and the B of the smallest sum of squares (the
+    first on a tie). One QR factorisation per B (stacked) of all ``terms`` columns serves
+    every n: the first n columns of Q and the leading n × n block of R factorise the first
+    n columns."""
+    y = t[None, :] / (t[None, :] + B_GRID[:, None])          # (B, rows)
+    rhs = (cp - (c0 + (cinf - c0) * y * y)) / cp
+    cols = np.stack([(cinf - c0) * y * y * (y - 1.0) * y ** i for i in range(terms)],
+                    axis=2) / cp[None, :, None]                # (B, rows, terms)
+    q, r = np.linalg.qr(cols)
+    qb = np.einsum("bki,bk->bi", q, rhs)
+    out = []
+    for n in range(terms + 1):
         if n:
-            a, *_ = np.linalg.lstsq(cols / cp[:, None], (cp - base) / cp, rcond=None)
+            a_all = np.linalg.solve(r[:, :n, :n], qb[:, :n, None])[..., 0]
+            miss = rhs - np.einsum("bki,bi->bk", cols[:, :, :n], a_all)
         else:
-            a = np.zeros(0)
-        pred = base + (cols @ a if n else 0.0)
-        err = float(np.sum(((pred - cp) / cp) ** 2))
-        if best is None or err < best[0]:
-            best = (err, b, a)
-    _, b, a = best
+            a_all, miss = np.zeros((len(B_GRID), 0)), rhs
+        j = int(np.argmin(np.sum(miss ** 2, axis=1)))
+        out.append(_wilhoit_model(B_GRID[j], a_all[j], c0, cinf))
+    return out
 
+
+def _wilhoit_model(b, a, c0, cinf):
     def model(x):
-        base, cols = _wilhoit_terms(np.asarray(x, float), b, n, c0, cinf)
-        return base + (cols @ a if n else 0.0)
+        base, cols = _wilhoit_terms(np.asarray(x, float), b, len(a), c0, cinf)
+        return base + (cols @ a if len(a) else 0.0)
 
     return model
 
@@ -179,22 +211,55 @@ def fit_oscillators_anharmonic(t, cp, k, c0, modes):
                                  [ANHARMONIC_BOUNDS[0]], [ANHARMONIC_BOUNDS[1]])
 
 
-def candidates(geometry, atoms):
-    """The extrapolation models to try for a gas of ``geometry`` and ``atoms``:
-    (name, fitting function) pairs."""
+def fit_spectrum(t, cp, c0, modes):
+    """Cp(0) + R Σ_j g_j E(θ_j/T) over the fixed θ_j of SPECTRUM_THETA, g_j ≥ 0 with Σ g_j =
+    ``modes`` (held by a heavily weighted row): non-negative least squares in relative
+    residuals, linear in the g_j, so one solve instead of a non-linear search."""
+    from scipy.optimize import nnls
+
+    if modes <= 0:
+        return lambda x: np.full(np.shape(np.atleast_1d(x)), c0)
+    a = R * einstein(SPECTRUM_THETA[None, :] / t[:, None]) / cp[:, None]
+    rows = np.vstack([a, SPECTRUM_SUM_WEIGHT * np.ones((1, len(SPECTRUM_THETA)))])
+    rhs = np.append((cp - c0) / cp, SPECTRUM_SUM_WEIGHT * modes)
+    g, _ = nnls(rows, rhs, maxiter=50 * len(SPECTRUM_THETA))
+    return lambda x: c0 + R * einstein(
+        SPECTRUM_THETA[None, :] / np.atleast_1d(np.asarray(x, float))[:, None]) @ g
+
+
+def _wilhoit_group(geometry, atoms) -> tuple:
+    c0, cinf = bounds.cp_zero(geometry), bounds.cp_infinity(geometry, atoms)
+    return (tuple(f"wilhoit-{n}" for n in range(WILHOIT_TERMS + 1)),
+            lambda t, cp: fit_wilhoit(t, cp, c0, cinf))
+
+
+def _one(name, fitter) -> tuple:
+    return (name,), lambda t, cp: [fitter(t, cp)]
+
+
+def fast_candidates(geometry, atoms) -> list:
+    """The models linear in their free parameters (Wilhoit's form for each B of a grid, the
+    oscillator spectrum), tried first: (names, fitting function) groups, the function of
+    (T, Cp) giving one model per name."""
+    c0, modes = bounds.cp_zero(geometry), bounds.vibrational_modes(geometry, atoms)
+    return [_wilhoit_group(geometry, atoms),
+            _one("oscillators-spectrum", lambda t, cp: fit_spectrum(t, cp, c0, modes))]
+
+
+def candidates(geometry, atoms) -> list:
+    """The extrapolation models of the full search for a gas of ``geometry`` and ``atoms``
+    (Wilhoit's form and the non-linear oscillator models), as ``fast_candidates``."""
     c0 = bounds.cp_zero(geometry)
-    cinf = bounds.cp_infinity(geometry, atoms)
     modes = bounds.vibrational_modes(geometry, atoms)
-    out = []
-    for n in range(4):
-        out.append((f"wilhoit-{n}", lambda t, cp, n=n: fit_wilhoit(t, cp, n, c0, cinf)))
+    out = [_wilhoit_group(geometry, atoms)]
     for k in range(1, min(3, max(modes, 1)) + 1):
-        out.append((f"oscillators-{k}", lambda t, cp, k=k: fit_oscillators(t, cp, k, c0, modes)))
+        out.append(_one(f"oscillators-{k}", lambda t, cp, k=k: fit_oscillators(t, cp, k, c0,
+                                                                               modes)))
     for k in range(1, min(2, max(modes, 1)) + 1):
-        out.append((f"oscillators-{k}+anharmonic",
-                    lambda t, cp, k=k: fit_oscillators_anharmonic(t, cp, k, c0, modes)))
-        out.append((f"oscillators-{k}+electronic",
-                    lambda t, cp, k=k: fit_oscillators_electronic(t, cp, k, c0, modes)))
+        out.append(_one(f"oscillators-{k}+anharmonic",
+                        lambda t, cp, k=k: fit_oscillators_anharmonic(t, cp, k, c0, modes)))
+        out.append(_one(f"oscillators-{k}+electronic",
+                        lambda t, cp, k=k: fit_oscillators_electronic(t, cp, k, c0, modes)))
     return out
 
 
@@ -210,9 +275,57 @@ def _guards(pred, side, geometry, atoms, margin, cp_edge):
     return abs(pred[0] / cp_edge - 1) < JOIN_TOLERANCE  # must join the data
 
 
+def _tried(names, fitter, fit_t, fit_cp, ho_t, ho_cp, t, cp, span, side, geometry, atoms,
+           margin) -> dict:
+    """{name: (hold-out error, model fitted to all data)} of the models of one group
+    (``names``, ``fitter``); None for a model that cannot be fitted or whose extension over
+    ``span`` fails the guards."""
+    try:
+        trials, fulls = fitter(fit_t, fit_cp), fitter(t, cp)
+    except (ValueError, np.linalg.LinAlgError, FloatingPointError):
+        return dict.fromkeys(names)
+    out = {}
+    for name, trial, full in zip(names, trials, fulls):
+        try:
+            err = float(np.max(np.abs(trial(ho_t) / ho_cp - 1)))
+            pred = full(span)
+        except (ValueError, np.linalg.LinAlgError, FloatingPointError):
+            out[name] = None
+            continue
+        ordered = pred if side == "high" else pred[::-1]
+        ok = _guards(ordered, side, geometry, atoms, margin, cp[-1] if side == "high" else cp[0])
+        out[name] = (err, full) if ok else None
+    return out
+
+
+def scatter(t, cp) -> float:
+    """Relative standard deviation [-] of the noise of Cp, without a model: each interior
+    point's miss of the straight line through its neighbours in ln Cp against ln T (for a
+    smooth table a second difference, far below the noise), its robust spread divided by
+    the spread that independent noise of unit variance gives it."""
+    x, y = np.log(t), np.log(cp)
+    left, right = x[1:-1] - x[:-2], x[2:] - x[1:-1]
+    if len(x) < 3 or np.any(left <= 0) or np.any(right <= 0):
+        return 0.0
+    w_lo, w_hi = right / (left + right), left / (left + right)
+    miss = y[1:-1] - w_lo * y[:-2] - w_hi * y[2:]
+    return robust_sigma(miss / np.sqrt(1.0 + w_lo ** 2 + w_hi ** 2))
+
+
+def pass_level(t, cp, geometry, atoms):
+    """The hold-out error [-] the fast models must reach to be used without the non-linear
+    search: PASS_SIGMAS times the ``scatter`` of the data, at least PASS_FLOOR; None for a
+    gas without vibrations, whose only fast models are constants."""
+    if bounds.vibrational_modes(geometry, atoms) <= 0:
+        return None
+    return max(PASS_FLOOR, PASS_SIGMAS * scatter(t, cp))
+
+
 def extend(t, cp, geometry, atoms, t_to, *, side="high", holdout=0.25, margin=0.10,
            points=25):
-    """Extension of (t, cp) to ``t_to`` [K], or None when no candidate passes the guards."""
+    """Extension of (t, cp) to ``t_to`` [K], or None when no candidate passes the guards.
+    The fast models are tried first; the non-linear search runs only when the best of them
+    misses the held-out data by more than ``pass_level``."""
     t = np.asarray(t, dtype=float)
     cp = np.asarray(cp, dtype=float)
     if geometry is None or atoms is None:
@@ -231,23 +344,31 @@ def extend(t, cp, geometry, atoms, t_to, *, side="high", holdout=0.25, margin=0.
         fit_t, fit_cp, ho_t, ho_cp = t[k:], cp[k:], t[:k], cp[:k]
         edge, far = t[0], t[k - 1]
         grid = np.geomspace(t_to, t[0], points + 1)[:-1]
-    best = {}
-    for name, maker in candidates(geometry, atoms):
-        try:
-            trial = maker(fit_t, fit_cp)
-            err = float(np.max(np.abs(trial(ho_t) / ho_cp - 1)))
-            full = maker(t, cp)
-            span = np.concatenate([[edge], grid]) if side == "high" else np.concatenate([grid, [edge]])
-            pred = full(span)
-        except (ValueError, np.linalg.LinAlgError, FloatingPointError):
-            continue
-        ordered = pred if side == "high" else pred[::-1]
-        if not _guards(ordered, side, geometry, atoms, margin,
-                       cp[-1] if side == "high" else cp[0]):
-            continue
-        family = name.split("-")[0]
-        if family not in best or err < best[family][0] - 1e-12:
-            best[family] = (err, name, full)
+    span = np.concatenate([[edge], grid]) if side == "high" else np.concatenate([grid, [edge]])
+    tried = {}
+
+    def best_of(models) -> dict:
+        """{family: (hold-out error, name, model fitted to all data)} of the best model of
+        each family among ``models`` that passes the guards (each model fitted once)."""
+        best = {}
+        for names, fitter in models:
+            if names[0] not in tried:
+                tried.update(_tried(names, fitter, fit_t, fit_cp, ho_t, ho_cp, t, cp, span,
+                                    side, geometry, atoms, margin))
+            for name in names:
+                if tried[name] is None:
+                    continue
+                err, full = tried[name]
+                family = name.split("-")[0]
+                if family not in best or err < best[family][0] - 1e-12:
+                    best[family] = (err, name, full)
+        return best
+
+    best = best_of(fast_candidates(geometry, atoms))
+    level = pass_level(t, cp, geometry, atoms)
+    searched = not best or level is None or min(b[0] for b in best.values()) > level
+    if searched:                        # the fast models fail their own test
+        best = best_of(candidates(geometry, atoms))
     if not best:
         return None
     ranked = sorted(best.values(), key=lambda b: b[0])
@@ -277,4 +398,4 @@ def extend(t, cp, geometry, atoms, t_to, *, side="high", holdout=0.25, margin=0.
     return Extension(side=side, t_from=float(edge), t_to=float(t_to), model=name,
                      holdout_error=float(err), u_rel_end=float(u[-1] if side == "high" else u[0]),
                      t=tuple(float(x) for x in grid), cp=tuple(float(x) for x in cp_grid),
-                     u_rel=tuple(float(x) for x in u))
+                     u_rel=tuple(float(x) for x in u), searched=searched)

@@ -1,0 +1,103 @@
+"""The extrapolation models: the stacked Wilhoit solve equals one solve per B, the linear
+models serve where they pass their hold-out test and the non-linear search runs where they
+do not, and the noise estimate behind that test needs no model.
+
+References: CoolProp's ideal-gas Cp (the ideal-gas parts of the reference equations of
+state of propane, E. W. Lemmon et al., J. Chem. Eng. Data 54, 3141 (2009); nitrogen,
+R. Span et al., J. Phys. Chem. Ref. Data 29, 1361 (2000)); rigid-rotor/harmonic-oscillator
+Cp (the textbook partition-function result, physics/statmech.py) with the wavenumbers of
+CO2 (1333, 667 × 2, 2349 cm⁻¹, NIST CCCBDB, from memory).
+"""
+
+import numpy as np
+import pytest
+from thermoledger.core.constants import GAS_CONSTANT as R
+from thermoledger.fit import extrapolate
+from thermoledger.physics import bounds, statmech
+from thermoledger.testing import coverage
+
+CO2_NU = [1333.0, 667.0, 667.0, 2349.0]
+
+
+def one_b_at_a_time(t, cp, n, c0, cinf):
+    """The per-B solve the stacked one replaces: numpy's least squares for every B of the
+    grid in turn, the first B of the smallest sum of squares kept."""
+    best = None
+    for b in extrapolate.B_GRID:
+        base, cols = extrapolate._wilhoit_terms(t, b, n, c0, cinf)
+        a = np.linalg.lstsq(cols / cp[:, None], (cp - base) / cp, rcond=None)[0] if n \
+            else np.zeros(0)
+        err = float(np.sum(((base + (cols @ a if n else 0.0) - cp) / cp) ** 2))
+        if best is None or err < best[0]:
+            best = (err, b, a)
+    return best[1], best[2]
+
+
+@pytest.mark.parametrize("case", ["CO2 rrho", "Nitrogen", "Propane"])
+def test_the_stacked_wilhoit_solve_equals_one_solve_per_b(case):
+    if case == "CO2 rrho":
+        t = np.geomspace(200.0, 1500.0, 60)
+        cp, geometry, atoms = R * statmech.rrho_cp_over_r(t, "linear", CO2_NU), "linear", 3
+    else:
+        pytest.importorskip("CoolProp.CoolProp")
+        formula, geometry = coverage.FLUIDS[case]
+        atoms = {"Nitrogen": 2, "Propane": 11}[case]
+        t = coverage.data_grid(1000.0)
+        cp = coverage.cp0(case, t)
+    c0, cinf = bounds.cp_zero(geometry), bounds.cp_infinity(geometry, atoms)
+    grid = np.geomspace(t[0], 6000.0, 50)
+    stacked = extrapolate.fit_wilhoit(t, cp, c0, cinf)
+    for n, model in enumerate(stacked):
+        b, a = one_b_at_a_time(t, cp, n, c0, cinf)
+        base, cols = extrapolate._wilhoit_terms(grid, b, n, c0, cinf)
+        expected = base + (cols @ a if n else 0.0)
+        np.testing.assert_allclose(model(grid), expected, rtol=1e-9, atol=0)
+
+
+def test_the_oscillator_spectrum_holds_the_mode_count_and_reproduces_a_harmonic_molecule():
+    t = np.geomspace(200.0, 1500.0, 60)
+    cp = R * statmech.rrho_cp_over_r(t, "linear", CO2_NU)
+    c0, modes = bounds.cp_zero("linear"), bounds.vibrational_modes("linear", 3)
+    model = extrapolate.fit_spectrum(t, cp, c0, modes)
+    # the classical limit: every mode excited, Cp -> Cp(0) + R x modes
+    assert model([1.0e7])[0] == pytest.approx(c0 + R * modes, rel=1e-3)
+    far = np.geomspace(1500.0, 6000.0, 20)
+    truth = R * statmech.rrho_cp_over_r(far, "linear", CO2_NU)
+    assert np.max(np.abs(model(far) / truth - 1)) < 2e-3
+
+
+def test_a_harmonic_polyatomic_takes_the_fast_models_and_covers_the_truth():
+    t = np.geomspace(200.0, 1500.0, 60)
+    nu = [3000.0, 2900.0, 1500.0, 1400.0, 1200.0, 1000.0, 900.0, 600.0, 400.0]
+    cp = R * statmech.rrho_cp_over_r(t, "nonlinear", nu)
+    ext = extrapolate.extend(t, cp, "nonlinear", 5, 6000.0)
+    assert not ext.searched and "spectrum" in ext.model
+    truth = R * statmech.rrho_cp_over_r(np.array(ext.t), "nonlinear", nu)
+    err = np.abs(np.array(ext.cp) / truth - 1)
+    assert np.all(err <= 2 * np.array(ext.u_rel))
+
+
+def test_an_anharmonic_diatomic_goes_on_to_the_non_linear_search():
+    pytest.importorskip("CoolProp.CoolProp")
+    t = coverage.data_grid(1000.0)
+    cp = coverage.cp0("Nitrogen", t)
+    # nitrogen's anharmonic rise: the linear models miss the held-out data by more than
+    # the smooth table's scatter allows (about its own curvature on the 25 K grid)
+    assert extrapolate.pass_level(t, cp, "linear", 2) < 1e-3
+    ext = extrapolate.extend(t, cp, "linear", 2, 2000.0)
+    assert ext.searched and ("anharmonic" in ext.model or "electronic" in ext.model)
+    truth = coverage.cp0("Nitrogen", np.array(ext.t))
+    assert np.all(np.abs(np.array(ext.cp) / truth - 1) <= 2 * np.array(ext.u_rel))
+
+
+@pytest.mark.parametrize("sigma", [0.0, 1e-3, 3e-3])
+def test_the_scatter_of_a_table_is_found_without_a_model(sigma):
+    rng = np.random.default_rng(11)
+    t = np.unique(np.append(np.geomspace(200.0, 3000.0, 99), 298.15))
+    cp = R * statmech.rrho_cp_over_r(t, "linear", CO2_NU) * (1 + sigma * rng.standard_normal(
+        t.size))
+    got = extrapolate.scatter(t, cp)
+    if sigma:
+        assert 0.75 * sigma <= got <= 1.25 * sigma
+    else:
+        assert got < 1e-4          # a smooth table: second differences only

@@ -126,3 +126,14 @@ def test_recorded_settings_round_trip():
     assert Settings.from_dict(json.loads(json.dumps(s.to_dict()))) == s
     with pytest.raises(ValueError, match="unknown setting"):
         Settings.from_dict({"fit": {"no_such": 1}})
+
+
+def test_settings_equal_in_value_keep_their_own_numbers():
+    """Settings that compare equal (6000 == 6000.0, 1 == True) still record what they hold:
+    no cache may hand one the other's dict (its JSON would differ)."""
+    from dataclasses import asdict
+
+    for s in (FitSettings(use_t_max=6000.0), FitSettings(use_t_max=6000), FitSettings(),
+              FitSettings(fixed_breakpoints=(800.0, 2000.0), breakpoint_mode="fixed")):
+        expected = {**asdict(s), "fixed_breakpoints": list(s.fixed_breakpoints)}
+        assert json.dumps(s.to_dict()) == json.dumps(expected)

@@ -1,7 +1,6 @@
 """Effective settings of the stages, with their defaults (one place, recorded in outputs)."""
 
 from dataclasses import asdict, dataclass, fields
-from functools import lru_cache
 
 
 @dataclass(frozen=True)
@@ -69,19 +68,15 @@ class FitSettings:
         return self.ranges * self.min_points_per_range
 
     def to_dict(self) -> dict:
-        """The settings as plain JSON values (recorded in the library and the manifest): a
-        new dict each time, made from one conversion per distinct settings (every species
-        of a build records them)."""
-        try:
-            plain = _plain_fit_settings(self)
-        except TypeError:            # an unhashable value (a list given for a tuple)
-            plain = asdict(self)
-        return {**plain, "fixed_breakpoints": list(self.fixed_breakpoints)}
+        """The settings as plain JSON values (recorded in the library and the manifest).
+        Every field but fixed_breakpoints holds a plain value, so the fields are read as
+        they are (dataclasses.asdict would copy each deeply: every species records them)."""
+        out = {name: getattr(self, name) for name in _FIT_FIELDS}
+        out["fixed_breakpoints"] = list(self.fixed_breakpoints)
+        return out
 
 
-@lru_cache(maxsize=64)
-def _plain_fit_settings(settings: FitSettings) -> dict:
-    return asdict(settings)      # every field but fixed_breakpoints is a plain value
+_FIT_FIELDS = tuple(f.name for f in fields(FitSettings))
 
 
 @dataclass(frozen=True)

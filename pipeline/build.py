@@ -6,6 +6,8 @@ from dataclasses import dataclass, replace
 from functools import partial
 from pathlib import Path
 
+import numpy as np
+
 from . import fit, ingest, partitions
 from .checks import acknowledge, reconcile, references, registry, transitions
 from .core.errors import FitError, InputError, OutputError
@@ -192,7 +194,7 @@ def _fit_all(checked: CheckResult, ctx: Settings, say, previous: dict):
                 result = fit_selection(sel, ctx, previous.get(sel.species_id), who)
             notes = [finding(code, msg, **meta.where) for code, msg in result.notes]
             notes = [f.about_species(sel.species_id) for f in notes] if meta.shared else notes
-            rows = tuple(sorted(zip(sel.data["file"].tolist(), sel.data["line"].tolist())))
+            rows = rows_used(sel.data)
             for f in notes:
                 about.setdefault(meta.file, []).append(f)
         except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
@@ -227,6 +229,14 @@ def _fit_all(checked: CheckResult, ctx: Settings, say, previous: dict):
         out.append(done_)
         entries[sid] = entry
     return out, quarantined, findings, entries
+
+
+def rows_used(data) -> tuple:
+    """(file, (line, ...)) of selection rows ``data``: each file once, files and lines
+    ascending (one string per file, not per row: a large build keeps these until its
+    release is written)."""
+    files, lines = data["file"], data["line"]
+    return tuple((str(f), tuple(sorted(lines[files == f].tolist()))) for f in np.unique(files))
 
 
 def _fit_failure(exc, meta):

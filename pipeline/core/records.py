@@ -375,5 +375,6 @@ class FittedSpecies:
     findings: tuple = ()           # warnings and infos that travel with the species
     uses: tuple = ()               # reconcile.SourceUse of every table considered
     excluded: tuple = ()           # (file, line, code) of rows left out of the fit
-    rows: tuple = ()               # (file, line) of every data row that entered the fit
+    rows: tuple = ()               # (file, (line, ...)) of the data rows that entered the
+    #                                fit: each file once, files and lines ascending
     anchor: dict = field(default_factory=dict, compare=False)  # where H and S were fixed

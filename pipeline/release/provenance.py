@@ -40,9 +40,7 @@ def lineage(fitted) -> dict:
     """The manifest's lineage of one fitted species: files and lines used, lines left out,
     findings and fit settings."""
     meta, fit = fitted.table.meta, fitted.fit
-    by_file = {}
-    for file, line in fitted.rows:
-        by_file.setdefault(file, []).append(line)
+    by_file = {file: list(lines) for file, lines in fitted.rows}
     sources = []
     for u in fitted.uses:
         sources.append({"source": u.meta.source.id, "file": u.meta.file,

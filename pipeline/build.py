@@ -30,7 +30,7 @@ class BuildResult:
     findings: tuple        # all findings
     document: dict         # library.json
     written: tuple         # paths written
-    files: dict = None     # {relative path: bytes} of the release
+    files: object = None   # publish.Release: the release's files (written or kept), .get(path)
     held_back: tuple = ()  # (file, error findings): sources and tables that could not be read
     inputs: tuple = ()     # InputFile of every raw input read
     reused: tuple = (0, 1)  # (partitions taken from the last build, partitions)
@@ -296,10 +296,15 @@ def _build(raw_dir, out_dir, ctx: Settings, progress, previous: dict,
     outcome = assemble.Outcome(document=doc, findings=tuple(findings), fitted=tuple(fitted),
                                quarantined=tuple(quarantined), checked=checked,
                                points=dict(done.points))
-    files = assemble.release_files(outcome, ctx, say)
-    say("publish", 0, 0, str(out_dir or ""))
-    written = [] if out_dir is None else publish.publish(
-        out_dir, files, check=_verify, on_swap=lambda: say("published"))
+    files = publish.Release() if out_dir is None else publish.Release.staged(out_dir)
+    try:
+        assemble.release_files(outcome, ctx, files, say)
+        say("publish", 0, 0, str(out_dir or ""))
+        written = [] if out_dir is None else publish.publish(
+            out_dir, files, check=_verify, on_swap=lambda: say("published"))
+    except BaseException:
+        files.discard()
+        raise
     return BuildResult(fitted=tuple(fitted), quarantined=tuple(quarantined),
                        findings=tuple(findings), document=doc, written=tuple(written),
                        files=files, held_back=checked.held_back, inputs=checked.inputs,
@@ -326,5 +331,5 @@ def audit(raw_dir, curated_dir, ctx: Settings | None = None,
     with tempfile.TemporaryDirectory(prefix="thermoledger-audit-") as tmp:
         result = build(raw_dir, Path(tmp) / "release", ctx,
                        previous=offered_breakpoints(recorded.library))
-    return audit_stage.compare(recorded, result.inputs, result.files, result.document,
-                               ctx.to_dict())
+        return audit_stage.compare(recorded, result.inputs, result.files, result.document,
+                                   ctx.to_dict())   # the rebuilt files are read from tmp

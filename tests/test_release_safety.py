@@ -376,3 +376,31 @@ def test_the_fast_non_finite_check_names_the_first_bad_number(doc):
     assert non_finite(doc) == _first_non_finite(doc, "")
     assert non_finite({"species": [0.5, {"cp": doc}]}) == \
         _first_non_finite({"species": [0.5, {"cp": doc}]}, "")
+
+
+def test_release_files_are_written_as_they_are_made_and_a_failure_leaves_none(
+        tmp_path, raw, capsys, monkeypatch):
+    """The release is never held whole in memory: each file lands in the staging folder as
+    soon as it is made (the report pages before the manifest exists). A build that fails
+    half-way removes its staging folder and leaves the previous release current."""
+    from thermoledger.release import report
+
+    out = tmp_path / "out"
+    assert run(capsys, *build_args(raw, out))[0] == 0
+    before = everything(out)
+    seen = {}
+    real = report.report_files
+
+    def drawing_then_failing(doc, points, accept, workers=None, say=None, put=None):
+        real(doc, points, accept, workers, say, put)
+        staging = [p for p in out.iterdir() if p.name.startswith(".staging-")]
+        seen["pages"] = sorted(str(p.relative_to(staging[0]))
+                               for p in staging[0].rglob("*.html"))
+        seen["manifest"] = (staging[0] / "manifest.json").exists()
+        raise OSError("disk full (simulated)")
+
+    monkeypatch.setattr(report, "report_files", drawing_then_failing)
+    code, _, err = run(capsys, "build", "--raw", raw, "--out", out, "--quiet")
+    assert code != 0 and "disk full" in err and "Traceback" not in err
+    assert "report/index.html" in seen["pages"] and not seen["manifest"]
+    assert everything(out) == before           # no staging folder, the same release current

@@ -26,36 +26,36 @@ class Outcome:
     points: dict = None    # {species id: plot_points of it}, for the report
 
 
-def release_files(outcome: Outcome, ctx: Settings, say=None) -> dict:
-    """Every file of the release, each checked against its schema where it has one;
-    ``say(stage, i, n, label)`` hears of each step (the report species by species)."""
+def release_files(outcome: Outcome, ctx: Settings, release, say=None):
+    """Every file of the release into ``release`` (publish.Release: each written as soon as
+    it is made), each checked against its schema where it has one; ``say(stage, i, n,
+    label)`` hears of each step (the report species by species)."""
 
     from . import report, tables
 
     doc, checked = outcome.document, outcome.checked
     file_stems([sp["id"] for sp in doc["species"]])  # unique file names or stop
-    files = document.release_files(doc, document.findings_document(outcome.findings))
+    release.update(document.release_files(doc, document.findings_document(outcome.findings)))
     out = ctx.outputs
     say = say or (lambda *a: None)
     say("write tables", 0, 0, "tables.parquet")
-    files["tables.parquet"] = tables.tables_parquet_bytes(doc, out.table_step)
+    release.add("tables.parquet", tables.tables_parquet_bytes(doc, out.table_step))
     if out.tables_csv:
-        files.update(tables.csv_files(doc, out.table_step))
+        release.update(tables.csv_files(doc, out.table_step))
     if out.report:
-        files.update(report.report_files(doc, outcome.points, ctx.fit.accept_cp_max_rel,
-                                         say=say))
+        report.report_files(doc, outcome.points, ctx.fit.accept_cp_max_rel, say=say,
+                            put=release.add)
     say("write provenance", 0, 0, "provenance.json, manifest.json")
-    files["provenance.json"] = document.json_bytes(
-        provenance.prov_document(outcome.fitted, checked.inputs, sorted(files.items())))
+    release.add("provenance.json", document.json_bytes(
+        provenance.prov_document(outcome.fitted, checked.inputs, release.outputs())))
     man = provenance.manifest(outcome.fitted, outcome.quarantined, checked.inputs,
-                              sorted(files.items()), ctx.to_dict(),
-                              doc["build"]["inputs_sha256"])
+                              release.outputs(), ctx.to_dict(), doc["build"]["inputs_sha256"])
     document.require_valid(man, "manifest.schema.json", "manifest.json")
-    files["manifest.json"] = document.json_bytes(man)
+    release.add("manifest.json", document.json_bytes(man))
     sources = {t.meta.source.id: t.meta.source for t in checked.tables}.values()
-    files["datapackage.json"] = document.json_bytes(
-        provenance.datapackage(sorted(files.items()), sources, document.NOTICE))
-    return files
+    release.add("datapackage.json", document.json_bytes(
+        provenance.datapackage(release.outputs(), sources, document.NOTICE)))
+    return release
 
 
 def plot_points(species, checked: CheckResult) -> dict:

@@ -62,7 +62,7 @@ def lineage(fitted) -> dict:
 
 
 def manifest(fitted, quarantined, inputs, outputs, settings: dict, inputs_digest: str) -> dict:
-    """The manifest document; ``outputs`` is [(path, bytes)] of every other output."""
+    """The manifest document; ``outputs`` is [(path, sha256, size)] of every other output."""
     return {
         "manifest_format": 1,
         "pipeline_version": __version__,
@@ -70,7 +70,7 @@ def manifest(fitted, quarantined, inputs, outputs, settings: dict, inputs_digest
         "settings": settings,
         "inputs_sha256": inputs_digest,
         "inputs": [{"path": f.path, "sha256": f.sha256, "size": f.size} for f in inputs],
-        "outputs": [{"path": p, "sha256": sha256(b), "size": len(b)} for p, b in outputs],
+        "outputs": [{"path": p, "sha256": digest, "size": size} for p, digest, size in outputs],
         "species": [lineage(s) for s in sorted(fitted, key=lambda s: s.table.meta.species_id)],
         "quarantined": [{"id": m.species_id, "file": m.file,
                          "codes": sorted({f.code for f in reasons})}
@@ -85,14 +85,14 @@ MEDIA = {".json": ("json", "application/json"),
 
 
 def datapackage(outputs, sources, notice: str) -> dict:
-    """Data Package v1 descriptor for ``outputs`` [(path, bytes)] and ``sources`` (SourceMeta)."""
+    """Data Package v1 descriptor for ``outputs`` [(path, sha256, size)] and ``sources``
+    (SourceMeta)."""
     resources = []
-    for path, data in outputs:
+    for path, digest, size in outputs:
         ext = "." + path.rsplit(".", 1)[-1]
         fmt, media = MEDIA.get(ext, ("bin", "application/octet-stream"))
         res = {"name": re.sub(r"[^a-z0-9._-]", "-", path.lower()), "path": path,
-               "format": fmt, "mediatype": media, "bytes": len(data),
-               "hash": f"sha256:{sha256(data)}"}
+               "format": fmt, "mediatype": media, "bytes": size, "hash": f"sha256:{digest}"}
         if path == "library.parquet":
             res["profile"] = "tabular-data-resource"
             res["schema"] = {"fields": [{"name": n, "type": t, **({"description": d} if d else {})}
@@ -115,7 +115,8 @@ def datapackage(outputs, sources, notice: str) -> dict:
 
 
 def prov_document(fitted, inputs, outputs) -> dict:
-    """PROV-JSON: raw files and species as entities, the build and each fit as activities."""
+    """PROV-JSON: raw files and species as entities, the build and each fit as activities;
+    ``outputs`` [(path, sha256, size)] of the files written before it."""
     agent = f"tl:thermoledger-{__version__}"
     doc = {"prefix": {"tl": "https://thermoledger.invalid/ns#",
                       "raw": "https://thermoledger.invalid/raw/",
@@ -133,9 +134,9 @@ def prov_document(fitted, inputs, outputs) -> dict:
         ent[raw_id[f.path]] = {"prov:type": "tl:RawFile", "tl:path": f.path, "tl:sha256": f.sha256}
     doc["activity"]["tl:build"] = {"prov:type": "tl:Build"}
     rel("wasAssociatedWith", {"prov:activity": "tl:build", "prov:agent": agent})
-    for path, data in outputs:
+    for path, digest, _ in outputs:
         oid = "out:" + safe_name(path)
-        ent[oid] = {"prov:type": "tl:Output", "tl:path": path, "tl:sha256": sha256(data)}
+        ent[oid] = {"prov:type": "tl:Output", "tl:path": path, "tl:sha256": digest}
         rel("wasGeneratedBy", {"prov:entity": oid, "prov:activity": "tl:build"})
     for sp in sorted(fitted, key=lambda s: s.table.meta.species_id):
         sid = file_stem(sp.table.meta.species_id)

@@ -13,7 +13,9 @@ curated/
   report -> current/report                 ...
 ```
 
-A build writes its release into the staging folder, checks it against its own manifest,
+A build writes each file of its release into the staging folder as soon as it is made
+(``Release``: a large release is never held in memory whole), checks it against its own
+manifest,
 renames it to ``releases/<id>`` and then swaps ``current`` to it with one atomic rename of
 a link. A build killed at any moment leaves ``current`` at the complete previous release or
 the complete new one. Readers that resolve ``current`` once (``thermoledger.library.load``
@@ -220,18 +222,74 @@ def _link(target: Path, name: str, points_to: str):
     os.replace(tmp, path)
 
 
-def _release_id(files: dict) -> str:
-    return sha256(files["manifest.json"])[:16]
+class Release:
+    """The files of a release as they are made, each with its sha256 and size: written at
+    once into the staging folder of a locked release home (``Release.staged``), or kept in
+    memory (``Release()``, a build that publishes nothing)."""
+
+    def __init__(self, folder: Path | None = None, flat=None):
+        self.folder = folder
+        self.flat = flat           # files of a flat release in the home, to take over
+        self._kept = {} if folder is None else None
+        self._sums = {}
+
+    @classmethod
+    def staged(cls, target: Path) -> "Release":
+        """A release written into ``target``/.staging-<pid> (``target`` locked; what it
+        holds is judged before the staging folder is made)."""
+        target = Path(target)
+        kind = kind_of(target)
+        if kind == "other":
+            raise OutputError(f"refusing to write into {target}: it is not a release home")
+        flat = _flat_release_files(target) if kind == "flat" else None
+        staging = target / f".staging-{os.getpid()}"
+        shutil.rmtree(staging, ignore_errors=True)
+        staging.mkdir()
+        return cls(staging, flat)
+
+    def add(self, rel: str, data: bytes) -> None:
+        if self._kept is not None:
+            self._kept[rel] = data
+        else:
+            path = self.folder / rel
+            path.parent.mkdir(parents=True, exist_ok=True)
+            with open(path, "wb") as fh:
+                fh.write(data)
+                fh.flush()
+                os.fsync(fh.fileno())
+        self._sums[rel] = (sha256(data), len(data))
+
+    def update(self, files: dict) -> None:
+        for rel, data in files.items():
+            self.add(rel, data)
+
+    def outputs(self) -> list:
+        """[(relative path, sha256, size)] of the files so far, sorted by path."""
+        return [(rel, *self._sums[rel]) for rel in sorted(self._sums)]
+
+    def get(self, rel: str, default=None):
+        """The bytes of file ``rel`` (read back from disk when written), else ``default``."""
+        if rel not in self._sums:
+            return default
+        return self._kept[rel] if self._kept is not None else (self.folder / rel).read_bytes()
+
+    def __contains__(self, rel) -> bool:
+        return rel in self._sums
+
+    def __iter__(self):
+        return iter(sorted(self._sums))
+
+    def __len__(self) -> int:
+        return len(self._sums)
+
+    def discard(self) -> None:
+        """Remove the staging folder (a build that failed or was interrupted)."""
+        if self._kept is None and self.folder.name.startswith(".staging-"):
+            shutil.rmtree(self.folder, ignore_errors=True)
 
 
-def _write_tree(folder: Path, files: dict):
-    for rel in sorted(files):
-        path = folder / rel
-        path.parent.mkdir(parents=True, exist_ok=True)
-        with open(path, "wb") as fh:
-            fh.write(files[rel])
-            fh.flush()
-            os.fsync(fh.fileno())
+def _release_id(release: Release) -> str:
+    return dict((rel, digest) for rel, digest, _ in release.outputs())["manifest.json"][:16]
 
 
 def _swap_current(target: Path, rid: str, on_swap):
@@ -272,40 +330,38 @@ def _prune(target: Path, keep: set):
         shutil.rmtree(p, ignore_errors=True)
 
 
-def publish(target: Path, files: dict, check=None, on_swap=None) -> list:
-    """Write ``files`` {relative path: bytes} as the new current release of the locked
-    release home ``target`` (see ``locked``).
+def publish(target: Path, release: Release, check=None, on_swap=None) -> list:
+    """Make ``release`` (``Release.staged`` in ``target``, every file written) the new
+    current release of the locked release home ``target`` (see ``locked``).
 
     ``check(staging_path)`` may raise to abort before anything is swapped in; ``on_swap()``
     is called the moment the new release is current. Returns the paths of the release's
     files as readers see them (through ``target``'s links).
     """
     target = Path(target)
-    kind = kind_of(target)
-    if kind == "other":
-        raise OutputError(f"refusing to write into {target}: it is not a release home")
-    flat = _flat_release_files(target) if kind == "flat" else None
-    rid = _release_id(files)
-    staging = target / f".staging-{os.getpid()}"
+    flat = release.flat
+    rid = _release_id(release)
+    staging = release.folder
     home = target / RELEASES
     final = home / rid
     try:
         if not final.is_dir():
-            staging.mkdir()
-            _write_tree(staging, files)
             if check:
                 check(staging)
             home.mkdir(exist_ok=True)
             os.rename(staging, final)
-        elif check:
-            check(final)  # equal manifests: the same release is already there
+        else:
+            release.discard()
+            if check:
+                check(final)  # equal manifests: the same release is already there
+        release.folder = final
     except BaseException:
-        shutil.rmtree(staging, ignore_errors=True)
+        release.discard()
         raise
     if flat is not None:
         _take_over_flat(target, flat)
     previous = os.readlink(target / CURRENT) if (target / CURRENT).is_symlink() else None
-    top = sorted({rel.split("/", 1)[0] for rel in files})
+    top = sorted({rel.split("/", 1)[0] for rel in release})
     for name in top:
         _link(target, name, f"{CURRENT}/{name}")
     _swap_current(target, rid, on_swap)
@@ -315,4 +371,4 @@ def publish(target: Path, files: dict, check=None, on_swap=None) -> list:
             entry.unlink()
     keep = {rid} | ({Path(previous).name} if previous else set())
     _prune(target, keep)
-    return [target / rel for rel in sorted(files)]
+    return [target / rel for rel in release]

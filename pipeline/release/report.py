@@ -377,8 +377,10 @@ def index_page(doc) -> bytes:
     return page("Build report", "".join(body), script=PAGER_JS)
 
 
-def report_files(doc, points, accept, workers=None, say=None) -> dict:
-    """{relative path: bytes} of the report; ``points`` maps species id to its data:
+def report_files(doc, points, accept, workers=None, say=None, put=None) -> dict:
+    """{relative path: bytes} of the report; with ``put``, each file goes to ``put(path,
+    bytes)`` as soon as it is drawn instead (a large report is never held whole) and the
+    dict is empty. ``points`` maps species id to its data:
     t, cp (rows used), t_out, cp_out (rows left out), and optional (t, deviation) pairs
     'dh' and 's' against the table's columns. Large reports are drawn by up to ``workers``
     processes (default: the cores of the machine); the files do not depend on how many.
@@ -391,6 +393,7 @@ def report_files(doc, points, accept, workers=None, say=None) -> dict:
     say = say or (lambda *a: None)
     workers = workers or min(os.cpu_count() or 1, 4)
     files = {}
+    add = put or files.__setitem__
     size = 25
     chunks = [species[i:i + size] for i in range(0, len(species), size)]
     done = 0
@@ -408,22 +411,25 @@ def report_files(doc, points, accept, workers=None, say=None) -> dict:
                              [accept] * len(chunks), [transitions] * len(chunks),
                              [{s["id"]: formed[s["id"]] for s in c} for c in chunks])
             for chunk, part in zip(chunks, parts):
-                files.update(part)
+                for path, data in part.items():
+                    add(path, data)
                 tick(chunk)
     else:
         for chunk in chunks:
-            files.update(_species_files(chunk, points, accept, transitions, formed))
+            for path, data in _species_files(chunk, points, accept, transitions,
+                                             formed).items():
+                add(path, data)
             tick(chunk)
     by_id = {s["id"]: s for s in species}
     for name in sorted({x["species"] for x in transitions}):
-        files[f"report/img/{file_stem(name)}-phases.svg"] = plots.phase_figure(
-            name, transitions, by_id)
+        add(f"report/img/{file_stem(name)}-phases.svg", plots.phase_figure(
+            name, transitions, by_id))
     per_source = Counter(s["sources"][0]["source"] for s in species)
     hist, bars = plots.overview_figures([100 * s["quality"]["cp_max_rel_dev"]
                                          for s in species], per_source)
-    files["report/img/overview-deviation.svg"] = hist
-    files["report/img/overview-sources.svg"] = bars
-    files["report/index.html"] = index_page(doc)
+    add("report/img/overview-deviation.svg", hist)
+    add("report/img/overview-sources.svg", bars)
+    add("report/index.html", index_page(doc))
     return dict(sorted(files.items()))
 
 

@@ -248,16 +248,20 @@ def _fit_failure(exc, meta):
 
 
 def _build_part(raw_dir, ctx: Settings, previous: dict, say, part) -> partitions.PartResult:
-    """Read, check and fit the species of one partition, and gather the rows its report
-    plots (also without a report, so that the result does not depend on the outputs asked
-    for); the tables go on without their rows (what follows needs their metadata only)."""
+    """Read, check and fit the species of one partition, gather the rows its report plots
+    (also without a report, so that the result does not depend on the outputs asked for)
+    and evaluate its species' tables (all but the formation properties, which need the
+    reference species of every partition); the tables go on without their rows (what
+    follows needs their metadata only)."""
     checked = examine_part(raw_dir, ctx, part)
     fitted, quarantined, findings, entries = _fit_all(checked, ctx, say, previous)
     points = assemble.plot_points(entries.values(), checked)   # whatever the outputs
+    rows = assemble.evaluated_rows(entries, checked.chains, ctx.outputs.table_step)
     checked, fitted = _without_rows(checked, fitted)
     return partitions.PartResult(checked=checked, fitted=tuple(fitted),
                                  quarantined=tuple(quarantined), findings=tuple(findings),
-                                 entries=tuple(entries.items()), points=tuple(points.items()))
+                                 entries=tuple(entries.items()), points=tuple(points.items()),
+                                 rows=tuple(rows.items()))
 
 
 def _without_rows(checked: CheckResult, fitted) -> tuple:
@@ -295,7 +299,7 @@ def _build(raw_dir, out_dir, ctx: Settings, progress, previous: dict,
                                  ctx.checks.stated_formation_u)
     outcome = assemble.Outcome(document=doc, findings=tuple(findings), fitted=tuple(fitted),
                                quarantined=tuple(quarantined), checked=checked,
-                               points=dict(done.points))
+                               points=dict(done.points), rows=dict(done.rows))
     files = publish.Release() if out_dir is None else publish.Release.staged(out_dir)
     try:
         assemble.release_files(outcome, ctx, files, say)

@@ -68,6 +68,7 @@ class PartResult:
     findings: tuple = ()      # every finding, after fitting
     entries: tuple = ()       # (species id, library entry)
     points: tuple = ()        # (species id, report plot points), when there is a report
+    rows: tuple = ()          # (species id, library.tables.own_rows of its evaluated table)
 
 
 def _table_key(table):
@@ -142,7 +143,8 @@ def merge(parts) -> PartResult:
         quarantined=_merged_quarantined(p.quarantined for p in parts),
         findings=_merged_findings(p.findings for p in parts),
         entries=tuple(sorted((e for p in parts for e in p.entries), key=lambda e: e[0])),
-        points=tuple(sorted((e for p in parts for e in p.points), key=lambda e: e[0])))
+        points=tuple(sorted((e for p in parts for e in p.points), key=lambda e: e[0])),
+        rows=tuple(sorted((e for p in parts for e in p.rows), key=lambda e: e[0])))
 
 
 def listed_entries(raw_dir) -> int:
@@ -249,8 +251,8 @@ def _file_digest(path: Path, raw: Path) -> str:
 
 def part_keys(raw_dir, parts: int, settings: dict, previous: dict) -> list:
     """The key of each partition: a sha256 of everything its result depends on. Shared by
-    all: the code and the versions of the numerical libraries, the settings (but the
-    outputs asked for, which only the release reads), every path
+    all: the code and the versions of the numerical libraries, the settings (of the outputs
+    asked for only the step of the evaluated tables, made in the partitions), every path
     under ``raw_dir`` (unlisted files are
     findings), every source.json and coefficient-set file; its own: the tables its species
     names list and the breakpoints ``previous`` offers them."""
@@ -261,6 +263,7 @@ def part_keys(raw_dir, parts: int, settings: dict, previous: dict) -> list:
     shared.update(json.dumps(dependency_versions(), sort_keys=True).encode())
     shared.update(json.dumps({k: v for k, v in settings.items() if k != "outputs"},
                              sort_keys=True, default=str).encode())   # outputs: release only
+    shared.update(f"table_step {settings.get('outputs', {}).get('table_step')}".encode())
     shared.update("\n".join(sorted(str(p.relative_to(raw)) for p in raw.rglob("*"))).encode())
     own = [hashlib.sha256() for _ in range(parts)]
     for sid, points in sorted(previous.items()):

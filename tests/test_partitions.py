@@ -193,3 +193,18 @@ def test_partitions_kept_without_the_report_serve_a_build_with_it(tmp_path):
     assert build.build(raw, tmp_path / "full", parts=2, fresh=True).reused == (0, 2)
     assert tree_hashes(out) == tree_hashes(tmp_path / "full")
     assert any(name.startswith("report/img/") for name in tree_hashes(out))
+
+
+def test_tables_evaluated_in_the_partitions_equal_the_whole_library_s(tmp_path):
+    """The evaluated tables are made where each species was fitted, and the formation
+    properties (which need every partition's reference species) added afterwards: the
+    demo's tables.parquet equals one made from the library document alone, also with
+    another table step; a kept partition of another step is not reused."""
+    from thermoledger.core.settings import OutputSettings, Settings
+    from thermoledger.release.tables import tables_parquet_bytes
+
+    for step in (100.0, 37.5):
+        ctx = Settings(outputs=OutputSettings(report=False, table_step=step))
+        got = build.build(RAW, tmp_path / "out", ctx, parts=3)
+        assert got.files.get("tables.parquet") == tables_parquet_bytes(got.document, step)
+        assert got.reused == (0, 3)

@@ -7,6 +7,8 @@ ids each element counts from: one entry, or the phases of one species linked by 
 with no ids and the reason, and species containing it get no formation properties.
 """
 
+from functools import lru_cache
+
 from ..core import chemistry
 from ..core.elements import default_reference
 from ..core.limits import REFERENCE_H_TOLERANCE
@@ -19,8 +21,10 @@ def elements_of(formula: str) -> tuple:
     return tuple((e, n) for e, n in chemistry.composition(formula).elements if e != "e-")
 
 
+@lru_cache(maxsize=4096)
 def charge_of(formula: str) -> int:
-    """The charge of a formula such as 'OH-' or '[SO4]2-' (0 for a neutral one)."""
+    """The charge of a formula such as 'OH-' or '[SO4]2-' (0 for a neutral one); remembered
+    per formula (every species is asked twice per build)."""
     import molmass
 
     return int(molmass.Formula(formula).charge)

@@ -70,19 +70,31 @@ def species_rows(sp, step=100.0, points=None, transitions=(), formation=None) ->
     the library (rows at the entry's transition temperatures, and where it is stable);
     ``formation`` the library's Formation (formation properties, NaN where there are none:
     no reference state for an element, or no reference phase in range)."""
+    return with_formation(own_rows(sp, step, points, transitions), sp["id"], formation)
+
+
+def own_rows(sp, step=100.0, points=None, transitions=()) -> dict:
+    """``species_rows`` without the formation properties (NaN): what the entry alone gives,
+    so that it can be evaluated where the species was fitted."""
     mine = [x["temperature"] for x in transitions if sp["id"] in (x["from"], x["to"])]
     t = grid(sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"], step, points, mine)
     ev = library.evaluate_entry(sp, t)
     h298 = library.enthalpy_zero(sp)
     lo, hi = stable_interval(sp, transitions)
-    made = formation.at(sp["id"], t) if formation is not None else None
     nothing = np.full(len(t), np.nan)
     return {"id": [sp["id"]] * len(t), "phase": [sp.get("phase", "")] * len(t), "T": t,
             "Cp": ev["Cp"], "u_Cp": ev["u_Cp"], "H_minus_H298": ev["H"] - h298,
             "u_H": ev["u_H"], "S": ev["S"], "u_S": ev["u_S"], "gef": -(ev["G"] - h298) / t,
-            "H": ev["H"], **{k: made[k] if made else nothing for k in FORMATION},
+            "H": ev["H"], **{k: nothing for k in FORMATION},
             "stable": (t >= lo) & (t <= hi),
             "extrapolated": ev["extrapolated"].astype(bool)}
+
+
+def with_formation(rows: dict, sid: str, formation=None) -> dict:
+    """``own_rows`` of species ``sid`` with the formation properties of the library's
+    Formation filled in (unchanged when it has none)."""
+    made = formation.at(sid, rows["T"]) if formation is not None else None
+    return {**rows, **{k: made[k] for k in FORMATION}} if made else rows
 
 
 def stable_rows(doc, name, step=100.0) -> dict:

@@ -24,6 +24,7 @@ class Outcome:
     quarantined: tuple     # (TableMeta, findings)
     checked: CheckResult   # what was read and checked (tables without their rows)
     points: dict = None    # {species id: plot_points of it}, for the report
+    rows: dict = None      # {species id: library.tables.own_rows of it}, made where it was fitted
 
 
 def release_files(outcome: Outcome, ctx: Settings, release, say=None):
@@ -39,7 +40,8 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None):
     out = ctx.outputs
     say = say or (lambda *a: None)
     say("write tables", 0, 0, "tables.parquet")
-    release.add("tables.parquet", tables.tables_parquet_bytes(doc, out.table_step))
+    release.add("tables.parquet", tables.tables_parquet_bytes(doc, out.table_step,
+                                                              own=outcome.rows))
     if out.tables_csv:
         release.update(tables.csv_files(doc, out.table_step))
     if out.report:
@@ -56,6 +58,16 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None):
     release.add("datapackage.json", document.json_bytes(
         provenance.datapackage(release.outputs(), sources, document.NOTICE)))
     return release
+
+
+def evaluated_rows(entries: dict, chains, step: float) -> dict:
+    """{species id: library.tables.own_rows} of the fitted ``entries`` of one partition,
+    with the transitions between its fitted phases (``chains``: a species' phases are
+    fitted in one partition), every ``step`` K."""
+    from ..library.tables import own_rows, transitions_of
+
+    trs = transitions_of(document.transition_entries(chains, set(entries)))
+    return {sid: own_rows(sp, step, None, trs.get(sid, ())) for sid, sp in entries.items()}
 
 
 def plot_points(species, checked: CheckResult) -> dict:

@@ -13,18 +13,23 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from ..core.names import file_stem
+from ..library import tables as evaluated
 from ..library.formation import Formation
-from ..library.tables import COLUMNS, FLAGS, HEADERS, TEXT, UNITS, species_rows, stable_rows, transitions_of
+from ..library.tables import COLUMNS, FLAGS, HEADERS, TEXT, UNITS, species_rows, stable_rows
 
 DANGEROUS = ("=", "+", "-", "@", "\t", "\r")
 
 
-def tables_parquet_bytes(doc, step=100.0, points=None) -> bytes:
+def tables_parquet_bytes(doc, step=100.0, points=None, own=None) -> bytes:
     """tables.parquet: the evaluated table of every species (T [K], Cp [J/(mol K)], ...),
-    units in the key-value metadata."""
-    trs = transitions_of(doc.get("transitions", []))
+    units in the key-value metadata. ``own`` maps species ids to their ``own_rows`` made
+    where they were fitted (with this ``step``); only the formation properties are added
+    here."""
+    trs = evaluated.transitions_of(doc.get("transitions", []))
     made = Formation(doc)
-    parts = [species_rows(sp, step, points, trs.get(sp["id"], ()), made)
+    own = own or {}
+    parts = [evaluated.with_formation(own[sp["id"]], sp["id"], made) if sp["id"] in own else
+             species_rows(sp, step, points, trs.get(sp["id"], ()), made)
              for sp in doc["species"]]
     cols = {c: (np.concatenate([p[c] for p in parts]) if parts else np.array([]))
             for c in COLUMNS}
@@ -75,7 +80,7 @@ def csv_files(doc, step=100.0, points=None) -> dict:
     with transitions the table across its phases (tables/<name>.csv, stable rows only)."""
     trs = doc.get("transitions", [])
     made = Formation(doc)
-    own = transitions_of(trs)
+    own = evaluated.transitions_of(trs)
     files = {f"tables/{file_stem(sp['id'])}.csv": csv_bytes(sp, step, points,
                                                              own.get(sp["id"], ()), made)
              for sp in doc["species"]}

@@ -10,7 +10,7 @@ import numpy as np
 
 from . import fit, ingest, partitions
 from .checks import acknowledge, reconcile, references, registry, transitions
-from .core.errors import FitError, InputError, OutputError
+from .core.errors import FitError, OutputError
 from .core.findings import ERROR, INFO, by_subject, concerns, finding, stage_failed, subject
 from .core.records import CheckResult, CpData, FittedSpecies, SpeciesIdentity, Table
 from .core.settings import Settings, for_table
@@ -118,12 +118,27 @@ def settle_set(sel, ctx: Settings, about):
 def previous_breakpoints(out_dir) -> dict:
     """{species id: breakpoints [K]} of the release published in ``out_dir``, offered to the
     breakpoint search so that breakpoints stay where they were unless the data say otherwise;
-    empty when there is none or it cannot be read (a first build)."""
+    empty when there is none or it cannot be read (a first build). Only the breakpoints are
+    read (orjson, no schema check: 0.3 s instead of 2.7 s for 10 000 species); an entry
+    whose id or breakpoints are not what a release writes is not offered."""
+    import math
+
+    import orjson
+
     try:
-        doc = library.load(out_dir)
-    except InputError:
+        doc = orjson.loads((library.release_folder(Path(out_dir)) / "library.json").read_bytes())
+        species = doc["species"]
+    except (OSError, ValueError, KeyError, TypeError):
         return {}
-    return {sp["id"]: tuple(sp["breakpoints"]) for sp in doc["species"]}
+    out = {}
+    for sp in species if isinstance(species, list) else ():
+        sid, bps = sp.get("id") if isinstance(sp, dict) else None, \
+            sp.get("breakpoints") if isinstance(sp, dict) else None
+        if isinstance(sid, str) and isinstance(bps, list) and all(
+                isinstance(x, (int, float)) and not isinstance(x, bool) and math.isfinite(x)
+                for x in bps):
+            out[sid] = tuple(bps)
+    return out
 
 
 def offered_breakpoints(doc: dict) -> dict:

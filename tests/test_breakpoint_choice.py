@@ -137,3 +137,21 @@ def test_settings_equal_in_value_keep_their_own_numbers():
               FitSettings(fixed_breakpoints=(800.0, 2000.0), breakpoint_mode="fixed")):
         expected = {**asdict(s), "fixed_breakpoints": list(s.fixed_breakpoints)}
         assert json.dumps(s.to_dict()) == json.dumps(expected)
+
+
+def test_only_well_formed_breakpoints_of_the_last_release_are_offered(tmp_path):
+    """A rebuild reads the last release's breakpoints without its schema check (fast), so
+    an entry edited by hand is skipped, and an unreadable library offers nothing."""
+    from thermoledger import build
+
+    lib = tmp_path / "library.json"
+    lib.write_text(json.dumps({"species": [
+        {"id": "N2(g)", "breakpoints": [1000.0]}, {"id": "CO(g)", "breakpoints": ["1000"]},
+        {"id": 7, "breakpoints": [900.0]}, {"id": "Ar(g)", "breakpoints": []},
+        {"id": "O2(g)", "breakpoints": [True]}, "junk"]}))
+    assert build.previous_breakpoints(tmp_path) == {"N2(g)": (1000.0,), "Ar(g)": ()}
+    lib.write_text('{"species": [{"id": "N2(g)", "breakpoints": [NaN]}]}')
+    assert build.previous_breakpoints(tmp_path) == {}
+    lib.write_bytes(b"\xff\xfe not json")
+    assert build.previous_breakpoints(tmp_path) == {}
+    assert build.previous_breakpoints(tmp_path / "absent") == {}

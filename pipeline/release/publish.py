@@ -29,7 +29,6 @@ in it is listed in its manifest. The output may not be, contain or lie inside a 
 the working directory, a filesystem root or the home folder, also through a link.
 """
 
-import json
 import os
 import re
 import shutil
@@ -59,9 +58,12 @@ def _is_inside(a: Path, b: Path) -> bool:
 
 
 def _manifest(path: Path):
-    """The manifest document at ``path`` if it is a thermoledger manifest, else None."""
+    """The manifest document at ``path`` if it is a thermoledger manifest, else None (orjson:
+    a large release's manifest is read in a fraction of the time)."""
+    import orjson
+
     try:
-        doc = json.loads(path.read_text(encoding="utf-8"))
+        doc = orjson.loads(path.read_bytes())
     except (OSError, ValueError):
         return None
     if isinstance(doc, dict) and doc.get("manifest_format") == 1 and isinstance(

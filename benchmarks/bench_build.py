@@ -35,12 +35,17 @@ from thermoledger.core.constants import GAS_CONSTANT
 from thermoledger.physics import statmech
 
 ROOT = Path(__file__).resolve().parent.parent
+#: species per source beyond four sources (a source.json of 2 000 tables is about 0.5 MB)
+SOURCE_TABLES = 2000
 COMMAND = [str(Path(sys.executable).with_name("thermoledger"))]
 
 
 def make_raw(raw: Path, n: int, points: int, seed: int = 1, flagged: bool = False) -> None:
-    """Write n species into four sources; with flagged, every table has one outlier (+3 %)
-    that its source.json acknowledges, so every table carries a finding."""
+    """Write n species into four sources, or one per SOURCE_TABLES species when there are
+    more (a source.json stays under the size ingest accepts); with flagged, every table has
+    one outlier (+3 %) that its source.json acknowledges, so every table carries a
+    finding."""
+    n_sources = max(4, -(-n // SOURCE_TABLES))
     rng = np.random.default_rng(seed)
     t = np.unique(np.append(np.geomspace(200.0, 3000.0, points - 1), 298.15))
     per_source = {}
@@ -54,7 +59,7 @@ def make_raw(raw: Path, n: int, points: int, seed: int = 1, flagged: bool = Fals
         if flagged:
             cp[t.size // 2] *= 1.03
         formula = f"C{atoms - 1}O" if atoms > 2 else "CO"
-        source = f"bench-{i % 4}"
+        source = f"bench-{i % n_sources}"
         folder = raw / source
         folder.mkdir(parents=True, exist_ok=True)
         name = f"s{i:06d}"
@@ -100,10 +105,11 @@ def _tree_rss(root: int) -> int:
     return total
 
 
-def timed(argv) -> tuple:
-    """(wall seconds, peak tree memory [MiB], exit code) of one command."""
+def timed(argv, expect: str = "") -> tuple:
+    """(wall seconds, peak tree memory [MiB], exit code) of one command; stops the benchmark
+    unless its summary says ``expect`` (e.g. '1000 species fitted')."""
     t0 = time.perf_counter()
-    proc = subprocess.Popen(COMMAND + argv, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    proc = subprocess.Popen(COMMAND + argv, stdout=subprocess.PIPE, stderr=subprocess.PIPE)
     peak = [0]
 
     def sample():
@@ -113,11 +119,13 @@ def timed(argv) -> tuple:
 
     thread = threading.Thread(target=sample, daemon=True)
     thread.start()
-    err = proc.communicate()[1]
+    out, err = proc.communicate()
     wall = time.perf_counter() - t0
     thread.join()
     if proc.returncode not in (0, 1):
         sys.exit(f"{' '.join(argv)} failed ({proc.returncode}): {err.decode()[-400:]}")
+    if expect not in out.decode():
+        sys.exit(f"{' '.join(argv)} did not do the work: {out.decode()[:400]}")
     return wall, peak[0] / 1024.0, proc.returncode
 
 
@@ -168,14 +176,15 @@ def main(argv=None) -> int:
             raw, out = Path(tmp) / f"raw{n}", Path(tmp) / f"out{n}"
             make_raw(raw, n, args.points, flagged=args.flagged)
             w = ["--workers", str(args.workers)]
-            runs = [("check", ["check", "--raw", str(raw), *w]),
+            built = f"{n} species fitted, 0 table(s) quarantined"
+            runs = [("check", ["check", "--raw", str(raw), *w], f"{n} table(s) read, "),
                     ("build --no-report", ["build", "--raw", str(raw), "--out", str(out),
-                                           "--quiet", "--no-report", *w])]
+                                           "--quiet", "--no-report", *w], built)]
             if not args.skip_report:
                 runs.append(("build (with report)", ["build", "--raw", str(raw), "--out",
-                                                      str(out) + "r", "--quiet", *w]))
-            for label, cmd in runs:
-                wall, peak, _ = timed(cmd)
+                                                      str(out) + "r", "--quiet", *w], built))
+            for label, cmd, expect in runs:
+                wall, peak, _ = timed(cmd, expect)
                 print(f"{n:>8} {label:<22} {wall:>9.1f} {n / wall:>10.0f} {peak:>11.0f}",
                       flush=True)
             rate = naive(raw, min(n, 2000))

@@ -36,16 +36,20 @@ class BuildResult:
     reused: tuple = (0, 1)  # (partitions taken from the last build, partitions)
 
 
-def examine(raw_dir, ctx: Settings = Settings(), workers: int = 1) -> CheckResult:
+def examine(raw_dir, ctx: Settings = Settings(), workers: int = 1,
+            rows: bool = True) -> CheckResult:
     """Ingest, validate and reconcile (the ``check`` command); no fitting, nothing written.
     ``workers`` processes check the species partitions (0: as many as suit the machine and
-    the size of ``raw_dir``); the result does not depend on how many."""
+    the size of ``raw_dir``); the result does not depend on how many. Without ``rows``, its
+    tables and selections come without their rows (the ``check`` command: the rows of
+    100 000 tables would cost gigabytes)."""
     cut = partitions.plan(raw_dir, workers)
-    return partitions.run(partial(_check_part, raw_dir, ctx), cut)[0].checked
+    return partitions.run(partial(_check_part, raw_dir, ctx, rows), cut)[0].checked
 
 
-def _check_part(raw_dir, ctx, part) -> partitions.PartResult:
-    return partitions.PartResult(checked=examine_part(raw_dir, ctx, part))
+def _check_part(raw_dir, ctx, rows, part) -> partitions.PartResult:
+    checked = examine_part(raw_dir, ctx, part)
+    return partitions.PartResult(checked=checked if rows else _without_rows(checked, ())[0])
 
 
 def examine_part(raw_dir, ctx: Settings = Settings(), part=None) -> CheckResult:

@@ -55,7 +55,7 @@ def cmd_check(args) -> int:
     from .. import build
     from ..release import document as release_document
 
-    result = build.examine(args.raw, settings_of(args), workers=args.workers)
+    result = build.examine(args.raw, settings_of(args), workers=args.workers, rows=False)
     n_err = render.totals(result.findings)[0]
     doc = release_document.findings_document(result.findings)
     if args.json:

@@ -280,21 +280,25 @@ def _build_part(raw_dir, ctx: Settings, previous: dict, say, part) -> partitions
     return partitions.PartResult(checked=checked, fitted=tuple(fitted),
                                  quarantined=tuple(quarantined), findings=tuple(findings),
                                  entries=tuple(entries.items()), points=tuple(points.items()),
-                                 rows=tuple(rows.items()))
+                                 rows=(rows,))
 
 
 def _without_rows(checked: CheckResult, fitted) -> tuple:
     """(checked, fitted) with every table and selection emptied of its rows: a large build
-    keeps about 25 KB less per species until its release is written."""
-    bare = {}
+    keeps about 25 KB less per species until its release is written. Tables with the same
+    columns share one empty Rows (pickled once, not once per table)."""
+    bare, no_rows = {}, {}
+
+    def nothing(data):
+        return no_rows.setdefault(data.columns, data.head(0))
 
     def empty(table):
         if id(table) not in bare:
-            bare[id(table)] = Table(meta=table.meta, data=table.data.head(0))
+            bare[id(table)] = Table(meta=table.meta, data=nothing(table.data))
         return bare[id(table)]
 
     checked = replace(checked, tables=tuple(empty(t) for t in checked.tables),
-                      selections=tuple(replace(s, primary=empty(s.primary), data=s.data.head(0))
+                      selections=tuple(replace(s, primary=empty(s.primary), data=nothing(s.data))
                                        for s in checked.selections))
     return checked, [replace(f, table=empty(f.table)) for f in fitted]
 
@@ -318,7 +322,7 @@ def _build(raw_dir, out_dir, ctx: Settings, progress, previous: dict,
                                  ctx.checks.stated_formation_u)
     outcome = assemble.Outcome(document=doc, findings=tuple(findings), fitted=tuple(fitted),
                                quarantined=tuple(quarantined), checked=checked,
-                               points=dict(done.points), rows=dict(done.rows))
+                               points=dict(done.points), rows=done.rows)
     files = publish.Release() if out_dir is None else publish.Release.staged(out_dir)
     try:
         assemble.release_files(outcome, ctx, files, say)

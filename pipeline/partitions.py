@@ -68,7 +68,7 @@ class PartResult:
     findings: tuple = ()      # every finding, after fitting
     entries: tuple = ()       # (species id, library entry)
     points: tuple = ()        # (species id, report plot points), when there is a report
-    rows: tuple = ()          # (species id, library.tables.own_rows of its evaluated table)
+    rows: tuple = ()          # library.tables.pack_rows blocks: its species' evaluated tables
 
 
 def _table_key(table):
@@ -144,7 +144,7 @@ def merge(parts) -> PartResult:
         findings=_merged_findings(p.findings for p in parts),
         entries=tuple(sorted((e for p in parts for e in p.entries), key=lambda e: e[0])),
         points=tuple(sorted((e for p in parts for e in p.points), key=lambda e: e[0])),
-        rows=tuple(sorted((e for p in parts for e in p.rows), key=lambda e: e[0])))
+        rows=tuple(block for p in parts for block in p.rows))
 
 
 def listed_entries(raw_dir) -> int:

@@ -218,3 +218,26 @@ def test_check_keeps_no_rows_and_finds_the_same():
     assert all(len(s.data) == 0 for s in bare.selections)
     assert bare.findings == full.findings and bare.quarantined == full.quarantined
     assert [s.species_id for s in bare.selections] == [s.species_id for s in full.selections]
+
+
+def test_packed_tables_give_back_every_species_rows():
+    """A partition keeps its evaluated tables packed in a few arrays; unpacked they are
+    each species' own_rows, value for value and type for type."""
+    import numpy as np
+    from thermoledger.library import document, tables
+
+    doc = document.load(RAW.parent / "curated")
+    trs = tables.transitions_of(doc["transitions"])
+    own = {sp["id"]: tables.own_rows(sp, 50.0, None, trs.get(sp["id"], ()))
+           for sp in doc["species"]}
+    back = tables.unpack_rows(tables.pack_rows(own))
+    assert list(back) == sorted(own)
+    for sid, rows in own.items():
+        assert list(back[sid]) == list(rows)
+        for c, v in rows.items():
+            if c in tables.TEXT:
+                assert back[sid][c] == v
+            else:
+                assert back[sid][c].dtype == np.asarray(v).dtype
+                np.testing.assert_array_equal(back[sid][c], v)
+    assert tables.unpack_rows(tables.pack_rows({})) == {}

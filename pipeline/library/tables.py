@@ -90,6 +90,31 @@ def own_rows(sp, step=100.0, points=None, transitions=()) -> dict:
             "extrapolated": ev["extrapolated"].astype(bool)}
 
 
+def pack_rows(rows_by_id: dict) -> dict:
+    """The ``own_rows`` of several species as one block: every numeric column concatenated
+    (a few arrays instead of some thirty per species: cheap to keep and to pickle), each
+    species' id, phase and where its rows end. ``unpack_rows`` gives them back."""
+    ids = sorted(rows_by_id)
+    numeric = [c for c in COLUMNS if c not in TEXT]
+    return {"ids": tuple(ids),
+            "phases": tuple(rows_by_id[i]["phase"][0] if len(rows_by_id[i]["T"]) else ""
+                            for i in ids),
+            "ends": np.cumsum([len(rows_by_id[i]["T"]) for i in ids], dtype=np.int64),
+            "columns": {c: np.concatenate([np.asarray(rows_by_id[i][c]) for i in ids])
+                        if ids else np.zeros(0) for c in numeric}}
+
+
+def unpack_rows(block: dict) -> dict:
+    """{species id: its rows} of a ``pack_rows`` block (numeric columns are views)."""
+    out = {}
+    start = 0
+    for sid, phase, end in zip(block["ids"], block["phases"], block["ends"].tolist()):
+        rows = {c: v[start:end] for c, v in block["columns"].items()}
+        out[sid] = {"id": [sid] * (end - start), "phase": [phase] * (end - start), **rows}
+        start = end
+    return {sid: {c: out[sid][c] for c in COLUMNS} for sid in out}
+
+
 def with_formation(rows: dict, sid: str, formation=None) -> dict:
     """``own_rows`` of species ``sid`` with the formation properties of the library's
     Formation filled in (unchanged when it has none)."""

@@ -24,7 +24,7 @@ class Outcome:
     quarantined: tuple     # (TableMeta, findings)
     checked: CheckResult   # what was read and checked (tables without their rows)
     points: dict = None    # {species id: plot_points of it}, for the report
-    rows: dict = None      # {species id: library.tables.own_rows of it}, made where it was fitted
+    rows: tuple = ()       # library.tables.pack_rows blocks of own_rows, made in the partitions
 
 
 def release_files(outcome: Outcome, ctx: Settings, release, say=None):
@@ -40,8 +40,10 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None):
     out = ctx.outputs
     say = say or (lambda *a: None)
     say("write tables", 0, 0, "tables.parquet")
-    release.add("tables.parquet", tables.tables_parquet_bytes(doc, out.table_step,
-                                                              own=outcome.rows))
+    from ..library.tables import unpack_rows
+
+    own = {sid: rows for block in outcome.rows for sid, rows in unpack_rows(block).items()}
+    release.add("tables.parquet", tables.tables_parquet_bytes(doc, out.table_step, own=own))
     if out.tables_csv:
         release.update(tables.csv_files(doc, out.table_step))
     if out.report:
@@ -61,13 +63,14 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None):
 
 
 def evaluated_rows(entries: dict, chains, step: float) -> dict:
-    """{species id: library.tables.own_rows} of the fitted ``entries`` of one partition,
-    with the transitions between its fitted phases (``chains``: a species' phases are
-    fitted in one partition), every ``step`` K."""
-    from ..library.tables import own_rows, transitions_of
+    """library.tables.own_rows of the fitted ``entries`` of one partition, packed in one
+    block (library.tables.pack_rows), with the transitions between its fitted phases
+    (``chains``: a species' phases are fitted in one partition), every ``step`` K."""
+    from ..library.tables import own_rows, pack_rows, transitions_of
 
     trs = transitions_of(document.transition_entries(chains, set(entries)))
-    return {sid: own_rows(sp, step, None, trs.get(sid, ())) for sid, sp in entries.items()}
+    return pack_rows({sid: own_rows(sp, step, None, trs.get(sid, ()))
+                      for sid, sp in entries.items()})
 
 
 def plot_points(species, checked: CheckResult) -> dict:

@@ -101,3 +101,13 @@ def test_the_scatter_of_a_table_is_found_without_a_model(sigma):
         assert 0.75 * sigma <= got <= 1.25 * sigma
     else:
         assert got < 1e-4          # a smooth table: second differences only
+
+
+def test_a_wilhoit_model_with_more_terms_than_rows_is_left_out_not_the_others():
+    """Two rows cannot fix three terms: that model is left out (no solve), the models of
+    fewer terms are still made."""
+    t, cp = np.array([500.0, 600.0]), np.array([40.0, 41.0])
+    models = extrapolate.fit_wilhoit(t, cp, bounds.cp_zero("linear"),
+                                     bounds.cp_infinity("linear", 3))
+    assert models[0] is not None and models[-1] is None
+    assert np.isfinite(models[0](np.array([1000.0]))).all()

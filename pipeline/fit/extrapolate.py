@@ -106,11 +106,11 @@ def _wilhoit_terms(t, b, n, c0, cinf):
 
 
 def fit_wilhoit(t, cp, c0, cinf, terms: int = WILHOIT_TERMS) -> list:
-    """Wilhoit's form with n = 0 .. terms free terms, one model each: for every B of B_GRID
-    at once the a_i by relative least squares, and the B of the smallest sum of squares (the
-    first on a tie). One QR factorisation per B (stacked) of all ``terms`` columns serves
-    every n: the first n columns of Q and the leading n × n block of R factorise the first
-    n columns."""
+    """Wilhoit's form with n = 0 .. terms free terms, one model each (None where its columns
+    are dependent): for every B of B_GRID at once the a_i by relative least squares, and the
+    B of the smallest sum of squares (the first on a tie). One QR factorisation per B
+    (stacked) of all ``terms`` columns serves every n: the first n columns of Q and the
+    leading n × n block of R factorise the first n columns."""
     y = t[None, :] / (t[None, :] + B_GRID[:, None])          # (B, rows)
     rhs = (cp - (c0 + (cinf - c0) * y * y)) / cp
     cols = np.stack([(cinf - c0) * y * y * (y - 1.0) * y ** i for i in range(terms)],
@@ -119,11 +119,15 @@ def fit_wilhoit(t, cp, c0, cinf, terms: int = WILHOIT_TERMS) -> list:
     qb = np.einsum("bki,bk->bi", q, rhs)
     out = []
     for n in range(terms + 1):
-        if n:
-            a_all = np.linalg.solve(r[:, :n, :n], qb[:, :n, None])[..., 0]
-            miss = rhs - np.einsum("bki,bi->bk", cols[:, :, :n], a_all)
-        else:
-            a_all, miss = np.zeros((len(B_GRID), 0)), rhs
+        try:
+            if n:
+                a_all = np.linalg.solve(r[:, :n, :n], qb[:, :n, None])[..., 0]
+                miss = rhs - np.einsum("bki,bi->bk", cols[:, :, :n], a_all)
+            else:
+                a_all, miss = np.zeros((len(B_GRID), 0)), rhs
+        except np.linalg.LinAlgError:      # columns dependent at some B: no model of n terms
+            out.append(None)
+            continue
         j = int(np.argmin(np.sum(miss ** 2, axis=1)))
         out.append(_wilhoit_model(B_GRID[j], a_all[j], c0, cinf))
     return out
@@ -286,6 +290,9 @@ def _tried(names, fitter, fit_t, fit_cp, ho_t, ho_cp, t, cp, span, side, geometr
         return dict.fromkeys(names)
     out = {}
     for name, trial, full in zip(names, trials, fulls):
+        if trial is None or full is None:
+            out[name] = None
+            continue
         try:
             err = float(np.max(np.abs(trial(ho_t) / ho_cp - 1)))
             pred = full(span)

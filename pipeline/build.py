@@ -134,13 +134,15 @@ def previous_breakpoints(out_dir) -> dict:
         species = doc["species"]
     except (OSError, ValueError, KeyError, TypeError):
         return {}
+    def number(x) -> bool:
+        return isinstance(x, (int, float)) and not isinstance(x, bool) and math.isfinite(x)
+
     out = {}
     for sp in species if isinstance(species, list) else ():
-        sid, bps = sp.get("id") if isinstance(sp, dict) else None, \
-            sp.get("breakpoints") if isinstance(sp, dict) else None
-        if isinstance(sid, str) and isinstance(bps, list) and all(
-                isinstance(x, (int, float)) and not isinstance(x, bool) and math.isfinite(x)
-                for x in bps):
+        if not isinstance(sp, dict):
+            continue
+        sid, bps = sp.get("id"), sp.get("breakpoints")
+        if isinstance(sid, str) and isinstance(bps, list) and all(map(number, bps)):
             out[sid] = tuple(bps)
     return out
 

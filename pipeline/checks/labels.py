@@ -21,7 +21,6 @@ from ..core import chemistry, units
 from ..core.constants import GAS_CONSTANT as R
 from ..core.constants import REFERENCE_TEMPERATURE
 from ..core.findings import finding
-from ..core.records import take
 from ..physics import bounds, rotors
 from ..physics.statmech import einstein
 from .smooth_model import nnls
@@ -95,7 +94,7 @@ def check_frozen_vibrations(table, ctx):
         return []
     meta = table.meta
     d = table.valid
-    d = take(d, d["T"] <= LOW_END)
+    d = d.take(d["T"] <= LOW_END)
     t, cp, lines = d["T"], d["Cp"], d["line"]
     keep = t >= rotors.excited_from(meta.formula, _elements(meta))
     t, cp, lines = t[keep], cp[keep], lines[keep]

@@ -30,30 +30,19 @@ from .rows import Rows
 DATA_COLUMNS = ("line", "T", "Cp", "u_Cp", "dH", "S", "u_dH", "u_S", "gef")
 
 
-def valid_columns(data: Rows) -> dict:
-    """{column: read-only numpy array} of the rows of a table whose T [K] and Cp
-    [J/(mol K)] are finite and positive, sorted by T (stable, so equal temperatures keep their
-    file order)."""
+def valid_columns(data: Rows) -> Rows:
+    """The rows of a table whose T [K] and Cp [J/(mol K)] are finite and positive, sorted by
+    T (stable, so equal temperatures keep their file order)."""
     t, cp = data["T"], data["Cp"]
     ok = np.flatnonzero(np.isfinite(t) & np.isfinite(cp) & (t > 0) & (cp > 0))
-    order = ok[np.argsort(t[ok], kind="stable")]
-    out = {}
-    for name in data.columns:
-        column = data[name][order]
-        column.setflags(write=False)
-        out[name] = column
-    return out
+    return data.take(ok[np.argsort(t[ok], kind="stable")])
 
 
-def take(columns: dict, keep) -> dict:
-    """The rows ``keep`` (a boolean mask or indices) of every column of ``columns``."""
-    return {name: column[keep] for name, column in columns.items()}
-
-
-def first_of_each_t(columns: dict) -> dict:
-    """The first row of each temperature of T-sorted ``columns`` (the first of each run of equal T)."""
-    t = columns["T"]
-    return take(columns, np.r_[True, t[1:] != t[:-1]]) if len(t) else columns
+def first_of_each_t(rows: Rows) -> Rows:
+    """The first row of each temperature of T-sorted ``rows`` (the first of each run of
+    equal T)."""
+    t = rows["T"]
+    return rows.take(np.r_[True, t[1:] != t[:-1]]) if len(t) else rows
 
 
 def given(rows: Rows, column: str, *, every: bool = False):
@@ -162,7 +151,7 @@ class Table:
     data: Rows = field(compare=False)
 
     @cached_property
-    def valid(self) -> dict:
+    def valid(self) -> Rows:
         """The valid rows of ``data`` sorted by T (``valid_columns``), computed once: most
         checks read them."""
         return valid_columns(self.data)

@@ -279,32 +279,6 @@ def _guards(pred, side, geometry, atoms, margin, cp_edge):
     return abs(pred[0] / cp_edge - 1) < JOIN_TOLERANCE  # must join the data
 
 
-def _tried(names, fitter, fit_t, fit_cp, ho_t, ho_cp, t, cp, span, side, geometry, atoms,
-           margin) -> dict:
-    """{name: (hold-out error, model fitted to all data)} of the models of one group
-    (``names``, ``fitter``); None for a model that cannot be fitted or whose extension over
-    ``span`` fails the guards."""
-    try:
-        trials, fulls = fitter(fit_t, fit_cp), fitter(t, cp)
-    except (ValueError, np.linalg.LinAlgError, FloatingPointError):
-        return dict.fromkeys(names)
-    out = {}
-    for name, trial, full in zip(names, trials, fulls):
-        if trial is None or full is None:
-            out[name] = None
-            continue
-        try:
-            err = float(np.max(np.abs(trial(ho_t) / ho_cp - 1)))
-            pred = full(span)
-        except (ValueError, np.linalg.LinAlgError, FloatingPointError):
-            out[name] = None
-            continue
-        ordered = pred if side == "high" else pred[::-1]
-        ok = _guards(ordered, side, geometry, atoms, margin, cp[-1] if side == "high" else cp[0])
-        out[name] = (err, full) if ok else None
-    return out
-
-
 def scatter(t, cp) -> float:
     """Relative standard deviation [-] of the noise of Cp, without a model: each interior
     point's miss of the straight line through its neighbours in ln Cp against ln T (for a
@@ -352,16 +326,35 @@ def extend(t, cp, geometry, atoms, t_to, *, side="high", holdout=0.25, margin=0.
         edge, far = t[0], t[k - 1]
         grid = np.geomspace(t_to, t[0], points + 1)[:-1]
     span = np.concatenate([[edge], grid]) if side == "high" else np.concatenate([grid, [edge]])
+    cp_edge = cp[-1] if side == "high" else cp[0]
+    failed = (ValueError, np.linalg.LinAlgError, FloatingPointError)
     tried = {}
+
+    def attempt(trial, full):
+        """(hold-out error, ``full``) of one model, or None when it cannot be evaluated or
+        its extension over ``span`` fails the guards."""
+        if trial is None or full is None:
+            return None
+        try:
+            err = float(np.max(np.abs(trial(ho_t) / ho_cp - 1)))
+            pred = full(span)
+        except failed:
+            return None
+        ordered = pred if side == "high" else pred[::-1]
+        return (err, full) if _guards(ordered, side, geometry, atoms, margin, cp_edge) else None
 
     def best_of(models) -> dict:
         """{family: (hold-out error, name, model fitted to all data)} of the best model of
-        each family among ``models`` that passes the guards (each model fitted once)."""
+        each family among ``models`` (groups of names, fitter) that passes the guards (each
+        group fitted once, to the data without the hold-out and to all of them)."""
         best = {}
         for names, fitter in models:
             if names[0] not in tried:
-                tried.update(_tried(names, fitter, fit_t, fit_cp, ho_t, ho_cp, t, cp, span,
-                                    side, geometry, atoms, margin))
+                try:
+                    pairs = zip(fitter(fit_t, fit_cp), fitter(t, cp))
+                    tried.update(zip(names, (attempt(a, b) for a, b in pairs)))
+                except failed:
+                    tried.update(dict.fromkeys(names))
             for name in names:
                 if tried[name] is None:
                     continue
@@ -397,7 +390,6 @@ def extend(t, cp, geometry, atoms, t_to, *, side="high", holdout=0.25, margin=0.
     reach = abs(np.log(edge / far)) or 1.0
     # the extension joins the data: the model's miss at the edge, fading over the hold-out
     # reach in ln T, is taken out (the data, not the model, are right at the edge)
-    cp_edge = cp[-1] if side == "high" else cp[0]
     miss = cp_edge / float(np.mean([r[2](np.array([edge]))[0] for r in ranked[:1 + blended]]))
     cp_grid = cp_grid * (1.0 + (miss - 1.0) * np.exp(-np.abs(np.log(grid / edge)) / reach))
     change = np.abs(cp_grid - cp_edge) / cp_grid

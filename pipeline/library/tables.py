@@ -109,10 +109,10 @@ def unpack_rows(block: dict) -> dict:
     out = {}
     start = 0
     for sid, phase, end in zip(block["ids"], block["phases"], block["ends"].tolist()):
-        rows = {c: v[start:end] for c, v in block["columns"].items()}
-        out[sid] = {"id": [sid] * (end - start), "phase": [phase] * (end - start), **rows}
+        out[sid] = {"id": [sid] * (end - start), "phase": [phase] * (end - start),
+                    **{c: v[start:end] for c, v in block["columns"].items()}}   # COLUMNS order
         start = end
-    return {sid: {c: out[sid][c] for c in COLUMNS} for sid in out}
+    return out
 
 
 def with_formation(rows: dict, sid: str, formation=None) -> dict:

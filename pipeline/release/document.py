@@ -207,14 +207,13 @@ def findings_document(findings) -> dict:
 def json_bytes(doc) -> bytes:
     """Deterministic JSON bytes of ``doc``: indented by two spaces, UTF-8, a final newline,
     written by orjson (25 times faster than the json module's indenting encoder). orjson
-    would write NaN or an infinity as null, so the json module's C encoder refuses them
-    first (OutputError naming the value)."""
+    would write NaN or an infinity as null, so ``non_finite`` refuses them first
+    (OutputError naming where)."""
     import orjson
 
-    try:
-        json.dumps(doc, allow_nan=False, separators=(",", ":"))
-    except ValueError as exc:
-        raise OutputError(f"a document to write holds a number JSON cannot carry: {exc}") from None
+    bad = non_finite(doc)
+    if bad:
+        raise OutputError(f"a document to write holds a number JSON cannot carry at {bad}")
     return orjson.dumps(doc, option=orjson.OPT_INDENT_2 | orjson.OPT_APPEND_NEWLINE)
 
 

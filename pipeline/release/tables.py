@@ -80,9 +80,9 @@ def csv_files(doc, step=100.0, points=None) -> dict:
     with transitions the table across its phases (tables/<name>.csv, stable rows only)."""
     trs = doc.get("transitions", [])
     made = Formation(doc)
-    own = evaluated.transitions_of(trs)
+    trs_of = evaluated.transitions_of(trs)
     files = {f"tables/{file_stem(sp['id'])}.csv": csv_bytes(sp, step, points,
-                                                             own.get(sp["id"], ()), made)
+                                                             trs_of.get(sp["id"], ()), made)
              for sp in doc["species"]}
     for name in sorted({x["species"] for x in trs}):
         files[f"tables/{file_stem(name)}.csv"] = _csv(f"{name}, stable phase at each "

@@ -134,6 +134,7 @@ def previous_breakpoints(out_dir) -> dict:
         species = doc["species"]
     except (OSError, ValueError, KeyError, TypeError):
         return {}
+
     def number(x) -> bool:
         return isinstance(x, (int, float)) and not isinstance(x, bool) and math.isfinite(x)
 
@@ -188,7 +189,11 @@ def build(raw_dir, out_dir, ctx: Settings = Settings(), *, write=True, progress=
         store = partitions.PartStore(
             real / partitions.STORE, partitions.part_keys(raw_dir, cut.parts, ctx.to_dict(),
                                                           previous), use=not fresh)
-        result = _build(raw_dir, real, ctx, progress, previous, cut, store)
+        try:
+            result = _build(raw_dir, real, ctx, progress, previous, cut, store)
+        except BaseException:
+            store.discard()
+            raise
         store.commit()
     return result
 
@@ -312,6 +317,17 @@ def _quiet(stage, i=0, n=0, label=""):
 def _build(raw_dir, out_dir, ctx: Settings, progress, previous: dict,
            cut=partitions.Plan(), store=None) -> BuildResult:
     say = progress or _quiet
+    # the release home is judged before the partitions kept for the next build appear in it
+    files = publish.Release() if out_dir is None else publish.Release.staged(out_dir)
+    try:
+        return _build_into(files, raw_dir, out_dir, ctx, say, previous, cut, store)
+    except BaseException:
+        files.discard()
+        raise
+
+
+def _build_into(files, raw_dir, out_dir, ctx: Settings, say, previous: dict, cut,
+                store) -> BuildResult:
     say("read and check", 0, 0, str(raw_dir))
     done, reused = partitions.run(partial(_build_part, raw_dir, ctx, previous,
                                           say if cut.parts == 1 else _quiet), cut, say, store)
@@ -325,15 +341,10 @@ def _build(raw_dir, out_dir, ctx: Settings, progress, previous: dict,
     outcome = assemble.Outcome(document=doc, findings=tuple(findings), fitted=tuple(fitted),
                                quarantined=tuple(quarantined), checked=checked,
                                points=dict(done.points), rows=done.rows)
-    files = publish.Release() if out_dir is None else publish.Release.staged(out_dir)
-    try:
-        assemble.release_files(outcome, ctx, files, say)
-        say("publish", 0, 0, str(out_dir or ""))
-        written = [] if out_dir is None else publish.publish(
-            out_dir, files, check=_verify, on_swap=lambda: say("published"))
-    except BaseException:
-        files.discard()
-        raise
+    assemble.release_files(outcome, ctx, files, say)
+    say("publish", 0, 0, str(out_dir or ""))
+    written = [] if out_dir is None else publish.publish(
+        out_dir, files, check=_verify, on_swap=lambda: say("published"))
     return BuildResult(fitted=tuple(fitted), quarantined=tuple(quarantined),
                        findings=tuple(findings), document=doc, written=tuple(written),
                        files=files, held_back=checked.held_back, inputs=checked.inputs,

@@ -57,7 +57,6 @@ class Part:
         return partition_of(name, self.count) == self.index
 
 
-
 @dataclass(frozen=True)
 class PartResult:
     """What one partition produced: its check result and, for a build, its fits."""
@@ -218,6 +217,7 @@ def run(work, cut: Plan, say=None, store=None) -> tuple:
 #: the folder of a release home that keeps the partitions of its last build
 STORE = publish.STORE
 _STORED = re.compile(r"^part-[0-9a-f]{64}\.pickle$")
+_PENDING = re.compile(r"^\.pending-\d+-part-[0-9a-f]{64}\.pickle$")
 STORE_FORMAT = 1
 
 
@@ -253,9 +253,9 @@ def part_keys(raw_dir, parts: int, settings: dict, previous: dict) -> list:
     """The key of each partition: a sha256 of everything its result depends on. Shared by
     all: the code and the versions of the numerical libraries, the settings (of the outputs
     asked for only the step of the evaluated tables, made in the partitions), every path
-    under ``raw_dir`` (unlisted files are
-    findings), every source.json and coefficient-set file; its own: the tables its species
-    names list and the breakpoints ``previous`` offers them."""
+    under ``raw_dir`` (unlisted files are findings), every source.json and coefficient-set
+    file; its own: the tables its species names list and the breakpoints ``previous``
+    offers them."""
     from .release.provenance import dependency_versions
 
     raw = Path(raw_dir)
@@ -296,10 +296,14 @@ class PartStore:
 
     def __init__(self, folder: Path, keys: list, use: bool = True):
         self.folder, self.keys, self.use = Path(folder), keys, use
-        self.pending = {}
+        self.pending = []
+        self._made = False         # this build made the folder
 
     def _path(self, k: int) -> Path:
         return self.folder / f"part-{self.keys[k]}.pickle"
+
+    def _pending_path(self, k: int) -> Path:
+        return self.folder / f".pending-{os.getpid()}-part-{self.keys[k]}.pickle"
 
     def load(self, k: int):
         if not self.use:
@@ -312,22 +316,37 @@ class PartStore:
         return result if (fmt, key) == (STORE_FORMAT, self.keys[k]) else None
 
     def save(self, k: int, result) -> None:
-        """Keep ``result`` of partition ``k`` to be written by ``commit``: pickled now, as
-        the build goes on to add to the library entries it holds."""
-        self.pending[k] = pickle.dumps((STORE_FORMAT, self.keys[k], result),
-                                       protocol=pickle.HIGHEST_PROTOCOL)
+        """Write ``result`` of partition ``k`` under a pending name, kept by ``commit`` and
+        removed by ``discard``: pickled now, as the build goes on to add to the library
+        entries it holds, and on disk, not held in memory until the release is written."""
+        if not self.folder.is_dir():
+            self.folder.mkdir(parents=True)
+            self._made = True
+        with open(self._pending_path(k), "wb") as fh:
+            pickle.dump((STORE_FORMAT, self.keys[k], result), fh, protocol=pickle.HIGHEST_PROTOCOL)
+            fh.flush()
+            os.fsync(fh.fileno())
+        self.pending.append(k)
 
     def commit(self) -> None:
-        """Write the partitions kept by ``save`` (after the release was published) and
-        delete the stored partitions this build did not use (only files named as this class
-        names them)."""
-        from .core.paths import write_atomic
-
-        for k, data in sorted(self.pending.items()):
-            write_atomic(self._path(k), data)
-        self.pending = {}
+        """Keep the partitions written by ``save`` (after the release was published) and
+        delete the stored partitions this build did not use, and pending ones of killed
+        builds (only files named as this class names them)."""
+        for k in sorted(self.pending):
+            os.replace(self._pending_path(k), self._path(k))
+        self.pending = []
         keep = {self._path(k).name for k in range(len(self.keys))}
         if self.folder.is_dir():
             for path in self.folder.iterdir():
-                if _STORED.match(path.name) and path.name not in keep:
+                if (_STORED.match(path.name) and path.name not in keep) or \
+                        _PENDING.match(path.name):
                     path.unlink()
+
+    def discard(self) -> None:
+        """Remove what ``save`` wrote (a build that failed), and the folder if this build
+        made it."""
+        for k in self.pending:
+            self._pending_path(k).unlink(missing_ok=True)
+        self.pending = []
+        if self._made and self.folder.is_dir() and not any(self.folder.iterdir()):
+            self.folder.rmdir()

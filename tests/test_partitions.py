@@ -241,3 +241,27 @@ def test_packed_tables_give_back_every_species_rows():
                 assert back[sid][c].dtype == np.asarray(v).dtype
                 np.testing.assert_array_equal(back[sid][c], v)
     assert tables.unpack_rows(tables.pack_rows({})) == {}
+
+
+def test_kept_partitions_wait_on_disk_until_the_release_is_published(tmp_path, monkeypatch):
+    """A build writes each partition to keep as it finishes, under a pending name (not held
+    in memory), makes them the kept ones only after publishing, and clears what a killed
+    build left pending."""
+    out = tmp_path / "out"
+    build.build(RAW, out, parts=2)
+    stray = out / partitions.STORE / f".pending-1-part-{'0' * 64}.pickle"
+    stray.write_bytes(b"left by a killed build")
+    seen = {}
+    real_commit = partitions.PartStore.commit
+
+    def commit(self):
+        seen["pending"] = sorted(p.name.split("-part-")[0] for p in self.folder.iterdir()
+                                 if p.name.startswith(".pending-"))
+        seen["held"] = self.pending
+        real_commit(self)
+
+    monkeypatch.setattr(partitions.PartStore, "commit", commit)
+    build.build(RAW, out, parts=2, fresh=True)
+    assert len(seen["pending"]) == 3 and seen["held"] == [0, 1]     # two of this build
+    names = sorted(p.name for p in (out / partitions.STORE).iterdir())
+    assert len(names) == 2 and all(n.startswith("part-") for n in names)

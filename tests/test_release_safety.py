@@ -404,3 +404,16 @@ def test_release_files_are_written_as_they_are_made_and_a_failure_leaves_none(
     assert code != 0 and "disk full" in err and "Traceback" not in err
     assert "report/index.html" in seen["pages"] and not seen["manifest"]
     assert everything(out) == before           # no staging folder, the same release current
+
+
+def test_a_first_build_at_work_leaves_the_folder_acceptable_to_the_next(tmp_path):
+    """While a first build works (its lock, staging folder and pending partitions in the
+    folder) a second build waiting for the lock must not take the folder for the user's:
+    it is empty of releases, not 'other'. A file of the user's still makes it 'other'."""
+    folder = tmp_path / "out"
+    (folder / ".staging-4242").mkdir(parents=True)
+    (folder / publish.STORE).mkdir()
+    (folder / publish.LOCK).write_bytes(b"")
+    assert publish.kind_of(folder) == "empty"
+    (folder / "notes.txt").write_text("mine")
+    assert publish.kind_of(folder) == "other"

@@ -130,8 +130,8 @@ def kind_of(folder: Path) -> str:
     if not folder.is_dir():
         return "other"
     entries = [e.name for e in folder.iterdir()]
-    if not entries or entries == [LOCK]:
-        return "empty"
+    if all(e in (LOCK, STORE) or _STAGING.match(e) for e in entries):
+        return "empty"     # nothing, or a first build at work in it (under its lock)
     if (folder / CURRENT).is_symlink() or (folder / RELEASES).is_dir():
         return "home" if _is_home(folder) else "other"
     if _flat_release_files(folder) is not None:

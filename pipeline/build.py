@@ -12,6 +12,7 @@ from . import fit, ingest, partitions
 from .checks import acknowledge, reconcile, references, registry, transitions
 from .core.errors import FitError, OutputError
 from .core.findings import ERROR, INFO, by_subject, concerns, finding, stage_failed, subject
+from .core.processes import collector_paused
 from .core.records import CheckResult, CpData, FittedSpecies, SpeciesIdentity, Table
 from .core.settings import Settings, for_table
 from .library import document as library
@@ -179,7 +180,12 @@ def build(raw_dir, out_dir, ctx: Settings = Settings(), *, write=True, progress=
     does not depend on either. A partition whose inputs, settings, offered breakpoints and
     code are those of a partition of the last build into ``out_dir`` is taken from it
     (partitions.PartStore) unless ``fresh``."""
-    cut = partitions.plan(raw_dir, workers, parts)
+    with collector_paused():     # the release is assembled from millions of kept objects
+        return _planned_build(raw_dir, out_dir, ctx, write, progress, wait, previous,
+                              partitions.plan(raw_dir, workers, parts), fresh)
+
+
+def _planned_build(raw_dir, out_dir, ctx, write, progress, wait, previous, cut, fresh):
     if not write:
         return _build(raw_dir, None, ctx, progress, previous or {}, cut)
     real = publish.vet_output_folder(out_dir, [raw_dir])

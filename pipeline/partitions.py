@@ -19,12 +19,12 @@ import os
 import pickle
 import re
 from dataclasses import dataclass
-from functools import lru_cache
+from functools import lru_cache, partial
 from pathlib import Path
 
 from .core.limits import MAX_SOURCE_BYTES, MAX_TABLE_BYTES
 from .core.names import species_name
-from .core.processes import worker_pool
+from .core.processes import collector_paused, without_collector, worker_pool
 from .core.records import CheckResult
 from .release import publish
 
@@ -193,8 +193,13 @@ def run(work, cut: Plan, say=None, store=None) -> tuple:
     """(merged PartResult, partitions reused): ``work(Part)`` for each partition of ``cut``
     that ``store`` (a PartStore, or None) does not already hold, in ``cut.workers`` worker
     processes when more than one; what was computed is saved into ``store``. A worker that
-    dies or is interrupted stops the build."""
-    say = say or (lambda *a: None)
+    dies or is interrupted stops the build. The cyclic garbage collector is paused
+    meanwhile (core.processes.collector_paused)."""
+    with collector_paused():      # in this process and in the workers
+        return _run(work, cut, say or (lambda *a: None), store)
+
+
+def _run(work, cut: Plan, say, store) -> tuple:
     results = [store.load(k) if store else None for k in range(cut.parts)]
     todo = [k for k, r in enumerate(results) if r is None]
     if cut.workers <= 1 or len(todo) <= 1:
@@ -203,7 +208,8 @@ def run(work, cut: Plan, say=None, store=None) -> tuple:
             say(STAGE, n + 1, len(todo), f"partition {k + 1} of {cut.parts}")
     else:
         with worker_pool(min(cut.workers, len(todo))) as pool:
-            done = pool.map(work, [Part(k, cut.parts) for k in todo])
+            done = pool.map(partial(without_collector, work),
+                            [Part(k, cut.parts) for k in todo])
             for n, (k, result) in enumerate(zip(todo, done)):
                 results[k] = result
                 say(STAGE, n + 1, len(todo), f"partition {k + 1} of {cut.parts}")

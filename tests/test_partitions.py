@@ -265,3 +265,34 @@ def test_kept_partitions_wait_on_disk_until_the_release_is_published(tmp_path, m
     assert len(seen["pending"]) == 3 and seen["held"] == [0, 1]     # two of this build
     names = sorted(p.name for p in (out / partitions.STORE).iterdir())
     assert len(names) == 2 and all(n.startswith("part-") for n in names)
+
+
+
+def _collector_on(part) -> bool:
+    import gc
+
+    return gc.isenabled()
+
+
+def test_the_garbage_collector_is_paused_in_the_work_and_on_again_after():
+    """Full collections walk every object a build keeps (2.6 s of an 11 s rebuild at 10 000
+    species); the work of the partitions runs without them, here and in worker processes."""
+    import gc
+    from functools import partial
+
+    from thermoledger.core.processes import without_collector, worker_pool
+
+    seen = []
+
+    def work(part):
+        seen.append(_collector_on(part))
+        return partitions.PartResult(checked=build.examine_part(RAW, part=part))
+
+    partitions.run(work, partitions.Plan(parts=2, workers=1))
+    with worker_pool(2) as pool:
+        seen += pool.map(partial(without_collector, _collector_on),
+                         [partitions.Part(k, 2) for k in range(2)])
+    assert seen == [False] * 4
+    assert gc.isenabled()
+    build.build(RAW, None, write=False)
+    assert gc.isenabled()

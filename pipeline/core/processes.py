@@ -1,6 +1,7 @@
 """Worker processes of the stages that fan out (species partitions, report pages): they die
 with their parent, leave Ctrl-C to it, and are killed, not waited for, when it stops."""
 
+import gc
 import os
 from contextlib import contextmanager
 
@@ -42,3 +43,26 @@ def worker_pool(count: int):
         stop_workers(pool)
         raise
     pool.shutdown()
+
+
+@contextmanager
+def collector_paused():
+    """Python's cyclic garbage collector off for the block (as it was after it). A build
+    holds millions of long-lived objects (its partitions' results) and makes almost no
+    cycles (under one object per species); each full collection walks all of them, and at
+    10 000 species a rebuild spent 2.6 s of its 11 s in 18 of them. Reference counting
+    still frees everything that is not in a cycle."""
+    was = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was:
+            gc.enable()
+
+
+def without_collector(work, *args):
+    """``work(*args)`` with the cyclic garbage collector paused (collector_paused): a
+    picklable wrapper for work sent to worker processes."""
+    with collector_paused():
+        return work(*args)

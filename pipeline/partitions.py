@@ -238,15 +238,21 @@ def code_digest() -> str:
     return h.hexdigest()
 
 
-def _file_digest(path: Path, raw: Path) -> str:
+@lru_cache(maxsize=4096)
+def _real_folder(folder: str) -> str:
+    return os.path.realpath(folder)
+
+
+def _file_digest(path: Path, raw: str) -> str:
     """What a listed file contributes to a key: its sha256, or what ingest sees instead of
-    content (a link, a folder, nothing, a path outside raw/, a file too large to be read,
-    by its size)."""
+    content (a link, a folder, nothing, a path outside ``raw`` (a real path), a file too
+    large to be read, by its size). A file that is not a link lies where its folder really
+    is: one real path per folder, not per file."""
     if path.is_symlink():
         return "link:" + os.readlink(path)
-    try:
-        path.resolve().relative_to(raw.resolve())
-    except ValueError:
+    real = os.path.join(_real_folder(str(path.parent)), path.name) \
+        if path.name not in ("", ".", "..") else os.path.realpath(path)
+    if os.path.commonpath([real, raw]) != raw:
         return "outside"
     if path.is_file():
         size = path.stat().st_size
@@ -265,6 +271,8 @@ def part_keys(raw_dir, parts: int, settings: dict, previous: dict) -> list:
     from .release.provenance import dependency_versions
 
     raw = Path(raw_dir)
+    real = os.path.realpath(raw)
+    _real_folder.cache_clear()       # the folders of this build, as they are now
     shared = hashlib.sha256(f"{STORE_FORMAT}\0{code_digest()}\0".encode())
     shared.update(json.dumps(dependency_versions(), sort_keys=True).encode())
     shared.update(json.dumps({k: v for k, v in settings.items() if k != "outputs"},
@@ -275,17 +283,17 @@ def part_keys(raw_dir, parts: int, settings: dict, previous: dict) -> list:
     for sid, points in sorted(previous.items()):
         own[partition_of(species_name(sid), parts)].update(f"{sid}{points}\n".encode())
     for src in sorted(raw.glob("*/source.json")):
-        shared.update(f"{src.parent.name}\0{_file_digest(src, raw)}\n".encode())
+        shared.update(f"{src.parent.name}\0{_file_digest(src, real)}\n".encode())
         try:
             if src.stat().st_size > MAX_SOURCE_BYTES:
                 continue      # refused by ingest: its size is in the key
             doc = json.loads(src.read_bytes())
             for entry in doc.get("coefficient_sets", ()):
-                shared.update(f"{entry['file']}\0{_file_digest(src.parent / entry['file'], raw)}"
+                shared.update(f"{entry['file']}\0{_file_digest(src.parent / entry['file'], real)}"
                               "\n".encode())
             for entry in doc.get("tables", ()):
                 part = partition_of(str(entry["species"]), parts)
-                own[part].update(f"{entry['file']}\0{_file_digest(src.parent / entry['file'], raw)}"
+                own[part].update(f"{entry['file']}\0{_file_digest(src.parent / entry['file'], real)}"
                                  "\n".encode())
         except (OSError, ValueError, AttributeError, TypeError, KeyError, RecursionError):
             continue      # such a source.json is refused by ingest; its bytes are in the key

@@ -5,6 +5,7 @@ End to end through the CLI on real files; every file is hashed before and after.
 import hashlib
 import json
 import os
+import re
 import signal
 import subprocess
 import sys
@@ -417,3 +418,28 @@ def test_a_first_build_at_work_leaves_the_folder_acceptable_to_the_next(tmp_path
     assert publish.kind_of(folder) == "empty"
     (folder / "notes.txt").write_text("mine")
     assert publish.kind_of(folder) == "other"
+
+
+ORJSON_DOCS = st.recursive(
+    st.one_of(st.none(), st.booleans(), st.integers(-2**63, 2**63 - 1), st.text(max_size=5),
+              st.floats(allow_nan=True, allow_infinity=True)),
+    lambda inner: st.one_of(st.lists(inner, max_size=4), st.tuples(inner, inner),
+                            st.dictionaries(st.text(max_size=3), inner, max_size=4)),
+    max_leaves=25)
+
+
+@settings(max_examples=300, deadline=None)
+@given(ORJSON_DOCS)
+def test_a_document_is_written_exactly_when_it_holds_no_nan_nor_infinity(doc):
+    """json_bytes checks its own bytes read back (a NaN or infinity would come back as
+    null), tuples included: it refuses exactly the documents the walk finds a bad number
+    in, naming the walk's place, and writes the others as the json module reads them."""
+    from thermoledger.core.errors import OutputError
+    from thermoledger.release.document import _first_non_finite, json_bytes
+
+    bad = _first_non_finite({"d": doc}, "")
+    if bad:
+        with pytest.raises(OutputError, match=f"at {re.escape(bad)}$"):
+            json_bytes({"d": doc})
+    else:
+        assert json.loads(json_bytes({"d": doc})) == json.loads(json.dumps({"d": doc}))

@@ -111,3 +111,28 @@ def test_a_wilhoit_model_with_more_terms_than_rows_is_left_out_not_the_others():
                                      bounds.cp_infinity("linear", 3))
     assert models[0] is not None and models[-1] is None
     assert np.isfinite(models[0](np.array([1000.0]))).all()
+
+
+def test_only_the_models_that_may_win_are_fitted_to_all_data(monkeypatch):
+    """Each model is fitted to the data without the hold-out; the fit to all data, which
+    the guards judge, is made in order of hold-out error until one passes: the best model
+    whose extension fails the guards (here: not finite) gives way to the next, and a model
+    that cannot win is never fitted to all data."""
+    t = np.linspace(200.0, 3000.0, 40)
+    cp = np.full(len(t), 40.0)            # flat: scatter 0, so the pass level is its floor
+    fits = {"a": 0, "b": 0, "c": 0}
+
+    def group(name, err, good):
+        def fitter(x, y):
+            if len(x) == len(t):          # the fit to all data
+                fits[name] += 1
+                return [lambda z: np.full(np.shape(z), 40.0 if good else np.nan)]
+            return [lambda z: np.full(np.shape(z), 40.0 * (1 + err))]
+        return (f"osc-{name}",), fitter
+
+    monkeypatch.setattr(extrapolate, "fast_candidates", lambda g, a: [
+        group("c", 3e-5, True), group("a", 1e-5, False), group("b", 2e-5, True)])
+    ext = extrapolate.extend(t, cp, "nonlinear", 3, 6000.0)
+    assert (ext.model, ext.searched) == ("osc-b", False)
+    assert ext.holdout_error == pytest.approx(2e-5)
+    assert fits == {"a": 1, "b": 1, "c": 0}

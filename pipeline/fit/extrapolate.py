@@ -328,40 +328,59 @@ def extend(t, cp, geometry, atoms, t_to, *, side="high", holdout=0.25, margin=0.
     span = np.concatenate([[edge], grid]) if side == "high" else np.concatenate([grid, [edge]])
     cp_edge = cp[-1] if side == "high" else cp[0]
     failed = (ValueError, np.linalg.LinAlgError, FloatingPointError)
-    tried = {}
+    trials, fulls = {}, {}   # hold-out error by name (None: failed); all-data models by group
 
-    def attempt(trial, full):
-        """(hold-out error, ``full``) of one model, or None when it cannot be evaluated or
-        its extension over ``span`` fails the guards."""
-        if trial is None or full is None:
-            return None
+    def holdout_error(trial):
         try:
-            err = float(np.max(np.abs(trial(ho_t) / ho_cp - 1)))
-            pred = full(span)
+            return float(np.max(np.abs(trial(ho_t) / ho_cp - 1)))
         except failed:
             return None
+
+    def passes(full) -> bool:
+        """The model fitted to all data can be evaluated over ``span`` and its extension
+        passes the guards."""
+        try:
+            pred = full(span)
+        except failed:
+            return False
         ordered = pred if side == "high" else pred[::-1]
-        return (err, full) if _guards(ordered, side, geometry, atoms, margin, cp_edge) else None
+        return _guards(ordered, side, geometry, atoms, margin, cp_edge)
+
+    def full_model(name, names, fitter):
+        """The model ``name`` of group (``names``, ``fitter``) fitted to all data (the group
+        fitted once), or None."""
+        if names[0] not in fulls:
+            try:
+                fulls[names[0]] = dict(zip(names, fitter(t, cp)))
+            except failed:
+                fulls[names[0]] = {}
+        return fulls[names[0]].get(name)
 
     def best_of(models) -> dict:
-        """{family: (hold-out error, name, model fitted to all data)} of the best model of
-        each family among ``models`` (groups of names, fitter) that passes the guards (each
-        group fitted once, to the data without the hold-out and to all of them)."""
-        best = {}
-        for names, fitter in models:
-            if names[0] not in tried:
+        """{family: (hold-out error, name, model fitted to all data)}: of each family among
+        ``models`` (groups of names, fitter), the model of the smallest hold-out error (the
+        first listed on a tie) whose fit to all data passes the guards. Each group is fitted
+        once to the data without the hold-out; a fit to all data is made only for the
+        models that may win, in order of hold-out error, until one passes."""
+        ranked = []
+        for order, (names, fitter) in enumerate(models):
+            if names[0] not in trials:
                 try:
-                    pairs = zip(fitter(fit_t, fit_cp), fitter(t, cp))
-                    tried.update(zip(names, (attempt(a, b) for a, b in pairs)))
+                    got = fitter(fit_t, fit_cp)
                 except failed:
-                    tried.update(dict.fromkeys(names))
-            for name in names:
-                if tried[name] is None:
-                    continue
-                err, full = tried[name]
-                family = name.split("-")[0]
-                if family not in best or err < best[family][0] - 1e-12:
-                    best[family] = (err, name, full)
+                    got = [None] * len(names)
+                for name, trial in zip(names, got):
+                    trials[name] = None if trial is None else holdout_error(trial)
+            ranked += [(trials[name], order, j, name, names, fitter)
+                       for j, name in enumerate(names) if trials[name] is not None]
+        best = {}
+        for err, _, _, name, names, fitter in sorted(ranked, key=lambda r: r[:3]):
+            family = name.split("-")[0]
+            if family in best:
+                continue
+            full = full_model(name, names, fitter)
+            if full is not None and passes(full):
+                best[family] = (err, name, full)
         return best
 
     best = best_of(fast_candidates(geometry, atoms))

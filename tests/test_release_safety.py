@@ -443,3 +443,21 @@ def test_a_document_is_written_exactly_when_it_holds_no_nan_nor_infinity(doc):
             json_bytes({"d": doc})
     else:
         assert json.loads(json_bytes({"d": doc})) == json.loads(json.dumps({"d": doc}))
+
+
+def test_a_kept_release_s_manifest_is_read_once_and_again_when_it_changes(tmp_path, raw, capsys,
+                                                                      monkeypatch):
+    """The release home is judged before and under the lock; the manifests of its releases
+    are read once for both, and a manifest changed in place is read again (and a damaged
+    one makes the folder another's)."""
+    out = tmp_path / "out"
+    assert run(capsys, *build_args(raw, out))[0] in (0, 1)
+    reads = []
+    real = publish._manifest
+    monkeypatch.setattr(publish, "_manifest", lambda p: reads.append(p) or real(p))
+    assert publish.kind_of(out) == "home" and publish.kind_of(out) == "home"
+    assert len(reads) == 1
+    man = next((out / publish.RELEASES).iterdir()) / "manifest.json"
+    man.write_text("{}")
+    assert publish.kind_of(out) == "other"
+    assert len(reads) == 2

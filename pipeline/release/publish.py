@@ -35,6 +35,7 @@ import shutil
 import signal
 import time
 from contextlib import contextmanager
+from functools import lru_cache
 from pathlib import Path
 
 from ..core.errors import OutputError
@@ -70,6 +71,25 @@ def _manifest(path: Path):
             doc.get("outputs"), list):
         return doc
     return None
+
+
+def _is_manifest(path: Path) -> bool:
+    """True when ``path`` holds a thermoledger manifest (``_manifest``), remembered for the
+    file as it is (device, inode, size, modification and change times): a build judges
+    its release home twice, before and under the lock, and the manifests of the kept
+    releases, which never change, were read in full each time (0.2 s per judgement at
+    10 000 species)."""
+    try:
+        st = path.stat()
+    except OSError:
+        return False
+    return _recognised(str(path), st.st_dev, st.st_ino, st.st_size, st.st_mtime_ns,
+                       st.st_ctime_ns)
+
+
+@lru_cache(maxsize=64)
+def _recognised(path: str, *identity) -> bool:
+    return _manifest(Path(path)) is not None
 
 
 def _flat_release_files(folder: Path):
@@ -113,7 +133,7 @@ def _is_home(folder: Path) -> bool:
         return False
     home = folder / RELEASES
     if home.exists() and (home.is_symlink() or not home.is_dir() or not all(
-            _RELEASE_ID.match(p.name) and _manifest(p / "manifest.json")
+            _RELEASE_ID.match(p.name) and _is_manifest(p / "manifest.json")
             for p in home.iterdir())):
         return False
     cur = folder / CURRENT

@@ -223,7 +223,8 @@ def _run(work, cut: Plan, say, store) -> tuple:
 #: the folder of a release home that keeps the partitions of its last build
 STORE = publish.STORE
 _STORED = re.compile(r"^part-[0-9a-f]{64}\.pickle$")
-_PENDING = re.compile(r"^\.pending-\d+-part-[0-9a-f]{64}\.pickle$")
+#: pending files: partitions (``save``) and the breakpoints a build keeps (build.py)
+_PENDING = re.compile(r"^\.pending-\d+-(part-[0-9a-f]{64}\.pickle|breakpoints\.json)$")
 STORE_FORMAT = 1
 
 

@@ -155,3 +155,36 @@ def test_only_well_formed_breakpoints_of_the_last_release_are_offered(tmp_path):
     lib.write_bytes(b"\xff\xfe not json")
     assert build.previous_breakpoints(tmp_path) == {}
     assert build.previous_breakpoints(tmp_path / "absent") == {}
+
+
+def test_a_rebuild_takes_the_breakpoints_kept_with_the_last_release_while_it_is_unchanged(
+        tmp_path, monkeypatch):
+    """The build that publishes a release keeps its breakpoints beside its partitions; the
+    next build reads them, not the whole library.json, as long as the library is the one
+    they were kept with: the same as library.json gives, and library.json again once the
+    release is another."""
+    import shutil
+    from pathlib import Path
+
+    from thermoledger import build
+    from thermoledger.library.document import release_folder
+
+    raw, out = tmp_path / "raw", tmp_path / "out"
+    shutil.copytree(Path(__file__).resolve().parent.parent / "raw", raw)
+    built = build.build(raw, out)
+    kept = out / ".parts" / build.KEPT_BREAKPOINTS
+    assert kept.is_file()
+    want = {sp["id"]: tuple(sp["breakpoints"]) for sp in built.document["species"]}
+    lib = release_folder(out) / "library.json"
+    reads = []
+    real_read = Path.read_bytes
+    monkeypatch.setattr(Path, "read_bytes", lambda p: reads.append(p.name) or real_read(p))
+    assert build.previous_breakpoints(out) == want
+    assert reads == [build.KEPT_BREAKPOINTS]
+    doc = json.loads(lib.read_text())          # the release's library edited in place
+    doc["species"][0]["breakpoints"] = [777.0]
+    lib.chmod(0o644)
+    lib.write_text(json.dumps(doc))
+    assert build.previous_breakpoints(out)[doc["species"][0]["id"]] == (777.0,)
+    kept.write_text("{damaged")
+    assert build.previous_breakpoints(out)[doc["species"][0]["id"]] == (777.0,)

@@ -8,6 +8,9 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from thermoledger.cli import main as cli
+from thermoledger.core import jsonread
+from thermoledger.core.errors import OutputError
+from thermoledger.release.document import json_bytes
 
 from .conftest import PROJECT
 
@@ -53,7 +56,11 @@ def test_mutated_libraries_are_messages(tmp_path_factory, capsys, library_doc, d
         except (KeyError, IndexError, TypeError):
             pass
     folder = tmp_path_factory.mktemp("lib")
-    (folder / "library.json").write_text(json.dumps(doc))
+    try:             # as a build writes it (read at once), or by another writer (strictly)
+        text = json_bytes(doc) if data.draw(st.booleans()) else json.dumps(doc).encode()
+    except (TypeError, OutputError):      # an integer orjson cannot write
+        text = json.dumps(doc).encode()
+    (folder / "library.json").write_bytes(text)
     for argv in (["props", folder, "N2(g)", "300", "1000"], ["diff", folder, folder]):
         code = cli.main([str(a) for a in argv])
         err = capsys.readouterr().err
@@ -76,3 +83,50 @@ def test_a_release_home_is_read_through_its_current_release(tmp_path, capsys):
     shutil.copytree(PROJECT / "curated", tmp_path / "c", symlinks=True)
     code = cli.main(["props", str(tmp_path / "c"), "N2(g)", "300"])
     assert code == 0 and "N2(g)" in capsys.readouterr().out
+
+
+def _nested(levels: int) -> dict:
+    doc = {"library_format": 1}
+    for _ in range(levels - 1):
+        doc = {"x": doc}
+    return doc
+
+
+@pytest.mark.parametrize("text, message", [
+    (b'{\n  "library_format": 1,\n  "library_format": 1\n}\n', "appears twice"),
+    (json_bytes(_nested(33)), "nested"),
+    (json_bytes(_nested(32)), "not a thermoledger library"),
+    (json_bytes(_nested(1)).replace(b"1\n", b"1.0\n"), "breaks the library schema"),
+])
+def test_a_library_written_as_a_build_writes_it_is_judged_the_same(tmp_path, capsys, text,
+                                                                    message):
+    """The bytes of a build are read at once (jsonread.canonical), and nothing that the
+    strict reader refuses gets through that way: a key twice, too deep a nesting."""
+    (tmp_path / "library.json").write_bytes(text)
+    code = cli.main(["props", str(tmp_path), "N2", "300"])
+    assert code == 2 and message in capsys.readouterr().err
+
+
+DOCS = st.recursive(
+    st.one_of(st.none(), st.booleans(), st.integers(-2**63, 2**63 - 1), st.text(max_size=4),
+              st.floats(allow_nan=False, allow_infinity=False)),
+    lambda inner: st.one_of(st.lists(inner, max_size=3),
+                            st.dictionaries(st.text(max_size=3), inner, max_size=3)),
+    max_leaves=30)
+
+
+@settings(max_examples=300, deadline=None)
+@given(DOCS, st.integers(1, 6))
+def test_reading_at_once_gives_what_the_strict_reader_gives(doc, max_depth):
+    """For any document a build could write: canonical reads what the strict reader reads,
+    or leaves it to the strict reader (None), never accepting a nesting it refuses."""
+    data = json_bytes(doc)
+    fast = jsonread.canonical(data, max_depth=max_depth)
+    try:
+        strict = jsonread.loads(data.decode(), file="x", max_depth=max_depth)
+    except Exception:  # noqa: BLE001 - refused by the strict reader: never read at once
+        assert fast is None
+        return
+    assert fast is None or fast == strict
+    if jsonread.depth(data.decode()) < max_depth:
+        assert fast == strict

@@ -26,8 +26,9 @@ MAX_TABLES_PER_SOURCE = 10_000
 MAX_UNIT_LENGTH = 80
 #: largest exponent magnitude in a unit expression (UNIT-TOO-COMPLEX)
 MAX_UNIT_EXPONENT = 6
-#: largest library.json read by props and diff [bytes]
-MAX_LIBRARY_BYTES = 512 * 1024 * 1024
+#: largest library.json read by props and diff [bytes]: about 240 000 species (8.7 KB
+#: each), some 5 GB of memory to read
+MAX_LIBRARY_BYTES = 2 * 1024 * 1024 * 1024
 
 #: physical range of each internal column after conversion to SI: (low, high), inclusive;
 #: T [K], Cp, S, -(G-H298)/T [J/(mol K)], H-H298 [J/mol] and their standard uncertainties

@@ -31,11 +31,14 @@ def load(path) -> dict:
     if p.stat().st_size > MAX_LIBRARY_BYTES:
         raise InputError(f"{p} is larger than {MAX_LIBRARY_BYTES} bytes",
                          expected="a library.json written by thermoledger")
-    try:
-        text = p.read_text(encoding="utf-8")
-    except UnicodeDecodeError as exc:
-        raise InputError(f"{p} is not UTF-8 text (byte {exc.start})") from None
-    doc = jsonread.loads(text, file=str(p))
+    data = p.read_bytes()
+    doc = jsonread.canonical(data)       # as thermoledger writes it: read at once
+    if doc is None:                      # anything else: read strictly, and judged
+        try:
+            text = data.decode("utf-8")
+        except UnicodeDecodeError as exc:
+            raise InputError(f"{p} is not UTF-8 text (byte {exc.start})") from None
+        doc = jsonread.loads(text, file=str(p))
     if not isinstance(doc, dict) or doc.get("library_format") != 1:
         raise InputError(f"{p} is not a thermoledger library", expected="library_format 1")
     errors = schemas.errors_of(doc, "library.schema.json")

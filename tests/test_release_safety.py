@@ -461,3 +461,25 @@ def test_a_kept_release_s_manifest_is_read_once_and_again_when_it_changes(tmp_pa
     man.write_text("{}")
     assert publish.kind_of(out) == "other"
     assert len(reads) == 2
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.dictionaries(st.sampled_from(["a", "species", "\0thermoledger-list-0\0", "z"]),
+                       ORJSON_DOCS.filter(lambda d: not _first_non_finite_of(d))
+                       | st.just("\0thermoledger-list-0\0"), max_size=4))
+def test_a_document_written_in_pieces_is_the_document_written_whole(doc):
+    """json_chunks gives a document's top-level lists item by item; joined, the pieces are
+    the bytes orjson writes for the whole document (also where a value looks like the
+    marks the pieces are cut at)."""
+    import orjson
+
+    from thermoledger.release.document import json_chunks
+
+    want = orjson.dumps(doc, option=orjson.OPT_INDENT_2 | orjson.OPT_APPEND_NEWLINE)
+    assert b"".join(json_chunks(doc)) == want
+
+
+def _first_non_finite_of(doc) -> str:
+    from thermoledger.release.document import _first_non_finite
+
+    return _first_non_finite(doc, "")

@@ -36,7 +36,7 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None):
 
     doc, checked = outcome.document, outcome.checked
     file_stems([sp["id"] for sp in doc["species"]])  # unique file names or stop
-    release.update(document.release_files(doc, document.findings_document(outcome.findings)))
+    document.release_files(doc, document.findings_document(outcome.findings), release)
     out = ctx.outputs
     say = say or (lambda *a: None)
     say("write tables", 0, 0, "tables.parquet")
@@ -50,12 +50,12 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None):
         report.report_files(doc, outcome.points, ctx.fit.accept_cp_max_rel, say=say,
                             put=release.add)
     say("write provenance", 0, 0, "provenance.json, manifest.json")
-    release.add("provenance.json", document.json_bytes(
+    release.add_chunks("provenance.json", document.json_chunks(
         provenance.prov_document(outcome.fitted, checked.inputs, release.outputs())))
     man = provenance.manifest(outcome.fitted, outcome.quarantined, checked.inputs,
                               release.outputs(), ctx.to_dict(), doc["build"]["inputs_sha256"])
     document.require_valid(man, "manifest.schema.json", "manifest.json")
-    release.add("manifest.json", document.json_bytes(man))
+    release.add_chunks("manifest.json", document.json_chunks(man))
     sources = {t.meta.source.id: t.meta.source for t in checked.tables}.values()
     release.add("datapackage.json", document.json_bytes(
         provenance.datapackage(release.outputs(), sources, document.NOTICE)))

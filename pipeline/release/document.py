@@ -206,32 +206,50 @@ def findings_document(findings) -> dict:
 
 def json_bytes(doc) -> bytes:
     """Deterministic JSON bytes of ``doc``: indented by two spaces, UTF-8, a final newline,
-    written by orjson (25 times faster than the json module's indenting encoder). orjson
-    writes NaN or an infinity as null, so ``doc`` must read back as itself
-    (``_reads_back``): a null never equals a number. Where it does not (such a number, or
-    a tuple written as a list), ``non_finite`` decides, and a NaN or infinity is refused
-    (OutputError naming where)."""
+    written by orjson (25 times faster than the json module's indenting encoder); NaN and
+    infinities refused (``json_chunks``, whose pieces these are)."""
+    return b"".join(json_chunks(doc))
+
+
+def json_chunks(doc):
+    """The bytes of ``json_bytes(doc)`` in pieces: the items of a top-level list (the
+    species of a library) one at a time, so that a large document is never held as one
+    string. orjson writes NaN or an infinity as null, so each piece must read back as what
+    was written (a null never equals a number); where one does not (such a number, or a
+    tuple written as a list), ``non_finite`` decides, and a NaN or infinity is refused
+    (OutputError naming where) before its piece is given out."""
     import orjson
 
-    if not _reads_back(doc):
-        bad = non_finite(doc)
+    indent = orjson.OPT_INDENT_2
+    lists = {k: v for k, v in doc.items() if isinstance(v, list) and v} \
+        if isinstance(doc, dict) else {}
+    marks = {k: f"\0thermoledger-list-{i}\0" for i, k in enumerate(lists)}
+    head = {k: marks.get(k, v) for k, v in doc.items()} if lists else doc
+    _written_as_read(head, "")
+    text = orjson.dumps(head, option=indent | orjson.OPT_APPEND_NEWLINE)
+    if any(text.count(orjson.dumps(m)) != 1 for m in marks.values()):
+        lists = {}                  # a value of the document is a mark: written whole
+        _written_as_read(doc, "")
+        text = orjson.dumps(doc, option=indent | orjson.OPT_APPEND_NEWLINE)
+    for key, items in lists.items():
+        before, text = text.split(orjson.dumps(marks[key]), 1)
+        yield before + b"[\n"
+        for i, item in enumerate(items):
+            _written_as_read(item, f"/{key}/{i}")
+            sep = b",\n" if i + 1 < len(items) else b"\n  ]"
+            yield b"    " + orjson.dumps(item, option=indent).replace(b"\n", b"\n    ") + sep
+    yield text
+
+
+def _written_as_read(piece, path: str) -> None:
+    """OutputError when ``piece`` (at ``path`` of its document) holds a NaN or an infinity:
+    written by orjson, it would not read back as itself."""
+    import orjson
+
+    if orjson.loads(orjson.dumps(piece)) != piece:
+        bad = non_finite(piece, path)
         if bad:
             raise OutputError(f"a document to write holds a number JSON cannot carry at {bad}")
-    return orjson.dumps(doc, option=orjson.OPT_INDENT_2 | orjson.OPT_APPEND_NEWLINE)
-
-
-def _reads_back(doc) -> bool:
-    """True when ``doc`` written by orjson reads back equal, checked piece by piece (each
-    item of a top-level list on its own: the copy read back is one species, never the whole
-    library). 0.19 s for a 10 000-species library.json; the json module's strict encoder
-    took 1.1 s, one round trip of the whole document 0.7 s."""
-    import orjson
-
-    for value in doc.values() if isinstance(doc, dict) else (doc,):
-        for piece in value if isinstance(value, list) else (value,):
-            if orjson.loads(orjson.dumps(piece)) != piece:
-                return False
-    return True
 
 
 #: the columns of library.parquet: (name, Table Schema type, description); the Data Package
@@ -311,12 +329,13 @@ def library_parquet_bytes(doc: dict) -> bytes:
 SCHEMA_COPIES = ("library.schema.json", "findings.schema.json", "manifest.schema.json")
 
 
-def release_files(doc: dict, findings_doc: dict) -> dict:
-    """{relative path: bytes} of the library outputs, checked against their schemas."""
+def release_files(doc: dict, findings_doc: dict, release) -> None:
+    """The library outputs, checked against their schemas, into ``release``
+    (publish.Release; the JSON documents written piece by piece)."""
     require_valid_library(doc)
     require_valid(findings_doc, "findings.schema.json", "findings.json")
-    files = {"library.json": json_bytes(doc), "library.parquet": library_parquet_bytes(doc),
-             "findings.json": json_bytes(findings_doc)}
+    release.add_chunks("library.json", json_chunks(doc))
+    release.add("library.parquet", library_parquet_bytes(doc))
+    release.add_chunks("findings.json", json_chunks(findings_doc))
     for name in SCHEMA_COPIES:  # the release describes itself
-        files[f"schemas/{name}"] = schemas.schema_bytes(name)
-    return files
+        release.add(f"schemas/{name}", schemas.schema_bytes(name))

@@ -29,6 +29,7 @@ in it is listed in its manifest. The output may not be, contain or lie inside a 
 the working directory, a filesystem root or the home folder, also through a link.
 """
 
+import hashlib
 import os
 import re
 import shutil
@@ -39,7 +40,6 @@ from functools import lru_cache
 from pathlib import Path
 
 from ..core.errors import OutputError
-from ..core.names import sha256
 from ..library.document import CURRENT
 
 LOCK = ".lock"
@@ -270,16 +270,27 @@ class Release:
         return cls(staging, flat)
 
     def add(self, rel: str, data: bytes) -> None:
+        self.add_chunks(rel, (data,))
+
+    def add_chunks(self, rel: str, chunks) -> None:
+        """File ``rel`` of the byte pieces ``chunks``, written as they come (a large file is
+        never held whole); its sha256 and size are taken on the way."""
+        digest, size = hashlib.sha256(), 0
         if self._kept is not None:
-            self._kept[rel] = data
+            data = self._kept[rel] = b"".join(chunks)
+            digest.update(data)
+            size = len(data)
         else:
             path = self.folder / rel
             path.parent.mkdir(parents=True, exist_ok=True)
             with open(path, "wb") as fh:
-                fh.write(data)
+                for chunk in chunks:
+                    digest.update(chunk)
+                    size += len(chunk)
+                    fh.write(chunk)
                 fh.flush()
                 os.fsync(fh.fileno())
-        self._sums[rel] = (sha256(data), len(data))
+        self._sums[rel] = (digest.hexdigest(), size)
 
     def update(self, files: dict) -> None:
         for rel, data in files.items():

@@ -232,9 +232,10 @@ def _planned_build(raw_dir, out_dir, ctx, write, progress, wait, previous, cut, 
     with publish.locked(real, wait):
         if previous is None:
             previous = previous_breakpoints(real)
+        digests = partitions.Digests(real / partitions.STORE, use=not fresh)
         store = partitions.PartStore(
             real / partitions.STORE, partitions.part_keys(raw_dir, cut.parts, ctx.to_dict(),
-                                                          previous), use=not fresh)
+                                                          previous, digests), use=not fresh)
         try:
             result = _build(raw_dir, real, ctx, progress, previous, cut, store)
         except BaseException:
@@ -242,6 +243,7 @@ def _planned_build(raw_dir, out_dir, ctx, write, progress, wait, previous, cut, 
             raise
         store.commit()
         keep_breakpoints(real, result.document)
+        digests.save()
     return result
 
 

@@ -18,10 +18,12 @@ import json
 import os
 import pickle
 import re
+import time
 from dataclasses import dataclass
 from functools import lru_cache, partial
 from pathlib import Path
 
+from .core import limits
 from .core.limits import MAX_SOURCE_BYTES, MAX_TABLE_BYTES
 from .core.names import species_name
 from .core.processes import collector_paused, without_collector, worker_pool
@@ -224,7 +226,8 @@ def _run(work, cut: Plan, say, store) -> tuple:
 STORE = publish.STORE
 _STORED = re.compile(r"^part-[0-9a-f]{64}\.pickle$")
 #: pending files: partitions (``save``) and the breakpoints a build keeps (build.py)
-_PENDING = re.compile(r"^\.pending-\d+-(part-[0-9a-f]{64}\.pickle|breakpoints\.json)$")
+_PENDING = re.compile(
+    r"^\.pending-\d+-(part-[0-9a-f]{64}\.pickle|breakpoints\.json|digests\.json)$")
 STORE_FORMAT = 1
 
 
@@ -244,11 +247,55 @@ def _real_folder(folder: str) -> str:
     return os.path.realpath(folder)
 
 
-def _file_digest(path: Path, raw: str) -> str:
-    """What a listed file contributes to a key: its sha256, or what ingest sees instead of
-    content (a link, a folder, nothing, a path outside ``raw`` (a real path), a file too
-    large to be read, by its size). A file that is not a link lies where its folder really
-    is: one real path per folder, not per file."""
+class Digests:
+    """The sha256 of files remembered between builds (``FILE`` in the store of partitions)
+    by their identity on disk: device, inode, size, and the modification and change times
+    in nanoseconds (the change time moves on every write, also when a tool restores the
+    modification time). A file changed less than RECENT_CHANGE seconds before it was
+    remembered is hashed again. With ``use`` False (--fresh), every file is hashed."""
+
+    FILE = "digests.json"
+
+    def __init__(self, folder: Path, use: bool = True):
+        self.path, self.known, self.seen = Path(folder) / self.FILE, {}, {}
+        if use:
+            try:
+                known = json.loads(self.path.read_bytes())
+                self.known = known if isinstance(known, dict) else {}
+            except (OSError, ValueError):
+                pass
+
+    def of(self, path: Path) -> str:
+        """The sha256 of file ``path`` (hex)."""
+        st = path.stat()
+        identity = [st.st_dev, st.st_ino, st.st_size, st.st_mtime_ns, st.st_ctime_ns]
+        key = str(path)
+        kept = self.known.get(key)
+        if isinstance(kept, list) and kept[:-1] == identity:
+            digest = kept[-1]
+        else:
+            digest = hashlib.sha256(path.read_bytes()).hexdigest()
+        self.seen[key] = identity + [digest]
+        return digest
+
+    def save(self) -> None:
+        """Remember the digests of this build (not of files changed in the last
+        RECENT_CHANGE seconds), written atomically, when the store exists."""
+        if not self.path.parent.is_dir():
+            return
+        settled = time.time_ns() - int(limits.RECENT_CHANGE * 1e9)
+        keep = {k: v for k, v in sorted(self.seen.items()) if v[4] < settled and v[3] < settled}
+        tmp = self.path.with_name(f".pending-{os.getpid()}-{self.FILE}")
+        tmp.write_text(json.dumps(keep))
+        os.replace(tmp, self.path)
+
+
+def _file_digest(path: Path, raw: str, digests=None) -> str:
+    """What a listed file contributes to a key: its sha256 (remembered by ``digests``, a
+    Digests, when given), or what ingest sees instead of content (a link, a folder,
+    nothing, a path outside ``raw`` (a real path), a file too large to be read, by its
+    size). A file that is not a link lies where its folder really is: one real path per
+    folder, not per file."""
     if path.is_symlink():
         return "link:" + os.readlink(path)
     real = os.path.join(_real_folder(str(path.parent)), path.name) \
@@ -257,18 +304,19 @@ def _file_digest(path: Path, raw: str) -> str:
         return "outside"
     if path.is_file():
         size = path.stat().st_size
-        return f"size:{size}" if size > MAX_TABLE_BYTES else \
-            hashlib.sha256(path.read_bytes()).hexdigest()
+        if size > MAX_TABLE_BYTES:
+            return f"size:{size}"
+        return digests.of(path) if digests else hashlib.sha256(path.read_bytes()).hexdigest()
     return "dir" if path.is_dir() else "absent"
 
 
-def part_keys(raw_dir, parts: int, settings: dict, previous: dict) -> list:
+def part_keys(raw_dir, parts: int, settings: dict, previous: dict, digests=None) -> list:
     """The key of each partition: a sha256 of everything its result depends on. Shared by
     all: the code and the versions of the numerical libraries, the settings (of the outputs
     asked for only the step of the evaluated tables, made in the partitions), every path
     under ``raw_dir`` (unlisted files are findings), every source.json and coefficient-set
     file; its own: the tables its species names list and the breakpoints ``previous``
-    offers them."""
+    offers them. ``digests`` (a Digests) remembers the files' sha256 between builds."""
     from .release.provenance import dependency_versions
 
     raw = Path(raw_dir)
@@ -283,19 +331,22 @@ def part_keys(raw_dir, parts: int, settings: dict, previous: dict) -> list:
     own = [hashlib.sha256() for _ in range(parts)]
     for sid, points in sorted(previous.items()):
         own[partition_of(species_name(sid), parts)].update(f"{sid}{points}\n".encode())
+
+    def digest(path: Path) -> str:
+        return _file_digest(path, real, digests)
+
     for src in sorted(raw.glob("*/source.json")):
-        shared.update(f"{src.parent.name}\0{_file_digest(src, real)}\n".encode())
+        shared.update(f"{src.parent.name}\0{digest(src)}\n".encode())
         try:
             if src.stat().st_size > MAX_SOURCE_BYTES:
                 continue      # refused by ingest: its size is in the key
             doc = json.loads(src.read_bytes())
             for entry in doc.get("coefficient_sets", ()):
-                shared.update(f"{entry['file']}\0{_file_digest(src.parent / entry['file'], real)}"
-                              "\n".encode())
+                shared.update(f"{entry['file']}\0{digest(src.parent / entry['file'])}\n".encode())
             for entry in doc.get("tables", ()):
                 part = partition_of(str(entry["species"]), parts)
-                own[part].update(f"{entry['file']}\0{_file_digest(src.parent / entry['file'], real)}"
-                                 "\n".encode())
+                own[part].update(f"{entry['file']}\0{digest(src.parent / entry['file'])}\n"
+                                 .encode())
         except (OSError, ValueError, AttributeError, TypeError, KeyError, RecursionError):
             continue      # such a source.json is refused by ingest; its bytes are in the key
     base = shared.hexdigest()

@@ -264,8 +264,8 @@ def test_kept_partitions_wait_on_disk_until_the_release_is_published(tmp_path, m
     build.build(RAW, out, parts=2, fresh=True)
     assert len(seen["pending"]) == 3 and seen["held"] == [0, 1]     # two of this build
     names = sorted(p.name for p in (out / partitions.STORE).iterdir())
-    assert names[0] == build.KEPT_BREAKPOINTS
-    assert len(names) == 3 and all(n.startswith("part-") for n in names[1:])
+    assert names[:2] == [build.KEPT_BREAKPOINTS, partitions.Digests.FILE]
+    assert len(names) == 4 and all(n.startswith("part-") for n in names[2:])
 
 
 
@@ -297,3 +297,40 @@ def test_the_garbage_collector_is_paused_in_the_work_and_on_again_after():
     assert gc.isenabled()
     build.build(RAW, None, write=False)
     assert gc.isenabled()
+
+
+def test_digests_are_remembered_by_file_identity_and_not_for_files_just_changed(
+        tmp_path, monkeypatch):
+    """A rebuild hashes only the tables whose identity on disk (inode, size, times) changed
+    since the last build remembered them; a file changed within RECENT_CHANGE seconds of that
+    build is not remembered (it could change again unseen within one clock tick), and the
+    keys are those of hashing every file."""
+    import time
+
+    from thermoledger.core import limits
+
+    raw, store = tmp_path / "raw", tmp_path / "store"
+    shutil.copytree(RAW, raw)
+    store.mkdir()
+    read = []
+    real_read = Path.read_bytes
+    monkeypatch.setattr(Path, "read_bytes", lambda p: (read.append(p.name) if p.suffix == ".csv"
+                                                       else None) or real_read(p))
+    tables = len(list(raw.glob("*/*.csv")))
+    first = partitions.Digests(store)
+    keys = partitions.part_keys(raw, 3, {}, {}, first)
+    first.save()
+    assert len(read) == tables and partitions.Digests(store).known == {}   # all too recent
+    monkeypatch.setattr(limits, "RECENT_CHANGE", 0.0)
+    time.sleep(0.05)
+    again = partitions.Digests(store)
+    assert partitions.part_keys(raw, 3, {}, {}, again) == keys
+    again.save()
+    read.clear()
+    table = sorted(raw.glob("*/*.csv"))[0]
+    time.sleep(0.05)
+    table.write_text(table.read_text().replace("1", "2", 1))          # the same size
+    edited = partitions.part_keys(raw, 3, {}, {}, partitions.Digests(store))
+    assert read == [table.name]
+    assert edited == partitions.part_keys(raw, 3, {}, {}) != keys     # as hashing every file
+    assert partitions.Digests(store, use=False).known == {}            # --fresh

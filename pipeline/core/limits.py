@@ -26,6 +26,10 @@ MAX_TABLES_PER_SOURCE = 10_000
 MAX_UNIT_LENGTH = 80
 #: largest exponent magnitude in a unit expression (UNIT-TOO-COMPLEX)
 MAX_UNIT_EXPONENT = 6
+#: a file changed less than this long ago [s] may change again within one tick of the file
+#: system's clock, unseen in its times: what is remembered of files by their times (the
+#: digests of a rebuild's keys, a process's source.json files) is not trusted for it
+RECENT_CHANGE = 2.0
 #: largest library.json read by props and diff [bytes]: about 240 000 species (8.7 KB
 #: each), some 5 GB of memory to read
 MAX_LIBRARY_BYTES = 2 * 1024 * 1024 * 1024

@@ -58,6 +58,10 @@ class Part:
     def owns(self, name: str) -> bool:
         return partition_of(name, self.count) == self.index
 
+    def index_of(self, name: str) -> int:
+        """The partition of species name ``name`` in this cut."""
+        return partition_of(name, self.count)
+
 
 @dataclass(frozen=True)
 class PartResult:

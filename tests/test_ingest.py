@@ -126,3 +126,39 @@ def test_inputs_digest_depends_on_content_only(tmp_path):
     assert d1 == d2
     (tmp_path / "b" / "lab-a" / "n2.csv").write_text("T [K],Cp [J/(mol*K)]\n300,29\n")
     assert ingest.inputs_digest(ingest.ingest(tmp_path / "b").inputs) != d1
+
+
+def test_a_settled_source_json_is_read_once_per_process_and_again_when_it_changes(
+        tmp_path, monkeypatch):
+    """Every partition reads every source.json: a process reads one that has not changed
+    for RECENT_CHANGE seconds once (by its identity on disk), and again once it changes;
+    each partition still gets only its own tables."""
+    import shutil
+    import time
+    from pathlib import Path
+
+    from thermoledger.core import limits
+    from thermoledger.partitions import Part
+
+    raw = tmp_path / "raw"
+    shutil.copytree(Path(__file__).resolve().parent.parent / "raw", raw)
+    reads = []
+    real = Path.read_bytes
+    monkeypatch.setattr(Path, "read_bytes", lambda p: (reads.append(p) if p.name ==
+                                                       "source.json" else None) or real(p))
+    sources_ = len(list(raw.glob("*/source.json")))
+    whole = ingest.ingest(raw)
+    assert len(reads) == sources_                         # just copied: read as they are
+    monkeypatch.setattr(limits, "RECENT_CHANGE", 0.0)
+    time.sleep(0.05)
+    parts = [ingest.ingest(raw, Part(k, 3)) for k in range(3)]
+    assert len(reads) == 2 * sources_                     # settled: once for three parts
+    assert sorted(t.meta.file for p in parts for t in p.tables) == \
+        sorted(t.meta.file for t in whole.tables)
+    src = sorted(raw.glob("*/source.json"))[0]
+    doc = json.loads(src.read_text())
+    doc["citation"] = doc.get("citation", "") + " (edited)"
+    src.write_text(json.dumps(doc))
+    again = ingest.ingest(raw, Part(0, 3))
+    assert len(reads) == 2 * sources_ + 1
+    assert any(s.citation.endswith("(edited)") for s in again.sources)

@@ -472,7 +472,6 @@ def test_a_document_written_in_pieces_is_the_document_written_whole(doc):
     the bytes orjson writes for the whole document (also where a value looks like the
     marks the pieces are cut at)."""
     import orjson
-
     from thermoledger.release.document import json_chunks
 
     want = orjson.dumps(doc, option=orjson.OPT_INDENT_2 | orjson.OPT_APPEND_NEWLINE)

@@ -1,7 +1,6 @@
 """Orchestration: ingest -> validate -> reconcile -> fit -> release. Only wires the stages;
 each stage's work, and its tests, live in its own sub-package."""
 
-import os
 import tempfile
 from dataclasses import dataclass, replace
 from functools import partial
@@ -11,6 +10,7 @@ import numpy as np
 
 from . import fit, ingest, partitions
 from .checks import acknowledge, reconcile, references, registry, transitions
+from .core import paths
 from .core.errors import FitError, OutputError
 from .core.findings import ERROR, INFO, by_subject, concerns, finding, stage_failed, subject
 from .core.processes import collector_paused
@@ -126,11 +126,10 @@ KEPT_BREAKPOINTS = "breakpoints.json"
 
 
 def _library_identity(out_dir) -> list:
-    """[release folder name, size, inode, modification time] of the library.json that
-    ``out_dir`` publishes (raises OSError when there is none)."""
+    """[release folder name, core.paths.identity ...] of the library.json that ``out_dir``
+    publishes (raises OSError when there is none)."""
     path = library.release_folder(Path(out_dir)) / "library.json"
-    st = path.stat()
-    return [path.parent.name, st.st_size, st.st_ino, st.st_mtime_ns]
+    return [path.parent.name, *paths.identity(path.stat())]
 
 
 def keep_breakpoints(out_dir, doc: dict) -> None:
@@ -144,9 +143,7 @@ def keep_breakpoints(out_dir, doc: dict) -> None:
         return
     kept = {"library": _library_identity(out_dir),
             "breakpoints": {sp["id"]: sp["breakpoints"] for sp in doc["species"]}}
-    tmp = folder / f".pending-{os.getpid()}-{KEPT_BREAKPOINTS}"
-    tmp.write_bytes(orjson.dumps(kept))
-    os.replace(tmp, folder / KEPT_BREAKPOINTS)
+    paths.write_atomic(folder / KEPT_BREAKPOINTS, orjson.dumps(kept))
 
 
 def previous_breakpoints(out_dir) -> dict:

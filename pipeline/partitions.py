@@ -18,12 +18,11 @@ import json
 import os
 import pickle
 import re
-import time
 from dataclasses import dataclass
 from functools import lru_cache, partial
 from pathlib import Path
 
-from .core import limits
+from .core import paths
 from .core.limits import MAX_SOURCE_BYTES, MAX_TABLE_BYTES
 from .core.names import species_name
 from .core.processes import collector_paused, without_collector, worker_pool
@@ -229,9 +228,9 @@ def _run(work, cut: Plan, say, store) -> tuple:
 #: the folder of a release home that keeps the partitions of its last build
 STORE = publish.STORE
 _STORED = re.compile(r"^part-[0-9a-f]{64}\.pickle$")
-#: pending files: partitions (``save``) and the breakpoints a build keeps (build.py)
-_PENDING = re.compile(
-    r"^\.pending-\d+-(part-[0-9a-f]{64}\.pickle|breakpoints\.json|digests\.json)$")
+#: pending files: partitions (``save``), and the digests and breakpoints a build keeps
+#: (core.paths.write_atomic's temporary files)
+_PENDING = re.compile(r"^(\.pending-\d+-part-[0-9a-f]{64}\.pickle|\.(breakpoints|digests)\.json\..*\.tmp)$")
 STORE_FORMAT = 1
 
 
@@ -253,10 +252,9 @@ def _real_folder(folder: str) -> str:
 
 class Digests:
     """The sha256 of files remembered between builds (``FILE`` in the store of partitions)
-    by their identity on disk: device, inode, size, and the modification and change times
-    in nanoseconds (the change time moves on every write, also when a tool restores the
-    modification time). A file changed less than RECENT_CHANGE seconds before it was
-    remembered is hashed again. With ``use`` False (--fresh), every file is hashed."""
+    by their identity on disk (core.paths.identity); a file not settled when it would be
+    remembered (core.paths.settled) is hashed again by the next build. With ``use`` False
+    (--fresh), every file is hashed."""
 
     FILE = "digests.json"
 
@@ -272,26 +270,21 @@ class Digests:
     def of(self, path: Path) -> str:
         """The sha256 of file ``path`` (hex)."""
         st = path.stat()
-        identity = [st.st_dev, st.st_ino, st.st_size, st.st_mtime_ns, st.st_ctime_ns]
-        key = str(path)
-        kept = self.known.get(key)
+        identity = list(paths.identity(st))
+        kept = self.known.get(str(path))
         if isinstance(kept, list) and kept[:-1] == identity:
             digest = kept[-1]
         else:
             digest = hashlib.sha256(path.read_bytes()).hexdigest()
-        self.seen[key] = identity + [digest]
+        if paths.settled(st):
+            self.seen[str(path)] = identity + [digest]
         return digest
 
     def save(self) -> None:
-        """Remember the digests of this build (not of files changed in the last
-        RECENT_CHANGE seconds), written atomically, when the store exists."""
-        if not self.path.parent.is_dir():
-            return
-        settled = time.time_ns() - int(limits.RECENT_CHANGE * 1e9)
-        keep = {k: v for k, v in sorted(self.seen.items()) if v[4] < settled and v[3] < settled}
-        tmp = self.path.with_name(f".pending-{os.getpid()}-{self.FILE}")
-        tmp.write_text(json.dumps(keep))
-        os.replace(tmp, self.path)
+        """Remember the digests of this build's settled files, written atomically, when the
+        store exists."""
+        if self.path.parent.is_dir():
+            paths.write_atomic(self.path, json.dumps(dict(sorted(self.seen.items()))).encode())
 
 
 def _file_digest(path: Path, raw: str, digests=None) -> str:

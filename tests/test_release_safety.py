@@ -448,10 +448,14 @@ def test_a_document_is_written_exactly_when_it_holds_no_nan_nor_infinity(doc):
 def test_a_kept_release_s_manifest_is_read_once_and_again_when_it_changes(tmp_path, raw, capsys,
                                                                       monkeypatch):
     """The release home is judged before and under the lock; the manifests of its releases
-    are read once for both, and a manifest changed in place is read again (and a damaged
-    one makes the folder another's)."""
+    are read once for both once settled (core.paths.settled), and a manifest changed in
+    place is read again (and a damaged one makes the folder another's)."""
+    from thermoledger.core import limits
+
     out = tmp_path / "out"
     assert run(capsys, *build_args(raw, out))[0] in (0, 1)
+    monkeypatch.setattr(limits, "RECENT_CHANGE", 0.0)
+    time.sleep(0.05)
     reads = []
     real = publish._manifest
     monkeypatch.setattr(publish, "_manifest", lambda p: reads.append(p) or real(p))

@@ -1,8 +1,11 @@
-"""Writing files atomically."""
+"""Writing files atomically, and knowing a file again by its identity on disk."""
 
 import os
 import tempfile
+import time
 from pathlib import Path
+
+from . import limits
 
 
 def write_atomic(path: Path, data: bytes) -> None:
@@ -23,3 +26,17 @@ def write_atomic(path: Path, data: bytes) -> None:
         if os.path.exists(tmp):
             os.unlink(tmp)
         raise
+
+
+def identity(st) -> tuple:
+    """What a file is known again by, from its ``os.stat`` result ``st``: device, inode,
+    size, and the modification and change times [ns] (a write moves the change time, also
+    when a tool restores the modification time)."""
+    return (st.st_dev, st.st_ino, st.st_size, st.st_mtime_ns, st.st_ctime_ns)
+
+
+def settled(st) -> bool:
+    """True when the file of ``st`` has not changed for limits.RECENT_CHANGE seconds: a
+    later change then shows in its ``identity`` (a file changed more recently may change
+    again within one tick of the file system's clock, unseen in its times)."""
+    return time.time_ns() - max(st.st_mtime_ns, st.st_ctime_ns) >= limits.RECENT_CHANGE * 1e9

@@ -6,12 +6,11 @@ each problem. Nothing under raw/ is ever written; paths are confined to it.
 """
 
 import hashlib
-import time
 from dataclasses import dataclass
 from functools import lru_cache
 from pathlib import Path
 
-from ..core import chemistry, jsonread, limits, phases, schemas, units
+from ..core import chemistry, jsonread, paths, phases, schemas, units
 from ..core.errors import InputError
 from ..core.findings import Finding, clip, finding, stage_failed
 from ..core.limits import ANCHOR_RANGE, MAX_SOURCE_BYTES, MAX_TABLE_BYTES, MAX_TABLES_PER_SOURCE
@@ -375,14 +374,13 @@ SOURCES_REMEMBERED = 4096
 
 def _source_text(path: Path) -> tuple:
     """(sha256, size, text, or None when not UTF-8) of the source.json at ``path``: read
-    once per process for a file as it is on disk (device, inode, size, modification and
-    change times), the same text object each time, so that ``_parsed_source`` finds it at
-    once; read again each time while it was changed in the last RECENT_CHANGE seconds."""
+    once per process for a file as it is on disk (core.paths.identity), the same text
+    object each time, so that ``_parsed_source`` finds it at once; read again each time
+    while it is not settled (core.paths.settled)."""
     st = path.stat()
-    if time.time_ns() - max(st.st_mtime_ns, st.st_ctime_ns) < limits.RECENT_CHANGE * 1e9:
+    if not paths.settled(st):
         return _read_source_text(str(path))
-    return _settled_source_text(str(path), st.st_dev, st.st_ino, st.st_size, st.st_mtime_ns,
-                                st.st_ctime_ns)
+    return _settled_source_text(str(path), *paths.identity(st))
 
 
 def _read_source_text(path: str) -> tuple:

@@ -39,6 +39,7 @@ from contextlib import contextmanager
 from functools import lru_cache
 from pathlib import Path
 
+from ..core import paths
 from ..core.errors import OutputError
 from ..library.document import CURRENT
 
@@ -75,7 +76,7 @@ def _manifest(path: Path):
 
 def _is_manifest(path: Path) -> bool:
     """True when ``path`` holds a thermoledger manifest (``_manifest``), remembered for the
-    file as it is (device, inode, size, modification and change times): a build judges
+    file as it is once settled (core.paths.identity, settled): a build judges
     its release home twice, before and under the lock, and the manifests of the kept
     releases, which never change, were read in full each time (0.2 s per judgement at
     10 000 species)."""
@@ -83,8 +84,9 @@ def _is_manifest(path: Path) -> bool:
         st = path.stat()
     except OSError:
         return False
-    return _recognised(str(path), st.st_dev, st.st_ino, st.st_size, st.st_mtime_ns,
-                       st.st_ctime_ns)
+    if not paths.settled(st):
+        return _manifest(path) is not None
+    return _recognised(str(path), *paths.identity(st))
 
 
 @lru_cache(maxsize=64)

@@ -35,7 +35,7 @@ PARALLEL_FROM = 400
 #: the progress stage of partitions worked (counted in partitions)
 STAGE = "read, check and fit"
 #: listed tables per partition of a large build, and the most partitions
-PART_SIZE, MAX_PARTS = 256, 1024
+PART_SIZE, MAX_PARTS = 128, 1024
 
 
 @lru_cache(maxsize=1 << 17)

@@ -263,3 +263,22 @@ def test_plots_are_plain_svg_with_the_data_drawn(release):
     assert "N2(g): heat capacity" in text and "<polyline" in text
     assert text.count("<rect") >= 3          # background, frames, and the extrapolated span
     assert len(n2["breakpoints"]) == 2 and text.count("stroke-dasharray=\"2,2\"") == 4
+
+
+def test_a_report_drawn_by_worker_processes_is_the_one_drawn_in_one():
+    """A large report is drawn in chunks by worker processes: the files do not depend on
+    how many (the demo's species four times over, under other ids, to pass the size at
+    which workers are used)."""
+    import copy
+
+    from thermoledger.release import report
+
+    from .conftest import PROJECT
+
+    doc = json.loads((PROJECT / "curated" / "library.json").read_text())
+    doc["species"] = [dict(copy.deepcopy(s), id=f"{s['id']}#{k}") for k in range(4)
+                      for s in doc["species"]]
+    assert len(doc["species"]) > 60
+    one = report.report_files(doc, {}, 0.01, workers=1)
+    assert report.report_files(doc, {}, 0.01, workers=2) == one
+    assert sum(p.startswith("report/species/") for p in one) == len(doc["species"])

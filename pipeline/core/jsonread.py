@@ -89,7 +89,8 @@ def canonical(data: bytes, max_depth: int = MAX_JSON_DEPTH):
     the bytes would lack the repeat); every line break of indented JSON lies between
     values, so a line indented 2 × ``max_depth`` spaces is the first sign of too deep a
     nesting (an empty array or object adds one level to the deepest indentation). A
-    10 000-species library.json is read in 0.4 s this way; ``loads`` takes 2.5 s."""
+    10 000-species library.json (87 MB) is read in about 0.5 s this way; ``loads`` takes
+    1.6 to 2.6 s."""
     import orjson
 
     from .processes import collector_paused

@@ -288,9 +288,9 @@ def _anchor_columns(sp: dict) -> dict:
 
 def library_parquet_bytes(doc: dict) -> bytes:
     """library.parquet: one row per species and range; build metadata as key-value metadata."""
-    cols = {name: [] for name, _, _ in LIBRARY_PARQUET_COLUMNS}
     import orjson
 
+    cols = {name: [] for name, _, _ in LIBRARY_PARQUET_COLUMNS}
     for sp in doc["species"]:
         text = {k: orjson.dumps(sp[k]).decode() for k in ("extrapolated", "sources", "findings")}
         for j, r in enumerate(sp["ranges"]):

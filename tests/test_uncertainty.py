@@ -18,6 +18,7 @@ import numpy as np
 import pytest
 from thermoledger.core.settings import FitSettings
 from thermoledger.fit import lsq, uncertainty
+from thermoledger.library import budget
 from thermoledger.library.document import evaluate_entry
 from thermoledger.testing import coverage, fit_arrays
 
@@ -105,3 +106,6 @@ def test_the_extrapolation_share_is_integrated_into_h_and_s():
     truth = ref.at([2000.0])
     h298 = evaluate_entry(e, [298.15])["H"][0]
     assert abs(ev["H"][-1] - h298 - truth[1][0]) <= 2 * ev["u_H"][-1]
+    # u(Cp) alone (what the evaluated tables take from it) is the u(Cp) of the full share
+    alone = budget.extrapolation_share(e, t, integrals=False)
+    np.testing.assert_array_equal(alone["u_Cp"], budget.extrapolation_share(e, t)["u_Cp"])

@@ -285,7 +285,7 @@ def _judge(who: SpeciesIdentity, solved: Solved, data: CpData,
         s_dev = float(np.max(np.abs(ev["S"][m] - s[m])))
     dense = np.unique(np.concatenate([np.geomspace(ranges[0].t_min, ranges[-1].t_max, 400),
                                       [r.t_min for r in ranges], [ranges[-1].t_max]]))
-    cp_dense = forms.evaluate_ranges(ranges, dense, form)["Cp"]
+    cp_dense = forms.cp_of_ranges(ranges, dense, form)
     extrap = tuple({"t_min": min(e.t_from, e.t_to), "t_max": max(e.t_from, e.t_to),
                     "model": e.model, "holdout_error": e.holdout_error,
                     "u_rel_end": e.u_rel_end,

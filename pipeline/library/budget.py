@@ -115,7 +115,8 @@ def cp_share(entry: dict, t) -> np.ndarray:
     bps = entry.get("breakpoints", [])
     u = R * basis.standard_deviation(basis.cp_rows(unc.get("powers") or [], t, bps), cov) \
         if cov.size else np.zeros_like(t)
-    for share in (model_share(unc.get("model_error") or [], bps, t), extrapolation_share(entry, t)):
+    for share in (model_share(unc.get("model_error") or [], bps, t),
+                  extrapolation_share(entry, t, integrals=False)):
         if share:
             u = np.hypot(u, share["u_Cp"])
     return u
@@ -231,11 +232,11 @@ def model_share(model_error, bps, t, tref=REFERENCE_TEMPERATURE) -> dict:
             "u_S": np.minimum(s, cp * np.abs(np.log(t / tref)))}
 
 
-def extrapolation_share(species: dict, t, steps: int = 48) -> dict:
+def extrapolation_share(species: dict, t, steps: int = 48, integrals: bool = True) -> dict:
     """Inside each model-filled interval: u_rel(T) Cp(T), u_rel growing from its value at the
     data edge to its value at the far end in proportion to |ln(T/edge)|. The share is
     systematic, so u(H) at T adds up u_rel Cp over the part of 298.15 K..T it covers, and u(S)
-    u_rel Cp / T (trapezoids on ``steps`` points)."""
+    u_rel Cp / T (trapezoids on ``steps`` points); without ``integrals``, u_Cp only."""
     guided = [e for e in species.get("extrapolated", []) if e.get("u_rel_end") is not None]
     if not guided:
         return {}
@@ -248,11 +249,14 @@ def extrapolation_share(species: dict, t, steps: int = 48) -> dict:
         frac = np.abs(np.log(x / edge)) / (abs(np.log(far / edge)) or 1.0)
         rel = start + (e["u_rel_end"] - start) * frac
         inside = (x >= e["t_min"] * (1 - 1e-12)) & (x <= e["t_max"] * (1 + 1e-12))
-        return np.where(inside, rel * _evaluate(species, x.ravel())["Cp"].reshape(x.shape), 0.0)
+        cp = forms.cp_of_ranges(species["ranges"], x.ravel(), species["form"])
+        return np.where(inside, rel * cp.reshape(x.shape), 0.0)
 
     out = {"u_Cp": np.zeros_like(t), "u_H": np.zeros_like(t), "u_S": np.zeros_like(t)}
     for e in guided:
         out["u_Cp"] = out["u_Cp"] + u_abs(t, e)
+        if not integrals:
+            continue
         a = np.clip(np.minimum(t, tref), e["t_min"], e["t_max"])
         b = np.clip(np.maximum(t, tref), e["t_min"], e["t_max"])
         grid = np.geomspace(a, np.maximum(b, a), steps, axis=-1)          # (n, steps)

@@ -160,10 +160,7 @@ def range_index(ranges, t):
 def evaluate_ranges(ranges, t, form):
     """Cp [J/(mol K)], H [J/mol], S [J/(mol K)] and G [J/mol] at ``t`` [K] of ``ranges``:
     (t_min, t_max, coefficients) tuples, library entry ranges or FitRange records."""
-    f = FORMS[form] if isinstance(form, str) else form
-    ranges = as_ranges(ranges)
-    t = np.atleast_1d(np.asarray(t, dtype=float))
-    idx = range_index(ranges, t)
+    f, ranges, t, idx = _placed(ranges, t, form)
     cp, h, s = (np.empty_like(t) for _ in range(3))
     for j, r in enumerate(ranges):
         m = idx == j
@@ -174,6 +171,26 @@ def evaluate_ranges(ranges, t, form):
         h[m] = f.h_integral(a, t[m]) + h0
         s[m] = f.s_integral(a, t[m]) + s0
     return {"Cp": cp, "H": h, "S": s, "G": h - t * s}
+
+
+def cp_of_ranges(ranges, t, form):
+    """Cp [J/(mol K)] at ``t`` [K] of ``ranges`` alone: ``evaluate_ranges(...)["Cp"]``, the
+    same numbers, without the integrals."""
+    f, ranges, t, idx = _placed(ranges, t, form)
+    cp = np.empty_like(t)
+    for j, r in enumerate(ranges):
+        m = idx == j
+        if m.any():
+            cp[m] = f.cp(f.unpack(r[2])[0], t[m])
+    return cp
+
+
+def _placed(ranges, t, form) -> tuple:
+    """(Form, ranges as tuples, t as a 1-d float array, range index of each t)."""
+    f = FORMS[form] if isinstance(form, str) else form
+    ranges = as_ranges(ranges)
+    t = np.atleast_1d(np.asarray(t, dtype=float))
+    return f, ranges, t, range_index(ranges, t)
 
 
 # --- nasa7 helpers kept for callers that work in its published form ----------------------

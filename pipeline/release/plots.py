@@ -21,10 +21,10 @@ def species_figure(sp, t, cp, t_out, cp_out, accept) -> bytes:
     lo, hi = sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"]
     ranges = library.ranges_of(sp)
     tf = np.geomspace(lo, hi, 300)
-    cp_fit = forms.evaluate_ranges(ranges, tf, sp["form"])["Cp"]
+    cp_fit = forms.cp_of_ranges(ranges, tf, sp["form"])
     dev = EMPTY
     if len(t):
-        dev = 100 * (forms.evaluate_ranges(ranges, t, sp["form"])["Cp"] - cp) / cp
+        dev = 100 * (forms.cp_of_ranges(ranges, t, sp["form"]) - cp) / cp
     span = max(float(np.max(np.abs(dev))) if len(dev) else 0.0, 100 * accept) * 1.2
     xlim = (lo - 0.02 * (hi - lo), hi + 0.02 * (hi - lo))
     chart = Chart(720, 500, grid=GRID, ink=INK)

@@ -108,29 +108,45 @@ def _wilhoit_terms(t, b, n, c0, cinf):
 def fit_wilhoit(t, cp, c0, cinf, terms: int = WILHOIT_TERMS) -> list:
     """Wilhoit's form with n = 0 .. terms free terms, one model each (None where its columns
     are dependent): for every B of B_GRID at once the a_i by relative least squares, and the
-    B of the smallest sum of squares (the first on a tie). One QR factorisation per B
-    (stacked) of all ``terms`` columns serves every n: the first n columns of Q and the
-    leading n × n block of R factorise the first n columns."""
+    B of the smallest sum of squares (the first on a tie). The columns are made orthonormal
+    one after the other for all B at once (Gram-Schmidt, each column twice against those
+    before it: twice is enough for orthogonality to working precision), so that the fit
+    of n terms takes its first n columns: its residual is that of n − 1 terms less one
+    projection, and its coefficients are solved for the chosen B only."""
     y = t[None, :] / (t[None, :] + B_GRID[:, None])          # (B, rows)
-    rhs = (cp - (c0 + (cinf - c0) * y * y)) / cp
-    cols = np.stack([(cinf - c0) * y * y * (y - 1.0) * y ** i for i in range(terms)],
-                    axis=2) / cp[None, :, None]                # (B, rows, terms)
-    q, r = np.linalg.qr(cols)
-    qb = np.einsum("bki,bk->bi", q, rhs)
-    out = []
-    for n in range(terms + 1):
-        try:
-            if n:
-                a_all = np.linalg.solve(r[:, :n, :n], qb[:, :n, None])[..., 0]
-                miss = rhs - np.einsum("bki,bi->bk", cols[:, :, :n], a_all)
-            else:
-                a_all, miss = np.zeros((len(B_GRID), 0)), rhs
-        except np.linalg.LinAlgError:      # columns dependent at some B: no model of n terms
-            out.append(None)
-            continue
-        j = int(np.argmin(np.sum(miss ** 2, axis=1)))
-        out.append(_wilhoit_model(B_GRID[j], a_all[j], c0, cinf))
+    yy = y * y
+    miss = (cp - (c0 + (cinf - c0) * yy)) / cp               # the residual of no free term
+    col = (cinf - c0) * yy * (y - 1.0) / cp
+    q, r, qb = [], np.zeros((len(B_GRID), terms, terms)), np.zeros((len(B_GRID), terms))
+    out = [_wilhoit_model(B_GRID[int(np.argmin(np.sum(miss ** 2, axis=1)))], np.zeros(0),
+                          c0, cinf)]
+    for n in range(terms):
+        v = col.copy()
+        for _ in range(2):
+            for i, qi in enumerate(q):
+                d = np.einsum("bk,bk->b", qi, v)
+                r[:, i, n] += d
+                v -= d[:, None] * qi
+        norm = np.sqrt(np.einsum("bk,bk->b", v, v))
+        if not np.all(norm > 0):           # columns dependent at some B: no more models
+            return out + [None] * (terms - n)
+        r[:, n, n] = norm
+        q.append(v / norm[:, None])
+        qb[:, n] = np.einsum("bk,bk->b", q[n], miss)
+        miss = miss - qb[:, n, None] * q[n]
+        j = int(np.argmin(np.einsum("bk,bk->b", miss, miss)))
+        out.append(_wilhoit_model(B_GRID[j], _back_substitution(r[j, :n + 1, :n + 1],
+                                                                qb[j, :n + 1]), c0, cinf))
+        col = col * y
     return out
+
+
+def _back_substitution(r, b) -> np.ndarray:
+    """x of r x = b, r upper triangular with a non-zero diagonal (a few unknowns)."""
+    x = np.zeros(len(b))
+    for i in range(len(b) - 1, -1, -1):
+        x[i] = (b[i] - r[i, i + 1:] @ x[i + 1:]) / r[i, i]
+    return x
 
 
 def _wilhoit_model(b, a, c0, cinf):

@@ -16,6 +16,8 @@ from dataclasses import replace
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from thermoledger.core.settings import FitSettings
 from thermoledger.fit import lsq, uncertainty
 from thermoledger.library import budget
@@ -109,3 +111,12 @@ def test_the_extrapolation_share_is_integrated_into_h_and_s():
     # u(Cp) alone (what the evaluated tables take from it) is the u(Cp) of the full share
     alone = budget.extrapolation_share(e, t, integrals=False)
     np.testing.assert_array_equal(alone["u_Cp"], budget.extrapolation_share(e, t)["u_Cp"])
+
+
+@settings(max_examples=300, deadline=None)
+@given(values=st.lists(st.floats(0.0, 1e6, allow_subnormal=False) | st.sampled_from([0.0, 1.0, 2.5]),
+                       min_size=1, max_size=80),
+       q=st.sampled_from([uncertainty.COVERAGE, 0.0, 0.5, 0.9, 0.99, 1.0]) | st.floats(0.0, 1.0))
+def test_the_quantile_of_the_model_share_is_numpy_s_to_the_last_bit(values, q):
+    v = np.array(values)
+    assert uncertainty.quantile(v.copy(), q) == float(np.quantile(v, q))

@@ -13,9 +13,9 @@ Phys. Rev. 40, 207 (1932)):
   A): the covariance is multiplied by χ²/ν whatever its value.
 * Model share. A polynomial form with a given number of ranges cannot follow Cp exactly
   even when the data are exact. The misfit d(T) = P(T) − F(T) between the fitted polynomial
-  P and a flexible smooth reference F of the same rows (a cubic smoothing spline in ln T,
-  weights 1/σ², smoothing chosen by generalised cross-validation: P. Craven & G. Wahba,
-  Numer. Math. 31, 377 (1979); scipy.interpolate.make_smoothing_spline) estimates it. Its
+  P and a flexible smooth reference F of the same rows (``reference_spline``: the weighted
+  least-squares cubic spline in ln T, weights 1/σ, with an interior knot at every
+  ROWS_PER_KNOT-th row; scipy.interpolate.make_lsq_spline) estimates it. Its
   standard uncertainty per range is half the 95th percentile of |d| over the rows of the
   range (so that the usual coverage factor k = 2 covers 95 % of the misfit, which is not
   normally distributed), after removing the share of d that is the noise of the data
@@ -49,7 +49,22 @@ def covariance_scale(sol: Solution, stated: bool) -> float:
 
 def _half_quantile(values) -> float:
     v = np.abs(np.asarray(values, dtype=float))
-    return float(np.quantile(v, COVERAGE) / 2.0) if len(v) else 0.0
+    return quantile(v, COVERAGE) / 2.0 if len(v) else 0.0
+
+
+def quantile(v, q: float) -> float:
+    """``float(np.quantile(v, q))`` of a non-empty 1-d array, to the last bit (its default
+    'linear' method, Hyndman & Fan's definition 7, with numpy's own arithmetic: the index
+    (n − 1) q, and the interpolation taken from the nearer neighbour), without numpy's
+    general machinery: the model share takes six per fit."""
+    n = len(v)
+    at = (n - 1) * q
+    if not np.all(np.isfinite(v)) or not 0.0 <= at < n - 1:
+        return float(np.quantile(v, q))
+    lo = int(np.floor(at))
+    a, b = (float(x) for x in np.partition(v, (lo, lo + 1))[lo:lo + 2])
+    gamma, step = at - lo, b - a
+    return a + step * gamma if gamma < 0.5 else b - step * (1.0 - gamma)
 
 
 def _cumulative(t, f):

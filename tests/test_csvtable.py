@@ -177,3 +177,32 @@ def test_the_one_pass_reader_gives_what_the_cell_by_cell_reader_gives(rows, mark
     else:
         assert problems == [] and clean[1] == lines
         assert [list(map(repr, v)) for v in clean[0]] == [list(map(repr, v)) for v in values]
+
+
+def _records_by_csv(lines, numbers, delimiter):
+    """What the csv module makes of the content lines: the reference of the split reader."""
+    import csv
+
+    reader = csv.reader(lines, delimiter=delimiter, strict=True)
+    out = []
+    for cells in reader:
+        if any(c.strip() for c in cells):
+            out.append((numbers[reader.line_num - 1], [c.strip() for c in cells]))
+    return out
+
+
+@settings(max_examples=400, deadline=None)
+@given(st.lists(st.text(alphabet=",;\t .-eE019aé\u2028\x0b\"", min_size=0, max_size=12),
+                min_size=1, max_size=10),
+       st.sampled_from([",", ";", "\t"]))
+def test_lines_split_by_their_delimiter_are_the_rows_the_csv_module_reads(lines, delimiter):
+    """A table without quotes is split by its delimiter alone; the rows, their cells and
+    their line numbers are what the csv module reads (a quoted table goes to it)."""
+    import csv
+
+    numbers = [3 * k + 1 for k in range(len(lines))]
+    try:
+        expected = _records_by_csv(lines, numbers, delimiter)
+    except csv.Error:
+        return                            # refused (TAB-SYNTAX) either way: only quotes do it
+    assert csvtable._records(lines, numbers, delimiter) == expected

@@ -98,7 +98,10 @@ def sniff_delimiter(lines: list[str]) -> str:
 
 def decimal_mark(cells, delimiter: str, file: str) -> tuple[str | None, list[Finding]]:
     """The decimal mark of the number cells ``cells`` ((line, column, text) triples): '.' or
-    ','; None with a finding when they mix both marks, which cannot be read safely."""
+    ','; None with a finding when they mix both marks, which cannot be read safely. Between
+    commas a comma is never a decimal mark: '.' without a look at the cells."""
+    if delimiter == ",":
+        return ".", []
     first = {}
     for line, column, text in cells:
         for mark, pattern in ((",", _COMMA_DECIMAL), (".", _POINT_DECIMAL)):
@@ -106,7 +109,7 @@ def decimal_mark(cells, delimiter: str, file: str) -> tuple[str | None, list[Fin
                 first[mark] = (line, column, text)
         if len(first) == 2:
             break
-    if "," not in first or delimiter == ",":
+    if "," not in first:
         return ".", []
     if "." not in first:
         return ",", []

@@ -2,6 +2,7 @@
 each stage's work, and its tests, live in its own sub-package."""
 
 import tempfile
+from array import array
 from dataclasses import dataclass, replace
 from functools import partial
 from pathlib import Path
@@ -304,11 +305,12 @@ def _fit_all(checked: CheckResult, ctx: Settings, say, previous: dict):
 
 
 def rows_used(data) -> tuple:
-    """(file, (line, ...)) of selection rows ``data``: each file once, files and lines
-    ascending (one string per file, not per row: a large build keeps these until its
-    release is written)."""
+    """(file, lines) of selection rows ``data``: each file once, files and lines ascending;
+    the lines an array of 8-byte integers (a large build keeps these until its release is
+    written: one string per file, not per row, and 8 bytes per line, not a Python int)."""
     files, lines = data["file"], data["line"]
-    return tuple((str(f), tuple(sorted(lines[files == f].tolist()))) for f in np.unique(files))
+    return tuple((str(f), array("q", np.sort(lines[files == f]).tolist()))
+                 for f in np.unique(files))
 
 
 def _fit_failure(exc, meta):

@@ -124,3 +124,19 @@ def test_lowest_range_reaches_298_when_data_start_above():
     t = grid(320, 3000)
     r = fit_arrays("X", t, cp_true(t), None, 0.0, 200.0)
     assert r.ranges[0].t_min == 298.15 and r.data_t_min == pytest.approx(320)
+
+
+def test_equal_settings_written_alike_share_one_record_and_others_keep_their_own():
+    """Every fitted species records its settings; those written alike share one dict (a
+    large build keeps every species until its release is written), while settings that are
+    equal but written otherwise (6000 and 6000.0, -0.0 and 0.0) keep their own, so that a
+    species records what its settings say whatever was fitted before it."""
+    a, b = FitSettings(use_t_max=6000.0), FitSettings(use_t_max=6000.0)
+    assert a.recorded() is b.recorded() and a.recorded() == a.to_dict()
+    whole = FitSettings(use_t_max=6000)
+    assert whole == a and repr(whole.recorded()["use_t_max"]) == "6000"
+    assert repr(a.recorded()["use_t_max"]) == "6000.0"
+    assert repr(FitSettings(extension_tolerance=-0.0).recorded()["extension_tolerance"]) == "-0.0"
+    fit = fit_arrays("N2", np.linspace(300.0, 1000.0, 30), np.full(30, 30.0), None, 0.0,
+                     191.6, FitSettings(ranges=1))
+    assert fit.settings is FitSettings(ranges=1).recorded()

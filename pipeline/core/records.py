@@ -364,6 +364,7 @@ class FittedSpecies:
     findings: tuple = ()           # warnings and infos that travel with the species
     uses: tuple = ()               # reconcile.SourceUse of every table considered
     excluded: tuple = ()           # (file, line, code) of rows left out of the fit
-    rows: tuple = ()               # (file, (line, ...)) of the data rows that entered the
-    #                                fit: each file once, files and lines ascending
+    rows: tuple = ()               # (file, lines) of the data rows that entered the fit:
+    #                                each file once, files and lines ascending, the lines
+    #                                an array.array of 8-byte integers (build.rows_used)
     anchor: dict = field(default_factory=dict, compare=False)  # where H and S were fixed

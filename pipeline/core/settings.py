@@ -75,8 +75,23 @@ class FitSettings:
         out["fixed_breakpoints"] = list(self.fixed_breakpoints)
         return out
 
+    def recorded(self) -> dict:
+        """``to_dict``, one dict for all settings that are written alike (the same repr of
+        every value: 6000 and 6000.0 are equal settings but not the same JSON): every
+        fitted species records its settings, and a large build keeps the species of every
+        partition until its release is written (some 3 KB each). Read only: never change
+        it."""
+        out = self.to_dict()
+        key = tuple((k, repr(v)) for k, v in out.items())
+        if len(_RECORDED) >= 256:
+            _RECORDED.clear()
+        return _RECORDED.setdefault(key, out)
+
 
 _FIT_FIELDS = tuple(f.name for f in fields(FitSettings))
+
+#: FitSettings.recorded: the recorded settings by the repr of their values
+_RECORDED = {}
 
 
 @dataclass(frozen=True)

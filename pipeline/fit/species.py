@@ -305,7 +305,7 @@ def _judge(who: SpeciesIdentity, solved: Solved, data: CpData,
                        covariance_scale=solved.covariance_scale,
                        breakpoint_choice=solved.choice.to_dict() if solved.choice else None,
                        powers=tuple(form.powers), extrapolated=extrap,
-                       settings=settings.to_dict(), notes=solved.notes)
+                       settings=settings.recorded(), notes=solved.notes)
     if np.any(cp_dense <= 0) or not np.all(np.isfinite(cp_dense)):
         bad = dense[np.argmax(~(cp_dense > 0))]
         raise FitRejected(species_id, f"fitted Cp is not positive at {bad:.6g} K inside the "

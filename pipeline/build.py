@@ -358,6 +358,12 @@ def _without_rows(checked: CheckResult, fitted) -> tuple:
     return checked, [replace(f, table=empty(f.table)) for f in fitted]
 
 
+def _without_points(result: partitions.PartResult) -> partitions.PartResult:
+    """A partition's result without its report's plot points (about 5 KB per species),
+    for a build without a report: the partition kept for the next build still has them."""
+    return replace(result, points=())
+
+
 def _quiet(stage, i=0, n=0, label=""):
     return None
 
@@ -378,7 +384,8 @@ def _build_into(files, raw_dir, out_dir, ctx: Settings, say, previous: dict, cut
                 store) -> BuildResult:
     say("read and check", 0, 0, str(raw_dir))
     done, reused = partitions.run(partial(_build_part, raw_dir, ctx, previous,
-                                          say if cut.parts == 1 else _quiet), cut, say, store)
+                                          say if cut.parts == 1 else _quiet), cut, say, store,
+                                  keep=None if ctx.outputs.report else _without_points)
     checked, fitted, entries = done.checked, list(done.fitted), dict(done.entries)
     quarantined, findings = list(done.quarantined), list(done.findings)
     digest = ingest.inputs_digest(checked.inputs)

@@ -194,33 +194,37 @@ def _cores() -> int:
     return os.cpu_count() or 1
 
 
-def run(work, cut: Plan, say=None, store=None) -> tuple:
+def run(work, cut: Plan, say=None, store=None, keep=None) -> tuple:
     """(merged PartResult, partitions reused): ``work(Part)`` for each partition of ``cut``
     that ``store`` (a PartStore, or None) does not already hold, in ``cut.workers`` worker
-    processes when more than one; what was computed is saved into ``store``. A worker that
-    dies or is interrupted stops the build. The cyclic garbage collector is paused
-    meanwhile (core.processes.collector_paused)."""
+    processes when more than one; what was computed is saved into ``store`` whole, and
+    ``keep(result)`` (when given) of each partition is what this process holds and merges
+    (what the caller does not need, left out as soon as it is saved). A worker that dies or
+    is interrupted stops the build. The cyclic garbage collector is paused meanwhile
+    (core.processes.collector_paused)."""
     with collector_paused():      # in this process and in the workers
-        return _run(work, cut, say or (lambda *a: None), store)
+        return _run(work, cut, say or (lambda *a: None), store, keep or (lambda r: r))
 
 
-def _run(work, cut: Plan, say, store) -> tuple:
+def _run(work, cut: Plan, say, store, keep) -> tuple:
     results = [store.load(k) if store else None for k in range(cut.parts)]
     todo = [k for k, r in enumerate(results) if r is None]
+    results = [r if r is None else keep(r) for r in results]
+
+    def done(n, k, result):
+        if store:
+            store.save(k, result)
+        results[k] = keep(result)
+        say(STAGE, n + 1, len(todo), f"partition {k + 1} of {cut.parts}")
+
     if cut.workers <= 1 or len(todo) <= 1:
         for n, k in enumerate(todo):
-            results[k] = work(Part(k, cut.parts))
-            say(STAGE, n + 1, len(todo), f"partition {k + 1} of {cut.parts}")
+            done(n, k, work(Part(k, cut.parts)))
     else:
         with worker_pool(min(cut.workers, len(todo))) as pool:
-            done = pool.map(partial(without_collector, work),
-                            [Part(k, cut.parts) for k in todo])
-            for n, (k, result) in enumerate(zip(todo, done)):
-                results[k] = result
-                say(STAGE, n + 1, len(todo), f"partition {k + 1} of {cut.parts}")
-    if store:
-        for k in todo:
-            store.save(k, results[k])
+            for n, (k, result) in enumerate(zip(todo, pool.map(
+                    partial(without_collector, work), [Part(k, cut.parts) for k in todo]))):
+                done(n, k, result)
     return merge(results), cut.parts - len(todo)
 
 

@@ -334,3 +334,26 @@ def test_digests_are_remembered_by_file_identity_and_not_for_files_just_changed(
     assert read == [table.name]
     assert edited == partitions.part_keys(raw, 3, {}, {}) != keys     # as hashing every file
     assert partitions.Digests(store, use=False).known == {}            # --fresh
+
+
+def test_a_partition_is_kept_whole_but_held_as_the_caller_keeps_it(tmp_path):
+    """``run`` saves each computed partition whole and holds and merges what ``keep``
+    leaves of it (a build without a report leaves out the plot points); a partition taken
+    from the store is held the same way."""
+    def work(part):
+        checked = build.examine_part(RAW, part=part)
+        return partitions.PartResult(checked=checked, points=((f"s{part.index}", {}),))
+
+    def keep(result):
+        return partitions.PartResult(checked=result.checked)
+
+    cut = partitions.Plan(parts=2, workers=1)
+    store = partitions.PartStore(tmp_path / "store", ["a" * 64, "b" * 64])
+    merged, reused = partitions.run(work, cut, store=store, keep=keep)
+    assert reused == 0 and merged.points == ()
+    store.commit()
+    assert [store.load(k).points for k in range(2)] == [(("s0", {}),), (("s1", {}),)]
+    again = partitions.PartStore(tmp_path / "store", ["a" * 64, "b" * 64])
+    merged, reused = partitions.run(work, cut, store=again, keep=keep)
+    assert reused == 2 and merged.points == ()
+    assert partitions.run(work, cut, store=again)[0].points == (("s0", {}), ("s1", {}))

@@ -28,7 +28,8 @@ class BuildResult:
     """What a build produced: the fitted species, the tables held back, every finding, the
     library document and the release files (written or not)."""
 
-    fitted: tuple          # FittedSpecies
+    fitted: tuple          # FittedSpecies, their fits without the numbers of their entries
+    #                        (``_lineage_only``: the entries in ``document`` hold them)
     quarantined: tuple     # (TableMeta, findings)
     findings: tuple        # all findings
     document: dict         # library.json
@@ -331,7 +332,7 @@ def _build_part(raw_dir, ctx: Settings, previous: dict, say, part) -> partitions
     fitted, quarantined, findings, entries = _fit_all(checked, ctx, say, previous)
     points = assemble.plot_points(entries.values(), checked)   # whatever the outputs
     rows = assemble.evaluated_rows(entries, checked.chains, ctx.outputs.table_step)
-    checked, fitted = _without_rows(checked, fitted)
+    checked, fitted = _without_rows(checked, _lineage_only(fitted))
     return partitions.PartResult(checked=checked, fitted=tuple(fitted),
                                  quarantined=tuple(quarantined), findings=tuple(findings),
                                  entries=tuple(entries.items()), points=tuple(points.items()),
@@ -356,6 +357,18 @@ def _without_rows(checked: CheckResult, fitted) -> tuple:
                       selections=tuple(replace(s, primary=empty(s.primary), data=nothing(s.data))
                                        for s in checked.selections))
     return checked, [replace(f, table=empty(f.table)) for f in fitted]
+
+
+def _lineage_only(fitted) -> list:
+    """The FittedSpecies of a partition as a build keeps them until its release is written:
+    their fits without the numbers their library entries already hold (ranges, covariance,
+    model error, acceptance, breakpoint choice, extrapolated intervals, notes; about 7 KB
+    per species). What the release still takes from them is their lineage (provenance.py):
+    the id, form, settings and origin of the fit, the tables used, the lines used and left
+    out, and the findings."""
+    return [replace(f, fit=replace(f.fit, ranges=(), covariance=(), model_error=(),
+                                   acceptance={}, breakpoint_choice=None, powers=(),
+                                   extrapolated=(), notes=())) for f in fitted]
 
 
 def _without_points(result: partitions.PartResult) -> partitions.PartResult:

@@ -357,3 +357,21 @@ def test_a_partition_is_kept_whole_but_held_as_the_caller_keeps_it(tmp_path):
     merged, reused = partitions.run(work, cut, store=again, keep=keep)
     assert reused == 2 and merged.points == ()
     assert partitions.run(work, cut, store=again)[0].points == (("s0", {}), ("s1", {}))
+
+
+def test_a_build_holds_the_numbers_of_a_fit_once_in_its_library_entry(tmp_path):
+    """Until its release is written a large build holds every species: the numbers of each
+    fit once, in its library entry, and of the fitted species only their lineage (what the
+    manifest and the provenance take from them), in the result and in the kept partitions."""
+    result = build.build(RAW, tmp_path / "out", parts=2)
+    entries = {sp["id"]: sp for sp in result.document["species"]}
+    assert result.fitted and len(result.fitted) == len(entries)
+    for sp in result.fitted:
+        fit = sp.fit
+        assert fit.ranges == fit.covariance == fit.model_error == fit.notes == ()
+        assert fit.form == entries[sp.table.meta.species_id]["form"] and fit.settings
+        assert entries[sp.table.meta.species_id]["ranges"]
+    kept = partitions.PartStore(tmp_path / "out" / partitions.STORE,
+                                [p.name[5:-7] for p in sorted(
+                                    (tmp_path / "out" / partitions.STORE).glob("part-*"))])
+    assert all(f.fit.covariance == () for k in range(2) for f in kept.load(k).fitted)

@@ -244,3 +244,28 @@ def test_safe_name_of_a_species_id():
     assert names.safe_name("CO2(g)") == "CO2_g"
     assert names.safe_name("../../etc/passwd") == "etc_passwd"
     assert np.all([names.safe_name(x) for x in ("N2O(g)", "NO+(g)")])
+
+
+def test_a_release_is_checked_against_the_outputs_its_manifest_lists_read_in_any_layout(
+        release_copy):
+    """The check of a release reads of its manifest only the list of outputs when the file
+    is laid out as a build writes it, the whole document otherwise, with the same verdict;
+    a manifest damaged after that list is caught by the data package, which holds its
+    sha256."""
+    folder = (release_copy / "current").resolve()
+    path = folder / "manifest.json"
+    written = path.read_bytes()
+    whole = json.loads(written)
+    assert provenance._manifest_outputs(path) == whole["outputs"] and whole["outputs"]
+    path.write_text(json.dumps(whole, separators=(",", ":")))        # another layout
+    assert provenance._manifest_outputs(path) == whole["outputs"]
+    path.write_text(json.dumps({**whole, "outputs": []}, indent=2))
+    assert provenance._manifest_outputs(path) == []
+    path.write_bytes(written[:written.index(b'\n  "species"')] + b"\n  ,,,")   # cut short
+    assert provenance._manifest_outputs(path) == whole["outputs"]
+    assert provenance.verify_release(folder) == ["manifest.json does not match datapackage.json"]
+    path.write_bytes(written.replace(whole["outputs"][0]["sha256"].encode(), b"0" * 64, 1))
+    assert f"{whole['outputs'][0]['path']} differs from its manifest hash" in \
+        provenance.verify_release(folder)
+    path.write_bytes(b'{\n  "manifest_format": 1,\n  "outputs": [\n    {"path": ')
+    assert provenance.verify_release(folder)[0].startswith("manifest.json cannot be read")

@@ -19,7 +19,7 @@ import importlib.metadata as md
 import re
 
 from .. import __version__
-from ..core.names import file_stem, safe_name, sha256
+from ..core.names import file_stem, safe_name
 from . import document
 
 DEPENDENCIES = ("numpy", "scipy", "pandas", "pyarrow", "pint", "molmass")
@@ -156,28 +156,77 @@ def prov_document(fitted, inputs, outputs) -> dict:
 
 
 def verify_release(folder) -> list:
-    """Problems of a release folder against its own manifest and data package ([] = intact)."""
+    """Problems of a release folder against its own manifest and data package ([] = intact).
+    Each file is read once, in pieces (a large library is never held whole), and of the
+    manifest only its list of outputs (``_manifest_outputs``): the data package holds the
+    manifest's own sha256."""
+    import hashlib
     import json
     from pathlib import Path
 
     folder = Path(folder)
-    problems = []
+    problems, digests = [], {}
+
+    def digest(path: Path) -> str:
+        if path not in digests:
+            with open(path, "rb") as fh:
+                digests[path] = hashlib.file_digest(fh, "sha256").hexdigest()
+        return digests[path]
+
     try:
-        man = json.loads((folder / "manifest.json").read_text(encoding="utf-8"))
-    except (OSError, ValueError) as exc:
+        outputs = _manifest_outputs(folder / "manifest.json")
+    except (OSError, ValueError, KeyError, TypeError) as exc:
         return [f"manifest.json cannot be read: {exc}"]
-    for out in man.get("outputs", []):
+    for out in outputs:
         path = folder / out["path"]
         if not path.is_file():
             problems.append(f"{out['path']} is missing")
-        elif sha256(path.read_bytes()) != out["sha256"]:
+        elif digest(path) != out["sha256"]:
             problems.append(f"{out['path']} differs from its manifest hash")
     try:
         dp = json.loads((folder / "datapackage.json").read_text(encoding="utf-8"))
         for res in dp.get("resources", []):
             path = folder / res["path"]
-            if not path.is_file() or f"sha256:{sha256(path.read_bytes())}" != res.get("hash"):
+            if not path.is_file() or f"sha256:{digest(path)}" != res.get("hash"):
                 problems.append(f"{res['path']} does not match datapackage.json")
     except (OSError, ValueError) as exc:
         problems.append(f"datapackage.json cannot be read: {exc}")
     return problems
+
+
+#: how a manifest written by a build (release/document.json_chunks: two-space indentation)
+#: starts its list of outputs and ends it: a line that starts with two spaces and a quote
+#: is a key of the top-level object (a string never holds a raw line break)
+_OUTPUTS_START, _LIST_END = b'\n  "outputs": [', b"\n  ]"
+
+
+def _manifest_outputs(path) -> list:
+    """The "outputs" of the manifest at ``path``: read up to the end of that list when the
+    file is laid out as a build writes it (at 100 000 species the manifest is some 300 MB,
+    its outputs a few lines near the top), else from the whole document. ValueError when
+    it cannot be read."""
+    import json
+
+    head = bytearray()
+    with open(path, "rb") as fh:
+        first = fh.read(64)
+        head += first
+        if first.startswith(b'{\n  "manifest_format"'):
+            while True:
+                start = head.find(_OUTPUTS_START)
+                if start >= 0:
+                    body = start + len(_OUTPUTS_START) - 1
+                    if head[body:body + 2] == b"[]":
+                        return []
+                    end = head.find(_LIST_END, body)
+                    if end >= 0:
+                        outputs = json.loads(head[body:end + len(_LIST_END)].decode("utf-8"))
+                        if isinstance(outputs, list):
+                            return outputs
+                        break
+                chunk = fh.read(1 << 22)
+                if not chunk:
+                    break
+                head += chunk
+        head += fh.read()
+    return json.loads(head.decode("utf-8"))["outputs"]

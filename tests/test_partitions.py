@@ -375,3 +375,41 @@ def test_a_build_holds_the_numbers_of_a_fit_once_in_its_library_entry(tmp_path):
                                 [p.name[5:-7] for p in sorted(
                                     (tmp_path / "out" / partitions.STORE).glob("part-*"))])
     assert all(f.fit.covariance == () for k in range(2) for f in kept.load(k).fitted)
+
+
+def test_the_tables_written_a_row_group_at_a_time_are_the_table_written_whole(
+        tmp_path, monkeypatch):
+    """tables.parquet is written a row group at a time, never held whole: the bytes are
+    those of the whole table written at once in groups of as many rows (pyarrow's own
+    cut), whatever the size of a group and where it falls between species."""
+    import io
+
+    import numpy as np
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+    from thermoledger.library import tables as evaluated
+    from thermoledger.library.formation import Formation
+    from thermoledger.release import tables
+
+    doc = build.build(RAW, None, write=False).document
+
+    def whole(group):
+        made, trs = Formation(doc), evaluated.transitions_of(doc.get("transitions", []))
+        parts = [evaluated.species_rows(sp, 100.0, None, trs.get(sp["id"], ()), made)
+                 for sp in doc["species"]]
+        cols = {c: np.concatenate([np.asarray(p[c]) for p in parts]) for c in evaluated.COLUMNS}
+        table = pa.table({c: pa.array(cols[c], type=pa.string() if c in evaluated.TEXT else (
+            pa.bool_() if c in evaluated.FLAGS else pa.float64())) for c in evaluated.COLUMNS})
+        table = table.replace_schema_metadata({"thermoledger.units": str(evaluated.UNITS),
+                                               "thermoledger.notice": doc["notice"]})
+        buf = io.BytesIO()
+        pq.write_table(table, buf, compression="zstd", row_group_size=group)
+        return buf.getvalue()
+
+    rows = pq.read_metadata(io.BytesIO(tables.tables_parquet_bytes(doc))).num_rows
+    assert rows > 100
+    for group in (tables.ROW_GROUP, 7, 64, rows, rows - 1):
+        monkeypatch.setattr(tables, "ROW_GROUP", group)
+        got = tables.tables_parquet_bytes(doc)
+        assert got == whole(group)
+        assert pq.read_metadata(io.BytesIO(got)).num_row_groups == -(-rows // group)

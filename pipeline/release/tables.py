@@ -20,28 +20,55 @@ from ..library.tables import COLUMNS, FLAGS, HEADERS, TEXT, UNITS, species_rows,
 DANGEROUS = ("=", "+", "-", "@", "\t", "\r")
 
 
+#: rows per row group of tables.parquet: pyarrow's largest by default, the groups one
+#: write of the whole table gives (so the file is the same, made a group at a time)
+ROW_GROUP = 1024 * 1024
+
+
 def tables_parquet_bytes(doc, step=100.0, points=None, own=None) -> bytes:
     """tables.parquet: the evaluated table of every species (T [K], Cp [J/(mol K)], ...),
     units in the key-value metadata. ``own`` maps species ids to their ``own_rows`` made
     where they were fitted (with this ``step``); only the formation properties are added
-    here."""
+    here. Written a row group at a time (ROW_GROUP rows): at 100 000 species the table
+    has some 3 million rows, never held whole."""
     trs = evaluated.transitions_of(doc.get("transitions", []))
     made = Formation(doc)
     own = own or {}
-    parts = [evaluated.with_formation(own[sp["id"]], sp["id"], made) if sp["id"] in own else
-             species_rows(sp, step, points, trs.get(sp["id"], ()), made)
-             for sp in doc["species"]]
-    cols = {c: (np.concatenate([p[c] for p in parts]) if parts else np.array([]))
-            for c in COLUMNS}
-    for c in TEXT:
-        cols[c] = [x for p in parts for x in p[c]]
-    table = pa.table({c: pa.array(cols[c], type=pa.string() if c in TEXT else (
-        pa.bool_() if c in FLAGS else pa.float64())) for c in COLUMNS})
-    table = table.replace_schema_metadata({"thermoledger.units": str(UNITS),
-                                           "thermoledger.notice": doc["notice"]})
+    schema = pa.schema([(c, pa.string() if c in TEXT else (
+        pa.bool_() if c in FLAGS else pa.float64())) for c in COLUMNS],
+        metadata={"thermoledger.units": str(UNITS), "thermoledger.notice": doc["notice"]})
     buf = io.BytesIO()
-    pq.write_table(table, buf, compression="zstd")
+    with pq.ParquetWriter(buf, schema, compression="zstd") as writer:
+        pending, count, groups = [], 0, 0
+        for sp in doc["species"]:
+            part = evaluated.with_formation(own[sp["id"]], sp["id"], made) \
+                if sp["id"] in own else \
+                species_rows(sp, step, points, trs.get(sp["id"], ()), made)
+            pending.append(part)
+            count += len(part["T"])
+            while count >= ROW_GROUP:
+                group = _columns(pending)
+                writer.write_table(_table(group, schema, 0, ROW_GROUP))
+                pending = [{c: v[ROW_GROUP:] for c, v in group.items()}]
+                count, groups = count - ROW_GROUP, groups + 1
+        if count or not groups:                 # an empty table is written as one too
+            writer.write_table(_table(_columns(pending), schema, 0, count))
     return buf.getvalue()
+
+
+def _columns(parts) -> dict:
+    """The rows of ``parts`` (dicts of columns) as one dict of columns: numbers in arrays,
+    text in lists."""
+    cols = {c: (np.concatenate([np.asarray(p[c]) for p in parts]) if parts else np.array([]))
+            for c in COLUMNS if c not in TEXT}
+    cols.update({c: [x for p in parts for x in p[c]] for c in TEXT})
+    return cols
+
+
+def _table(cols: dict, schema, start: int, stop: int):
+    """Rows ``start`` to ``stop`` of ``cols`` as an Arrow table of ``schema``."""
+    return pa.table({c: pa.array(cols[c][start:stop], type=schema.field(c).type)
+                     for c in COLUMNS}, schema=schema)
 
 
 def neutralise(cell: str) -> str:

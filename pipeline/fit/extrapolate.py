@@ -121,6 +121,8 @@ def fit_wilhoit(t, cp, c0, cinf, terms: int = WILHOIT_TERMS) -> list:
     out = [_wilhoit_model(B_GRID[int(np.argmin(np.sum(miss ** 2, axis=1)))], np.zeros(0),
                           c0, cinf)]
     for n in range(terms):
+        if n >= len(t):                    # more terms than rows: no more models
+            return out + [None] * (terms - n)
         v = col.copy()
         for _ in range(2):
             for i, qi in enumerate(q):

@@ -7,6 +7,8 @@ from thermoledger.core.constants import ENTROPY_ATM_TO_BAR
 from thermoledger.ingest import sources as ingest
 from thermoledger.testing import table_entry, write_source
 
+from .conftest import PROJECT
+
 ROWS = [[t, 29.1 + 0.001 * t] for t in range(200, 1300, 100)]
 HEADER = ["T [K]", "Cp [J/(mol*K)]"]
 
@@ -162,3 +164,22 @@ def test_a_settled_source_json_is_read_once_per_process_and_again_when_it_change
     again = ingest.ingest(raw, Part(0, 3))
     assert len(reads) == 2 * sources_ + 1
     assert any(s.citation.endswith("(edited)") for s in again.sources)
+
+
+def test_tables_read_alike_share_their_reading_and_nothing_else_is_shared():
+    """Tables of one layout share one record of how they were read (a large build keeps
+    every table's until its release is written); values that are equal but written
+    otherwise are never merged."""
+    from thermoledger.core.records import alike
+
+    got = ingest.ingest(PROJECT / "raw")
+    by_layout = {}
+    for t in got.tables:
+        by_layout.setdefault(repr(t.meta.reading), []).append(t.meta.reading)
+    assert any(len(same) > 1 for same in by_layout.values())
+    assert all(all(r is same[0] for r in same) for same in by_layout.values())
+    assert alike({"a": 6000.0}) is alike({"a": 6000.0})
+    assert repr(alike({"b": 6000})) == "{'b': 6000}" and repr(alike({"b": 6000.0})) == \
+        "{'b': 6000.0}"
+    assert alike((1, True)) == (1, True) and alike((1, 1)) == (1, 1)
+    assert repr(alike([-0.0])) == "[-0.0]" and repr(alike([0.0])) == "[0.0]"

@@ -27,6 +27,22 @@ import numpy as np
 
 from .rows import Rows
 
+#: the values ``alike`` hands out, by type and repr
+_ALIKE = {}
+ALIKE_REMEMBERED = 4096
+
+
+def alike(value):
+    """``value``, or the first value given before that is written alike (the same type and
+    repr: 6000 and 6000.0 are equal but not the same JSON), so that equal records share one
+    object. Many species record the same fit settings and the tables of a source are
+    mostly read the same way, and a large build keeps every species until its release is
+    written. Read only: never change what it returns."""
+    key = (type(value), repr(value))
+    if len(_ALIKE) >= ALIKE_REMEMBERED:
+        _ALIKE.clear()
+    return _ALIKE.setdefault(key, value)
+
 DATA_COLUMNS = ("line", "T", "Cp", "u_Cp", "dH", "S", "u_dH", "u_S", "gef")
 
 

@@ -76,22 +76,15 @@ class FitSettings:
         return out
 
     def recorded(self) -> dict:
-        """``to_dict``, one dict for all settings that are written alike (the same repr of
-        every value: 6000 and 6000.0 are equal settings but not the same JSON): every
-        fitted species records its settings, and a large build keeps the species of every
-        partition until its release is written (some 3 KB each). Read only: never change
-        it."""
-        out = self.to_dict()
-        key = tuple((k, repr(v)) for k, v in out.items())
-        if len(_RECORDED) >= 256:
-            _RECORDED.clear()
-        return _RECORDED.setdefault(key, out)
+        """``to_dict``, one dict for all settings that are written alike (records.alike: 6000
+        and 6000.0 are equal settings but not the same JSON): every fitted species records
+        its settings, some 3 KB each. Read only: never change it."""
+        from .records import alike
+
+        return alike(self.to_dict())
 
 
 _FIT_FIELDS = tuple(f.name for f in fields(FitSettings))
-
-#: FitSettings.recorded: the recorded settings by the repr of their values
-_RECORDED = {}
 
 
 @dataclass(frozen=True)

@@ -15,7 +15,7 @@ from ..core.errors import InputError
 from ..core.findings import Finding, clip, finding, stage_failed
 from ..core.limits import ANCHOR_RANGE, MAX_SOURCE_BYTES, MAX_TABLE_BYTES, MAX_TABLES_PER_SOURCE
 from ..core.names import sha256, species_name
-from ..core.records import InputFile, SourceMeta, Table, TableMeta, Transition
+from ..core.records import InputFile, SourceMeta, Table, TableMeta, Transition, alike
 from . import coefsets, csvtable, dialect, phased
 
 
@@ -265,14 +265,14 @@ def read_table(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, ind
                      entropy_298=s298, sha256=digest, size=len(raw),
                      u_enthalpy_of_formation_298=anchors["u_enthalpy_of_formation_298"],
                      u_entropy_298=anchors["u_entropy_298"], stated_formation=stated,
-                     columns=parsed.columns if parsed else (),
+                     columns=alike(parsed.columns) if parsed else (),
                      notes=tuple(notes) + (parsed.notes if parsed else ()),
                      acknowledgements=tuple(dict(a) for a in entry.get("acknowledge", ())),
                      index=index,
                      fit_overrides=tuple(sorted(
                          (k, tuple(v) if isinstance(v, list) and k != "breakpoints" else v)
                          for k, v in entry.get("fit", {}).items())),
-                     reading=parsed.reading if parsed else {"encoding": encoding or None})
+                     reading=alike(parsed.reading) if parsed else {"encoding": encoding or None})
     data = parsed.data if parsed else csvtable.empty_rows()
     if text is None and entry.get("phase") is None:
         return [], infile, problems

@@ -43,6 +43,7 @@ def alike(value):
         _ALIKE.clear()
     return _ALIKE.setdefault(key, value)
 
+
 DATA_COLUMNS = ("line", "T", "Cp", "u_Cp", "dH", "S", "u_dH", "u_S", "gef")
 
 

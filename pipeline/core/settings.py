@@ -79,7 +79,7 @@ class FitSettings:
         """``to_dict``, one dict for all settings that are written alike (records.alike: 6000
         and 6000.0 are equal settings but not the same JSON): every fitted species records
         its settings, some 3 KB each. Read only: never change it."""
-        from .records import alike
+        from .records import alike  # here: reading the settings loads no numpy
 
         return alike(self.to_dict())
 

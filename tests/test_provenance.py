@@ -256,13 +256,13 @@ def test_a_release_is_checked_against_the_outputs_its_manifest_lists_read_in_any
     path = folder / "manifest.json"
     written = path.read_bytes()
     whole = json.loads(written)
-    assert provenance._manifest_outputs(path) == whole["outputs"] and whole["outputs"]
+    assert publish.manifest_outputs(path) == whole["outputs"] and whole["outputs"]
     path.write_text(json.dumps(whole, separators=(",", ":")))        # another layout
-    assert provenance._manifest_outputs(path) == whole["outputs"]
+    assert publish.manifest_outputs(path) == whole["outputs"]
     path.write_text(json.dumps({**whole, "outputs": []}, indent=2))
-    assert provenance._manifest_outputs(path) == []
+    assert publish.manifest_outputs(path) == []
     path.write_bytes(written[:written.index(b'\n  "species"')] + b"\n  ,,,")   # cut short
-    assert provenance._manifest_outputs(path) == whole["outputs"]
+    assert publish.manifest_outputs(path) == whole["outputs"]
     assert provenance.verify_release(folder) == ["manifest.json does not match datapackage.json"]
     path.write_bytes(written.replace(whole["outputs"][0]["sha256"].encode(), b"0" * 64, 1))
     assert f"{whole['outputs'][0]['path']} differs from its manifest hash" in \

@@ -457,8 +457,8 @@ def test_a_kept_release_s_manifest_is_read_once_and_again_when_it_changes(tmp_pa
     monkeypatch.setattr(limits, "RECENT_CHANGE", 0.0)
     time.sleep(0.05)
     reads = []
-    real = publish._manifest
-    monkeypatch.setattr(publish, "_manifest", lambda p: reads.append(p) or real(p))
+    real = publish.manifest_outputs
+    monkeypatch.setattr(publish, "manifest_outputs", lambda p: reads.append(p) or real(p))
     assert publish.kind_of(out) == "home" and publish.kind_of(out) == "home"
     assert len(reads) == 1
     man = next((out / publish.RELEASES).iterdir()) / "manifest.json"

@@ -21,6 +21,7 @@ import re
 from .. import __version__
 from ..core.names import file_stem, safe_name
 from . import document
+from .publish import manifest_outputs
 
 DEPENDENCIES = ("numpy", "scipy", "pandas", "pyarrow", "pint", "molmass")
 
@@ -158,8 +159,8 @@ def prov_document(fitted, inputs, outputs) -> dict:
 def verify_release(folder) -> list:
     """Problems of a release folder against its own manifest and data package ([] = intact).
     Each file is read once, in pieces (a large library is never held whole), and of the
-    manifest only its list of outputs (``_manifest_outputs``): the data package holds the
-    manifest's own sha256."""
+    manifest only its list of outputs (publish.manifest_outputs): the data package holds
+    the manifest's own sha256."""
     import hashlib
     import json
     from pathlib import Path
@@ -173,10 +174,10 @@ def verify_release(folder) -> list:
                 digests[path] = hashlib.file_digest(fh, "sha256").hexdigest()
         return digests[path]
 
-    try:
-        outputs = _manifest_outputs(folder / "manifest.json")
-    except (OSError, ValueError, KeyError, TypeError) as exc:
-        return [f"manifest.json cannot be read: {exc}"]
+    outputs = manifest_outputs(folder / "manifest.json")
+    if outputs is None:
+        return ["manifest.json cannot be read as a thermoledger manifest (manifest_format 1 "
+                "with a list of outputs)"]
     for out in outputs:
         path = folder / out["path"]
         if not path.is_file():
@@ -192,41 +193,3 @@ def verify_release(folder) -> list:
     except (OSError, ValueError) as exc:
         problems.append(f"datapackage.json cannot be read: {exc}")
     return problems
-
-
-#: how a manifest written by a build (release/document.json_chunks: two-space indentation)
-#: starts its list of outputs and ends it: a line that starts with two spaces and a quote
-#: is a key of the top-level object (a string never holds a raw line break)
-_OUTPUTS_START, _LIST_END = b'\n  "outputs": [', b"\n  ]"
-
-
-def _manifest_outputs(path) -> list:
-    """The "outputs" of the manifest at ``path``: read up to the end of that list when the
-    file is laid out as a build writes it (at 100 000 species the manifest is some 300 MB,
-    its outputs a few lines near the top), else from the whole document. ValueError when
-    it cannot be read."""
-    import json
-
-    head = bytearray()
-    with open(path, "rb") as fh:
-        first = fh.read(64)
-        head += first
-        if first.startswith(b'{\n  "manifest_format"'):
-            while True:
-                start = head.find(_OUTPUTS_START)
-                if start >= 0:
-                    body = start + len(_OUTPUTS_START) - 1
-                    if head[body:body + 2] == b"[]":
-                        return []
-                    end = head.find(_LIST_END, body)
-                    if end >= 0:
-                        outputs = json.loads(head[body:end + len(_LIST_END)].decode("utf-8"))
-                        if isinstance(outputs, list):
-                            return outputs
-                        break
-                chunk = fh.read(1 << 22)
-                if not chunk:
-                    break
-                head += chunk
-        head += fh.read()
-    return json.loads(head.decode("utf-8"))["outputs"]

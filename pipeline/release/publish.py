@@ -59,23 +59,49 @@ def _is_inside(a: Path, b: Path) -> bool:
     return a == b or b in a.parents
 
 
-def _manifest(path: Path):
-    """The manifest document at ``path`` if it is a thermoledger manifest, else None (orjson:
-    a large release's manifest is read in a fraction of the time)."""
+#: how a manifest written by a build (release/document.json_chunks: two-space indentation)
+#: begins, and starts and ends its list of outputs: a line that starts with two spaces and
+#: a quote is a key of the top-level object (a string never holds a raw line break)
+_MANIFEST_HEAD = b'{\n  "manifest_format": 1,\n'
+_OUTPUTS_START, _LIST_END = b'\n  "outputs": [', b"\n  ]"
+
+
+def manifest_outputs(path: Path):
+    """The "outputs" of the thermoledger manifest at ``path`` (manifest_format 1 with a list
+    of outputs), else None. Read up to the end of that list when the file begins as a
+    build writes it (at 100 000 species the manifest is some 300 MB, its outputs a few
+    lines near the top; the data package holds the manifest's own sha256), else whole
+    (orjson)."""
     import orjson
 
     try:
-        doc = orjson.loads(path.read_bytes())
+        with open(path, "rb") as fh:
+            head = bytearray(fh.read(len(_MANIFEST_HEAD)))
+            while head.startswith(_MANIFEST_HEAD):
+                start = head.find(_OUTPUTS_START)
+                if start >= 0:
+                    after = start + len(_OUTPUTS_START)
+                    if head[after:after + 1] == b"]":
+                        return []
+                    end = head.find(_LIST_END, after)
+                    if end >= 0:
+                        outputs = orjson.loads(bytes(head[after - 1:end + len(_LIST_END)]))
+                        return outputs if isinstance(outputs, list) else None
+                chunk = fh.read(1 << 22)
+                if not chunk:
+                    return None
+                head += chunk
+            doc = orjson.loads(bytes(head + fh.read()))
     except (OSError, ValueError):
         return None
     if isinstance(doc, dict) and doc.get("manifest_format") == 1 and isinstance(
             doc.get("outputs"), list):
-        return doc
+        return doc["outputs"]
     return None
 
 
 def _is_manifest(path: Path) -> bool:
-    """True when ``path`` holds a thermoledger manifest (``_manifest``), remembered for the
+    """True when ``path`` holds a thermoledger manifest (``manifest_outputs``), remembered for the
     file as it is once settled (core.paths.identity, settled): a build judges
     its release home twice, before and under the lock, and the manifests of the kept
     releases, which never change, were read in full each time (0.2 s per judgement at
@@ -85,22 +111,22 @@ def _is_manifest(path: Path) -> bool:
     except OSError:
         return False
     if not paths.settled(st):
-        return _manifest(path) is not None
+        return manifest_outputs(path) is not None
     return _recognised(str(path), *paths.identity(st))
 
 
 @lru_cache(maxsize=64)
 def _recognised(path: str, *identity) -> bool:
-    return _manifest(Path(path)) is not None
+    return manifest_outputs(Path(path)) is not None
 
 
 def _flat_release_files(folder: Path):
     """Relative paths of a release written flat into ``folder`` by an earlier version, or
     None when the folder holds anything its manifest does not list."""
-    man = _manifest(folder / "manifest.json")
-    if man is None:
+    outputs = manifest_outputs(folder / "manifest.json")
+    if outputs is None:
         return None
-    listed = {o.get("path") for o in man["outputs"] if isinstance(o, dict)} | set(_SELF)
+    listed = {o.get("path") for o in outputs if isinstance(o, dict)} | set(_SELF)
     found = set()
     for p in folder.rglob("*"):
         rel = p.relative_to(folder).as_posix()

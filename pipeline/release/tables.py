@@ -48,11 +48,11 @@ def tables_parquet_bytes(doc, step=100.0, points=None, own=None) -> bytes:
             count += len(part["T"])
             while count >= ROW_GROUP:
                 group = _columns(pending)
-                writer.write_table(_table(group, schema, 0, ROW_GROUP))
+                writer.write_table(_table(group, schema, ROW_GROUP))
                 pending = [{c: v[ROW_GROUP:] for c, v in group.items()}]
                 count, groups = count - ROW_GROUP, groups + 1
         if count or not groups:                 # an empty table is written as one too
-            writer.write_table(_table(_columns(pending), schema, 0, count))
+            writer.write_table(_table(_columns(pending), schema, count))
     return buf.getvalue()
 
 
@@ -65,9 +65,9 @@ def _columns(parts) -> dict:
     return cols
 
 
-def _table(cols: dict, schema, start: int, stop: int):
-    """Rows ``start`` to ``stop`` of ``cols`` as an Arrow table of ``schema``."""
-    return pa.table({c: pa.array(cols[c][start:stop], type=schema.field(c).type)
+def _table(cols: dict, schema, rows: int):
+    """The first ``rows`` rows of ``cols`` as an Arrow table of ``schema``."""
+    return pa.table({c: pa.array(cols[c][:rows], type=schema.field(c).type)
                      for c in COLUMNS}, schema=schema)
 
 

@@ -339,6 +339,26 @@ def test_ctrl_c_while_starting_never_prints_a_traceback(tmp_path, raw):
             assert err.strip().count("\n") == 0 and "interrupted" in err
 
 
+def test_a_stop_after_the_command_has_ended_changes_nothing(tmp_path):
+    """Once the command has ended its status stands: a SIGINT or SIGTERM that comes while
+    the interpreter shuts down (when its handlers are back to the system's) neither kills
+    it silently nor changes the status (a build interrupted just as it finished exited with
+    -2, the release published)."""
+    code = ("import os, signal, sys\n"
+            "from thermoledger.cli import entry\n"
+            f"sys.argv = ['thermoledger', 'check', '--raw', {str(tmp_path)!r}]\n"
+            "status = entry.main()\n"
+            "print('status', status, flush=True)\n"
+            "os.kill(os.getpid(), signal.SIGINT)\n"
+            "os.kill(os.getpid(), signal.SIGTERM)\n"
+            "sys.exit(status)\n")
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                          timeout=60)
+    said = [line for line in done.stdout.splitlines() if line.startswith("status ")]
+    assert said and done.returncode == int(said[0].split()[1]), (done.stdout, done.stderr)
+    assert "Traceback" not in done.stderr, done.stderr
+
+
 def test_a_folder_that_only_looks_like_a_release_home_is_refused(tmp_path, raw, capsys):
     fake = tmp_path / "fake"
     (fake / "releases" / "my-photos").mkdir(parents=True)

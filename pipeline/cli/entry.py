@@ -1,6 +1,7 @@
 """Console entry point: SIGINT and SIGTERM are held back while the libraries load (an
 interrupt inside numpy's import turns into a misleading ImportError, or into a silent exit by
-the signal), then delivered to the CLI's own handler: one line, never a traceback."""
+the signal), then delivered to the CLI's own handler: one line, never a traceback; and ignored
+once the command has ended, while the interpreter shuts down."""
 
 import signal
 import sys
@@ -26,7 +27,15 @@ def main() -> int:
     finally:
         for s, handler in previous.items():
             signal.signal(s, handler)
-    return cli.main()
+    try:
+        return cli.main()
+    finally:
+        # the command has ended and its status is decided: a stop that comes while the
+        # interpreter shuts down (which puts its handlers back to the system's, for every
+        # thread of the libraries too) would end it with no word and a status saying it
+        # was interrupted; ignored, it changes nothing
+        for s in _STOPS:
+            signal.signal(s, signal.SIG_IGN)
 
 
 if __name__ == "__main__":

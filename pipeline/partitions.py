@@ -70,7 +70,7 @@ class PartResult:
     fitted: tuple = ()        # FittedSpecies
     quarantined: tuple = ()   # (TableMeta, findings), after fitting
     findings: tuple = ()      # every finding, after fitting
-    entries: tuple = ()       # (species id, library entry)
+    entries: tuple = ()       # (species id, compact JSON of its library entry)
     points: tuple = ()        # (species id, report plot points), when there is a report
     rows: tuple = ()          # library.tables.pack_rows blocks: its species' evaluated tables
 

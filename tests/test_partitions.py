@@ -241,6 +241,13 @@ def test_packed_tables_give_back_every_species_rows():
                 assert back[sid][c].dtype == np.asarray(v).dtype
                 np.testing.assert_array_equal(back[sid][c], v)
     assert tables.unpack_rows(tables.pack_rows({})) == {}
+    ids = sorted(own)            # several blocks (the partitions'), unpacked as one mapping
+    blocks = [tables.pack_rows({i: own[i] for i in ids[k::3]}) for k in range(3)]
+    both = tables.unpack_rows(*blocks)
+    assert len(both) == len(own) and set(both) == set(own) and "nothing" not in both
+    for sid, rows in own.items():
+        np.testing.assert_array_equal(both[sid]["T"], rows["T"])
+        assert both[sid]["id"] == [sid] * len(rows["T"])
 
 
 def test_kept_partitions_wait_on_disk_until_the_release_is_published(tmp_path, monkeypatch):

@@ -10,6 +10,7 @@ import sys
 from ..core.errors import InputError, ThermoledgerError
 from ..core.paths import write_atomic
 from ..library import document as library
+from ..library.entries import by_id as entries_by_id
 from . import render
 from .parse import named_fit_options, parser, settings_of
 from .progress import Progress
@@ -59,7 +60,7 @@ def cmd_check(args) -> int:
     n_err = render.totals(result.findings)[0]
     doc = release_document.findings_document(result.findings)
     if args.json:
-        print(json.dumps(doc, indent=1))
+        print(json.dumps({**doc, "findings": list(doc["findings"])}, indent=1))
     else:
         _say(render.findings_by_file(result.findings, show_info=args.all))
         _say(render.check_summary(result))
@@ -90,7 +91,7 @@ def cmd_props(args) -> int:
 
     doc = library.load(args.library)
     ids = library.phases_at(doc, args.species, args.temperatures, args.phase)
-    by_id = {s["id"]: s for s in doc["species"]}
+    by_id = entries_by_id(doc)
     values = _from_library(lambda: library.evaluate_phases(doc, ids, args.temperatures),
                            f"{args.library}: {', '.join(dict.fromkeys(ids))} cannot be "
                            "evaluated")

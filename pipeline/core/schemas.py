@@ -40,6 +40,40 @@ def compiled(name: str):
                                               validate_formats=False)
 
 
+@lru_cache(maxsize=len(NAMES))
+def _part_schema(name: str, key: str) -> dict:
+    """schemas/``name`` requiring only its property ``key``: a document of that property
+    alone is checked as the whole document's would be."""
+    return {**json.loads(schema_bytes(name)), "required": [key]}
+
+
+@lru_cache(maxsize=len(NAMES))
+def _compiled_part(name: str, key: str):
+    import jsonschema_rs
+
+    return jsonschema_rs.Draft202012Validator(_part_schema(name, key), validate_formats=False)
+
+
+def part_errors(name: str, key: str, items: list, offset: int = 0) -> list:
+    """(path, message) of every way the items ``items`` of the top-level list ``key`` of a
+    document of schemas/``name`` break it, those items being the list's items ``offset``
+    onwards: the paths count in the whole list. A long list is so checked a part at a time,
+    never whole (the compiled validator first, jsonschema to explain, as ``errors_of``)."""
+    doc = {key: items}
+    if _compiled_part(name, key).is_valid(doc):
+        return []
+    from jsonschema import Draft202012Validator
+
+    out = []
+    for e in sorted(Draft202012Validator(_part_schema(name, key)).iter_errors(doc),
+                    key=lambda e: list(map(str, e.path))):
+        path = list(e.absolute_path)
+        if len(path) > 1 and path[0] == key:
+            path[1] += offset
+        out.append(("/".join(map(str, path)), e.message))
+    return out
+
+
 def where(error) -> str:
     """The path of the field a schema error is about, 'tables/0/file', or '(top level)'."""
     return "/".join(map(str, error.absolute_path)) or "(top level)"

@@ -22,6 +22,7 @@ import numpy as np
 from ..core.errors import InputError, SpeciesNotFound
 from ..physics import forms
 from . import document, reaction
+from .entries import by_id as entries_by_id
 from .formation import COLUMNS as FORMATION
 from .formation import Formation
 from .tables import species_rows, transitions_of
@@ -178,7 +179,7 @@ class Library:
         self.path = path
         self.notice: str = doc.get("notice", "")
         self.build: dict = doc.get("build", {})
-        self._entries = {s["id"]: s for s in doc["species"]}
+        self._entries = entries_by_id(doc)
         self._cache: dict = {}
         self._formation = None
 

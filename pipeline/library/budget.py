@@ -32,6 +32,7 @@ from ..core.constants import GAS_CONSTANT as R
 from ..core.constants import REFERENCE_TEMPERATURE
 from ..core.limits import DEFAULT_U_ANCHOR_H, DEFAULT_U_ANCHOR_S, DEFAULT_U_TRANSITION_REL
 from ..physics import basis, forms
+from .entries import by_id as entries_by_id
 
 #: shares of an anchor's stated uncertainty (left out of u(H − H298) and u(S) of a table)
 ANCHOR_SHARES = ("anchor-h", "anchor-s")
@@ -162,7 +163,7 @@ class Budgets:
     transitions included."""
 
     def __init__(self, doc: dict):
-        self.by_id = {s["id"]: s for s in doc["species"]}
+        self.by_id = entries_by_id(doc)
         self.links = {(x["from"], x["to"]): x for x in doc.get("transitions", [])}
 
     def at(self, sid: str, t) -> Budget:

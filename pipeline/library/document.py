@@ -13,6 +13,7 @@ from ..core.limits import MAX_LIBRARY_BYTES
 from ..core.names import species_name
 from ..physics import forms
 from . import budget
+from .entries import by_id as entries_by_id
 
 #: relative tolerance at the ends of the range of use (round-off in a stored end)
 END_TOLERANCE = 1e-12
@@ -53,7 +54,7 @@ def load(path) -> dict:
 
 def find_species(doc: dict, name: str, phase: str | None = None) -> dict:
     """The species entry of ``doc`` named ``name`` (see ``resolve_id``)."""
-    by_id = {s["id"]: s for s in doc["species"]}
+    by_id = entries_by_id(doc)
     return by_id[resolve_id(by_id, name, phase)]
 
 
@@ -91,7 +92,7 @@ def phases_at(doc: dict, name: str, temperatures, phase: str | None = None) -> l
     ``phase``) means, or, for a name whose phases are linked by transitions, the phase
     stable at each temperature (the phase below at a transition temperature itself).
     SpeciesNotFound or InputError (outside every phase's stable range) otherwise."""
-    by_id = {s["id"]: s for s in doc["species"]}
+    by_id = entries_by_id(doc)
     try:
         return [resolve_id(by_id, name, phase)] * len(temperatures)
     except SpeciesNotFound as exc:
@@ -127,7 +128,7 @@ def stable_index(edges, temperatures) -> np.ndarray:
 
 def evaluate_phases(doc: dict, ids, temperatures) -> dict:
     """``evaluate_entry`` of entry ``ids[i]`` at ``temperatures[i]`` [K], row by row."""
-    by_id = {s["id"]: s for s in doc["species"]}
+    by_id = entries_by_id(doc)
     t = np.asarray(temperatures, dtype=float)
     out = {}
     for sid in dict.fromkeys(ids):

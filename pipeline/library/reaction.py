@@ -20,6 +20,7 @@ import numpy as np
 from ..core.constants import GAS_CONSTANT as R
 from ..core.errors import InputError, SpeciesNotFound
 from . import budget, document, references
+from .entries import by_id as entries_by_id
 
 #: longest equation [characters] and most species in one
 MAX_EQUATION = 500
@@ -91,7 +92,7 @@ def _number(nu: float) -> str:
 
 def check_balance(doc: dict, terms) -> None:
     """InputError unless every element, and the charge, balance: Σ ν_i n_i,e = 0."""
-    by_id = {s["id"]: s for s in doc["species"]}
+    by_id = entries_by_id(doc)
     left, right, charge = {}, {}, 0.0
     for x in terms:
         formula = by_id[_any_id(doc, x.name)]["formula"]

@@ -14,6 +14,7 @@ from ..core.elements import default_reference
 from ..core.limits import REFERENCE_H_TOLERANCE
 from ..core.names import species_name
 from . import document
+from .entries import by_id as entries_by_id
 
 
 def elements_of(formula: str) -> tuple:
@@ -36,7 +37,7 @@ def resolve(doc: dict, declared: dict | None = None) -> list:
     problem (why there is none, else None)}. ``declared`` maps elements to (species name or
     id, origin); the default reference (core/elements.py) fills the rest."""
     declared = declared or {}
-    by_id = {s["id"]: s for s in doc["species"]}
+    by_id = entries_by_id(doc)
     elements = sorted({e for s in doc["species"] for e, _ in elements_of(s["formula"])}
                       | set(declared))
     out = []
@@ -80,7 +81,7 @@ def _ids(doc, by_id, el, name) -> tuple:
 def stable_ids(doc: dict, state: dict, t) -> list:
     """For each T [K], the id of ``state``'s reference species stable there, or None where
     none of its phases is (outside their ranges of use)."""
-    by_id = {s["id"]: s for s in doc["species"]}
+    by_id = entries_by_id(doc)
     ids = state["ids"]
     links = [x for x in doc.get("transitions", []) if x["from"] in ids and x["to"] in ids]
     links = sorted(links, key=lambda x: ids.index(x["from"]))

@@ -10,10 +10,13 @@ thermochemical tables show, with H − H298 and S just below and just above each
 species' elements have reference states. ``release.tables`` writes them as Parquet and CSV.
 """
 
+from collections.abc import Mapping
+
 import numpy as np
 
 from ..core.constants import REFERENCE_TEMPERATURE
 from . import document as library
+from .entries import by_id as entries_by_id
 from .formation import COLUMNS as FORMATION
 from .formation import Formation
 
@@ -104,15 +107,36 @@ def pack_rows(rows_by_id: dict) -> dict:
                         if ids else np.zeros(0) for c in numeric}}
 
 
-def unpack_rows(block: dict) -> dict:
-    """{species id: its rows} of a ``pack_rows`` block (numeric columns are views)."""
-    out = {}
-    start = 0
-    for sid, phase, end in zip(block["ids"], block["phases"], block["ends"].tolist()):
-        out[sid] = {"id": [sid] * (end - start), "phase": [phase] * (end - start),
-                    **{c: v[start:end] for c, v in block["columns"].items()}}   # COLUMNS order
-        start = end
-    return out
+class PackedRows(Mapping):
+    """{species id: its own_rows} of ``pack_rows`` blocks, each species' rows made when they
+    are asked for (numeric columns are views of the block's): a build holds its evaluated
+    tables packed until they are written (all unpacked at once, some 2 KB of small objects
+    per species)."""
+
+    def __init__(self, blocks):
+        self._blocks = tuple(blocks)
+        self._where = {sid: (b, k) for b, block in enumerate(self._blocks)
+                       for k, sid in enumerate(block["ids"])}
+
+    def __getitem__(self, sid: str) -> dict:
+        b, k = self._where[sid]
+        block = self._blocks[b]
+        start, end = (int(block["ends"][k - 1]) if k else 0), int(block["ends"][k])
+        phase = block["phases"][k]
+        return {"id": [sid] * (end - start), "phase": [phase] * (end - start),
+                **{c: v[start:end] for c, v in block["columns"].items()}}   # COLUMNS order
+
+    def __iter__(self):
+        return iter(self._where)
+
+    def __len__(self) -> int:
+        return len(self._where)
+
+
+def unpack_rows(*blocks) -> PackedRows:
+    """{species id: its rows} of ``pack_rows`` blocks, in their order (a read-only mapping
+    that unpacks each species when asked for; numeric columns are views)."""
+    return PackedRows(blocks)
 
 
 def with_formation(rows: dict, sid: str, formation=None) -> dict:
@@ -126,7 +150,7 @@ def stable_rows(doc, name, step=100.0) -> dict:
     """The table of species ``name`` across its phases: at each temperature the stable
     phase (named in 'phase'), both phases at a transition (below, then above)."""
     links, ids = library.chain(doc.get("transitions", []), name)
-    by_id = {s["id"]: s for s in doc["species"]}
+    by_id = entries_by_id(doc)
     made = Formation(doc)
     parts = [species_rows(by_id[i], step, None, links, made) for i in ids if i in by_id]
     keep = [np.asarray(p["stable"]) for p in parts]

@@ -10,6 +10,7 @@ from ..core.records import CheckResult
 from ..core.rows import concat
 from ..core.settings import Settings
 from ..library import document as library
+from ..library.entries import ids_of
 from ..physics import forms
 from . import document, provenance
 
@@ -35,14 +36,14 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None):
     from . import report, tables
 
     doc, checked = outcome.document, outcome.checked
-    file_stems([sp["id"] for sp in doc["species"]])  # unique file names or stop
+    file_stems(ids_of(doc["species"]))  # unique file names or stop
     document.release_files(doc, document.findings_document(outcome.findings), release)
     out = ctx.outputs
     say = say or (lambda *a: None)
     say("write tables", 0, 0, "tables.parquet")
     from ..library.tables import unpack_rows
 
-    own = {sid: rows for block in outcome.rows for sid, rows in unpack_rows(block).items()}
+    own = unpack_rows(*outcome.rows)          # each species' rows made when written
     release.add("tables.parquet", tables.tables_parquet_bytes(doc, out.table_step, own=own))
     if out.tables_csv:
         release.update(tables.csv_files(doc, out.table_step))

@@ -14,7 +14,9 @@ import math
 from .. import __version__
 from ..core import constants, schemas
 from ..core.errors import OutputError
+from ..core.lazy import Derived, LazyList
 from ..library import budget
+from ..library.entries import Entries, compact
 
 NOTICE = ("Curated property data for engineering use must be reviewed by a qualified person "
           "before use in design. Intervals marked 'extrapolated' lie outside the source data. "
@@ -155,11 +157,19 @@ def library_document(fitted, quarantined, inputs_sha256: str, settings: dict,
     """The whole library.json document.
 
     ``quarantined`` is a sequence of (TableMeta, findings) for tables left out; ``entries``
-    optionally maps species ids to their species_entry, already made; ``chains`` the phase
+    optionally maps species ids to their species_entry, already made, or to its compact
+    JSON (library.entries: the species are then held as Entries); ``chains`` the phase
     chains of the build (their transitions between fitted phases are listed).
     """
     entries = entries or {}
     ids = {s.table.meta.species_id for s in fitted}
+    made = [(s.table.meta.species_id, entries.get(s.table.meta.species_id) or species_entry(s))
+            for s in sorted(fitted, key=lambda s: s.table.meta.species_id)]
+    if any(isinstance(e, bytes) for _, e in made):
+        species = Entries((sid, e if isinstance(e, bytes) else compact(e))
+                          for sid, e in made)
+    else:
+        species = [e for _, e in made]
     return {
         "library_format": 1,
         "notice": NOTICE,
@@ -169,8 +179,7 @@ def library_document(fitted, quarantined, inputs_sha256: str, settings: dict,
         "units": UNITS,
         "build": {"pipeline_version": __version__, "inputs_sha256": inputs_sha256,
                   "settings": settings, "manifest": "manifest.json"},
-        "species": [entries.get(s.table.meta.species_id) or species_entry(s)
-                    for s in sorted(fitted, key=lambda s: s.table.meta.species_id)],
+        "species": species,
         "transitions": transition_entries(chains, ids),
         "quarantined": [
             {"id": meta.species_id, "source": meta.source.id, "file": meta.file,
@@ -180,13 +189,28 @@ def library_document(fitted, quarantined, inputs_sha256: str, settings: dict,
     }
 
 
+#: items of a LazyList checked against a schema at a time
+CHECKED_AT_ONCE = 512
+
+
 def require_valid(doc: dict, name: str, what: str) -> None:
-    """Raise OutputError naming the first field where ``doc`` breaks schemas/``name``."""
-    errors = schemas.errors_of(doc, name)
+    """Raise OutputError naming the first field where ``doc`` breaks schemas/``name``. Its
+    top-level LazyLists (core.lazy) are checked CHECKED_AT_ONCE items at a time, never made
+    all at once; the rest of the document once."""
+    lazy = {k: v for k, v in doc.items() if isinstance(v, LazyList)}
+    errors = schemas.errors_of({**doc, **{k: [] for k in lazy}} if lazy else doc, name)
     if errors:
         e = errors[0]
         raise OutputError(f"{what} would break schemas/{name} at {schemas.where(e)}: "
                           f"{e.message} ({len(errors)} problem(s))")
+    for key, items in lazy.items():
+        for start in range(0, len(items), CHECKED_AT_ONCE):
+            errors = schemas.part_errors(name, key, items[start:start + CHECKED_AT_ONCE], start)
+            if errors:
+                path, message = errors[0]
+                raise OutputError(f"{what} would break schemas/{name} at {path}: {message} "
+                                  f"({len(errors)} problem(s) in {key} {start} to "
+                                  f"{start + CHECKED_AT_ONCE - 1})")
 
 
 def require_valid_library(doc: dict) -> None:
@@ -195,13 +219,18 @@ def require_valid_library(doc: dict) -> None:
 
 
 def findings_document(findings) -> dict:
-    """findings.json: every finding, sorted, with totals (acknowledged warnings not counted)."""
+    """findings.json: every finding, sorted, with totals (acknowledged warnings not counted);
+    each finding's dict is made as it is written (core.lazy.Derived)."""
     items = sorted(findings, key=lambda f: f.sort_key())
     counts = {s: sum(1 for f in items if f.severity == s and f.counts)
               for s in ("error", "warning", "info")}
     counts["acknowledged"] = sum(1 for f in items if not f.counts)
     return {"findings_format": 1, "notice": NOTICE, "counts": counts,
-            "findings": [f.to_dict() for f in items]}
+            "findings": Derived(items, _finding_dict)}
+
+
+def _finding_dict(f) -> dict:
+    return f.to_dict()
 
 
 def json_bytes(doc) -> bytes:
@@ -221,14 +250,16 @@ def json_chunks(doc):
     import orjson
 
     indent = orjson.OPT_INDENT_2
-    lists = {k: v for k, v in doc.items() if isinstance(v, list) and v} \
+    lists = {k: v for k, v in doc.items() if isinstance(v, (list, LazyList)) and len(v)} \
         if isinstance(doc, dict) else {}
     marks = {k: f"\0thermoledger-list-{i}\0" for i, k in enumerate(lists)}
-    head = {k: marks.get(k, v) for k, v in doc.items()} if lists else doc
+    head = {k: marks.get(k, [] if isinstance(v, LazyList) else v) for k, v in doc.items()} \
+        if isinstance(doc, dict) else doc       # (LazyLists not marked are empty)
     _written_as_read(head, "")
     text = orjson.dumps(head, option=indent | orjson.OPT_APPEND_NEWLINE)
     if any(text.count(orjson.dumps(m)) != 1 for m in marks.values()):
         lists = {}                  # a value of the document is a mark: written whole
+        doc = {k: list(v) if isinstance(v, LazyList) else v for k, v in doc.items()}
         _written_as_read(doc, "")
         text = orjson.dumps(doc, option=indent | orjson.OPT_APPEND_NEWLINE)
     for key, items in lists.items():
@@ -286,44 +317,65 @@ def _anchor_columns(sp: dict) -> dict:
             "enthalpy_zero": a["enthalpy_zero"]}
 
 
-def library_parquet_bytes(doc: dict) -> bytes:
-    """library.parquet: one row per species and range; build metadata as key-value metadata."""
-    import orjson
+#: rows of each row group of library.parquet (one row per species and range): a group is
+#: made and written at a time, so a large library is never held as one Arrow table
+LIBRARY_ROW_GROUP = 64 * 1024
 
-    cols = {name: [] for name, _, _ in LIBRARY_PARQUET_COLUMNS}
-    for sp in doc["species"]:
-        text = {k: orjson.dumps(sp[k]).decode() for k in ("extrapolated", "sources", "findings")}
-        for j, r in enumerate(sp["ranges"]):
-            row = {"id": sp["id"], "formula": sp["formula"], "phase": sp["phase"],
-                   "geometry": sp["geometry"], "molar_mass": sp["molar_mass"],
-                   "enthalpy_of_formation_298": sp["enthalpy_of_formation_298"],
-                   "entropy_298": sp["entropy_298"], **_anchor_columns(sp),
-                   "form": sp["form"], "range_index": j,
-                   "t_min": r["t_min"], "t_max": r["t_max"],
-                   "data_t_min": sp["data_range"]["t_min"], "data_t_max": sp["data_range"]["t_max"],
-                   "cp_max_rel_dev": sp["quality"]["cp_max_rel_dev"],
-                   "cp_rms_rel_dev": sp["quality"]["cp_rms_rel_dev"],
-                   "points": sp["quality"]["points"],
-                   "coefficients": list(r["coefficients"]),
-                   "extrapolated": text["extrapolated"], "sources": text["sources"],
-                   "findings": text["findings"]}
-            for k, v in row.items():
-                cols[k].append(v)
+
+def library_parquet_bytes(doc: dict) -> bytes:
+    """library.parquet: one row per species and range, in row groups of LIBRARY_ROW_GROUP
+    rows, each made and written in turn; build metadata as key-value metadata."""
     import pyarrow as pa  # here: checking and reading load no pyarrow
     import pyarrow.parquet as pq
 
     arrow = {"string": pa.string(), "number": pa.float64(), "integer": pa.int32(),
              "array": pa.list_(pa.float64())}
-    arrays = {name: pa.array(cols[name], type=arrow[kind])
-              for name, kind, _ in LIBRARY_PARQUET_COLUMNS}
     meta = {k: json.dumps(doc.get(k, []), ensure_ascii=False) for k in (
         "library_format", "notice", "gas_constant", "reference_temperature", "standard_pressure",
         "units", "build", "transitions", "reference_states")}
-    table = pa.table(arrays).replace_schema_metadata({f"thermoledger.{k}": v
-                                                      for k, v in meta.items()})
+    schema = pa.schema([(name, arrow[kind]) for name, kind, _ in LIBRARY_PARQUET_COLUMNS],
+                       metadata={f"thermoledger.{k}": v for k, v in meta.items()})
+    cols = {name: [] for name, _, _ in LIBRARY_PARQUET_COLUMNS}
     buf = io.BytesIO()
-    pq.write_table(table, buf, compression="zstd", write_statistics=True)
+
+    def write(writer, rows: int) -> None:
+        writer.write_table(pa.table({name: pa.array(cols[name][:rows], type=schema.field(name).type)
+                                     for name in cols}, schema=schema),
+                           row_group_size=rows or None)
+        for name in cols:
+            del cols[name][:rows]
+
+    with pq.ParquetWriter(buf, schema, compression="zstd", write_statistics=True) as writer:
+        written = 0
+        for sp in doc["species"]:
+            for row in _library_rows(sp):
+                for key, v in row.items():
+                    cols[key].append(v)
+            while len(cols["id"]) >= LIBRARY_ROW_GROUP:
+                write(writer, LIBRARY_ROW_GROUP)
+                written += 1
+        if cols["id"] or not written:          # an empty library is written as one too
+            write(writer, len(cols["id"]))
     return buf.getvalue()
+
+
+def _library_rows(sp: dict) -> list:
+    """The library.parquet rows of species entry ``sp``: one per range."""
+    import orjson
+
+    text = {key: orjson.dumps(sp[key]).decode() for key in ("extrapolated", "sources", "findings")}
+    return [{"id": sp["id"], "formula": sp["formula"], "phase": sp["phase"],
+             "geometry": sp["geometry"], "molar_mass": sp["molar_mass"],
+             "enthalpy_of_formation_298": sp["enthalpy_of_formation_298"],
+             "entropy_298": sp["entropy_298"], **_anchor_columns(sp),
+             "form": sp["form"], "range_index": j, "t_min": r["t_min"], "t_max": r["t_max"],
+             "data_t_min": sp["data_range"]["t_min"], "data_t_max": sp["data_range"]["t_max"],
+             "cp_max_rel_dev": sp["quality"]["cp_max_rel_dev"],
+             "cp_rms_rel_dev": sp["quality"]["cp_rms_rel_dev"],
+             "points": sp["quality"]["points"], "coefficients": list(r["coefficients"]),
+             "extrapolated": text["extrapolated"], "sources": text["sources"],
+             "findings": text["findings"]}
+            for j, r in enumerate(sp["ranges"])]
 
 
 SCHEMA_COPIES = ("library.schema.json", "findings.schema.json", "manifest.schema.json")

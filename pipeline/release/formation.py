@@ -18,7 +18,9 @@ import numpy as np
 from ..core.constants import GAS_CONSTANT as R
 from ..core.errors import InputError
 from ..core.findings import Finding, finding, stage_failed
+from ..core.processes import give_back_memory
 from ..library import document, references
+from ..library.entries import ids_of
 from ..library.formation import Formation
 
 #: the library value and its uncertainty compared with a stated kind, and its unit
@@ -36,26 +38,41 @@ def attach(doc: dict, declared, tables, u_stated: float) -> list:
     doc["reference_states"] = states
     form = Formation(doc)
     metas = {t.meta.species_id: t.meta for t in tables}
-    new = {sp["id"]: [] for sp in doc["species"]}
+    species = doc["species"]
+    ids = ids_of(species)
+    new = {sid: [] for sid in ids}
     out = _unclear(states, declared, metas)
-    for sp in doc["species"]:
-        missing = form.missing(sp["id"])
+    for sid in ids:
+        missing = form.missing(sid)
         if missing:
-            new[sp["id"]].append(finding(
-                "FORM-NO-REFERENCE", f"{sp['id']} has no formation properties: "
-                + "; ".join(missing), **metas[sp["id"]].where))
+            new[sid].append(finding(
+                "FORM-NO-REFERENCE", f"{sid} has no formation properties: "
+                + "; ".join(missing), **metas[sid].where))
     for t in tables:
         if t.meta.species_id in new and t.meta.stated_formation:
             try:
                 new[t.meta.species_id] += _cross_check(doc, form, t.meta, u_stated)
             except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
                 new[t.meta.species_id].append(stage_failed("formation", exc, **t.meta.where))
-    for sp in doc["species"]:
-        if new[sp["id"]]:
-            merged = [Finding.from_dict(d) for d in sp["findings"]] + new[sp["id"]]
+    rewritten = 0
+    for i, sid in enumerate(ids):
+        if new[sid]:
+            sp = species[i]        # of Entries, a copy: put back
+            merged = [Finding.from_dict(d) for d in sp["findings"]] + new[sid]
             sp["findings"] = [f.to_dict() for f in sorted(merged, key=lambda f: f.sort_key())]
-            out += new[sp["id"]]
+            species[i] = sp
+            out += new[sid]
+            rewritten += 1
+            if rewritten % GIVE_BACK_EVERY == 0:
+                give_back_memory()
+    give_back_memory()
     return out
+
+
+#: entries written anew (each a little longer than the bytes it frees, which the heap
+#: cannot reuse for it) between two returns of the free heap to the system: at 100 000
+#: species, returned only at the end, the holes held some 500 MB at the peak
+GIVE_BACK_EVERY = 2048
 
 
 def _unclear(states, declared, metas) -> list:

@@ -19,6 +19,7 @@ import importlib.metadata as md
 import re
 
 from .. import __version__
+from ..core.lazy import Derived
 from ..core.names import file_stem, safe_name
 from . import document
 from .publish import manifest_outputs
@@ -63,7 +64,9 @@ def lineage(fitted) -> dict:
 
 
 def manifest(fitted, quarantined, inputs, outputs, settings: dict, inputs_digest: str) -> dict:
-    """The manifest document; ``outputs`` is [(path, sha256, size)] of every other output."""
+    """The manifest document; ``outputs`` is [(path, sha256, size)] of every other output.
+    The lineage of each species is made when it is read (core.lazy.Derived: written and
+    checked a part at a time, never held for every species at once)."""
     return {
         "manifest_format": 1,
         "pipeline_version": __version__,
@@ -72,7 +75,7 @@ def manifest(fitted, quarantined, inputs, outputs, settings: dict, inputs_digest
         "inputs_sha256": inputs_digest,
         "inputs": [{"path": f.path, "sha256": f.sha256, "size": f.size} for f in inputs],
         "outputs": [{"path": p, "sha256": digest, "size": size} for p, digest, size in outputs],
-        "species": [lineage(s) for s in sorted(fitted, key=lambda s: s.table.meta.species_id)],
+        "species": Derived(sorted(fitted, key=lambda s: s.table.meta.species_id), lineage),
         "quarantined": [{"id": m.species_id, "file": m.file,
                          "codes": sorted({f.code for f in reasons})}
                         for m, reasons in sorted(quarantined, key=lambda q: (q[0].file,))],

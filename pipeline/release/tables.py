@@ -14,6 +14,7 @@ import pyarrow.parquet as pq
 
 from ..core.names import file_stem
 from ..library import tables as evaluated
+from ..library.entries import ids_of
 from ..library.formation import Formation
 from ..library.tables import COLUMNS, FLAGS, HEADERS, TEXT, UNITS, species_rows, stable_rows
 
@@ -40,10 +41,10 @@ def tables_parquet_bytes(doc, step=100.0, points=None, own=None) -> bytes:
     buf = io.BytesIO()
     with pq.ParquetWriter(buf, schema, compression="zstd") as writer:
         pending, count, groups = [], 0, 0
-        for sp in doc["species"]:
-            part = evaluated.with_formation(own[sp["id"]], sp["id"], made) \
-                if sp["id"] in own else \
-                species_rows(sp, step, points, trs.get(sp["id"], ()), made)
+        species = doc["species"]
+        for i, sid in enumerate(ids_of(species)):      # an entry is read only when needed
+            part = evaluated.with_formation(own[sid], sid, made) if sid in own else \
+                species_rows(species[i], step, points, trs.get(sid, ()), made)
             pending.append(part)
             count += len(part["T"])
             while count >= ROW_GROUP:

@@ -1,0 +1,48 @@
+"""Lists whose items are made when they are read.
+
+A large build writes documents with one item per species (the library's entries, the
+manifest's lineage): held as Python objects all at once, 100 000 of them cost gigabytes.
+A ``LazyList`` stands in such a document for the list: the JSON writer
+(release/document.json_chunks) writes it item by item and the schema check
+(release/document.require_valid) checks it a part at a time, so no more than a part is
+ever made at once.
+"""
+
+from collections.abc import Sequence
+
+
+class LazyList(Sequence):
+    """A read-only list whose items are made when read: a fresh object each time. Equal to
+    a list (or LazyList) of equal items."""
+
+    __slots__ = ()
+
+    def __eq__(self, other) -> bool:
+        if not isinstance(other, (list, tuple, LazyList)):
+            return NotImplemented
+        return len(self) == len(other) and all(a == b for a, b in zip(self, other))
+
+    __hash__ = None
+
+    def __repr__(self) -> str:
+        return f"{type(self).__name__}({len(self)} items)"
+
+
+class Derived(LazyList):
+    """``make(x)`` of each x of ``items``, made when read."""
+
+    __slots__ = ("_items", "_make")
+
+    def __init__(self, items, make):
+        self._items, self._make = tuple(items), make
+
+    def __len__(self) -> int:
+        return len(self._items)
+
+    def __getitem__(self, i):
+        if isinstance(i, slice):
+            return [self._make(x) for x in self._items[i]]
+        return self._make(self._items[i])
+
+    def __iter__(self):
+        return map(self._make, self._items)

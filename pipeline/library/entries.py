@@ -1,0 +1,131 @@
+"""The species entries of a library document held as compact JSON.
+
+A build holds every library entry from the moment its partition is fitted until its release
+is written: 11.8 KB of Python objects per species (mostly the floats of the covariance), but
+4.9 KB as the compact JSON orjson writes. ``Entries`` keeps them so and reads as the list of
+dicts it stands for, each entry decoded when it is asked for (about 20 µs). Floats written
+by orjson read back as the same floats, so an entry written again gives the same bytes.
+
+``by_id(doc)`` is the one way the library's functions look entries up by id: over
+``Entries`` it decodes only the entries looked up, over a list it is the plain dict.
+"""
+
+from collections.abc import Mapping
+
+from ..core.lazy import LazyList
+
+
+def _loads(blob: bytes) -> dict:
+    import orjson
+
+    return orjson.loads(blob)
+
+
+def compact(entry: dict) -> bytes:
+    """The compact JSON of a species entry, as Entries holds it: copied into bytes of its
+    own size (orjson's bytes keep the room of its buffer, 12 KB for 4.9 KB of JSON)."""
+    import orjson
+
+    return bytes(memoryview(orjson.dumps(entry)))
+
+
+class Entries(LazyList):
+    """Library entries, in order, each held as its compact JSON (a core.lazy.LazyList).
+    Indexing and iterating give a fresh dict each time: changing it changes nothing held
+    until it is put back (``entries[i] = entry``)."""
+
+    __slots__ = ("_blobs", "_ids", "_index")
+
+    def __init__(self, pairs=()):
+        """``pairs``: (species id, compact JSON bytes of its entry), in the document's
+        order."""
+        self._ids, self._blobs = [], []
+        for sid, blob in pairs:
+            self._ids.append(sid)
+            self._blobs.append(blob)
+        self._index = None
+
+    @classmethod
+    def of(cls, entries) -> "Entries":
+        """Entries of the dicts ``entries``."""
+        return cls((e["id"], compact(e)) for e in entries)
+
+    def __len__(self) -> int:
+        return len(self._blobs)
+
+    def __getitem__(self, i):
+        if isinstance(i, slice):
+            return [_loads(b) for b in self._blobs[i]]
+        return _loads(self._blobs[i])
+
+    def __setitem__(self, i: int, entry: dict) -> None:
+        if entry["id"] != self._ids[i]:
+            raise ValueError(f"entry {i} is {self._ids[i]}, not {entry['id']}")
+        self._blobs[i] = compact(entry)
+
+    def __iter__(self):
+        for blob in self._blobs:
+            yield _loads(blob)
+
+    def ids(self) -> list:
+        """The species ids, in order (nothing decoded)."""
+        return list(self._ids)
+
+    def position(self, sid: str) -> int:
+        """The index of entry ``sid`` (KeyError when there is none)."""
+        if self._index is None:
+            self._index = {s: i for i, s in enumerate(self._ids)}
+        return self._index[sid]
+
+    def by_id(self) -> Mapping:
+        """A read-only mapping of ids to entries that decodes only what is looked up."""
+        return _ById(self)
+
+
+class _ById(Mapping):
+    """{species id: entry} over Entries; the last CACHED entries looked up are kept
+    decoded (the reference species are looked up once per species that counts from them).
+    The entries it gives are to be read, not changed."""
+
+    CACHED = 64
+
+    def __init__(self, entries: Entries):
+        self._entries, self._cache = entries, {}
+
+    def __getitem__(self, sid: str) -> dict:
+        hit = self._cache.pop(sid, None)
+        if hit is None:
+            hit = self._entries[self._entries.position(sid)]
+            if len(self._cache) >= self.CACHED:
+                del self._cache[next(iter(self._cache))]
+        self._cache[sid] = hit      # the most recent last
+        return hit
+
+    def __contains__(self, sid) -> bool:
+        try:
+            self._entries.position(sid)
+        except (KeyError, TypeError):
+            return False
+        return True
+
+    def __iter__(self):
+        return iter(self._entries.ids())
+
+    def __len__(self) -> int:
+        return len(self._entries)
+
+
+def by_id(doc: dict) -> Mapping:
+    """{species id: entry} of library document ``doc``: a read-only mapping that decodes on
+    demand when its species are held as Entries, else a dict."""
+    species = doc["species"]
+    if isinstance(species, Entries):
+        return species.by_id()
+    return {s["id"]: s for s in species}
+
+
+def ids_of(species) -> list:
+    """The ids of ``species`` (a document's list of entries, or Entries: nothing decoded)."""
+    if isinstance(species, Entries):
+        return species.ids()
+    return [s["id"] for s in species]

@@ -1,0 +1,184 @@
+"""A library's species entries held as compact JSON (pipeline/library/entries.py): they read
+as the list they stand for, write the same bytes, are checked against the schema a part at
+a time and are what a build holds until its release is written."""
+
+import io
+
+import orjson
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from thermoledger import build
+from thermoledger.core.errors import OutputError
+from thermoledger.core.settings import Settings
+from thermoledger.library import entries as held
+from thermoledger.library.entries import Entries, by_id, ids_of
+from thermoledger.release import document
+
+from .test_library_load import DOCS
+from .test_partitions import RAW
+
+ENTRY_LISTS = st.lists(st.dictionaries(st.text(max_size=3), DOCS, max_size=4),
+                       max_size=6).map(lambda xs: [{"id": f"s{i}", **x} for i, x in enumerate(xs)])
+
+
+@pytest.fixture(scope="module")
+def demo_doc():
+    """The library document of the demo data, built without writing."""
+    return build.build(RAW, None, write=False).document
+
+
+@settings(max_examples=200, deadline=None)
+@given(ENTRY_LISTS)
+def test_entries_read_as_the_list_they_hold_and_write_its_bytes(entries):
+    """Each entry comes back equal to itself (floats to the last bit), by index, slice and
+    iteration; a document holding them writes the bytes of the document holding the list."""
+    kept = Entries.of(entries)
+    assert len(kept) == len(entries) and kept == entries and list(kept) == entries
+    assert kept[1:3] == entries[1:3] and ids_of(kept) == ids_of(entries)
+    for i, e in enumerate(entries):
+        assert kept[i] == e and kept[-1 - i] == entries[-1 - i]
+    doc = {"a": 1, "species": entries, "z": []}
+    assert b"".join(document.json_chunks({**doc, "species": kept})) == \
+        b"".join(document.json_chunks(doc))
+
+
+def test_an_entry_read_is_a_copy_until_it_is_put_back():
+    kept = Entries.of([{"id": "A(g)", "findings": []}, {"id": "B(g)", "findings": []}])
+    entry = kept[1]
+    entry["findings"].append({"code": "X"})
+    assert kept[1] == {"id": "B(g)", "findings": []}
+    kept[1] = entry
+    assert kept[1]["findings"] == [{"code": "X"}]
+    with pytest.raises(ValueError, match="entry 0 is A"):
+        kept[0] = entry
+    assert kept != [kept[0]] and kept == [kept[0], kept[1]]
+
+
+def test_entries_looked_up_by_id_are_the_only_ones_decoded(monkeypatch):
+    entries = [{"id": f"s{i}", "formula": "N2"} for i in range(200)]
+    kept = Entries.of(entries)
+    decoded = []
+    monkeypatch.setattr(held, "_loads", lambda b: decoded.append(b) or orjson.loads(b))
+    look = by_id({"species": kept})
+    assert list(look) == [e["id"] for e in entries] and len(look) == 200
+    assert "s7" in look and "s700" not in look and not decoded
+    assert look["s7"] == entries[7] and look["s7"] == entries[7] and len(decoded) == 1
+    assert by_id({"species": entries})["s7"] is entries[7]      # a list: the entry itself
+
+
+def test_the_compact_json_is_held_in_bytes_of_its_own_size():
+    """orjson's bytes keep the room of its buffer (12 KB for a 4.9 KB entry); what Entries
+    holds is a copy of the JSON's own size (the allocator rounds up by at most a page)."""
+    import tracemalloc
+
+    entry = {"id": "s", "covariance": [[0.1 * i * j for j in range(10)] for i in range(10)]}
+    tracemalloc.start()
+    try:
+        blobs = [held.compact(entry) for _ in range(50)]
+        size = tracemalloc.get_traced_memory()[0]
+    finally:
+        tracemalloc.stop()
+    assert blobs[0] == orjson.dumps(entry)
+    assert size < 50 * (len(blobs[0]) + 4096)
+
+
+def test_a_library_held_as_entries_is_checked_a_part_at_a_time_as_a_whole(monkeypatch,
+                                                                         demo_doc):
+    """The schema check of species held as Entries, CHECKED_AT_ONCE at a time, passes a
+    valid library and names the first bad field where the whole document's check does."""
+    assert isinstance(demo_doc["species"], Entries) and len(demo_doc["species"]) > 5
+    monkeypatch.setattr(document, "CHECKED_AT_ONCE", 2)
+    document.require_valid_library(demo_doc)
+    plain = {**demo_doc, "species": list(demo_doc["species"])}
+    bad = plain["species"][5]
+    bad["ranges"][0]["t_min"] = "hot"
+    with pytest.raises(OutputError) as whole:
+        document.require_valid_library({**plain})
+    species = Entries.of(plain["species"])
+    with pytest.raises(OutputError) as parts:
+        document.require_valid_library({**demo_doc, "species": species})
+    assert "at species/5/ranges/0/t_min: 'hot' is not of type 'number'" in str(parts.value)
+    assert "at species/5/ranges/0/t_min: 'hot' is not of type 'number'" in str(whole.value)
+    with pytest.raises(OutputError, match="at build: "):
+        document.require_valid_library({**demo_doc, "build": None})
+
+
+def test_library_parquet_written_a_row_group_at_a_time_is_the_table_written_whole(
+        monkeypatch, demo_doc):
+    """library.parquet is made and written a row group at a time: the bytes are those of
+    the whole table written at once in groups of as many rows (pyarrow's own cut), with one
+    group, as before, up to LIBRARY_ROW_GROUP rows."""
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    rows = [r for sp in demo_doc["species"] for r in document._library_rows(sp)]
+    kinds = {"string": pa.string(), "number": pa.float64(), "integer": pa.int32(),
+             "array": pa.list_(pa.float64())}
+
+    def whole(group):
+        table = pa.table({c: pa.array([r[c] for r in rows], type=kinds[kind])
+                          for c, kind, _ in document.LIBRARY_PARQUET_COLUMNS})
+        meta = pq.read_schema(io.BytesIO(document.library_parquet_bytes(demo_doc))).metadata
+        buf = io.BytesIO()
+        pq.write_table(table.replace_schema_metadata(meta), buf, compression="zstd",
+                       write_statistics=True, row_group_size=group)
+        return buf.getvalue()
+
+    assert len(rows) > len(demo_doc["species"]) > 5
+    for group in (document.LIBRARY_ROW_GROUP, 1, 3, len(rows), len(rows) - 1):
+        monkeypatch.setattr(document, "LIBRARY_ROW_GROUP", group)
+        got = document.library_parquet_bytes(demo_doc)
+        assert got == whole(group)
+        assert pq.read_metadata(io.BytesIO(got)).num_row_groups == -(-len(rows) // group)
+    assert pq.read_table(io.BytesIO(got)).column("id").to_pylist() == [r["id"] for r in rows]
+    empty = document.library_parquet_bytes({**demo_doc, "species": []})
+    assert pq.read_metadata(io.BytesIO(empty)).num_rows == 0
+
+
+def test_a_build_holds_its_entries_as_compact_json_and_writes_them_as_read(tmp_path):
+    """The partitions give their entries as compact JSON, the build holds them as Entries,
+    and library.json holds exactly those entries (formation findings added)."""
+    result = build.build(RAW, tmp_path / "out", parts=2)
+    species = result.document["species"]
+    assert isinstance(species, Entries)
+    written = orjson.loads((tmp_path / "out" / "current" / "library.json").read_bytes())
+    assert species == written["species"]
+    part = build._build_part(RAW, Settings(), {}, build._quiet, build.partitions.Part(0, 2))
+    assert part.entries and all(isinstance(blob, bytes) for _, blob in part.entries)
+
+
+def test_a_derived_list_makes_each_item_when_read_and_writes_the_list_s_bytes():
+    from thermoledger.core.lazy import Derived
+
+    made = []
+    items = Derived(range(5), lambda x: made.append(x) or {"n": x, "sq": [x * x]})
+    assert not made and len(items) == 5
+    assert items[3] == {"n": 3, "sq": [9]} and made == [3]
+    assert items[1:3] == [{"n": 1, "sq": [1]}, {"n": 2, "sq": [4]}]
+    plain = [{"n": x, "sq": [x * x]} for x in range(5)]
+    assert items == plain and list(items) == plain
+    assert b"".join(document.json_chunks({"k": 1, "items": items})) == \
+        b"".join(document.json_chunks({"k": 1, "items": plain}))
+
+
+def test_the_manifest_makes_each_lineage_when_written_and_checks_them_in_parts(
+        monkeypatch, tmp_path):
+    """The manifest's lineage of each species is made as it is written and checked against
+    the schema CHECKED_AT_ONCE at a time; a bad lineage is named by its place in the list."""
+    from thermoledger.core.lazy import Derived
+    from thermoledger.release import provenance
+
+    result = build.build(RAW, tmp_path / "out")
+    man = provenance.manifest(result.fitted, result.quarantined, result.inputs, [],
+                              {"a": 1}, "0" * 64)
+    assert isinstance(man["species"], Derived) and len(man["species"]) == len(result.fitted)
+    written = orjson.loads((tmp_path / "out" / "current" / "manifest.json").read_bytes())
+    assert man["species"] == written["species"]
+    monkeypatch.setattr(document, "CHECKED_AT_ONCE", 2)
+    document.require_valid(man, "manifest.schema.json", "manifest.json")
+    bad = Derived(list(man["species"]), lambda x: {**x, "form": 7} if x["id"] ==
+                  man["species"][3]["id"] else x)
+    with pytest.raises(OutputError, match=r"at species/3/form: 7 is not of type 'string' "
+                                          r"\(1 problem\(s\) in species 2 to 3\)"):
+        document.require_valid({**man, "species": bad}, "manifest.schema.json", "manifest.json")

@@ -17,6 +17,7 @@ from .core.findings import ERROR, INFO, by_subject, concerns, finding, stage_fai
 from .core.processes import collector_paused
 from .core.records import CheckResult, CpData, FittedSpecies, SpeciesIdentity, Table
 from .core.settings import Settings, for_table
+from .core.spill import Spill, SpilledObjects
 from .library import document as library
 from .library.entries import compact
 from .release import assemble, formation, provenance, publish
@@ -374,10 +375,18 @@ def _lineage_only(fitted) -> list:
                                    extrapolated=(), notes=())) for f in fitted]
 
 
-def _without_points(result: partitions.PartResult) -> partitions.PartResult:
-    """A partition's result without its report's plot points (about 5 KB per species),
-    for a build without a report: the partition kept for the next build still has them."""
-    return replace(result, points=())
+def _held(spill, report: bool, result: partitions.PartResult) -> partitions.PartResult:
+    """A partition's result as the build holds it until its release is written: its library
+    entries, evaluated tables and report's plot points in the build's scratch file
+    (core.spill.Spill; some 9 KB per species, 14 with the plot points), only where they lie
+    held; without a report, no plot points. The partition kept for the next build has them
+    all."""
+    from .library.tables import spill_rows
+
+    return replace(result, entries=tuple((sid, spill.put(blob)) for sid, blob in result.entries),
+                   rows=tuple(spill_rows(block, spill) for block in result.rows),
+                   points=tuple((sid, spill.put_object(p)) for sid, p in result.points)
+                   if report else ())
 
 
 def _quiet(stage, i=0, n=0, label=""):
@@ -399,17 +408,18 @@ def _build(raw_dir, out_dir, ctx: Settings, progress, previous: dict,
 def _build_into(files, raw_dir, out_dir, ctx: Settings, say, previous: dict, cut,
                 store) -> BuildResult:
     say("read and check", 0, 0, str(raw_dir))
+    spill = Spill(out_dir)         # unnamed: gone with the last entry of the library read
     done, reused = partitions.run(partial(_build_part, raw_dir, ctx, previous,
                                           say if cut.parts == 1 else _quiet), cut, say, store,
-                                  keep=None if ctx.outputs.report else _without_points)
+                                  keep=partial(_held, spill, ctx.outputs.report))
     checked, fitted, entries = done.checked, list(done.fitted), dict(done.entries)
     quarantined, findings = list(done.quarantined), list(done.findings)
-    points, rows = dict(done.points), done.rows
+    points, rows = SpilledObjects(spill, dict(done.points)), done.rows
     del done        # from here on each entry is held by the library document alone: the
     #                 entries formation.attach writes anew free their first bytes
     digest = ingest.inputs_digest(checked.inputs)
     doc = release_document.library_document(fitted, quarantined, digest, ctx.to_dict(), entries,
-                                            checked.chains)
+                                            checked.chains, spill)
     del entries
     findings += formation.attach(doc, checked.references, checked.tables,
                                  ctx.checks.stated_formation_u)

@@ -2,9 +2,10 @@
 
 A build holds every library entry from the moment its partition is fitted until its release
 is written: 11.8 KB of Python objects per species (mostly the floats of the covariance), but
-4.9 KB as the compact JSON orjson writes. ``Entries`` keeps them so and reads as the list of
-dicts it stands for, each entry decoded when it is asked for (about 20 µs). Floats written
-by orjson read back as the same floats, so an entry written again gives the same bytes.
+4.9 KB as the compact JSON orjson writes. ``Entries`` keeps them so, in memory or in the
+build's scratch file (core/spill.py), and reads as the list of dicts it stands for, each
+entry decoded when it is asked for (about 20 µs). Floats written by orjson read back as the
+same floats, so an entry written again gives the same bytes.
 
 ``by_id(doc)`` is the one way the library's functions look entries up by id: over
 ``Entries`` it decodes only the entries looked up, over a list it is the plain dict.
@@ -30,42 +31,48 @@ def compact(entry: dict) -> bytes:
 
 
 class Entries(LazyList):
-    """Library entries, in order, each held as its compact JSON (a core.lazy.LazyList).
-    Indexing and iterating give a fresh dict each time: changing it changes nothing held
-    until it is put back (``entries[i] = entry``)."""
+    """Library entries, in order, each held as its compact JSON (a core.lazy.LazyList): in
+    memory, or where a core.spill.Spill holds it ((offset, size)). Indexing and iterating
+    give a fresh dict each time: changing it changes nothing held until it is put back
+    (``entries[i] = entry``, into the spill when there is one)."""
 
-    __slots__ = ("_blobs", "_ids", "_index")
+    __slots__ = ("_blobs", "_ids", "_index", "_spill")
 
-    def __init__(self, pairs=()):
-        """``pairs``: (species id, compact JSON bytes of its entry), in the document's
-        order."""
+    def __init__(self, pairs=(), spill=None):
+        """``pairs``: (species id, compact JSON bytes of its entry, or its (offset, size) in
+        ``spill``), in the document's order."""
         self._ids, self._blobs = [], []
         for sid, blob in pairs:
             self._ids.append(sid)
             self._blobs.append(blob)
-        self._index = None
+        self._index, self._spill = None, spill
 
     @classmethod
     def of(cls, entries) -> "Entries":
         """Entries of the dicts ``entries``."""
         return cls((e["id"], compact(e)) for e in entries)
 
+    def _json(self, i: int) -> bytes:
+        blob = self._blobs[i]
+        return blob if isinstance(blob, bytes) else self._spill.get(*blob)
+
     def __len__(self) -> int:
         return len(self._blobs)
 
     def __getitem__(self, i):
         if isinstance(i, slice):
-            return [_loads(b) for b in self._blobs[i]]
-        return _loads(self._blobs[i])
+            return [_loads(self._json(j)) for j in range(*i.indices(len(self)))]
+        return _loads(self._json(i))
 
     def __setitem__(self, i: int, entry: dict) -> None:
         if entry["id"] != self._ids[i]:
             raise ValueError(f"entry {i} is {self._ids[i]}, not {entry['id']}")
-        self._blobs[i] = compact(entry)
+        blob = compact(entry)
+        self._blobs[i] = blob if self._spill is None else self._spill.put(blob)
 
     def __iter__(self):
-        for blob in self._blobs:
-            yield _loads(blob)
+        for i in range(len(self._blobs)):
+            yield _loads(self._json(i))
 
     def ids(self) -> list:
         """The species ids, in order (nothing decoded)."""

@@ -107,6 +107,12 @@ def pack_rows(rows_by_id: dict) -> dict:
                         if ids else np.zeros(0) for c in numeric}}
 
 
+def spill_rows(block: dict, spill) -> dict:
+    """A ``pack_rows`` block with its numeric columns written to ``spill`` (core.spill.Spill)
+    and read back a species at a time (core.spill.SpilledArray)."""
+    return {**block, "columns": {c: spill.put_array(v) for c, v in block["columns"].items()}}
+
+
 class PackedRows(Mapping):
     """{species id: its own_rows} of ``pack_rows`` blocks, each species' rows made when they
     are asked for (numeric columns are views of the block's): a build holds its evaluated

@@ -153,21 +153,22 @@ def _source_ref(use) -> dict:
 
 
 def library_document(fitted, quarantined, inputs_sha256: str, settings: dict,
-                     entries=None, chains=()) -> dict:
+                     entries=None, chains=(), spill=None) -> dict:
     """The whole library.json document.
 
     ``quarantined`` is a sequence of (TableMeta, findings) for tables left out; ``entries``
     optionally maps species ids to their species_entry, already made, or to its compact
-    JSON (library.entries: the species are then held as Entries); ``chains`` the phase
-    chains of the build (their transitions between fitted phases are listed).
+    JSON, as bytes or as its (offset, size) in ``spill`` (core.spill.Spill): the species are
+    then held as library.entries.Entries; ``chains`` the phase chains of the build (their
+    transitions between fitted phases are listed).
     """
     entries = entries or {}
     ids = {s.table.meta.species_id for s in fitted}
     made = [(s.table.meta.species_id, entries.get(s.table.meta.species_id) or species_entry(s))
             for s in sorted(fitted, key=lambda s: s.table.meta.species_id)]
-    if any(isinstance(e, bytes) for _, e in made):
-        species = Entries((sid, e if isinstance(e, bytes) else compact(e))
-                          for sid, e in made)
+    if any(not isinstance(e, dict) for _, e in made):
+        species = Entries(((sid, compact(e) if isinstance(e, dict) else e) for sid, e in made),
+                          spill)
     else:
         species = [e for _, e in made]
     return {

@@ -171,16 +171,15 @@ def _phase_section(sp, transitions) -> list:
     return out
 
 
-def formation_rows(doc) -> dict:
-    """{species id: (rows, None) or (None, why)} for the species pages: ΔfH°, ΔfG° and log10
-    Kf [J/mol, -] with standard uncertainties at 298.15 K and every 500 K of the range of
-    use, and the reference species of the elements."""
-    from ..library.formation import Formation
+def formation_rows(made, species) -> dict:
+    """{species id: (rows, None) or (None, why)} of the entries ``species`` for their pages:
+    ΔfH°, ΔfG° and log10 Kf [J/mol, -] with standard uncertainties at 298.15 K and every
+    500 K of the range of use, and the reference species of the elements (``made``: the
+    library's library.formation.Formation)."""
     from ..library.references import elements_of
 
-    made = Formation(doc)
     out = {}
-    for sp in doc["species"]:
+    for sp in species:
         missing = made.missing(sp["id"])
         if missing:
             out[sp["id"]] = (None, "; ".join(missing))
@@ -384,53 +383,66 @@ def report_files(doc, points, accept, workers=None, say=None, put=None) -> dict:
     t, cp (rows used), t_out, cp_out (rows left out), and optional (t, deviation) pairs
     'dh' and 's' against the table's columns. Large reports are drawn by up to ``workers``
     processes (default: the cores of the machine); the files do not depend on how many.
-    ``say(stage, i, n, label)`` hears of every species drawn."""
+    The species are read CHUNK at a time, and at most twice as many chunks as workers are
+    out at once. ``say(stage, i, n, label)`` hears of every species drawn."""
     import os
+    from collections import deque
+
+    from ..library.entries import by_id as entries_by_id
+    from ..library.formation import Formation
 
     species = doc["species"]
     transitions = doc.get("transitions", [])
-    formed = formation_rows(doc)
+    made = Formation(doc)
     say = say or (lambda *a: None)
     workers = workers or min(os.cpu_count() or 1, 4)
     files = {}
     add = put or files.__setitem__
-    size = 25
-    chunks = [species[i:i + size] for i in range(0, len(species), size)]
-    done = 0
+    done, worst, per_source = 0, [], Counter()
 
-    def tick(chunk):
+    def chunks():
+        for i in range(0, len(species), CHUNK):
+            chunk = species[i:i + CHUNK]
+            worst.extend(100 * s["quality"]["cp_max_rel_dev"] for s in chunk)
+            per_source.update(s["sources"][0]["source"] for s in chunk)
+            yield (chunk, {s["id"]: points.get(s["id"], {}) for s in chunk}, accept,
+                   transitions, formation_rows(made, chunk))
+
+    def added(chunk, part):
         nonlocal done
+        for path, data in part.items():
+            add(path, data)
         for sp in chunk:
             done += 1
             say("write report", done, len(species), sp["id"])
 
     if workers > 1 and len(species) > 60:
         with worker_pool(workers) as pool:   # an interrupted build waits for no worker
-            parts = pool.map(_species_files, chunks,
-                             [{s["id"]: points.get(s["id"], {}) for s in c} for c in chunks],
-                             [accept] * len(chunks), [transitions] * len(chunks),
-                             [{s["id"]: formed[s["id"]] for s in c} for c in chunks])
-            for chunk, part in zip(chunks, parts):
-                for path, data in part.items():
-                    add(path, data)
-                tick(chunk)
+            out = deque()
+            for args in chunks():
+                out.append((args[0], pool.submit(_species_files, *args)))
+                if len(out) >= 2 * workers:
+                    chunk, future = out.popleft()
+                    added(chunk, future.result())
+            while out:
+                chunk, future = out.popleft()
+                added(chunk, future.result())
     else:
-        for chunk in chunks:
-            for path, data in _species_files(chunk, points, accept, transitions,
-                                             formed).items():
-                add(path, data)
-            tick(chunk)
-    by_id = {s["id"]: s for s in species}
+        for args in chunks():
+            added(args[0], _species_files(*args))
+    by_id = entries_by_id(doc)
     for name in sorted({x["species"] for x in transitions}):
         add(f"report/img/{file_stem(name)}-phases.svg", plots.phase_figure(
             name, transitions, by_id))
-    per_source = Counter(s["sources"][0]["source"] for s in species)
-    hist, bars = plots.overview_figures([100 * s["quality"]["cp_max_rel_dev"]
-                                         for s in species], per_source)
+    hist, bars = plots.overview_figures(worst, per_source)
     add("report/img/overview-deviation.svg", hist)
     add("report/img/overview-sources.svg", bars)
     add("report/index.html", index_page(doc))
     return dict(sorted(files.items()))
+
+
+#: species drawn by one task of the report
+CHUNK = 25
 
 
 def _species_files(species, points, accept, transitions=(), formed=None) -> dict:

@@ -1,0 +1,96 @@
+"""A scratch file for what a large build made and reads back only when it writes its release.
+
+Until its release is written a build of 100 000 species would hold every library entry
+(5 KB of JSON each) and every evaluated table (4 KB of numbers each) in memory. It puts
+them in a ``Spill`` instead, as each partition arrives, and keeps only where each lies. The
+file has no name (tempfile.TemporaryFile, in the folder given: the release home, on the
+disk the release goes to): nothing is left behind, whatever stops the build, and reading
+back is a pread from the page cache.
+"""
+
+import os
+import pickle
+import tempfile
+from collections.abc import Mapping
+
+import numpy as np
+
+
+class Spill:
+    """An append-only unnamed file of bytes, read back by (offset, size)."""
+
+    def __init__(self, folder=None):
+        self._file = tempfile.TemporaryFile(dir=folder)
+        self._fd = self._file.fileno()
+        self._end = 0
+
+    def put(self, data) -> tuple:
+        """(offset, size) of ``data`` (bytes or a contiguous array) written at the end."""
+        view = memoryview(data).cast("B")
+        offset, done = self._end, 0
+        while done < len(view):
+            done += os.pwrite(self._fd, view[done:], offset + done)
+        self._end += len(view)
+        return offset, len(view)
+
+    def get(self, offset: int, size: int) -> bytes:
+        """The ``size`` bytes written at ``offset``."""
+        data = os.pread(self._fd, size, offset)
+        if len(data) != size:
+            raise OSError(f"the build's scratch file ends before byte {offset + size}")
+        return data
+
+    def put_array(self, values) -> "SpilledArray":
+        """A 1-D array written, as a SpilledArray that reads slices of it back."""
+        a = np.ascontiguousarray(values)
+        if a.ndim != 1:
+            raise ValueError("only 1-D arrays are spilled")
+        offset, _ = self.put(a)
+        return SpilledArray(self, offset, a.dtype, len(a))
+
+    def put_object(self, obj) -> tuple:
+        """(offset, size) of ``obj`` pickled (read back by SpilledObjects)."""
+        return self.put(pickle.dumps(obj, protocol=pickle.HIGHEST_PROTOCOL))
+
+    def close(self) -> None:
+        self._file.close()
+
+
+class SpilledArray:
+    """A 1-D array held in a Spill: ``a[i:j]`` reads those items back (a step of 1 only)."""
+
+    __slots__ = ("spill", "offset", "dtype", "size")
+
+    def __init__(self, spill: Spill, offset: int, dtype, size: int):
+        self.spill, self.offset, self.dtype, self.size = spill, offset, np.dtype(dtype), size
+
+    def __len__(self) -> int:
+        return self.size
+
+    def __getitem__(self, where: slice) -> np.ndarray:
+        if not isinstance(where, slice):
+            raise TypeError("a SpilledArray is read by slices")
+        start, stop, step = where.indices(self.size)
+        if step != 1:
+            raise ValueError("a SpilledArray is read with a step of 1")
+        n = max(stop - start, 0)
+        width = self.dtype.itemsize
+        data = self.spill.get(self.offset + start * width, n * width) if n else b""
+        return np.frombuffer(data, dtype=self.dtype).copy() if n else np.zeros(0, self.dtype)
+
+
+class SpilledObjects(Mapping):
+    """{key: object} of objects this process pickled into a Spill (``put_object``), each
+    unpickled when it is read: ``where`` maps the keys to their (offset, size)."""
+
+    def __init__(self, spill: Spill, where: dict):
+        self._spill, self._where = spill, where
+
+    def __getitem__(self, key):
+        return pickle.loads(self._spill.get(*self._where[key]))
+
+    def __iter__(self):
+        return iter(self._where)
+
+    def __len__(self) -> int:
+        return len(self._where)

@@ -1,0 +1,102 @@
+"""The build's scratch file (pipeline/core/spill.py): what a build holds until its release is
+written lies there, reads back as written, and leaves nothing behind."""
+
+import os
+
+import numpy as np
+import orjson
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from hypothesis.extra import numpy as hnp
+from thermoledger import build
+from thermoledger.core.spill import Spill, SpilledArray
+from thermoledger.library import tables
+from thermoledger.library.entries import Entries
+
+from .test_partitions import RAW
+
+ARRAYS = st.one_of(hnp.arrays(np.float64, st.integers(0, 40)),
+                   hnp.arrays(np.bool_, st.integers(0, 40)),
+                   hnp.arrays(np.int64, st.integers(0, 40)))
+
+
+@settings(max_examples=100, deadline=None)
+@given(st.lists(st.tuples(ARRAYS, st.integers(-45, 45), st.integers(-45, 45)), max_size=5),
+       st.binary(max_size=300))
+def test_what_is_spilled_reads_back_as_written(tmp_path_factory, cases, blob):
+    """Bytes by (offset, size); arrays by slice, every value to the last bit, NaN
+    included, whatever was written before and after them."""
+    folder = tmp_path_factory.mktemp("spill")
+    spill = Spill(folder)
+    where = spill.put(blob)
+    held = [(a, spill.put_array(a)) for a, _, _ in cases]
+    assert spill.get(*where) == blob
+    for (a, s), (_, i, j) in zip(held, cases):
+        assert isinstance(s, SpilledArray) and len(s) == len(a)
+        got = s[i:j]
+        assert got.dtype == a.dtype and got.tobytes() == a[i:j].tobytes()
+    assert os.listdir(folder) == []            # the file has no name
+    spill.close()
+
+
+def test_a_spilled_array_is_read_by_slices_of_step_one(tmp_path):
+    s = Spill(tmp_path).put_array(np.arange(5.0))
+    with pytest.raises(TypeError):
+        s[2]
+    with pytest.raises(ValueError):
+        s[::2]
+    with pytest.raises(ValueError):
+        Spill(tmp_path).put_array(np.zeros((2, 2)))
+
+
+def test_entries_in_a_spill_read_and_are_put_back_there(tmp_path):
+    spill = Spill(tmp_path)
+    entries = [{"id": f"s{i}", "x": [0.1 * i, None]} for i in range(4)]
+    kept = Entries(((e["id"], spill.put(orjson.dumps(e))) for e in entries), spill)
+    assert kept == entries and kept[1:3] == entries[1:3]
+    changed = {**entries[2], "x": [2.5]}
+    kept[2] = changed
+    assert kept[2] == changed and isinstance(kept._blobs[2], tuple)
+
+
+def test_packed_rows_in_a_spill_are_the_rows_packed(tmp_path):
+    own = {f"s{i}": {"id": [f"s{i}"] * (i + 1), "phase": ["g"] * (i + 1),
+                     **{c: np.linspace(1.0, 2.0, i + 1) if c not in tables.FLAGS
+                        else np.arange(i + 1) % 2 == 0
+                        for c in tables.COLUMNS if c not in tables.TEXT}} for i in range(5)}
+    block = tables.pack_rows(own)
+    kept = tables.unpack_rows(tables.spill_rows(block, Spill(tmp_path)))
+    plain = tables.unpack_rows(block)
+    for sid in own:
+        assert list(kept[sid]) == list(plain[sid])
+        for c, v in plain[sid].items():
+            assert np.asarray(kept[sid][c]).tobytes() == np.asarray(v).tobytes()
+
+
+def test_a_build_holds_its_entries_in_a_scratch_file_that_leaves_nothing(tmp_path):
+    """A build puts each partition's library entries and evaluated tables in its scratch
+    file as they arrive; the release home holds only what a build writes, and the library
+    read from the scratch file is the one written."""
+    out = tmp_path / "out"
+    result = build.build(RAW, out, parts=2)
+    species = result.document["species"]
+    assert species._spill is not None and all(isinstance(b, tuple) for b in species._blobs)
+    written = orjson.loads((out / "current" / "library.json").read_bytes())
+    assert species == written["species"]
+    for p in out.iterdir():
+        assert p.name in {"current", "releases", ".parts", ".lock"} or \
+            (p.is_symlink() and os.readlink(p) == f"current/{p.name}")
+    assert {p.name for p in (out / ".parts").iterdir()
+            if not p.name.startswith("part-")} == {"breakpoints.json", "digests.json"}
+
+
+def test_objects_in_a_spill_are_unpickled_when_read(tmp_path):
+    from thermoledger.core.spill import SpilledObjects
+
+    spill = Spill(tmp_path)
+    objs = {"a": {"t": np.arange(3.0), "dh": (np.zeros(2), np.ones(2))}, "b": {}}
+    held = SpilledObjects(spill, {k: spill.put_object(v) for k, v in objs.items()})
+    assert list(held) == ["a", "b"] and len(held) == 2 and held.get("c", 7) == 7
+    assert held["b"] == {} and held["a"]["dh"][1].tolist() == [1.0, 1.0]
+    assert held["a"] is not held["a"]                   # a fresh object at each read

@@ -182,3 +182,22 @@ def test_the_manifest_makes_each_lineage_when_written_and_checks_them_in_parts(
     with pytest.raises(OutputError, match=r"at species/3/form: 7 is not of type 'string' "
                                           r"\(1 problem\(s\) in species 2 to 3\)"):
         document.require_valid({**man, "species": bad}, "manifest.schema.json", "manifest.json")
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.dictionaries(st.text(max_size=3), DOCS, max_size=5),
+       st.dictionaries(st.text(max_size=3), DOCS, max_size=2))
+def test_a_mapping_made_item_by_item_writes_the_dict_s_bytes(items, rest):
+    """A LazyMapping in a document is written item by item, the bytes of the dict it
+    stands for (empty included), and is equal to it."""
+    from thermoledger.core.lazy import LazyMapping
+
+    lazy = LazyMapping(lambda: iter(items.items()), len(items))
+    assert lazy == items and dict(lazy.items()) == items and list(lazy) == list(items)
+    doc = {**rest, "m": items, "n": [1]}
+    assert b"".join(document.json_chunks({**doc, "m": lazy})) == \
+        b"".join(document.json_chunks(doc))
+    if items:
+        wrong = LazyMapping(lambda: iter(items.items()), len(items) + 1)
+        with pytest.raises(OutputError, match="counted"):
+            b"".join(document.json_chunks({**doc, "m": wrong}))

@@ -14,7 +14,7 @@ import math
 from .. import __version__
 from ..core import constants, schemas
 from ..core.errors import OutputError
-from ..core.lazy import Derived, LazyList
+from ..core.lazy import Derived, LazyList, LazyMapping
 from ..library import budget
 from ..library.entries import Entries, compact
 
@@ -243,34 +243,47 @@ def json_bytes(doc) -> bytes:
 
 def json_chunks(doc):
     """The bytes of ``json_bytes(doc)`` in pieces: the items of a top-level list (the
-    species of a library) one at a time, so that a large document is never held as one
-    string. orjson writes NaN or an infinity as null, so each piece must read back as what
-    was written (a null never equals a number); where one does not (such a number, or a
-    tuple written as a list), ``non_finite`` decides, and a NaN or infinity is refused
-    (OutputError naming where) before its piece is given out."""
+    species of a library) or LazyMapping (core.lazy) one at a time, so that a large
+    document is never held as one string. orjson writes NaN or an infinity as null, so
+    each piece must read back as what was written (a null never equals a number); where one
+    does not (such a number, or a tuple written as a list), ``non_finite`` decides, and a
+    NaN or infinity is refused (OutputError naming where) before its piece is given out."""
     import orjson
 
     indent = orjson.OPT_INDENT_2
-    lists = {k: v for k, v in doc.items() if isinstance(v, (list, LazyList)) and len(v)} \
-        if isinstance(doc, dict) else {}
+    lists = {k: v for k, v in doc.items() if isinstance(v, (list, LazyList, LazyMapping))
+             and len(v)} if isinstance(doc, dict) else {}
     marks = {k: f"\0thermoledger-list-{i}\0" for i, k in enumerate(lists)}
-    head = {k: marks.get(k, [] if isinstance(v, LazyList) else v) for k, v in doc.items()} \
-        if isinstance(doc, dict) else doc       # (LazyLists not marked are empty)
+    head = {k: marks.get(k, _made(v)) for k, v in doc.items()} \
+        if isinstance(doc, dict) else doc       # (lazy values not marked are empty)
     _written_as_read(head, "")
     text = orjson.dumps(head, option=indent | orjson.OPT_APPEND_NEWLINE)
     if any(text.count(orjson.dumps(m)) != 1 for m in marks.values()):
         lists = {}                  # a value of the document is a mark: written whole
-        doc = {k: list(v) if isinstance(v, LazyList) else v for k, v in doc.items()}
+        doc = {k: _made(v) for k, v in doc.items()}
         _written_as_read(doc, "")
         text = orjson.dumps(doc, option=indent | orjson.OPT_APPEND_NEWLINE)
     for key, items in lists.items():
         before, text = text.split(orjson.dumps(marks[key]), 1)
-        yield before + b"[\n"
-        for i, item in enumerate(items):
-            _written_as_read(item, f"/{key}/{i}")
-            sep = b",\n" if i + 1 < len(items) else b"\n  ]"
-            yield b"    " + orjson.dumps(item, option=indent).replace(b"\n", b"\n    ") + sep
+        pairs = isinstance(items, LazyMapping)
+        yield before + (b"{\n" if pairs else b"[\n")
+        n, i = len(items), -1
+        for i, item in enumerate(items.items() if pairs else items):
+            name, value = item if pairs else (None, item)
+            _written_as_read(value, f"/{key}/{name if pairs else i}")
+            sep = b",\n" if i + 1 < n else (b"\n  }" if pairs else b"\n  ]")
+            yield b"    " + (orjson.dumps(name) + b": " if pairs else b"") + \
+                orjson.dumps(value, option=indent).replace(b"\n", b"\n    ") + sep
+        if i + 1 != n:
+            raise OutputError(f"/{key} gave {i + 1} items where it counted {n}")
     yield text
+
+
+def _made(value):
+    """``value``, a LazyList or LazyMapping made whole (a list, a dict)."""
+    if isinstance(value, LazyList):
+        return list(value)
+    return dict(value.items()) if isinstance(value, LazyMapping) else value
 
 
 def _written_as_read(piece, path: str) -> None:

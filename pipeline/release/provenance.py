@@ -17,9 +17,10 @@ Only the standards' vocabulary is theirs; every other name is our own.
 
 import importlib.metadata as md
 import re
+from collections import Counter
 
 from .. import __version__
-from ..core.lazy import Derived
+from ..core.lazy import Derived, LazyMapping
 from ..core.names import file_stem, safe_name
 from . import document
 from .publish import manifest_outputs
@@ -120,43 +121,67 @@ def datapackage(outputs, sources, notice: str) -> dict:
 
 def prov_document(fitted, inputs, outputs) -> dict:
     """PROV-JSON: raw files and species as entities, the build and each fit as activities;
-    ``outputs`` [(path, sha256, size)] of the files written before it."""
+    ``outputs`` [(path, sha256, size)] of the files written before it. The entities, the
+    activities and each kind of relation are core.lazy.LazyMappings, made item by item as
+    they are written (at 100 000 species, some 600 000 relations)."""
     agent = f"tl:thermoledger-{__version__}"
-    doc = {"prefix": {"tl": "https://thermoledger.invalid/ns#",
-                      "raw": "https://thermoledger.invalid/raw/",
-                      "out": "https://thermoledger.invalid/curated/"},
-           "entity": {}, "activity": {}, "agent": {agent: {"prov:type": "prov:SoftwareAgent"}},
-           "used": {}, "wasGeneratedBy": {}, "wasDerivedFrom": {}, "wasAssociatedWith": {}}
-    ent, n = doc["entity"], [0]
-
-    def rel(kind, body):
-        n[0] += 1
-        doc[kind][f"_:r{n[0]}"] = body
-
+    fitted = sorted(fitted, key=lambda s: s.table.meta.species_id)
     raw_id = {f.path: "raw:" + safe_name(f.path) for f in inputs}
+    files = {}                      # raw files and outputs (two paths may share an id)
     for f in inputs:
-        ent[raw_id[f.path]] = {"prov:type": "tl:RawFile", "tl:path": f.path, "tl:sha256": f.sha256}
-    doc["activity"]["tl:build"] = {"prov:type": "tl:Build"}
-    rel("wasAssociatedWith", {"prov:activity": "tl:build", "prov:agent": agent})
+        files[raw_id[f.path]] = {"prov:type": "tl:RawFile", "tl:path": f.path,
+                                 "tl:sha256": f.sha256}
+    outputs = list(outputs)
     for path, digest, _ in outputs:
-        oid = "out:" + safe_name(path)
-        ent[oid] = {"prov:type": "tl:Output", "tl:path": path, "tl:sha256": digest}
-        rel("wasGeneratedBy", {"prov:entity": oid, "prov:activity": "tl:build"})
-    for sp in sorted(fitted, key=lambda s: s.table.meta.species_id):
+        files["out:" + safe_name(path)] = {"prov:type": "tl:Output", "tl:path": path,
+                                           "tl:sha256": digest}
+
+    def ids(sp) -> tuple:
         sid = file_stem(sp.table.meta.species_id)
-        eid, aid = f"tl:species-{sid}", f"tl:fit-{sid}"
-        ent[eid] = {"prov:type": "tl:FittedSpecies", "tl:id": sp.table.meta.species_id,
-                    "tl:form": sp.fit.form}
-        doc["activity"][aid] = {"prov:type": "tl:Fit"}
-        rel("wasGeneratedBy", {"prov:entity": eid, "prov:activity": aid})
-        rel("wasAssociatedWith", {"prov:activity": aid, "prov:agent": agent})
-        for u in sp.uses:
-            if u.rows and u.meta.file in raw_id:
-                rel("used", {"prov:activity": aid, "prov:entity": raw_id[u.meta.file]})
-                rel("wasDerivedFrom", {"prov:generatedEntity": eid,
-                                       "prov:usedEntity": raw_id[u.meta.file]})
-        rel("wasDerivedFrom", {"prov:generatedEntity": "out:library.json", "prov:usedEntity": eid})
-    return doc
+        return f"tl:species-{sid}", f"tl:fit-{sid}"
+
+    def relations():
+        """(kind, body) of every relation, in the order they are numbered."""
+        yield "wasAssociatedWith", {"prov:activity": "tl:build", "prov:agent": agent}
+        for path, _, _ in outputs:
+            yield "wasGeneratedBy", {"prov:entity": "out:" + safe_name(path),
+                                     "prov:activity": "tl:build"}
+        for sp in fitted:
+            eid, aid = ids(sp)
+            yield "wasGeneratedBy", {"prov:entity": eid, "prov:activity": aid}
+            yield "wasAssociatedWith", {"prov:activity": aid, "prov:agent": agent}
+            for u in sp.uses:
+                if u.rows and u.meta.file in raw_id:
+                    yield "used", {"prov:activity": aid, "prov:entity": raw_id[u.meta.file]}
+                    yield "wasDerivedFrom", {"prov:generatedEntity": eid,
+                                             "prov:usedEntity": raw_id[u.meta.file]}
+            yield "wasDerivedFrom", {"prov:generatedEntity": "out:library.json",
+                                     "prov:usedEntity": eid}
+
+    def entities():
+        yield from files.items()
+        for sp in fitted:
+            yield ids(sp)[0], {"prov:type": "tl:FittedSpecies", "tl:id": sp.table.meta.species_id,
+                               "tl:form": sp.fit.form}
+
+    def activities():
+        yield "tl:build", {"prov:type": "tl:Build"}
+        for sp in fitted:
+            yield ids(sp)[1], {"prov:type": "tl:Fit"}
+
+    def of_kind(kind):
+        return lambda: ((f"_:r{n}", body) for n, (k, body) in enumerate(relations(), 1)
+                        if k == kind)
+
+    counts = Counter(kind for kind, _ in relations())
+    return {"prefix": {"tl": "https://thermoledger.invalid/ns#",
+                       "raw": "https://thermoledger.invalid/raw/",
+                       "out": "https://thermoledger.invalid/curated/"},
+            "entity": LazyMapping(entities, len(files) + len(fitted)),
+            "activity": LazyMapping(activities, 1 + len(fitted)),
+            "agent": {agent: {"prov:type": "prov:SoftwareAgent"}},
+            **{kind: LazyMapping(of_kind(kind), counts[kind]) for kind in (
+                "used", "wasGeneratedBy", "wasDerivedFrom", "wasAssociatedWith")}}
 
 
 def verify_release(folder) -> list:

@@ -21,9 +21,9 @@ from ..library.tables import COLUMNS, FLAGS, HEADERS, TEXT, UNITS, species_rows,
 DANGEROUS = ("=", "+", "-", "@", "\t", "\r")
 
 
-#: rows per row group of tables.parquet: pyarrow's largest by default, the groups one
-#: write of the whole table gives (so the file is the same, made a group at a time)
-ROW_GROUP = 1024 * 1024
+#: rows per row group of tables.parquet (as library.parquet's), each made and written in
+#: turn: a group of pyarrow's default 1 Mi rows held some 250 MB of columns at once
+ROW_GROUP = 64 * 1024
 
 
 def tables_parquet_bytes(doc, step=100.0, points=None, own=None) -> bytes:

@@ -13,8 +13,6 @@ import pickle
 import tempfile
 from collections.abc import Mapping
 
-import numpy as np
-
 
 class Spill:
     """An append-only unnamed file of bytes, read back by (offset, size)."""
@@ -25,7 +23,7 @@ class Spill:
         self._end = 0
 
     def put(self, data) -> tuple:
-        """(offset, size) of ``data`` (bytes or a contiguous array) written at the end."""
+        """(offset, size) of ``data`` (bytes, or any contiguous buffer) written at the end."""
         view = memoryview(data).cast("B")
         offset, done = self._end, 0
         while done < len(view):
@@ -40,43 +38,12 @@ class Spill:
             raise OSError(f"the build's scratch file ends before byte {offset + size}")
         return data
 
-    def put_array(self, values) -> "SpilledArray":
-        """A 1-D array written, as a SpilledArray that reads slices of it back."""
-        a = np.ascontiguousarray(values)
-        if a.ndim != 1:
-            raise ValueError("only 1-D arrays are spilled")
-        offset, _ = self.put(a)
-        return SpilledArray(self, offset, a.dtype, len(a))
-
     def put_object(self, obj) -> tuple:
         """(offset, size) of ``obj`` pickled (read back by SpilledObjects)."""
         return self.put(pickle.dumps(obj, protocol=pickle.HIGHEST_PROTOCOL))
 
     def close(self) -> None:
         self._file.close()
-
-
-class SpilledArray:
-    """A 1-D array held in a Spill: ``a[i:j]`` reads those items back (a step of 1 only)."""
-
-    __slots__ = ("spill", "offset", "dtype", "size")
-
-    def __init__(self, spill: Spill, offset: int, dtype, size: int):
-        self.spill, self.offset, self.dtype, self.size = spill, offset, np.dtype(dtype), size
-
-    def __len__(self) -> int:
-        return self.size
-
-    def __getitem__(self, where: slice) -> np.ndarray:
-        if not isinstance(where, slice):
-            raise TypeError("a SpilledArray is read by slices")
-        start, stop, step = where.indices(self.size)
-        if step != 1:
-            raise ValueError("a SpilledArray is read with a step of 1")
-        n = max(stop - start, 0)
-        width = self.dtype.itemsize
-        data = self.spill.get(self.offset + start * width, n * width) if n else b""
-        return np.frombuffer(data, dtype=self.dtype).copy() if n else np.zeros(0, self.dtype)
 
 
 class SpilledObjects(Mapping):

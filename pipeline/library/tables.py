@@ -108,16 +108,25 @@ def pack_rows(rows_by_id: dict) -> dict:
 
 
 def spill_rows(block: dict, spill) -> dict:
-    """A ``pack_rows`` block with its numeric columns written to ``spill`` (core.spill.Spill)
-    and read back a species at a time (core.spill.SpilledArray)."""
-    return {**block, "columns": {c: spill.put_array(v) for c, v in block["columns"].items()}}
+    """A ``pack_rows`` block with its numeric columns written to ``spill`` (core.spill.Spill):
+    each species' rows one record, all its columns after one another, read back at once;
+    only the columns' dtypes and each record's (offset, size) are held."""
+    cols = block["columns"]
+    ends = block["ends"].tolist()
+    where = []
+    for k in range(len(ends)):
+        start = ends[k - 1] if k else 0
+        where.append(spill.put(b"".join(np.ascontiguousarray(v[start:ends[k]]).tobytes()
+                                        for v in cols.values())))
+    return {**block, "columns": {c: v.dtype for c, v in cols.items()}, "spill": spill,
+            "spilled": where}
 
 
 class PackedRows(Mapping):
     """{species id: its own_rows} of ``pack_rows`` blocks, each species' rows made when they
-    are asked for (numeric columns are views of the block's): a build holds its evaluated
-    tables packed until they are written (all unpacked at once, some 2 KB of small objects
-    per species)."""
+    are asked for (numeric columns are views of the block's, or read from the spill of a
+    ``spill_rows`` block): a build holds its evaluated tables packed until they are written
+    (all unpacked at once, some 2 KB of small objects per species)."""
 
     def __init__(self, blocks):
         self._blocks = tuple(blocks)
@@ -129,8 +138,14 @@ class PackedRows(Mapping):
         block = self._blocks[b]
         start, end = (int(block["ends"][k - 1]) if k else 0), int(block["ends"][k])
         phase = block["phases"][k]
-        return {"id": [sid] * (end - start), "phase": [phase] * (end - start),
-                **{c: v[start:end] for c, v in block["columns"].items()}}   # COLUMNS order
+        rows = {"id": [sid] * (end - start), "phase": [phase] * (end - start)}
+        if "spilled" not in block:
+            return {**rows, **{c: v[start:end] for c, v in block["columns"].items()}}
+        record, at, n = block["spill"].get(*block["spilled"][k]), 0, end - start
+        for c, dtype in block["columns"].items():       # COLUMNS order
+            rows[c] = np.frombuffer(record, dtype=dtype, count=n, offset=at)
+            at += n * dtype.itemsize
+        return rows
 
     def __iter__(self):
         return iter(self._where)

@@ -254,7 +254,7 @@ def json_chunks(doc):
     lists = {k: v for k, v in doc.items() if isinstance(v, (list, LazyList, LazyMapping))
              and len(v)} if isinstance(doc, dict) else {}
     marks = {k: f"\0thermoledger-list-{i}\0" for i, k in enumerate(lists)}
-    head = {k: marks.get(k, _made(v)) for k, v in doc.items()} \
+    head = {k: marks[k] if k in marks else _made(v) for k, v in doc.items()} \
         if isinstance(doc, dict) else doc       # (lazy values not marked are empty)
     _written_as_read(head, "")
     text = orjson.dumps(head, option=indent | orjson.OPT_APPEND_NEWLINE)

@@ -214,3 +214,16 @@ def test_writing_a_library_decodes_each_entry_once_and_one_at_a_time(monkeypatch
         written.append(len(decoded))
     assert len(decoded) == 50
     assert written == sorted(written) and written[0] == 0     # none made before writing
+
+
+def test_formulas_are_given_or_read_from_the_entries():
+    from thermoledger.library.entries import formulas_of
+
+    entries = [{"id": "CO2(g)", "formula": "CO2"}, {"id": "Ti(l)", "formula": "Ti"}]
+    want = {"CO2(g)": "CO2", "Ti(l)": "Ti"}
+    assert formulas_of({"species": entries}) == want
+    assert formulas_of({"species": Entries.of(entries)}) == want
+    given = Entries(((e["id"], orjson.dumps(e)) for e in entries), formulas=["CO2", "Ti"])
+    assert formulas_of({"species": given}) == want
+    with pytest.raises(ValueError, match="1 formulas for 2 entries"):
+        Entries(((e["id"], orjson.dumps(e)) for e in entries), formulas=["CO2"])

@@ -269,3 +269,67 @@ def test_a_release_is_checked_against_the_outputs_its_manifest_lists_read_in_any
         provenance.verify_release(folder)
     path.write_bytes(b'{\n  "manifest_format": 1,\n  "outputs": [\n    {"path": ')
     assert provenance.verify_release(folder)[0].startswith("manifest.json cannot be read")
+
+
+def _prov_made_whole(fitted, inputs, outputs) -> dict:
+    """provenance.json as one dict, every relation numbered in the order of the PROV
+    document: the build's agent, each output's generation, then per species (by id) its
+    generation and agent, a used and a derived-from per raw file it used, and its place in
+    library.json (the definition the lazily made document must follow)."""
+    from thermoledger.core.names import file_stem, safe_name
+
+    agent = f"tl:thermoledger-{provenance.__version__}"
+    doc = {"entity": {}, "activity": {}, "used": {}, "wasGeneratedBy": {},
+           "wasDerivedFrom": {}, "wasAssociatedWith": {}}
+    n = [0]
+
+    def rel(kind, body):
+        n[0] += 1
+        doc[kind][f"_:r{n[0]}"] = body
+
+    raw_id = {f.path: "raw:" + safe_name(f.path) for f in inputs}
+    for f in inputs:
+        doc["entity"][raw_id[f.path]] = {"prov:type": "tl:RawFile", "tl:path": f.path,
+                                         "tl:sha256": f.sha256}
+    doc["activity"]["tl:build"] = {"prov:type": "tl:Build"}
+    rel("wasAssociatedWith", {"prov:activity": "tl:build", "prov:agent": agent})
+    for path, digest, _ in outputs:
+        oid = "out:" + safe_name(path)
+        doc["entity"][oid] = {"prov:type": "tl:Output", "tl:path": path, "tl:sha256": digest}
+        rel("wasGeneratedBy", {"prov:entity": oid, "prov:activity": "tl:build"})
+    for sp in sorted(fitted, key=lambda s: s.table.meta.species_id):
+        sid = file_stem(sp.table.meta.species_id)
+        eid, aid = f"tl:species-{sid}", f"tl:fit-{sid}"
+        doc["entity"][eid] = {"prov:type": "tl:FittedSpecies",
+                              "tl:id": sp.table.meta.species_id, "tl:form": sp.fit.form}
+        doc["activity"][aid] = {"prov:type": "tl:Fit"}
+        rel("wasGeneratedBy", {"prov:entity": eid, "prov:activity": aid})
+        rel("wasAssociatedWith", {"prov:activity": aid, "prov:agent": agent})
+        for u in sp.uses:
+            if u.rows and u.meta.file in raw_id:
+                rel("used", {"prov:activity": aid, "prov:entity": raw_id[u.meta.file]})
+                rel("wasDerivedFrom", {"prov:generatedEntity": eid,
+                                       "prov:usedEntity": raw_id[u.meta.file]})
+        rel("wasDerivedFrom", {"prov:generatedEntity": "out:library.json", "prov:usedEntity": eid})
+    return doc
+
+
+@given(st.lists(st.lists(st.tuples(st.integers(0, 3), st.sampled_from(["a/x.csv", "a/y.csv",
+                                                                       "b/x.csv", "c/z.csv"])),
+                         max_size=3), max_size=6),
+       st.lists(st.sampled_from(["library.json", "lib rary.json", "lib_rary.json", "t.parquet"]),
+                max_size=4))
+def test_provenance_made_item_by_item_numbers_its_relations_as_the_document_does(uses, outs):
+    """The lazily made PROV document (entities, activities, each kind of relation written
+    as it is made) is, item for item and in order, the document made whole."""
+    from types import SimpleNamespace as NS
+
+    inputs = [NS(path=p, sha256=p * 2) for p in ("a/x.csv", "a/y.csv", "b/x.csv")]
+    fitted = [NS(table=NS(meta=NS(species_id=f"S{k}(g)")), fit=NS(form="nasa7"),
+                 uses=[NS(rows=r, meta=NS(file=f)) for r, f in u]) for k, u in enumerate(uses)]
+    outputs = [(p, "0" * 64, 1) for p in outs]
+    made = provenance.prov_document(list(reversed(fitted)), inputs, outputs)
+    whole = _prov_made_whole(fitted, inputs, outputs)
+    for kind, items in whole.items():
+        assert list(made[kind].items()) == list(items.items()), kind
+        assert len(made[kind]) == len(items)

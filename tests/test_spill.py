@@ -68,6 +68,7 @@ def test_a_build_holds_its_entries_in_a_scratch_file_that_leaves_nothing(tmp_pat
     assert species._spill is not None and all(isinstance(b, tuple) for b in species._blobs)
     written = orjson.loads((out / "current" / "library.json").read_bytes())
     assert species == written["species"]
+    assert species.formulas() == {e["id"]: e["formula"] for e in written["species"]}
     for p in out.iterdir():
         assert p.name in {"current", "releases", ".parts", ".lock"} or \
             (p.is_symlink() and os.readlink(p) == f"current/{p.name}")

@@ -36,16 +36,23 @@ class Entries(LazyList):
     give a fresh dict each time: changing it changes nothing held until it is put back
     (``entries[i] = entry``, into the spill when there is one)."""
 
-    __slots__ = ("_blobs", "_ids", "_index", "_spill")
+    __slots__ = ("_blobs", "_ids", "_index", "_spill", "_formulas")
 
-    def __init__(self, pairs=(), spill=None):
+    #: its items are read from JSON: each reads back as itself when written again
+    from_json = True
+
+    def __init__(self, pairs=(), spill=None, formulas=None):
         """``pairs``: (species id, compact JSON bytes of its entry, or its (offset, size) in
-        ``spill``), in the document's order."""
+        ``spill``), in the document's order; ``formulas`` the entries' formulas, in the same
+        order, when known (``formulas`` then needs no entry decoded)."""
         self._ids, self._blobs = [], []
         for sid, blob in pairs:
             self._ids.append(sid)
             self._blobs.append(blob)
         self._index, self._spill = None, spill
+        self._formulas = list(formulas) if formulas is not None else None
+        if self._formulas is not None and len(self._formulas) != len(self._ids):
+            raise ValueError(f"{len(self._formulas)} formulas for {len(self._ids)} entries")
 
     @classmethod
     def of(cls, entries) -> "Entries":
@@ -77,6 +84,13 @@ class Entries(LazyList):
     def ids(self) -> list:
         """The species ids, in order (nothing decoded)."""
         return list(self._ids)
+
+    def formulas(self) -> dict:
+        """{species id: formula}, decoding the entries only when their formulas were not
+        given."""
+        if self._formulas is None:
+            return {e["id"]: e["formula"] for e in self}
+        return dict(zip(self._ids, self._formulas))
 
     def position(self, sid: str) -> int:
         """The index of entry ``sid`` (KeyError when there is none)."""
@@ -136,3 +150,12 @@ def ids_of(species) -> list:
     if isinstance(species, Entries):
         return species.ids()
     return [s["id"] for s in species]
+
+
+def formulas_of(doc: dict) -> dict:
+    """{species id: formula} of library document ``doc`` (of Entries, without decoding them
+    when they know their formulas)."""
+    species = doc["species"]
+    if isinstance(species, Entries):
+        return species.formulas()
+    return {s["id"]: s["formula"] for s in species}

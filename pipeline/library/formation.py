@@ -15,6 +15,7 @@ import numpy as np
 
 from ..core.constants import GAS_CONSTANT as R
 from . import budget, references
+from .entries import formulas_of
 
 #: the columns ``Formation.at`` returns: values and standard uncertainties
 COLUMNS = ("dfH", "u_dfH", "dfG", "u_dfG", "log10Kf", "u_log10Kf")
@@ -27,6 +28,7 @@ class Formation:
     def __init__(self, doc: dict, budgets: budget.Budgets | None = None):
         self.doc = doc
         self.budgets = budgets or budget.Budgets(doc)
+        self.formulas = formulas_of(doc)
         states = doc.get("reference_states")
         if states is None:
             states = references.resolve(doc)
@@ -35,7 +37,7 @@ class Formation:
     def missing(self, sid: str) -> list:
         """The reasons species ``sid`` has no formation properties: each of its elements
         without a usable reference state, or its charge (empty when it has them)."""
-        formula = self.budgets.by_id[sid]["formula"]
+        formula = self.formulas[sid]
         if references.charge_of(formula):
             return [f"{formula} is charged: formation properties of ions need a convention "
                     "for the electron that thermoledger does not assume"]
@@ -72,7 +74,7 @@ class Formation:
         total = {"h": own.h.copy(), "s": own.s.copy(), "parts": [(1.0, own.shares)],
                  "extrapolated": np.zeros(len(t), dtype=bool)}
         gone = np.zeros(len(t), dtype=bool)
-        for el, n in references.elements_of(self.budgets.by_id[sid]["formula"]):
+        for el, n in references.elements_of(self.formulas[sid]):
             st = self.states[el]
             ids = references.stable_ids(self.doc, st, t)
             gone |= np.array([i is None for i in ids])

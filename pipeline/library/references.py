@@ -15,6 +15,7 @@ from ..core.limits import REFERENCE_H_TOLERANCE
 from ..core.names import species_name
 from . import document
 from .entries import by_id as entries_by_id
+from .entries import formulas_of
 
 
 def elements_of(formula: str) -> tuple:
@@ -38,7 +39,7 @@ def resolve(doc: dict, declared: dict | None = None) -> list:
     id, origin); the default reference (core/elements.py) fills the rest."""
     declared = declared or {}
     by_id = entries_by_id(doc)
-    elements = sorted({e for s in doc["species"] for e, _ in elements_of(s["formula"])}
+    elements = sorted({e for f in formulas_of(doc).values() for e, _ in elements_of(f)}
                       | set(declared))
     out = []
     for el in elements:

@@ -164,11 +164,12 @@ def library_document(fitted, quarantined, inputs_sha256: str, settings: dict,
     """
     entries = entries or {}
     ids = {s.table.meta.species_id for s in fitted}
+    ordered = sorted(fitted, key=lambda s: s.table.meta.species_id)
     made = [(s.table.meta.species_id, entries.get(s.table.meta.species_id) or species_entry(s))
-            for s in sorted(fitted, key=lambda s: s.table.meta.species_id)]
-    if any(not isinstance(e, dict) for _, e in made):
+            for s in ordered]
+    if any(not isinstance(e, dict) for _, e in made):     # (an entry's formula is its table's)
         species = Entries(((sid, compact(e) if isinstance(e, dict) else e) for sid, e in made),
-                          spill)
+                          spill, [s.table.meta.formula for s in ordered])
     else:
         species = [e for _, e in made]
     return {
@@ -270,7 +271,8 @@ def json_chunks(doc):
         n, i = len(items), -1
         for i, item in enumerate(items.items() if pairs else items):
             name, value = item if pairs else (None, item)
-            _written_as_read(value, f"/{key}/{name if pairs else i}")
+            if not getattr(items, "from_json", False):
+                _written_as_read(value, f"/{key}/{name if pairs else i}")
             sep = b",\n" if i + 1 < n else (b"\n  }" if pairs else b"\n  ]")
             yield b"    " + (orjson.dumps(name) + b": " if pairs else b"") + \
                 orjson.dumps(value, option=indent).replace(b"\n", b"\n    ") + sep

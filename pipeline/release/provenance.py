@@ -17,7 +17,7 @@ Only the standards' vocabulary is theirs; every other name is our own.
 
 import importlib.metadata as md
 import re
-from collections import Counter
+from functools import partial
 
 from .. import __version__
 from ..core.lazy import Derived, LazyMapping
@@ -136,51 +136,62 @@ def prov_document(fitted, inputs, outputs) -> dict:
         files["out:" + safe_name(path)] = {"prov:type": "tl:Output", "tl:path": path,
                                            "tl:sha256": digest}
 
-    def ids(sp) -> tuple:
-        sid = file_stem(sp.table.meta.species_id)
-        return f"tl:species-{sid}", f"tl:fit-{sid}"
+    stems = [file_stem(sp.table.meta.species_id) for sp in fitted]
+    used = [[raw_id[u.meta.file] for u in sp.uses if u.rows and u.meta.file in raw_id]
+            for sp in fitted]
+    # every relation has a number, counted over all kinds in the order: the build's agent,
+    # each output's generation, then per species its generation, agent, (used, derived
+    # from) per raw file used and its place in library.json: 3 + 2 per file
+    first = [2 + len(outputs)]
+    for files_used in used[:-1]:
+        first.append(first[-1] + 3 + 2 * len(files_used))
 
-    def relations():
-        """(kind, body) of every relation, in the order they are numbered."""
-        yield "wasAssociatedWith", {"prov:activity": "tl:build", "prov:agent": agent}
-        for path, _, _ in outputs:
-            yield "wasGeneratedBy", {"prov:entity": "out:" + safe_name(path),
-                                     "prov:activity": "tl:build"}
-        for sp in fitted:
-            eid, aid = ids(sp)
-            yield "wasGeneratedBy", {"prov:entity": eid, "prov:activity": aid}
-            yield "wasAssociatedWith", {"prov:activity": aid, "prov:agent": agent}
-            for u in sp.uses:
-                if u.rows and u.meta.file in raw_id:
-                    yield "used", {"prov:activity": aid, "prov:entity": raw_id[u.meta.file]}
-                    yield "wasDerivedFrom", {"prov:generatedEntity": eid,
-                                             "prov:usedEntity": raw_id[u.meta.file]}
-            yield "wasDerivedFrom", {"prov:generatedEntity": "out:library.json",
-                                     "prov:usedEntity": eid}
+    def relations(kind):
+        """(key, body) of every relation of ``kind``, in the order they are numbered."""
+        if kind == "wasAssociatedWith":
+            yield "_:r1", {"prov:activity": "tl:build", "prov:agent": agent}
+        if kind == "wasGeneratedBy":
+            for n, (path, _, _) in enumerate(outputs, 2):
+                yield f"_:r{n}", {"prov:entity": "out:" + safe_name(path),
+                                  "prov:activity": "tl:build"}
+        for n, stem, files_used in zip(first, stems, used):
+            eid, aid = f"tl:species-{stem}", f"tl:fit-{stem}"
+            if kind == "wasGeneratedBy":
+                yield f"_:r{n}", {"prov:entity": eid, "prov:activity": aid}
+            elif kind == "wasAssociatedWith":
+                yield f"_:r{n + 1}", {"prov:activity": aid, "prov:agent": agent}
+            for j, rid in enumerate(files_used):
+                if kind == "used":
+                    yield f"_:r{n + 2 + 2 * j}", {"prov:activity": aid, "prov:entity": rid}
+                elif kind == "wasDerivedFrom":
+                    yield f"_:r{n + 3 + 2 * j}", {"prov:generatedEntity": eid,
+                                                  "prov:usedEntity": rid}
+            if kind == "wasDerivedFrom":
+                yield f"_:r{n + 2 + 2 * len(files_used)}", {
+                    "prov:generatedEntity": "out:library.json", "prov:usedEntity": eid}
 
     def entities():
         yield from files.items()
-        for sp in fitted:
-            yield ids(sp)[0], {"prov:type": "tl:FittedSpecies", "tl:id": sp.table.meta.species_id,
-                               "tl:form": sp.fit.form}
+        for sp, stem in zip(fitted, stems):
+            yield f"tl:species-{stem}", {"prov:type": "tl:FittedSpecies",
+                                         "tl:id": sp.table.meta.species_id,
+                                         "tl:form": sp.fit.form}
 
     def activities():
         yield "tl:build", {"prov:type": "tl:Build"}
-        for sp in fitted:
-            yield ids(sp)[1], {"prov:type": "tl:Fit"}
+        for stem in stems:
+            yield f"tl:fit-{stem}", {"prov:type": "tl:Fit"}
 
-    def of_kind(kind):
-        return lambda: ((f"_:r{n}", body) for n, (k, body) in enumerate(relations(), 1)
-                        if k == kind)
-
-    counts = Counter(kind for kind, _ in relations())
+    n_used = sum(len(u) for u in used)
+    counts = {"used": n_used, "wasGeneratedBy": len(outputs) + len(fitted),
+              "wasDerivedFrom": n_used + len(fitted), "wasAssociatedWith": 1 + len(fitted)}
     return {"prefix": {"tl": "https://thermoledger.invalid/ns#",
                        "raw": "https://thermoledger.invalid/raw/",
                        "out": "https://thermoledger.invalid/curated/"},
             "entity": LazyMapping(entities, len(files) + len(fitted)),
             "activity": LazyMapping(activities, 1 + len(fitted)),
             "agent": {agent: {"prov:type": "prov:SoftwareAgent"}},
-            **{kind: LazyMapping(of_kind(kind), counts[kind]) for kind in (
+            **{kind: LazyMapping(partial(relations, kind), counts[kind]) for kind in (
                 "used", "wasGeneratedBy", "wasDerivedFrom", "wasAssociatedWith")}}
 
 

@@ -330,8 +330,8 @@ def _build_part(raw_dir, ctx: Settings, previous: dict, say, part) -> partitions
     and evaluate its species' tables (all but the formation properties, which need the
     reference species of every partition); the tables go on without their rows (what
     follows needs their metadata only), the library entries as compact JSON
-    (library.entries: 4.9 instead of 11.8 KB per species, held until the release is
-    written)."""
+    (library.entries: 4.9 instead of 11.8 KB per species, put in the build's scratch file
+    by ``_held``)."""
     checked = examine_part(raw_dir, ctx, part)
     fitted, quarantined, findings, entries = _fit_all(checked, ctx, say, previous)
     points = assemble.plot_points(entries.values(), checked)   # whatever the outputs
@@ -415,8 +415,7 @@ def _build_into(files, raw_dir, out_dir, ctx: Settings, say, previous: dict, cut
     checked, fitted, entries = done.checked, list(done.fitted), dict(done.entries)
     quarantined, findings = list(done.quarantined), list(done.findings)
     points, rows = SpilledObjects(spill, dict(done.points)), done.rows
-    del done        # from here on each entry is held by the library document alone: the
-    #                 entries formation.attach writes anew free their first bytes
+    del done        # the partitions' results are not needed whole from here on
     digest = ingest.inputs_digest(checked.inputs)
     doc = release_document.library_document(fitted, quarantined, digest, ctx.to_dict(), entries,
                                             checked.chains, spill)

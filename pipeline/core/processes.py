@@ -66,15 +66,3 @@ def without_collector(work, *args):
     picklable wrapper for work sent to worker processes."""
     with collector_paused():
         return work(*args)
-
-
-def give_back_memory() -> None:
-    """Return the free pages of this process's heap to the system (glibc's malloc_trim; a
-    no-op elsewhere): some 0.2 ms, 3 ms when it returns 50 MB. A large build frees blocks
-    it cannot reuse as they are (release/formation.attach)."""
-    import ctypes
-
-    try:
-        ctypes.CDLL(None).malloc_trim(0)
-    except (OSError, AttributeError):
-        pass

@@ -18,7 +18,6 @@ import numpy as np
 from ..core.constants import GAS_CONSTANT as R
 from ..core.errors import InputError
 from ..core.findings import Finding, finding, stage_failed
-from ..core.processes import give_back_memory
 from ..library import document, references
 from ..library.entries import ids_of
 from ..library.formation import Formation
@@ -54,7 +53,6 @@ def attach(doc: dict, declared, tables, u_stated: float) -> list:
                 new[t.meta.species_id] += _cross_check(doc, form, t.meta, u_stated)
             except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
                 new[t.meta.species_id].append(stage_failed("formation", exc, **t.meta.where))
-    rewritten = 0
     for i, sid in enumerate(ids):
         if new[sid]:
             sp = species[i]        # of Entries, a copy: put back
@@ -62,17 +60,7 @@ def attach(doc: dict, declared, tables, u_stated: float) -> list:
             sp["findings"] = [f.to_dict() for f in sorted(merged, key=lambda f: f.sort_key())]
             species[i] = sp
             out += new[sid]
-            rewritten += 1
-            if rewritten % GIVE_BACK_EVERY == 0:
-                give_back_memory()
-    give_back_memory()
     return out
-
-
-#: entries written anew (each a little longer than the bytes it frees, which the heap
-#: cannot reuse for it) between two returns of the free heap to the system: at 100 000
-#: species, returned only at the end, the holes held some 500 MB at the peak
-GIVE_BACK_EVERY = 2048
 
 
 def _unclear(states, declared, metas) -> list:

@@ -54,19 +54,21 @@ def _compiled_part(name: str, key: str):
     return jsonschema_rs.Draft202012Validator(_part_schema(name, key), validate_formats=False)
 
 
+@lru_cache(maxsize=len(NAMES))
+def _validator_part(name: str, key: str):
+    from jsonschema import Draft202012Validator
+
+    return Draft202012Validator(_part_schema(name, key))
+
+
 def part_errors(name: str, key: str, items: list, offset: int = 0) -> list:
     """(path, message) of every way the items ``items`` of the top-level list ``key`` of a
     document of schemas/``name`` break it, those items being the list's items ``offset``
     onwards: the paths count in the whole list. A long list is so checked a part at a time,
-    never whole (the compiled validator first, jsonschema to explain, as ``errors_of``)."""
-    doc = {key: items}
-    if _compiled_part(name, key).is_valid(doc):
-        return []
-    from jsonschema import Draft202012Validator
-
+    never whole (as ``errors_of``: the compiled validator first, jsonschema to explain)."""
     out = []
-    for e in sorted(Draft202012Validator(_part_schema(name, key)).iter_errors(doc),
-                    key=lambda e: list(map(str, e.path))):
+    for e in _explained(_compiled_part(name, key), lambda: _validator_part(name, key),
+                        {key: items}):
         path = list(e.absolute_path)
         if len(path) > 1 and path[0] == key:
             path[1] += offset
@@ -83,6 +85,13 @@ def errors_of(doc, name: str) -> list:
     """Every way ``doc`` breaks schemas/``name``, sorted by the path of the offending field:
     the compiled validator passes a valid document at once; the errors of an invalid one come
     from the jsonschema package, whose messages name the field."""
-    if compiled(name).is_valid(doc):
+    return _explained(compiled(name), lambda: validator(name), doc)
+
+
+def _explained(fast, slow, doc) -> list:
+    """[] when the compiled validator ``fast`` passes ``doc``, else the errors of the
+    jsonschema validator ``slow()`` (made only then: reading a valid document loads no
+    jsonschema), sorted by the path of the offending field."""
+    if fast.is_valid(doc):
         return []
-    return sorted(validator(name).iter_errors(doc), key=lambda e: list(map(str, e.path)))
+    return sorted(slow().iter_errors(doc), key=lambda e: list(map(str, e.path)))

@@ -10,6 +10,7 @@ same inputs give byte-identical files.
 import io
 import json
 import math
+from operator import methodcaller
 
 from .. import __version__
 from ..core import constants, schemas
@@ -163,8 +164,8 @@ def library_document(fitted, quarantined, inputs_sha256: str, settings: dict,
     transitions between fitted phases are listed).
     """
     entries = entries or {}
-    ids = {s.table.meta.species_id for s in fitted}
     ordered = sorted(fitted, key=lambda s: s.table.meta.species_id)
+    ids = {s.table.meta.species_id for s in ordered}
     made = [(s.table.meta.species_id, entries.get(s.table.meta.species_id) or species_entry(s))
             for s in ordered]
     if any(not isinstance(e, dict) for _, e in made):     # (an entry's formula is its table's)
@@ -228,11 +229,7 @@ def findings_document(findings) -> dict:
               for s in ("error", "warning", "info")}
     counts["acknowledged"] = sum(1 for f in items if not f.counts)
     return {"findings_format": 1, "notice": NOTICE, "counts": counts,
-            "findings": Derived(items, _finding_dict)}
-
-
-def _finding_dict(f) -> dict:
-    return f.to_dict()
+            "findings": Derived(items, methodcaller("to_dict"))}
 
 
 def json_bytes(doc) -> bytes:

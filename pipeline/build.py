@@ -3,6 +3,7 @@ each stage's work, and its tests, live in its own sub-package."""
 
 import tempfile
 from array import array
+from collections.abc import Sequence
 from dataclasses import dataclass, replace
 from functools import partial
 from pathlib import Path
@@ -20,7 +21,7 @@ from .core.settings import Settings, for_table
 from .core.spill import Spill, SpilledObjects
 from .library import document as library
 from .library.entries import compact
-from .release import assemble, formation, provenance, publish
+from .release import assemble, formation, held, provenance, publish
 from .release import audit as audit_stage
 from .release import document as release_document
 
@@ -30,8 +31,10 @@ class BuildResult:
     """What a build produced: the fitted species, the tables held back, every finding, the
     library document and the release files (written or not)."""
 
-    fitted: tuple          # FittedSpecies, their fits without the numbers of their entries
-    #                        (``_lineage_only``: the entries in ``document`` hold them)
+    fitted: Sequence       # FittedSpecies in species-id order, their fits without the
+    #                        numbers of their entries (``_lineage_only``: the entries in
+    #                        ``document`` hold them), each read from the build's scratch
+    #                        file when asked for (release.held.HeldFitted)
     quarantined: tuple     # (TableMeta, findings)
     findings: tuple        # all findings
     document: dict         # library.json
@@ -329,18 +332,21 @@ def _build_part(raw_dir, ctx: Settings, previous: dict, say, part) -> partitions
     (also without a report, so that the result does not depend on the outputs asked for)
     and evaluate its species' tables (all but the formation properties, which need the
     reference species of every partition); the tables go on without their rows (what
-    follows needs their metadata only), the library entries as compact JSON
-    (library.entries: 4.9 instead of 11.8 KB per species, put in the build's scratch file
-    by ``_held``)."""
+    follows needs their metadata only), the library entries and the manifest's lineages as
+    compact JSON (library.entries: 4.9 instead of 11.8 KB per species) and the fitted
+    species as (release.held.Brief, pickle), put in the build's scratch file by ``_held``."""
     checked = examine_part(raw_dir, ctx, part)
     fitted, quarantined, findings, entries = _fit_all(checked, ctx, say, previous)
     points = assemble.plot_points(entries.values(), checked)   # whatever the outputs
     rows = assemble.evaluated_rows(entries, checked.chains, ctx.outputs.table_step)
     checked, fitted = _without_rows(checked, _lineage_only(fitted))
-    return partitions.PartResult(checked=checked, fitted=tuple(fitted),
-                                 quarantined=tuple(quarantined), findings=tuple(findings),
-                                 entries=tuple((sid, compact(e)) for sid, e in entries.items()),
-                                 points=tuple(points.items()), rows=(rows,))
+    return partitions.PartResult(
+        checked=checked, fitted=tuple((held.brief(sp), held.pickled(sp)) for sp in fitted),
+        lineages=tuple((sp.table.meta.species_id, compact(provenance.lineage(sp)))
+                       for sp in fitted),
+        quarantined=tuple(quarantined), findings=tuple(findings),
+        entries=tuple((sid, compact(e)) for sid, e in entries.items()),
+        points=tuple(points.items()), rows=(rows,))
 
 
 def _without_rows(checked: CheckResult, fitted) -> tuple:
@@ -376,14 +382,19 @@ def _lineage_only(fitted) -> list:
 
 
 def _held(spill, report: bool, result: partitions.PartResult) -> partitions.PartResult:
-    """A partition's result as the build holds it until its release is written: its library
-    entries, evaluated tables and report's plot points in the build's scratch file
-    (core.spill.Spill; some 9 KB per species, 14 with the plot points), only where they lie
-    held; without a report, no plot points. The partition kept for the next build has them
-    all."""
+    """A partition's result as the build holds it until its release is written: its fitted
+    species, their lineages, library entries, evaluated tables and report's plot points in
+    the build's scratch file (core.spill.Spill; some 14 KB per species, 19 with the plot
+    points), only where they lie held; without a report, no plot points; no selections
+    (what follows needs none). The partition kept for the next build has them all."""
     from .library.tables import spill_rows
 
-    return replace(result, entries=tuple((sid, spill.put(blob)) for sid, blob in result.entries),
+    def put(pairs):
+        return tuple((key, spill.put(blob)) for key, blob in pairs)
+
+    return replace(result, checked=replace(result.checked, selections=()),
+                   fitted=put(result.fitted), lineages=put(result.lineages),
+                   entries=put(result.entries),
                    rows=tuple(spill_rows(block, spill) for block in result.rows),
                    points=tuple((sid, spill.put_object(p)) for sid, p in result.points)
                    if report else ())
@@ -412,7 +423,8 @@ def _build_into(files, raw_dir, out_dir, ctx: Settings, say, previous: dict, cut
     done, reused = partitions.run(partial(_build_part, raw_dir, ctx, previous,
                                           say if cut.parts == 1 else _quiet), cut, say, store,
                                   keep=partial(_held, spill, ctx.outputs.report))
-    checked, fitted, entries = done.checked, list(done.fitted), dict(done.entries)
+    checked, entries = done.checked, dict(done.entries)
+    fitted = held.HeldFitted(spill, done.fitted, done.lineages)
     quarantined, findings = list(done.quarantined), list(done.findings)
     points, rows = SpilledObjects(spill, dict(done.points)), done.rows
     del done        # the partitions' results are not needed whole from here on
@@ -422,7 +434,7 @@ def _build_into(files, raw_dir, out_dir, ctx: Settings, say, previous: dict, cut
     del entries
     findings += formation.attach(doc, checked.references, checked.tables,
                                  ctx.checks.stated_formation_u)
-    outcome = assemble.Outcome(document=doc, findings=tuple(findings), fitted=tuple(fitted),
+    outcome = assemble.Outcome(document=doc, findings=tuple(findings), fitted=fitted,
                                quarantined=tuple(quarantined), checked=checked,
                                points=points, rows=rows)
     del points, rows
@@ -430,7 +442,7 @@ def _build_into(files, raw_dir, out_dir, ctx: Settings, say, previous: dict, cut
     say("publish", 0, 0, str(out_dir or ""))
     written = [] if out_dir is None else publish.publish(
         out_dir, files, check=_verify, on_swap=lambda: say("published"))
-    return BuildResult(fitted=tuple(fitted), quarantined=tuple(quarantined),
+    return BuildResult(fitted=fitted, quarantined=tuple(quarantined),
                        findings=tuple(findings), document=doc, written=tuple(written),
                        files=files, held_back=checked.held_back, inputs=checked.inputs,
                        reused=(reused, cut.parts))

@@ -67,7 +67,8 @@ class PartResult:
     """What one partition produced: its check result and, for a build, its fits."""
 
     checked: CheckResult
-    fitted: tuple = ()        # FittedSpecies
+    fitted: tuple = ()        # (release.held.Brief, FittedSpecies pickled) in species-id order
+    lineages: tuple = ()      # (species id, compact JSON of its manifest lineage), as fitted
     quarantined: tuple = ()   # (TableMeta, findings), after fitting
     findings: tuple = ()      # every finding, after fitting
     entries: tuple = ()       # (species id, compact JSON of its library entry)
@@ -142,8 +143,8 @@ def merge(parts) -> PartResult:
     fitted species by id)."""
     return PartResult(
         checked=merge_checks([p.checked for p in parts]),
-        fitted=tuple(sorted((s for p in parts for s in p.fitted),
-                            key=lambda s: s.table.meta.species_id)),
+        fitted=tuple(sorted((s for p in parts for s in p.fitted), key=lambda s: s[0].species_id)),
+        lineages=tuple(sorted((e for p in parts for e in p.lineages), key=lambda e: e[0])),
         quarantined=_merged_quarantined(p.quarantined for p in parts),
         findings=_merged_findings(p.findings for p in parts),
         entries=tuple(sorted((e for p in parts for e in p.entries), key=lambda e: e[0])),

@@ -108,9 +108,14 @@ def test_library_parquet_written_a_row_group_at_a_time_is_the_table_written_whol
         monkeypatch, demo_doc):
     """library.parquet is made and written a row group at a time: the bytes are those of
     the whole table written at once in groups of as many rows (pyarrow's own cut), with one
-    group, as before, up to LIBRARY_ROW_GROUP rows."""
+    group, as before, up to LIBRARY_ROW_GROUP rows; after each group what Arrow's allocator
+    freed is given back (release.arrowmem)."""
     import pyarrow as pa
     import pyarrow.parquet as pq
+    from thermoledger.release import arrowmem
+
+    given_back = []
+    monkeypatch.setattr(arrowmem, "give_back", lambda: given_back.append(1))
 
     rows = [r for sp in demo_doc["species"] for r in document._library_rows(sp)]
     kinds = {"string": pa.string(), "number": pa.float64(), "integer": pa.int32(),
@@ -128,9 +133,12 @@ def test_library_parquet_written_a_row_group_at_a_time_is_the_table_written_whol
     assert len(rows) > len(demo_doc["species"]) > 5
     for group in (document.LIBRARY_ROW_GROUP, 1, 3, len(rows), len(rows) - 1):
         monkeypatch.setattr(document, "LIBRARY_ROW_GROUP", group)
+        expected = whole(group)
+        given_back.clear()
         got = document.library_parquet_bytes(demo_doc)
-        assert got == whole(group)
-        assert pq.read_metadata(io.BytesIO(got)).num_row_groups == -(-len(rows) // group)
+        assert got == expected
+        assert pq.read_metadata(io.BytesIO(got)).num_row_groups == -(-len(rows) // group) \
+            == len(given_back)
     assert pq.read_table(io.BytesIO(got)).column("id").to_pylist() == [r["id"] for r in rows]
     empty = document.library_parquet_bytes({**demo_doc, "species": []})
     assert pq.read_metadata(io.BytesIO(empty)).num_rows == 0
@@ -164,17 +172,23 @@ def test_a_derived_list_makes_each_item_when_read_and_writes_the_list_s_bytes():
 
 def test_the_manifest_makes_each_lineage_when_written_and_checks_them_in_parts(
         monkeypatch, tmp_path):
-    """The manifest's lineage of each species is made as it is written and checked against
-    the schema CHECKED_AT_ONCE at a time; a bad lineage is named by its place in the list."""
+    """The manifest's lineage of each species is made as it is written (of FittedSpecies)
+    or read from the compact JSON a build holds (release.held.HeldFitted), the same either
+    way, and checked against the schema CHECKED_AT_ONCE at a time; a bad lineage is named by
+    its place in the list."""
     from thermoledger.core.lazy import Derived
     from thermoledger.release import provenance
 
     result = build.build(RAW, tmp_path / "out")
-    man = provenance.manifest(result.fitted, result.quarantined, result.inputs, [],
-                              {"a": 1}, "0" * 64)
-    assert isinstance(man["species"], Derived) and len(man["species"]) == len(result.fitted)
+    spilled = provenance.manifest(result.fitted, result.quarantined, result.inputs, [],
+                                  {"a": 1}, "0" * 64)
+    man = provenance.manifest(list(reversed(result.fitted)), result.quarantined,
+                              result.inputs, [], {"a": 1}, "0" * 64)
+    assert isinstance(spilled["species"], Entries) and isinstance(man["species"], Derived)
+    assert len(man["species"]) == len(result.fitted) > 3
     written = orjson.loads((tmp_path / "out" / "current" / "manifest.json").read_bytes())
-    assert man["species"] == written["species"]
+    assert man["species"] == written["species"] == spilled["species"]
+    assert b"".join(document.json_chunks(man)) == b"".join(document.json_chunks(spilled))
     monkeypatch.setattr(document, "CHECKED_AT_ONCE", 2)
     document.require_valid(man, "manifest.schema.json", "manifest.json")
     bad = Derived(list(man["species"]), lambda x: {**x, "form": 7} if x["id"] ==

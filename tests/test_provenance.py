@@ -325,7 +325,7 @@ def test_provenance_made_item_by_item_numbers_its_relations_as_the_document_does
     from types import SimpleNamespace as NS
 
     inputs = [NS(path=p, sha256=p * 2) for p in ("a/x.csv", "a/y.csv", "b/x.csv")]
-    fitted = [NS(table=NS(meta=NS(species_id=f"S{k}(g)")), fit=NS(form="nasa7"),
+    fitted = [NS(table=NS(meta=NS(species_id=f"S{k}(g)", formula="S")), fit=NS(form="nasa7"),
                  uses=[NS(rows=r, meta=NS(file=f)) for r, f in u]) for k, u in enumerate(uses)]
     outputs = [(p, "0" * 64, 1) for p in outs]
     made = provenance.prov_document(list(reversed(fitted)), inputs, outputs)
@@ -333,3 +333,24 @@ def test_provenance_made_item_by_item_numbers_its_relations_as_the_document_does
     for kind, items in whole.items():
         assert list(made[kind].items()) == list(items.items()), kind
         assert len(made[kind]) == len(items)
+
+
+def test_the_data_package_and_manifest_list_outputs_as_they_are_written(demo_release):
+    """The resources of datapackage.json and the outputs of manifest.json are made as they
+    are written (core.lazy.Derived: a release with a report of 100 000 species has as many
+    outputs), the bytes of the lists made whole."""
+    from thermoledger.core.lazy import Derived
+    from thermoledger.release import document
+
+    outputs = [("library.json", "a" * 64, 10), ("report/s 1.svg", "b" * 64, 3),
+               ("library.parquet", "c" * 64, 7)]
+    dp = provenance.datapackage(outputs, [], "notice")
+    man = provenance.manifest([], [], [], outputs, {}, "0" * 64)
+    assert isinstance(dp["resources"], Derived) and isinstance(man["outputs"], Derived)
+    for doc, key in ((dp, "resources"), (man, "outputs")):
+        whole = {**doc, key: list(doc[key])}
+        assert b"".join(document.json_chunks(doc)) == document.json_bytes(whole)
+    assert [r["path"] for r in dp["resources"]] == [p for p, _, _ in outputs]
+    assert dp["resources"][2]["schema"]["primaryKey"] == ["id", "range_index"]
+    written = json.loads((demo_release / "datapackage.json").read_text())
+    assert len(written["resources"]) > 3

@@ -1,6 +1,7 @@
 """Assemble every file of a release from the fitted library: library, findings, evaluated
 tables, report, schemas, provenance, manifest and Data Package, as {relative path: bytes}."""
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -21,7 +22,7 @@ class Outcome:
 
     document: dict         # library.json
     findings: tuple        # every finding of the build
-    fitted: tuple          # FittedSpecies
+    fitted: Sequence       # FittedSpecies in species-id order (release.held.HeldFitted)
     quarantined: tuple     # (TableMeta, findings)
     checked: CheckResult   # what was read and checked (tables without their rows)
     points: dict = None    # {species id: plot_points of it}, for the report
@@ -58,7 +59,7 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None):
     document.require_valid(man, "manifest.schema.json", "manifest.json")
     release.add_chunks("manifest.json", document.json_chunks(man))
     sources = {t.meta.source.id: t.meta.source for t in checked.tables}.values()
-    release.add("datapackage.json", document.json_bytes(
+    release.add_chunks("datapackage.json", document.json_chunks(
         provenance.datapackage(release.outputs(), sources, document.NOTICE)))
     return release
 

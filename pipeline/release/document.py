@@ -18,6 +18,7 @@ from ..core.errors import OutputError
 from ..core.lazy import Derived, LazyList, LazyMapping
 from ..library import budget
 from ..library.entries import Entries, compact
+from .held import briefs_of, in_order
 
 NOTICE = ("Curated property data for engineering use must be reviewed by a qualified person "
           "before use in design. Intervals marked 'extrapolated' lie outside the source data. "
@@ -164,13 +165,13 @@ def library_document(fitted, quarantined, inputs_sha256: str, settings: dict,
     transitions between fitted phases are listed).
     """
     entries = entries or {}
-    ordered = sorted(fitted, key=lambda s: s.table.meta.species_id)
-    ids = {s.table.meta.species_id for s in ordered}
-    made = [(s.table.meta.species_id, entries.get(s.table.meta.species_id) or species_entry(s))
-            for s in ordered]
+    ordered, briefs = in_order(fitted), briefs_of(fitted)
+    ids = {b.species_id for b in briefs}
+    made = [(b.species_id, entries.get(b.species_id) or species_entry(ordered[k]))
+            for k, b in enumerate(briefs)]
     if any(not isinstance(e, dict) for _, e in made):     # (an entry's formula is its table's)
         species = Entries(((sid, compact(e) if isinstance(e, dict) else e) for sid, e in made),
-                          spill, [s.table.meta.formula for s in ordered])
+                          spill, [b.formula for b in briefs])
     else:
         species = [e for _, e in made]
     return {
@@ -331,8 +332,10 @@ def _anchor_columns(sp: dict) -> dict:
 
 
 #: rows of each row group of library.parquet (one row per species and range): a group is
-#: made and written at a time, so a large library is never held as one Arrow table
-LIBRARY_ROW_GROUP = 64 * 1024
+#: made and written at a time, so a large library is never held as one Arrow table. A row
+#: holds its species' sources and findings as JSON text, some 5 KB in Arrow while its group
+#: is written: 16 Ki rows hold some 80 MB at once (64 Ki held 330 MB)
+LIBRARY_ROW_GROUP = 16 * 1024
 
 
 def library_parquet_bytes(doc: dict) -> bytes:
@@ -340,6 +343,8 @@ def library_parquet_bytes(doc: dict) -> bytes:
     rows, each made and written in turn; build metadata as key-value metadata."""
     import pyarrow as pa  # here: checking and reading load no pyarrow
     import pyarrow.parquet as pq
+
+    from .arrowmem import give_back
 
     arrow = {"string": pa.string(), "number": pa.float64(), "integer": pa.int32(),
              "array": pa.list_(pa.float64())}
@@ -357,6 +362,7 @@ def library_parquet_bytes(doc: dict) -> bytes:
                            row_group_size=rows or None)
         for name in cols:
             del cols[name][:rows]
+        give_back()
 
     with pq.ParquetWriter(buf, schema, compression="zstd", write_statistics=True) as writer:
         written = 0

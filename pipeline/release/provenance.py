@@ -23,6 +23,7 @@ from .. import __version__
 from ..core.lazy import Derived, LazyMapping
 from ..core.names import file_stem, safe_name
 from . import document
+from .held import HeldFitted, briefs_of, in_order
 from .publish import manifest_outputs
 
 DEPENDENCIES = ("numpy", "scipy", "pandas", "pyarrow", "pint", "molmass")
@@ -64,10 +65,16 @@ def lineage(fitted) -> dict:
     return out
 
 
+def _output(output) -> dict:
+    path, digest, size = output
+    return {"path": path, "sha256": digest, "size": size}
+
+
 def manifest(fitted, quarantined, inputs, outputs, settings: dict, inputs_digest: str) -> dict:
     """The manifest document; ``outputs`` is [(path, sha256, size)] of every other output.
     The lineage of each species is made when it is read (core.lazy.Derived: written and
-    checked a part at a time, never held for every species at once)."""
+    checked a part at a time, never held for every species at once), or read from the
+    compact JSON a HeldFitted holds."""
     return {
         "manifest_format": 1,
         "pipeline_version": __version__,
@@ -75,8 +82,9 @@ def manifest(fitted, quarantined, inputs, outputs, settings: dict, inputs_digest
         "settings": settings,
         "inputs_sha256": inputs_digest,
         "inputs": [{"path": f.path, "sha256": f.sha256, "size": f.size} for f in inputs],
-        "outputs": [{"path": p, "sha256": digest, "size": size} for p, digest, size in outputs],
-        "species": Derived(sorted(fitted, key=lambda s: s.table.meta.species_id), lineage),
+        "outputs": Derived(outputs, _output),
+        "species": fitted.lineages if isinstance(fitted, HeldFitted) else
+        Derived(in_order(fitted), lineage),
         "quarantined": [{"id": m.species_id, "file": m.file,
                          "codes": sorted({f.code for f in reasons})}
                         for m, reasons in sorted(quarantined, key=lambda q: (q[0].file,))],
@@ -89,21 +97,26 @@ MEDIA = {".json": ("json", "application/json"),
          ".csv": ("csv", "text/csv")}
 
 
+def _resource(output) -> dict:
+    """The Data Package resource of output (path, sha256, size)."""
+    path, digest, size = output
+    ext = "." + path.rsplit(".", 1)[-1]
+    fmt, media = MEDIA.get(ext, ("bin", "application/octet-stream"))
+    res = {"name": re.sub(r"[^a-z0-9._-]", "-", path.lower()), "path": path,
+           "format": fmt, "mediatype": media, "bytes": size, "hash": f"sha256:{digest}"}
+    if path == "library.parquet":
+        res["profile"] = "tabular-data-resource"
+        res["schema"] = {"fields": [{"name": n, "type": t, **({"description": d} if d else {})}
+                                    for n, t, d in document.LIBRARY_PARQUET_COLUMNS],
+                         "primaryKey": ["id", "range_index"]}
+    return res
+
+
 def datapackage(outputs, sources, notice: str) -> dict:
     """Data Package v1 descriptor for ``outputs`` [(path, sha256, size)] and ``sources``
-    (SourceMeta)."""
-    resources = []
-    for path, digest, size in outputs:
-        ext = "." + path.rsplit(".", 1)[-1]
-        fmt, media = MEDIA.get(ext, ("bin", "application/octet-stream"))
-        res = {"name": re.sub(r"[^a-z0-9._-]", "-", path.lower()), "path": path,
-               "format": fmt, "mediatype": media, "bytes": size, "hash": f"sha256:{digest}"}
-        if path == "library.parquet":
-            res["profile"] = "tabular-data-resource"
-            res["schema"] = {"fields": [{"name": n, "type": t, **({"description": d} if d else {})}
-                                        for n, t, d in document.LIBRARY_PARQUET_COLUMNS],
-                             "primaryKey": ["id", "range_index"]}
-        resources.append(res)
+    (SourceMeta). Its resources are made as they are written (core.lazy.Derived: with the
+    report, a build of 100 000 species has some 100 000 outputs)."""
+    resources = Derived(outputs, _resource)
     licenses = sorted({s.license for s in sources})
     return {
         "profile": "data-package",
@@ -125,7 +138,7 @@ def prov_document(fitted, inputs, outputs) -> dict:
     activities and each kind of relation are core.lazy.LazyMappings, made item by item as
     they are written (at 100 000 species, some 600 000 relations)."""
     agent = f"tl:thermoledger-{__version__}"
-    fitted = sorted(fitted, key=lambda s: s.table.meta.species_id)
+    fitted = briefs_of(fitted)
     raw_id = {f.path: "raw:" + safe_name(f.path) for f in inputs}
     files = {}                      # raw files and outputs (two paths may share an id)
     for f in inputs:
@@ -136,9 +149,8 @@ def prov_document(fitted, inputs, outputs) -> dict:
         files["out:" + safe_name(path)] = {"prov:type": "tl:Output", "tl:path": path,
                                            "tl:sha256": digest}
 
-    stems = [file_stem(sp.table.meta.species_id) for sp in fitted]
-    used = [[raw_id[u.meta.file] for u in sp.uses if u.rows and u.meta.file in raw_id]
-            for sp in fitted]
+    stems = [file_stem(sp.species_id) for sp in fitted]
+    used = [[raw_id[file] for file in sp.used if file in raw_id] for sp in fitted]
     # every relation has a number, counted over all kinds in the order: the build's agent,
     # each output's generation, then per species its generation, agent, (used, derived
     # from) per raw file used and its place in library.json: 3 + 2 per file
@@ -174,8 +186,7 @@ def prov_document(fitted, inputs, outputs) -> dict:
         yield from files.items()
         for sp, stem in zip(fitted, stems):
             yield f"tl:species-{stem}", {"prov:type": "tl:FittedSpecies",
-                                         "tl:id": sp.table.meta.species_id,
-                                         "tl:form": sp.fit.form}
+                                         "tl:id": sp.species_id, "tl:form": sp.form}
 
     def activities():
         yield "tl:build", {"prov:type": "tl:Build"}
@@ -201,17 +212,19 @@ def verify_release(folder) -> list:
     manifest only its list of outputs (publish.manifest_outputs): the data package holds
     the manifest's own sha256."""
     import hashlib
-    import json
     from pathlib import Path
+
+    import orjson
 
     folder = Path(folder)
     problems, digests = [], {}
 
     def digest(path: Path) -> str:
-        if path not in digests:
+        key = str(path)
+        if key not in digests:
             with open(path, "rb") as fh:
-                digests[path] = hashlib.file_digest(fh, "sha256").hexdigest()
-        return digests[path]
+                digests[key] = hashlib.file_digest(fh, "sha256").hexdigest()
+        return digests[key]
 
     outputs = manifest_outputs(folder / "manifest.json")
     if outputs is None:
@@ -223,8 +236,9 @@ def verify_release(folder) -> list:
             problems.append(f"{out['path']} is missing")
         elif digest(path) != out["sha256"]:
             problems.append(f"{out['path']} differs from its manifest hash")
+    del outputs          # read before the data package: never both at once
     try:
-        dp = json.loads((folder / "datapackage.json").read_text(encoding="utf-8"))
+        dp = orjson.loads((folder / "datapackage.json").read_bytes())
         for res in dp.get("resources", []):
             path = folder / res["path"]
             if not path.is_file() or f"sha256:{digest(path)}" != res.get("hash"):

@@ -17,6 +17,7 @@ from ..library import tables as evaluated
 from ..library.entries import ids_of
 from ..library.formation import Formation
 from ..library.tables import COLUMNS, FLAGS, HEADERS, TEXT, UNITS, species_rows, stable_rows
+from .arrowmem import give_back
 
 DANGEROUS = ("=", "+", "-", "@", "\t", "\r")
 
@@ -50,10 +51,12 @@ def tables_parquet_bytes(doc, step=100.0, points=None, own=None) -> bytes:
             while count >= ROW_GROUP:
                 group = _columns(pending)
                 writer.write_table(_table(group, schema, ROW_GROUP))
+                give_back()
                 pending = [{c: v[ROW_GROUP:] for c, v in group.items()}]
                 count, groups = count - ROW_GROUP, groups + 1
         if count or not groups:                 # an empty table is written as one too
             writer.write_table(_table(_columns(pending), schema, count))
+    give_back()
     return buf.getvalue()
 
 

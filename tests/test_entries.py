@@ -109,7 +109,8 @@ def test_library_parquet_written_a_row_group_at_a_time_is_the_table_written_whol
     """library.parquet is made and written a row group at a time: the bytes are those of
     the whole table written at once in groups of as many rows (pyarrow's own cut), with one
     group, as before, up to LIBRARY_ROW_GROUP rows; after each group what Arrow's allocator
-    freed is given back (release.arrowmem)."""
+    freed is given back and the group's bytes are handed on (release.arrowmem), the footer
+    last."""
     import pyarrow as pa
     import pyarrow.parquet as pq
     from thermoledger.release import arrowmem
@@ -135,10 +136,12 @@ def test_library_parquet_written_a_row_group_at_a_time_is_the_table_written_whol
         monkeypatch.setattr(document, "LIBRARY_ROW_GROUP", group)
         expected = whole(group)
         given_back.clear()
+        chunks = list(document.library_parquet_chunks(demo_doc))
         got = document.library_parquet_bytes(demo_doc)
-        assert got == expected
+        assert got == expected == b"".join(chunks)
         assert pq.read_metadata(io.BytesIO(got)).num_row_groups == -(-len(rows) // group) \
-            == len(given_back)
+            == len(chunks) - 1 == len(given_back) // 2
+        assert all(chunks[:-1]) and chunks[-1].endswith(b"PAR1")
     assert pq.read_table(io.BytesIO(got)).column("id").to_pylist() == [r["id"] for r in rows]
     empty = document.library_parquet_bytes({**demo_doc, "species": []})
     assert pq.read_metadata(io.BytesIO(empty)).num_rows == 0

@@ -419,6 +419,8 @@ def test_the_tables_written_a_row_group_at_a_time_are_the_table_written_whole(
     assert rows > 100
     for group in (tables.ROW_GROUP, 7, 64, rows, rows - 1):
         monkeypatch.setattr(tables, "ROW_GROUP", group)
+        chunks = list(tables.tables_parquet_chunks(doc))
         got = tables.tables_parquet_bytes(doc)
-        assert got == whole(group)
-        assert pq.read_metadata(io.BytesIO(got)).num_row_groups == -(-rows // group)
+        assert got == whole(group) == b"".join(chunks)
+        assert pq.read_metadata(io.BytesIO(got)).num_row_groups == -(-rows // group) \
+            == len(chunks) - 1

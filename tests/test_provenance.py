@@ -271,6 +271,33 @@ def test_a_release_is_checked_against_the_outputs_its_manifest_lists_read_in_any
     assert provenance.verify_release(folder)[0].startswith("manifest.json cannot be read")
 
 
+def test_the_listed_files_of_a_release_are_read_an_item_at_a_time(release_copy, monkeypatch):
+    """The manifest's outputs and the data package's resources are read one item at a time
+    from blocks of the file (publish.listed), whatever the size of a block and where it
+    cuts an item: the same items as the whole document read at once, and nothing when the
+    file is laid out otherwise (its caller then reads it whole)."""
+    folder = (release_copy / "current").resolve()
+    man, dp = folder / "manifest.json", folder / "datapackage.json"
+    outputs, resources = (json.loads(man.read_bytes())["outputs"],
+                          json.loads(dp.read_bytes())["resources"])
+    assert len(resources) == len(outputs) + 1 > 10
+    for block in (1, 7, 100, 1 << 22):
+        monkeypatch.setattr(publish, "_BLOCK", block)
+        assert list(publish.listed(man, "outputs", publish.MANIFEST_HEAD)) == outputs
+        assert list(publish.listed(dp, "resources")) == resources
+    assert publish.listed(man, "outputs", b"{\n  \"manifest_format\": 2") is None
+    assert publish.listed(dp, "no such list") is None
+    dp.write_text(json.dumps(json.loads(dp.read_bytes())))           # another layout
+    assert publish.listed(dp, "resources") is None
+    assert provenance.verify_release(folder) == []
+    dp.write_text(json.dumps({"resources": []}, indent=2))
+    assert list(publish.listed(dp, "resources")) == []
+    written = man.read_bytes()
+    man.write_bytes(written[:written.index(b'"outputs": [') + 300])          # cut short
+    with pytest.raises(ValueError, match="closing bracket"):
+        list(publish.listed(man, "outputs"))
+
+
 def _prov_made_whole(fitted, inputs, outputs) -> dict:
     """provenance.json as one dict, every relation numbered in the order of the PROV
     document: the build's agent, each output's generation, then per species (by id) its
@@ -321,10 +348,12 @@ def _prov_made_whole(fitted, inputs, outputs) -> dict:
                 max_size=4))
 def test_provenance_made_item_by_item_numbers_its_relations_as_the_document_does(uses, outs):
     """The lazily made PROV document (entities, activities, each kind of relation written
-    as it is made) is, item for item and in order, the document made whole."""
+    as it is made) is, item for item and in order, the document made whole, also where two
+    raw files or two outputs share an id ('a/x.csv' and 'a x.csv', 'lib rary.json' and
+    'lib_rary.json')."""
     from types import SimpleNamespace as NS
 
-    inputs = [NS(path=p, sha256=p * 2) for p in ("a/x.csv", "a/y.csv", "b/x.csv")]
+    inputs = [NS(path=p, sha256=p * 2) for p in ("a/x.csv", "a/y.csv", "a x.csv", "b/x.csv")]
     fitted = [NS(table=NS(meta=NS(species_id=f"S{k}(g)", formula="S")), fit=NS(form="nasa7"),
                  uses=[NS(rows=r, meta=NS(file=f)) for r, f in u]) for k, u in enumerate(uses)]
     outputs = [(p, "0" * 64, 1) for p in outs]
@@ -354,3 +383,22 @@ def test_the_data_package_and_manifest_list_outputs_as_they_are_written(demo_rel
     assert dp["resources"][2]["schema"]["primaryKey"] == ["id", "range_index"]
     written = json.loads((demo_release / "datapackage.json").read_text())
     assert len(written["resources"]) > 3
+
+
+def test_a_release_lists_its_files_with_their_sha256_and_size():
+    """A release keeps of each file its sha256 and size only (40 bytes: with the report, a
+    build of 100 000 species writes some 200 000 files) and lists them sorted by path, each
+    (path, sha256 in hex, size) made when read, also through what is made of the list."""
+    from thermoledger.core.lazy import Derived
+
+    release = publish.Release()
+    release.add("b.json", b"xy")
+    release.add_chunks("a/c.svg", (b"1", b"", b"23"))
+    release.add("a/e.html", b"")
+    listed = [("a/c.svg", hashlib.sha256(b"123").hexdigest(), 3),
+              ("a/e.html", hashlib.sha256(b"").hexdigest(), 0),
+              ("b.json", hashlib.sha256(b"xy").hexdigest(), 2)]
+    assert list(release.outputs()) == listed and len(release.outputs()) == 3
+    assert release.sha256("b.json") == listed[2][1] and release.get("a/c.svg") == b"123"
+    paths = Derived(release.outputs(), lambda out: out[0])
+    assert list(paths) == ["a/c.svg", "a/e.html", "b.json"] and paths[1] == "a/e.html"

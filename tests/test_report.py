@@ -265,7 +265,7 @@ def test_plots_are_plain_svg_with_the_data_drawn(release):
     assert len(n2["breakpoints"]) == 2 and text.count("stroke-dasharray=\"2,2\"") == 4
 
 
-def test_a_report_drawn_by_worker_processes_is_the_one_drawn_in_one():
+def test_a_report_drawn_by_worker_processes_is_the_one_drawn_in_one(monkeypatch):
     """A large report is drawn in chunks by worker processes: the files do not depend on
     how many (the demo's species four times over, under other ids, to pass the size at
     which workers are used)."""
@@ -280,5 +280,13 @@ def test_a_report_drawn_by_worker_processes_is_the_one_drawn_in_one():
                       for s in doc["species"]]
     assert len(doc["species"]) > 60
     one = report.report_files(doc, {}, 0.01, workers=1)
+    trims = []
+    monkeypatch.setattr(report, "give_back_memory", lambda: trims.append(1))
+    monkeypatch.setattr(report, "TRIM_EVERY", 20)
     assert report.report_files(doc, {}, 0.01, workers=2) == one
     assert sum(p.startswith("report/species/") for p in one) == len(doc["species"])
+    # the build's own process gives its freed heap back before the workers fork and after
+    # every TRIM_EVERY species drawn (each chunk of CHUNK species counted when it returns)
+    ends = list(range(report.CHUNK, len(doc["species"]), report.CHUNK)) + [len(doc["species"])]
+    crossed = [end // 20 > start // 20 for start, end in zip([0] + ends, ends)]
+    assert len(trims) == 1 + sum(crossed) and sum(crossed) >= 2

@@ -34,6 +34,8 @@ class Derived(LazyList):
     __slots__ = ("_items", "_make")
 
     def __init__(self, items, make):
+        if isinstance(items, Derived):     # made of what is itself made when read
+            items, make = items._items, _composed(make, items._make)
         self._items, self._make = tuple(items), make
 
     def __len__(self) -> int:
@@ -46,6 +48,10 @@ class Derived(LazyList):
 
     def __iter__(self):
         return map(self._make, self._items)
+
+
+def _composed(outer, inner):
+    return lambda x: outer(inner(x))
 
 
 class LazyMapping(Mapping):

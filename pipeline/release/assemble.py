@@ -45,7 +45,8 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None):
     from ..library.tables import unpack_rows
 
     own = unpack_rows(*outcome.rows)          # each species' rows made when written
-    release.add("tables.parquet", tables.tables_parquet_bytes(doc, out.table_step, own=own))
+    release.add_chunks("tables.parquet", tables.tables_parquet_chunks(doc, out.table_step,
+                                                                  own=own))
     if out.tables_csv:
         release.update(tables.csv_files(doc, out.table_step))
     if out.report:

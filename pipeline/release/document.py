@@ -7,7 +7,6 @@ Python's shortest round-trip repr, keys in a fixed order, no timestamps, so the
 same inputs give byte-identical files.
 """
 
-import io
 import json
 import math
 from operator import methodcaller
@@ -338,13 +337,13 @@ def _anchor_columns(sp: dict) -> dict:
 LIBRARY_ROW_GROUP = 16 * 1024
 
 
-def library_parquet_bytes(doc: dict) -> bytes:
-    """library.parquet: one row per species and range, in row groups of LIBRARY_ROW_GROUP
-    rows, each made and written in turn; build metadata as key-value metadata."""
+def library_parquet_chunks(doc: dict):
+    """library.parquet in byte pieces as it is written (release.arrowmem.parquet_chunks): one
+    row per species and range, in row groups of LIBRARY_ROW_GROUP rows, each made and
+    written in turn; build metadata as key-value metadata."""
     import pyarrow as pa  # here: checking and reading load no pyarrow
-    import pyarrow.parquet as pq
 
-    from .arrowmem import give_back
+    from .arrowmem import parquet_chunks
 
     arrow = {"string": pa.string(), "number": pa.float64(), "integer": pa.int32(),
              "array": pa.list_(pa.float64())}
@@ -354,28 +353,32 @@ def library_parquet_bytes(doc: dict) -> bytes:
     schema = pa.schema([(name, arrow[kind]) for name, kind, _ in LIBRARY_PARQUET_COLUMNS],
                        metadata={f"thermoledger.{k}": v for k, v in meta.items()})
     cols = {name: [] for name, _, _ in LIBRARY_PARQUET_COLUMNS}
-    buf = io.BytesIO()
 
-    def write(writer, rows: int) -> None:
-        writer.write_table(pa.table({name: pa.array(cols[name][:rows], type=schema.field(name).type)
-                                     for name in cols}, schema=schema),
-                           row_group_size=rows or None)
+    def group(rows: int) -> tuple:
+        table = pa.table({name: pa.array(cols[name][:rows], type=schema.field(name).type)
+                          for name in cols}, schema=schema)
         for name in cols:
             del cols[name][:rows]
-        give_back()
+        return table, rows or None
 
-    with pq.ParquetWriter(buf, schema, compression="zstd", write_statistics=True) as writer:
+    def groups():
         written = 0
         for sp in doc["species"]:
             for row in _library_rows(sp):
                 for key, v in row.items():
                     cols[key].append(v)
             while len(cols["id"]) >= LIBRARY_ROW_GROUP:
-                write(writer, LIBRARY_ROW_GROUP)
+                yield group(LIBRARY_ROW_GROUP)
                 written += 1
         if cols["id"] or not written:          # an empty library is written as one too
-            write(writer, len(cols["id"]))
-    return buf.getvalue()
+            yield group(len(cols["id"]))
+
+    return parquet_chunks(schema, groups(), compression="zstd", write_statistics=True)
+
+
+def library_parquet_bytes(doc: dict) -> bytes:
+    """library.parquet whole (``library_parquet_chunks`` joined)."""
+    return b"".join(library_parquet_chunks(doc))
 
 
 def _library_rows(sp: dict) -> list:
@@ -406,7 +409,7 @@ def release_files(doc: dict, findings_doc: dict, release) -> None:
     require_valid_library(doc)
     require_valid(findings_doc, "findings.schema.json", "findings.json")
     release.add_chunks("library.json", json_chunks(doc))
-    release.add("library.parquet", library_parquet_bytes(doc))
+    release.add_chunks("library.parquet", library_parquet_chunks(doc))
     release.add_chunks("findings.json", json_chunks(findings_doc))
     for name in SCHEMA_COPIES:  # the release describes itself
         release.add(f"schemas/{name}", schemas.schema_bytes(name))

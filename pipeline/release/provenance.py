@@ -24,7 +24,7 @@ from ..core.lazy import Derived, LazyMapping
 from ..core.names import file_stem, safe_name
 from . import document
 from .held import HeldFitted, briefs_of, in_order
-from .publish import manifest_outputs
+from .publish import MANIFEST_HEAD, listed, manifest_outputs
 
 DEPENDENCIES = ("numpy", "scipy", "pandas", "pyarrow", "pint", "molmass")
 
@@ -132,6 +132,43 @@ def datapackage(outputs, sources, notice: str) -> dict:
     }
 
 
+def _raw_entity(f) -> tuple:
+    return "raw:" + safe_name(f.path), {"prov:type": "tl:RawFile", "tl:path": f.path,
+                                        "tl:sha256": f.sha256}
+
+
+def _output_entity(output) -> tuple:
+    path, digest, _ = output
+    return "out:" + safe_name(path), {"prov:type": "tl:Output", "tl:path": path,
+                                      "tl:sha256": digest}
+
+
+class _unique:
+    """The (id, entity) pairs of a sequence of them, each id once, in the place of its
+    first pair and with the entity of its last (as a dict made of them has): a list of
+    ids is held only while the repeated ones are found, and then only those."""
+
+    def __init__(self, pairs):
+        self._pairs, seen, self._last = pairs, set(), {}
+        for key, value in pairs:
+            if key in seen:
+                self._last[key] = value
+            seen.add(key)
+        self._size = len(seen)
+
+    def __len__(self) -> int:
+        return self._size
+
+    def __iter__(self):
+        written = set()
+        for key, value in self._pairs:
+            if key not in self._last:
+                yield key, value
+            elif key not in written:
+                written.add(key)
+                yield key, self._last[key]
+
+
 def prov_document(fitted, inputs, outputs) -> dict:
     """PROV-JSON: raw files and species as entities, the build and each fit as activities;
     ``outputs`` [(path, sha256, size)] of the files written before it. The entities, the
@@ -140,21 +177,14 @@ def prov_document(fitted, inputs, outputs) -> dict:
     agent = f"tl:thermoledger-{__version__}"
     fitted = briefs_of(fitted)
     raw_id = {f.path: "raw:" + safe_name(f.path) for f in inputs}
-    files = {}                      # raw files and outputs (two paths may share an id)
-    for f in inputs:
-        files[raw_id[f.path]] = {"prov:type": "tl:RawFile", "tl:path": f.path,
-                                 "tl:sha256": f.sha256}
-    outputs = list(outputs)
-    for path, digest, _ in outputs:
-        files["out:" + safe_name(path)] = {"prov:type": "tl:Output", "tl:path": path,
-                                           "tl:sha256": digest}
-
+    out = Derived(outputs, _output_entity)     # some 200 000 at 100 000 species
+    files = (_unique(Derived(inputs, _raw_entity)), _unique(out))   # paths may share an id
     stems = [file_stem(sp.species_id) for sp in fitted]
     used = [[raw_id[file] for file in sp.used if file in raw_id] for sp in fitted]
     # every relation has a number, counted over all kinds in the order: the build's agent,
     # each output's generation, then per species its generation, agent, (used, derived
     # from) per raw file used and its place in library.json: 3 + 2 per file
-    first = [2 + len(outputs)]
+    first = [2 + len(out)]
     for files_used in used[:-1]:
         first.append(first[-1] + 3 + 2 * len(files_used))
 
@@ -163,9 +193,8 @@ def prov_document(fitted, inputs, outputs) -> dict:
         if kind == "wasAssociatedWith":
             yield "_:r1", {"prov:activity": "tl:build", "prov:agent": agent}
         if kind == "wasGeneratedBy":
-            for n, (path, _, _) in enumerate(outputs, 2):
-                yield f"_:r{n}", {"prov:entity": "out:" + safe_name(path),
-                                  "prov:activity": "tl:build"}
+            for n, (eid, _) in enumerate(out, 2):
+                yield f"_:r{n}", {"prov:entity": eid, "prov:activity": "tl:build"}
         for n, stem, files_used in zip(first, stems, used):
             eid, aid = f"tl:species-{stem}", f"tl:fit-{stem}"
             if kind == "wasGeneratedBy":
@@ -183,7 +212,8 @@ def prov_document(fitted, inputs, outputs) -> dict:
                     "prov:generatedEntity": "out:library.json", "prov:usedEntity": eid}
 
     def entities():
-        yield from files.items()
+        for made in files:
+            yield from made
         for sp, stem in zip(fitted, stems):
             yield f"tl:species-{stem}", {"prov:type": "tl:FittedSpecies",
                                          "tl:id": sp.species_id, "tl:form": sp.form}
@@ -194,23 +224,27 @@ def prov_document(fitted, inputs, outputs) -> dict:
             yield f"tl:fit-{stem}", {"prov:type": "tl:Fit"}
 
     n_used = sum(len(u) for u in used)
-    counts = {"used": n_used, "wasGeneratedBy": len(outputs) + len(fitted),
+    counts = {"used": n_used, "wasGeneratedBy": len(out) + len(fitted),
               "wasDerivedFrom": n_used + len(fitted), "wasAssociatedWith": 1 + len(fitted)}
     return {"prefix": {"tl": "https://thermoledger.invalid/ns#",
                        "raw": "https://thermoledger.invalid/raw/",
                        "out": "https://thermoledger.invalid/curated/"},
-            "entity": LazyMapping(entities, len(files) + len(fitted)),
+            "entity": LazyMapping(entities, sum(map(len, files)) + len(fitted)),
             "activity": LazyMapping(activities, 1 + len(fitted)),
             "agent": {agent: {"prov:type": "prov:SoftwareAgent"}},
             **{kind: LazyMapping(partial(relations, kind), counts[kind]) for kind in (
                 "used", "wasGeneratedBy", "wasDerivedFrom", "wasAssociatedWith")}}
 
 
+READABLE_MANIFEST = "thermoledger manifest (manifest_format 1 with a list of outputs)"
+
+
 def verify_release(folder) -> list:
     """Problems of a release folder against its own manifest and data package ([] = intact).
-    Each file is read once, in pieces (a large library is never held whole), and of the
-    manifest only its list of outputs (publish.manifest_outputs): the data package holds
-    the manifest's own sha256."""
+    Each file is read once, in pieces (a large library is never held whole); of the
+    manifest only its list of outputs, and that list and the data package's resources an
+    item at a time as they are read (publish.listed: at 100 000 species each lists some
+    100 000 files); the data package holds the manifest's own sha256."""
     import hashlib
     from pathlib import Path
 
@@ -226,23 +260,33 @@ def verify_release(folder) -> list:
                 digests[key] = hashlib.file_digest(fh, "sha256").hexdigest()
         return digests[key]
 
-    outputs = manifest_outputs(folder / "manifest.json")
+    man = folder / "manifest.json"
+    try:
+        outputs = listed(man, "outputs", MANIFEST_HEAD)
+    except OSError:
+        outputs = None
+    if outputs is None:                  # not laid out as a build writes it: read whole
+        outputs = manifest_outputs(man)
     if outputs is None:
-        return ["manifest.json cannot be read as a thermoledger manifest (manifest_format 1 "
-                "with a list of outputs)"]
-    for out in outputs:
-        path = folder / out["path"]
-        if not path.is_file():
-            problems.append(f"{out['path']} is missing")
-        elif digest(path) != out["sha256"]:
-            problems.append(f"{out['path']} differs from its manifest hash")
+        return [f"manifest.json cannot be read as a {READABLE_MANIFEST}"]
+    try:
+        for out in outputs:
+            path = folder / out["path"]
+            if not path.is_file():
+                problems.append(f"{out['path']} is missing")
+            elif digest(path) != out["sha256"]:
+                problems.append(f"{out['path']} differs from its manifest hash")
+    except (OSError, ValueError, KeyError, TypeError) as exc:
+        problems.append(f"manifest.json cannot be read as a {READABLE_MANIFEST}: {exc}")
     del outputs          # read before the data package: never both at once
     try:
-        dp = orjson.loads((folder / "datapackage.json").read_bytes())
-        for res in dp.get("resources", []):
+        dp = folder / "datapackage.json"
+        resources = listed(dp, "resources")
+        for res in resources if resources is not None else \
+                orjson.loads(dp.read_bytes()).get("resources", []):
             path = folder / res["path"]
             if not path.is_file() or f"sha256:{digest(path)}" != res.get("hash"):
                 problems.append(f"{res['path']} does not match datapackage.json")
-    except (OSError, ValueError) as exc:
+    except (OSError, ValueError, KeyError, TypeError) as exc:
         problems.append(f"datapackage.json cannot be read: {exc}")
     return problems

@@ -41,6 +41,7 @@ from pathlib import Path
 
 from ..core import paths
 from ..core.errors import OutputError
+from ..core.lazy import Derived
 from ..library.document import CURRENT
 
 LOCK = ".lock"
@@ -62,7 +63,7 @@ def _is_inside(a: Path, b: Path) -> bool:
 #: how a manifest written by a build (release/document.json_chunks: two-space indentation)
 #: begins, and starts and ends its list of outputs: a line that starts with two spaces and
 #: a quote is a key of the top-level object (a string never holds a raw line break)
-_MANIFEST_HEAD = b'{\n  "manifest_format": 1,\n'
+MANIFEST_HEAD = b'{\n  "manifest_format": 1,\n'
 _OUTPUTS_START, _LIST_END = b'\n  "outputs": [', b"\n  ]"
 
 
@@ -76,8 +77,8 @@ def manifest_outputs(path: Path):
 
     try:
         with open(path, "rb") as fh:
-            head = bytearray(fh.read(len(_MANIFEST_HEAD)))
-            while head.startswith(_MANIFEST_HEAD):
+            head = bytearray(fh.read(len(MANIFEST_HEAD)))
+            while head.startswith(MANIFEST_HEAD):
                 start = head.find(_OUTPUTS_START)
                 if start >= 0:
                     after = start + len(_OUTPUTS_START)
@@ -98,6 +99,57 @@ def manifest_outputs(path: Path):
             doc.get("outputs"), list):
         return doc["outputs"]
     return None
+
+
+#: how document.json_chunks ends an object that is an item of a top-level list
+_ITEM_END = b"\n    }"
+_BLOCK = 1 << 22
+
+
+def listed(path: Path, key: str, head: bytes = b"{\n"):
+    """An iterator over the items of the top-level list ``key`` of the JSON document at
+    ``path``, read in blocks and one item at a time (at 100 000 species a manifest lists
+    some 100 000 outputs and the data package as many resources), when the file begins with
+    ``head`` and lays the list out as document.json_chunks writes it (each item an object);
+    else None (read it whole). An item that does not read as JSON raises ValueError."""
+    import orjson
+
+    opening = b'\n  "' + key.encode() + b'": ['
+    fh = open(path, "rb")
+    try:
+        buf = fh.read(len(head))
+        if buf == head:
+            while (at := buf.find(opening)) < 0:
+                more = fh.read(_BLOCK)
+                if not more:
+                    break
+                buf = buf[-len(opening):] + more
+            else:
+                return _items(fh, buf[at + len(opening):], orjson.loads)
+        fh.close()
+        return None
+    except BaseException:
+        fh.close()
+        raise
+
+
+def _items(fh, buf: bytes, loads):
+    """The objects of a list from just after its ``[`` (see ``listed``); closes ``fh``."""
+    with fh:
+        at = 0
+        while True:
+            if buf.startswith((b"]", b"\n  ]"), at):
+                return
+            end = buf.find(_ITEM_END, at)
+            if end < 0:
+                more = fh.read(_BLOCK)
+                if not more:
+                    raise ValueError(f"{fh.name}: a list ends without its closing bracket")
+                buf, at = buf[at:] + more, 0
+                continue
+            end += len(_ITEM_END)
+            yield loads(buf[at:end].lstrip(b",\n "))
+            at = end
 
 
 def _is_manifest(path: Path) -> bool:
@@ -318,15 +370,25 @@ class Release:
                     fh.write(chunk)
                 fh.flush()
                 os.fsync(fh.fileno())
-        self._sums[rel] = (digest.hexdigest(), size)
+        self._sums[rel] = digest.digest() + size.to_bytes(8, "big")
 
     def update(self, files: dict) -> None:
         for rel, data in files.items():
             self.add(rel, data)
 
-    def outputs(self) -> list:
-        """[(relative path, sha256, size)] of the files so far, sorted by path."""
-        return [(rel, *self._sums[rel]) for rel in sorted(self._sums)]
+    def outputs(self) -> Derived:
+        """[(relative path, sha256, size)] of the files so far, sorted by path, each made
+        when read (with the report, a build of 100 000 species writes some 200 000 files;
+        each is held as 40 bytes of sha256 and size)."""
+        return Derived(sorted(self._sums), self._output)
+
+    def _output(self, rel: str) -> tuple:
+        packed = self._sums[rel]
+        return rel, packed[:32].hex(), int.from_bytes(packed[32:], "big")
+
+    def sha256(self, rel: str) -> str:
+        """The sha256 (hex) of file ``rel``."""
+        return self._sums[rel][:32].hex()
 
     def get(self, rel: str, default=None):
         """The bytes of file ``rel`` (read back from disk when written), else ``default``."""
@@ -350,7 +412,7 @@ class Release:
 
 
 def _release_id(release: Release) -> str:
-    return dict((rel, digest) for rel, digest, _ in release.outputs())["manifest.json"][:16]
+    return release.sha256("manifest.json")[:16]
 
 
 def _swap_current(target: Path, rid: str, on_swap):

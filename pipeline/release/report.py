@@ -13,7 +13,7 @@ import numpy as np
 
 from ..checks.coefsets import steps
 from ..core.names import file_stem
-from ..core.processes import worker_pool
+from ..core.processes import give_back_memory, worker_pool
 from ..core.records import PublishedSet
 from ..physics import forms
 from . import plots
@@ -412,11 +412,15 @@ def report_files(doc, points, accept, workers=None, say=None, put=None) -> dict:
         nonlocal done
         for path, data in part.items():
             add(path, data)
+        del part
         for sp in chunk:
             done += 1
             say("write report", done, len(species), sp["id"])
+        if done % TRIM_EVERY < len(chunk):
+            give_back_memory()
 
     if workers > 1 and len(species) > 60:
+        give_back_memory()                   # before the workers fork: they share less
         with worker_pool(workers) as pool:   # an interrupted build waits for no worker
             out = deque()
             for args in chunks():
@@ -443,6 +447,9 @@ def report_files(doc, points, accept, workers=None, say=None, put=None) -> dict:
 
 #: species drawn by one task of the report
 CHUNK = 25
+#: the build's own process gives back the heap its freed pages leave (core.processes.
+#: give_back_memory) after about this many species: each of their pages passed through it
+TRIM_EVERY = 2000
 
 
 def _species_files(species, points, accept, transitions=(), formed=None) -> dict:

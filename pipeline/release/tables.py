@@ -10,14 +10,13 @@ import math
 
 import numpy as np
 import pyarrow as pa
-import pyarrow.parquet as pq
 
 from ..core.names import file_stem
 from ..library import tables as evaluated
 from ..library.entries import ids_of
 from ..library.formation import Formation
 from ..library.tables import COLUMNS, FLAGS, HEADERS, TEXT, UNITS, species_rows, stable_rows
-from .arrowmem import give_back
+from .arrowmem import parquet_chunks
 
 DANGEROUS = ("=", "+", "-", "@", "\t", "\r")
 
@@ -27,21 +26,22 @@ DANGEROUS = ("=", "+", "-", "@", "\t", "\r")
 ROW_GROUP = 64 * 1024
 
 
-def tables_parquet_bytes(doc, step=100.0, points=None, own=None) -> bytes:
-    """tables.parquet: the evaluated table of every species (T [K], Cp [J/(mol K)], ...),
-    units in the key-value metadata. ``own`` maps species ids to their ``own_rows`` made
-    where they were fitted (with this ``step``); only the formation properties are added
-    here. Written a row group at a time (ROW_GROUP rows): at 100 000 species the table
-    has some 3 million rows, never held whole."""
+def tables_parquet_chunks(doc, step=100.0, points=None, own=None):
+    """tables.parquet in byte pieces as it is written (arrowmem.parquet_chunks): the
+    evaluated table of every species (T [K], Cp [J/(mol K)], ...), units in the key-value
+    metadata. ``own`` maps species ids to their ``own_rows`` made where they were fitted
+    (with this ``step``); only the formation properties are added here. Written a row group
+    at a time (ROW_GROUP rows): at 100 000 species the table has some 3 million rows and
+    220 MB, never held whole."""
     trs = evaluated.transitions_of(doc.get("transitions", []))
     made = Formation(doc)
     own = own or {}
     schema = pa.schema([(c, pa.string() if c in TEXT else (
         pa.bool_() if c in FLAGS else pa.float64())) for c in COLUMNS],
         metadata={"thermoledger.units": str(UNITS), "thermoledger.notice": doc["notice"]})
-    buf = io.BytesIO()
-    with pq.ParquetWriter(buf, schema, compression="zstd") as writer:
-        pending, count, groups = [], 0, 0
+
+    def groups():
+        pending, count, written = [], 0, 0
         species = doc["species"]
         for i, sid in enumerate(ids_of(species)):      # an entry is read only when needed
             part = evaluated.with_formation(own[sid], sid, made) if sid in own else \
@@ -50,14 +50,18 @@ def tables_parquet_bytes(doc, step=100.0, points=None, own=None) -> bytes:
             count += len(part["T"])
             while count >= ROW_GROUP:
                 group = _columns(pending)
-                writer.write_table(_table(group, schema, ROW_GROUP))
-                give_back()
+                yield _table(group, schema, ROW_GROUP), ROW_GROUP
                 pending = [{c: v[ROW_GROUP:] for c, v in group.items()}]
-                count, groups = count - ROW_GROUP, groups + 1
-        if count or not groups:                 # an empty table is written as one too
-            writer.write_table(_table(_columns(pending), schema, count))
-    give_back()
-    return buf.getvalue()
+                count, written = count - ROW_GROUP, written + 1
+        if count or not written:                # an empty table is written as one too
+            yield _table(_columns(pending), schema, count), None
+
+    return parquet_chunks(schema, groups(), compression="zstd")
+
+
+def tables_parquet_bytes(doc, step=100.0, points=None, own=None) -> bytes:
+    """tables.parquet whole (``tables_parquet_chunks`` joined)."""
+    return b"".join(tables_parquet_chunks(doc, step, points, own))
 
 
 def _columns(parts) -> dict:

@@ -24,6 +24,7 @@ from .library.entries import compact
 from .release import assemble, formation, held, provenance, publish
 from .release import audit as audit_stage
 from .release import document as release_document
+from .release.pages import Drawn
 
 
 @dataclass(frozen=True)
@@ -240,14 +241,20 @@ def _planned_build(raw_dir, out_dir, ctx, write, progress, wait, previous, cut, 
         store = partitions.PartStore(
             real / partitions.STORE, partitions.part_keys(raw_dir, cut.parts, ctx.to_dict(),
                                                           previous, digests), use=not fresh)
+        drawn = Drawn(real, partitions.code_digest(), use=not fresh) \
+            if ctx.outputs.report else None
         try:
-            result = _build(raw_dir, real, ctx, progress, previous, cut, store)
+            result = _build(raw_dir, real, ctx, progress, previous, cut, store, drawn)
         except BaseException:
             store.discard()
+            if drawn:
+                drawn.discard()
             raise
         store.commit()
         keep_breakpoints(real, result.document)
         digests.save()
+        if drawn:
+            drawn.save()
     return result
 
 
@@ -405,19 +412,19 @@ def _quiet(stage, i=0, n=0, label=""):
 
 
 def _build(raw_dir, out_dir, ctx: Settings, progress, previous: dict,
-           cut=partitions.Plan(), store=None) -> BuildResult:
+           cut=partitions.Plan(), store=None, drawn=None) -> BuildResult:
     say = progress or _quiet
     # the release home is judged before the partitions kept for the next build appear in it
     files = publish.Release() if out_dir is None else publish.Release.staged(out_dir)
     try:
-        return _build_into(files, raw_dir, out_dir, ctx, say, previous, cut, store)
+        return _build_into(files, raw_dir, out_dir, ctx, say, previous, cut, store, drawn)
     except BaseException:
         files.discard()
         raise
 
 
 def _build_into(files, raw_dir, out_dir, ctx: Settings, say, previous: dict, cut,
-                store) -> BuildResult:
+                store, drawn=None) -> BuildResult:
     say("read and check", 0, 0, str(raw_dir))
     spill = Spill(out_dir)         # unnamed: gone with the last entry of the library read
     done, reused = partitions.run(partial(_build_part, raw_dir, ctx, previous,
@@ -438,7 +445,7 @@ def _build_into(files, raw_dir, out_dir, ctx: Settings, say, previous: dict, cut
                                quarantined=tuple(quarantined), checked=checked,
                                points=points, rows=rows)
     del points, rows
-    assemble.release_files(outcome, ctx, files, say)
+    assemble.release_files(outcome, ctx, files, say, drawn)
     say("publish", 0, 0, str(out_dir or ""))
     written = [] if out_dir is None else publish.publish(
         out_dir, files, check=_verify, on_swap=lambda: say("published"))

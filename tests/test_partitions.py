@@ -12,6 +12,7 @@ from pathlib import Path
 from thermoledger import build, partitions
 from thermoledger.core.names import species_name
 from thermoledger.ingest import sources
+from thermoledger.release import pages
 
 from .conftest import run_cli, tree_hashes
 
@@ -264,7 +265,7 @@ def test_kept_partitions_wait_on_disk_until_the_release_is_published(tmp_path, m
 
     def commit(self):
         seen["pending"] = sorted(p.name.split("-part-")[0] for p in self.folder.iterdir()
-                                 if p.name.startswith(".pending-"))
+                                 if p.name.startswith(".pending-") and "-part-" in p.name)
         seen["held"] = self.pending
         real_commit(self)
 
@@ -273,7 +274,8 @@ def test_kept_partitions_wait_on_disk_until_the_release_is_published(tmp_path, m
     assert len(seen["pending"]) == 3 and seen["held"] == [0, 1]     # two of this build
     names = sorted(p.name for p in (out / partitions.STORE).iterdir())
     assert names[:2] == [build.KEPT_BREAKPOINTS, partitions.Digests.FILE]
-    assert len(names) == 4 and all(n.startswith("part-") for n in names[2:])
+    assert names[2] == pages.KEPT.format((out / "current").resolve().name)
+    assert len(names) == 5 and all(n.startswith("part-") for n in names[3:])
 
 
 

@@ -29,10 +29,11 @@ class Outcome:
     rows: tuple = ()       # library.tables.pack_rows blocks of own_rows, made in the partitions
 
 
-def release_files(outcome: Outcome, ctx: Settings, release, say=None):
+def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None):
     """Every file of the release into ``release`` (publish.Release: each written as soon as
     it is made), each checked against its schema where it has one; ``say(stage, i, n,
-    label)`` hears of each step (the report species by species)."""
+    label)`` hears of each step (the report species by species). ``pages`` (pages.Drawn)
+    offers the report pages of the last release, linked where drawn from the same inputs."""
 
     from . import report, tables
 
@@ -51,7 +52,7 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None):
         release.update(tables.csv_files(doc, out.table_step))
     if out.report:
         report.report_files(doc, outcome.points, ctx.fit.accept_cp_max_rel, say=say,
-                            put=release.add)
+                            put=release.add, pages=pages.into(release) if pages else None)
     say("write provenance", 0, 0, "provenance.json, manifest.json")
     release.add_chunks("provenance.json", document.json_chunks(
         provenance.prov_document(outcome.fitted, checked.inputs, release.outputs())))

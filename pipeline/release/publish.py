@@ -363,6 +363,7 @@ class Release:
         else:
             path = self.folder / rel
             path.parent.mkdir(parents=True, exist_ok=True)
+            path.unlink(missing_ok=True)       # never written through a link (``link``)
             with open(path, "wb") as fh:
                 for chunk in chunks:
                     digest.update(chunk)
@@ -371,6 +372,31 @@ class Release:
                 fh.flush()
                 os.fsync(fh.fileno())
         self._sums[rel] = digest.digest() + size.to_bytes(8, "big")
+
+    def link(self, rel: str, source: Path, sha256: str, size: int) -> bool:
+        """File ``rel`` as a hard link to ``source`` (a file of an earlier release, never
+        changed in place; its bytes when the release is kept in memory or no link can be
+        made) when ``source`` holds ``size`` bytes of sha256 ``sha256`` (read to check);
+        False, nothing added, when it does not or cannot be read."""
+        try:
+            data = Path(source).read_bytes()
+        except OSError:
+            return False
+        if len(data) != size or hashlib.sha256(data).hexdigest() != sha256:
+            return False
+        if self._kept is not None:
+            self._kept[rel] = data
+        else:
+            path = self.folder / rel
+            path.parent.mkdir(parents=True, exist_ok=True)
+            path.unlink(missing_ok=True)
+            try:
+                os.link(source, path)
+            except OSError:
+                self.add(rel, data)
+                return True
+        self._sums[rel] = bytes.fromhex(sha256) + size.to_bytes(8, "big")
+        return True
 
     def update(self, files: dict) -> None:
         for rel, data in files.items():
@@ -389,6 +415,10 @@ class Release:
     def sha256(self, rel: str) -> str:
         """The sha256 (hex) of file ``rel``."""
         return self._sums[rel][:32].hex()
+
+    def summary(self, rel: str) -> tuple:
+        """(sha256 in hex, size) of file ``rel``."""
+        return self._output(rel)[1:]
 
     def get(self, rel: str, default=None):
         """The bytes of file ``rel`` (read back from disk when written), else ``default``."""

@@ -376,10 +376,12 @@ def index_page(doc) -> bytes:
     return page("Build report", "".join(body), script=PAGER_JS)
 
 
-def report_files(doc, points, accept, workers=None, say=None, put=None) -> dict:
+def report_files(doc, points, accept, workers=None, say=None, put=None, pages=None) -> dict:
     """{relative path: bytes} of the report; with ``put``, each file goes to ``put(path,
     bytes)`` as soon as it is drawn instead (a large report is never held whole) and the
-    dict is empty. ``points`` maps species id to its data:
+    dict is empty. With ``pages`` (release.pages.Drawn, into the release ``put`` writes
+    to), the pages of a species drawn from the same inputs in the last release are linked
+    from it instead of drawn. ``points`` maps species id to its data:
     t, cp (rows used), t_out, cp_out (rows left out), and optional (t, deviation) pairs
     'dh' and 's' against the table's columns. Large reports are drawn by up to ``workers``
     processes (default: the cores of the machine); the files do not depend on how many.
@@ -400,22 +402,45 @@ def report_files(doc, points, accept, workers=None, say=None, put=None) -> dict:
     add = put or files.__setitem__
     done, worst, per_source = 0, [], Counter()
 
+    base = pages.base(accept, transitions) if pages else None
+
     def chunks():
         for i in range(0, len(species), CHUNK):
             chunk = species[i:i + CHUNK]
             worst.extend(100 * s["quality"]["cp_max_rel_dev"] for s in chunk)
             per_source.update(s["sources"][0]["source"] for s in chunk)
-            yield (chunk, {s["id"]: points.get(s["id"], {}) for s in chunk}, accept,
-                   transitions, formation_rows(made, chunk))
+            own = {s["id"]: points.get(s["id"], {}) for s in chunk}
+            formed = formation_rows(made, chunk)
+            if pages:                      # pages drawn from the same inputs are linked
+                taken = set()
+                for s in chunk:
+                    key = pages.key(base, s, own[s["id"]], formed.get(s["id"]))
+                    if pages.take(s["id"], key):
+                        taken.add(s["id"])
+                    else:
+                        pages.wait(s["id"], key)
+                counted([s for s in chunk if s["id"] in taken])
+                chunk = [s for s in chunk if s["id"] not in taken]
+                if not chunk:
+                    continue
+                own = {s["id"]: own[s["id"]] for s in chunk}
+                formed = {s["id"]: formed[s["id"]] for s in chunk if s["id"] in formed}
+            yield chunk, own, accept, transitions, formed
+
+    def counted(chunk):
+        nonlocal done
+        for sp in chunk:
+            done += 1
+            say("write report", done, len(species), sp["id"])
 
     def added(chunk, part):
-        nonlocal done
         for path, data in part.items():
             add(path, data)
         del part
         for sp in chunk:
-            done += 1
-            say("write report", done, len(species), sp["id"])
+            if pages:
+                pages.drew(sp["id"])
+        counted(chunk)
         if done % TRIM_EVERY < len(chunk):
             give_back_memory()
 

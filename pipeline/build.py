@@ -44,6 +44,7 @@ class BuildResult:
     held_back: tuple = ()  # (file, error findings): sources and tables that could not be read
     inputs: tuple = ()     # InputFile of every raw input read
     reused: tuple = (0, 1)  # (partitions taken from the last build, partitions)
+    linked: int = 0         # species whose report pages were linked from the last release
 
 
 def examine(raw_dir, ctx: Settings = Settings(), workers: int = 1,
@@ -452,7 +453,7 @@ def _build_into(files, raw_dir, out_dir, ctx: Settings, say, previous: dict, cut
     return BuildResult(fitted=fitted, quarantined=tuple(quarantined),
                        findings=tuple(findings), document=doc, written=tuple(written),
                        files=files, held_back=checked.held_back, inputs=checked.inputs,
-                       reused=(reused, cut.parts))
+                       reused=(reused, cut.parts), linked=drawn.linked if drawn else 0)
 
 
 def _verify(folder):

@@ -38,6 +38,7 @@ def build_json(result, out, notice: str) -> dict:
             "held_back": [{"file": f, "code": errs[0].code} for f, errs in result.held_back],
             "out": str(out), "files": len(result.written),
             "partitions": {"reused": result.reused[0], "of": result.reused[1]},
+            "report_pages_linked": result.linked,
             "notice": notice}
 
 
@@ -84,6 +85,9 @@ def build_summary(result, out, notice: str) -> list:
     if reused:
         lines.append(f"reused {reused} of {parts} partition(s) of species from the last build "
                      "(inputs, settings and code unchanged; --fresh recomputes them)")
+    if result.linked:
+        lines.append(f"linked the report pages of {result.linked} species from the last release "
+                     "(drawn from the same inputs; --fresh draws them all)")
     lines.append(f"caution: {notice}")
     return lines
 

@@ -143,7 +143,7 @@ def _output_entity(output) -> tuple:
                                       "tl:sha256": digest}
 
 
-class _unique:
+class _Unique:
     """The (id, entity) pairs of a sequence of them, each id once, in the place of its
     first pair and with the entity of its last (as a dict made of them has): a list of
     ids is held only while the repeated ones are found, and then only those."""
@@ -178,7 +178,7 @@ def prov_document(fitted, inputs, outputs) -> dict:
     fitted = briefs_of(fitted)
     raw_id = {f.path: "raw:" + safe_name(f.path) for f in inputs}
     out = Derived(outputs, _output_entity)     # some 200 000 at 100 000 species
-    files = (_unique(Derived(inputs, _raw_entity)), _unique(out))   # paths may share an id
+    files = (_Unique(Derived(inputs, _raw_entity)), _Unique(out))   # paths may share an id
     stems = [file_stem(sp.species_id) for sp in fitted]
     used = [[raw_id[file] for file in sp.used if file in raw_id] for sp in fitted]
     # every relation has a number, counted over all kinds in the order: the build's agent,

@@ -363,7 +363,8 @@ class Release:
         else:
             path = self.folder / rel
             path.parent.mkdir(parents=True, exist_ok=True)
-            path.unlink(missing_ok=True)       # never written through a link (``link``)
+            if rel in self._sums:              # never written through a link (``link``)
+                path.unlink(missing_ok=True)
             with open(path, "wb") as fh:
                 for chunk in chunks:
                     digest.update(chunk)
@@ -389,7 +390,8 @@ class Release:
         else:
             path = self.folder / rel
             path.parent.mkdir(parents=True, exist_ok=True)
-            path.unlink(missing_ok=True)
+            if rel in self._sums:              # the staging folder holds only what was added
+                path.unlink(missing_ok=True)
             try:
                 os.link(source, path)
             except OSError:

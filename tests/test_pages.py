@@ -146,3 +146,26 @@ def test_the_kept_pages_are_written_in_the_order_the_species_came(tmp_path):
                                                      ("A(g)", "B(g)", "C(g)")]
     assert lines[1][2] == [[pages.page_paths("B(g)")[0],
                             hashlib.sha256(b"B(g)").hexdigest(), 4]]
+
+
+def test_the_kept_pages_are_read_forward_past_species_added_or_gone(tmp_path):
+    """The kept lines are read once, forward, as the species come in id order: a species
+    the last release did not have finds nothing, one it had finds its own line past those
+    of species gone since, and a line that does not read stops the reading (nothing more
+    is linked, nothing is linked wrongly)."""
+    home = tmp_path / "home"
+    rid = "0123456789abcdef"
+    (home / "releases" / rid).mkdir(parents=True)
+    (home / "current").symlink_to(f"releases/{rid}")
+    (home / publish.STORE).mkdir()
+    lines = [json.dumps([sid, f"k{sid}", []]) for sid in ("A(g)", "C(g)", "E(g)", "G(g)")]
+    (home / publish.STORE / pages.KEPT.format(rid)).write_text(
+        "\n".join(lines[:3] + ["not json", lines[3]]) + "\n")
+    drawn = pages.Drawn(home, "code")
+    assert drawn.folder == (home / "releases" / rid).resolve()
+    assert drawn._kept("B(g)") is None
+    assert drawn._kept("C(g)") == ["C(g)", "kC(g)", []]
+    assert drawn._kept("D(g)") is None
+    assert drawn._kept("F(g)") is None                  # E(g) is gone
+    assert drawn._kept("G(g)") is None                  # past a line that does not read
+    assert pages.Drawn(home, "code", use=False).folder is None

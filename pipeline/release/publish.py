@@ -61,38 +61,26 @@ def _is_inside(a: Path, b: Path) -> bool:
 
 
 #: how a manifest written by a build (release/document.json_chunks: two-space indentation)
-#: begins, and starts and ends its list of outputs: a line that starts with two spaces and
-#: a quote is a key of the top-level object (a string never holds a raw line break)
+#: begins
 MANIFEST_HEAD = b'{\n  "manifest_format": 1,\n'
-_OUTPUTS_START, _LIST_END = b'\n  "outputs": [', b"\n  ]"
 
 
 def manifest_outputs(path: Path):
     """The "outputs" of the thermoledger manifest at ``path`` (manifest_format 1 with a list
     of outputs), else None. Read up to the end of that list when the file begins as a
-    build writes it (at 100 000 species the manifest is some 300 MB, its outputs a few
-    lines near the top; the data package holds the manifest's own sha256), else whole
-    (orjson)."""
+    build writes it (``listed``: at 100 000 species the manifest is some 300 MB, its
+    outputs a few lines near the top; the data package holds the manifest's own sha256),
+    else whole (orjson)."""
     import orjson
 
     try:
-        with open(path, "rb") as fh:
-            head = bytearray(fh.read(len(MANIFEST_HEAD)))
-            while head.startswith(MANIFEST_HEAD):
-                start = head.find(_OUTPUTS_START)
-                if start >= 0:
-                    after = start + len(_OUTPUTS_START)
-                    if head[after:after + 1] == b"]":
-                        return []
-                    end = head.find(_LIST_END, after)
-                    if end >= 0:
-                        outputs = orjson.loads(bytes(head[after - 1:end + len(_LIST_END)]))
-                        return outputs if isinstance(outputs, list) else None
-                chunk = fh.read(1 << 22)
-                if not chunk:
-                    return None
-                head += chunk
-            doc = orjson.loads(bytes(head + fh.read()))
+        items = listed(path, "outputs", MANIFEST_HEAD)
+        if items is not None:
+            try:
+                return list(items)
+            except ValueError:
+                pass                    # not laid out an object a line: read it whole
+        doc = orjson.loads(Path(path).read_bytes())
     except (OSError, ValueError):
         return None
     if isinstance(doc, dict) and doc.get("manifest_format") == 1 and isinstance(

@@ -21,7 +21,6 @@ Start-up of ``check`` (an empty folder) and ``props`` (the demo library) is prin
 """
 
 import argparse
-import json
 import os
 import subprocess
 import sys
@@ -32,51 +31,15 @@ from pathlib import Path
 
 import numpy as np
 from thermoledger.core.constants import GAS_CONSTANT
-from thermoledger.physics import statmech
+from thermoledger.testing.catalogue import write_catalogue
 
 ROOT = Path(__file__).resolve().parent.parent
-#: species per source beyond four sources (a source.json of 2 000 tables is about 0.5 MB)
-SOURCE_TABLES = 2000
 COMMAND = [str(Path(sys.executable).with_name("thermoledger"))]
 
 
 def make_raw(raw: Path, n: int, points: int, seed: int = 1, flagged: bool = False) -> None:
-    """Write n species into four sources, or one per SOURCE_TABLES species when there are
-    more (a source.json stays under the size ingest accepts); with flagged, every table has
-    one outlier (+3 %) that its source.json acknowledges, so every table carries a
-    finding."""
-    n_sources = max(4, -(-n // SOURCE_TABLES))
-    rng = np.random.default_rng(seed)
-    t = np.unique(np.append(np.geomspace(200.0, 3000.0, points - 1), 298.15))
-    per_source = {}
-    for i in range(n):
-        atoms = int(rng.integers(2, 9))
-        geometry = "linear" if atoms == 2 or rng.random() < 0.3 else "nonlinear"
-        modes = 3 * atoms - (5 if geometry == "linear" else 6)
-        nu = rng.uniform(300.0, 3500.0, modes)
-        cp = GAS_CONSTANT * statmech.rrho_cp_over_r(t, geometry, nu)
-        cp *= 1 + 1e-3 * rng.standard_normal(t.size)
-        if flagged:
-            cp[t.size // 2] *= 1.03
-        formula = f"C{atoms - 1}O" if atoms > 2 else "CO"
-        source = f"bench-{i % n_sources}"
-        folder = raw / source
-        folder.mkdir(parents=True, exist_ok=True)
-        name = f"s{i:06d}"
-        lines = ["T [K],Cp [J/(mol*K)]"] + [f"{a:.6g},{b:.6f}" for a, b in zip(t, cp)]
-        (folder / f"{name}.csv").write_text("\n".join(lines) + "\n")
-        per_source.setdefault(source, []).append(
-            {"file": f"{name}.csv", "species": name, "formula": formula, "phase": "g",
-             "geometry": geometry, "enthalpy_of_formation_298": "-100 kJ/mol",
-             "entropy_298": "250 J/(mol*K)"})
-        if flagged:
-            per_source[source][-1]["acknowledge"] = [
-                {"code": "SMOOTH-OUTLIER", "reason": "planted by the benchmark"}]
-    for k, (source, tables) in enumerate(sorted(per_source.items())):
-        doc = {"source": source, "title": "benchmark", "citation": "synthetic",
-               "method": "estimation", "standard_pressure": "1 bar", "priority": k,
-               "license": "CC0-1.0", "notes": "SYNTHETIC benchmark data", "tables": tables}
-        (raw / source / "source.json").write_text(json.dumps(doc))
+    """The synthetic catalogue of n species (thermoledger.testing.catalogue)."""
+    write_catalogue(raw, n, points, seed, flagged)
 
 
 def _tree_rss(root: int) -> int:

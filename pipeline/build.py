@@ -110,13 +110,34 @@ def held_back(tables, findings) -> tuple:
                  for k, v in sorted(about.items()))
 
 
-def fit_selection(sel, ctx: Settings, previous=None, who=None):
+def fit_selection(sel, ctx: Settings, previous=None, who=None, searched=None):
     """Fit one reconciled species with the build's settings and its table's overrides;
     ``previous`` its breakpoints in the previous release (offered to the search); ``who``
-    its identity and anchors (by default those of its preferred table)."""
+    its identity and anchors (by default those of its preferred table); ``searched`` its
+    (CpData, chosen breakpoints) from the batched search (``batch_searched``), or None."""
     meta = sel.primary.meta
-    return fit.fit_species(who or SpeciesIdentity.of_table(meta), CpData.of_rows(sel.data),
-                           for_table(ctx.fit, meta.fit_overrides), previous)
+    data, chosen = searched or (CpData.of_rows(sel.data), None)
+    return fit.fit_species(who or SpeciesIdentity.of_table(meta), data,
+                           for_table(ctx.fit, meta.fit_overrides), previous, chosen)
+
+
+def batch_searched(order, ctx: Settings, previous: dict, chained) -> dict:
+    """{species id: (CpData, chosen breakpoints)} of the selections of ``order`` whose
+    breakpoints the batched path searched (fit/batched.py): those fitted from tables (not a
+    published set), outside a chain of phases (``chained``: ids whose identity depends on
+    another phase's fit)."""
+    data, items = {}, []
+    for sel in order:
+        meta, sid = sel.primary.meta, sel.species_id
+        if meta.published is not None or sid in chained:
+            continue
+        try:
+            data[sid] = CpData.of_rows(sel.data)
+        except Exception:  # noqa: BLE001 - fit_selection reports what is wrong
+            continue
+        items.append((sid, SpeciesIdentity.of_table(meta), data[sid],
+                      for_table(ctx.fit, meta.fit_overrides), previous.get(sid)))
+    return {sid: (data[sid], chosen) for sid, chosen in fit.batched.choices(items).items()}
 
 
 def settle_set(sel, ctx: Settings, about):
@@ -269,6 +290,7 @@ def _fit_all(checked: CheckResult, ctx: Settings, say, previous: dict):
     order = fit.phases.fitting_order(checked.selections, checked.chains)
     chain_of = fit.phases.chains_by_id(checked.chains)
     about = by_subject(findings)
+    searched = batch_searched(order, ctx, previous, chain_of)
     for k, sel in enumerate(order):
         meta = sel.primary.meta
         say("fit", k + 1, len(order), sel.species_id)
@@ -278,7 +300,8 @@ def _fit_all(checked: CheckResult, ctx: Settings, say, previous: dict):
             if meta.published is not None:
                 result = settle_set(sel, ctx, about)
             else:
-                result = fit_selection(sel, ctx, previous.get(sel.species_id), who)
+                result = fit_selection(sel, ctx, previous.get(sel.species_id), who,
+                                       searched.get(sel.species_id))
             notes = [finding(code, msg, **meta.where) for code, msg in result.notes]
             notes = [f.about_species(sel.species_id) for f in notes] if meta.shared else notes
             rows = rows_used(sel.data)

@@ -53,10 +53,18 @@ def _fixed(t, settings: FitSettings):
     return bps
 
 
-def choose(t, y, sigma, form, settings: FitSettings, previous=None):
-    """(breakpoints [K], notes, Choice or None) for Cp/R rows ``y`` ± ``sigma`` at ``t``;
-    ``previous`` the previous release's breakpoints of the species (or None). ValueError
-    when the data cannot hold the requested ranges."""
+@dataclass(frozen=True)
+class _Search:
+    """What ``_plan`` leaves to the optimiser: ``nr`` ranges under ``rules``, with ``notes``."""
+
+    nr: int
+    rules: breakpoints.SearchRules
+    notes: list
+
+
+def _plan(t, form, settings: FitSettings):
+    """What the temperatures ``t`` alone decide: the final (breakpoints, notes, None) of a
+    fixed, conventional or single-range choice, or the _Search to run on the data."""
     need = points_per_range(form, settings)
     nr = settings.ranges
     if settings.breakpoint_mode == "fixed":
@@ -92,19 +100,88 @@ def choose(t, y, sigma, form, settings: FitSettings, previous=None):
                                     need=need, bounds=(settings.breakpoint_min,
                                                        settings.breakpoint_max),
                                     max_candidates=settings.max_candidates, ratio=ratio)
+    return _Search(nr, rules, notes)
+
+
+def choose(t, y, sigma, form, settings: FitSettings, previous=None):
+    """(breakpoints [K], notes, Choice or None) for Cp/R rows ``y`` ± ``sigma`` at ``t``;
+    ``previous`` the previous release's breakpoints of the species (or None). ValueError
+    when the data cannot hold the requested ranges."""
+    plan = _plan(t, form, settings)
+    if not isinstance(plan, _Search):
+        return plan
     obs = breakpoints.Observations(t, y, sigma)
-    best = breakpoints.optimise(obs, form.powers, nr, rules)
+    best = breakpoints.optimise(obs, form.powers, plan.nr, plan.rules)
     if settings.breakpoint_mode != "optimise":
-        return best, notes, None
-    conv = breakpoints.conventional(t, nr, settings.breakpoint, rules.need, rules.ratio)
-    bps, why, choice = _steady(obs, form, rules, best, settings,
-                               (tuple(conv), "conventional") if conv else None)
-    if _suits(t, previous, nr, rules) and tuple(previous) != tuple(bps):
+        return best, plan.notes, None
+    conv = breakpoints.conventional(t, plan.nr, settings.breakpoint, plan.rules.need,
+                                    plan.rules.ratio)
+    steady = _steady(obs, form, plan.rules, best, settings,
+                     (tuple(conv), "conventional") if conv else None)
+    return _offer_previous(obs, form, plan, best, settings, previous, steady)
+
+
+def _offer_previous(obs, form, plan: _Search, best, settings, previous, steady):
+    """The choice ``steady`` (breakpoints, note, Choice), or the previous release's
+    breakpoints kept by ``_steady`` when they suit the data and differ from it; with the
+    plan's notes."""
+    bps, why, choice = steady
+    if _suits(obs.t, previous, plan.nr, plan.rules) and tuple(previous) != tuple(bps):
         # a rebuild offered what a fresh build chooses records the fresh choice, so a second
         # build from the same data gives the same release
-        bps, why, choice = _steady(obs, form, rules, best, settings,
+        bps, why, choice = _steady(obs, form, plan.rules, best, settings,
                                    (tuple(float(b) for b in previous), "previous release"))
-    return bps, notes + ([why] if why else []), choice
+    return bps, plan.notes + ([why] if why else []), choice
+
+
+def choose_many(t, ys, sigmas, form, settings: FitSettings, previous) -> list:
+    """``choose`` of many tables that share their temperatures ``t`` (and settings): for each
+    row of ``ys`` ± ``sigmas`` (S, n) and its entry of ``previous``, (breakpoints, notes,
+    Choice) or the ValueError ``choose`` raises. The same choices, figure for figure, as
+    ``choose`` of each table alone: the two-range search and the comparison with the
+    conventional breakpoint are solved for all tables in one batched call each
+    (breakpoints.optimise_many, lsq.batch_objectives), everything else as ``choose`` does
+    it."""
+    try:
+        plan = _plan(t, form, settings)
+    except ValueError as exc:
+        return [exc] * len(ys)
+    if not isinstance(plan, _Search):
+        return [(list(plan[0]), list(plan[1]), plan[2])] * len(ys)
+    if plan.nr != 2:
+        return [_attempt(choose, t, y, sig, form, settings, prev)
+                for y, sig, prev in zip(ys, sigmas, previous)]
+    bests = breakpoints.optimise_many(t, ys, sigmas, form.powers, plan.rules)
+    conv = breakpoints.conventional(t, plan.nr, settings.breakpoint, plan.rules.need,
+                                    plan.rules.ratio)
+    out = [None] * len(ys)
+    ok = [i for i, b in enumerate(bests) if not isinstance(b, ValueError)]
+    for i, b in enumerate(bests):
+        if isinstance(b, ValueError):
+            out[i] = b
+        elif settings.breakpoint_mode != "optimise":
+            out[i] = (b, list(plan.notes), None)
+    if settings.breakpoint_mode != "optimise" or not ok:
+        return out
+    rms = None
+    if conv:
+        sets = np.array([[conv, bests[i]] for i in ok], dtype=float)
+        rms = breakpoints.objectives_for(t, ys[ok], sigmas[ok], form.powers, sets,
+                                         replace(plan.rules, norm="rms"))
+    for row, i in enumerate(ok):
+        obs = breakpoints.Observations(t, ys[i], sigmas[i])
+        steady = _settled(obs, bests[i], settings, (tuple(conv), "conventional"), rms[row]) \
+            if conv else (bests[i], None, Choice(optimum=tuple(bests[i])))
+        out[i] = _offer_previous(obs, form, plan, bests[i], settings, previous[i], steady)
+    return out
+
+
+def _attempt(f, *args):
+    """f(*args), or the ValueError it raises."""
+    try:
+        return f(*args)
+    except ValueError as exc:
+        return exc
 
 
 def _suits(t, previous, nr: int, rules) -> bool:
@@ -125,9 +202,14 @@ def _steady(obs, form, rules, best, settings: FitSettings, offer):
     optimum lowers χ² of the Cp rows by more than ``breakpoint_stability``."""
     if offer is None:
         return best, None, Choice(optimum=tuple(best))
-    offered, by = offer
-    rms = breakpoints.objective_for(obs, form.powers, np.array([offered, best], dtype=float),
+    rms = breakpoints.objective_for(obs, form.powers, np.array([offer[0], best], dtype=float),
                                     replace(rules, norm="rms"))
+    return _settled(obs, best, settings, offer, rms)
+
+
+def _settled(obs, best, settings: FitSettings, offer, rms):
+    """``_steady`` of the rms objectives ``rms`` of the offered set and of ``best``."""
+    offered, by = offer
     gain = max(0.0, len(obs.t) * float(rms[0] ** 2 - rms[1] ** 2))
     kept = gain <= settings.breakpoint_stability
     choice = Choice(optimum=tuple(best), offered=offered, offered_by=by, chi2_gain=gain,

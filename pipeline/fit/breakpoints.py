@@ -67,17 +67,54 @@ def _candidates(t, lo_idx, hi_idx, rules: SearchRules, lo_edge=None, hi_edge=Non
 
 def objective_for(obs: Observations, powers, sets, rules: SearchRules):
     """Objective of each breakpoint set in ``sets`` [K], shape (K, nb) -> (K,)."""
-    t, order = obs.t, rules.order
+    return objectives_for(obs.t, np.asarray(obs.y)[None], np.asarray(obs.sigma)[None], powers,
+                          np.asarray(sets, dtype=float)[None], rules)[0]
+
+
+def objectives_for(t, ys, sigmas, powers, sets, rules: SearchRules):
+    """``objective_for`` of S tables at the same temperatures ``t`` [K] at once: ``ys`` ±
+    ``sigmas`` (S, n) and each table's breakpoint sets [K] (S, K, nb) -> (S, K)."""
+    order = rules.order
     sets = np.asarray(sets, dtype=float)
-    kk, nb = sets.shape
+    ss, kk, nb = sets.shape
     tau = np.asarray(t, dtype=float) / forms.T_SCALE
     v = basis.powers_row(powers, tau)
     n = len(t)
-    starts = np.zeros((kk, nb + 2), dtype=int)
-    starts[:, 1:-1] = np.searchsorted(t, sets, side="right")   # points <= b: lower range
-    starts[:, -1] = n
-    c = basis.continuity_rows_of_sets(powers, sets, order)
-    return lsq.batch_objective(v, obs.y, obs.sigma, starts, c, rules.norm)
+    starts = np.zeros((ss, kk, nb + 2), dtype=int)
+    starts[:, :, 1:-1] = np.searchsorted(t, sets, side="right")   # points <= b: lower range
+    starts[:, :, -1] = n
+    c = basis.continuity_rows_of_sets(powers, sets.reshape(ss * kk, nb), order)
+    return lsq.batch_objectives(v, ys, sigmas, starts, c.reshape(ss, kk, *c.shape[1:]),
+                                rules.norm)
+
+
+def optimise_many(t, ys, sigmas, powers, rules: SearchRules = SearchRules()) -> list:
+    """``optimise`` with two ranges of S tables at the same temperatures ``t`` [K]: for each
+    row of ``ys`` ± ``sigmas`` (S, n), its breakpoint [K] (a list of one) or the ValueError
+    ``optimise`` raises; every table's candidates solved in one batched call, and each
+    pick made as ``optimise`` makes it."""
+    n = len(t)
+    if n < 2 * rules.need:
+        return [_too_few(n, 2, rules)] * len(ys)
+    here = float(np.exp(np.median(np.log(t))))
+    cands = _candidates(t, 0, n - 1, rules)
+    if len(cands):
+        obj = objectives_for(t, ys, sigmas, powers,
+                             np.broadcast_to(cands[:, None], (len(ys), len(cands), 1)), rules)
+        picks = [float(cands[_pick(row, cands, here)]) for row in obj]
+    else:
+        picks = [here] * len(ys)
+    return [_no_room(2, rules) if too_narrow([t[0], b, t[-1]], rules.ratio)
+            else [float(round(b, 3))] for b in picks]
+
+
+def _too_few(n: int, n_ranges: int, rules: SearchRules) -> ValueError:
+    return ValueError(f"{n} points cannot fill {n_ranges} ranges of {rules.need}")
+
+
+def _no_room(n_ranges: int, rules: SearchRules) -> ValueError:
+    return ValueError(f"no breakpoints leave {n_ranges} ranges of at least {rules.need} points "
+                      f"each at least {rules.ratio:g} times wider at the top than at the bottom")
 
 
 def optimise(obs: Observations, powers, n_ranges: int, rules: SearchRules = SearchRules(), *,
@@ -90,13 +127,14 @@ def optimise(obs: Observations, powers, n_ranges: int, rules: SearchRules = Sear
         return []
     n = len(t)
     if n < n_ranges * need:
-        raise ValueError(f"{n} points cannot fill {n_ranges} ranges of {need}")
-    if start is not None:
-        current = list(start)
-    elif nb == 1:
-        current = [float(np.exp(np.median(np.log(t))))]
-    else:
-        current = _coarse_start(obs, powers, nb, rules)
+        raise _too_few(n, n_ranges, rules)
+    if nb == 1 and start is None:     # exhaustive: one batch of every candidate
+        best = optimise_many(t, np.asarray(obs.y)[None], np.asarray(obs.sigma)[None], powers,
+                             rules)[0]
+        if isinstance(best, ValueError):
+            raise best
+        return best
+    current = list(start) if start is not None else _coarse_start(obs, powers, nb, rules)
     best_obj = None
     for sweep in range(sweeps if nb > 1 else 1):
         changed = False
@@ -122,8 +160,7 @@ def optimise(obs: Observations, powers, n_ranges: int, rules: SearchRules = Sear
             break
     edges = [t[0]] + list(current) + [t[-1]]
     if too_narrow(edges, ratio):
-        raise ValueError(f"no breakpoints leave {n_ranges} ranges of at least {need} points "
-                         f"each at least {ratio:g} times wider at the top than at the bottom")
+        raise _no_room(n_ranges, rules)
     return [float(round(b, 3)) for b in current]
 
 

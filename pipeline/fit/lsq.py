@@ -155,49 +155,68 @@ def minimax(a, y, sigma, c=None, iterations=200, tol=1e-9) -> Solution:
 
 
 def batch_objective(v, y, sigma, starts, c, norm="max"):
-    """Objective of many candidate problems at once, from prefix sums of the normal equations.
+    """Objective of many candidate problems of one table at once (``batch_objectives`` of a
+    single table): ``y``, ``sigma`` (n,), ``starts`` (K, nr + 1), ``c`` (K, r, nr*m) ->
+    (K,)."""
+    return batch_objectives(v, np.asarray(y, dtype=float)[None], np.asarray(
+        sigma, dtype=float)[None], np.asarray(starts)[None], np.asarray(c)[None], norm)[0]
 
-    v : (n, m) basis rows of every point (one range's columns), points sorted by T
-    starts : (K, nr + 1) indices into the points where each range begins (last = n)
-    c : (K, r, nr*m) continuity constraints of each candidate
-    Returns (K,) — the largest |weighted residual| ('max') or the rms ('rms').
+
+def batch_objectives(v, y, sigma, starts, c, norm="max"):
+    """Objective of many candidate problems of many tables at once, from prefix sums of the
+    normal equations.
+
+    v : (n, m) basis rows of every point (one range's columns), points sorted by T, the
+        same for every table (the tables share their temperatures)
+    y, sigma : (S, n) the observations of each of S tables and their σ
+    starts : (S, K, nr + 1) indices into the points where each range begins (last = n)
+    c : (S, K, r, nr*m) continuity constraints of each candidate
+    Returns (S, K) — the largest |weighted residual| ('max') or the rms ('rms').
 
     Each candidate's block-diagonal normal matrix comes from differences of prefix sums, and
-    its KKT system [[G, Cᵀ], [C, 0]] is solved for all candidates in one batched call, in a
-    basis orthonormalised over all points (the same functions, better conditioned). The
-    objective only ranks candidates; the chosen one is solved again by ``solve``.
+    its KKT system [[G, Cᵀ], [C, 0]] is solved for all candidates of all tables in one
+    batched call, in a basis orthonormalised over all points of each table (the same
+    functions, better conditioned). Every table's figures are computed by the same
+    operations whatever else is in the batch (stacked LAPACK and matrix products act on
+    each table alone), so a table gets the same objective alone or in a batch. The objective
+    only ranks candidates; the chosen one is solved again by ``solve``.
     """
     v = np.asarray(v, dtype=float)
     n, m = v.shape
-    w = 1.0 / np.asarray(sigma, dtype=float)
+    w = 1.0 / np.asarray(sigma, dtype=float)                       # (S, n)
+    ss = w.shape[0]
     # a fixed change of basis spans the same functions on every subset of points: the
     # orthonormal columns of the weighted basis over all points condition every range's
     # normal equations far better than raw powers of tau
-    vw, transform = np.linalg.qr(v * w[:, None])
+    vw, transform = np.linalg.qr(v[None, :, :] * w[:, :, None])    # (S, n, m), (S, m, m)
     scale = np.linalg.inv(transform)                     # old coefficients = scale @ new
-    b = np.asarray(y, dtype=float) * w
-    pg = np.concatenate([np.zeros((1, m, m)), np.cumsum(vw[:, :, None] * vw[:, None, :], 0)])
-    pq = np.concatenate([np.zeros((1, m)), np.cumsum(vw * b[:, None], 0)])
-    kk, nr1 = starts.shape
+    b = np.asarray(y, dtype=float) * w                             # (S, n)
+    pg = np.concatenate([np.zeros((ss, 1, m, m)),
+                         np.cumsum(vw[:, :, :, None] * vw[:, :, None, :], 1)], axis=1)
+    pq = np.concatenate([np.zeros((ss, 1, m)), np.cumsum(vw * b[:, :, None], 1)], axis=1)
+    _, kk, nr1 = starts.shape
     nr = nr1 - 1
-    r = c.shape[1]
+    r = c.shape[2]
     size = nr * m + r
-    kkt = np.zeros((kk, size, size))
-    rhs = np.zeros((kk, size))
+    kkt = np.zeros((ss, kk, size, size))
+    rhs = np.zeros((ss, kk, size))
+    table = np.arange(ss)[:, None]
     for j in range(nr):
-        lo, hi = starts[:, j], starts[:, j + 1]
+        lo, hi = starts[:, :, j], starts[:, :, j + 1]
         sl = slice(j * m, (j + 1) * m)
-        kkt[:, sl, sl] = pg[hi] - pg[lo]
-        rhs[:, sl] = pq[hi] - pq[lo]
-    cs = np.concatenate([c[:, :, j * m:(j + 1) * m] @ scale for j in range(nr)], axis=2)
-    kkt[:, nr * m:, :nr * m] = cs
-    kkt[:, :nr * m, nr * m:] = np.swapaxes(cs, 1, 2)
-    sol = np.linalg.solve(kkt, rhs[..., None])[..., 0][:, :nr * m].reshape(kk, nr, m)
-    pos = np.arange(n)[None, :]
-    res = np.where(pos < starts[:, 1:2], sol[:, 0, :] @ vw.T, 0.0) - b[None, :]
+        kkt[:, :, sl, sl] = pg[table, hi] - pg[table, lo]
+        rhs[:, :, sl] = pq[table, hi] - pq[table, lo]
+    cs = np.concatenate([c[:, :, :, j * m:(j + 1) * m] @ scale[:, None] for j in range(nr)],
+                        axis=3)
+    kkt[:, :, nr * m:, :nr * m] = cs
+    kkt[:, :, :nr * m, nr * m:] = np.swapaxes(cs, 2, 3)
+    sol = np.linalg.solve(kkt, rhs[..., None])[..., 0][..., :nr * m].reshape(ss, kk, nr, m)
+    pos = np.arange(n)[None, None, :]
+    vt = np.swapaxes(vw, 1, 2)                                     # (S, m, n)
+    res = np.where(pos < starts[:, :, 1:2], sol[:, :, 0, :] @ vt, 0.0) - b[:, None, :]
     for j in range(1, nr):
-        inside = (pos >= starts[:, j:j + 1]) & (pos < starts[:, j + 1:j + 2])   # (K, n)
-        res += np.where(inside, sol[:, j, :] @ vw.T, 0.0)
+        inside = (pos >= starts[:, :, j:j + 1]) & (pos < starts[:, :, j + 1:j + 2])
+        res += np.where(inside, sol[:, :, j, :] @ vt, 0.0)
     if norm == "rms":
-        return np.sqrt(np.mean(res ** 2, axis=1))
-    return np.max(np.abs(res), axis=1)
+        return np.sqrt(np.mean(res ** 2, axis=2))
+    return np.max(np.abs(res), axis=2)

@@ -88,8 +88,7 @@ def _range_of_use(who: SpeciesIdentity, t, cp, settings: FitSettings):
     """
     tref, t0, tn = who.anchor_t, float(t[0]), float(t[-1])
     reach = [tref, *who.span]
-    lo = min(t0, *reach, settings.use_t_min if settings.use_t_min is not None else np.inf)
-    hi = max(tn, *reach, settings.use_t_max if settings.use_t_max is not None else -np.inf)
+    lo, hi = _wanted(who, t, settings)
     if t0 - min(reach) > settings.max_anchor_extension:
         raise FitError(who.species_id, f"the data start at {t0:.6g} K, more than "
                        f"{settings.max_anchor_extension:g} K above {min(reach):.6g} K where H "
@@ -111,11 +110,8 @@ def _range_of_use(who: SpeciesIdentity, t, cp, settings: FitSettings):
             notes.append(("COV-EXTRAPOLATED", "condensed phase: the range of use is limited to "
                           f"{lo_c:.6g}-{hi_c:.6g} K (never extrapolated further)"))
         return lo_c, hi_c, extensions, notes
-    guided = settings.extrapolate and who.geometry and who.atoms
-    for side, target in (("high", hi), ("low", lo)):
-        beyond = target > tn * 1.0001 if side == "high" else target < t0 * 0.9999
-        if not beyond or (side == "low" and target >= tref - 1e-9):
-            continue                    # a short stretch down to 298.15 K: the polynomial
+    guided = _guided(who, settings)
+    for side, target in _beyond(who, t, lo, hi):
         ext = extrapolate.extend(t, cp, who.geometry, who.atoms, target,
                                  side=side) if guided else None
         if ext is None and side == "high" and tn < tref:
@@ -135,16 +131,62 @@ def _range_of_use(who: SpeciesIdentity, t, cp, settings: FitSettings):
     return lo, hi, extensions, notes
 
 
+def _wanted(who: SpeciesIdentity, t, settings: FitSettings):
+    """(lo, hi) [K]: the range of use asked for, widened to the data, the anchor temperature
+    and the phase's transitions."""
+    reach = [who.anchor_t, *who.span]
+    lo = min(float(t[0]), *reach, settings.use_t_min if settings.use_t_min is not None
+             else np.inf)
+    hi = max(float(t[-1]), *reach, settings.use_t_max if settings.use_t_max is not None
+             else -np.inf)
+    return lo, hi
+
+
+def _guided(who: SpeciesIdentity, settings: FitSettings) -> bool:
+    """Whether an ideal gas beyond its data is carried by an extrapolation model."""
+    return bool(settings.extrapolate and who.geometry and who.atoms)
+
+
+def _beyond(who: SpeciesIdentity, t, lo, hi) -> list:
+    """(side, target [K]) of each side where the range of use (lo, hi) [K] reaches past the
+    data of an ideal gas far enough to be extrapolated (a short stretch down to 298.15 K is
+    left to the polynomial)."""
+    t0, tn = float(t[0]), float(t[-1])
+    out = []
+    if hi > tn * 1.0001:
+        out.append(("high", hi))
+    if lo < t0 * 0.9999 and lo < who.anchor_t - 1e-9:
+        out.append(("low", lo))
+    return out
+
+
+def extended(who: SpeciesIdentity, data: CpData, settings: FitSettings) -> bool:
+    """Whether the fit of ``data`` carries an extrapolation model's rows beside the data
+    (an ideal gas whose range of use reaches past its data, with a model to try): only
+    then are the rows the breakpoints are searched on more than the data's."""
+    return who.phase == "g" and _guided(who, settings) and \
+        bool(_beyond(who, data.t, *_wanted(who, data.t, settings)))
+
+
+def search_rows(data: CpData, settings: FitSettings):
+    """(T [K], Cp/R, σ/R) of the data rows as the breakpoint search sees them (without an
+    extension; ``extended``)."""
+    sigma = data.u_cp if data.u_cp is not None else settings.inferred_cp_uncertainty * data.cp
+    return data.t, data.cp / R, sigma / R
+
+
 def _solve(who, form, rows, data: CpData, span, settings: FitSettings, fixed=None, pins=(),
-           previous=None) -> beyond.Fitted:
+           previous=None, chosen=None) -> beyond.Fitted:
     """The Fitted solution of the Cp rows (t, cp, σ) [K, J/(mol K)] and the table's H and S
     columns over ``span`` (lo, hi) [K]: breakpoints chosen (breakchoice.py; ``previous``
-    the previous release's breakpoints on offer), or ``fixed``; dCp/dT = 0 at the ``pins``
-    [K]."""
+    the previous release's breakpoints on offer; ``chosen`` what breakchoice.choose_many
+    chose for these rows), or ``fixed``; dCp/dT = 0 at the ``pins`` [K]."""
     all_t, all_cp, all_sig = rows
     lo, hi = span
     notes, choice = [], None
-    if fixed is None:
+    if fixed is None and chosen is not None:
+        bps, notes, choice = list(chosen[0]), list(chosen[1]), chosen[2]
+    elif fixed is None:
         try:
             bps, notes, choice = breakchoice.choose(all_t, all_cp / R, all_sig / R, form,
                                                     settings, previous)
@@ -170,7 +212,7 @@ def _solve(who, form, rows, data: CpData, span, settings: FitSettings, fixed=Non
 
 
 def fit_species(who: SpeciesIdentity, data: CpData, settings: FitSettings = FitSettings(),
-                previous=None) -> FitResult:
+                previous=None, chosen=None) -> FitResult:
     """Fit one species.
 
     Parameters
@@ -182,6 +224,9 @@ def fit_species(who: SpeciesIdentity, data: CpData, settings: FitSettings = FitS
     settings : the fit settings with the table's own overrides applied
     previous : the breakpoints [K] of the species in the previous release, offered to an
         optimised search (breakchoice.py), or None
+    chosen : (breakpoints, notes, Choice) that breakchoice.choose_many chose for
+        ``search_rows`` of ``data`` (with ``previous``), when the fit is not ``extended``;
+        None to search here
 
     Returns
     -------
@@ -218,7 +263,7 @@ def fit_species(who: SpeciesIdentity, data: CpData, settings: FitSettings = FitS
     srt = np.argsort(all_t, kind="stable")
     all_t, all_cp, all_sig = all_t[srt], all_cp[srt], all_sig[srt]
     fitted = _solve(who, form, (all_t, all_cp, all_sig), data, (lo, hi), settings,
-                    previous=previous)
+                    previous=previous, chosen=None if extensions else chosen)
     if any(e.side == "high" for e in extensions):
         def solve(rows, span, fixed=None, pins=()):
             return _solve(who, form, rows, data, span, settings, fixed, pins, previous)

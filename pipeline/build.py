@@ -114,18 +114,19 @@ def fit_selection(sel, ctx: Settings, previous=None, who=None, searched=None):
     """Fit one reconciled species with the build's settings and its table's overrides;
     ``previous`` its breakpoints in the previous release (offered to the search); ``who``
     its identity and anchors (by default those of its preferred table); ``searched`` its
-    (CpData, chosen breakpoints) from the batched search (``batch_searched``), or None."""
+    (CpData, Prepared fit, chosen breakpoints) from the batched path (``batch_searched``),
+    or None."""
     meta = sel.primary.meta
-    data, chosen = searched or (CpData.of_rows(sel.data), None)
+    data, prepared, chosen = searched or (CpData.of_rows(sel.data), None, None)
     return fit.fit_species(who or SpeciesIdentity.of_table(meta), data,
-                           for_table(ctx.fit, meta.fit_overrides), previous, chosen)
+                           for_table(ctx.fit, meta.fit_overrides), previous, chosen, prepared)
 
 
 def batch_searched(order, ctx: Settings, previous: dict, chained) -> dict:
-    """{species id: (CpData, chosen breakpoints)} of the selections of ``order`` whose
-    breakpoints the batched path searched (fit/batched.py): those fitted from tables (not a
-    published set), outside a chain of phases (``chained``: ids whose identity depends on
-    another phase's fit)."""
+    """{species id: (CpData, Prepared fit, chosen breakpoints)} of the selections of
+    ``order`` that the batched path prepared and searched (fit/batched.py): those fitted
+    from tables (not a published set), outside a chain of phases (``chained``: ids whose
+    identity depends on another phase's fit)."""
     data, items = {}, []
     for sel in order:
         meta, sid = sel.primary.meta, sel.species_id
@@ -137,7 +138,7 @@ def batch_searched(order, ctx: Settings, previous: dict, chained) -> dict:
             continue
         items.append((sid, SpeciesIdentity.of_table(meta), data[sid],
                       for_table(ctx.fit, meta.fit_overrides), previous.get(sid)))
-    return {sid: (data[sid], chosen) for sid, chosen in fit.batched.choices(items).items()}
+    return {sid: (data[sid], *got) for sid, got in fit.batched.choices(items).items()}
 
 
 def settle_set(sel, ctx: Settings, about):

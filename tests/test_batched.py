@@ -45,16 +45,26 @@ def test_every_benchmark_species_gets_its_per_species_fit(tmp_path, monkeypatch)
     items = _items(tmp_path)
     monkeypatch.setattr(batched, "CHUNK", 16)              # three chunks, the last short
     chosen = batched.choices(items)
-    assert sorted(chosen) == sorted(i[0] for i in items)   # all share one grid: all batched
+    assert sorted(chosen) == sorted(i[0] for i in items)
+    assert all(set(chosen[sid][1]) == {"all"} for sid in chosen)  # one grid: all batched
+    _same_fits(items, chosen)
+
+
+def _same_fits(items, chosen):
+    """Every species of ``items`` fitted with its batched search as alone: the same
+    breakpoints, coefficients within 1e-9 relative, the same choice, notes and
+    extrapolation."""
     for sid, who, data, fs, _ in items:
         alone = fit.fit_species(who, data, fs)
-        together = fit.fit_species(who, data, fs, None, chosen[sid])
+        prepared, roles = chosen[sid]
+        together = fit.fit_species(who, data, fs, None, roles, prepared)
         assert together.breakpoints == alone.breakpoints
         for a, b in zip(together.ranges, alone.ranges):
             assert (a.t_min, a.t_max) == (b.t_min, b.t_max)
             assert _relative(a.coefficients, b.coefficients) <= 1e-9
         assert together.breakpoint_choice == alone.breakpoint_choice
         assert together.notes == alone.notes
+        assert together.extrapolated == alone.extrapolated
 
 
 def _same(got, want):
@@ -112,7 +122,8 @@ def test_choose_many_agrees_with_choose_on_any_tables(seed, count, points, top):
 
 def _mixed_raw(raw):
     """The catalogue, with a table of three ranges, one of a range of use past its data, one
-    with an outlier, and a species in two sources."""
+    with an outlier, and a species in two sources: (the three species of the first, third
+    and fourth, the species of the second)."""
     write_catalogue(raw, 24)
     doc_path = raw / "bench-0" / "source.json"
     doc = json.loads(doc_path.read_text())
@@ -135,18 +146,18 @@ def _mixed_raw(raw):
         "method": "estimation", "standard_pressure": "1 bar", "priority": 9,
         "license": "CC0-1.0", "notes": "SYNTHETIC", "tables": [first]}))
     return {doc["tables"][0]["species"] for doc in map(json.loads, (
-        (raw / f"bench-{k}" / "source.json").read_text() for k in range(3)))} | {
-        json.loads(doc_path.read_text())["tables"][1]["species"]}
+        (raw / f"bench-{k}" / "source.json").read_text() for k in range(3)))}, \
+        json.loads(doc_path.read_text())["tables"][1]["species"]
 
 
 def test_a_build_takes_both_paths_and_gives_the_per_species_release(tmp_path, monkeypatch):
-    alone = _mixed_raw(tmp_path / "raw")
-    served = []
+    alone, wide = _mixed_raw(tmp_path / "raw")
+    served = {}
     real = batched.choices
 
     def spy(items):
         got = real(items)
-        served.extend(got)
+        served.update((k, set(v[1])) for k, v in got.items())
         return got
     monkeypatch.setattr(batched, "choices", spy)
     both = build.build(tmp_path / "raw", tmp_path / "both", NO_REPORT)
@@ -154,8 +165,10 @@ def test_a_build_takes_both_paths_and_gives_the_per_species_release(tmp_path, mo
     build.build(tmp_path / "raw", tmp_path / "single", NO_REPORT)
     assert tree_hashes(tmp_path / "both") == tree_hashes(tmp_path / "single")
     assert len(both.fitted) == 24
-    assert not {f"{s}(g)" for s in alone} & set(served)    # own settings, rows or sources
-    assert len(served) == 24 - len(alone)
+    own = {f"{s}(g)": set() for s in alone | {wide}}      # own settings, rows or sources
+    assert {k: v for k, v in served.items() if k in own} == own
+    assert all(v == {"all"} for k, v in served.items() if k not in own)
+    assert len(served) == 24
 
 
 def test_a_batched_call_that_raises_leaves_its_species_to_the_per_species_path(
@@ -166,18 +179,22 @@ def test_a_batched_call_that_raises_leaves_its_species_to_the_per_species_path(
     def broken(*args):
         raise FloatingPointError("planted")
     monkeypatch.setattr(breakchoice, "choose_many", broken)
-    assert batched.choices(items) == {}
+    assert all(roles == {} for _, roles in batched.choices(items).values())
     order = phases.fitting_order(build.examine_part(tmp_path, NO_REPORT).selections, ())
-    assert build.batch_searched(order, NO_REPORT, {}, {}) == {}
+    assert all(roles == {} for *_, roles in
+               build.batch_searched(order, NO_REPORT, {}, {}).values())
     assert len(build.build(tmp_path, None, NO_REPORT, write=False).fitted) == 6
 
 
-def test_a_species_needing_an_extrapolation_model_is_searched_alone(tmp_path):
-    write_catalogue(tmp_path, 3)
-    items = _items(tmp_path)
+def test_species_extrapolated_alike_share_both_their_searches(tmp_path):
+    """A range of use past the data makes two searches (with the extension's rows, and of
+    the data alone for beyond.protect_data); species of the same temperatures and range of
+    use batch both, and get their per-species fits and extensions."""
+    write_catalogue(tmp_path, 6)
     wide = FitSettings(use_t_max=6000.0)
-    assert fit.species.extended(items[0][1], items[0][2], wide)
-    assert not fit.species.extended(items[0][1], items[0][2], FitSettings())
-    assert batched.choices([(k, w, d, wide, p) for k, w, d, _, p in items]) == {}
-    assert batched.choices(items[:1]) == {}                # nobody to share a batch with
-    assert len(batched.choices(items)) == 3
+    items = [(k, w, d, wide, p) for k, w, d, _, p in _items(tmp_path)]
+    chosen = batched.choices(items)
+    assert all(set(roles) == {"all", "data"} for _, roles in chosen.values())
+    _same_fits(items, chosen)
+    lonely = batched.choices(items[:1])
+    assert list(lonely) == [items[0][0]] and lonely[items[0][0]][1] == {}

@@ -1,18 +1,20 @@
 """The batched path of the fitting stage: the breakpoints of many species searched at once.
 
 Computed catalogues give many species the same temperatures. Their breakpoint searches
-(breakchoice.choose) differ only in the Cp rows, so the species that share temperatures,
-fit settings and form are searched together: every candidate of every species is solved in
-one batched call (breakchoice.choose_many), in chunks of CHUNK species. Each species then
-takes the rest of the per-species path (species.fit_species with its ``chosen``
-breakpoints): the final solve, the integration constants, the uncertainties and the
-acceptance test are the same code for every species.
+(breakchoice.choose) differ only in the Cp rows, so the searches that share their
+temperatures, fit settings and form are made together: every candidate of every species is
+solved in one batched call (breakchoice.choose_many), in chunks of CHUNK species. A fit
+makes one search on its rows (data and any extension), and a second on the data alone when
+a high-side extension must leave the data alone (species.Prepared.searches); both are
+batched, so the species extrapolated to the same range of use share theirs too. Each
+species then takes the rest of the per-species path (species.fit_species with its
+``prepared`` rows and ``chosen`` breakpoints): the final solve, the integration constants,
+the uncertainties and the acceptance test are the same code for every species.
 
-A species whose fit carries an extrapolation model's rows (species.extended), or whose
-temperatures, settings or form no other species of the partition shares (several sources,
-excluded points, its own overrides), is searched alone, as before. A species the batched
-search cannot serve (its search raises) is left to the per-species path, which reports why;
-so is a whole chunk whose batched call raises.
+A search whose temperatures, settings or form no other search of the partition shares
+(several sources, excluded points, its own overrides) is made alone, as before. A species
+whose preparation or batched search raises is left to the per-species path, which reports
+why; so is every species of a chunk whose batched call raises.
 """
 
 import numpy as np
@@ -20,25 +22,26 @@ import numpy as np
 from ..physics import forms
 from . import breakchoice, species
 
-#: species searched in one batched call (bounds the memory of the batched KKT systems: about
-#: 0.2 MB per species with 80 candidates of two seven-term ranges)
+#: searches made in one batched call (bounds the memory of the batched KKT systems: about
+#: 0.2 MB per search with 80 candidates of two seven-term ranges)
 CHUNK = 64
 
 
 def choices(items) -> dict:
-    """{key: (breakpoints, notes, Choice)} of the species of ``items``, each (key, who,
-    data, settings, previous) as species.fit_species takes them, for those searched in a
-    batch; the others are left out (fit_species searches them alone)."""
-    groups = {}
+    """{key: (Prepared, {role: (breakpoints, notes, Choice)})} of the species of ``items``,
+    each (key, who, data, settings, previous) as species.fit_species takes them: every
+    species prepared here (species.prepare, extension models included), with the searches
+    made in a batch; a species whose preparation fails is left out."""
+    prepared, groups = {}, {}
     for key, who, data, settings, previous in items:
         try:
-            if settings.form not in forms.FORMS or species.extended(who, data, settings):
-                continue
-            t, y, sig = species.search_rows(data, settings)
+            prepared[key] = species.prepare(who, data, settings)
         except Exception:  # noqa: BLE001 - the per-species path reports what is wrong
             continue
-        groups.setdefault((t.tobytes(), settings), []).append((key, t, y, sig, previous))
-    out = {}
+        for role, (t, y, sig) in prepared[key].searches(data).items():
+            groups.setdefault((t.tobytes(), settings), []).append(
+                ((key, role), t, y, sig, previous))
+    chosen = {}
     for (_, settings), members in groups.items():
         if len(members) < 2:
             continue
@@ -51,5 +54,8 @@ def choices(items) -> dict:
                                               settings, [m[4] for m in chunk])
             except Exception:  # noqa: BLE001 - searched alone, each reports what is wrong
                 continue
-            out.update((m[0], g) for m, g in zip(chunk, got) if not isinstance(g, ValueError))
+            chosen.update((m[0], g) for m, g in zip(chunk, got) if not isinstance(g, ValueError))
+    out = {key: (prep, {}) for key, prep in prepared.items()}
+    for (key, role), got in chosen.items():
+        out[key][1][role] = got
     return out

@@ -160,21 +160,6 @@ def _beyond(who: SpeciesIdentity, t, lo, hi) -> list:
     return out
 
 
-def extended(who: SpeciesIdentity, data: CpData, settings: FitSettings) -> bool:
-    """Whether the fit of ``data`` carries an extrapolation model's rows beside the data
-    (an ideal gas whose range of use reaches past its data, with a model to try): only
-    then are the rows the breakpoints are searched on more than the data's."""
-    return who.phase == "g" and _guided(who, settings) and \
-        bool(_beyond(who, data.t, *_wanted(who, data.t, settings)))
-
-
-def search_rows(data: CpData, settings: FitSettings):
-    """(T [K], Cp/R, σ/R) of the data rows as the breakpoint search sees them (without an
-    extension; ``extended``)."""
-    sigma = data.u_cp if data.u_cp is not None else settings.inferred_cp_uncertainty * data.cp
-    return data.t, data.cp / R, sigma / R
-
-
 def _solve(who, form, rows, data: CpData, span, settings: FitSettings, fixed=None, pins=(),
            previous=None, chosen=None) -> beyond.Fitted:
     """The Fitted solution of the Cp rows (t, cp, σ) [K, J/(mol K)] and the table's H and S
@@ -211,30 +196,36 @@ def _solve(who, form, rows, data: CpData, span, settings: FitSettings, fixed=Non
     return beyond.Fitted(list(bps), edges, sol, list(notes), choice)
 
 
-def fit_species(who: SpeciesIdentity, data: CpData, settings: FitSettings = FitSettings(),
-                previous=None, chosen=None) -> FitResult:
-    """Fit one species.
+@dataclass(frozen=True)
+class Prepared:
+    """A fit before its breakpoints are chosen: the form, the range of use (lo, hi) [K], the
+    extension models beyond the data and their notes, and the rows (T [K], Cp [J/(mol K)],
+    σ [J/(mol K)]) of the data and the extensions, ascending in T."""
 
-    Parameters
-    ----------
-    who : the species' id, anchors ΔfH°(298.15 K) [J/mol] and S°(298.15 K) [J/(mol K)] at
-        1 bar, phase, and geometry and atoms (for extrapolation of ideal gases)
-    data : T [K], Cp [J/(mol K)], u(Cp) [J/(mol K)] or None, and the optional H − H298
-        [J/mol] and S [J/(mol K)] columns with their uncertainties, sorted by T
-    settings : the fit settings with the table's own overrides applied
-    previous : the breakpoints [K] of the species in the previous release, offered to an
-        optimised search (breakchoice.py), or None
-    chosen : (breakpoints, notes, Choice) that breakchoice.choose_many chose for
-        ``search_rows`` of ``data`` (with ``previous``), when the fit is not ``extended``;
-        None to search here
+    form: forms.Form
+    span: tuple          # (lo, hi) [K]
+    extensions: tuple    # extrapolate.Extension
+    notes: tuple         # (code, message)
+    rows: tuple          # (T, Cp, σ) arrays
+    weighting: str       # "u(Cp)" or "relative"
 
-    Returns
-    -------
-    FitResult, whose ranges hold the coefficients of ``settings.form`` for T in kelvin.
-    Raises FitError when the fit cannot be made and FitRejected when it fails acceptance.
-    """
+    def searches(self, data: CpData) -> dict:
+        """{role: (T [K], Cp/R, σ/R)} of each breakpoint search the fit makes: "all" on
+        every row, and, when a high-side extension must leave the data alone
+        (beyond.protect_data), "data" on the rows up to the last data point."""
+        t, cp, sig = self.rows
+        out = {"all": (t, cp / R, sig / R)}
+        if any(e.side == "high" for e in self.extensions):
+            inside = t <= data.t[-1]
+            out["data"] = (t[inside], cp[inside] / R, sig[inside] / R)
+        return out
+
+
+def prepare(who: SpeciesIdentity, data: CpData, settings: FitSettings) -> Prepared:
+    """The Prepared fit of ``data`` for ``who`` under ``settings`` (the extension models run
+    here); FitError when the fit cannot be made."""
     species_id = who.species_id
-    t_anchor, h_anchor, s_anchor = who.anchor
+    _, h_anchor, s_anchor = who.anchor
     if h_anchor is None or s_anchor is None:
         raise FitError(species_id, "no ΔfH° and S° to anchor H and S: the table that states "
                        "them was held back, or none does and no transition reaches this phase")
@@ -247,11 +238,8 @@ def fit_species(who: SpeciesIdentity, data: CpData, settings: FitSettings = FitS
     t, cp, u = data.t, data.cp, data.u_cp
     if len(t) < settings.min_points:
         raise FitError(species_id, f"{len(t)} points, at least {settings.min_points} needed")
-    weighting = "u(Cp)" if u is not None else "relative"
     sigma = u if u is not None else settings.inferred_cp_uncertainty * cp
-    notes = []
     lo, hi, extensions, ext_notes = _range_of_use(who, t, cp, settings)
-    notes.extend(ext_notes)
     ext_t = np.array([x for e in extensions for x in e.t])
     ext_cp = np.array([x for e in extensions for x in e.cp])
     all_t, all_cp = np.concatenate([t, ext_t]), np.concatenate([cp, ext_cp])
@@ -261,15 +249,52 @@ def fit_species(who: SpeciesIdentity, data: CpData, settings: FitSettings = FitS
     all_sig = np.concatenate([sigma, np.maximum(settings.inferred_cp_uncertainty, ext_u)
                               * ext_cp])
     srt = np.argsort(all_t, kind="stable")
-    all_t, all_cp, all_sig = all_t[srt], all_cp[srt], all_sig[srt]
-    fitted = _solve(who, form, (all_t, all_cp, all_sig), data, (lo, hi), settings,
-                    previous=previous, chosen=None if extensions else chosen)
+    return Prepared(form=form, span=(lo, hi), extensions=tuple(extensions),
+                    notes=tuple(ext_notes), rows=(all_t[srt], all_cp[srt], all_sig[srt]),
+                    weighting="u(Cp)" if u is not None else "relative")
+
+
+def fit_species(who: SpeciesIdentity, data: CpData, settings: FitSettings = FitSettings(),
+                previous=None, chosen=None, prepared=None) -> FitResult:
+    """Fit one species.
+
+    Parameters
+    ----------
+    who : the species' id, anchors ΔfH°(298.15 K) [J/mol] and S°(298.15 K) [J/(mol K)] at
+        1 bar, phase, and geometry and atoms (for extrapolation of ideal gases)
+    data : T [K], Cp [J/(mol K)], u(Cp) [J/(mol K)] or None, and the optional H − H298
+        [J/mol] and S [J/(mol K)] columns with their uncertainties, sorted by T
+    settings : the fit settings with the table's own overrides applied
+    previous : the breakpoints [K] of the species in the previous release, offered to an
+        optimised search (breakchoice.py), or None
+    chosen : {role: (breakpoints, notes, Choice)} that breakchoice.choose_many chose for the
+        searches of ``prepared`` (Prepared.searches, with ``previous``); a search not
+        given is made here
+    prepared : ``prepare(who, data, settings)``, when it is already made
+
+    Returns
+    -------
+    FitResult, whose ranges hold the coefficients of ``settings.form`` for T in kelvin.
+    Raises FitError when the fit cannot be made and FitRejected when it fails acceptance.
+    """
+    species_id = who.species_id
+    t_anchor, h_anchor, s_anchor = who.anchor
+    prepared = prepared or prepare(who, data, settings)
+    chosen = chosen or {}
+    form, (lo, hi), extensions = prepared.form, prepared.span, prepared.extensions
+    all_t, all_cp, all_sig = prepared.rows
+    t, u, weighting = data.t, data.u_cp, prepared.weighting
+    notes = list(prepared.notes)
+    fitted = _solve(who, form, prepared.rows, data, (lo, hi), settings, previous=previous,
+                    chosen=chosen.get("all"))
     if any(e.side == "high" for e in extensions):
         def solve(rows, span, fixed=None, pins=()):
-            return _solve(who, form, rows, data, span, settings, fixed, pins, previous)
+            # the one search of protect_data is the fit of the data alone
+            return _solve(who, form, rows, data, span, settings, fixed, pins, previous,
+                          chosen.get("data") if fixed is None else None)
 
-        fitted = beyond.protect_data(species_id, form, (all_t, all_cp, all_sig),
-                                     all_t <= t[-1], data, (lo, hi), settings, fitted, solve)
+        fitted = beyond.protect_data(species_id, form, prepared.rows, all_t <= t[-1], data,
+                                     (lo, hi), settings, fitted, solve)
     bps, edges, sol = fitted.bps, fitted.edges, fitted.sol
     notes.extend(fitted.notes)
     m = len(form.powers)

@@ -133,11 +133,12 @@ def batch_searched(order, ctx: Settings, previous: dict, chained) -> dict:
         if meta.published is not None or sid in chained:
             continue
         try:
-            data[sid] = CpData.of_rows(sel.data)
+            item = (sid, SpeciesIdentity.of_table(meta), CpData.of_rows(sel.data),
+                    for_table(ctx.fit, meta.fit_overrides), previous.get(sid))
         except Exception:  # noqa: BLE001 - fit_selection reports what is wrong
             continue
-        items.append((sid, SpeciesIdentity.of_table(meta), data[sid],
-                      for_table(ctx.fit, meta.fit_overrides), previous.get(sid)))
+        data[sid] = item[2]
+        items.append(item)
     return {sid: (data[sid], *got) for sid, got in fit.batched.choices(items).items()}
 
 

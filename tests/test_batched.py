@@ -198,3 +198,30 @@ def test_species_extrapolated_alike_share_both_their_searches(tmp_path):
     _same_fits(items, chosen)
     lonely = batched.choices(items[:1])
     assert list(lonely) == [items[0][0]] and lonely[items[0][0]][1] == {}
+
+
+def test_a_species_that_raises_before_its_search_leaves_the_others(tmp_path, monkeypatch):
+    """An unexpected exception while a species is readied for the batched path (its
+    settings, its data, its preparation) is left to the per-species path: a species whose
+    settings failed once is fitted there, and one whose preparation fails again gets it as
+    its finding; the others are fitted."""
+    write_catalogue(tmp_path, 5)
+    real_settings, real_prepare = build.for_table, fit.species.prepare
+
+    def settings_of(fs, overrides):
+        if calls.append(1) or len(calls) == 1:
+            raise KeyError("planted")
+        return real_settings(fs, overrides)
+
+    def prepare(who, data, fs):
+        if who.species_id == "s000003(g)":
+            raise ZeroDivisionError("planted")
+        return real_prepare(who, data, fs)
+    calls = []
+    monkeypatch.setattr(build, "for_table", settings_of)
+    monkeypatch.setattr(fit.species, "prepare", prepare)
+    result = build.build(tmp_path, None, NO_REPORT, write=False)
+    failed = {f.file: f.message for f in result.findings if f.code == "STAGE-FAILED"}
+    assert len(calls) > 5                      # the first species' settings were asked again
+    assert len(result.fitted) == 4 and len(failed) == 1
+    assert "ZeroDivisionError" in failed.popitem()[1]

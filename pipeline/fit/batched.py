@@ -36,9 +36,11 @@ def choices(items) -> dict:
     for key, who, data, settings, previous in items:
         try:
             prepared[key] = species.prepare(who, data, settings)
+            searches = prepared[key].searches(data)
         except Exception:  # noqa: BLE001 - the per-species path reports what is wrong
+            prepared.pop(key, None)
             continue
-        for role, (t, y, sig) in prepared[key].searches(data).items():
+        for role, (t, y, sig) in searches.items():
             groups.setdefault((t.tobytes(), settings), []).append(
                 ((key, role), t, y, sig, previous))
     chosen = {}

@@ -507,3 +507,51 @@ def _first_non_finite_of(doc) -> str:
     from thermoledger.release.document import _first_non_finite
 
     return _first_non_finite(doc, "")
+
+
+def test_a_release_is_made_durable_at_once_before_it_is_renamed_into_place(
+        tmp_path, monkeypatch):
+    """Its files are written without an fsync each and synced together (one syncfs on
+    Linux) once they are checked, before the rename makes them a release."""
+    from thermoledger.core import paths
+
+    synced, fsyncs = [], []
+    real_sync, real_fsync = paths.sync_files, os.fsync
+
+    def sync_files(folder, rels):
+        synced.append((Path(folder).name, list(rels), any((tmp_path / "releases").glob("*"))))
+        real_sync(folder, rels)
+    monkeypatch.setattr(paths, "sync_files", sync_files)
+    monkeypatch.setattr(os, "fsync", lambda fd: fsyncs.append(fd) or real_fsync(fd))
+    tmp_path.mkdir(exist_ok=True)
+    release = publish.Release.staged(tmp_path)
+    release.add("a/b.txt", b"one")
+    release.add_chunks("c.txt", (b"two", b"three"))
+    release.add("manifest.json", b"{}")          # names the release
+    assert not fsyncs
+    publish.publish(tmp_path, release)
+    assert synced == [(f".staging-{os.getpid()}", ["a/b.txt", "c.txt", "manifest.json"],
+                       False)]
+    assert (tmp_path / "current" / "c.txt").read_bytes() == b"twothree"
+
+
+def test_without_syncfs_every_file_is_fsynced(tmp_path, monkeypatch):
+    import ctypes
+
+    from thermoledger.core import paths
+
+    (tmp_path / "d").mkdir()
+    for name in ("d/x", "y"):
+        (tmp_path / name).write_bytes(b"z")
+    fsyncs = []
+    real_fsync = os.fsync
+
+    def no_library(*args, **kwargs):
+        raise OSError("no C library here")
+    monkeypatch.setattr(ctypes, "CDLL", no_library)
+    monkeypatch.setattr(os, "fsync", lambda fd: fsyncs.append(os.readlink(
+        f"/proc/self/fd/{fd}") if os.path.exists("/proc/self/fd") else fd) or real_fsync(fd))
+    paths.sync_files(tmp_path, ["d/x", "y"])
+    assert len(fsyncs) == 2
+    if os.path.exists("/proc/self/fd"):
+        assert fsyncs == [str(tmp_path / "d" / "x"), str(tmp_path / "y")]

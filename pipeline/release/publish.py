@@ -353,14 +353,18 @@ class Release:
             path.parent.mkdir(parents=True, exist_ok=True)
             if rel in self._sums:              # never written through a link (``link``)
                 path.unlink(missing_ok=True)
-            with open(path, "wb") as fh:
+            with open(path, "wb") as fh:     # made durable all at once (``sync``)
                 for chunk in chunks:
                     digest.update(chunk)
                     size += len(chunk)
                     fh.write(chunk)
-                fh.flush()
-                os.fsync(fh.fileno())
         self._sums[rel] = digest.digest() + size.to_bytes(8, "big")
+
+    def sync(self) -> None:
+        """Make every file written into the staging folder durable (core.paths.sync_files),
+        before the release is renamed into place."""
+        if self._kept is None:
+            paths.sync_files(self.folder, sorted(self._sums))
 
     def link(self, rel: str, source: Path, sha256: str, size: int) -> bool:
         """File ``rel`` as a hard link to ``source`` (a file of an earlier release, never
@@ -491,6 +495,7 @@ def publish(target: Path, release: Release, check=None, on_swap=None) -> list:
         if not final.is_dir():
             if check:
                 check(staging)
+            release.sync()
             home.mkdir(exist_ok=True)
             os.rename(staging, final)
         else:

@@ -1,0 +1,88 @@
+"""Benchmark: what each stage of a build costs per species, in one process.
+
+    .venv/bin/python benchmarks/bench_stages.py --species 1000
+
+On the synthetic catalogue of bench_build.py (thermoledger.testing.catalogue), one
+partition worked in this process as a build's workers work it (build._build_part), stage by
+stage, after a first run that loads the libraries; prints the wall time of each stage
+[ms per species] and their sum, best of --repeat runs:
+
+* read: the source.json files and tables (ingest.ingest);
+* check: the per-table checks (checks.registry.validate);
+* read and check: the whole of build.examine_part (with transitions, references,
+  reconciliation and acknowledgements);
+* fit: every species (build._fit_all: the batched searches, the per-species fits, the
+  library entries);
+* evaluated tables and plot points (release.assemble);
+* kept for the release: the entries and lineages as compact JSON, the fitted species
+  pickled.
+
+What a build adds beyond its partitions (the release files, the report) is timed by
+bench_build.py as a whole.
+"""
+
+import argparse
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+from thermoledger import build, ingest, partitions
+from thermoledger.checks import registry, transitions
+from thermoledger.core.settings import OutputSettings, Settings
+from thermoledger.library.entries import compact
+from thermoledger.release import assemble, held, provenance
+from thermoledger.testing.catalogue import write_catalogue
+
+
+def stages(raw: Path, ctx: Settings) -> dict:
+    """{stage: seconds} of one pass over ``raw``."""
+    out = {}
+
+    def timed(name, f, *args):
+        t0 = time.perf_counter()
+        got = f(*args)
+        out[name] = time.perf_counter() - t0
+        return got
+
+    got = timed("read", ingest.ingest, raw, None)
+    tables, _, _ = transitions.link(got.tables, got.transitions, ctx, got.findings)
+    timed("check", lambda: list(registry.validate(tables, ctx, got.findings)))
+    checked = timed("read and check", build.examine_part, raw, ctx)
+    fitted, _, _, entries = timed("fit", build._fit_all, checked, ctx, build._quiet, {})
+    timed("plot points", assemble.plot_points, entries.values(), checked)
+    timed("evaluated tables", assemble.evaluated_rows, entries, checked.chains,
+          ctx.outputs.table_step)
+    timed("kept for the release", lambda: (
+        [compact(e) for e in entries.values()], [held.pickled(sp) for sp in fitted],
+        [compact(provenance.lineage(sp)) for sp in fitted]))
+    out["species"] = len(entries)
+    return out
+
+
+def main(argv=None) -> int:
+    p = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    p.add_argument("--species", type=int, default=1000)
+    p.add_argument("--repeat", type=int, default=3)
+    args = p.parse_args(argv)
+    ctx = Settings(outputs=OutputSettings(report=False))
+    with tempfile.TemporaryDirectory() as tmp:
+        raw = Path(tmp)
+        write_catalogue(raw, args.species)
+        build._build_part(raw, ctx, {}, build._quiet, partitions.Part(0, 1))   # warm
+        runs = [stages(raw, ctx) for _ in range(args.repeat)]
+    n = runs[0].pop("species")
+    for r in runs[1:]:
+        r.pop("species")
+    best = {k: min(r[k] for r in runs) for k in runs[0]}
+    print(f"{n} species in one process, best of {args.repeat} runs [ms per species]")
+    for name, seconds in best.items():
+        print(f"  {name:22s} {1e3 * seconds / n:7.3f}")
+    total = sum(v for k, v in best.items() if k not in ("read", "check"))
+    print(f"  {'sum of a partition':22s} {1e3 * total / n:7.3f}  (read and check, fit, "
+          "evaluated tables, plot points, kept)")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -413,8 +413,8 @@ def test_release_files_are_written_as_they_are_made_and_a_failure_leaves_none(
     real = report.report_files
 
     def drawing_then_failing(doc, points, accept, workers=None, say=None, put=None,
-                             pages=None):
-        real(doc, points, accept, workers, say, put, pages)
+                             pages=None, release=None):
+        real(doc, points, accept, workers, say, put, pages, release)
         staging = [p for p in out.iterdir() if p.name.startswith(".staging-")]
         seen["pages"] = sorted(str(p.relative_to(staging[0]))
                                for p in staging[0].rglob("*.html"))

@@ -1,5 +1,6 @@
 """Evaluated tables, the HTML report, progress and JSON output."""
 
+import hashlib
 import json
 import re
 import shutil
@@ -263,6 +264,41 @@ def test_plots_are_plain_svg_with_the_data_drawn(release):
     assert "N2(g): heat capacity" in text and "<polyline" in text
     assert text.count("<rect") >= 3          # background, frames, and the extrapolated span
     assert len(n2["breakpoints"]) == 2 and text.count("stroke-dasharray=\"2,2\"") == 4
+
+
+def test_workers_write_the_pages_into_the_staged_release_themselves(tmp_path, monkeypatch):
+    """Into a staged release, the workers that draw the species pages write them there
+    (publish.Staging) and this process only takes in their sha256 and size: the same files
+    and sums as drawn in one process; a page is never written twice."""
+    import copy
+
+    from thermoledger.core.errors import OutputError
+    from thermoledger.release import publish, report
+
+    from .conftest import PROJECT
+
+    doc = json.loads((PROJECT / "curated" / "library.json").read_text())
+    doc["species"] = [dict(copy.deepcopy(s), id=f"{s['id']}#{k}") for k in range(4)
+                      for s in doc["species"]]
+    one = report.report_files(doc, {}, 0.01, workers=1)
+    (tmp_path / "home").mkdir()
+    release = publish.Release.staged(tmp_path / "home")
+    added = []
+    real_add = release.add
+    monkeypatch.setattr(release, "add", lambda rel, data: added.append(rel) or real_add(rel, data))
+    assert report.report_files(doc, {}, 0.01, workers=2, release=release) == {}
+    assert sorted(release) == sorted(one)
+    assert all(release.get(rel) == data for rel, data in one.items())
+    assert all(release.summary(rel) == (hashlib.sha256(data).hexdigest(), len(data))
+               for rel, data in one.items())
+    assert not [rel for rel in added if rel.startswith("report/species/")]   # all adopted
+    assert "report/index.html" in added
+    page = next(rel for rel in one if rel.startswith("report/species/"))
+    with pytest.raises(FileExistsError):
+        release.staging().write(page, b"again")
+    with pytest.raises(OutputError, match="written twice"):
+        release.adopt(page, b"0" * 40)
+    release.discard()
 
 
 def test_a_report_drawn_by_worker_processes_is_the_one_drawn_in_one(monkeypatch):

@@ -52,7 +52,7 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None
         release.update(tables.csv_files(doc, out.table_step))
     if out.report:
         report.report_files(doc, outcome.points, ctx.fit.accept_cp_max_rel, say=say,
-                            put=release.add, pages=pages.into(release) if pages else None)
+                            release=release, pages=pages.into(release) if pages else None)
     say("write provenance", 0, 0, "provenance.json, manifest.json")
     release.add_chunks("provenance.json", document.json_chunks(
         provenance.prov_document(outcome.fitted, checked.inputs, release.outputs())))

@@ -36,6 +36,7 @@ import shutil
 import signal
 import time
 from contextlib import contextmanager
+from dataclasses import dataclass
 from functools import lru_cache
 from pathlib import Path
 
@@ -312,6 +313,23 @@ def _link(target: Path, name: str, points_to: str):
     os.replace(tmp, path)
 
 
+@dataclass(frozen=True)
+class Staging:
+    """The staging folder of a Release, as another process writes into it (``write``); the
+    Release takes the files in with ``adopt``."""
+
+    folder: Path
+
+    def write(self, rel: str, data: bytes) -> bytes:
+        """Write new file ``rel`` (refused when the folder already holds it: a file is never
+        written twice, nor through a link); its sha256 and size, as Release keeps them."""
+        path = self.folder / rel
+        path.parent.mkdir(parents=True, exist_ok=True)
+        with open(path, "xb") as fh:     # made durable with the release (``Release.sync``)
+            fh.write(data)
+        return hashlib.sha256(data).digest() + len(data).to_bytes(8, "big")
+
+
 class Release:
     """The files of a release as they are made, each with its sha256 and size: written at
     once into the staging folder of a locked release home (``Release.staged``), or kept in
@@ -365,6 +383,18 @@ class Release:
         before the release is renamed into place."""
         if self._kept is None:
             paths.sync_files(self.folder, sorted(self._sums))
+
+    def staging(self):
+        """The Staging other processes write this release's new files into (``adopt``), or
+        None when the release is kept in memory."""
+        return None if self._kept is not None else Staging(self.folder)
+
+    def adopt(self, rel: str, summed: bytes) -> None:
+        """Take in file ``rel``, written into the staging folder by ``Staging.write``, which
+        gave ``summed`` (its sha256 and size)."""
+        if rel in self._sums:
+            raise OutputError(f"{rel} was written twice into the release")
+        self._sums[rel] = summed
 
     def link(self, rel: str, source: Path, sha256: str, size: int) -> bool:
         """File ``rel`` as a hard link to ``source`` (a file of an earlier release, never

@@ -376,15 +376,19 @@ def index_page(doc) -> bytes:
     return page("Build report", "".join(body), script=PAGER_JS)
 
 
-def report_files(doc, points, accept, workers=None, say=None, put=None, pages=None) -> dict:
+def report_files(doc, points, accept, workers=None, say=None, put=None, pages=None,
+                 release=None) -> dict:
     """{relative path: bytes} of the report; with ``put``, each file goes to ``put(path,
     bytes)`` as soon as it is drawn instead (a large report is never held whole) and the
-    dict is empty. With ``pages`` (release.pages.Drawn, into the release ``put`` writes
-    to), the pages of a species drawn from the same inputs in the last release are linked
-    from it instead of drawn. ``points`` maps species id to its data:
-    t, cp (rows used), t_out, cp_out (rows left out), and optional (t, deviation) pairs
-    'dh' and 's' against the table's columns. Large reports are drawn by up to ``workers``
-    processes (default: the cores of the machine); the files do not depend on how many.
+    dict is empty; with ``release`` (publish.Release), each goes into it, the species pages
+    written into its staging folder by the workers that draw them (publish.Staging: no
+    page passes through this process) and taken in by ``Release.adopt``. With ``pages``
+    (release.pages.Drawn, into the release written to), the pages of a species drawn
+    from the same inputs in the last release are linked from it instead of drawn.
+    ``points`` maps species id to its data: t, cp (rows used), t_out, cp_out (rows left
+    out), and optional (t, deviation) pairs 'dh' and 's' against the table's columns.
+    Large reports are drawn by up to ``workers`` processes (default: the cores of the
+    machine); the files do not depend on how many.
     The species are read CHUNK at a time, and at most twice as many chunks as workers are
     out at once. ``say(stage, i, n, label)`` hears of every species drawn."""
     import os
@@ -399,7 +403,7 @@ def report_files(doc, points, accept, workers=None, say=None, put=None, pages=No
     say = say or (lambda *a: None)
     workers = workers or min(os.cpu_count() or 1, 4)
     files = {}
-    add = put or files.__setitem__
+    add = release.add if release is not None else (put or files.__setitem__)
     done, worst, per_source = 0, [], Counter()
 
     base = pages.base(accept, transitions) if pages else None
@@ -435,7 +439,10 @@ def report_files(doc, points, accept, workers=None, say=None, put=None, pages=No
 
     def added(chunk, part):
         for path, data in part.items():
-            add(path, data)
+            if isinstance(data, Summed):
+                release.adopt(path, data.summed)
+            else:
+                add(path, data)
         del part
         for sp in chunk:
             if pages:
@@ -445,11 +452,12 @@ def report_files(doc, points, accept, workers=None, say=None, put=None, pages=No
             give_back_memory()
 
     if workers > 1 and len(species) > 60:
+        staging = release.staging() if release is not None else None
         give_back_memory()                   # before the workers fork: they share less
         with worker_pool(workers) as pool:   # an interrupted build waits for no worker
             out = deque()
             for args in chunks():
-                out.append((args[0], pool.submit(_species_files, *args)))
+                out.append((args[0], pool.submit(_species_files, *args, staging)))
                 if len(out) >= 2 * workers:
                     chunk, future = out.popleft()
                     added(chunk, future.result())
@@ -477,7 +485,25 @@ CHUNK = 25
 TRIM_EVERY = 2000
 
 
-def _species_files(species, points, accept, transitions=(), formed=None) -> dict:
+class Summed(bytes):
+    """What a worker returns of a page it wrote into the staging folder itself: its sha256
+    and size (publish.Staging.write), instead of its bytes."""
+
+    @property
+    def summed(self) -> bytes:
+        return bytes(self)
+
+
+def _species_files(species, points, accept, transitions=(), formed=None, staging=None) -> dict:
+    """{relative path: bytes} of the report pages of ``species``; with ``staging``
+    (publish.Staging), each written into it and given as its Summed instead."""
+    files = _drawn(species, points, accept, transitions, formed)
+    if staging is None:
+        return files
+    return {rel: Summed(staging.write(rel, data)) for rel, data in files.items()}
+
+
+def _drawn(species, points, accept, transitions=(), formed=None) -> dict:
     files = {}
     for sp in species:
         name = file_stem(sp["id"])

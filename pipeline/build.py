@@ -114,20 +114,21 @@ def fit_selection(sel, ctx: Settings, previous=None, who=None, searched=None):
     """Fit one reconciled species with the build's settings and its table's overrides;
     ``previous`` its breakpoints in the previous release (offered to the search); ``who``
     its identity and anchors (by default those of its preferred table); ``searched`` its
-    (CpData, Prepared fit, chosen breakpoints) from the batched path (``batch_searched``),
-    or None."""
+    (CpData, fit settings, Prepared fit, chosen breakpoints) from the batched path
+    (``batch_searched``), or None."""
     meta = sel.primary.meta
-    data, prepared, chosen = searched or (CpData.of_rows(sel.data), None, None)
-    return fit.fit_species(who or SpeciesIdentity.of_table(meta), data,
-                           for_table(ctx.fit, meta.fit_overrides), previous, chosen, prepared)
+    data, settings, prepared, chosen = searched or (
+        CpData.of_rows(sel.data), for_table(ctx.fit, meta.fit_overrides), None, None)
+    return fit.fit_species(who or SpeciesIdentity.of_table(meta), data, settings, previous,
+                           chosen, prepared)
 
 
 def batch_searched(order, ctx: Settings, previous: dict, chained) -> dict:
-    """{species id: (CpData, Prepared fit, chosen breakpoints)} of the selections of
-    ``order`` that the batched path prepared and searched (fit/batched.py): those fitted
-    from tables (not a published set), outside a chain of phases (``chained``: ids whose
-    identity depends on another phase's fit)."""
-    data, items = {}, []
+    """{species id: (CpData, fit settings, Prepared fit, chosen breakpoints)} of the
+    selections of ``order`` that the batched path prepared and searched (fit/batched.py):
+    those fitted from tables (not a published set), outside a chain of phases (``chained``:
+    ids whose identity depends on another phase's fit)."""
+    items = {}
     for sel in order:
         meta, sid = sel.primary.meta, sel.species_id
         if meta.published is not None or sid in chained:
@@ -137,9 +138,9 @@ def batch_searched(order, ctx: Settings, previous: dict, chained) -> dict:
                     for_table(ctx.fit, meta.fit_overrides), previous.get(sid))
         except Exception:  # noqa: BLE001 - fit_selection reports what is wrong
             continue
-        data[sid] = item[2]
-        items.append(item)
-    return {sid: (data[sid], *got) for sid, got in fit.batched.choices(items).items()}
+        items[sid] = item
+    return {sid: (items[sid][2], items[sid][3], *got)
+            for sid, got in fit.batched.choices(items.values()).items()}
 
 
 def settle_set(sel, ctx: Settings, about):

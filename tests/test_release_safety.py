@@ -412,9 +412,9 @@ def test_release_files_are_written_as_they_are_made_and_a_failure_leaves_none(
     seen = {}
     real = report.report_files
 
-    def drawing_then_failing(doc, points, accept, workers=None, say=None, put=None,
-                             pages=None, release=None):
-        real(doc, points, accept, workers, say, put, pages, release)
+    def drawing_then_failing(doc, points, accept, workers=None, say=None, pages=None,
+                             release=None):
+        real(doc, points, accept, workers, say, pages, release)
         staging = [p for p in out.iterdir() if p.name.startswith(".staging-")]
         seen["pages"] = sorted(str(p.relative_to(staging[0]))
                                for p in staging[0].rglob("*.html"))

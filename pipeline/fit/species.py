@@ -209,13 +209,19 @@ class Prepared:
     rows: tuple          # (T, Cp, σ) arrays
     weighting: str       # "u(Cp)" or "relative"
 
+    @property
+    def protected(self) -> bool:
+        """Whether a high-side extension must leave the fit inside the data alone
+        (beyond.protect_data)."""
+        return any(e.side == "high" for e in self.extensions)
+
     def searches(self, data: CpData) -> dict:
         """{role: (T [K], Cp/R, σ/R)} of each breakpoint search the fit makes: "all" on
         every row, and, when a high-side extension must leave the data alone
         (beyond.protect_data), "data" on the rows up to the last data point."""
         t, cp, sig = self.rows
         out = {"all": (t, cp / R, sig / R)}
-        if any(e.side == "high" for e in self.extensions):
+        if self.protected:
             inside = t <= data.t[-1]
             out["data"] = (t[inside], cp[inside] / R, sig[inside] / R)
         return out
@@ -287,7 +293,7 @@ def fit_species(who: SpeciesIdentity, data: CpData, settings: FitSettings = FitS
     notes = list(prepared.notes)
     fitted = _solve(who, form, prepared.rows, data, (lo, hi), settings, previous=previous,
                     chosen=chosen.get("all"))
-    if any(e.side == "high" for e in extensions):
+    if prepared.protected:
         def solve(rows, span, fixed=None, pins=()):
             # the one search of protect_data is the fit of the data alone
             return _solve(who, form, rows, data, span, settings, fixed, pins, previous,

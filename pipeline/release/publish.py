@@ -327,7 +327,12 @@ class Staging:
         path.parent.mkdir(parents=True, exist_ok=True)
         with open(path, "xb") as fh:     # made durable with the release (``Release.sync``)
             fh.write(data)
-        return hashlib.sha256(data).digest() + len(data).to_bytes(8, "big")
+        return summed(hashlib.sha256(data).digest(), len(data))
+
+
+def summed(sha256: bytes, size: int) -> bytes:
+    """A file's sha256 (32 bytes) and size as a Release keeps them: 40 bytes."""
+    return sha256 + size.to_bytes(8, "big")
 
 
 class Release:
@@ -376,7 +381,7 @@ class Release:
                     digest.update(chunk)
                     size += len(chunk)
                     fh.write(chunk)
-        self._sums[rel] = digest.digest() + size.to_bytes(8, "big")
+        self._sums[rel] = summed(digest.digest(), size)
 
     def sync(self) -> None:
         """Make every file written into the staging folder durable (core.paths.sync_files),
@@ -419,7 +424,7 @@ class Release:
             except OSError:
                 self.add(rel, data)
                 return True
-        self._sums[rel] = bytes.fromhex(sha256) + size.to_bytes(8, "big")
+        self._sums[rel] = summed(bytes.fromhex(sha256), size)
         return True
 
     def update(self, files: dict) -> None:

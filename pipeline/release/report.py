@@ -18,6 +18,7 @@ from ..core.records import PublishedSet
 from ..physics import forms
 from . import plots
 from .document import NOTICE
+from .pages import page_paths
 
 CSS = """
 body{font-family:system-ui,sans-serif;margin:0;color:#22313f;background:#f7f5f0}
@@ -376,13 +377,13 @@ def index_page(doc) -> bytes:
     return page("Build report", "".join(body), script=PAGER_JS)
 
 
-def report_files(doc, points, accept, workers=None, say=None, put=None, pages=None,
+def report_files(doc, points, accept, workers=None, say=None, pages=None,
                  release=None) -> dict:
-    """{relative path: bytes} of the report; with ``put``, each file goes to ``put(path,
-    bytes)`` as soon as it is drawn instead (a large report is never held whole) and the
-    dict is empty; with ``release`` (publish.Release), each goes into it, the species pages
-    written into its staging folder by the workers that draw them (publish.Staging: no
-    page passes through this process) and taken in by ``Release.adopt``. With ``pages``
+    """{relative path: bytes} of the report; with ``release`` (publish.Release), each file
+    goes into it as soon as it is drawn instead (a large report is never held whole) and
+    the dict is empty: the species pages drawn by workers are written into its staging
+    folder by them (publish.Staging: no page passes through this process) and taken in by
+    ``Release.adopt``. With ``pages``
     (release.pages.Drawn, into the release written to), the pages of a species drawn
     from the same inputs in the last release are linked from it instead of drawn.
     ``points`` maps species id to its data: t, cp (rows used), t_out, cp_out (rows left
@@ -403,7 +404,7 @@ def report_files(doc, points, accept, workers=None, say=None, put=None, pages=No
     say = say or (lambda *a: None)
     workers = workers or min(os.cpu_count() or 1, 4)
     files = {}
-    add = release.add if release is not None else (put or files.__setitem__)
+    add = release.add if release is not None else files.__setitem__
     done, worst, per_source = 0, [], Counter()
 
     base = pages.base(accept, transitions) if pages else None
@@ -437,12 +438,9 @@ def report_files(doc, points, accept, workers=None, say=None, put=None, pages=No
             done += 1
             say("write report", done, len(species), sp["id"])
 
-    def added(chunk, part):
-        for path, data in part.items():
-            if isinstance(data, Summed):
-                release.adopt(path, data.summed)
-            else:
-                add(path, data)
+    def added(chunk, part, adopt=False):
+        for path, data in part.items():     # with ``adopt``, written: their sha256 and size
+            (release.adopt if adopt else add)(path, data)
         del part
         for sp in chunk:
             if pages:
@@ -460,10 +458,10 @@ def report_files(doc, points, accept, workers=None, say=None, put=None, pages=No
                 out.append((args[0], pool.submit(_species_files, *args, staging)))
                 if len(out) >= 2 * workers:
                     chunk, future = out.popleft()
-                    added(chunk, future.result())
+                    added(chunk, future.result(), staging is not None)
             while out:
                 chunk, future = out.popleft()
-                added(chunk, future.result())
+                added(chunk, future.result(), staging is not None)
     else:
         for args in chunks():
             added(args[0], _species_files(*args))
@@ -481,41 +479,33 @@ def report_files(doc, points, accept, workers=None, say=None, put=None, pages=No
 #: species drawn by one task of the report
 CHUNK = 25
 #: the build's own process gives back the heap its freed pages leave (core.processes.
-#: give_back_memory) after about this many species: each of their pages passed through it
+#: give_back_memory) after about this many species, whose pages passed through it (all of
+#: them when they are drawn here or kept in memory; the linked ones otherwise)
 TRIM_EVERY = 2000
-
-
-class Summed(bytes):
-    """What a worker returns of a page it wrote into the staging folder itself: its sha256
-    and size (publish.Staging.write), instead of its bytes."""
-
-    @property
-    def summed(self) -> bytes:
-        return bytes(self)
 
 
 def _species_files(species, points, accept, transitions=(), formed=None, staging=None) -> dict:
     """{relative path: bytes} of the report pages of ``species``; with ``staging``
-    (publish.Staging), each written into it and given as its Summed instead."""
+    (publish.Staging), each written into it and given as its sha256 and size instead."""
     files = _drawn(species, points, accept, transitions, formed)
     if staging is None:
         return files
-    return {rel: Summed(staging.write(rel, data)) for rel, data in files.items()}
+    return {rel: staging.write(rel, data) for rel, data in files.items()}
 
 
 def _drawn(species, points, accept, transitions=(), formed=None) -> dict:
     files = {}
     for sp in species:
-        name = file_stem(sp["id"])
+        cp_plot, hs_plot, html_page = page_paths(sp["id"])
         p = points.get(sp["id"], {})
-        files[f"report/img/{name}-cp.svg"] = plots.species_figure(
+        files[cp_plot] = plots.species_figure(
             sp, p.get("t", np.zeros(0)), p.get("cp", np.zeros(0)), p.get("t_out", np.zeros(0)),
             p.get("cp_out", np.zeros(0)), accept)
         has_dev = "dh" in p or "s" in p
         if has_dev:
             th, dh = p.get("dh", (np.zeros(0), np.zeros(0)))
             ts, ds = p.get("s", (np.zeros(0), np.zeros(0)))
-            files[f"report/img/{name}-hs.svg"] = plots.deviation_figure(th, dh, ts, ds)
-        files[f"report/species/{name}.html"] = species_page(sp, p, has_dev, transitions,
-                                                            (formed or {}).get(sp["id"]))
+            files[hs_plot] = plots.deviation_figure(th, dh, ts, ds)
+        files[html_page] = species_page(sp, p, has_dev, transitions,
+                                        (formed or {}).get(sp["id"]))
     return files

@@ -11,6 +11,8 @@ CO2 (1333, 667 × 2, 2349 cm⁻¹, NIST CCCBDB, from memory).
 
 import numpy as np
 import pytest
+from hypothesis import given
+from hypothesis import strategies as st
 from thermoledger.core.constants import GAS_CONSTANT as R
 from thermoledger.fit import extrapolate
 from thermoledger.physics import bounds, statmech
@@ -136,3 +138,60 @@ def test_only_the_models_that_may_win_are_fitted_to_all_data(monkeypatch):
     assert (ext.model, ext.searched) == ("osc-b", False)
     assert ext.holdout_error == pytest.approx(2e-5)
     assert fits == {"a": 1, "b": 1, "c": 0}
+
+
+def _default_jacobian(monkeypatch):
+    """Make extrapolate's least squares take scipy's own Jacobian (``jac='2-point'``, one
+    model call per parameter) instead of the batched one it is given."""
+    from scipy.optimize import least_squares
+
+    def scipy_own(fun, p0, jac=None, **kw):
+        return least_squares(fun, p0, **kw)
+
+    monkeypatch.setattr(extrapolate, "least_squares", scipy_own)
+
+
+@pytest.mark.parametrize("fitter", ["fit_oscillators", "fit_oscillators_anharmonic",
+                                    "fit_oscillators_electronic"])
+@pytest.mark.parametrize("k", [1, 2, 3])
+def test_the_batched_jacobian_gives_the_fit_of_scipys_own(monkeypatch, fitter, k):
+    """The non-linear models take the Jacobian in one batched model call: the same forward
+    differences as scipy's default, so the same fitted model to the last bit, on a
+    harmonic polyatomic given a rise beyond harmonic (a synthetic table)."""
+    t = np.geomspace(200.0, 3000.0, 100)
+    nu = [3000.0, 2900.0, 1500.0, 1400.0, 1200.0, 1000.0, 900.0, 600.0, 400.0]
+    cp = R * statmech.rrho_cp_over_r(t, "nonlinear", nu) * (1.0 + 2e-5 * (t - 200.0) / 100.0)
+    geometry, atoms = "nonlinear", 5
+    c0, modes = bounds.cp_zero(geometry), bounds.vibrational_modes(geometry, atoms)
+    far = np.geomspace(200.0, 6000.0, 40)
+    batched = getattr(extrapolate, fitter)(t, cp, k, c0, modes)(far)
+    _default_jacobian(monkeypatch)
+    own = getattr(extrapolate, fitter)(t, cp, k, c0, modes)(far)
+    assert np.array_equal(batched, own)
+
+
+def test_a_searched_extension_is_that_of_scipys_own_jacobian(monkeypatch):
+    """A whole extension that takes the non-linear search (nitrogen's ideal-gas Cp from
+    CoolProp) is the same, field by field, with scipy's own Jacobian."""
+    pytest.importorskip("CoolProp.CoolProp")
+    t = coverage.data_grid(1000.0)
+    cp = coverage.cp0("Nitrogen", t)
+    batched = extrapolate.extend(t, cp, "linear", 2, 2000.0)
+    _default_jacobian(monkeypatch)
+    assert batched.searched and extrapolate.extend(t, cp, "linear", 2, 2000.0) == batched
+
+
+@given(p=st.lists(st.floats(-1e5, 1e5), min_size=1, max_size=6),
+       width=st.lists(st.floats(0.0, 1e5), min_size=2, max_size=2))
+def test_the_forward_steps_are_scipys(p, width):
+    """forward_steps takes scipy's steps at any point inside any bounds (scipy's own
+    step rule, scipy.optimize._numdiff, read as the reference)."""
+    from scipy.optimize import _numdiff
+
+    p = np.array(p)
+    lo, hi = p - width[0], p + width[1]
+    rel = _numdiff._compute_absolute_step(None, p, p, "2-point")
+    expected, _ = _numdiff._adjust_scheme_to_bounds(p, rel, 1, "1-sided", lo, hi)
+    assert np.array_equal(extrapolate.forward_steps(p, lo, hi), expected)
+    free = np.full(len(p), np.inf)
+    assert np.array_equal(extrapolate.forward_steps(p, -free, free), rel)

@@ -160,36 +160,71 @@ def _wilhoit_model(b, a, c0, cinf):
 
 
 def _degeneracies(p, k, modes):
-    """k degeneracies from k − 1 free ones: the last makes them add up to ``modes``."""
-    return np.append(p[k:2 * k - 1], modes - np.sum(p[k:2 * k - 1])) if k > 1 else np.array([modes])
+    """k degeneracies from k − 1 free ones, for each row of ``p`` (parameter vectors): the
+    last makes them add up to ``modes``."""
+    free = p[:, k:2 * k - 1]
+    return np.concatenate([free, modes - np.sum(free, axis=1)[:, None]], axis=1) if k > 1 \
+        else np.full((len(p), 1), float(modes))
+
+
+def forward_steps(p, lo, hi) -> np.ndarray:
+    """The steps [same units as ``p``] of the forward differences that scipy's least_squares
+    takes for its default Jacobian (``jac='2-point'``, scipy.optimize._numdiff): √ε·max(1,
+    |p|) signed as p (+ at 0), reversed where it would leave the bounds ``lo``, ``hi`` but
+    fits on the other side, else the distance to the farther bound."""
+    h = np.finfo(float).eps ** 0.5 * ((p >= 0).astype(float) * 2 - 1) * np.maximum(1.0, np.abs(p))
+    if np.all((lo == -np.inf) & (hi == np.inf)):
+        return h
+    out = h.copy()
+    below, above = p - lo, hi - p
+    x = p + h
+    fitting = np.abs(h) <= np.maximum(below, above)
+    out[((x < lo) | (x > hi)) & fitting] *= -1
+    forward = (above >= below) & ~fitting
+    out[forward] = above[forward]
+    backward = (above < below) & ~fitting
+    out[backward] = -below[backward]
+    return out
 
 
 def _fit_oscillator_model(t, cp, k, modes, shape, extra0=(), extra_lo=(), extra_hi=()):
     """Bounded least squares of Cp(0) + R Σ g_j shape(θ_j, x, extra) over k oscillators.
 
-    ``shape(theta, x, extra)`` returns the (n, k) contributions per unit degeneracy (and any
-    further terms through ``extra``); θ_j in [20, 2·10⁴] K, g_j ≥ 0 with Σ g_j = modes.
-    Returns the fitted parameter vector and the model function of (p, x).
+    ``shape(theta, x, extra)`` returns, for b parameter vectors at once (theta (b, k), extra
+    (b, e)), the (b, n, k) contributions per unit degeneracy and the (b, n) further terms;
+    θ_j in [20, 2·10⁴] K, g_j ≥ 0 with Σ g_j = modes. The Jacobian is scipy's forward
+    differences (``forward_steps``), its columns evaluated in one batch: the same numbers as
+    ``jac='2-point'``, one model call instead of one per parameter. Returns the model
+    function of the fitted parameters.
     """
-    def model(p, x):
-        x = np.asarray(x, float)
+    def many(p, x):
         g = _degeneracies(p, k, modes)
-        per_unit, added = shape(p[:k], x, p[2 * k - 1:])
-        return (np.sum(g[None, :] * per_unit, axis=1) if modes else 0.0) + added
+        per_unit, added = shape(p[:, :k], x, p[:, 2 * k - 1:])
+        return (np.sum(g[:, None, :] * per_unit, axis=2) if modes else 0.0) + added
 
     p0 = np.concatenate([np.geomspace(*THETA_START, k), np.full(k - 1, modes / k), extra0])
     lo = np.concatenate([np.full(k, THETA_BOUNDS[0]), np.zeros(k - 1), extra_lo])
     hi = np.concatenate([np.full(k, THETA_BOUNDS[1]), np.full(k - 1, float(max(modes, 1))),
                          extra_hi])
 
-    def resid(p):
-        r = (model(p, t) - cp) / cp
+    def resid_many(p):
+        r = (many(p, t) - cp) / cp
         if k > 1:  # keep the last degeneracy non-negative
-            r = np.append(r, 10.0 * min(0.0, modes - np.sum(p[k:2 * k - 1])))
+            short = modes - np.sum(p[:, k:2 * k - 1], axis=1)
+            r = np.concatenate([r, 10.0 * np.where(short < 0.0, short, 0.0)[:, None]], axis=1)
         return r
 
-    sol = least_squares(resid, p0, bounds=(lo, hi), method="trf", x_scale="jac", max_nfev=300)
-    return lambda x: model(sol.x, np.atleast_1d(np.asarray(x, float)))
+    def jac(p):
+        h = forward_steps(p, lo, hi)
+        trial = np.repeat(p[None, :], len(p) + 1, axis=0)
+        trial[1:][np.diag_indices(len(p))] = p + h
+        f = resid_many(trial)
+        return ((f[1:] - f[0]) / ((p + h) - p)[:, None]).T
+
+    sol = least_squares(lambda p: resid_many(p[None, :])[0], p0, jac=jac, bounds=(lo, hi),
+                        method="trf", x_scale="jac", max_nfev=300)
+    best = sol.x[None, :]
+    return lambda x: many(best, np.atleast_1d(np.asarray(x, float)))[0]
 
 
 def fit_oscillators(t, cp, k, c0, modes):
@@ -198,7 +233,7 @@ def fit_oscillators(t, cp, k, c0, modes):
         return lambda x: np.full(np.shape(np.atleast_1d(x)), c0)
 
     def shape(th, x, extra):
-        return R * einstein(th[None, :] / x[:, None]), c0
+        return R * einstein(th[:, None, :] / x[None, :, None]), c0
 
     return _fit_oscillator_model(t, cp, k, modes, shape)
 
@@ -209,10 +244,10 @@ def fit_oscillators_electronic(t, cp, k, c0, modes):
     modes = max(modes, 0)
 
     def shape(th, x, extra):
-        ratio, theta_e = extra
-        xe = theta_e / x
+        ratio, theta_e = extra[:, :1], extra[:, 1:2]
+        xe = theta_e / x[None, :]
         el = ratio * xe * xe * np.exp(-xe) / (1.0 + ratio * np.exp(-xe)) ** 2
-        return R * einstein(th[None, :] / x[:, None]), c0 + R * el
+        return R * einstein(th[:, None, :] / x[None, :, None]), c0 + R * el
 
     return _fit_oscillator_model(t, cp, k, modes, shape, ELECTRONIC_START, ELECTRONIC_LOW,
                                  ELECTRONIC_HIGH)
@@ -225,9 +260,9 @@ def fit_oscillators_anharmonic(t, cp, k, c0, modes):
         return lambda x: np.full(np.shape(np.atleast_1d(x)), c0)
 
     def shape(th, x, extra):
-        beta = extra[0]
-        ratio = x[:, None] / th[None, :]
-        return R * einstein(th[None, :] / x[:, None]) * (1.0 + beta * ratio), c0
+        beta = extra[:, :1, None]
+        ratio = x[None, :, None] / th[:, None, :]
+        return R * einstein(th[:, None, :] / x[None, :, None]) * (1.0 + beta * ratio), c0
 
     return _fit_oscillator_model(t, cp, k, modes, shape, [ANHARMONIC_START],
                                  [ANHARMONIC_BOUNDS[0]], [ANHARMONIC_BOUNDS[1]])

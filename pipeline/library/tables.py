@@ -147,6 +147,9 @@ class PackedRows(Mapping):
             at += n * dtype.itemsize
         return rows
 
+    def __contains__(self, sid) -> bool:
+        return sid in self._where        # (Mapping's own would unpack the species' rows)
+
     def __iter__(self):
         return iter(self._where)
 

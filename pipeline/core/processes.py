@@ -81,3 +81,67 @@ def give_back_memory() -> None:
         ctypes.CDLL(None).malloc_trim(0)
     except (OSError, AttributeError):
         pass
+
+
+class Aside:
+    """What ``aside`` gives its block: ``result()`` waits for the forked process and gives
+    what its work returned, or raises what it raised."""
+
+    def __init__(self, proc, answer):
+        self._proc, self._answer, self._got = proc, answer, None
+
+    def result(self):
+        if self._got is None:
+            try:
+                self._got = self._answer.recv()
+            except EOFError:
+                self._proc.join()
+                self._got = ("raised", OSError(f"a helper process stopped without an answer "
+                                               f"(exit code {self._proc.exitcode})"))
+            self._proc.join()
+        how, value = self._got
+        if how == "raised":
+            raise value
+        return value
+
+
+def _answer(work, args, parent: int, reply) -> None:
+    """The forked process of ``aside``: ``work(*args)``, and what it returned or raised
+    sent back (an exception that cannot cross as itself crosses as its text)."""
+    import pickle
+
+    workers_die_with_parent(parent)
+    try:
+        out = ("returned", work(*args))
+    except BaseException as exc:  # noqa: BLE001 - the parent raises it
+        out = ("raised", exc)
+    try:
+        pickle.loads(pickle.dumps(out))
+    except Exception:  # noqa: BLE001 - an answer that does not cross as itself
+        out = ("raised", RuntimeError(f"{type(out[1]).__name__}: {out[1]}"))
+    reply.send(out)
+    reply.close()
+
+
+@contextmanager
+def aside(work, *args):
+    """``work(*args)`` in a process forked now, while this one goes on with the block; the
+    block gets an Aside whose ``result()`` waits for it. The process shares what this one
+    holds at the fork (nothing is pickled on the way in), dies with it and leaves Ctrl-C
+    to it; whatever ends the block before the result was taken (an error, an interrupt)
+    kills it instead of waiting for it."""
+    import multiprocessing
+
+    fork = multiprocessing.get_context("fork")
+    answer, reply = fork.Pipe(duplex=False)
+    proc = fork.Process(target=_answer, args=(work, args, os.getpid(), reply), daemon=True)
+    proc.start()
+    reply.close()
+    handle = Aside(proc, answer)
+    try:
+        yield handle
+    finally:
+        if handle._got is None:
+            proc.kill()
+            proc.join()
+        answer.close()

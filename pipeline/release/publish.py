@@ -323,11 +323,19 @@ class Staging:
     def write(self, rel: str, data: bytes) -> bytes:
         """Write new file ``rel`` (refused when the folder already holds it: a file is never
         written twice, nor through a link); its sha256 and size, as Release keeps them."""
+        return self.write_chunks(rel, (data,))
+
+    def write_chunks(self, rel: str, chunks) -> bytes:
+        """``write`` of the byte pieces ``chunks``, each written as it comes."""
         path = self.folder / rel
         path.parent.mkdir(parents=True, exist_ok=True)
+        digest, size = hashlib.sha256(), 0
         with open(path, "xb") as fh:     # made durable with the release (``Release.sync``)
-            fh.write(data)
-        return summed(hashlib.sha256(data).digest(), len(data))
+            for chunk in chunks:
+                digest.update(chunk)
+                size += len(chunk)
+                fh.write(chunk)
+        return summed(digest.digest(), size)
 
 
 def summed(sha256: bytes, size: int) -> bytes:

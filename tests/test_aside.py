@@ -1,0 +1,126 @@
+"""Work done aside in a forked process (core.processes.aside), and the Parquet files of a
+large release written that way: the same bytes as written by the build's own process, and
+a failure there stops the build as one here does."""
+
+import os
+import time
+from pathlib import Path
+
+import pytest
+from thermoledger import build
+from thermoledger.core import processes
+from thermoledger.core.errors import OutputError
+from thermoledger.release import assemble, document, publish
+
+from .conftest import run_cli, tree_hashes
+
+RAW = Path(__file__).resolve().parents[1] / "raw"
+
+
+def _twice(x):
+    return {"twice": 2 * x, "pid": os.getpid()}
+
+
+def _refuse(what):
+    raise OutputError(f"cannot write {what}")
+
+
+class _Unpicklable(Exception):
+    def __init__(self, a, b):
+        super().__init__(f"{a} and {b}")
+
+
+def _raise_unpicklable():
+    raise _Unpicklable("one", "two")
+
+
+def _vanish():
+    os._exit(3)
+
+
+def _pid_then_sleep(path):
+    Path(path).write_text(str(os.getpid()))
+    time.sleep(600)
+
+
+def test_the_work_runs_in_another_process_and_its_result_comes_back():
+    with processes.aside(_twice, 21) as helper:
+        got = helper.result()
+    assert got["twice"] == 42 and got["pid"] != os.getpid()
+
+
+def test_what_the_work_raises_is_raised_here_as_itself():
+    with pytest.raises(OutputError, match="cannot write library.parquet"):
+        with processes.aside(_refuse, "library.parquet") as helper:
+            helper.result()
+
+
+def test_an_exception_that_cannot_cross_crosses_as_its_text():
+    with pytest.raises(RuntimeError, match="_Unpicklable: one and two"):
+        with processes.aside(_raise_unpicklable) as helper:
+            helper.result()
+
+
+def test_a_helper_that_dies_without_an_answer_is_an_error_not_a_hang():
+    with pytest.raises(OSError, match="stopped without an answer .exit code 3"):
+        with processes.aside(_vanish) as helper:
+            helper.result()
+
+
+def test_a_block_that_fails_kills_the_helper_instead_of_waiting(tmp_path):
+    pid_file = tmp_path / "pid"
+    with pytest.raises(KeyboardInterrupt):
+        with processes.aside(_pid_then_sleep, pid_file):
+            for _ in range(3000):             # the helper has started (at most 30 s)
+                if pid_file.exists() and pid_file.read_text():
+                    break
+                time.sleep(0.01)
+            raise KeyboardInterrupt
+    with pytest.raises(ProcessLookupError):   # killed and reaped: no such process
+        os.kill(int(pid_file.read_text()), 0)
+
+
+@pytest.fixture
+def aside_always(monkeypatch):
+    """Every release's Parquet files written aside, on any machine; the rel paths adopted
+    from the helper are recorded."""
+    monkeypatch.setattr(assemble, "ASIDE_FROM", 1)
+    monkeypatch.setattr(os, "cpu_count", lambda: 2)
+    adopted = []
+    real = publish.Release.adopt
+
+    def adopt(self, rel, summed):
+        adopted.append(rel)
+        return real(self, rel, summed)
+
+    monkeypatch.setattr(publish.Release, "adopt", adopt)
+    return adopted
+
+
+def test_parquet_files_written_aside_are_those_written_here(tmp_path, monkeypatch,
+                                                            aside_always):
+    """The demo with its report, built with the Parquet files written by the helper and by
+    the build's own process: byte-identical releases, and the helper's files taken in."""
+    aside = build.build(RAW, tmp_path / "aside")
+    assert sorted(aside_always) == ["library.parquet", "tables.parquet"]
+    monkeypatch.setattr(assemble, "ASIDE_FROM", 10 ** 9)
+    here = build.build(RAW, tmp_path / "here")
+    assert tree_hashes(tmp_path / "aside") == tree_hashes(tmp_path / "here")
+    assert aside.files.sha256("tables.parquet") == here.files.sha256("tables.parquet")
+
+
+def test_a_failure_in_the_helper_stops_the_build_and_leaves_the_last_release(
+        tmp_path, monkeypatch, capsys, aside_always):
+    out = tmp_path / "out"
+    assert run_cli(capsys, "build", "--raw", RAW, "--out", out, "--no-report", "--quiet")[0] == 0
+    before = tree_hashes(out)
+
+    def full_disk(doc):
+        raise OutputError("library.parquet: no space left on device (simulated)")
+
+    monkeypatch.setattr(document, "library_parquet_chunks", full_disk)
+    code, _, err = run_cli(capsys, "build", "--raw", RAW, "--out", out, "--no-report",
+                           "--quiet", "--fresh")
+    assert code != 0 and "no space left on device" in err and "Traceback" not in err
+    assert tree_hashes(out) == before
+    assert not [p for p in out.iterdir() if p.name.startswith(".staging-")]

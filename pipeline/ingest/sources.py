@@ -327,7 +327,9 @@ def ingest(raw_dir, part=None) -> IngestResult:
         if text is None:
             findings.append(finding("SRC-UNREADABLE", "source.json is not UTF-8", file=rel))
             continue
-        source, doc, problems = _parsed_source(text, rel, folder.name, digest)
+        parsed = _parsed_source(text, rel, folder.name, digest,
+                                type(part)(0, part.count) if part is not None else None)
+        source, doc, problems, listed = parsed[:4]
         findings += problems
         if source is None:
             continue
@@ -341,8 +343,7 @@ def ingest(raw_dir, part=None) -> IngestResult:
         seen_ids[source.id] = rel
         sources.append(source)
         transitions += [x for x in stated if owns(x.species)]
-        listed, own_tables = _listing(text, rel, folder.name, digest, part)
-        for reader, entries in ((read_table, own_tables),
+        for reader, entries in ((read_table, _own_tables(parsed, part)),
                                 (read_sets, enumerate(doc.get("coefficient_sets", [])))):
             for index, entry in entries:
                 read, infile, problems = _guarded_read(folder, entry, source, raw_dir, index,
@@ -398,32 +399,33 @@ def _settled_source_text(path: str, *identity) -> tuple:
 
 
 @lru_cache(maxsize=SOURCES_REMEMBERED)
-def _parsed_source(text: str, file: str, folder: str, digest: str):
+def _parsed_source(text: str, file: str, folder: str, digest: str, cut=None) -> tuple:
     """``parse_source``, remembered: every partition of a build reads every source.json.
-    Callers must not change the document it returns."""
-    return parse_source(text, file=file, folder=folder, digest=digest)
+    (source, the document without its tables, findings, every file it lists, {partition:
+    its (index, table entry) pairs, pickled}) for the partitions of ``cut`` (a
+    partitions.Part of the same count; None: all in one). The tables are grouped by
+    partition once per process, not walked through for each partition, and held pickled: a
+    worker of a 100 000-species build held every table entry of every source as Python
+    objects, some 150 MB. Callers must not change the document it returns."""
+    import pickle
+
+    source, doc, problems = parse_source(text, file=file, folder=folder, digest=digest)
+    listed = frozenset(e["file"] for k in ("tables", "coefficient_sets") for e in doc.get(k, []))
+    by_part = {}
+    for i, e in enumerate(doc.get("tables", [])):
+        by_part.setdefault(cut.index_of(e["species"]) if cut else 0, []).append((i, e))
+    slim = {k: v for k, v in doc.items() if k != "tables"}
+    return source, slim, problems, listed, {k: pickle.dumps(v, pickle.HIGHEST_PROTOCOL)
+                                            for k, v in by_part.items()}
 
 
-_listings = {}   # (text, file, folder, digest, partitions) -> (listed, tables by partition)
+def _own_tables(parsed: tuple, part) -> list:
+    """The (index, table entry) pairs of the species ``part`` owns (all when None) of a
+    ``_parsed_source``, fresh objects."""
+    import pickle
 
-
-def _listing(text: str, file: str, folder: str, digest: str, part) -> tuple:
-    """(every file the source.json lists, its (index, table entry) of the species ``part``
-    owns, all when None), from the source's tables grouped by partition once per process:
-    not a walk through every entry for each partition (at 100 000 species, 50 sources of
-    2 000 tables for each of some 400 partitions)."""
-    key = (text, file, folder, digest, part.count if part else 1)
-    if key not in _listings:
-        if len(_listings) >= SOURCES_REMEMBERED:
-            _listings.clear()
-        doc = _parsed_source(text, file, folder, digest)[1]
-        by_part = {}
-        for i, e in enumerate(doc.get("tables", [])):
-            by_part.setdefault(part.index_of(e["species"]) if part else 0, []).append((i, e))
-        _listings[key] = (frozenset(e["file"] for k in ("tables", "coefficient_sets")
-                                    for e in doc.get(k, [])), by_part)
-    listed, by_part = _listings[key]
-    return listed, by_part.get(part.index if part else 0, ())
+    blob = parsed[4].get(part.index if part else 0)
+    return pickle.loads(blob) if blob else []
 
 
 def _owned(f, owns) -> bool:

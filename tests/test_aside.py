@@ -1,6 +1,6 @@
-"""Work done aside in a forked process (core.processes.aside), and the Parquet files of a
-large release written that way: the same bytes as written by the build's own process, and
-a failure there stops the build as one here does."""
+"""Work done aside in a forked process (core.processes.aside), and library.json and
+tables.parquet of a large release written that way: the same bytes as written by the
+build's own process, and a failure there stops the build as one here does."""
 
 import os
 import time
@@ -10,7 +10,7 @@ import pytest
 from thermoledger import build
 from thermoledger.core import processes
 from thermoledger.core.errors import OutputError
-from thermoledger.release import assemble, document, publish
+from thermoledger.release import assemble, publish, tables
 
 from .conftest import run_cli, tree_hashes
 
@@ -82,8 +82,8 @@ def test_a_block_that_fails_kills_the_helper_instead_of_waiting(tmp_path):
 
 @pytest.fixture
 def aside_always(monkeypatch):
-    """Every release's Parquet files written aside, on any machine; the rel paths adopted
-    from the helper are recorded."""
+    """Every release's library.json and tables.parquet written aside, on any machine; the
+    relative paths adopted from the helper are recorded."""
     monkeypatch.setattr(assemble, "ASIDE_FROM", 1)
     monkeypatch.setattr(os, "cpu_count", lambda: 2)
     adopted = []
@@ -97,12 +97,12 @@ def aside_always(monkeypatch):
     return adopted
 
 
-def test_parquet_files_written_aside_are_those_written_here(tmp_path, monkeypatch,
-                                                            aside_always):
-    """The demo with its report, built with the Parquet files written by the helper and by
-    the build's own process: byte-identical releases, and the helper's files taken in."""
+def test_files_written_aside_are_those_written_here(tmp_path, monkeypatch, aside_always):
+    """The demo with its report, built with library.json and tables.parquet written by the
+    helper and by the build's own process: byte-identical releases, and the helper's files
+    taken in."""
     aside = build.build(RAW, tmp_path / "aside")
-    assert sorted(aside_always) == ["library.parquet", "tables.parquet"]
+    assert sorted(aside_always) == ["library.json", "tables.parquet"]
     monkeypatch.setattr(assemble, "ASIDE_FROM", 10 ** 9)
     here = build.build(RAW, tmp_path / "here")
     assert tree_hashes(tmp_path / "aside") == tree_hashes(tmp_path / "here")
@@ -115,10 +115,10 @@ def test_a_failure_in_the_helper_stops_the_build_and_leaves_the_last_release(
     assert run_cli(capsys, "build", "--raw", RAW, "--out", out, "--no-report", "--quiet")[0] == 0
     before = tree_hashes(out)
 
-    def full_disk(doc):
-        raise OutputError("library.parquet: no space left on device (simulated)")
+    def full_disk(doc, step=100.0, points=None, own=None):
+        raise OutputError("tables.parquet: no space left on device (simulated)")
 
-    monkeypatch.setattr(document, "library_parquet_chunks", full_disk)
+    monkeypatch.setattr(tables, "tables_parquet_chunks", full_disk)
     code, _, err = run_cli(capsys, "build", "--raw", RAW, "--out", out, "--no-report",
                            "--quiet", "--fresh")
     assert code != 0 and "no space left on device" in err and "Traceback" not in err

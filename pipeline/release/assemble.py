@@ -32,9 +32,13 @@ class Outcome:
     rows: tuple = ()       # library.tables.pack_rows blocks of own_rows, made in the partitions
 
 
-#: a release of at least this many species has its Parquet files written by a forked
-#: process (core.processes.aside) while the build's own process writes the JSON documents
-#: and the report: at 10 000 species they are some 1.0 s of its 3.5 s after the partitions
+#: a release of at least this many species has library.json and tables.parquet written by
+#: a forked process (core.processes.aside) while the build's own process checks the library
+#: against its schema and writes library.parquet and findings.json: at 10 000 species some
+#: 1.0 s of 1.8 s after the partitions. The helper holds little (pieces of JSON, a row group
+#: of evaluated rows); library.parquet, whose row groups hold the most (some 200 MB at 100 000
+#: species), is made here as before, so that the peak memory does not grow. The report waits
+#: for the helper: its workers take both cores, and more processes at once hold more memory
 ASIDE_FROM = 2000
 
 
@@ -43,8 +47,8 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None
     it is made), each checked against its schema where it has one; ``say(stage, i, n,
     label)`` hears of each step (the report species by species). ``pages`` (pages.Drawn)
     offers the report pages of the last release, linked where drawn from the same inputs.
-    The Parquet files of a large release are written by a process of their own
-    (``ASIDE_FROM``): the same bytes, whichever process writes them."""
+    library.json and tables.parquet of a large release are written by a process of their
+    own (``ASIDE_FROM``): the same bytes, whichever process writes them."""
 
     from ..library.tables import unpack_rows
     from . import report, tables
@@ -57,19 +61,21 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None
     own = unpack_rows(*outcome.rows)          # each species' rows made when written
     staging = release.staging() if len(ids) >= ASIDE_FROM and (os.cpu_count() or 1) > 1 \
         else None
-    say("write tables", 0, 0, "library.parquet, tables.parquet")
-    with (processes.aside(parquet_files, doc, own, out.table_step, staging.write_chunks)
+    say("write tables", 0, 0, "library.json, library.parquet, tables.parquet")
+    if staging:
+        processes.give_back_memory()         # before the helper forks: it shares less
+    with (processes.aside(aside_files, doc, own, out.table_step, staging.write_chunks)
           if staging else nullcontext()) as helper:
-        if helper is None:
-            parquet_files(doc, own, out.table_step, release.add_chunks)
         document.release_files(doc, document.findings_document(outcome.findings), release)
+        if helper is None:
+            aside_files(doc, own, out.table_step, release.add_chunks)
         if out.tables_csv:
             release.update(tables.csv_files(doc, out.table_step))
-        if out.report:
-            report.report_files(doc, outcome.points, ctx.fit.accept_cp_max_rel, say=say,
-                                release=release, pages=pages.into(release) if pages else None)
         for rel, summed in (helper.result() if helper else {}).items():
-            release.adopt(rel, summed)
+            release.adopt(rel, summed)     # before the report's workers fork
+    if out.report:
+        report.report_files(doc, outcome.points, ctx.fit.accept_cp_max_rel, say=say,
+                            release=release, pages=pages.into(release) if pages else None)
     say("write provenance", 0, 0, "provenance.json, manifest.json")
     release.add_chunks("provenance.json", document.json_chunks(
         provenance.prov_document(outcome.fitted, checked.inputs, release.outputs())))
@@ -83,13 +89,14 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None
     return release
 
 
-def parquet_files(doc: dict, own, step: float, write) -> dict:
-    """library.parquet and tables.parquet of library document ``doc`` (``own``: the
-    species' evaluated rows, library.tables.unpack_rows), each given to ``write(relative
-    path, byte pieces)``; {relative path: what ``write`` returned}."""
+def aside_files(doc: dict, own, step: float, write) -> dict:
+    """library.json and tables.parquet of library document ``doc`` (``own``: the species'
+    evaluated rows, library.tables.unpack_rows), each given to ``write(relative path, byte
+    pieces)``; {relative path: what ``write`` returned}. library.json is checked against
+    its schema by ``document.release_files``, which a build calls at the same time."""
     from . import tables
 
-    return {"library.parquet": write("library.parquet", document.library_parquet_chunks(doc)),
+    return {"library.json": write("library.json", document.json_chunks(doc)),
             "tables.parquet": write("tables.parquet",
                                     tables.tables_parquet_chunks(doc, step, own=own))}
 

@@ -404,12 +404,13 @@ SCHEMA_COPIES = ("library.schema.json", "findings.schema.json", "manifest.schema
 
 
 def release_files(doc: dict, findings_doc: dict, release) -> None:
-    """The library's JSON documents, checked against their schemas, into ``release``
-    (publish.Release; written piece by piece), and the schemas they follow (library.parquet
-    is written with the evaluated tables: release.assemble)."""
+    """The library checked against its schema, and library.parquet, findings.json (checked
+    too; written piece by piece) and the schemas they follow into ``release``
+    (publish.Release). library.json is written with the evaluated tables (release.assemble:
+    in another process while this one works, for a large library)."""
     require_valid_library(doc)
     require_valid(findings_doc, "findings.schema.json", "findings.json")
-    release.add_chunks("library.json", json_chunks(doc))
+    release.add_chunks("library.parquet", library_parquet_chunks(doc))
     release.add_chunks("findings.json", json_chunks(findings_doc))
     for name in SCHEMA_COPIES:  # the release describes itself
         release.add(f"schemas/{name}", schemas.schema_bytes(name))

@@ -124,3 +124,16 @@ def test_a_failure_in_the_helper_stops_the_build_and_leaves_the_last_release(
     assert code != 0 and "no space left on device" in err and "Traceback" not in err
     assert tree_hashes(out) == before
     assert not [p for p in out.iterdir() if p.name.startswith(".staging-")]
+
+
+def test_a_release_beyond_the_helper_s_window_is_written_here(tmp_path, monkeypatch,
+                                                             aside_always):
+    """From ASIDE_UNTIL species on, the helper would copy too much of the build's memory:
+    the files are written by the build's own process (the demo's 17 species, the window
+    moved to end there)."""
+    monkeypatch.setattr(assemble, "ASIDE_UNTIL", 17)
+    build.build(RAW, tmp_path / "out")
+    assert aside_always == []
+    monkeypatch.setattr(assemble, "ASIDE_UNTIL", 18)
+    build.build(RAW, tmp_path / "again")
+    assert sorted(aside_always) == ["library.json", "tables.parquet"]

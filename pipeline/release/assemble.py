@@ -32,14 +32,16 @@ class Outcome:
     rows: tuple = ()       # library.tables.pack_rows blocks of own_rows, made in the partitions
 
 
-#: a release of at least this many species has library.json and tables.parquet written by
-#: a forked process (core.processes.aside) while the build's own process checks the library
-#: against its schema and writes library.parquet and findings.json: at 10 000 species some
-#: 1.0 s of 1.8 s after the partitions. The helper holds little (pieces of JSON, a row group
-#: of evaluated rows); library.parquet, whose row groups hold the most (some 200 MB at 100 000
-#: species), is made here as before, so that the peak memory does not grow. The report waits
-#: for the helper: its workers take both cores, and more processes at once hold more memory
-ASIDE_FROM = 2000
+#: a release of ASIDE_FROM species or more, and fewer than ASIDE_UNTIL, has library.json and
+#: tables.parquet written by a forked process (core.processes.aside) while the build's own
+#: process checks the library against its schema and writes library.parquet and
+#: findings.json: at 10 000 species some 0.6 s of 1.8 s after the partitions. The helper
+#: shares the build's memory, but every page of it that the helper touches (an object read
+#: raises its reference count) is copied: some 3.7 KB per species (375 MB at 100 000, where
+#: a rebuild then peaked at 1 118 instead of 742 MiB). library.parquet, whose row groups
+#: hold the most, is made here as without a helper. The report waits for the helper: its
+#: workers take both cores, and more processes at once hold more memory
+ASIDE_FROM, ASIDE_UNTIL = 2000, 40000
 
 
 def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None):
@@ -48,7 +50,7 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None
     label)`` hears of each step (the report species by species). ``pages`` (pages.Drawn)
     offers the report pages of the last release, linked where drawn from the same inputs.
     library.json and tables.parquet of a large release are written by a process of their
-    own (``ASIDE_FROM``): the same bytes, whichever process writes them."""
+    own (``ASIDE_FROM``, ``ASIDE_UNTIL``): the same bytes, whichever process writes them."""
 
     from ..library.tables import unpack_rows
     from . import report, tables
@@ -59,8 +61,8 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None
     out = ctx.outputs
     say = say or (lambda *a: None)
     own = unpack_rows(*outcome.rows)          # each species' rows made when written
-    staging = release.staging() if len(ids) >= ASIDE_FROM and (os.cpu_count() or 1) > 1 \
-        else None
+    staging = release.staging() if ASIDE_FROM <= len(ids) < ASIDE_UNTIL and \
+        (os.cpu_count() or 1) > 1 else None
     say("write tables", 0, 0, "library.json, library.parquet, tables.parquet")
     if staging:
         processes.give_back_memory()         # before the helper forks: it shares less

@@ -137,3 +137,22 @@ def test_a_release_beyond_the_helper_s_window_is_written_here(tmp_path, monkeypa
     monkeypatch.setattr(assemble, "ASIDE_UNTIL", 18)
     build.build(RAW, tmp_path / "again")
     assert sorted(aside_always) == ["library.json", "tables.parquet"]
+
+
+def _how_ctrl_c_is_taken():
+    import signal
+
+    return (signal.getsignal(signal.SIGINT) == signal.SIG_IGN,
+            signal.SIGINT in signal.pthread_sigmask(signal.SIG_BLOCK, []))
+
+
+def test_ctrl_c_is_left_to_the_parent_and_never_caught_half_started():
+    """The helper ignores Ctrl-C (the parent stops it), and SIGINT is held back from it
+    until it does, so that a Ctrl-C arriving while it starts cannot print a traceback from
+    it; afterwards it is not held back any more, here or there."""
+    import signal
+
+    with processes.aside(_how_ctrl_c_is_taken) as helper:
+        ignored, blocked = helper.result()
+    assert ignored and not blocked
+    assert signal.SIGINT not in signal.pthread_sigmask(signal.SIG_BLOCK, [])

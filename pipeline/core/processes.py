@@ -109,8 +109,11 @@ def _answer(work, args, parent: int, reply) -> None:
     """The forked process of ``aside``: ``work(*args)``, and what it returned or raised
     sent back (an exception that cannot cross as itself crosses as its text)."""
     import pickle
+    import signal
 
     workers_die_with_parent(parent)
+    if hasattr(signal, "pthread_sigmask"):     # blocked by ``aside`` around the fork
+        signal.pthread_sigmask(signal.SIG_UNBLOCK, {signal.SIGINT})
     try:
         out = ("returned", work(*args))
     except BaseException as exc:  # noqa: BLE001 - the parent raises it
@@ -131,11 +134,20 @@ def aside(work, *args):
     to it; whatever ends the block before the result was taken (an error, an interrupt)
     kills it instead of waiting for it."""
     import multiprocessing
+    import signal
 
     fork = multiprocessing.get_context("fork")
     answer, reply = fork.Pipe(duplex=False)
     proc = fork.Process(target=_answer, args=(work, args, os.getpid(), reply), daemon=True)
-    proc.start()
+    masking = hasattr(signal, "pthread_sigmask")
+    # Ctrl-C is held back from the new process until it ignores it (workers_die_with_parent):
+    # one arriving in between would print a traceback from it
+    was = signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT}) if masking else None
+    try:
+        proc.start()
+    finally:
+        if masking:
+            signal.pthread_sigmask(signal.SIG_SETMASK, was)
     reply.close()
     handle = Aside(proc, answer)
     try:

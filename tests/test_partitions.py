@@ -47,7 +47,7 @@ def test_a_process_keeps_a_source_s_tables_grouped_and_pickled_not_as_objects():
     cut = partitions.Part(0, 3)
     parsed = sources._parsed_source(text, "isru-rrho-2026/source.json", "isru-rrho-2026",
                                     "not checked", cut)
-    assert "tables" not in parsed[1] and all(isinstance(b, bytes) for b in parsed[4].values())
+    assert "tables" not in parsed.doc and all(isinstance(b, bytes) for b in parsed.tables.values())
     got = [sources._own_tables(parsed, partitions.Part(k, 3)) for k in range(3)]
     assert sorted(i for part in got for i, _ in part) == list(range(len(listed)))
     for k, part in enumerate(got):

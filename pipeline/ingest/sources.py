@@ -9,6 +9,7 @@ import hashlib
 from dataclasses import dataclass
 from functools import lru_cache
 from pathlib import Path
+from typing import NamedTuple
 
 from ..core import chemistry, jsonread, paths, phases, schemas, units
 from ..core.errors import InputError
@@ -329,7 +330,7 @@ def ingest(raw_dir, part=None) -> IngestResult:
             continue
         parsed = _parsed_source(text, rel, folder.name, digest,
                                 type(part)(0, part.count) if part is not None else None)
-        source, doc, problems, listed = parsed[:4]
+        source, doc, problems, listed = parsed.source, parsed.doc, parsed.problems, parsed.listed
         findings += problems
         if source is None:
             continue
@@ -398,12 +399,21 @@ def _settled_source_text(path: str, *identity) -> tuple:
     return _read_source_text(path)
 
 
+class _Parsed(NamedTuple):
+    """A source.json as a process remembers it (``_parsed_source``)."""
+
+    source: object       # SourceMeta, or None when the file is refused
+    doc: dict            # the document without its tables
+    problems: list       # findings
+    listed: frozenset    # every file it lists
+    tables: dict         # {partition: its (index, table entry) pairs, pickled}
+
+
 @lru_cache(maxsize=SOURCES_REMEMBERED)
-def _parsed_source(text: str, file: str, folder: str, digest: str, cut=None) -> tuple:
+def _parsed_source(text: str, file: str, folder: str, digest: str, cut=None) -> _Parsed:
     """``parse_source``, remembered: every partition of a build reads every source.json.
-    (source, the document without its tables, findings, every file it lists, {partition:
-    its (index, table entry) pairs, pickled}) for the partitions of ``cut`` (a
-    partitions.Part of the same count; None: all in one). The tables are grouped by
+    Its tables grouped by the partitions of ``cut`` (a partitions.Part of the same count;
+    None: all in one). The tables are grouped by
     partition once per process, not walked through for each partition, and held pickled: a
     worker of a 100 000-species build held every table entry of every source as Python
     objects, some 150 MB. Callers must not change the document it returns."""
@@ -415,16 +425,16 @@ def _parsed_source(text: str, file: str, folder: str, digest: str, cut=None) -> 
     for i, e in enumerate(doc.get("tables", [])):
         by_part.setdefault(cut.index_of(e["species"]) if cut else 0, []).append((i, e))
     slim = {k: v for k, v in doc.items() if k != "tables"}
-    return source, slim, problems, listed, {k: pickle.dumps(v, pickle.HIGHEST_PROTOCOL)
-                                            for k, v in by_part.items()}
+    return _Parsed(source, slim, problems, listed,
+                   {k: pickle.dumps(v, pickle.HIGHEST_PROTOCOL) for k, v in by_part.items()})
 
 
-def _own_tables(parsed: tuple, part) -> list:
+def _own_tables(parsed: _Parsed, part) -> list:
     """The (index, table entry) pairs of the species ``part`` owns (all when None) of a
     ``_parsed_source``, fresh objects."""
     import pickle
 
-    blob = parsed[4].get(part.index if part else 0)
+    blob = parsed.tables.get(part.index if part else 0)
     return pickle.loads(blob) if blob else []
 
 

@@ -327,20 +327,26 @@ class Staging:
 
     def write_chunks(self, rel: str, chunks) -> bytes:
         """``write`` of the byte pieces ``chunks``, each written as it comes."""
-        path = self.folder / rel
-        path.parent.mkdir(parents=True, exist_ok=True)
-        digest, size = hashlib.sha256(), 0
-        with open(path, "xb") as fh:     # made durable with the release (``Release.sync``)
-            for chunk in chunks:
-                digest.update(chunk)
-                size += len(chunk)
-                fh.write(chunk)
-        return summed(digest.digest(), size)
+        return write_summed(self.folder / rel, chunks, "xb")
 
 
 def summed(sha256: bytes, size: int) -> bytes:
     """A file's sha256 (32 bytes) and size as a Release keeps them: 40 bytes."""
     return sha256 + size.to_bytes(8, "big")
+
+
+def write_summed(path: Path, chunks, mode: str = "wb") -> bytes:
+    """Write the byte pieces ``chunks`` into file ``path`` (opened in ``mode``; its folder
+    made), each as it comes; its sha256 and size (``summed``). Not fsynced: a staged release
+    is made durable all at once (``Release.sync``)."""
+    path.parent.mkdir(parents=True, exist_ok=True)
+    digest, size = hashlib.sha256(), 0
+    with open(path, mode) as fh:
+        for chunk in chunks:
+            digest.update(chunk)
+            size += len(chunk)
+            fh.write(chunk)
+    return summed(digest.digest(), size)
 
 
 class Release:
@@ -374,22 +380,14 @@ class Release:
     def add_chunks(self, rel: str, chunks) -> None:
         """File ``rel`` of the byte pieces ``chunks``, written as they come (a large file is
         never held whole); its sha256 and size are taken on the way."""
-        digest, size = hashlib.sha256(), 0
         if self._kept is not None:
             data = self._kept[rel] = b"".join(chunks)
-            digest.update(data)
-            size = len(data)
-        else:
-            path = self.folder / rel
-            path.parent.mkdir(parents=True, exist_ok=True)
-            if rel in self._sums:              # never written through a link (``link``)
-                path.unlink(missing_ok=True)
-            with open(path, "wb") as fh:     # made durable all at once (``sync``)
-                for chunk in chunks:
-                    digest.update(chunk)
-                    size += len(chunk)
-                    fh.write(chunk)
-        self._sums[rel] = summed(digest.digest(), size)
+            self._sums[rel] = summed(hashlib.sha256(data).digest(), len(data))
+            return
+        path = self.folder / rel
+        if rel in self._sums:              # never written through a link (``link``)
+            path.unlink(missing_ok=True)
+        self._sums[rel] = write_summed(path, chunks)
 
     def sync(self) -> None:
         """Make every file written into the staging folder durable (core.paths.sync_files),

@@ -206,3 +206,28 @@ def test_lines_split_by_their_delimiter_are_the_rows_the_csv_module_reads(lines,
     except csv.Error:
         return                            # refused (TAB-SYNTAX) either way: only quotes do it
     assert csvtable._records(lines, numbers, delimiter) == expected
+
+
+@settings(max_examples=400, deadline=None)
+@given(st.text(alphabet=",; \t#\r\n\x0b\x1c\u2028\u3000.1e", max_size=40))
+def test_content_lines_are_those_of_the_line_by_line_reading(text):
+    """Text without '#' is split into content lines in one pass; the lines, their numbers
+    and the comment lines are those of reading line by line (the blank ones by strip)."""
+    import re
+
+    expected = dialect.lines_one_by_one(re.split(r"\r\n|\r|\n", text))
+    assert dialect.content_lines(text) == expected
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.text(alphabet=",;\t .-1aé", min_size=1, max_size=12),
+       st.lists(st.text(alphabet=",;\t.-eE019", min_size=1, max_size=12), max_size=8),
+       st.sampled_from([",", ";", "\t"]))
+def test_rows_under_a_header_with_spaces_are_split_as_the_csv_module_splits_them(
+        header, lines, delimiter):
+    """The usual table: spaces in its header, none below it. The rows below are split
+    without stripping their cells; they must be what the csv module reads."""
+    lines = [header] + lines
+    numbers = [2 * k + 1 for k in range(len(lines))]
+    assert csvtable._records(lines, numbers, delimiter) == _records_by_csv(lines, numbers,
+                                                                           delimiter)

@@ -133,8 +133,10 @@ def _dimension_of(unit, kind: str, text: str) -> str:
                     expected=expected)
 
 
+@lru_cache(maxsize=512)
 def check_unit(text: str, kind: str) -> str:
-    """Raise UnitError unless ``text`` is a unit for ``kind``; return 'molar' or 'mass'."""
+    """Raise UnitError unless ``text`` is a unit for ``kind``; return 'molar' or 'mass'
+    (remembered: every table of a catalogue names the same few units)."""
     return _dimension_of(_parse_unit(text), kind, text)
 
 

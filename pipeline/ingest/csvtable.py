@@ -14,7 +14,9 @@ each problem — or one finding naming the cause when no row could be read.
 
 import csv
 import math
+import re
 from dataclasses import dataclass, field, replace
+from operator import itemgetter
 
 import numpy as np
 
@@ -74,12 +76,28 @@ def _refused(finding_, reading=None):
     return ParsedTable(empty_rows(), (), (), (finding_,), dict(reading or {}))
 
 
+#: the ASCII characters that ``str.strip`` takes off a cell split by each delimiter (line
+#: breaks are gone already; a tab is no cell's part when it is the delimiter)
+_SPACE = {d: re.compile("[" + re.escape("".join(c for c in " \t\x0b\x0c\x1c\x1d\x1e\x1f"
+                                              if c != d)) + "]")
+          for d in (",", ";", "\t")}
+
+
 def _records(lines, numbers, delimiter):
     """[(line number, cells)] of the content lines, each cell stripped, lines of empty cells
     left out. Lines without a quote and no longer than a csv field may be split by the
     delimiter alone: the csv module would split them so, one record per line."""
     limit = csv.field_size_limit()
-    if not any('"' in line or len(line) > limit for line in lines):
+    joined = "\n".join(lines)
+    if '"' not in joined and max(map(len, lines), default=0) <= limit:
+        if lines and joined.isascii() and not _SPACE[delimiter].search(joined, len(lines[0])):
+            # no cell below the first line to strip: a line of delimiters alone is a line
+            # of empty cells
+            first = [c.strip() for c in lines[0].split(delimiter)]
+            out = [(numbers[0], first)] if any(first) else []
+            out += [(number, line.split(delimiter)) for number, line in
+                    zip(numbers[1:], lines[1:]) if line.strip(delimiter)]
+            return out[:MAX_ROWS + 2]                # never more than the limit
         out = []
         for number, line in zip(numbers, lines):
             cells = [c.strip() for c in line.split(delimiter)]
@@ -157,7 +175,7 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
     cols, problems = layout(header, units_row, columns, file, header_line)
     findings += problems
     numeric = [(line, c.header, cells[c.position]) for line, cells in rows[1:] for c in cols
-               if c.position < len(cells)]
+               if c.position < len(cells)] if delimiter != "," else ()  # (then no mark but '.')
     mark, mixed = dialects.decimal_mark(numeric, delimiter, file)
     if mark is None:
         return _refused(mixed[0], reading.to_dict())
@@ -247,23 +265,25 @@ def _read_clean(rows, width, usable, mark):
     usable cell is a plain finite number, read in one pass per column; else None (the
     row-by-row reader then says what is wrong where). The numbers are those ``parse_number``
     gives cell by cell."""
-    if not rows or any(COLUMNS[c.quantity][1] is None for c, _ in usable) or \
-            any(len(cells) != width for _, cells in rows):
+    if not rows or any(COLUMNS[c.quantity][1] is None for c, _ in usable):
+        return None
+    lines, records = zip(*rows)
+    if set(map(len, records)) != {width}:
         return None
     values = []
     for col, _ in usable:
-        cells = [r[1][col.position] for r in rows]
+        cells = list(map(itemgetter(col.position), records))
         if mark == ",":
             if any("." in c for c in cells):
                 return None
             cells = [c.replace(",", ".", 1) for c in cells]
         if not units.all_plain_numbers(cells):
             return None
-        column = [float(c) for c in cells]
+        column = list(map(float, cells))
         if not all(map(math.isfinite, column)):
             return None
         values.append(column)
-    return values, [line for line, _ in rows]
+    return values, list(lines)
 
 
 def _read_rows(rows, width, usable, mark, delimiter, file):

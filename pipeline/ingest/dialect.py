@@ -65,9 +65,20 @@ def decode(raw: bytes, file: str) -> tuple[str | None, str, list[Finding]]:
 
 
 def content_lines(text: str) -> tuple[list[str], list[int], tuple]:
-    """(lines, their numbers from 1, comment line numbers) without blank and ``#`` lines."""
+    """(lines, their numbers from 1, comment line numbers) without blank and ``#`` lines.
+    Text without '#' has no comment: its lines are only told from blank ones (a line is
+    blank when ``strip`` leaves nothing, that is when it is empty or all ``isspace``)."""
+    parts = text.split("\n") if "\r" not in text else _LINE_BREAK.split(text)
+    if "#" not in text:
+        numbers = [n for n, line in enumerate(parts, start=1) if line and not line.isspace()]
+        return [parts[n - 1] for n in numbers], numbers, ()
+    return lines_one_by_one(parts)
+
+
+def lines_one_by_one(parts: list[str]) -> tuple[list[str], list[int], tuple]:
+    """``content_lines`` of the lines ``parts``, each judged alone."""
     lines, numbers, comments = [], [], []
-    for number, line in enumerate(_LINE_BREAK.split(text), start=1):
+    for number, line in enumerate(parts, start=1):
         stripped = line.strip()
         if not stripped:
             continue

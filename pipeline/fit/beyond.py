@@ -44,10 +44,10 @@ def first_fall(form, fitted: Fitted, t_from: float, t_to: float, points: int = 4
     bps, sol = fitted.bps, fitted.sol
     grid = np.geomspace(t_from, t_to, points)
     cp = basis.cp_rows(form.powers, grid, bps) @ sol.c
-    slope = basis.slope_rows(form.powers, grid, bps) @ sol.c
     falls = np.diff(cp) < -1e-9 * np.abs(cp[:-1])
     if not falls.any():
         return None
+    slope = basis.slope_rows(form.powers, grid, bps) @ sol.c
     return float(grid[np.argmax(falls)]), float(grid[np.argmin(slope)])
 
 

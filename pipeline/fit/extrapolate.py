@@ -7,15 +7,17 @@ Two families of models, each fitted in relative residuals:
   fixed B the a_i enter linearly; B is searched on a grid (all B solved at once). n = 0..3
   free terms.
 * effective oscillators: Cp = Cp(0) + R Σ_k g_k E(θ_k/T) (statmech.einstein) with
-  degeneracies adding up to the vibrational mode count 3N − 5 or 3N − 6. The oscillator
+  degeneracies adding up to the vibrational mode count 3N − 5 or 3N − 6. An oscillator
   spectrum fixes the θ_k on a grid and is linear in g_k ≥ 0 (one non-negative least-squares
-  solve); the non-linear models fit k = 1..3 free θ_k and g_k, with an anharmonic rise or a
-  low-lying electronic state, by bounded non-linear least squares (scipy).
+  solve); there are spectra of several resolutions (SPECTRUM_SIZES), the coarser ones
+  with fewer free weights to carry the noise of the data beyond it. The non-linear models
+  fit k = 1..3 free θ_k and g_k, with an anharmonic rise or a low-lying electronic state, by
+  bounded non-linear least squares (scipy).
 
-The linear models (Wilhoit's and the spectrum) are tried first, and alone when the best of
+The linear models (Wilhoit's and the spectra) are tried first, and alone when the best of
 them passes the hold-out test below within PASS_SIGMAS times the scatter of the data
 (``pass_level``): about a millisecond per side. Only where they fail is the non-linear
-search run, over Wilhoit's form and the non-linear oscillator models (some 50 ms).
+search run, over Wilhoit's form and the non-linear oscillator models (some 25 ms).
 
 The model is chosen per species by how well it predicts held-out data: each candidate is
 fitted to the data without the outer quarter (on the side of the extension) and judged by
@@ -52,10 +54,14 @@ from ..physics.statmech import einstein
 B_GRID = np.geomspace(30.0, 20000.0, 80)  # [K]
 #: Wilhoit's form is tried with 0 .. WILHOIT_TERMS free terms
 WILHOIT_TERMS = 3
-#: the oscillator spectrum: characteristic temperatures [K] of its fixed Einstein functions
-#: (from the lowest bending modes to well above any fundamental) and the weight of the row
-#: that holds the sum of their degeneracies at the mode count
-SPECTRUM_THETA = np.geomspace(50.0, 2.0e4, 40)
+#: the oscillator spectra: the span [K] of the characteristic temperatures of their fixed
+#: Einstein functions (from the lowest bending modes to well above any fundamental), how
+#: many each spectrum spreads over it geometrically (a ladder of resolutions, each about 1.5
+#: times the one before: a coarse spectrum has fewer free weights and carries less of the
+#: noise beyond the data, a fine one follows a rich spectrum; the hold-out test chooses), and
+#: the weight of the row that holds the sum of their degeneracies at the mode count
+SPECTRUM_SPAN = (50.0, 2.0e4)
+SPECTRUM_SIZES = (8, 12, 18, 27, 40)
 SPECTRUM_SUM_WEIGHT = 1.0e3
 #: the fast models are used alone when their best hold-out error is at most PASS_SIGMAS
 #: times the scatter of the data, and never asked for better than PASS_FLOOR (our rule: the
@@ -89,7 +95,7 @@ class Extension:
     side: str              # "high" or "low"
     t_from: float          # [K], last data temperature
     t_to: float            # [K], end of the range of use
-    model: str             # e.g. "wilhoit-2", "oscillators-3"
+    model: str             # e.g. "wilhoit-2", "oscillators-spectrum-18", "oscillators-3"
     holdout_error: float   # [-], largest relative error on the held-out data
     u_rel_end: float       # [-], relative standard uncertainty at t_to
     t: tuple               # [K], generated temperatures
@@ -268,20 +274,31 @@ def fit_oscillators_anharmonic(t, cp, k, c0, modes):
                                  [ANHARMONIC_BOUNDS[0]], [ANHARMONIC_BOUNDS[1]])
 
 
-def fit_spectrum(t, cp, c0, modes):
-    """Cp(0) + R Σ_j g_j E(θ_j/T) over the fixed θ_j of SPECTRUM_THETA, g_j ≥ 0 with Σ g_j =
-    ``modes`` (held by a heavily weighted row): non-negative least squares in relative
-    residuals, linear in the g_j, so one solve instead of a non-linear search."""
+_SPECTRUM_THETA = {n: np.geomspace(*SPECTRUM_SPAN, n) for n in SPECTRUM_SIZES}
+
+
+def spectrum_theta(size: int) -> np.ndarray:
+    """The ``size`` characteristic temperatures [K] of a spectrum (made once for each of
+    SPECTRUM_SIZES)."""
+    theta = _SPECTRUM_THETA.get(size)
+    return np.geomspace(*SPECTRUM_SPAN, size) if theta is None else theta
+
+
+def fit_spectrum(t, cp, c0, modes, size: int = SPECTRUM_SIZES[-1]):
+    """Cp(0) + R Σ_j g_j E(θ_j/T) over the ``size`` fixed θ_j of ``spectrum_theta``, g_j ≥ 0
+    with Σ g_j = ``modes`` (held by a heavily weighted row): non-negative least squares in
+    relative residuals, linear in the g_j, so one solve instead of a non-linear search."""
     from scipy.optimize import nnls
 
     if modes <= 0:
         return lambda x: np.full(np.shape(np.atleast_1d(x)), c0)
-    a = R * einstein(SPECTRUM_THETA[None, :] / t[:, None]) / cp[:, None]
-    rows = np.vstack([a, SPECTRUM_SUM_WEIGHT * np.ones((1, len(SPECTRUM_THETA)))])
+    theta = spectrum_theta(size)
+    a = R * einstein(theta[None, :] / t[:, None]) / cp[:, None]
+    rows = np.vstack([a, SPECTRUM_SUM_WEIGHT * np.ones((1, size))])
     rhs = np.append((cp - c0) / cp, SPECTRUM_SUM_WEIGHT * modes)
-    g, _ = nnls(rows, rhs, maxiter=50 * len(SPECTRUM_THETA))
+    g, _ = nnls(rows, rhs, maxiter=50 * size)
     return lambda x: c0 + R * einstein(
-        SPECTRUM_THETA[None, :] / np.atleast_1d(np.asarray(x, float))[:, None]) @ g
+        theta[None, :] / np.atleast_1d(np.asarray(x, float))[:, None]) @ g
 
 
 def _wilhoit_group(geometry, atoms) -> tuple:
@@ -296,11 +313,16 @@ def _one(name, fitter) -> tuple:
 
 def fast_candidates(geometry, atoms) -> list:
     """The models linear in their free parameters (Wilhoit's form for each B of a grid, the
-    oscillator spectrum), tried first: (names, fitting function) groups, the function of
+    oscillator spectra), tried first: (names, fitting function) groups, the function of
     (T, Cp) giving one model per name."""
     c0, modes = bounds.cp_zero(geometry), bounds.vibrational_modes(geometry, atoms)
-    return [_wilhoit_group(geometry, atoms),
-            _one("oscillators-spectrum", lambda t, cp: fit_spectrum(t, cp, c0, modes))]
+    if modes <= 0:       # no vibrations: the spectra are all the constant Cp(0)
+        return [_wilhoit_group(geometry, atoms),
+                _one("oscillators-spectrum", lambda t, cp: fit_spectrum(t, cp, c0, modes))]
+    # each spectrum a group of its own: only those that may win are fitted to all data
+    return [_wilhoit_group(geometry, atoms)] + [
+        _one(f"oscillators-spectrum-{n}", lambda t, cp, n=n: fit_spectrum(t, cp, c0, modes, n))
+        for n in SPECTRUM_SIZES]
 
 
 def candidates(geometry, atoms) -> list:
@@ -380,7 +402,8 @@ def extend(t, cp, geometry, atoms, t_to, *, side="high", holdout=0.25, margin=0.
         grid = np.geomspace(t_to, t[0], points + 1)[:-1]
     span = np.concatenate([[edge], grid]) if side == "high" else np.concatenate([grid, [edge]])
     cp_edge = cp[-1] if side == "high" else cp[0]
-    failed = (ValueError, np.linalg.LinAlgError, FloatingPointError)
+    # a candidate whose fit fails is left out (RuntimeError: scipy's nnls out of iterations)
+    failed = (ValueError, np.linalg.LinAlgError, FloatingPointError, RuntimeError)
     trials, fulls = {}, {}   # hold-out error by name (None: failed); all-data models by group
 
     def holdout_error(trial):

@@ -25,7 +25,7 @@ from pathlib import Path
 from .core import paths
 from .core.limits import MAX_SOURCE_BYTES, MAX_TABLE_BYTES
 from .core.names import species_name
-from .core.processes import collector_paused, without_collector, worker_pool
+from .core.processes import aside, collector_paused, without_collector, worker_pool
 from .core.records import CheckResult
 from .release import publish
 
@@ -208,24 +208,63 @@ def run(work, cut: Plan, say=None, store=None, keep=None) -> tuple:
 
 
 def _run(work, cut: Plan, say, store, keep) -> tuple:
-    results = [_kept(store.load(k) if store else None, keep) for k in range(cut.parts)]
-    todo = [k for k, r in enumerate(results) if r is None]
+    stored = [k for k in range(cut.parts) if store and store.holds(k)]
+    held = set(stored)
+    todo = [k for k in range(cut.parts) if k not in held]
+    results = [None] * cut.parts
+    parts = [Part(k, cut.parts) for k in todo]
+    counted = []
 
-    def done(n, k, result):
+    def done(k, result):
         if store:
             store.save(k, result)
         results[k] = keep(result)
-        say(STAGE, n + 1, len(todo), f"partition {k + 1} of {cut.parts}")
+        counted.append(k)
+        say(STAGE, len(counted), len(todo), f"partition {k + 1} of {cut.parts}")
 
-    if cut.workers <= 1 or len(todo) <= 1:
-        for n, k in enumerate(todo):
-            done(n, k, work(Part(k, cut.parts)))
+    def load_stored() -> list:
+        """Load the stored partitions, each reduced by ``keep`` before the next is read;
+        those that cannot be read (damaged files), to be computed."""
+        for k in stored:
+            results[k] = _kept(store.load(k), keep)
+        lost = [k for k in stored if results[k] is None]
+        todo.extend(lost)
+        return lost
+
+    if not todo or not stored or cut.workers <= 1:     # nothing to overlap
+        load_stored()
+        if cut.workers <= 1 or len(todo) <= 1:
+            for k in list(todo):
+                done(k, work(Part(k, cut.parts)))
+        else:
+            with worker_pool(min(cut.workers, len(todo))) as pool:
+                for k, result in zip(list(todo), pool.map(partial(without_collector, work),
+                                                           [Part(k, cut.parts) for k in todo])):
+                    done(k, result)
+        return merge(results), cut.parts - len(todo)
+    # the partitions to compute run while the stored ones load: one in a helper process,
+    # several in the workers (submitted first, so that they fork from this process before
+    # it holds the stored partitions)
+    if len(parts) == 1:
+        with aside(_work_each, work, parts) as helper:
+            lost = load_stored()
+            computed = helper.result()
+        for part, result in zip(parts, computed):
+            done(part.index, result)
     else:
-        with worker_pool(min(cut.workers, len(todo))) as pool:
-            for n, (k, result) in enumerate(zip(todo, pool.map(
-                    partial(without_collector, work), [Part(k, cut.parts) for k in todo]))):
-                done(n, k, result)
+        with worker_pool(min(cut.workers, len(parts))) as pool:
+            computed = pool.map(partial(without_collector, work), parts)
+            lost = load_stored()
+            for part, result in zip(parts, computed):
+                done(part.index, result)
+    for k in lost:
+        done(k, work(Part(k, cut.parts)))
     return merge(results), cut.parts - len(todo)
+
+
+def _work_each(work, parts) -> list:
+    """``work(part)`` of each of ``parts``, in order (the helper process of ``_run``)."""
+    return [work(part) for part in parts]
 
 
 def _kept(result, keep):
@@ -378,6 +417,10 @@ class PartStore:
 
     def _pending_path(self, k: int) -> Path:
         return self.folder / f".pending-{os.getpid()}-part-{self.keys[k]}.pickle"
+
+    def holds(self, k: int) -> bool:
+        """Whether partition ``k`` has a stored file (``load`` may still find it damaged)."""
+        return self.use and self._path(k).is_file()
 
     def load(self, k: int):
         if not self.use:

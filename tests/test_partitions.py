@@ -3,12 +3,14 @@ one partition, and a release built from several partitions in several worker pro
 for byte the release built from one."""
 
 import json
+import os
 import pickle
 import shutil
 import subprocess
 import sys
 from pathlib import Path
 
+import pytest
 from thermoledger import build, partitions
 from thermoledger.core.names import species_name
 from thermoledger.ingest import sources
@@ -310,6 +312,9 @@ def test_a_loaded_partition_is_kept_as_the_caller_keeps_it_before_the_next_is_lo
         return partitions.PartResult(checked=None, entries=((f"s{k}", b"{}"),))
 
     class Store:
+        def holds(self, k):
+            return True               # partition 2's file is there but cannot be read
+
         def load(self, k):
             events.append(("load", k))
             return None if k == 2 else result(k)
@@ -480,3 +485,66 @@ def test_the_tables_written_a_row_group_at_a_time_are_the_table_written_whole(
         assert got == whole(group) == b"".join(chunks)
         assert pq.read_metadata(io.BytesIO(got)).num_row_groups == -(-rows // group) \
             == len(chunks) - 1
+
+
+class _HalfStore:
+    """A store that holds the partitions ``held`` (``damaged`` among them cannot be read),
+    and records in which process each call was made."""
+
+    def __init__(self, held, damaged=()):
+        self.held, self.damaged, self.saved, self.loaded_in = set(held), set(damaged), [], set()
+
+    def holds(self, k):
+        return k in self.held
+
+    def load(self, k):
+        self.loaded_in.add(os.getpid())
+        return None if k in self.damaged else _part_result(k, "stored")
+
+    def save(self, k, result):
+        self.saved.append(k)
+
+
+def _part_result(k, how):
+    return partitions.PartResult(checked=None, entries=((f"s{k}", how, os.getpid()),))
+
+
+def _computed(part):
+    return _part_result(part.index, "computed")
+
+
+@pytest.mark.parametrize("held", [{0, 1, 3}, {0, 3}])
+def test_the_partitions_to_compute_run_in_other_processes_while_the_stored_ones_load(
+        monkeypatch, held):
+    """A rebuild computes its changed partitions (one in a helper process, several in the
+    workers) while this process loads the stored ones; every partition ends up once, in
+    order, and only the computed ones are saved."""
+    monkeypatch.setattr(partitions, "merge", lambda results: [r.entries[0] for r in results])
+    store = _HalfStore(held)
+    merged, reused = partitions.run(_computed, partitions.Plan(parts=4, workers=2),
+                                    store=store)
+    assert reused == len(held) and sorted(store.saved) == sorted(set(range(4)) - held)
+    assert [e[:2] for e in merged] == [(f"s{k}", "stored" if k in held else "computed")
+                                       for k in range(4)]
+    assert all(e[2] != os.getpid() for e in merged if e[1] == "computed")
+    assert store.loaded_in == {os.getpid()}
+
+
+def test_a_stored_partition_that_cannot_be_read_is_computed_after_the_others(monkeypatch):
+    monkeypatch.setattr(partitions, "merge", lambda results: [r.entries[0] for r in results])
+    store = _HalfStore({0, 1, 2}, damaged={1})
+    merged, reused = partitions.run(_computed, partitions.Plan(parts=4, workers=2),
+                                    store=store)
+    assert reused == 2 and store.saved == [3, 1]
+    assert [e[1] for e in merged] == ["stored", "computed", "stored", "computed"]
+
+
+def _fails(part):
+    raise ValueError(f"partition {part.index} cannot be made")
+
+
+def test_a_partition_that_fails_in_the_helper_stops_the_run_and_saves_nothing():
+    store = _HalfStore({0, 2, 3})
+    with pytest.raises(ValueError, match="partition 1 cannot be made"):
+        partitions.run(_fails, partitions.Plan(parts=4, workers=2), store=store)
+    assert store.saved == []

@@ -15,7 +15,9 @@ import numpy as np
 from numpy.lib.stride_tricks import sliding_window_view
 
 from ..core.findings import finding
+from ..core.gridcache import by_grid
 from ..core.records import first_of_each_t
+from .smooth_model import median
 
 #: rows on each side of a gap, the smallest relative jump reported, how far above the
 #: median jump it must be, and how much worse than the jump each side's own fit may be
@@ -25,14 +27,22 @@ STEP_OVER_MEDIAN = 12.0
 SIDE_FIT = 0.25
 
 
+@by_grid
+def _window_design(x, w):
+    """The quadratic design of every window of ``w`` consecutive ``x`` (k, w, 3) and its
+    normal matrices (k, 3, 3), slightly regularised: of the grid alone."""
+    xs = sliding_window_view(x, w)
+    a = np.stack([np.ones_like(xs), xs, xs ** 2], axis=-1)          # (k, w, 3)
+    return a, np.einsum("kwi,kwj->kij", a, a) + 1e-12 * np.eye(3)
+
+
 def _side_fits(x, y, w):
     """Quadratic least-squares coefficients of every window of ``w`` consecutive points, and
     the rms residual of each -> ((k, 3), (k,))."""
-    xs, ys = sliding_window_view(x, w), sliding_window_view(y, w)
-    a = np.stack([np.ones_like(xs), xs, xs ** 2], axis=-1)          # (k, w, 3)
-    ata = np.einsum("kwi,kwj->kij", a, a)
+    a, normal = _window_design(x, w)
+    ys = sliding_window_view(y, w)
     aty = np.einsum("kwi,kw->ki", a, ys)
-    c = np.linalg.solve(ata + 1e-12 * np.eye(3), aty[..., None])[..., 0]
+    c = np.linalg.solve(normal, aty[..., None])[..., 0]
     resid = np.einsum("kwi,ki->kw", a, c) - ys
     return c, np.sqrt(np.mean(resid ** 2, axis=1))
 
@@ -69,7 +79,7 @@ def check_unlisted_transition(table, ctx):
         return []
     size = np.abs(jump)
     k = int(np.argmax(size))
-    typical = float(np.median(size))
+    typical = median(size)
     if size[k] < max(STEP_MIN, STEP_OVER_MEDIAN * typical) or side[k] > SIDE_FIT * size[k] \
             or not apart[k] * jump[k] > 0.5 * jump[k] ** 2:
         return []

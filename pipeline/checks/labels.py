@@ -21,6 +21,7 @@ from ..core import chemistry, units
 from ..core.constants import GAS_CONSTANT as R
 from ..core.constants import REFERENCE_TEMPERATURE
 from ..core.findings import finding
+from ..core.gridcache import by_grid
 from ..physics import bounds, rotors
 from ..physics.statmech import einstein
 from .smooth_model import nnls
@@ -202,13 +203,23 @@ def _noise(u, cp) -> float:
     return float(np.sqrt(np.mean(u ** 2))) if len(u) else float(1e-3 * np.sqrt(np.mean(cp ** 2)))
 
 
+#: the weight of the row that holds the sum of the vibrations' weights
+SUM_WEIGHT = 1e3
+
+
+@by_grid
+def _misfit_design(t):
+    """E(θ_j/T) of every θ of THETA at ``t`` [K], and the same with the slack column and the
+    weighted sum row below (made once per grid)."""
+    a = einstein(THETA[None, :] / t[:, None])
+    return a, np.vstack([np.hstack([a, np.zeros((len(t), 1))]),
+                         SUM_WEIGHT * np.ones((1, len(THETA) + 1))])
+
+
 def _misfit(t, y, modes) -> float:
     """RMS misfit [R] of y(T) by Σ w_j E(θ_j/T), w ≥ 0, Σ w ≤ ``modes`` (NNLS, the sum held
     by a slack variable on a heavily weighted row)."""
-    a = einstein(THETA[None, :] / t[:, None])
-    weight = 1e3
-    big = np.vstack([np.hstack([a, np.zeros((len(t), 1))]),
-                     weight * np.ones((1, len(THETA) + 1))])
-    rhs = np.append(y, weight * modes)
+    a, big = _misfit_design(t)
+    rhs = np.append(y, SUM_WEIGHT * modes)
     w, _ = nnls(big, rhs, maxiter=50 * big.shape[1])
     return float(np.sqrt(np.mean((a @ w[:-1] - y) ** 2)))

@@ -17,6 +17,7 @@ from ..core.constants import THERMOCHEMICAL_CALORIE
 from ..core.errors import InputError
 from ..core.findings import finding
 from ..physics import bounds
+from .smooth_model import median
 
 
 def factor_candidates(molar_mass):
@@ -214,7 +215,7 @@ def check_unit_blocks(table, ctx):
     cp, lines = d["Cp"], d["line"]
     d = np.diff(np.log(cp))
     cands = [(n, f, fix) for n, f, fix in factor_candidates(table.meta.molar_mass) if f > 1]
-    tol = settings.factor_tolerance + 2.0 * float(np.median(np.abs(d)))
+    tol = settings.factor_tolerance + 2.0 * median(np.abs(d))
     level = np.zeros(len(cp))
     logs = np.log([f for _, f, _ in cands])
     off = np.abs(np.abs(d)[:, None] - logs[None, :])     # (steps, candidates)

@@ -29,6 +29,7 @@ References
 
 import numpy as np
 
+from ..core.gridcache import by_grid
 from ..physics.statmech import einstein
 
 RUN_ROWS, RUN_MIN = 8, 3  # three or more bad rows within eight make a run (jitter)
@@ -37,13 +38,30 @@ THETA_VIB = np.geomspace(60.0, 30000.0, 14)   # [K]
 THETA_ELEC = np.geomspace(30.0, 30000.0, 7)   # [K]
 
 
+@by_grid
 def basis(t) -> np.ndarray:
-    """Columns [1, E(θ_j/T)..., S(θ_k/T)...] at temperatures ``t`` [K]."""
+    """Columns [1, E(θ_j/T)..., S(θ_k/T)...] at temperatures ``t`` [K] (read-only, made once
+    per grid)."""
     t = np.asarray(t, dtype=float)[:, None]
     x = THETA_VIB[None, :] / t
     y = THETA_ELEC[None, :] / t
     ey = np.exp(-y)
     return np.hstack([np.ones((t.shape[0], 1)), einstein(x), y * y * ey / (1.0 + ey) ** 2])
+
+
+def median(values) -> float:
+    """``float(np.median(values))`` of a 1-d float array, to the last bit (the middle order
+    statistic, or the mean of the middle two as numpy takes it: their sum halved), without
+    numpy's general machinery; numpy's own for an empty array or one with NaN."""
+    v = np.asarray(values, dtype=float)
+    n = len(v)
+    if not n or not np.all(np.isfinite(v)):
+        return float(np.median(v))
+    h = n // 2
+    if n % 2:
+        return float(np.partition(v, h)[h])
+    lo, hi = np.partition(v, (h - 1, h))[h - 1:h + 1]
+    return float((lo + hi) / 2)
 
 
 def robust_sigma(values) -> float:
@@ -52,7 +70,7 @@ def robust_sigma(values) -> float:
     v = np.asarray(values, dtype=float)
     if not len(v):
         return 0.0
-    return MAD_TO_SIGMA * float(np.median(np.abs(v - np.median(v))))
+    return MAD_TO_SIGMA * median(np.abs(v - median(v)))
 
 
 def nnls(a, b, maxiter: int):
@@ -71,12 +89,30 @@ def _fit(b, cp):
     return a, c
 
 
+def _inside(n, j, k):
+    """The k rows nearest to end row ``j`` (0 or n − 1) on the inside of n rows."""
+    idx = np.arange(1, k + 1) if j == 0 else np.arange(n - 1 - k, n - 1)
+    return idx[(idx >= 0) & (idx < n)]
+
+
+@by_grid
+def _end_design(x, j, k):
+    """np.polyfit's scaled Vandermonde matrix, its column scales and rcond for a quadratic
+    in x − x[j] through the rows ``_inside(len(x), j, k)`` (made once per grid)."""
+    idx = _inside(len(x), j, k)
+    lhs = np.vander(x[idx] - x[j] + 0.0, min(2, len(idx) - 1) + 1)
+    scale = np.sqrt((lhs * lhs).sum(axis=0))
+    return lhs / scale, scale, np.array(len(idx) * np.finfo(float).eps)
+
+
 def _quadratic_extrapolation(x, y, j, k=5):
-    """ln Cp at x[j] from a quadratic through the k nearest points on the inside."""
-    idx = np.arange(1, k + 1) if j == 0 else np.arange(len(x) - 1 - k, len(x) - 1)
-    idx = idx[(idx >= 0) & (idx < len(x))]
-    deg = min(2, len(idx) - 1)
-    return float(np.polyval(np.polyfit(x[idx] - x[j], y[idx], deg), 0.0))
+    """ln Cp at x[j] from a quadratic through the k nearest points on the inside: the value
+    at x[j] of ``np.polyfit(x[idx] − x[j], y[idx], 2)``, to the last bit (its scaled
+    least-squares solve, the design made once per grid; the polynomial at 0 is its constant
+    term)."""
+    lhs, scale, rcond = _end_design(x, j, k)
+    c = np.linalg.lstsq(lhs, y[_inside(len(x), j, k)] + 0.0, rcond=float(rcond))[0]
+    return float((c / scale)[-1])
 
 
 def loo_residuals(t, cp):

@@ -1,0 +1,47 @@
+"""Arrays that depend on a table's temperatures alone, made once per grid.
+
+A computed catalogue gives thousands of tables the same temperatures, and several checks and
+fits build a matrix of those temperatures alone (a basis, a design of windows) before they
+look at Cp. ``by_grid`` remembers such a function's result for the last few grids, keyed by
+the grid's bytes, so that the tables of one grid share it: the same numbers, made once. The
+arrays it gives are read-only (a caller that changed one would change it for every table).
+"""
+
+from collections import OrderedDict
+from functools import wraps
+
+import numpy as np
+
+#: grids remembered per function (a partition's tables rarely have more than a few)
+GRIDS = 8
+
+
+def by_grid(f):
+    """``f(t, *args)`` (``t`` a 1-d float array, ``args`` hashable) remembered for the last
+    GRIDS distinct (t, args); a result is an array or a tuple of arrays, made read-only."""
+    seen = OrderedDict()
+
+    @wraps(f)
+    def cached(t, *args):
+        t = np.asarray(t, dtype=float)
+        key = (t.shape, t.tobytes(), args)
+        got = seen.get(key)
+        if got is None:
+            got = _read_only(f(t, *args))
+            seen[key] = got
+            if len(seen) > GRIDS:
+                seen.popitem(last=False)
+        else:
+            seen.move_to_end(key)
+        return got
+
+    cached.cache_clear = seen.clear
+    return cached
+
+
+def _read_only(value):
+    if isinstance(value, tuple):
+        return tuple(_read_only(v) for v in value)
+    value = np.asarray(value)
+    value.flags.writeable = False
+    return value

@@ -1,0 +1,86 @@
+"""What the checks make once per grid of temperatures, and their shortcuts of numpy's general
+functions, give numpy's own numbers to the last bit: a table's findings do not depend on
+which tables were checked before it."""
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from thermoledger.checks import jumps, labels, smooth_model
+from thermoledger.core import gridcache
+
+FINITE = st.floats(-1e9, 1e9, allow_nan=False, allow_subnormal=False)
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(FINITE | st.sampled_from([0.0, -0.0, 1.0, 2.5]), min_size=1, max_size=60))
+def test_the_median_is_numpy_s_to_the_last_bit(values):
+    v = np.array(values)
+    assert smooth_model.median(v) == float(np.median(v))
+    assert np.isnan(smooth_model.median(np.append(v, np.nan)))
+
+
+def _polyfit_at_end(x, y, j, k=5):
+    """The reference: np.polyfit through the k inner rows next to end row j, at x[j]."""
+    idx = np.arange(1, k + 1) if j == 0 else np.arange(len(x) - 1 - k, len(x) - 1)
+    idx = idx[(idx >= 0) & (idx < len(x))]
+    return float(np.polyval(np.polyfit(x[idx] - x[j], y[idx], min(2, len(idx) - 1)), 0.0))
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.lists(st.floats(50.0, 6000.0), min_size=3, max_size=40, unique=True),
+       st.integers(0, 2 ** 32 - 1))
+def test_the_end_extrapolation_is_numpy_s_polyfit_to_the_last_bit(temperatures, seed):
+    x = np.log(np.sort(temperatures))
+    y = np.log(np.random.default_rng(seed).uniform(20.0, 200.0, len(x)))
+    for j in (0, len(x) - 1):
+        assert smooth_model._quadratic_extrapolation(x, y, j) == _polyfit_at_end(x, y, j)
+
+
+def test_a_grid_s_arrays_are_made_once_read_only_and_remembered_for_a_few_grids():
+    calls = []
+
+    @gridcache.by_grid
+    def made(t, k):
+        calls.append((len(t), k))
+        return t * k, np.ones(len(t))
+
+    t = np.geomspace(200.0, 3000.0, 11)
+    a, ones = made(t, 2.0)
+    assert made(t.copy(), 2.0)[0] is a and len(calls) == 1       # the same grid: shared
+    made(t, 3.0)
+    assert len(calls) == 2                                       # other arguments: made
+    with pytest.raises(ValueError):
+        a[0] = 0.0                                               # nobody changes it
+    for n in range(gridcache.GRIDS):
+        made(np.arange(1.0, n + 3.0), 1.0)
+    made(t, 2.0)
+    assert len(calls) == 3 + gridcache.GRIDS                     # forgotten, made again
+
+
+@pytest.mark.parametrize("fresh", [True, False])
+def test_the_checks_give_the_same_numbers_with_the_grid_s_arrays_shared_or_not(fresh):
+    """The smooth model, the side fits of the jump check and the misfit of the low end of one
+    table, after other tables of the same grid or none."""
+    rng = np.random.default_rng(5)
+    t = np.unique(np.append(np.geomspace(200.0, 3000.0, 60), 298.15))
+    cp = 30.0 + 20.0 * t / (t + 800.0)
+    first = cp * (1 + 1e-3 * rng.standard_normal(t.size))
+    other = cp * (1 + 1e-3 * rng.standard_normal(t.size))
+    for f in (smooth_model.basis, smooth_model._end_design, jumps._window_design,
+              labels._misfit_design):
+        f.cache_clear()
+    if not fresh:
+        smooth_model.find_outliers(t, other)
+        jumps.steps(t, other)
+        labels._misfit(t[:20], other[:20] / 8.314, 4)
+    got = (smooth_model.loo_residuals(t, first), jumps.steps(t, first),
+           labels._misfit(t[:20], first[:20] / 8.314, 4))
+    for f in (smooth_model.basis, smooth_model._end_design, jumps._window_design,
+              labels._misfit_design):
+        f.cache_clear()
+    again = (smooth_model.loo_residuals(t, first), jumps.steps(t, first),
+             labels._misfit(t[:20], first[:20] / 8.314, 4))
+    for a, b in zip(got[0] + got[1], again[0] + again[1]):
+        assert np.array_equal(a, b)
+    assert got[2] == again[2]

@@ -84,3 +84,11 @@ def test_the_checks_give_the_same_numbers_with_the_grid_s_arrays_shared_or_not(f
     for a, b in zip(got[0] + got[1], again[0] + again[1]):
         assert np.array_equal(a, b)
     assert got[2] == again[2]
+
+
+def test_the_shared_geometric_grid_is_numpy_s_and_read_only():
+    grid = gridcache.geomspace(200.0, 3000.0, 400)
+    assert np.array_equal(grid, np.geomspace(200.0, 3000.0, 400))
+    assert gridcache.geomspace(200.0, 3000.0, 400) is grid
+    with pytest.raises(ValueError):
+        grid[0] = 1.0

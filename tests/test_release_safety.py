@@ -390,8 +390,9 @@ JSON_DOCS = st.recursive(JSON_LEAVES, lambda inner: st.one_of(
 @settings(max_examples=300, deadline=None)
 @given(JSON_DOCS)
 def test_the_fast_non_finite_check_names_the_first_bad_number(doc):
-    """A fitted entry is scanned for NaN and infinities by the json module's C encoder and
-    walked only when it holds one: the path is that of the walk, '' for a clean entry."""
+    """A fitted entry is scanned for NaN and infinities by an orjson round trip (then the
+    json module's C encoder) and walked only when it holds one: the path is that of the
+    walk, '' for a clean entry."""
     from thermoledger.release.document import _first_non_finite, non_finite
 
     assert non_finite(doc) == _first_non_finite(doc, "")

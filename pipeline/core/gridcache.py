@@ -8,7 +8,7 @@ arrays it gives are read-only (a caller that changed one would change it for eve
 """
 
 from collections import OrderedDict
-from functools import wraps
+from functools import lru_cache, wraps
 
 import numpy as np
 
@@ -45,3 +45,10 @@ def _read_only(value):
     value = np.asarray(value)
     value.flags.writeable = False
     return value
+
+
+@lru_cache(maxsize=64)
+def geomspace(start: float, stop: float, num: int) -> np.ndarray:
+    """``np.geomspace(start, stop, num)``, read-only, made once for each (start, stop, num):
+    the species of a catalogue share their ranges of use."""
+    return _read_only(np.geomspace(start, stop, num))

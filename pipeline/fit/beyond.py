@@ -14,6 +14,7 @@ from typing import NamedTuple
 
 import numpy as np
 
+from ..core import gridcache
 from ..core.constants import GAS_CONSTANT as R
 from ..core.errors import FitRejected
 from ..core.records import CpData
@@ -42,7 +43,7 @@ def first_fall(form, fitted: Fitted, t_from: float, t_to: float, points: int = 4
     """(where Cp first falls, where it falls fastest) [K] between ``t_from`` and ``t_to`` (a
     maximum beyond the data), or None when it never falls (checked on a fine grid)."""
     bps, sol = fitted.bps, fitted.sol
-    grid = np.geomspace(t_from, t_to, points)
+    grid = gridcache.geomspace(t_from, t_to, points)
     cp = basis.cp_rows(form.powers, grid, bps) @ sol.c
     falls = np.diff(cp) < -1e-9 * np.abs(cp[:-1])
     if not falls.any():

@@ -21,6 +21,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..core import gridcache
 from ..core.constants import GAS_CONSTANT as R
 from ..core.constants import REFERENCE_TEMPERATURE
 from ..core.errors import FitError, FitRejected
@@ -359,7 +360,7 @@ def _judge(who: SpeciesIdentity, solved: Solved, data: CpData,
     if s is not None and np.isfinite(s).any():
         m = np.isfinite(s)
         s_dev = float(np.max(np.abs(ev["S"][m] - s[m])))
-    dense = np.unique(np.concatenate([np.geomspace(ranges[0].t_min, ranges[-1].t_max, 400),
+    dense = np.unique(np.concatenate([gridcache.geomspace(ranges[0].t_min, ranges[-1].t_max, 400),
                                       [r.t_min for r in ranges], [ranges[-1].t_max]]))
     cp_dense = forms.cp_of_ranges(ranges, dense, form)
     extrap = tuple({"t_min": min(e.t_from, e.t_to), "t_max": max(e.t_from, e.t_to),

@@ -120,8 +120,17 @@ def transition_entries(chains, ids) -> list:
 
 def non_finite(doc, path="") -> str:
     """Path of the first NaN or infinity in a JSON-like document, or '' when all are finite
-    (JSON cannot carry them, and a library must never hold them). The json module's C
-    encoder answers for a clean document; the walk names the place of a bad one."""
+    (JSON cannot carry them, and a library must never hold them). A document that orjson
+    writes and reads back as itself holds none (orjson writes both as null, which reads back
+    as None); otherwise the json module's C encoder answers (a tuple reads back as a list),
+    and the walk names the place of a bad one."""
+    import orjson
+
+    try:
+        if orjson.loads(orjson.dumps(doc)) == doc:
+            return ""
+    except (TypeError, ValueError):       # (orjson's errors are ValueError and TypeError)
+        pass
     try:
         json.dumps(doc, allow_nan=False, check_circular=False)
         return ""

@@ -49,10 +49,11 @@ def test_scaled_to_kelvin():
 @given(form=st.sampled_from(sorted(forms.FORMS)),
        t=st.lists(st.floats(150.0, 7000.0), min_size=1, max_size=30),
        scale=st.floats(-3.0, 3.0))
-def test_cp_alone_is_the_cp_of_the_full_evaluation_to_the_last_bit(form, t, scale):
+def test_cp_or_h_alone_is_that_of_the_full_evaluation_to_the_last_bit(form, t, scale):
     f = forms.FORMS[form]
     a = [(k + 1) * 10.0 ** (scale - 3 * k) for k in range(len(f.powers))]
     coeffs = f.pack(a, -1000.0, 4.0, 0.0)
     ranges = [(100.0, 1000.0, coeffs), (1000.0, 8000.0, [2 * x for x in coeffs])]
-    np.testing.assert_array_equal(forms.cp_of_ranges(ranges, t, form),
-                                  forms.evaluate_ranges(ranges, t, form)["Cp"])
+    full = forms.evaluate_ranges(ranges, t, form)
+    np.testing.assert_array_equal(forms.cp_of_ranges(ranges, t, form), full["Cp"])
+    np.testing.assert_array_equal(forms.h_of_ranges(ranges, t, form), full["H"])

@@ -72,3 +72,31 @@ def test_rows_survive_a_trip_to_a_worker_process_read_only():
     np.testing.assert_array_equal(back["T"], rows["T"])
     with pytest.raises(ValueError):
         back["T"][0] = 0.0
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.lists(st.tuples(FLOATS, FLOATS), max_size=12), st.booleans())
+def test_the_valid_rows_and_the_first_of_each_temperature_are_numpy_s_selections(pairs, ordered):
+    """valid_columns keeps the finite positive rows sorted by T (stably); rows that are all
+    valid and sorted already are given back as they are. first_of_each_t keeps the first
+    row of each run of equal T. Every column of the result is read-only."""
+    from thermoledger.core.records import first_of_each_t, valid_columns
+
+    if ordered:
+        pairs = sorted(pairs, key=lambda p: (np.isnan(p[0]), p[0]))
+    t = np.array([p[0] for p in pairs], dtype=float)
+    cp = np.array([p[1] for p in pairs], dtype=float)
+    rows = rows_of(t, cp)
+    ok = np.flatnonzero(np.isfinite(t) & np.isfinite(cp) & (t > 0) & (cp > 0))
+    order = ok[np.argsort(t[ok], kind="stable")]
+    got = valid_columns(rows)
+    for name in ("line", "T", "Cp"):
+        assert np.array_equal(got[name], rows[name][order])
+        assert not got[name].flags.writeable
+    first = first_of_each_t(got)
+    tv = got["T"]
+    keep = np.r_[True, tv[1:] != tv[:-1]] if len(tv) else np.zeros(0, bool)
+    for name in ("line", "T", "Cp"):
+        assert np.array_equal(first[name], got[name][keep])
+        assert not first[name].flags.writeable
+    assert len(first) == int(keep.sum()) and len(got) == len(order)

@@ -51,7 +51,10 @@ def valid_columns(data: Rows) -> Rows:
     """The rows of a table whose T [K] and Cp [J/(mol K)] are finite and positive, sorted by
     T (stable, so equal temperatures keep their file order)."""
     t, cp = data["T"], data["Cp"]
-    ok = np.flatnonzero(np.isfinite(t) & np.isfinite(cp) & (t > 0) & (cp > 0))
+    good = np.isfinite(t) & np.isfinite(cp) & (t > 0) & (cp > 0)
+    if good.all() and np.all(t[1:] >= t[:-1]):
+        return data                  # all valid and sorted already: the same rows
+    ok = np.flatnonzero(good)
     return data.take(ok[np.argsort(t[ok], kind="stable")])
 
 
@@ -59,7 +62,8 @@ def first_of_each_t(rows: Rows) -> Rows:
     """The first row of each temperature of T-sorted ``rows`` (the first of each run of
     equal T)."""
     t = rows["T"]
-    return rows.take(np.r_[True, t[1:] != t[:-1]]) if len(t) else rows
+    first = np.r_[True, t[1:] != t[:-1]] if len(t) else None
+    return rows.take(first) if len(t) and not first.all() else rows
 
 
 def given(rows: Rows, column: str, *, every: bool = False):

@@ -64,13 +64,26 @@ class Rows:
         """{column: array} (read-only arrays)."""
         return dict(self._columns)
 
+    @classmethod
+    def _of(cls, columns: dict) -> "Rows":
+        """Rows of ``columns`` made from the columns of Rows (one-dimensional, of one
+        length): without the checks, each column made read-only (a new array of its own, or
+        a view of a read-only one)."""
+        rows = cls.__new__(cls)
+        n = None
+        for array in columns.values():
+            array.flags.writeable = False
+            n = len(array) if n is None else n
+        rows._columns, rows._n = columns, n or 0
+        return rows
+
     def take(self, keep) -> "Rows":
         """The rows ``keep`` (a boolean mask or row indices, in that order)."""
-        return Rows({name: col[keep] for name, col in self._columns.items()})
+        return Rows._of({name: col[keep] for name, col in self._columns.items()})
 
     def head(self, n: int) -> "Rows":
         """The first ``n`` rows."""
-        return Rows({name: col[:n] for name, col in self._columns.items()})
+        return Rows._of({name: col[:n] for name, col in self._columns.items()})
 
     def with_columns(self, **columns) -> "Rows":
         """These rows with ``columns`` added or replaced (a scalar fills a column)."""

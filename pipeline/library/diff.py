@@ -17,7 +17,7 @@ STANDARD_TEMPERATURES = (298.15, 300.0, 400.0, 500.0, 600.0, 800.0, 1000.0, 1500
 
 def _props(sp, t):
     ev = forms.evaluate_ranges(library.ranges_of(sp), t, sp["form"])
-    h298 = forms.evaluate_ranges(library.ranges_of(sp), [REFERENCE_TEMPERATURE], sp["form"])["H"][0]
+    h298 = forms.h_of_ranges(library.ranges_of(sp), [REFERENCE_TEMPERATURE], sp["form"])[0]
     return {"Cp": ev["Cp"], "dH": ev["H"] - h298, "S": ev["S"], "G": ev["G"]}
 
 

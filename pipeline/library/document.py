@@ -206,8 +206,8 @@ def enthalpy_zero(species: dict) -> float:
     a = species.get("anchor")
     if a:
         return a["enthalpy_zero"]
-    return float(forms.evaluate_ranges(ranges_of(species), [REFERENCE_TEMPERATURE],
-                                       species["form"])["H"][0])
+    return float(forms.h_of_ranges(ranges_of(species), [REFERENCE_TEMPERATURE],
+                                   species["form"])[0])
 
 
 def release_folder(path) -> Path:

@@ -185,6 +185,19 @@ def cp_of_ranges(ranges, t, form):
     return cp
 
 
+def h_of_ranges(ranges, t, form):
+    """H [J/mol] at ``t`` [K] of ``ranges`` alone: ``evaluate_ranges(...)["H"]``, the same
+    numbers, without Cp and S."""
+    f, ranges, t, idx = _placed(ranges, t, form)
+    h = np.empty_like(t)
+    for j, r in enumerate(ranges):
+        m = idx == j
+        if m.any():
+            a, h0, _ = f.unpack(r[2])
+            h[m] = f.h_integral(a, t[m]) + h0
+    return h
+
+
 def _placed(ranges, t, form) -> tuple:
     """(Form, ranges as tuples, t as a 1-d float array, range index of each t)."""
     f = FORMS[form] if isinstance(form, str) else form

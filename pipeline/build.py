@@ -4,6 +4,7 @@ each stage's work, and its tests, live in its own sub-package."""
 import tempfile
 from array import array
 from collections.abc import Sequence
+from contextlib import nullcontext
 from dataclasses import dataclass, replace
 from functools import partial
 from pathlib import Path
@@ -15,7 +16,7 @@ from .checks import acknowledge, reconcile, references, registry, transitions
 from .core import paths
 from .core.errors import FitError, OutputError
 from .core.findings import ERROR, INFO, by_subject, concerns, finding, stage_failed, subject
-from .core.processes import collector_paused
+from .core.processes import collector_paused, standby
 from .core.records import CheckResult, CpData, FittedSpecies, SpeciesIdentity, Table
 from .core.settings import Settings, for_table
 from .core.spill import Spill, SpilledObjects
@@ -255,11 +256,26 @@ def build(raw_dir, out_dir, ctx: Settings = Settings(), *, write=True, progress=
                               partitions.plan(raw_dir, workers, parts), fresh)
 
 
+def _warm_up(raw_dir: str, parts: int) -> None:
+    """What the first partition a process computes loads before it starts (half a second):
+    the checking and fitting modules with scipy, the unit registry, and every source.json
+    read and parsed for a cut into ``parts`` partitions (partition 0's tables read too)."""
+    from .core import units
+    from .fit import batched, extrapolate, species  # noqa: F401 - loaded, with scipy
+
+    units.registry()
+    ingest.ingest(raw_dir, partitions.Part(0, parts))
+
+
 def _planned_build(raw_dir, out_dir, ctx, write, progress, wait, previous, cut, fresh):
     if not write:
         return _build(raw_dir, None, ctx, progress, previous or {}, cut)
     real = publish.vet_output_folder(out_dir, [raw_dir])
-    with publish.locked(real, wait):
+    # a rebuild (several workers, partitions stored) has a process prepare itself to compute
+    # a changed partition while this one finds out which partitions changed
+    rebuild = not fresh and cut.workers > 1 and (real / partitions.STORE).is_dir()
+    with publish.locked(real, wait), \
+            (standby(_warm_up, str(raw_dir), cut.parts) if rebuild else nullcontext()) as ready:
         if previous is None:
             previous = previous_breakpoints(real)
         digests = partitions.Digests(real / partitions.STORE, use=not fresh)
@@ -269,7 +285,7 @@ def _planned_build(raw_dir, out_dir, ctx, write, progress, wait, previous, cut, 
         drawn = Drawn(real, partitions.code_digest(), use=not fresh) \
             if ctx.outputs.report else None
         try:
-            result = _build(raw_dir, real, ctx, progress, previous, cut, store, drawn)
+            result = _build(raw_dir, real, ctx, progress, previous, cut, store, drawn, ready)
         except BaseException:
             store.discard()
             if drawn:
@@ -439,24 +455,26 @@ def _quiet(stage, i=0, n=0, label=""):
 
 
 def _build(raw_dir, out_dir, ctx: Settings, progress, previous: dict,
-           cut=partitions.Plan(), store=None, drawn=None) -> BuildResult:
+           cut=partitions.Plan(), store=None, drawn=None, ready=None) -> BuildResult:
     say = progress or _quiet
     # the release home is judged before the partitions kept for the next build appear in it
     files = publish.Release() if out_dir is None else publish.Release.staged(out_dir)
     try:
-        return _build_into(files, raw_dir, out_dir, ctx, say, previous, cut, store, drawn)
+        return _build_into(files, raw_dir, out_dir, ctx, say, previous, cut, store, drawn,
+                           ready)
     except BaseException:
         files.discard()
         raise
 
 
 def _build_into(files, raw_dir, out_dir, ctx: Settings, say, previous: dict, cut,
-                store, drawn=None) -> BuildResult:
+                store, drawn=None, ready=None) -> BuildResult:
     say("read and check", 0, 0, str(raw_dir))
     spill = Spill(out_dir)         # unnamed: gone with the last entry of the library read
     done, reused = partitions.run(partial(_build_part, raw_dir, ctx, previous,
                                           say if cut.parts == 1 else _quiet), cut, say, store,
-                                  keep=partial(_held, spill, ctx.outputs.report))
+                                  keep=partial(_held, spill, ctx.outputs.report),
+                                  ready=ready)
     checked, entries = done.checked, dict(done.entries)
     fitted = held.HeldFitted(spill, done.fitted, done.lineages)
     quarantined, findings = list(done.quarantined), list(done.findings)

@@ -18,6 +18,7 @@ import json
 import os
 import pickle
 import re
+from contextlib import contextmanager
 from dataclasses import dataclass
 from functools import lru_cache, partial
 from pathlib import Path
@@ -195,19 +196,26 @@ def _cores() -> int:
     return os.cpu_count() or 1
 
 
-def run(work, cut: Plan, say=None, store=None, keep=None) -> tuple:
+def run(work, cut: Plan, say=None, store=None, keep=None, ready=None) -> tuple:
     """(merged PartResult, partitions reused): ``work(Part)`` for each partition of ``cut``
     that ``store`` (a PartStore, or None) does not already hold, in ``cut.workers`` worker
     processes when more than one; what was computed is saved into ``store`` whole, and
     ``keep(result)`` (when given) of each partition is what this process holds and merges
     (what the caller does not need, left out as soon as it is saved). A worker that dies or
     is interrupted stops the build. The cyclic garbage collector is paused meanwhile
-    (core.processes.collector_paused)."""
-    with collector_paused():      # in this process and in the workers
-        return _run(work, cut, say or (lambda *a: None), store, keep or (lambda r: r))
+    (core.processes.collector_paused). A rebuild computes what changed while it loads what
+    is stored: one partition in ``ready`` (a core.processes.Standby, which a rebuild has
+    prepare itself meanwhile) or a process forked for it, several in the workers."""
+    try:
+        with collector_paused():      # in this process and in the workers
+            return _run(work, cut, say or (lambda *a: None), store, keep or (lambda r: r),
+                        ready)
+    finally:
+        if ready is not None:
+            ready.dismiss()           # not needed any more, used or not
 
 
-def _run(work, cut: Plan, say, store, keep) -> tuple:
+def _run(work, cut: Plan, say, store, keep, ready=None) -> tuple:
     stored = [k for k in range(cut.parts) if store and store.holds(k)]
     held = set(stored)
     todo = [k for k in range(cut.parts) if k not in held]
@@ -246,7 +254,7 @@ def _run(work, cut: Plan, say, store, keep) -> tuple:
     # several in the workers (submitted first, so that they fork from this process before
     # it holds the stored partitions)
     if len(parts) == 1:
-        with aside(_work_each, work, parts) as helper:
+        with _helper(work, parts, ready) as helper:
             lost = load_stored()
             computed = helper.result()
         for part, result in zip(parts, computed):
@@ -260,6 +268,18 @@ def _run(work, cut: Plan, say, store, keep) -> tuple:
     for k in lost:
         done(k, work(Part(k, cut.parts)))
     return merge(results), cut.parts - len(todo)
+
+
+@contextmanager
+def _helper(work, parts, ready):
+    """A process computing ``_work_each(work, parts)``: ``ready`` (a core.processes.Standby,
+    prepared for it) when given, else one forked now (core.processes.aside)."""
+    if ready is not None:
+        ready.give(_work_each, work, parts)
+        yield ready
+    else:
+        with aside(_work_each, work, parts) as helper:
+            yield helper
 
 
 def _work_each(work, parts) -> list:

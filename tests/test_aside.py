@@ -156,3 +156,89 @@ def test_ctrl_c_is_left_to_the_parent_and_never_caught_half_started():
         ignored, blocked = helper.result()
     assert ignored and not blocked
     assert signal.SIGINT not in signal.pthread_sigmask(signal.SIG_BLOCK, [])
+
+
+_PREPARED = []
+
+
+def _prepare(tag):
+    _PREPARED.append(tag)
+
+
+def _prepare_badly(tag):
+    raise ValueError("cannot prepare")
+
+
+def _report(x):
+    return {"prepared": list(_PREPARED), "x": x, "pid": os.getpid()}
+
+
+def test_a_standby_process_prepares_then_does_the_work_it_is_given():
+    with processes.standby(_prepare, "warm") as ready:
+        ready.give(_report, 7)
+        got = ready.result()
+    assert got["prepared"] == ["warm"] and got["x"] == 7 and got["pid"] != os.getpid()
+    assert _PREPARED == []                       # prepared there, not here
+
+
+def test_a_standby_whose_preparing_fails_still_does_its_work_and_raises_what_it_raises():
+    with processes.standby(_prepare_badly, "x") as ready:
+        ready.give(_report, 1)
+        assert ready.result()["prepared"] == []
+    with processes.standby(_prepare, "x") as ready:
+        ready.give(_refuse, "tables.parquet")
+        with pytest.raises(OutputError, match="cannot write tables.parquet"):
+            ready.result()
+
+
+def test_a_standby_given_nothing_or_dismissed_is_killed_and_takes_one_work_only():
+    with processes.standby(_prepare, "x") as ready:
+        proc = ready._proc
+        ready.give(_report, 1)
+        with pytest.raises(RuntimeError, match="one piece of work"):
+            ready.give(_report, 2)
+        ready.dismiss()                          # its result not taken: killed
+        assert not proc.is_alive()
+    with processes.standby(_prepare, "x") as ready:
+        proc = ready._proc
+    assert not proc.is_alive()                   # given nothing by the end of the block
+
+
+def _in_partition(part):
+    from thermoledger import partitions
+
+    return partitions.PartResult(checked=None, entries=((f"s{part.index}", os.getpid()),))
+
+
+class _StoreOfAllBut:
+    def __init__(self, missing):
+        self.missing, self.saved = missing, []
+
+    def holds(self, k):
+        return k != self.missing
+
+    def load(self, k):
+        from thermoledger import partitions
+
+        return partitions.PartResult(checked=None, entries=((f"s{k}", "stored"),))
+
+    def save(self, k, result):
+        self.saved.append(k)
+
+
+def test_a_rebuild_computes_its_one_changed_partition_in_the_prepared_process(monkeypatch):
+    from thermoledger import partitions
+
+    monkeypatch.setattr(partitions, "merge", lambda results: [r.entries[0] for r in results])
+    store = _StoreOfAllBut(2)
+    with processes.standby(_prepare, "x") as ready:
+        merged, reused = partitions.run(_in_partition, partitions.Plan(parts=4, workers=2),
+                                        store=store, ready=ready)
+        helper_pid = ready._proc.pid
+    assert reused == 3 and store.saved == [2]
+    assert merged[2] == ("s2", helper_pid) and [m[1] for m in merged[:2]] == ["stored"] * 2
+    store = _StoreOfAllBut(None)                 # nothing changed: the standby is dismissed
+    with processes.standby(_prepare, "x") as ready:
+        partitions.run(_in_partition, partitions.Plan(parts=4, workers=2), store=store,
+                       ready=ready)
+        assert not ready._proc.is_alive()

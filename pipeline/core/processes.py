@@ -104,16 +104,35 @@ class Aside:
             raise value
         return value
 
+    def dismiss(self) -> None:
+        """Kill the process unless its result was taken (a standby holds some 100 MB of
+        imports for as long as it waits)."""
+        if self._got is None:
+            self._proc.kill()
+            self._proc.join()
+            self._got = ("raised", RuntimeError("the helper process was dismissed"))
+
 
 def _answer(work, args, parent: int, reply) -> None:
     """The forked process of ``aside``: ``work(*args)``, and what it returned or raised
     sent back (an exception that cannot cross as itself crosses as its text)."""
-    import pickle
+    _as_helper(parent)
+    _reply(work, args, reply)
+
+
+def _as_helper(parent: int) -> None:
+    """A forked helper process dies with its parent and ignores Ctrl-C, held back from it
+    until now (by ``_forked``)."""
     import signal
 
     workers_die_with_parent(parent)
-    if hasattr(signal, "pthread_sigmask"):     # blocked by ``aside`` around the fork
+    if hasattr(signal, "pthread_sigmask"):
         signal.pthread_sigmask(signal.SIG_UNBLOCK, {signal.SIGINT})
+
+
+def _reply(work, args, reply) -> None:
+    import pickle
+
     try:
         out = ("returned", work(*args))
     except BaseException as exc:  # noqa: BLE001 - the parent raises it
@@ -134,26 +153,84 @@ def aside(work, *args):
     to it; whatever ends the block before the result was taken (an error, an interrupt)
     kills it instead of waiting for it."""
     import multiprocessing
+
+    answer, reply = multiprocessing.get_context("fork").Pipe(duplex=False)
+    proc = _forked(_answer, work, args, os.getpid(), reply)
+    reply.close()
+    handle = Aside(proc, answer)
+    try:
+        yield handle
+    finally:
+        handle.dismiss()
+        answer.close()
+
+
+def _forked(target, *args):
+    """A started daemon process forked to run ``target(*args)``, with Ctrl-C held back from
+    it until it ignores it (``_as_helper``): one arriving in between would print a traceback
+    from it."""
+    import multiprocessing
     import signal
 
-    fork = multiprocessing.get_context("fork")
-    answer, reply = fork.Pipe(duplex=False)
-    proc = fork.Process(target=_answer, args=(work, args, os.getpid(), reply), daemon=True)
+    proc = multiprocessing.get_context("fork").Process(target=target, args=args, daemon=True)
     masking = hasattr(signal, "pthread_sigmask")
-    # Ctrl-C is held back from the new process until it ignores it (workers_die_with_parent):
-    # one arriving in between would print a traceback from it
     was = signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT}) if masking else None
     try:
         proc.start()
     finally:
         if masking:
             signal.pthread_sigmask(signal.SIG_SETMASK, was)
+    return proc
+
+
+class Standby(Aside):
+    """What ``standby`` gives its block: ``give(work, *args)`` hands the waiting process its
+    one piece of work (pickled on the way), ``result()`` waits for it as ``Aside.result``."""
+
+    def __init__(self, proc, answer, jobs):
+        super().__init__(proc, answer)
+        self._jobs, self.given = jobs, False
+
+    def give(self, work, *args) -> None:
+        if self.given:
+            raise RuntimeError("a standby process takes one piece of work")
+        self.given = True
+        self._jobs.send((work, args))
+
+
+def _stand_by(prepare, args, parent: int, jobs, reply) -> None:
+    """The forked process of ``standby``: ``prepare(*args)`` (its failure ignored: the work
+    itself says what is wrong), then the work it is given, answered as ``aside`` answers."""
+    _as_helper(parent)
+    try:
+        prepare(*args)
+    except Exception:  # noqa: BLE001 - preparing only saves time
+        pass
+    try:
+        work, work_args = jobs.recv()
+    except EOFError:
+        return
+    _reply(work, work_args, reply)
+
+
+@contextmanager
+def standby(prepare, *args):
+    """A process forked now that runs ``prepare(*args)`` (imports, caches) and then waits,
+    while this one goes on, for one piece of work from ``Standby.give``: the work starts
+    prepared. Given nothing by the end of the block, or if the block ends before a given
+    work's result was taken (an error, an interrupt), it is killed."""
+    import multiprocessing
+
+    ctx = multiprocessing.get_context("fork")
+    answer, reply = ctx.Pipe(duplex=False)
+    jobs_out, jobs_in = ctx.Pipe(duplex=False)
+    proc = _forked(_stand_by, prepare, args, os.getpid(), jobs_out, reply)
     reply.close()
-    handle = Aside(proc, answer)
+    jobs_out.close()
+    handle = Standby(proc, answer, jobs_in)
     try:
         yield handle
     finally:
-        if handle._got is None:
-            proc.kill()
-            proc.join()
+        handle.dismiss()
+        jobs_in.close()
         answer.close()

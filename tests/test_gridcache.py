@@ -92,3 +92,27 @@ def test_the_shared_geometric_grid_is_numpy_s_and_read_only():
     assert gridcache.geomspace(200.0, 3000.0, 400) is grid
     with pytest.raises(ValueError):
         grid[0] = 1.0
+
+
+def test_the_evaluated_uncertainties_are_the_same_with_the_grid_s_rows_shared_or_made_anew(
+        monkeypatch):
+    """Every species of the demo library evaluated on its tables' grid twice, and once more
+    with the rows of the uncertainty budget made anew for each: the same bits."""
+    import json
+    from pathlib import Path
+
+    from thermoledger.library import budget
+    from thermoledger.library.document import evaluate_entry
+
+    doc = json.loads((Path(__file__).resolve().parents[1] / "curated" / "library.json")
+                     .read_text())
+    grids = {sp["id"]: np.arange(sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"], 100.0)
+             for sp in doc["species"]}
+    shared = [evaluate_entry(sp, grids[sp["id"]]) for sp in doc["species"] * 2]
+    monkeypatch.setattr(budget, "_integral_rows", budget._integral_rows.__wrapped__)
+    monkeypatch.setattr(budget, "_cp_rows", budget._cp_rows.__wrapped__)
+    anew = [evaluate_entry(sp, grids[sp["id"]]) for sp in doc["species"] * 2]
+    assert len(shared) == 2 * len(doc["species"]) > 20
+    for a, b in zip(shared, anew):
+        for key in ("Cp", "H", "S", "u_Cp", "u_H", "u_S"):
+            assert np.array_equal(a[key], b[key])

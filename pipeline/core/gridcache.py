@@ -16,9 +16,13 @@ import numpy as np
 GRIDS = 8
 
 
-def by_grid(f):
+def by_grid(f=None, *, size: int = GRIDS):
     """``f(t, *args)`` (``t`` a 1-d float array, ``args`` hashable) remembered for the last
-    GRIDS distinct (t, args); a result is an array or a tuple of arrays, made read-only."""
+    ``size`` distinct (t, args); a result is an array or a tuple of arrays, made read-only.
+    Used as ``@by_grid``, or ``@by_grid(size=n)`` where the tables of one grid ask for many
+    ``args``."""
+    if f is None:
+        return lambda g: by_grid(g, size=size)
     seen = OrderedDict()
 
     @wraps(f)
@@ -29,7 +33,7 @@ def by_grid(f):
         if got is None:
             got = _read_only(f(t, *args))
             seen[key] = got
-            if len(seen) > GRIDS:
+            if len(seen) > size:
                 seen.popitem(last=False)
         else:
             seen.move_to_end(key)

@@ -30,6 +30,7 @@ import numpy as np
 from ..core import chemistry
 from ..core.constants import GAS_CONSTANT as R
 from ..core.constants import REFERENCE_TEMPERATURE
+from ..core.gridcache import by_grid
 from ..core.limits import DEFAULT_U_ANCHOR_H, DEFAULT_U_ANCHOR_S, DEFAULT_U_TRANSITION_REL
 from ..physics import basis, forms
 from .entries import by_id as entries_by_id
@@ -80,6 +81,20 @@ def transition_u(x: dict) -> float:
     return u if u is not None else DEFAULT_U_TRANSITION_REL * abs(x["enthalpy"])
 
 
+@by_grid(size=64)
+def _integral_rows(t, kind, powers, bps, edges, tref) -> np.ndarray:
+    """R times ``basis.integral_rows`` (J/mol or J/(mol K) per scaled coefficient): the
+    entries of one range of use share their evaluated temperatures and a few dozen
+    breakpoints (made once for each)."""
+    return R * basis.integral_rows(list(powers), t, list(bps), list(edges), kind, tref)
+
+
+@by_grid(size=64)
+def _cp_rows(t, powers, bps) -> np.ndarray:
+    """``basis.cp_rows``, made once for each grid and breakpoints (as ``_integral_rows``)."""
+    return basis.cp_rows(list(powers), t, list(bps))
+
+
 def own_shares(entry: dict, t) -> dict:
     """The shares of one entry's own fit at ``t`` [K]: its covariance components, its form's
     misfit and its extrapolation model (H and S relative to its anchor temperature)."""
@@ -95,8 +110,9 @@ def own_shares(entry: dict, t) -> dict:
     if cov.size:
         w, v = np.linalg.eigh((cov + cov.T) / 2)
         root = v * np.sqrt(np.clip(w, 0.0, None))            # cov = root @ root.T
-        dh = R * basis.integral_rows(powers, t, bps, edges, "H", tref) @ root
-        ds = R * basis.integral_rows(powers, t, bps, edges, "S", tref) @ root
+        key = (tuple(powers), tuple(bps), tuple(edges), tref)
+        dh = _integral_rows(t, "H", *key) @ root
+        ds = _integral_rows(t, "S", *key) @ root
         for k in np.flatnonzero(w > 0):
             out[("fit", sid, int(k))] = (dh[:, k], ds[:, k])
     zero = np.zeros_like(t)
@@ -114,8 +130,8 @@ def cp_share(entry: dict, t) -> np.ndarray:
     unc = entry.get("uncertainty") or {}
     cov = np.asarray(unc.get("covariance") or [], dtype=float)
     bps = entry.get("breakpoints", [])
-    u = R * basis.standard_deviation(basis.cp_rows(unc.get("powers") or [], t, bps), cov) \
-        if cov.size else np.zeros_like(t)
+    u = R * basis.standard_deviation(_cp_rows(t, tuple(unc.get("powers") or []), tuple(bps)),
+                                     cov) if cov.size else np.zeros_like(t)
     for share in (model_share(unc.get("model_error") or [], bps, t),
                   extrapolation_share(entry, t, integrals=False)):
         if share:

@@ -183,3 +183,35 @@ def test_tables_read_alike_share_their_reading_and_nothing_else_is_shared():
         "{'b': 6000.0}"
     assert alike((1, True)) == (1, True) and alike((1, 1)) == (1, 1)
     assert repr(alike([-0.0])) == "[-0.0]" and repr(alike([0.0])) == "[0.0]"
+
+
+def test_a_path_is_inside_raw_as_pathlib_resolves_it(tmp_path):
+    """The real paths of folders are remembered per ingest; whether a listed file lies in
+    raw/ is still what resolving its whole path says: a folder linked out of raw/, a
+    '..' that climbs out, a linked file, raw/ itself."""
+    import os
+    from pathlib import Path
+
+    raw, out = tmp_path / "raw", tmp_path / "elsewhere"
+    (raw / "src" / "sub").mkdir(parents=True)
+    out.mkdir()
+    (raw / "src" / "t.csv").write_text("x")
+    (out / "t.csv").write_text("x")
+    os.symlink(out, raw / "src" / "away")
+    os.symlink(raw / "src" / "t.csv", raw / "src" / "link.csv")
+    os.symlink(out / "t.csv", raw / "src" / "out.csv")
+    cases = [raw / "src" / "t.csv", raw / "src" / "away" / "t.csv", raw / "src" / ".." / "..",
+             raw / "src" / "sub" / ".." / "t.csv", raw / "src" / "link.csv",
+             raw / "src" / "out.csv", raw, raw / "src" / "missing.csv", raw / "src" / "."]
+
+    def resolved_inside(path: Path) -> bool:
+        try:
+            path.resolve().relative_to(raw.resolve())
+            return True
+        except ValueError:
+            return False
+
+    ingest._real_dir.cache_clear()
+    assert [ingest._inside(p, raw) for p in cases] == [resolved_inside(p) for p in cases]
+    assert [resolved_inside(p) for p in cases] == [True, False, False, True, True, False,
+                                                   True, True, True]

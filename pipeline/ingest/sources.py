@@ -6,6 +6,7 @@ each problem. Nothing under raw/ is ever written; paths are confined to it.
 """
 
 import hashlib
+import os
 from dataclasses import dataclass
 from functools import lru_cache
 from pathlib import Path
@@ -294,11 +295,22 @@ def _guarded_read(folder, entry, source, raw_dir, index, reader=read_table):
 
 
 def _inside(path: Path, root: Path) -> bool:
-    try:
-        path.resolve().relative_to(Path(root).resolve())
-        return True
-    except ValueError:
-        return False
+    """Whether ``path``, its links followed, lies in ``root`` (or is it). The real path of a
+    folder is looked up once per ingest (``_real_dir``): a catalogue lists thousands of
+    tables in a few folders."""
+    name = path.name
+    if name in ("", ".", "..") or os.path.islink(path):
+        real = os.path.realpath(path)
+    else:
+        real = os.path.join(_real_dir(str(path.parent)), name)
+    top = _real_dir(str(root))
+    return real == top or real.startswith(top.rstrip(os.sep) + os.sep)
+
+
+@lru_cache(maxsize=1024)
+def _real_dir(folder: str) -> str:
+    """os.path.realpath of ``folder``, remembered until the next ``ingest``."""
+    return os.path.realpath(folder)
 
 
 def ingest(raw_dir, part=None) -> IngestResult:
@@ -306,6 +318,7 @@ def ingest(raw_dir, part=None) -> IngestResult:
     ``part`` (partitions.Part), read only the tables, sets and transitions of the species
     names it owns; every source.json is read, and its findings are found, by every part."""
     owns = part.owns if part is not None else (lambda name: True)
+    _real_dir.cache_clear()          # the folders as they are now
     raw_dir = Path(raw_dir)
     if not raw_dir.is_dir():
         raise InputError(f"raw folder {raw_dir} does not exist", expected="a folder of sources")

@@ -136,13 +136,12 @@ def plot_points(species, checked: CheckResult) -> dict:
             cp_out += rows["Cp"][hit].tolist()
         p["t_out"], p["cp_out"] = np.array(t_out), np.array(cp_out)
         rr = library.ranges_of(sp)
-        h298 = library.enthalpy_zero(sp)
         for col, key in (("dH", "dh"), ("S", "s")):
             m = d.given(col)
             if m.any():
                 t = d["T"][m]
                 ev = forms.evaluate_ranges(rr, t, sp["form"])
-                fitted_v = ev["H"] - h298 if col == "dH" else ev["S"]
+                fitted_v = ev["H"] - library.enthalpy_zero(sp) if col == "dH" else ev["S"]
                 p[key] = (t, fitted_v - d[col][m])
         out[sp["id"]] = p
     return out

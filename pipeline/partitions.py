@@ -273,9 +273,13 @@ def _run(work, cut: Plan, say, store, keep, ready=None) -> tuple:
 @contextmanager
 def _helper(work, parts, ready):
     """A process computing ``_work_each(work, parts)``: ``ready`` (a core.processes.Standby,
-    prepared for it) when given, else one forked now (core.processes.aside)."""
+    prepared for it) when given and still there, else one forked now (core.processes.aside)."""
     if ready is not None:
-        ready.give(_work_each, work, parts)
+        try:
+            ready.give(_work_each, work, parts)
+        except OSError:            # it is gone (killed from outside): fork another
+            ready = None
+    if ready is not None:
         yield ready
     else:
         with aside(_work_each, work, parts) as helper:

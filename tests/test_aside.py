@@ -242,3 +242,16 @@ def test_a_rebuild_computes_its_one_changed_partition_in_the_prepared_process(mo
         partitions.run(_in_partition, partitions.Plan(parts=4, workers=2), store=store,
                        ready=ready)
         assert not ready._proc.is_alive()
+
+
+def test_a_rebuild_whose_prepared_process_is_gone_forks_another(monkeypatch):
+    from thermoledger import partitions
+
+    monkeypatch.setattr(partitions, "merge", lambda results: [r.entries[0] for r in results])
+    with processes.standby(_prepare, "x") as ready:
+        ready._proc.kill()
+        ready._proc.join()
+        merged, reused = partitions.run(_in_partition, partitions.Plan(parts=4, workers=2),
+                                        store=_StoreOfAllBut(1), ready=ready)
+    assert reused == 3 and merged[1][0] == "s1" and merged[1][1] not in (os.getpid(),
+                                                                          ready._proc.pid)

@@ -350,7 +350,10 @@ def _judge(who: SpeciesIdentity, solved: Solved, data: CpData,
 
     form, ranges, sol, extensions = solved.form, solved.ranges, solved.solution, solved.extensions
     t, cp, dh, s = data.t, data.cp, data.dh, data.s
-    ev = forms.evaluate_ranges(ranges, t, form)
+    columns = (dh is not None and np.isfinite(dh).any()) or (s is not None and np.isfinite(s).any())
+    # H and S only where the table has their columns (the same Cp either way)
+    ev = forms.evaluate_ranges(ranges, t, form) if columns else \
+        {"Cp": forms.cp_of_ranges(ranges, t, form)}
     rel = (ev["Cp"] - cp) / cp
     worst = int(np.argmax(np.abs(rel)))
     h_dev = s_dev = None
@@ -375,8 +378,8 @@ def _judge(who: SpeciesIdentity, solved: Solved, data: CpData,
                        cp_max_rel_dev=float(np.abs(rel).max()),
                        cp_rms_rel_dev=float(np.sqrt(np.mean(rel ** 2))),
                        worst_t=float(t[worst]), weighting=solved.weighting, h_max_dev=h_dev,
-                       s_max_dev=s_dev, covariance=tuple(tuple(float(x) for x in row)
-                                                         for row in solved.covariance),
+                       s_max_dev=s_dev, covariance=tuple(map(tuple, np.asarray(
+                           solved.covariance, dtype=float).tolist())),
                        model_error=solved.model_error,
                        birge_ratio=float(np.sqrt(sol.chi2 / sol.dof)), acceptance=record,
                        covariance_scale=solved.covariance_scale,

@@ -239,32 +239,24 @@ def _run(work, cut: Plan, say, store, keep, ready=None) -> tuple:
         todo.extend(lost)
         return lost
 
-    if not todo or not stored or cut.workers <= 1:     # nothing to overlap
-        load_stored()
-        if cut.workers <= 1 or len(todo) <= 1:
-            for k in list(todo):
-                done(k, work(Part(k, cut.parts)))
-        else:
-            with worker_pool(min(cut.workers, len(todo))) as pool:
-                for k, result in zip(list(todo), pool.map(partial(without_collector, work),
-                                                           [Part(k, cut.parts) for k in todo])):
-                    done(k, result)
-        return merge(results), cut.parts - len(todo)
-    # the partitions to compute run while the stored ones load: one in a helper process,
-    # several in the workers (submitted first, so that they fork from this process before
-    # it holds the stored partitions)
-    if len(parts) == 1:
-        with _helper(work, parts, ready) as helper:
-            lost = load_stored()
-            computed = helper.result()
-        for part, result in zip(parts, computed):
-            done(part.index, result)
-    else:
+    # the partitions to compute run while the stored ones load: several in the workers
+    # (submitted first, so that they fork from this process before it holds the stored
+    # partitions), one in a helper process when there are stored ones to load meanwhile
+    if len(parts) > 1 and cut.workers > 1:
         with worker_pool(min(cut.workers, len(parts))) as pool:
             computed = pool.map(partial(without_collector, work), parts)
             lost = load_stored()
             for part, result in zip(parts, computed):
                 done(part.index, result)
+    elif len(parts) == 1 and stored and cut.workers > 1:
+        with _helper(work, parts, ready) as helper:
+            lost = load_stored()
+            computed = helper.result()
+        done(parts[0].index, computed[0])
+    else:
+        lost = load_stored()
+        for part in parts:
+            done(part.index, work(part))
     for k in lost:
         done(k, work(Part(k, cut.parts)))
     return merge(results), cut.parts - len(todo)

@@ -9,6 +9,7 @@ arrays it gives are read-only (a caller that changed one would change it for eve
 
 from collections import OrderedDict
 from functools import lru_cache, wraps
+from threading import Lock
 
 import numpy as np
 
@@ -23,20 +24,22 @@ def by_grid(f=None, *, size: int = GRIDS):
     ``args``."""
     if f is None:
         return lambda g: by_grid(g, size=size)
-    seen = OrderedDict()
+    seen, lock = OrderedDict(), Lock()      # (the library's users may call it from threads)
 
     @wraps(f)
     def cached(t, *args):
         t = np.asarray(t, dtype=float)
         key = (t.shape, t.tobytes(), args)
-        got = seen.get(key)
-        if got is None:
-            got = _read_only(f(t, *args))
+        with lock:
+            got = seen.get(key)
+            if got is not None:
+                seen.move_to_end(key)
+                return got
+        got = _read_only(f(t, *args))
+        with lock:
             seen[key] = got
             if len(seen) > size:
                 seen.popitem(last=False)
-        else:
-            seen.move_to_end(key)
         return got
 
     cached.cache_clear = seen.clear

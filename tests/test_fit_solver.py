@@ -29,19 +29,28 @@ def test_solution_agrees_with_slsqp_on_the_same_problem():
     y, sig = cp / R, 3e-3 * cp / R
     ours = lsq.solve(a, y, sig, c)
     aw, yw = a / sig[:, None], y / sig
+    # SLSQP works in columns scaled to unit norm (z = x / scale): unscaled, the powers of T
+    # span orders of magnitude and its equality subproblem is rank-deficient on some CPUs
+    scale = 1.0 / np.linalg.norm(aw, axis=0)
+    az, cz = aw * scale, c * scale
 
     def f(x):
         r = aw @ x - yw
         return r @ r
 
-    def grad(x):
-        return 2 * aw.T @ (aw @ x - yw)
+    def fz(z):
+        r = az @ z - yw
+        return r @ r
 
-    x0 = np.linalg.lstsq(aw, yw, rcond=None)[0]
-    ref = minimize(f, x0, jac=grad, method="SLSQP",
-                   constraints=[{"type": "eq", "fun": lambda x: c @ x, "jac": lambda x: c}],
+    def grad(z):
+        return 2 * az.T @ (az @ z - yw)
+
+    z0 = np.linalg.lstsq(az, yw, rcond=None)[0]
+    ref = minimize(fz, z0, jac=grad, method="SLSQP",
+                   constraints=[{"type": "eq", "fun": lambda z: cz @ z, "jac": lambda z: cz}],
                    options={"ftol": 1e-14, "maxiter": 500})
-    assert ref.success
+    assert ref.success, ref.message
+    assert np.max(np.abs(cz @ ref.x)) < 1e-9 * np.max(np.abs(ref.x))   # its constraint holds
     assert f(ours.c) == pytest.approx(ref.fun, rel=1e-6)
     assert f(ours.c) <= ref.fun * (1 + 1e-9)   # and ours is not worse
     assert np.max(np.abs(c @ ours.c)) < 1e-12 * np.max(np.abs(ours.c))

@@ -440,13 +440,14 @@ def _held(spill, report: bool, result: partitions.PartResult) -> partitions.Part
     from .library.tables import spill_rows
 
     def put(pairs):
-        return tuple((key, spill.put(blob)) for key, blob in pairs)
+        return tuple(zip((key for key, _ in pairs), spill.put_many(blob for _, blob in pairs)))
 
     return replace(result, checked=replace(result.checked, selections=()),
                    fitted=put(result.fitted), lineages=put(result.lineages),
                    entries=put(result.entries),
                    rows=tuple(spill_rows(block, spill) for block in result.rows),
-                   points=tuple((sid, spill.put_object(p)) for sid, p in result.points)
+                   points=tuple(zip((sid for sid, _ in result.points),
+                                    spill.put_objects(p for _, p in result.points)))
                    if report else ())
 
 

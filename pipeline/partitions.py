@@ -13,11 +13,13 @@ A release home keeps the partitions of its last build (``PartStore``); a rebuild
 those whose key (``part_keys``: everything a partition's result depends on) is unchanged.
 """
 
+import errno
 import hashlib
 import json
 import os
 import pickle
 import re
+import stat
 from contextlib import contextmanager
 from dataclasses import dataclass
 from functools import lru_cache, partial
@@ -333,9 +335,9 @@ class Digests:
             except (OSError, ValueError):
                 pass
 
-    def of(self, path: Path) -> str:
-        """The sha256 of file ``path`` (hex)."""
-        st = path.stat()
+    def of(self, path: Path, st=None) -> str:
+        """The sha256 of file ``path`` (hex); ``st``: its os.stat result, when already made."""
+        st = path.stat() if st is None else st
         identity = list(paths.identity(st))
         kept = self.known.get(str(path))
         if isinstance(kept, list) and kept[:-1] == identity:
@@ -359,18 +361,24 @@ def _file_digest(path: Path, raw: str, digests=None) -> str:
     nothing, a path outside ``raw`` (a real path), a file too large to be read, by its
     size). A file that is not a link lies where its folder really is: one real path per
     folder, not per file."""
-    if path.is_symlink():
+    try:
+        st = os.lstat(path)            # one call tells a link, a file, its size and identity
+    except OSError as exc:             # as pathlib's is_symlink and is_file
+        if exc.errno not in (errno.ENOENT, errno.ENOTDIR, errno.EBADF, errno.ELOOP):
+            raise
+        st = None
+    if st is not None and stat.S_ISLNK(st.st_mode):
         return "link:" + os.readlink(path)
     real = os.path.join(_real_folder(str(path.parent)), path.name) \
         if path.name not in ("", ".", "..") else os.path.realpath(path)
     if os.path.commonpath([real, raw]) != raw:
         return "outside"
-    if path.is_file():
-        size = path.stat().st_size
-        if size > MAX_TABLE_BYTES:
-            return f"size:{size}"
-        return digests.of(path) if digests else hashlib.sha256(path.read_bytes()).hexdigest()
-    return "dir" if path.is_dir() else "absent"
+    if st is not None and stat.S_ISREG(st.st_mode):
+        if st.st_size > MAX_TABLE_BYTES:
+            return f"size:{st.st_size}"
+        return digests.of(path, st) if digests else \
+            hashlib.sha256(path.read_bytes()).hexdigest()
+    return "dir" if st is not None and stat.S_ISDIR(st.st_mode) else "absent"
 
 
 def part_keys(raw_dir, parts: int, settings: dict, previous: dict, digests=None) -> list:

@@ -548,3 +548,33 @@ def test_a_partition_that_fails_in_the_helper_stops_the_run_and_saves_nothing():
     with pytest.raises(ValueError, match="partition 1 cannot be made"):
         partitions.run(_fails, partitions.Plan(parts=4, workers=2), store=store)
     assert store.saved == []
+
+
+def test_what_a_listed_file_gives_a_key_is_told_from_one_look_at_it(tmp_path, monkeypatch):
+    """``_file_digest`` (one os.lstat per file): a file's sha256, with or without the
+    remembered digests; a link by its target, a folder, a missing file, a file whose real
+    path leaves raw/ and a file too large to read by their kind, as ingest sees them."""
+    import hashlib
+
+    raw, elsewhere = tmp_path / "raw", tmp_path / "elsewhere"
+    (raw / "src").mkdir(parents=True)
+    elsewhere.mkdir()
+    table = raw / "src" / "a.csv"
+    table.write_bytes(b"T [K],Cp [J/(mol*K)]\n300,29.1\n")
+    (raw / "src" / "b.csv").symlink_to("a.csv")
+    (raw / "src" / "folder.csv").mkdir()
+    (elsewhere / "c.csv").write_bytes(b"x")
+    (raw / "out").symlink_to(elsewhere, target_is_directory=True)
+    real = os.path.realpath(raw)
+    partitions._real_folder.cache_clear()
+    sha = hashlib.sha256(table.read_bytes()).hexdigest()
+    digests = partitions.Digests(tmp_path / "store")
+    assert partitions._file_digest(table, real) == sha
+    assert partitions._file_digest(table, real, digests) == sha
+    assert partitions._file_digest(raw / "src" / "b.csv", real) == "link:a.csv"
+    assert partitions._file_digest(raw / "src" / "folder.csv", real) == "dir"
+    assert partitions._file_digest(raw / "src" / "none.csv", real) == "absent"
+    assert partitions._file_digest(raw / "src" / "a.csv" / "under", real) == "absent"
+    assert partitions._file_digest(raw / "out" / "c.csv", real) == "outside"
+    monkeypatch.setattr(partitions, "MAX_TABLE_BYTES", 10)
+    assert partitions._file_digest(table, real) == f"size:{table.stat().st_size}"

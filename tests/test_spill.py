@@ -26,11 +26,15 @@ def test_what_is_spilled_reads_back_as_written(tmp_path_factory, blobs, values):
     spill = Spill(folder)
     where = [spill.put(b) for b in blobs]
     at = spill.put(values)
+    together = spill.put_many(blobs + [values])       # one write: the same reading
     assert [spill.get(*w) for w in where] == blobs
+    assert [spill.get(*w) for w in together[:-1]] == blobs
+    assert spill.get(*together[-1]) == values.tobytes()
+    assert [size for _, size in together] == [size for _, size in where + [at]]
     assert np.frombuffer(spill.get(*at), dtype=np.float64).tobytes() == values.tobytes()
     assert os.listdir(folder) == []            # the file has no name
     with pytest.raises(OSError, match="ends before"):
-        spill.get(at[0], at[1] + 1)
+        spill.get(together[-1][0], together[-1][1] + 1)
     spill.close()
 
 
@@ -84,5 +88,8 @@ def test_objects_in_a_spill_are_unpickled_when_read(tmp_path):
     objs = {"a": {"t": np.arange(3.0), "dh": (np.zeros(2), np.ones(2))}, "b": {}}
     held = SpilledObjects(spill, {k: spill.put_object(v) for k, v in objs.items()})
     assert list(held) == ["a", "b"] and len(held) == 2 and held.get("c", 7) == 7
+    at_once = SpilledObjects(spill, dict(zip(objs, spill.put_objects(objs.values()))))
+    assert at_once["a"]["t"].tolist() == [0.0, 1.0, 2.0] and at_once["b"] == {}
+    assert spill.put_many([]) == [] and spill.put_objects([]) == []
     assert held["b"] == {} and held["a"]["dh"][1].tolist() == [1.0, 1.0]
     assert held["a"] is not held["a"]                   # a fresh object at each read

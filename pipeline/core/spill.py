@@ -31,6 +31,19 @@ class Spill:
         self._end += len(view)
         return offset, len(view)
 
+    def put_many(self, pieces) -> list:
+        """[(offset, size)] of each of ``pieces`` (bytes or contiguous buffers), written one
+        after another at the end in one write: a stored partition's hundreds of entries cost
+        one system call, not one each."""
+        views = [memoryview(p).cast("B") for p in pieces]
+        where, offset = [], self._end
+        for v in views:
+            where.append((offset, len(v)))
+            offset += len(v)
+        if views:
+            self.put(b"".join(views))
+        return where
+
     def get(self, offset: int, size: int) -> bytes:
         """The ``size`` bytes written at ``offset``."""
         data = os.pread(self._fd, size, offset)
@@ -41,6 +54,11 @@ class Spill:
     def put_object(self, obj) -> tuple:
         """(offset, size) of ``obj`` pickled (read back by SpilledObjects)."""
         return self.put(pickle.dumps(obj, protocol=pickle.HIGHEST_PROTOCOL))
+
+    def put_objects(self, objs) -> list:
+        """[(offset, size)] of each of ``objs`` pickled, as ``put_object`` (one write)."""
+        return self.put_many(pickle.dumps(obj, protocol=pickle.HIGHEST_PROTOCOL)
+                             for obj in objs)
 
     def close(self) -> None:
         self._file.close()

@@ -113,11 +113,9 @@ def spill_rows(block: dict, spill) -> dict:
     only the columns' dtypes and each record's (offset, size) are held."""
     cols = block["columns"]
     ends = block["ends"].tolist()
-    where = []
-    for k in range(len(ends)):
-        start = ends[k - 1] if k else 0
-        where.append(spill.put(b"".join(np.ascontiguousarray(v[start:ends[k]]).tobytes()
-                                        for v in cols.values())))
+    starts = [0] + ends[:-1]
+    where = spill.put_many(b"".join(np.ascontiguousarray(v[start:end]).tobytes()
+                                    for v in cols.values()) for start, end in zip(starts, ends))
     return {**block, "columns": {c: v.dtype for c, v in cols.items()}, "spill": spill,
             "spilled": where}
 

@@ -402,3 +402,37 @@ def test_a_release_lists_its_files_with_their_sha256_and_size():
     assert release.sha256("b.json") == listed[2][1] and release.get("a/c.svg") == b"123"
     paths = Derived(release.outputs(), lambda out: out[0])
     assert list(paths) == ["a/c.svg", "a/e.html", "b.json"] and paths[1] == "a/e.html"
+
+
+def test_audit_tells_rounding_from_a_change(demo_release):
+    """A species whose numbers differ in their last digits only, with nothing it depends
+    on changed, is put down to rounding (another CPU or BLAS build); a difference above
+    audit.ROUNDING, or with an input changed, is not."""
+    import copy
+    from types import SimpleNamespace
+
+    from thermoledger.release import audit
+
+    recorded = audit.read_release(demo_release)
+    inputs = [SimpleNamespace(**f) for f in recorded.manifest["inputs"]]
+    settings = recorded.manifest["settings"]
+
+    def rebuilt(factor):
+        doc = copy.deepcopy(recorded.library)
+        sp = next(s for s in doc["species"] if s["id"] == "N2(g)")
+        sp["ranges"][0]["coefficients"][0] *= factor
+        return doc
+
+    rep = audit.compare(recorded, inputs, {}, rebuilt(1 + 1e-14), settings)
+    (sp,) = rep.species
+    assert sp["id"] == "N2(g)" and sp["causes"] == [audit.ROUNDING_CAUSE]
+    assert rep.rounding_only and rep.status == audit.DIFFERENCES    # the bytes still differ
+    assert "rounding alone" in audit.render(rep)
+    rep = audit.compare(recorded, inputs, {}, rebuilt(1 + 1e-6), settings)
+    assert rep.species[0]["causes"] == ["unexplained (same inputs, settings and dependency "
+                                        "versions)"] and not rep.rounding_only
+    n2 = next(f for f in inputs if f.path == "isru-rrho-2026/n2.csv")
+    n2.sha256 = "0" * 64                                   # its table changed
+    rep = audit.compare(recorded, inputs, {}, rebuilt(1 + 1e-14), settings)
+    assert rep.species[0]["causes"] == ["changed inputs: isru-rrho-2026/n2.csv"]
+    assert not rep.rounding_only

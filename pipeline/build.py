@@ -21,7 +21,7 @@ from .core.records import CheckResult, CpData, FittedSpecies, SpeciesIdentity, T
 from .core.settings import Settings, for_table
 from .core.spill import Spill, SpilledObjects
 from .library import document as library
-from .library.entries import compact
+from .library.entries import compact, outline, outlines_of
 from .release import assemble, formation, held, provenance, publish
 from .release import audit as audit_stage
 from .release import document as release_document
@@ -176,7 +176,7 @@ def keep_breakpoints(out_dir, doc: dict) -> None:
     if not folder.is_dir():
         return
     kept = {"library": _library_identity(out_dir),
-            "breakpoints": {sp["id"]: sp["breakpoints"] for sp in doc["species"]}}
+            "breakpoints": {sp["id"]: sp["breakpoints"] for sp in outlines_of(doc)}}
     paths.write_atomic(folder / KEPT_BREAKPOINTS, orjson.dumps(kept))
 
 
@@ -396,6 +396,7 @@ def _build_part(raw_dir, ctx: Settings, previous: dict, say, part) -> partitions
                        for sp in fitted),
         quarantined=tuple(quarantined), findings=tuple(findings),
         entries=tuple((sid, compact(e)) for sid, e in entries.items()),
+        outlines=tuple((sid, compact(outline(e))) for sid, e in entries.items()),
         points=tuple(points.items()), rows=(rows,))
 
 
@@ -480,10 +481,12 @@ def _build_into(files, raw_dir, out_dir, ctx: Settings, say, previous: dict, cut
     fitted = held.HeldFitted(spill, done.fitted, done.lineages)
     quarantined, findings = list(done.quarantined), list(done.findings)
     points, rows = SpilledObjects(spill, dict(done.points)), done.rows
+    outlines = dict(done.outlines)
     del done        # the partitions' results are not needed whole from here on
     digest = ingest.inputs_digest(checked.inputs)
     doc = release_document.library_document(fitted, quarantined, digest, ctx.to_dict(), entries,
-                                            checked.chains, spill)
+                                            checked.chains, spill, outlines)
+    del outlines
     del entries
     findings += formation.attach(doc, checked.references, checked.tables,
                                  ctx.checks.stated_formation_u)

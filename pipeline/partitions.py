@@ -77,6 +77,7 @@ class PartResult:
     entries: tuple = ()       # (species id, compact JSON of its library entry)
     points: tuple = ()        # (species id, report plot points), when there is a report
     rows: tuple = ()          # library.tables.pack_rows blocks: its species' evaluated tables
+    outlines: tuple = ()      # (species id, compact JSON of library.entries.outline), as entries
 
 
 def _table_key(table):
@@ -152,7 +153,8 @@ def merge(parts) -> PartResult:
         findings=_merged_findings(p.findings for p in parts),
         entries=tuple(sorted((e for p in parts for e in p.entries), key=lambda e: e[0])),
         points=tuple(sorted((e for p in parts for e in p.points), key=lambda e: e[0])),
-        rows=tuple(block for p in parts for block in p.rows))
+        rows=tuple(block for p in parts for block in p.rows),
+        outlines=tuple(sorted((e for p in parts for e in p.outlines), key=lambda e: e[0])))
 
 
 def listed_entries(raw_dir) -> int:

@@ -244,3 +244,45 @@ def test_formulas_are_given_or_read_from_the_entries():
     assert formulas_of({"species": given}) == want
     with pytest.raises(ValueError, match="1 formulas for 2 entries"):
         Entries(((e["id"], orjson.dumps(e)) for e in entries), formulas=["CO2"])
+
+
+def test_a_build_knows_its_species_outlines_and_they_say_what_the_entries_say(tmp_path):
+    """The outlines a build holds (made in the partitions) are library.entries.outline of
+    the entries it writes, formation findings added; the build's summary and its kept
+    breakpoints read the same from them as from the whole entries, which are not decoded."""
+    from thermoledger.cli import render
+
+    result = build.build(RAW, tmp_path / "out", parts=2)
+    species = result.document["species"]
+    written = orjson.loads((tmp_path / "out" / "current" / "library.json").read_bytes())
+    assert list(species.outlines()) == [held.outline(e) for e in written["species"]]
+    whole = build.BuildResult(**{**result.__dict__,
+                                 "document": {**result.document, "species": written["species"]}})
+    real = Entries._json
+    Entries._json = None                  # decoding an entry now fails
+    try:
+        lines = render.build_summary(result, "out", "notice")
+        build.keep_breakpoints(tmp_path / "out", result.document)
+    finally:
+        Entries._json = real
+    assert lines == render.build_summary(whole, "out", "notice")
+    kept = orjson.loads((tmp_path / "out" / ".parts" / build.KEPT_BREAKPOINTS).read_bytes())
+    assert kept["breakpoints"] == {e["id"]: e["breakpoints"] for e in written["species"]}
+
+
+def test_an_outline_put_back_follows_its_entry():
+    entry = {"id": "A(g)", "breakpoints": [1000.0], "excluded": [],
+             "ranges": [{"t_min": 200.0, "t_max": 1000.0, "coefficients": [1.0]},
+                        {"t_min": 1000.0, "t_max": 3000.0, "coefficients": [2.0]}],
+             "extrapolated": [], "quality": {"cp_max_rel_dev": 0.001, "points": 9},
+             "sources": [{"file": "a.csv", "rows": 9, "used": True, "priority": 0}],
+             "origin": {"kind": "published set", "repair": "not needed"}}
+    kept = Entries([("A(g)", held.compact(entry))], outlines=[held.compact(held.outline(entry))])
+    assert list(kept.outlines()) == [held.outline(entry)]
+    assert held.outline(entry)["origin"] == {"repair": "not needed"}
+    entry["breakpoints"] = [900.0]
+    kept[0] = entry
+    assert next(kept.outlines())["breakpoints"] == [900.0]
+    assert list(Entries.of([entry]).outlines()) == [held.outline(entry)]    # made when not known
+    with pytest.raises(ValueError, match="2 outlines for 1 entries"):
+        Entries([("A(g)", b"{}")], outlines=[b"{}", b"{}"])

@@ -4,6 +4,7 @@ Every function returns lines (or a string); the commands print them."""
 import math
 
 from ..core.findings import ERROR, INFO, WARNING, format_block
+from ..library.entries import outlines_of
 
 
 def totals(findings) -> tuple:
@@ -48,7 +49,7 @@ def build_summary(result, out, notice: str) -> list:
     lines = [f"thermoledger build: {len(result.fitted)} species fitted, "
              f"{len(result.quarantined)} table(s) quarantined, {n_err} error(s), "
              f"{n_warn} warning(s), {n_ack} acknowledged"]
-    for sp in result.document["species"]:
+    for sp in outlines_of(result.document):
         q = sp["quality"]
         flag = "  extrapolated: " + ", ".join(f"{e['t_min']:g}-{e['t_max']:g} K"
                                                for e in sp["extrapolated"]) if sp["extrapolated"] else ""

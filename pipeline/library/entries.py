@@ -30,29 +30,51 @@ def compact(entry: dict) -> bytes:
     return bytes(memoryview(orjson.dumps(entry)))
 
 
+def outline(entry: dict) -> dict:
+    """A species entry cut down to what a build reads of every species after its release is
+    written (its summary line and the breakpoints it keeps for the next build): id,
+    breakpoints, the ranges' and extrapolated intervals' ends, the largest relative Cp
+    deviation, the sources' files, rows and use, the rows left out, and the origin's repair.
+    Laid out as the entry is, so that what reads an outline reads a whole entry too."""
+    out = {"id": entry["id"], "breakpoints": entry["breakpoints"],
+           "ranges": [{"t_min": r["t_min"], "t_max": r["t_max"]} for r in entry["ranges"]],
+           "extrapolated": [{"t_min": e["t_min"], "t_max": e["t_max"]}
+                            for e in entry["extrapolated"]],
+           "quality": {"cp_max_rel_dev": entry["quality"]["cp_max_rel_dev"]},
+           "sources": [{"file": x["file"], "rows": x["rows"], "used": x["used"]}
+                       for x in entry["sources"]],
+           "excluded": entry["excluded"]}
+    if entry.get("origin") is not None:
+        out["origin"] = {"repair": entry["origin"].get("repair")}
+    return out
+
+
 class Entries(LazyList):
     """Library entries, in order, each held as its compact JSON (a core.lazy.LazyList): in
     memory, or where a core.spill.Spill holds it ((offset, size)). Indexing and iterating
     give a fresh dict each time: changing it changes nothing held until it is put back
     (``entries[i] = entry``, into the spill when there is one)."""
 
-    __slots__ = ("_blobs", "_ids", "_index", "_spill", "_formulas")
+    __slots__ = ("_blobs", "_ids", "_index", "_spill", "_formulas", "_outlines")
 
     #: its items are read from JSON: each reads back as itself when written again
     from_json = True
 
-    def __init__(self, pairs=(), spill=None, formulas=None):
+    def __init__(self, pairs=(), spill=None, formulas=None, outlines=None):
         """``pairs``: (species id, compact JSON bytes of its entry, or its (offset, size) in
-        ``spill``), in the document's order; ``formulas`` the entries' formulas, in the same
-        order, when known (``formulas`` then needs no entry decoded)."""
+        ``spill``), in the document's order; ``formulas`` the entries' formulas and
+        ``outlines`` the compact JSON of their ``outline``, in the same order, when known
+        (``formulas`` and ``outlines`` then need no entry decoded)."""
         self._ids, self._blobs = [], []
         for sid, blob in pairs:
             self._ids.append(sid)
             self._blobs.append(blob)
         self._index, self._spill = None, spill
         self._formulas = list(formulas) if formulas is not None else None
-        if self._formulas is not None and len(self._formulas) != len(self._ids):
-            raise ValueError(f"{len(self._formulas)} formulas for {len(self._ids)} entries")
+        self._outlines = list(outlines) if outlines is not None else None
+        for name, known in (("formulas", self._formulas), ("outlines", self._outlines)):
+            if known is not None and len(known) != len(self._ids):
+                raise ValueError(f"{len(known)} {name} for {len(self._ids)} entries")
 
     @classmethod
     def of(cls, entries) -> "Entries":
@@ -76,6 +98,8 @@ class Entries(LazyList):
             raise ValueError(f"entry {i} is {self._ids[i]}, not {entry['id']}")
         blob = compact(entry)
         self._blobs[i] = blob if self._spill is None else self._spill.put(blob)
+        if self._outlines is not None:
+            self._outlines[i] = compact(outline(entry))
 
     def __iter__(self):
         for i in range(len(self._blobs)):
@@ -91,6 +115,13 @@ class Entries(LazyList):
         if self._formulas is None:
             return {e["id"]: e["formula"] for e in self}
         return dict(zip(self._ids, self._formulas))
+
+    def outlines(self):
+        """The ``outline`` of each entry, in order: decoded from those given, else made from
+        each entry decoded."""
+        if self._outlines is None:
+            return (outline(e) for e in self)
+        return (_loads(blob) for blob in self._outlines)
 
     def position(self, sid: str) -> int:
         """The index of entry ``sid`` (KeyError when there is none)."""
@@ -159,3 +190,11 @@ def formulas_of(doc: dict) -> dict:
     if isinstance(species, Entries):
         return species.formulas()
     return {s["id"]: s["formula"] for s in species}
+
+
+def outlines_of(doc: dict):
+    """The ``outline`` of each species of library document ``doc``, in order (of Entries,
+    without decoding them when they know their outlines; a list's entries as they are, which
+    read as outlines)."""
+    species = doc["species"]
+    return species.outlines() if isinstance(species, Entries) else iter(species)

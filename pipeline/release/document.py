@@ -163,14 +163,15 @@ def _source_ref(use) -> dict:
 
 
 def library_document(fitted, quarantined, inputs_sha256: str, settings: dict,
-                     entries=None, chains=(), spill=None) -> dict:
+                     entries=None, chains=(), spill=None, outlines=None) -> dict:
     """The whole library.json document.
 
     ``quarantined`` is a sequence of (TableMeta, findings) for tables left out; ``entries``
     optionally maps species ids to their species_entry, already made, or to its compact
     JSON, as bytes or as its (offset, size) in ``spill`` (core.spill.Spill): the species are
-    then held as library.entries.Entries; ``chains`` the phase chains of the build (their
-    transitions between fitted phases are listed).
+    then held as library.entries.Entries, knowing their outlines when ``outlines`` maps
+    every species id to the compact JSON of its library.entries.outline; ``chains`` the
+    phase chains of the build (their transitions between fitted phases are listed).
     """
     entries = entries or {}
     ordered, briefs = in_order(fitted), briefs_of(fitted)
@@ -178,8 +179,11 @@ def library_document(fitted, quarantined, inputs_sha256: str, settings: dict,
     made = [(b.species_id, entries.get(b.species_id) or species_entry(ordered[k]))
             for k, b in enumerate(briefs)]
     if any(not isinstance(e, dict) for _, e in made):     # (an entry's formula is its table's)
+        known = outlines or {}
         species = Entries(((sid, compact(e) if isinstance(e, dict) else e) for sid, e in made),
-                          spill, [b.formula for b in briefs])
+                          spill, [b.formula for b in briefs],
+                          [known[sid] for sid, _ in made]
+                          if all(sid in known for sid, _ in made) else None)
     else:
         species = [e for _, e in made]
     return {

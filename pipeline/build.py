@@ -434,7 +434,8 @@ def _lineage_only(fitted) -> list:
 
 def _held(spill, report: bool, result: partitions.PartResult) -> partitions.PartResult:
     """A partition's result as the build holds it until its release is written: its fitted
-    species, their lineages, library entries, evaluated tables and report's plot points in
+    species, their lineages, library entries and outlines, evaluated tables and report's
+    plot points in
     the build's scratch file (core.spill.Spill; some 14 KB per species, 19 with the plot
     points), only where they lie held; without a report, no plot points; no selections
     (what follows needs none). The partition kept for the next build has them all."""
@@ -445,7 +446,7 @@ def _held(spill, report: bool, result: partitions.PartResult) -> partitions.Part
 
     return replace(result, checked=replace(result.checked, selections=()),
                    fitted=put(result.fitted), lineages=put(result.lineages),
-                   entries=put(result.entries),
+                   entries=put(result.entries), outlines=put(result.outlines),
                    rows=tuple(spill_rows(block, spill) for block in result.rows),
                    points=tuple(zip((sid for sid, _ in result.points),
                                     spill.put_objects(p for _, p in result.points)))

@@ -63,8 +63,9 @@ class Entries(LazyList):
     def __init__(self, pairs=(), spill=None, formulas=None, outlines=None):
         """``pairs``: (species id, compact JSON bytes of its entry, or its (offset, size) in
         ``spill``), in the document's order; ``formulas`` the entries' formulas and
-        ``outlines`` the compact JSON of their ``outline``, in the same order, when known
-        (``formulas`` and ``outlines`` then need no entry decoded)."""
+        ``outlines`` the compact JSON of their ``outline`` (bytes, or (offset, size) in
+        ``spill``), in the same order, when known (``formulas`` and ``outlines`` then need no
+        entry decoded)."""
         self._ids, self._blobs = [], []
         for sid, blob in pairs:
             self._ids.append(sid)
@@ -82,8 +83,13 @@ class Entries(LazyList):
         return cls((e["id"], compact(e)) for e in entries)
 
     def _json(self, i: int) -> bytes:
-        blob = self._blobs[i]
+        return self._held(self._blobs[i])
+
+    def _held(self, blob) -> bytes:
         return blob if isinstance(blob, bytes) else self._spill.get(*blob)
+
+    def _put(self, blob: bytes):
+        return blob if self._spill is None else self._spill.put(blob)
 
     def __len__(self) -> int:
         return len(self._blobs)
@@ -96,10 +102,9 @@ class Entries(LazyList):
     def __setitem__(self, i: int, entry: dict) -> None:
         if entry["id"] != self._ids[i]:
             raise ValueError(f"entry {i} is {self._ids[i]}, not {entry['id']}")
-        blob = compact(entry)
-        self._blobs[i] = blob if self._spill is None else self._spill.put(blob)
+        self._blobs[i] = self._put(compact(entry))
         if self._outlines is not None:
-            self._outlines[i] = compact(outline(entry))
+            self._outlines[i] = self._put(compact(outline(entry)))
 
     def __iter__(self):
         for i in range(len(self._blobs)):
@@ -121,7 +126,7 @@ class Entries(LazyList):
         each entry decoded."""
         if self._outlines is None:
             return (outline(e) for e in self)
-        return (_loads(blob) for blob in self._outlines)
+        return (_loads(self._held(blob)) for blob in self._outlines)
 
     def position(self, sid: str) -> int:
         """The index of entry ``sid`` (KeyError when there is none)."""

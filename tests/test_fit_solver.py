@@ -56,6 +56,37 @@ def test_solution_agrees_with_slsqp_on_the_same_problem():
     assert np.max(np.abs(c @ ours.c)) < 1e-12 * np.max(np.abs(ours.c))
 
 
+@pytest.mark.parametrize("seed", [1, 2, 3, 4])
+def test_inequalities_agree_with_slsqp_and_a_row_zero_to_rounding_is_no_constraint(seed):
+    """lsq.at_least (Lawson & Hanson's least-distance reduction) against scipy's SLSQP with
+    the same inequalities, on well-conditioned random problems with active constraints: as
+    good a fit, every constraint held. A row of G that is zero to rounding with h above
+    zero by rounding (a slope fixed by the join, asked to be >= 0 again) changes nothing:
+    kept, it made at_least return coefficients without bound."""
+    rng = np.random.default_rng(seed)
+    a, y, sig = rng.standard_normal((40, 5)), rng.standard_normal(40), rng.uniform(0.5, 2, 40)
+    free = lsq.solve(a, y, sig).c
+    g = rng.standard_normal((12, 5))
+    inside = free + 0.5 * rng.standard_normal(5)          # a point that holds them all
+    h = g @ inside - rng.uniform(0.0, 0.3, 12)
+    assert np.any(g @ free < h)                          # the free fit breaks some
+    got = lsq.at_least(a, y, sig, g, h)
+    aw, yw = a / sig[:, None], y / sig
+
+    def f(x):
+        return float(np.sum((aw @ x - yw) ** 2))
+
+    ref = minimize(f, free, jac=lambda x: 2 * aw.T @ (aw @ x - yw), method="SLSQP",
+                   constraints=[{"type": "ineq", "fun": lambda x: g @ x - h, "jac": lambda x: g}],
+                   options={"ftol": 1e-12, "maxiter": 500})
+    assert ref.success, ref.message
+    assert np.all(g @ got.c >= h - 1e-9 * np.max(np.abs(h)))
+    assert f(got.c) == pytest.approx(ref.fun, rel=1e-8) and f(got.c) <= ref.fun * (1 + 1e-10)
+    nothing = np.vstack([g, 1e-17 * rng.standard_normal(5)])
+    again = lsq.at_least(a, y, sig, nothing, np.append(h, 7e-13))
+    np.testing.assert_allclose(again.c, got.c, rtol=1e-12, atol=1e-12)
+
+
 def jumps(form, r):
     """Relative jumps at every breakpoint of Cp, T dCp/dT, T² d2Cp/dT2, H, S (exported)."""
     f = forms.FORMS[form]

@@ -102,12 +102,24 @@ def solve(a, y, sigma, c=None, weights=None) -> Solution:
     return Solution(c=coef, residual=res, cov=basis @ cov_z @ basis.T, chi2=chi2, dof=dof)
 
 
+#: a row of G whose norm is below this fraction of the largest is no constraint on x: what
+#: it asks holds or fails whatever x is (a row fixed by equalities before, zero to rounding)
+NO_CONSTRAINT = 1e-12
+
+
 def at_least(a, y, sigma, g, h) -> Solution:
     """min ||(A x − y)/σ|| subject to G x ≥ h (A of full column rank), by Lawson & Hanson's
-    reduction to a least-distance problem solved with NNLS. The covariance is that of the
-    unconstrained problem (active constraints only narrow it)."""
+    reduction to a least-distance problem solved with NNLS. Rows of G that are zero to
+    rounding (NO_CONSTRAINT) are left out: with an h above zero by rounding they would ask
+    for an x without bound. The covariance is that of the unconstrained problem (active
+    constraints only narrow it)."""
     free = solve(a, y, sigma)
     g, h = np.asarray(g, dtype=float), np.asarray(h, dtype=float)
+    if len(h):
+        norms = np.linalg.norm(g, axis=1)
+        real = norms > NO_CONSTRAINT * norms.max()
+        if not real.all():
+            g, h = g[real], h[real]
     if not len(h) or np.all(g @ free.c >= h):
         return free
     w = 1.0 / np.asarray(sigma, dtype=float)

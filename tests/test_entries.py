@@ -286,3 +286,39 @@ def test_an_outline_put_back_follows_its_entry():
     assert list(Entries.of([entry]).outlines()) == [held.outline(entry)]    # made when not known
     with pytest.raises(ValueError, match="2 outlines for 1 entries"):
         Entries([("A(g)", b"{}")], outlines=[b"{}", b"{}"])
+
+
+FINDINGS = st.lists(st.builds(
+    lambda code, sev, msg, src, file, line, col, ack: {
+        "code": code, "severity": sev, "message": msg, "source": src, "file": file,
+        "line": line, "column": col, "seen": "", "expected": "", "fix": "", "lines": [],
+        "acknowledged": ack},
+    st.sampled_from(["FORM-NO-REFERENCE", "FIT-BREAKPOINT", "ROW-DUPLICATE", "SRC-LICENSE"]),
+    st.sampled_from(["error", "warning", "info"]), st.text(max_size=4),
+    st.sampled_from(["", "a", "b"]), st.sampled_from(["", "a/x.csv", "b/y.csv"]),
+    st.none() | st.integers(1, 5), st.sampled_from(["", "Cp"]), st.sampled_from(["", "ok"])),
+    max_size=5)
+
+
+@settings(max_examples=200, deadline=None)
+@given(FINDINGS, FINDINGS, FINDINGS)
+def test_findings_added_to_an_entry_read_as_the_entry_put_back_with_them(own, new, more):
+    """Entries.add_findings (the formation findings of a build, added without decoding the
+    entry) reads as the entry put back with the Finding objects merged and sorted, as the
+    build did before; dict_sort_key is Finding.sort_key."""
+    from thermoledger.core.findings import Finding, dict_sort_key
+
+    own = sorted(own, key=dict_sort_key)
+    for d in own + new + more:
+        assert dict_sort_key(d) == Finding.from_dict(d).sort_key()
+    entry = {"id": "A(g)", "findings": own}
+    kept = Entries.of([{"id": "Z(g)", "findings": []}, entry])
+    kept.add_findings(1, new)
+    kept.add_findings(-1, more)
+    merged = [Finding.from_dict(d) for d in own + new + more]
+    expected = {**entry, "findings": [f.to_dict() for f in sorted(merged,
+                                                                   key=lambda f: f.sort_key())]}
+    assert kept[1] == expected and list(kept)[1] == expected and kept[0:2][1] == expected
+    assert kept[0] == {"id": "Z(g)", "findings": []}
+    kept[1] = entry                        # put back: what was added goes
+    assert kept[1] == entry

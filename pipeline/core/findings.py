@@ -297,9 +297,8 @@ class Finding:
     def sort_key(self):
         """Sort order of findings: source, file, problems of reading the input before what
         follows from them (the root cause first), line, severity, code, column, message."""
-        return (self.source, self.file, not self.code.startswith(READING_PREFIXES),
-                self.line if self.line is not None else -1,
-                SEVERITY_ORDER[self.severity], self.code, self.column, self.message)
+        return _order(self.source, self.file, self.code, self.line, self.severity, self.column,
+                      self.message)
 
     def to_dict(self) -> dict:
         """The finding as written into findings.json and the library (``extra`` left out)."""
@@ -326,6 +325,17 @@ class Finding:
     def located(self, **fields) -> "Finding":
         """The same finding with ``fields`` (source, file, line, ...) replaced."""
         return replace(self, **fields)
+
+
+def _order(source, file, code, line, severity, column, message) -> tuple:
+    return (source, file, not code.startswith(READING_PREFIXES), line if line is not None else -1,
+            SEVERITY_ORDER[severity], code, column, message)
+
+
+def dict_sort_key(d: dict) -> tuple:
+    """``Finding.sort_key`` of the finding whose ``to_dict`` is ``d``."""
+    return _order(d["source"], d["file"], d["code"], d["line"], d["severity"], d["column"],
+                  d["message"])
 
 
 def clip(text, n: int = 60) -> str:

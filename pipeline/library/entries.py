@@ -55,7 +55,7 @@ class Entries(LazyList):
     give a fresh dict each time: changing it changes nothing held until it is put back
     (``entries[i] = entry``, into the spill when there is one)."""
 
-    __slots__ = ("_blobs", "_ids", "_index", "_spill", "_formulas", "_outlines")
+    __slots__ = ("_blobs", "_ids", "_index", "_spill", "_formulas", "_outlines", "_more")
 
     #: its items are read from JSON: each reads back as itself when written again
     from_json = True
@@ -70,7 +70,7 @@ class Entries(LazyList):
         for sid, blob in pairs:
             self._ids.append(sid)
             self._blobs.append(blob)
-        self._index, self._spill = None, spill
+        self._index, self._spill, self._more = None, spill, {}
         self._formulas = list(formulas) if formulas is not None else None
         self._outlines = list(outlines) if outlines is not None else None
         for name, known in (("formulas", self._formulas), ("outlines", self._outlines)):
@@ -94,21 +94,43 @@ class Entries(LazyList):
     def __len__(self) -> int:
         return len(self._blobs)
 
+    def _entry(self, i: int) -> dict:
+        entry = _loads(self._json(i))
+        more = self._more.get(i)
+        if more is not None:
+            from ..core.findings import dict_sort_key
+
+            entry["findings"] = sorted(entry["findings"] + _loads(self._held(more)),
+                                       key=dict_sort_key)
+        return entry
+
     def __getitem__(self, i):
         if isinstance(i, slice):
-            return [_loads(self._json(j)) for j in range(*i.indices(len(self)))]
-        return _loads(self._json(i))
+            return [self._entry(j) for j in range(*i.indices(len(self)))]
+        return self._entry(range(len(self))[i])
 
     def __setitem__(self, i: int, entry: dict) -> None:
+        i = range(len(self))[i]
         if entry["id"] != self._ids[i]:
             raise ValueError(f"entry {i} is {self._ids[i]}, not {entry['id']}")
         self._blobs[i] = self._put(compact(entry))
+        self._more.pop(i, None)
         if self._outlines is not None:
             self._outlines[i] = self._put(compact(outline(entry)))
 
     def __iter__(self):
         for i in range(len(self._blobs)):
-            yield _loads(self._json(i))
+            yield self._entry(i)
+
+    def add_findings(self, i: int, findings: list) -> None:
+        """Findings (as Finding.to_dict gives them) added to entry ``i`` without decoding it:
+        each time it is read, its findings are these and its own, sorted as a build sorts
+        them (the same entry as one put back with them merged, ``entries[i] = entry``)."""
+        if findings:
+            i = range(len(self))[i]
+            if i in self._more:
+                findings = _loads(self._held(self._more[i])) + list(findings)
+            self._more[i] = self._put(compact(findings))
 
     def ids(self) -> list:
         """The species ids, in order (nothing decoded)."""

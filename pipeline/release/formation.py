@@ -19,7 +19,7 @@ from ..core.constants import GAS_CONSTANT as R
 from ..core.errors import InputError
 from ..core.findings import Finding, finding, stage_failed
 from ..library import document, references
-from ..library.entries import ids_of
+from ..library.entries import Entries, ids_of
 from ..library.formation import Formation
 
 #: the library value and its uncertainty compared with a stated kind, and its unit
@@ -53,12 +53,15 @@ def attach(doc: dict, declared, tables, u_stated: float) -> list:
                 new[t.meta.species_id] += _cross_check(doc, form, t.meta, u_stated)
             except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
                 new[t.meta.species_id].append(stage_failed("formation", exc, **t.meta.where))
+    held = isinstance(species, Entries)
     for i, sid in enumerate(ids):
         if new[sid]:
-            sp = species[i]        # of Entries, a copy: put back
-            merged = [Finding.from_dict(d) for d in sp["findings"]] + new[sid]
-            sp["findings"] = [f.to_dict() for f in sorted(merged, key=lambda f: f.sort_key())]
-            species[i] = sp
+            if held:               # merged into the entry whenever it is read
+                species.add_findings(i, [f.to_dict() for f in new[sid]])
+            else:
+                sp = species[i]
+                merged = [Finding.from_dict(d) for d in sp["findings"]] + new[sid]
+                sp["findings"] = [f.to_dict() for f in sorted(merged, key=lambda f: f.sort_key())]
             out += new[sid]
     return out
 

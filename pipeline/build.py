@@ -13,7 +13,7 @@ import numpy as np
 
 from . import fit, ingest, partitions
 from .checks import acknowledge, reconcile, references, registry, transitions
-from .core import paths
+from .core import paths, units
 from .core.errors import FitError, OutputError
 from .core.findings import ERROR, INFO, by_subject, concerns, finding, stage_failed, subject
 from .core.processes import collector_paused, standby
@@ -260,11 +260,19 @@ def _warm_up(raw_dir: str, parts: int) -> None:
     """What the first partition a process computes loads before it starts (half a second):
     the checking and fitting modules with scipy, the unit registry, and every source.json
     read and parsed for a cut into ``parts`` partitions (partition 0's tables read too)."""
-    from .core import units
     from .fit import batched, extrapolate, species  # noqa: F401 - loaded, with scipy
 
     units.registry()
     ingest.ingest(raw_dir, partitions.Part(0, parts))
+
+
+def _pint_version() -> str:
+    import importlib.metadata as md
+
+    try:
+        return md.version("pint")
+    except md.PackageNotFoundError:
+        return "unknown"
 
 
 def _planned_build(raw_dir, out_dir, ctx, write, progress, wait, previous, cut, fresh):
@@ -274,6 +282,8 @@ def _planned_build(raw_dir, out_dir, ctx, write, progress, wait, previous, cut, 
     # a rebuild (several workers, partitions stored) has a process prepare itself to compute
     # a changed partition while this one finds out which partitions changed
     rebuild = not fresh and cut.workers > 1 and (real / partitions.STORE).is_dir()
+    if (real / partitions.STORE).is_dir():         # its processes read pint's definitions kept
+        units.keep_definitions(real / partitions.STORE / f"pint-{_pint_version()}")
     with publish.locked(real, wait), \
             (standby(_warm_up, str(raw_dir), cut.parts) if rebuild else nullcontext()) as ready:
         if previous is None:

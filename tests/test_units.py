@@ -118,3 +118,65 @@ def test_molar_masses_use_standard_atomic_weights(formula, expected, nonstandard
     c = chemistry.composition(formula)
     assert c.molar_mass == pytest.approx(expected, abs=2e-6)
     assert c.nonstandard == nonstandard
+
+
+def test_a_registry_from_kept_definitions_converts_as_one_read_afresh(tmp_path):
+    """units.keep_definitions (pint's own cache of its parsed definitions, which a build
+    keeps in its store of partitions): a registry made from the kept definitions converts
+    every unit of the tests to the same bits as one made afresh; a damaged cache is read
+    afresh. Run in fresh processes: the registry is made once per process."""
+    import subprocess
+    import sys
+
+    script = """
+import sys
+from thermoledger.core import units
+if sys.argv[1] != "-":
+    units.keep_definitions(sys.argv[1])
+for unit, kind in [("K", "temperature"), ("degC", "temperature"), ("degF", "temperature"),
+                   ("J/(mol*K)", "heat_capacity"), ("cal/(mol*K)", "heat_capacity"),
+                   ("kJ/kmol/K", "heat_capacity"), ("J/(g*K)", "heat_capacity"),
+                   ("kcal/mol", "enthalpy"), ("atm", "pressure")]:
+    print(units._affine(unit, kind))
+"""
+
+    def run(folder):
+        done = subprocess.run([sys.executable, "-c", script, str(folder)], capture_output=True,
+                              text=True, check=True)
+        return done.stdout
+
+    afresh = run("-")
+    kept = tmp_path / "pint"
+    assert run(kept) == afresh and any(kept.iterdir())       # made, then read
+    assert run(kept) == afresh
+    for path in kept.iterdir():
+        path.write_bytes(b"damaged")
+    assert run(kept) == afresh
+
+
+def test_a_rebuild_keeps_pint_definitions_in_its_store_of_partitions(tmp_path):
+    """The second build into a release home (its store of partitions there) keeps pint's
+    parsed definitions in the store, in a folder named by pint's version, and the third
+    reads them: the same release each time."""
+    import hashlib
+    import importlib.metadata as md
+    import shutil
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    raw, out = tmp_path / "raw", tmp_path / "out"
+    shutil.copytree(Path(__file__).resolve().parent.parent / "raw", raw)
+
+    def build():
+        subprocess.run([sys.executable, "-m", "thermoledger", "build", "--raw", str(raw),
+                        "--out", str(out), "--quiet", "--no-report"], check=True,
+                       capture_output=True)
+        lib = (out / "current" / "library.json").read_bytes()
+        return hashlib.sha256(lib).hexdigest()
+
+    first = build()
+    kept = out / ".parts" / f"pint-{md.version('pint')}"
+    assert not kept.exists()
+    assert build() == first and any(kept.iterdir())
+    assert build() == first

@@ -30,11 +30,29 @@ KINDS = {
 }
 
 
+#: the folder where the registry keeps pint's parsed unit definitions (``keep_definitions``)
+_KEPT = [None]
+
+
+def keep_definitions(folder) -> None:
+    """Have the registry, when this process makes it, keep pint's parsed unit definitions
+    in ``folder`` (pint's own cache, keyed by the definitions' content) and read them from
+    there the next time: 0.09 s becomes 0.01 s. A build sets it to a folder of its store of
+    partitions, named by pint's version, so that a rebuild's processes start sooner."""
+    _KEPT[0] = folder
+
+
 @lru_cache(maxsize=1)
 def registry():
-    """The one pint registry of the process (building it takes a few tenths of a second)."""
+    """The one pint registry of the process (building it takes a tenth of a second, a
+    hundredth with the definitions kept: ``keep_definitions``)."""
     import pint
 
+    if _KEPT[0] is not None:
+        try:
+            return pint.UnitRegistry(cache_folder=str(_KEPT[0]))
+        except Exception:  # noqa: BLE001 - a damaged cache: the definitions are read again
+            pass
     return pint.UnitRegistry()
 
 

@@ -301,18 +301,25 @@ FINDINGS = st.lists(st.builds(
 
 
 @settings(max_examples=200, deadline=None)
-@given(FINDINGS, FINDINGS, FINDINGS)
-def test_findings_added_to_an_entry_read_as_the_entry_put_back_with_them(own, new, more):
-    """Entries.add_findings (the formation findings of a build, added without decoding the
-    entry) reads as the entry put back with the Finding objects merged and sorted, as the
-    build did before; dict_sort_key is Finding.sort_key."""
+@given(FINDINGS, FINDINGS, FINDINGS, st.booleans())
+def test_findings_added_to_an_entry_read_as_the_entry_put_back_with_them(tmp_path_factory, own,
+                                                                         new, more, spilled):
+    """Entries.add_findings (the formation findings of a build; in a spill, added without
+    decoding the entry) reads as the entry put back with the Finding objects merged and
+    sorted, as the build did before; dict_sort_key is Finding.sort_key."""
     from thermoledger.core.findings import Finding, dict_sort_key
+    from thermoledger.core.spill import Spill
 
     own = sorted(own, key=dict_sort_key)
     for d in own + new + more:
         assert dict_sort_key(d) == Finding.from_dict(d).sort_key()
     entry = {"id": "A(g)", "findings": own}
-    kept = Entries.of([{"id": "Z(g)", "findings": []}, entry])
+    plain = [{"id": "Z(g)", "findings": []}, entry]
+    if spilled:
+        spill = Spill(tmp_path_factory.mktemp("spill"))
+        kept = Entries(((e["id"], spill.put(held.compact(e))) for e in plain), spill)
+    else:
+        kept = Entries.of(plain)
     kept.add_findings(1, new)
     kept.add_findings(-1, more)
     merged = [Finding.from_dict(d) for d in own + new + more]

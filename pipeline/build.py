@@ -445,10 +445,10 @@ def _lineage_only(fitted) -> list:
 def _held(spill, report: bool, result: partitions.PartResult) -> partitions.PartResult:
     """A partition's result as the build holds it until its release is written: its fitted
     species, their lineages, library entries and outlines, evaluated tables and report's
-    plot points in
-    the build's scratch file (core.spill.Spill; some 14 KB per species, 19 with the plot
-    points), only where they lie held; without a report, no plot points; no selections
-    (what follows needs none). The partition kept for the next build has them all."""
+    plot points in the build's scratch file (core.spill.Spill, one write for each kind;
+    some 14 KB per species, 19 with the plot points), only where they lie held; without a
+    report, no plot points; no selections (what follows needs none). The partition kept for
+    the next build has them all."""
     from .library.tables import spill_rows
 
     def put(pairs):

@@ -31,9 +31,9 @@ def compact(entry: dict) -> bytes:
     return bytes(memoryview(orjson.dumps(entry)))
 
 
-def _merged(own: list, added: list) -> list:
-    """An entry's findings with ``added`` ones, sorted as a build sorts findings (stable:
-    of equal keys, its own first)."""
+def merged_findings(own: list, added: list) -> list:
+    """An entry's findings (dicts, as Finding.to_dict gives them) with ``added`` ones,
+    sorted as a build sorts findings (stable: of equal keys, its own first)."""
     from ..core.findings import dict_sort_key
 
     return sorted(own + added, key=dict_sort_key)
@@ -107,7 +107,7 @@ class Entries(LazyList):
         entry = _loads(self._json(i))
         more = self._added(i)
         if more:
-            entry["findings"] = _merged(entry["findings"], more)
+            entry["findings"] = merged_findings(entry["findings"], more)
         return entry
 
     def _added(self, i: int) -> list:
@@ -147,7 +147,7 @@ class Entries(LazyList):
         i = range(len(self))[i]
         if self._spill is None:
             entry = self._entry(i)
-            entry["findings"] = _merged(entry["findings"], findings)
+            entry["findings"] = merged_findings(entry["findings"], findings)
             self[i] = entry
             return
         if self._more is None:

@@ -17,9 +17,9 @@ import numpy as np
 
 from ..core.constants import GAS_CONSTANT as R
 from ..core.errors import InputError
-from ..core.findings import Finding, finding, stage_failed
+from ..core.findings import finding, stage_failed
 from ..library import document, references
-from ..library.entries import Entries, ids_of
+from ..library.entries import Entries, ids_of, merged_findings
 from ..library.formation import Formation
 
 #: the library value and its uncertainty compared with a stated kind, and its unit
@@ -53,15 +53,13 @@ def attach(doc: dict, declared, tables, u_stated: float) -> list:
                 new[t.meta.species_id] += _cross_check(doc, form, t.meta, u_stated)
             except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
                 new[t.meta.species_id].append(stage_failed("formation", exc, **t.meta.where))
-    held = isinstance(species, Entries)
     for i, sid in enumerate(ids):
         if new[sid]:
-            if held:               # merged into the entry whenever it is read
-                species.add_findings(i, [f.to_dict() for f in new[sid]])
+            added = [f.to_dict() for f in new[sid]]
+            if isinstance(species, Entries):   # merged into the entry whenever it is read
+                species.add_findings(i, added)
             else:
-                sp = species[i]
-                merged = [Finding.from_dict(d) for d in sp["findings"]] + new[sid]
-                sp["findings"] = [f.to_dict() for f in sorted(merged, key=lambda f: f.sort_key())]
+                species[i]["findings"] = merged_findings(species[i]["findings"], added)
             out += new[sid]
     return out
 

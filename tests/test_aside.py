@@ -101,10 +101,16 @@ def test_files_written_aside_are_those_written_here(tmp_path, monkeypatch, aside
     """The demo with its report, built with library.json and tables.parquet written by the
     helper and by the build's own process: byte-identical releases, and the helper's files
     taken in."""
+    rendered = []
+    real = assemble.document.render_list
+    monkeypatch.setattr(assemble.document, "render_list",
+                        lambda *a: rendered.append(a[2]) or real(*a))
     aside = build.build(RAW, tmp_path / "aside")
     assert sorted(aside_always) == ["library.json", "tables.parquet"]
+    assert rendered == ["species"]       # the manifest's lineages made while the helper wrote
     monkeypatch.setattr(assemble, "ASIDE_FROM", 10 ** 9)
     here = build.build(RAW, tmp_path / "here")
+    assert rendered == ["species"]
     assert tree_hashes(tmp_path / "aside") == tree_hashes(tmp_path / "here")
     assert aside.files.sha256("tables.parquet") == here.files.sha256("tables.parquet")
 

@@ -199,6 +199,23 @@ def test_the_manifest_makes_each_lineage_when_written_and_checks_them_in_parts(
     with pytest.raises(OutputError, match=r"at species/3/form: 7 is not of type 'string' "
                                           r"\(1 problem\(s\) in species 2 to 3\)"):
         document.require_valid({**man, "species": bad}, "manifest.schema.json", "manifest.json")
+    # rendered ahead (release.document.render_list): checked the same way, written the same
+    from thermoledger.core.spill import Spill
+
+    spill = Spill(tmp_path)
+    for items in (man["species"], spilled["species"]):
+        ahead = document.render_list(items, "manifest.schema.json", "species",
+                                     "manifest.json", spill)
+        document.require_valid({**man, "species": ahead}, "manifest.schema.json",
+                               "manifest.json")
+        assert b"".join(document.json_chunks({**man, "species": ahead})) == \
+            b"".join(document.json_chunks(man))
+    with pytest.raises(OutputError, match=r"at species/3/form: 7 is not of type 'string' "
+                                          r"\(1 problem\(s\) in species 2 to 3\)"):
+        document.render_list(bad, "manifest.schema.json", "species", "manifest.json", spill)
+    with pytest.raises(OutputError, match="empty"):
+        document.render_list([], "manifest.schema.json", "species", "manifest.json", spill)
+    spill.close()
 
 
 @settings(max_examples=200, deadline=None)

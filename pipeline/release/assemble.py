@@ -3,7 +3,7 @@ tables, report, schemas, provenance, manifest and Data Package, as {relative pat
 
 import os
 from collections.abc import Sequence
-from contextlib import nullcontext
+from contextlib import ExitStack, contextmanager, nullcontext
 from dataclasses import dataclass
 
 import numpy as np
@@ -66,29 +66,54 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None
     say("write tables", 0, 0, "library.json, library.parquet, tables.parquet")
     if staging:
         processes.give_back_memory()         # before the helper forks: it shares less
-    with (processes.aside(aside_files, doc, own, out.table_step, staging.write_chunks)
-          if staging else nullcontext()) as helper:
-        document.release_files(doc, document.findings_document(outcome.findings), release)
-        if helper is None:
-            aside_files(doc, own, out.table_step, release.add_chunks)
-        if out.tables_csv:
-            release.update(tables.csv_files(doc, out.table_step))
-        for rel, summed in (helper.result() if helper else {}).items():
-            release.adopt(rel, summed)     # before the report's workers fork
-    if out.report:
-        report.report_files(doc, outcome.points, ctx.fit.accept_cp_max_rel, say=say,
-                            release=release, pages=pages.into(release) if pages else None)
-    say("write provenance", 0, 0, "provenance.json, manifest.json")
-    release.add_chunks("provenance.json", document.json_chunks(
-        provenance.prov_document(outcome.fitted, checked.inputs, release.outputs())))
-    man = provenance.manifest(outcome.fitted, outcome.quarantined, checked.inputs,
-                              release.outputs(), ctx.to_dict(), doc["build"]["inputs_sha256"])
-    document.require_valid(man, "manifest.schema.json", "manifest.json")
-    release.add_chunks("manifest.json", document.json_chunks(man))
+    with ExitStack() as kept:
+        species = None         # the manifest's lineages, when made ahead
+        with (processes.aside(aside_files, doc, own, out.table_step, staging.write_chunks)
+              if staging else nullcontext()) as helper:
+            document.release_files(doc, document.findings_document(outcome.findings), release)
+            if helper is None:
+                aside_files(doc, own, out.table_step, release.add_chunks)
+            else:       # while the helper writes: the manifest's lineages, checked, written
+                species = kept.enter_context(_lineages_ahead(outcome.fitted, release.folder))
+            if out.tables_csv:
+                release.update(tables.csv_files(doc, out.table_step))
+            for rel, summed in (helper.result() if helper else {}).items():
+                release.adopt(rel, summed)     # before the report's workers fork
+        if out.report:
+            report.report_files(doc, outcome.points, ctx.fit.accept_cp_max_rel, say=say,
+                                release=release,
+                                pages=pages.into(release) if pages else None)
+        say("write provenance", 0, 0, "provenance.json, manifest.json")
+        release.add_chunks("provenance.json", document.json_chunks(
+            provenance.prov_document(outcome.fitted, checked.inputs, release.outputs())))
+        man = provenance.manifest(outcome.fitted, outcome.quarantined, checked.inputs,
+                                  release.outputs(), ctx.to_dict(),
+                                  doc["build"]["inputs_sha256"], species)
+        document.require_valid(man, "manifest.schema.json", "manifest.json")
+        release.add_chunks("manifest.json", document.json_chunks(man))
     sources = {t.meta.source.id: t.meta.source for t in checked.tables}.values()
     release.add_chunks("datapackage.json", document.json_chunks(
         provenance.datapackage(release.outputs(), sources, document.NOTICE)))
     return release
+
+
+@contextmanager
+def _lineages_ahead(fitted, folder):
+    """The manifest's lineages of ``fitted``, checked and written ahead into a scratch file
+    in ``folder`` (release.document.render_list), for as long as the block lasts; None
+    when there are none."""
+    from ..core.spill import Spill
+
+    items = provenance.lineages(fitted)
+    if not len(items):
+        yield None
+        return
+    spill = Spill(folder)
+    try:
+        yield document.render_list(items, "manifest.schema.json", "species", "manifest.json",
+                                   spill)
+    finally:
+        spill.close()
 
 
 def aside_files(doc: dict, own, step: float, write) -> dict:

@@ -212,21 +212,74 @@ CHECKED_AT_ONCE = 512
 def require_valid(doc: dict, name: str, what: str) -> None:
     """Raise OutputError naming the first field where ``doc`` breaks schemas/``name``. Its
     top-level LazyLists (core.lazy) are checked CHECKED_AT_ONCE items at a time, never made
-    all at once; the rest of the document once."""
+    all at once; its Rendered lists were checked when they were made (``render_list``); the
+    rest of the document once."""
     lazy = {k: v for k, v in doc.items() if isinstance(v, LazyList)}
-    errors = schemas.errors_of({**doc, **{k: [] for k in lazy}} if lazy else doc, name)
+    done = {k for k, v in doc.items() if isinstance(v, Rendered)}
+    errors = schemas.errors_of({**doc, **{k: [] for k in lazy.keys() | done}}
+                               if lazy or done else doc, name)
     if errors:
         e = errors[0]
         raise OutputError(f"{what} would break schemas/{name} at {schemas.where(e)}: "
                           f"{e.message} ({len(errors)} problem(s))")
     for key, items in lazy.items():
         for start in range(0, len(items), CHECKED_AT_ONCE):
-            errors = schemas.part_errors(name, key, items[start:start + CHECKED_AT_ONCE], start)
-            if errors:
-                path, message = errors[0]
-                raise OutputError(f"{what} would break schemas/{name} at {path}: {message} "
-                                  f"({len(errors)} problem(s) in {key} {start} to "
-                                  f"{start + CHECKED_AT_ONCE - 1})")
+            _require_part(items[start:start + CHECKED_AT_ONCE], name, key, start, what)
+
+
+def _require_part(part: list, name: str, key: str, start: int, what: str) -> None:
+    """OutputError unless items ``start`` onwards of list ``key`` of a document of
+    schemas/``name`` follow it."""
+    errors = schemas.part_errors(name, key, part, start)
+    if errors:
+        path, message = errors[0]
+        raise OutputError(f"{what} would break schemas/{name} at {path}: {message} "
+                          f"({len(errors)} problem(s) in {key} {start} to "
+                          f"{start + CHECKED_AT_ONCE - 1})")
+
+
+class Rendered:
+    """The top-level list of a document, checked against its schema and written as
+    ``json_chunks`` writes it (from its "[" to its "]") ahead of the rest of the document
+    (``render_list``); ``json_chunks`` writes these bytes again, read back from the
+    core.spill.Spill that holds them, and ``require_valid`` does not check it again."""
+
+    def __init__(self, spill, where: list, items):
+        self._spill, self._where, self.items = spill, where, items
+
+    def __len__(self) -> int:
+        return len(self.items)
+
+    def pieces(self):
+        """Its bytes, a piece at a time."""
+        for offset, size in self._where:
+            yield self._spill.get(offset, size)
+
+
+def render_list(items, name: str, key: str, what: str, spill) -> Rendered:
+    """The non-empty top-level list ``items`` (a list or core.lazy.LazyList) of the list
+    ``key`` of a document of schemas/``name`` (``what`` names it in errors), checked and
+    written into ``spill`` CHECKED_AT_ONCE items at a time, each item read once: the bytes
+    ``json_chunks`` would write for it, made while another process writes other files."""
+    import orjson
+
+    indent = orjson.OPT_INDENT_2
+    trusted = getattr(items, "from_json", False)
+    n, where, first = len(items), [], b"[\n"
+    if not n:
+        raise OutputError(f"/{key} of {what} is empty: nothing to render")
+    for start in range(0, n, CHECKED_AT_ONCE):
+        part = items[start:start + CHECKED_AT_ONCE]
+        _require_part(part, name, key, start, what)
+        out = [first]
+        for j, value in enumerate(part, start):
+            if not trusted:
+                _written_as_read(value, f"/{key}/{j}")
+            out.append(b"    " + orjson.dumps(value, option=indent).replace(b"\n", b"\n    ")
+                       + (b",\n" if j + 1 < n else b"\n  ]"))
+        where += spill.put_many([b"".join(out)])
+        first = b""
+    return Rendered(spill, where, items)
 
 
 def require_valid_library(doc: dict) -> None:
@@ -262,7 +315,8 @@ def json_chunks(doc):
     import orjson
 
     indent = orjson.OPT_INDENT_2
-    lists = {k: v for k, v in doc.items() if isinstance(v, (list, LazyList, LazyMapping))
+    lists = {k: v for k, v in doc.items() if isinstance(v, (list, LazyList, LazyMapping,
+                                                            Rendered))
              and len(v)} if isinstance(doc, dict) else {}
     marks = {k: f"\0thermoledger-list-{i}\0" for i, k in enumerate(lists)}
     head = {k: marks[k] if k in marks else _made(v) for k, v in doc.items()} \
@@ -276,6 +330,10 @@ def json_chunks(doc):
         text = orjson.dumps(doc, option=indent | orjson.OPT_APPEND_NEWLINE)
     for key, items in lists.items():
         before, text = text.split(orjson.dumps(marks[key]), 1)
+        if isinstance(items, Rendered):       # its bytes made before
+            yield before
+            yield from items.pieces()
+            continue
         pairs = isinstance(items, LazyMapping)
         yield before + (b"{\n" if pairs else b"[\n")
         n, i = len(items), -1
@@ -292,7 +350,9 @@ def json_chunks(doc):
 
 
 def _made(value):
-    """``value``, a LazyList or LazyMapping made whole (a list, a dict)."""
+    """``value``, a LazyList, LazyMapping or Rendered made whole (a list, a dict)."""
+    if isinstance(value, Rendered):
+        return list(value.items)
     if isinstance(value, LazyList):
         return list(value)
     return dict(value.items()) if isinstance(value, LazyMapping) else value

@@ -70,11 +70,19 @@ def _output(output) -> dict:
     return {"path": path, "sha256": digest, "size": size}
 
 
-def manifest(fitted, quarantined, inputs, outputs, settings: dict, inputs_digest: str) -> dict:
-    """The manifest document; ``outputs`` is [(path, sha256, size)] of every other output.
-    The lineage of each species is made when it is read (core.lazy.Derived: written and
-    checked a part at a time, never held for every species at once), or read from the
-    compact JSON a HeldFitted holds."""
+def lineages(fitted):
+    """The manifest's lineage of each species of ``fitted``, in order: made when read
+    (core.lazy.Derived: written and checked a part at a time, never held for every species
+    at once), or read from the compact JSON a HeldFitted holds."""
+    return fitted.lineages if isinstance(fitted, HeldFitted) else \
+        Derived(in_order(fitted), lineage)
+
+
+def manifest(fitted, quarantined, inputs, outputs, settings: dict, inputs_digest: str,
+             species=None) -> dict:
+    """The manifest document; ``outputs`` is [(path, sha256, size)] of every other output;
+    ``species`` the ``lineages`` of ``fitted`` when already made (release.document.Rendered),
+    else they are."""
     return {
         "manifest_format": 1,
         "pipeline_version": __version__,
@@ -83,8 +91,7 @@ def manifest(fitted, quarantined, inputs, outputs, settings: dict, inputs_digest
         "inputs_sha256": inputs_digest,
         "inputs": [{"path": f.path, "sha256": f.sha256, "size": f.size} for f in inputs],
         "outputs": Derived(outputs, _output),
-        "species": fitted.lineages if isinstance(fitted, HeldFitted) else
-        Derived(in_order(fitted), lineage),
+        "species": lineages(fitted) if species is None else species,
         "quarantined": [{"id": m.species_id, "file": m.file,
                          "codes": sorted({f.code for f in reasons})}
                         for m, reasons in sorted(quarantined, key=lambda q: (q[0].file,))],

@@ -578,3 +578,22 @@ def test_what_a_listed_file_gives_a_key_is_told_from_one_look_at_it(tmp_path, mo
     assert partitions._file_digest(raw / "out" / "c.csv", real) == "outside"
     monkeypatch.setattr(partitions, "MAX_TABLE_BYTES", 10)
     assert partitions._file_digest(table, real) == f"size:{table.stat().st_size}"
+
+
+def test_the_paths_a_key_lists_are_pathlib_s_recursive_listing(tmp_path):
+    """partitions.listed_paths (one os.walk) lists what sorted(rglob("*")) lists: hidden
+    files, empty and nested folders, links to files and to folders (not followed), broken
+    links and a link that loops."""
+    raw = tmp_path / "raw"
+    (raw / "a" / "deep" / "deeper").mkdir(parents=True)
+    (raw / "empty").mkdir()
+    (raw / "a" / "t.csv").write_text("x")
+    (raw / "a" / ".hidden").write_text("x")
+    (raw / "a" / "deep" / "deeper" / "u.csv").write_text("x")
+    (raw / "link.csv").symlink_to("a/t.csv")
+    (raw / "folder-link").symlink_to("a", target_is_directory=True)
+    (raw / "broken").symlink_to("nowhere")
+    (raw / "a" / "loop").symlink_to("..", target_is_directory=True)
+    expected = sorted(str(p.relative_to(raw)) for p in raw.rglob("*"))
+    assert partitions.listed_paths(raw) == expected
+    assert "folder-link" in expected and "folder-link/t.csv" not in expected

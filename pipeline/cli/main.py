@@ -207,9 +207,26 @@ def _run(args) -> int:
         print(f"thermoledger {args.command}: {stop.name}", file=sys.stderr)
         return 128 + stop.signum
     except Exception as exc:  # noqa: BLE001 - the last net: one line, never a traceback
+        stop = _interrupt_behind(exc)
+        if stop is not None:
+            print(f"thermoledger {args.command}: {stop.name}", file=sys.stderr)
+            return 128 + stop.signum
         print(f"thermoledger {args.command}: internal error ({type(exc).__name__}: {exc}); "
               "please report it with the command that caused it", file=sys.stderr)
         return 3
+
+
+def _interrupt_behind(exc):
+    """The Interrupted that caused ``exc``, when one did: Python 3.11 wraps what a class
+    body's __set_name__ raises in a RuntimeError, so that a Ctrl-C arriving while a module
+    defines a dataclass reaches the command as that RuntimeError."""
+    seen = set()
+    while exc is not None and id(exc) not in seen:
+        if isinstance(exc, Interrupted):
+            return exc
+        seen.add(id(exc))
+        exc = exc.__cause__ or exc.__context__
+    return None
 
 
 if __name__ == "__main__":

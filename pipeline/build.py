@@ -14,7 +14,7 @@ import numpy as np
 from . import fit, ingest, partitions
 from .checks import acknowledge, reconcile, references, registry, transitions
 from .core import paths, units
-from .core.errors import FitError, OutputError
+from .core.errors import FitError, OutputError, let_through
 from .core.findings import ERROR, INFO, by_subject, concerns, finding, stage_failed, subject
 from .core.processes import collector_paused, standby
 from .core.records import CheckResult, CpData, FittedSpecies, SpeciesIdentity, Table
@@ -137,7 +137,8 @@ def batch_searched(order, ctx: Settings, previous: dict, chained) -> dict:
         try:
             item = (sid, SpeciesIdentity.of_table(meta), CpData.of_rows(sel.data),
                     for_table(ctx.fit, meta.fit_overrides), previous.get(sid))
-        except Exception:  # noqa: BLE001 - fit_selection reports what is wrong
+        except Exception as exc:  # noqa: BLE001 - fit_selection reports what is wrong
+            let_through(exc)
             continue
         items[sid] = item
     return {sid: (items[sid][2], items[sid][3], *got)
@@ -337,6 +338,7 @@ def _fit_all(checked: CheckResult, ctx: Settings, say, previous: dict):
             for f in notes:
                 about.setdefault(meta.file, []).append(f)
         except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
+            let_through(exc)
             f = _fit_failure(exc, meta)
             findings.append(f)
             quarantined.append((meta, (f,)))
@@ -361,6 +363,7 @@ def _fit_all(checked: CheckResult, ctx: Settings, say, previous: dict):
             if bad:
                 raise FitError(sid, f"the fitted entry holds a non-finite number at {bad}")
         except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
+            let_through(exc)
             f = _fit_failure(exc, done_.table.meta)
             findings.append(f)
             quarantined.append((done_.table.meta, (f,)))

@@ -26,6 +26,7 @@ from functools import lru_cache, partial
 from pathlib import Path
 
 from .core import paths
+from .core.errors import let_through
 from .core.limits import MAX_SOURCE_BYTES, MAX_TABLE_BYTES
 from .core.names import species_name
 from .core.processes import aside, collector_paused, without_collector, worker_pool
@@ -466,7 +467,8 @@ class PartStore:
         try:
             with open(self._path(k), "rb") as fh:
                 fmt, key, result = pickle.load(fh)
-        except Exception:  # noqa: BLE001 - a missing or damaged file is recomputed
+        except Exception as exc:  # noqa: BLE001 - a missing or damaged file is recomputed
+            let_through(exc)
             return None
         return result if (fmt, key) == (STORE_FORMAT, self.keys[k]) else None
 

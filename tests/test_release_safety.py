@@ -579,3 +579,33 @@ def test_without_syncfs_every_file_is_fsynced(tmp_path, monkeypatch):
     assert len(fsyncs) == 2
     if os.path.exists("/proc/self/fd"):
         assert fsyncs == [str(tmp_path / "d" / "x"), str(tmp_path / "y")]
+
+
+def test_an_interrupt_wrapped_by_python_passes_the_stages_nets(monkeypatch):
+    """The nets that turn a table's unexpected exception into its finding let an interrupt
+    behind it through (core.errors.let_through): a Ctrl-C wrapped while a stage imported a
+    module stops the build; a plain exception is still the table's STAGE-FAILED finding."""
+    from thermoledger import build
+    from thermoledger.checks import registry
+    from thermoledger.core.errors import let_through
+
+    def wrapped(*args, **kwargs):
+        try:
+            raise KeyboardInterrupt
+        except KeyboardInterrupt as stop:
+            raise RuntimeError("Error calling __set_name__") from stop
+
+    monkeypatch.setattr(registry, "_validate_table", wrapped)
+    with pytest.raises(KeyboardInterrupt):
+        build.examine(PROJECT / "raw", workers=1)
+    monkeypatch.setattr(registry, "_validate_table", lambda *a, **k: 1 / 0)
+    got = build.examine(PROJECT / "raw", workers=1)
+    assert any(f.code == "STAGE-FAILED" and "ZeroDivisionError" in f.message
+               for f in got.findings)
+    let_through(ValueError("alone"))                        # nothing behind: nothing raised
+    outer = RuntimeError("outer")
+    outer.__cause__ = OSError("inner")
+    let_through(outer)                                      # an Exception behind: nothing
+    outer.__cause__.__context__ = SystemExit(4)
+    with pytest.raises(SystemExit):                         # an exit two steps behind
+        let_through(outer)

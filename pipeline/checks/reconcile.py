@@ -23,6 +23,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..core.errors import let_through
 from ..core.findings import by_subject, finding, stage_failed
 from ..core.records import first_of_each_t
 from ..core.rows import Rows, concat
@@ -171,6 +172,7 @@ def reconcile(accepted, findings, ctx):
         try:
             sel, notes, dropped = _select(sid, groups[sid], about, ctx)
         except Exception as exc:  # noqa: BLE001 - one bad species never stops the rest
+            let_through(exc)
             for table in groups[sid]:
                 f = stage_failed("reconcile", exc, **table.meta.where)
                 new.append(f)

@@ -11,6 +11,7 @@ A table with any error finding is quarantined by the build; warnings travel with
 the species.
 """
 
+from ..core.errors import let_through
 from ..core.findings import ERROR, by_subject, concerns, stage_failed
 from ..core.records import Table
 from ..core.settings import Settings
@@ -69,6 +70,7 @@ def validate_table(table: Table, ctx: Settings = Settings(), prior=()):
     try:
         found = _validate_table(table, ctx, prior)
     except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
+        let_through(exc)
         found = [stage_failed("validate", exc, **table.meta.where)]
     if not table.meta.shared:
         return found

@@ -94,3 +94,18 @@ class SpeciesNotFound(ThermoledgerError, KeyError):
                     + ", ".join(self.candidates))
         hint = f"; did you mean {', '.join(self.candidates)}?" if self.candidates else ""
         return f"species '{self.name}' is not in the library{hint}"
+
+
+def let_through(exc: BaseException) -> None:
+    """Raise again an interrupt or exit (a BaseException that is no Exception) behind
+    ``exc``, when there is one; every net for Exception calls it first. Python 3.11 wraps
+    what a class body's __set_name__ raises in a RuntimeError, so that a Ctrl-C arriving
+    while a module is imported reaches such a net wrapped: it must stop the command, not
+    become a table's finding."""
+    seen = set()
+    behind = exc.__cause__ or exc.__context__
+    while behind is not None and id(behind) not in seen:
+        if not isinstance(behind, Exception):
+            raise behind
+        seen.add(id(behind))
+        behind = behind.__cause__ or behind.__context__

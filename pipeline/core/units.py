@@ -17,7 +17,7 @@ from functools import lru_cache
 
 import numpy as np
 
-from .errors import UnitError
+from .errors import UnitError, let_through
 from .limits import MAX_UNIT_EXPONENT, MAX_UNIT_LENGTH
 
 #: column kind -> (molar dimensionality, mass-based dimensionality or None, SI unit)
@@ -51,8 +51,8 @@ def registry():
     if _KEPT[0] is not None:
         try:
             return pint.UnitRegistry(cache_folder=str(_KEPT[0]))
-        except Exception:  # noqa: BLE001 - a damaged cache: the definitions are read again
-            pass
+        except Exception as exc:  # noqa: BLE001 - a damaged cache: read the definitions again
+            let_through(exc)
     return pint.UnitRegistry()
 
 

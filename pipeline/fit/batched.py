@@ -19,6 +19,7 @@ why; so is every species of a chunk whose batched call raises.
 
 import numpy as np
 
+from ..core.errors import let_through
 from ..physics import forms
 from . import breakchoice, species
 
@@ -37,7 +38,8 @@ def choices(items) -> dict:
         try:
             prepared[key] = species.prepare(who, data, settings)
             searches = prepared[key].searches(data)
-        except Exception:  # noqa: BLE001 - the per-species path reports what is wrong
+        except Exception as exc:  # noqa: BLE001 - the per-species path reports what is wrong
+            let_through(exc)
             prepared.pop(key, None)
             continue
         for role, (t, y, sig) in searches.items():
@@ -54,7 +56,8 @@ def choices(items) -> dict:
                 got = breakchoice.choose_many(chunk[0][1], np.array([m[2] for m in chunk]),
                                               np.array([m[3] for m in chunk]), form,
                                               settings, [m[4] for m in chunk])
-            except Exception:  # noqa: BLE001 - searched alone, each reports what is wrong
+            except Exception as exc:  # noqa: BLE001 - searched alone, each reports what is wrong
+                let_through(exc)
                 continue
             chosen.update((m[0], g) for m, g in zip(chunk, got) if not isinstance(g, ValueError))
     out = {key: (prep, {}) for key, prep in prepared.items()}

@@ -13,7 +13,7 @@ from pathlib import Path
 from typing import NamedTuple
 
 from ..core import chemistry, jsonread, paths, phases, schemas, units
-from ..core.errors import InputError
+from ..core.errors import InputError, let_through
 from ..core.findings import Finding, clip, finding, stage_failed
 from ..core.limits import ANCHOR_RANGE, MAX_SOURCE_BYTES, MAX_TABLE_BYTES, MAX_TABLES_PER_SOURCE
 from ..core.names import sha256, species_name
@@ -290,6 +290,7 @@ def _guarded_read(folder, entry, source, raw_dir, index, reader=read_table):
     try:
         return reader(folder, entry, source, raw_dir, index)
     except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
+        let_through(exc)
         rel = f"{source.folder}/{entry.get('file', '?')}"
         return [], None, [stage_failed("ingest", exc, source=source.id, file=rel)]
 

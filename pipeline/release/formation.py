@@ -16,7 +16,7 @@ import math
 import numpy as np
 
 from ..core.constants import GAS_CONSTANT as R
-from ..core.errors import InputError
+from ..core.errors import InputError, let_through
 from ..core.findings import finding, stage_failed
 from ..library import document, references
 from ..library.entries import Entries, ids_of, merged_findings
@@ -52,6 +52,7 @@ def attach(doc: dict, declared, tables, u_stated: float) -> list:
             try:
                 new[t.meta.species_id] += _cross_check(doc, form, t.meta, u_stated)
             except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
+                let_through(exc)
                 new[t.meta.species_id].append(stage_failed("formation", exc, **t.meta.where))
     for i, sid in enumerate(ids):
         if new[sid]:

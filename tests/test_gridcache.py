@@ -2,6 +2,8 @@
 functions, give numpy's own numbers to the last bit: a table's findings do not depend on
 which tables were checked before it."""
 
+import warnings
+
 import numpy as np
 import pytest
 from hypothesis import given, settings
@@ -21,10 +23,16 @@ def test_the_median_is_numpy_s_to_the_last_bit(values):
 
 
 def _polyfit_at_end(x, y, j, k=5):
-    """The reference: np.polyfit through the k inner rows next to end row j, at x[j]."""
+    """The reference: np.polyfit through the k inner rows next to end row j, at x[j]. Rows
+    of nearly the same temperature make numpy warn that the fit may be poorly conditioned
+    (RankWarning, or overflow in its coefficients; an intermittent "1 warning" of the test
+    run): the numbers compared are the same, the warning is the reference's."""
     idx = np.arange(1, k + 1) if j == 0 else np.arange(len(x) - 1 - k, len(x) - 1)
     idx = idx[(idx >= 0) & (idx < len(x))]
-    return float(np.polyval(np.polyfit(x[idx] - x[j], y[idx], min(2, len(idx) - 1)), 0.0))
+    with warnings.catch_warnings(), np.errstate(all="ignore"):
+        warnings.simplefilter("ignore", np.exceptions.RankWarning)
+        return float(np.polyval(np.polyfit(x[idx] - x[j], y[idx], min(2, len(idx) - 1)),
+                                0.0))
 
 
 @settings(max_examples=200, deadline=None)

@@ -93,3 +93,20 @@ def test_objects_in_a_spill_are_unpickled_when_read(tmp_path):
     assert spill.put_many([]) == [] and spill.put_objects([]) == []
     assert held["b"] == {} and held["a"]["dh"][1].tolist() == [1.0, 1.0]
     assert held["a"] is not held["a"]                   # a fresh object at each read
+
+
+def test_a_spill_nobody_reads_any_more_is_closed_without_a_warning(tmp_path):
+    """The build's scratch file goes with the last object that reads it (a build's result):
+    no ResourceWarning for an unclosed file, and nothing left in the folder."""
+    import gc
+    import warnings
+
+    with warnings.catch_warnings(record=True) as seen:
+        warnings.simplefilter("always")
+        spill = Spill(tmp_path)
+        where = spill.put(b"entry")
+        assert spill.get(*where) == b"entry"
+        del spill
+        gc.collect()
+    assert not [w for w in seen if issubclass(w.category, ResourceWarning)]
+    assert os.listdir(tmp_path) == []

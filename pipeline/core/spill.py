@@ -63,6 +63,13 @@ class Spill:
     def close(self) -> None:
         self._file.close()
 
+    def __del__(self):
+        # the file goes with the last reader of what it holds (a build's result): closed
+        # here, it is not left to the file object's own finaliser, which warns
+        file = getattr(self, "_file", None)
+        if file is not None:
+            file.close()
+
 
 class SpilledObjects(Mapping):
     """{key: object} of objects this process pickled into a Spill (``put_object``), each

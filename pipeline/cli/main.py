@@ -7,7 +7,7 @@ import json
 import signal
 import sys
 
-from ..core.errors import InputError, ThermoledgerError
+from ..core.errors import InputError, ThermoledgerError, chain_of
 from ..core.paths import write_atomic
 from ..library import document as library
 from ..library.entries import by_id as entries_by_id
@@ -220,13 +220,7 @@ def _interrupt_behind(exc):
     """The Interrupted that caused ``exc``, when one did: Python 3.11 wraps what a class
     body's __set_name__ raises in a RuntimeError, so that a Ctrl-C arriving while a module
     defines a dataclass reaches the command as that RuntimeError."""
-    seen = set()
-    while exc is not None and id(exc) not in seen:
-        if isinstance(exc, Interrupted):
-            return exc
-        seen.add(id(exc))
-        exc = exc.__cause__ or exc.__context__
-    return None
+    return next((e for e in chain_of(exc) if isinstance(e, Interrupted)), None)
 
 
 if __name__ == "__main__":

@@ -102,10 +102,16 @@ def let_through(exc: BaseException) -> None:
     what a class body's __set_name__ raises in a RuntimeError, so that a Ctrl-C arriving
     while a module is imported reaches such a net wrapped: it must stop the command, not
     become a table's finding."""
-    seen = set()
-    behind = exc.__cause__ or exc.__context__
-    while behind is not None and id(behind) not in seen:
+    for behind in chain_of(exc)[1:]:
         if not isinstance(behind, Exception):
             raise behind
-        seen.add(id(behind))
-        behind = behind.__cause__ or behind.__context__
+
+
+def chain_of(exc: BaseException) -> list:
+    """``exc`` and what caused it, each once: its __cause__, else its __context__, in turn."""
+    out, seen = [], set()
+    while exc is not None and id(exc) not in seen:
+        out.append(exc)
+        seen.add(id(exc))
+        exc = exc.__cause__ or exc.__context__
+    return out

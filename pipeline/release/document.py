@@ -261,9 +261,6 @@ def render_list(items, name: str, key: str, what: str, spill) -> Rendered:
     ``key`` of a document of schemas/``name`` (``what`` names it in errors), checked and
     written into ``spill`` CHECKED_AT_ONCE items at a time, each item read once: the bytes
     ``json_chunks`` would write for it, made while another process writes other files."""
-    import orjson
-
-    indent = orjson.OPT_INDENT_2
     trusted = getattr(items, "from_json", False)
     n, where, first = len(items), [], b"[\n"
     if not n:
@@ -275,8 +272,7 @@ def render_list(items, name: str, key: str, what: str, spill) -> Rendered:
         for j, value in enumerate(part, start):
             if not trusted:
                 _written_as_read(value, f"/{key}/{j}")
-            out.append(b"    " + orjson.dumps(value, option=indent).replace(b"\n", b"\n    ")
-                       + (b",\n" if j + 1 < n else b"\n  ]"))
+            out.append(_item_bytes(None, value, b",\n" if j + 1 < n else b"\n  ]"))
         where += spill.put_many([b"".join(out)])
         first = b""
     return Rendered(spill, where, items)
@@ -342,11 +338,19 @@ def json_chunks(doc):
             if not getattr(items, "from_json", False):
                 _written_as_read(value, f"/{key}/{name if pairs else i}")
             sep = b",\n" if i + 1 < n else (b"\n  }" if pairs else b"\n  ]")
-            yield b"    " + (orjson.dumps(name) + b": " if pairs else b"") + \
-                orjson.dumps(value, option=indent).replace(b"\n", b"\n    ") + sep
+            yield _item_bytes(name, value, sep)
         if i + 1 != n:
             raise OutputError(f"/{key} gave {i + 1} items where it counted {n}")
     yield text
+
+
+def _item_bytes(name, value, sep: bytes) -> bytes:
+    """One item of a top-level list (``name`` None) or map of a document as ``json_chunks``
+    writes it: indented by two levels, followed by ``sep``."""
+    import orjson
+
+    return b"    " + (orjson.dumps(name) + b": " if name is not None else b"") + \
+        orjson.dumps(value, option=orjson.OPT_INDENT_2).replace(b"\n", b"\n    ") + sep
 
 
 def _made(value):

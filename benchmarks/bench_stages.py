@@ -4,8 +4,9 @@
 
 On the synthetic catalogue of bench_build.py (thermoledger.testing.catalogue), one
 partition worked in this process as a build's workers work it (build._build_part), stage by
-stage, after a first run that loads the libraries; prints the wall time of each stage
-[ms per species] and their sum, best of --repeat runs:
+stage (with --range-of-use LO HI, every species extrapolated to that range), after a first
+run that loads the libraries; prints the wall time of each stage [ms per species] and their
+sum, best of --repeat runs:
 
 * read: the source.json files and tables (ingest.ingest);
 * check: the per-table checks (checks.registry.validate);
@@ -25,6 +26,7 @@ import argparse
 import sys
 import tempfile
 import time
+from dataclasses import replace
 from pathlib import Path
 
 from thermoledger import build, ingest, partitions
@@ -64,8 +66,13 @@ def main(argv=None) -> int:
     p = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     p.add_argument("--species", type=int, default=1000)
     p.add_argument("--repeat", type=int, default=3)
+    p.add_argument("--range-of-use", type=float, nargs=2, metavar=("LO", "HI"),
+                   help="extrapolate every species to this range of use [K]")
     args = p.parse_args(argv)
     ctx = Settings(outputs=OutputSettings(report=False))
+    if args.range_of_use:
+        ctx = replace(ctx, fit=replace(ctx.fit, use_t_min=args.range_of_use[0],
+                                       use_t_max=args.range_of_use[1]))
     with tempfile.TemporaryDirectory() as tmp:
         raw = Path(tmp)
         write_catalogue(raw, args.species)

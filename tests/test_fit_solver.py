@@ -215,3 +215,66 @@ def test_failing_fit_is_reported_not_exported(tmp_path, capsys):
     assert [s["id"] for s in lib["species"]] == ["CH4b(g)"]       # the nasa9 override passes
     assert lib["species"][0]["form"] == "nasa9" and len(lib["species"][0]["ranges"]) == 3
     assert lib["quarantined"][0]["reasons"][0]["code"] == "FIT-REJECTED"
+
+
+@pytest.mark.parametrize("form", ["nasa7", "nasa9", "shomate"])
+def test_values_of_stacked_coefficients_are_those_of_the_rows(form):
+    """basis.values (Cp/R and its slope without the other ranges' zero columns), used to
+    check a fit beyond the data, gives the numbers of cp_rows @ c and slope_rows @ c to
+    rounding, on one range, across breakpoints and at a breakpoint itself."""
+    powers = forms.FORMS[form].powers
+    rng = np.random.default_rng(7)
+    bps = [700.0, 1500.0]
+    c = rng.uniform(-1.0, 1.0, 3 * len(powers))
+    for t in (np.geomspace(2000.0, 6000.0, 400), np.geomspace(200.0, 6000.0, 401),
+              np.array([700.0]), np.array([200.0, 700.0, 1500.0, 6000.0])):
+        for deriv, rows in ((0, basis.cp_rows), (1, basis.slope_rows)):
+            want = rows(powers, t, bps) @ c
+            got = basis.values(powers, t, bps, c, deriv)
+            np.testing.assert_allclose(got, want, rtol=1e-12, atol=1e-12 * np.abs(want).max())
+
+
+@pytest.mark.parametrize("order", [0, 1, 2])
+def test_the_join_s_projector_and_null_space_keep_the_join_exact(order):
+    """beyond._join: P c meets every continuity condition of c at tn (K P c = K c), and every
+    direction of N leaves them alone (K N = 0, N orthonormal), so the joined range is
+    continuous whatever its free part."""
+    from thermoledger.fit import beyond
+
+    powers = forms.FORMS["nasa9"].powers
+    tn = 3000.0
+    project, null = beyond._join(tuple(powers), tn, order)
+    k = np.vstack([basis.powers_row(powers, tn / forms.T_SCALE, d) for d in range(order + 1)])
+    c = np.random.default_rng(order).uniform(-1.0, 1.0, len(powers))
+    np.testing.assert_allclose(k @ (project @ c), k @ c, rtol=1e-12)
+    assert null.shape == (len(powers), len(powers) - order - 1)
+    np.testing.assert_allclose(k @ null, 0.0, atol=1e-12 * np.abs(k).max())
+    np.testing.assert_allclose(null.T @ null, np.eye(null.shape[1]), atol=1e-13)
+
+
+def test_a_fit_whose_cp_turns_negative_inside_the_range_of_use_is_rejected_where_it_does():
+    """The positivity check of a fit (species._judge) looks at a fine grid of the whole range
+    of use, not only the data: Cp/R = 2 − 2 τ fits rows up to 900 K but is zero at 1000 K
+    and negative above; the rejection names the first grid temperature at or past 1000 K."""
+    from thermoledger.core.errors import FitRejected
+    from thermoledger.core.records import CpData, FitRange, SpeciesIdentity
+    from thermoledger.fit import species
+
+    form = forms.FORMS["nasa7"]
+    c = np.array([2.0, -2.0, 0.0, 0.0, 0.0])
+    cp_coeffs = [form.cp_coefficients(c)]
+    h0, s0 = species.integration_constants(form, cp_coeffs, [200.0, 1500.0], 0.0, 200.0)
+    ranges = (FitRange(200.0, 1500.0, tuple(form.pack(cp_coeffs[0], h0[0], s0[0], 0.0))),)
+    t = np.linspace(200.0, 900.0, 15)
+    cov = np.eye(5) * 1e-12
+    solved = species.Solved(form=form, ranges=ranges, breakpoints=(),
+                            solution=lsq.Solution(c=c, residual=np.zeros(15), cov=cov, chi2=1.0,
+                                                  dof=10),
+                            extensions=(), notes=(), weighting="relative", covariance=cov,
+                            model_error=({"cp": 0.0, "h": 0.0, "s": 0.0},),
+                            covariance_scale=1.0, choice=None)
+    data = CpData(t=t, cp=R * (2.0 - 2.0 * t / 1000.0))
+    with pytest.raises(FitRejected, match="not positive") as got:
+        species._judge(SpeciesIdentity("X(g)", 0.0, 200.0), solved, data, FitSettings())
+    bad = float(got.value.reason.split(" at ")[1].split(" K")[0])
+    assert 1000.0 <= bad <= 1000.0 * (1500.0 / 200.0) ** (1 / 399)

@@ -124,3 +124,38 @@ def test_the_evaluated_uncertainties_are_the_same_with_the_grid_s_rows_shared_or
     for a, b in zip(shared, anew):
         for key in ("Cp", "H", "S", "u_Cp", "u_H", "u_S"):
             assert np.array_equal(a[key], b[key])
+
+
+@settings(max_examples=100, deadline=None)
+@given(st.lists(st.floats(50.0, 6000.0), min_size=1, max_size=40, unique=True),
+       st.sampled_from([(0, 1, 2, 3, 4), (-2, -1, 0, 1, 2, 3, 4), (-2, 0, 1, 2, 3)]),
+       st.integers(0, 2))
+def test_the_fit_s_grid_arrays_are_those_made_anew_to_the_last_bit(temperatures, powers, d):
+    """The powers of a grid (the rows of every fit and check of the extension), the Einstein
+    columns of the oscillator spectra and Wilhoit's y of each B, made once per grid, are
+    the numbers made for each species."""
+    from thermoledger.fit import extrapolate
+    from thermoledger.physics import basis, forms
+    from thermoledger.physics.statmech import einstein
+
+    t = np.array(sorted(temperatures))
+    for _ in range(2):                                       # made, then remembered
+        assert np.array_equal(basis.powers_at(t, powers, d),
+                              basis.powers_row(powers, t / forms.T_SCALE, d))
+        for size in extrapolate.SPECTRUM_SIZES:
+            assert np.array_equal(extrapolate.spectrum_columns(t, size), einstein(
+                extrapolate.spectrum_theta(size)[None, :] / t[:, None]))
+        y = t[None, :] / (t[None, :] + extrapolate.B_GRID[:, None])
+        for got, want in zip(extrapolate._wilhoit_grid(t), (y, y * y, y - 1.0)):
+            assert np.array_equal(got, want)
+
+
+def test_wilhoit_s_back_substitution_solves_the_triangular_system():
+    rng = np.random.default_rng(3)
+    from thermoledger.fit import extrapolate
+
+    for n in range(1, 5):
+        r = np.triu(rng.uniform(-2.0, 2.0, (n, n))) + np.diag(rng.uniform(1.0, 3.0, n))
+        b = rng.uniform(-5.0, 5.0, n)
+        np.testing.assert_allclose(extrapolate._back_substitution(r, b),
+                                   np.linalg.solve(r, b), rtol=1e-13, atol=1e-13)

@@ -13,6 +13,7 @@ points). FitRejected when Cp still falls, by more than FALL_FLOOR below its larg
 before.
 """
 
+from functools import lru_cache
 from typing import NamedTuple
 
 import numpy as np
@@ -38,8 +39,8 @@ class Fitted(NamedTuple):
 
 def worst_inside(form, fitted: Fitted, data: CpData) -> float:
     """Largest relative Cp deviation of a solution from the data rows."""
-    return float(np.max(np.abs(R * (basis.cp_rows(form.powers, data.t, fitted.bps)
-                                    @ fitted.sol.c) / data.cp - 1.0)))
+    return float(np.max(np.abs(R * basis.values(form.powers, data.t, fitted.bps, fitted.sol.c)
+                               / data.cp - 1.0)))
 
 
 #: a fitted Cp falls beyond the data where it drops below the largest value it took before
@@ -57,13 +58,13 @@ def first_fall(form, fitted: Fitted, t_from: float, t_to: float, points: int = 4
     maximum it falls from."""
     bps, sol = fitted.bps, fitted.sol
     grid = gridcache.geomspace(t_from, t_to, points)
-    cp = basis.cp_rows(form.powers, grid, bps) @ sol.c
+    cp = basis.values(form.powers, grid, bps, sol.c)
     top = np.maximum.accumulate(cp)
     below = top - cp > FALL_FLOOR * np.abs(top)
     if not below.any():
         return None
     k = int(np.argmax(below))                      # the first point fallen below
-    slope = basis.slope_rows(form.powers, grid, bps) @ sol.c
+    slope = basis.values(form.powers, grid, bps, sol.c, 1)
     return float(grid[int(np.argmax(cp[:k]))]), float(grid[np.argmin(slope)])
 
 
@@ -127,8 +128,8 @@ def protect_data(species_id, form, rows, inside, data: CpData, span, settings: F
 
 def ends_falling(form, fitted: Fitted, t_end: float) -> bool:
     """Whether the fitted Cp falls at ``t_end`` [K] (dCp/dT < 0 there)."""
-    return float((basis.slope_rows(form.powers, np.array([t_end]), fitted.bps)
-                  @ fitted.sol.c)[0]) < 0.0
+    return float(basis.values(form.powers, np.array([t_end]), fitted.bps, fitted.sol.c,
+                              1)[0]) < 0.0
 
 
 def extension_range(form, alone: Fitted, ext_rows, span, order: int,
@@ -147,18 +148,16 @@ def extension_range(form, alone: Fitted, ext_rows, span, order: int,
     bps, edges, sol, notes = alone.bps, alone.edges, alone.sol, alone.notes
     tn, hi = span
     m = len(form.powers)
-    k = np.vstack([basis.powers_row(form.powers, tn / forms.T_SCALE, d)
-                   for d in range(order + 1)])
-    d_p = np.linalg.lstsq(k, k @ sol.c[-m:], rcond=None)[0]
-    null = lsq.null_basis(k, m)
+    project, null = _join(tuple(form.powers), float(tn), order)
+    d_p = project @ sol.c[-m:]
     t, cp, sig = ext_rows
-    a = basis.powers_row(form.powers, t / forms.T_SCALE)
-    grid = np.geomspace(tn, hi, MONOTONE_POINTS)
+    a = basis.powers_at(t, tuple(form.powers))
+    grid = gridcache.geomspace(tn, hi, MONOTONE_POINTS)
     if level:          # the slope at tn is the data fit's, zero: fixed by the join, not free
         grid = grid[1:]
-    slope = basis.powers_row(form.powers, grid / forms.T_SCALE, 1)
+    slope = basis.powers_at(grid, tuple(form.powers), 1)
     if level and order < 2:
-        slope = np.vstack([slope, basis.powers_row(form.powers, tn / forms.T_SCALE, 2)])
+        slope = np.vstack([slope, basis.powers_at(np.array([tn]), tuple(form.powers), 2)])
     part = lsq.at_least(a @ null, cp / R - a @ d_p, sig / R, slope @ null, -(slope @ d_p))
     d = d_p + null @ part.c
     cov = np.zeros((sol.c.size + m, sol.c.size + m))
@@ -168,3 +167,17 @@ def extension_range(form, alone: Fitted, ext_rows, span, order: int,
                           chi2=sol.chi2, dof=sol.dof)
     return Fitted(list(bps) + [tn], list(edges[:-1]) + [tn, hi], joined, list(notes),
                   alone.choice)
+
+
+@lru_cache(maxsize=64)
+def _join(powers: tuple, tn: float, order: int) -> tuple:
+    """(P, N) of a range joined at ``tn`` [K] with continuity up to ``order``: K the rows of
+    Cp and its derivatives there, P = K⁺K the projector onto the row space of K (P c is the
+    least-norm d with K d = K c: the particular solution of the join) and N an orthonormal
+    basis of ker K; read-only, made once for each join (a catalogue's species share their
+    last data point)."""
+    k = np.vstack([basis.powers_row(powers, tn / forms.T_SCALE, d) for d in range(order + 1)])
+    out = (np.linalg.pinv(k) @ k, lsq.null_basis(k, len(powers)))
+    for x in out:
+        x.flags.writeable = False
+    return out

@@ -47,7 +47,9 @@ import numpy as np
 from scipy.optimize import least_squares
 
 from ..checks.smooth_model import robust_sigma
+from ..core import gridcache
 from ..core.constants import GAS_CONSTANT as R
+from ..core.gridcache import by_grid
 from ..physics import bounds
 from ..physics.statmech import einstein
 
@@ -119,10 +121,9 @@ def fit_wilhoit(t, cp, c0, cinf, terms: int = WILHOIT_TERMS) -> list:
     before it: twice is enough for orthogonality to working precision), so that the fit
     of n terms takes its first n columns: its residual is that of n − 1 terms less one
     projection, and its coefficients are solved for the chosen B only."""
-    y = t[None, :] / (t[None, :] + B_GRID[:, None])          # (B, rows)
-    yy = y * y
+    y, yy, y_less_1 = _wilhoit_grid(t)                       # (B, rows) each
     miss = (cp - (c0 + (cinf - c0) * yy)) / cp               # the residual of no free term
-    col = (cinf - c0) * yy * (y - 1.0) / cp
+    col = (cinf - c0) * yy * y_less_1 / cp
     q, r, qb = [], np.zeros((len(B_GRID), terms, terms)), np.zeros((len(B_GRID), terms))
     out = [_wilhoit_model(B_GRID[int(np.argmin(np.sum(miss ** 2, axis=1)))], np.zeros(0),
                           c0, cinf)]
@@ -149,12 +150,22 @@ def fit_wilhoit(t, cp, c0, cinf, terms: int = WILHOIT_TERMS) -> list:
     return out
 
 
+@by_grid
+def _wilhoit_grid(t) -> tuple:
+    """(y, y², y − 1) [-] of Wilhoit's form at temperatures ``t`` [K] (columns) for each B of
+    B_GRID (rows), made once for each grid."""
+    y = t[None, :] / (t[None, :] + B_GRID[:, None])
+    return y, y * y, y - 1.0
+
+
 def _back_substitution(r, b) -> np.ndarray:
-    """x of r x = b, r upper triangular with a non-zero diagonal (a few unknowns)."""
-    x = np.zeros(len(b))
+    """x of r x = b, r upper triangular with a non-zero diagonal (a few unknowns: in Python
+    floats, a tenth of the time of numpy's small products)."""
+    r, b = r.tolist(), b.tolist()
+    x = [0.0] * len(b)
     for i in range(len(b) - 1, -1, -1):
-        x[i] = (b[i] - r[i, i + 1:] @ x[i + 1:]) / r[i, i]
-    return x
+        x[i] = (b[i] - sum(r[i][j] * x[j] for j in range(i + 1, len(b)))) / r[i][i]
+    return np.array(x)
 
 
 def _wilhoit_model(b, a, c0, cinf):
@@ -292,13 +303,19 @@ def fit_spectrum(t, cp, c0, modes, size: int = SPECTRUM_SIZES[-1]):
 
     if modes <= 0:
         return lambda x: np.full(np.shape(np.atleast_1d(x)), c0)
-    theta = spectrum_theta(size)
-    a = R * einstein(theta[None, :] / t[:, None]) / cp[:, None]
+    a = R * spectrum_columns(t, size) / cp[:, None]
     rows = np.vstack([a, SPECTRUM_SUM_WEIGHT * np.ones((1, size))])
     rhs = np.append((cp - c0) / cp, SPECTRUM_SUM_WEIGHT * modes)
     g, _ = nnls(rows, rhs, maxiter=50 * size)
-    return lambda x: c0 + R * einstein(
-        theta[None, :] / np.atleast_1d(np.asarray(x, float))[:, None]) @ g
+    return lambda x: c0 + R * spectrum_columns(np.atleast_1d(np.asarray(x, float)), size) @ g
+
+
+@by_grid(size=32)
+def spectrum_columns(t, size: int) -> np.ndarray:
+    """E(θ_j/T) [-] at temperatures ``t`` [K] (rows) for the ``size`` θ_j of
+    ``spectrum_theta`` (columns), made once for each grid: the species of a catalogue share
+    their temperatures, hold-out rows and extension grids."""
+    return einstein(spectrum_theta(size)[None, :] / t[:, None])
 
 
 def _wilhoit_group(geometry, atoms) -> tuple:
@@ -395,11 +412,11 @@ def extend(t, cp, geometry, atoms, t_to, *, side="high", holdout=0.25, margin=0.
     if side == "high":
         fit_t, fit_cp, ho_t, ho_cp = t[:-k], cp[:-k], t[-k:], cp[-k:]
         edge, far = t[-1], t[-k]
-        grid = np.geomspace(t[-1], t_to, points + 1)[1:]
+        grid = gridcache.geomspace(float(t[-1]), float(t_to), points + 1)[1:]
     else:
         fit_t, fit_cp, ho_t, ho_cp = t[k:], cp[k:], t[:k], cp[:k]
         edge, far = t[0], t[k - 1]
-        grid = np.geomspace(t_to, t[0], points + 1)[:-1]
+        grid = gridcache.geomspace(float(t_to), float(t[0]), points + 1)[:-1]
     span = np.concatenate([[edge], grid]) if side == "high" else np.concatenate([grid, [edge]])
     cp_edge = cp[-1] if side == "high" else cp[0]
     # a candidate whose fit fails is left out (RuntimeError: scipy's nnls out of iterations)

@@ -124,11 +124,16 @@ def at_least(a, y, sigma, g, h) -> Solution:
         return free
     w = 1.0 / np.asarray(sigma, dtype=float)
     e, f = np.asarray(a, dtype=float) * w[:, None], np.asarray(y, dtype=float) * w
-    q, r = np.linalg.qr(e)
-    rinv = np.linalg.inv(r)
+    # one Householder QR of [E | f] gives R and Qᵀf together (as in ``solve``); A has full
+    # column rank, so R is invertible
+    k = e.shape[1]
+    fact, _, _, _ = dgeqrf(np.concatenate((e, f[:, None]), axis=1))
+    rinv, _ = dtrtri(fact[:k, :k], lower=0)          # reads the upper triangle only
+    rinv *= _upper(k)
+    qtf = fact[:k, k]
     # x = R⁻¹ (z + Qᵀf): min ||z|| subject to (G R⁻¹) z ≥ h − G R⁻¹ Qᵀ f
     gz = g @ rinv
-    hz = h - gz @ (q.T @ f)
+    hz = h - gz @ qtf
     scale = max(np.abs(gz).max(), np.abs(hz).max(), 1e-300)
     gz, hz = gz / scale, hz / scale
     big = np.vstack([gz.T, hz[None, :]])
@@ -139,7 +144,7 @@ def at_least(a, y, sigma, g, h) -> Solution:
     if abs(resid[-1]) < 1e-12:           # no feasible point: keep the unconstrained one
         return free
     z = -resid[:-1] / resid[-1]
-    x = rinv @ (z + q.T @ f)
+    x = rinv @ (z + qtf)
     res = (np.asarray(a, dtype=float) @ x - np.asarray(y, dtype=float)) * w
     return Solution(c=x, residual=res, cov=free.cov, chi2=float(res @ res), dof=free.dof)
 

@@ -363,9 +363,15 @@ def _judge(who: SpeciesIdentity, solved: Solved, data: CpData,
     if s is not None and np.isfinite(s).any():
         m = np.isfinite(s)
         s_dev = float(np.max(np.abs(ev["S"][m] - s[m])))
-    dense = np.unique(np.concatenate([gridcache.geomspace(ranges[0].t_min, ranges[-1].t_max, 400),
-                                      [r.t_min for r in ranges], [ranges[-1].t_max]]))
-    cp_dense = forms.cp_of_ranges(ranges, dense, form)
+    # Cp on a fine grid of the range of use and at every range's ends (the grid's powers made
+    # once for a catalogue's species: basis.values of the solution, equal to rounding to Cp
+    # of the published coefficients)
+    dense = np.concatenate([gridcache.geomspace(ranges[0].t_min, ranges[-1].t_max, 400),
+                            [r.t_min for r in ranges], [ranges[-1].t_max]])
+    cp_dense = R * np.concatenate([basis.values(form.powers, dense[:400], solved.breakpoints,
+                                                sol.c),
+                                   basis.values(form.powers, dense[400:], solved.breakpoints,
+                                                sol.c)])
     extrap = tuple({"t_min": min(e.t_from, e.t_to), "t_max": max(e.t_from, e.t_to),
                     "model": e.model, "holdout_error": e.holdout_error,
                     "u_rel_end": e.u_rel_end,
@@ -387,7 +393,7 @@ def _judge(who: SpeciesIdentity, solved: Solved, data: CpData,
                        powers=tuple(form.powers), extrapolated=extrap,
                        settings=settings.recorded(), notes=solved.notes)
     if np.any(cp_dense <= 0) or not np.all(np.isfinite(cp_dense)):
-        bad = dense[np.argmax(~(cp_dense > 0))]
+        bad = dense[~(cp_dense > 0)].min()
         raise FitRejected(species_id, f"fitted Cp is not positive at {bad:.6g} K inside the "
                           "range of use")
     fails = [verdict] if verdict else []

@@ -13,9 +13,9 @@ Phys. Rev. 40, 207 (1932)):
   A): the covariance is multiplied by χ²/ν whatever its value.
 * Model share. A polynomial form with a given number of ranges cannot follow Cp exactly
   even when the data are exact. The misfit d(T) = P(T) − F(T) between the fitted polynomial
-  P and a flexible smooth reference F of the same rows (``reference_spline``: the weighted
+  P and a flexible smooth reference F of the same rows (``reference_values``: the weighted
   least-squares cubic spline in ln T, weights 1/σ, with an interior knot at every
-  ROWS_PER_KNOT-th row; scipy.interpolate.make_lsq_spline) estimates it. Its
+  ROWS_PER_KNOT-th row; its B-spline basis from scipy.interpolate.BSpline) estimates it. Its
   standard uncertainty per range is half the 95th percentile of |d| over the rows of the
   range (so that the usual coverage factor k = 2 covers 95 % of the misfit, which is not
   normally distributed), after removing the share of d that is the noise of the data
@@ -29,9 +29,10 @@ The three shares are independent and added in quadrature.
 """
 
 import numpy as np
-from scipy.interpolate import make_lsq_spline
+from scipy.linalg.lapack import dgeqrf, dtrtrs
 
 from ..core.constants import REFERENCE_TEMPERATURE
+from ..core.gridcache import by_grid
 from .lsq import Solution
 
 #: the misfit's coverage probability that k = 2 is taken to mean (GUM 6.2-6.3)
@@ -73,14 +74,38 @@ def _cumulative(t, f):
     return steps - np.interp(REFERENCE_TEMPERATURE, t, steps)
 
 
-def reference_spline(x, y, sigma):
-    """The weighted least-squares cubic spline of ``y`` ± ``sigma`` at ascending ``x`` with
-    interior knots at every ROWS_PER_KNOT-th row (Schoenberg-Whitney holds by construction)."""
+def spline_knots(x) -> np.ndarray:
+    """The knots of the reference spline at ascending ``x``: each end four times, an
+    interior knot at every ROWS_PER_KNOT-th row (Schoenberg-Whitney holds by
+    construction)."""
     inner = x[ROWS_PER_KNOT:-ROWS_PER_KNOT + 1:ROWS_PER_KNOT] if len(x) > 2 * ROWS_PER_KNOT \
         else x[:0]
     inner = inner[(inner > x[0]) & (inner < x[-1])]
-    knots = np.concatenate([[x[0]] * 4, inner, [x[-1]] * 4])
-    return make_lsq_spline(x, y, knots, k=3, w=1.0 / sigma)
+    return np.concatenate([[x[0]] * 4, inner, [x[-1]] * 4])
+
+
+@by_grid
+def _spline_basis(x) -> np.ndarray:
+    """The cubic B-spline basis (rows: ``x``; columns: the splines of ``spline_knots``),
+    made once for each grid (scipy.interpolate.BSpline.design_matrix)."""
+    from scipy.interpolate import BSpline
+
+    return BSpline.design_matrix(x, spline_knots(x), 3).toarray()
+
+
+def reference_values(x, y, sigma) -> np.ndarray:
+    """The weighted least-squares cubic spline of ``y`` ± ``sigma`` at ascending ``x``
+    (knots: ``spline_knots``), at ``x``: one Householder QR of the weighted basis with the
+    weighted ``y`` beside it (LAPACK dgeqrf) and a triangular solve; the basis has full
+    column rank (Schoenberg-Whitney)."""
+    b = _spline_basis(x)
+    w = 1.0 / np.asarray(sigma, dtype=float)
+    k = b.shape[1]
+    fact, _, _, _ = dgeqrf(np.concatenate((b * w[:, None], (y * w)[:, None]), axis=1))
+    c, info = dtrtrs(fact[:k, :k], fact[:k, k])          # reads the upper triangle only
+    if info != 0 or not np.all(np.isfinite(c)):
+        c = np.linalg.lstsq(b * w[:, None], y * w, rcond=None)[0]
+    return b @ c
 
 
 def model_error(t, cp, sigma, fitted, u_param, edges) -> tuple:
@@ -96,8 +121,7 @@ def model_error(t, cp, sigma, fitted, u_param, edges) -> tuple:
     x = np.log(t[keep])
     if len(x) < 2 * ROWS_PER_KNOT:
         return tuple({"cp": 0.0, "h": 0.0, "s": 0.0} for _ in range(len(edges) - 1))
-    reference = reference_spline(x, cp[keep], sigma[keep])
-    d = np.asarray(fitted, dtype=float)[keep] - reference(x)
+    d = np.asarray(fitted, dtype=float)[keep] - reference_values(x, cp[keep], sigma[keep])
     noise = np.asarray(u_param, dtype=float)[keep]
     tk = t[keep]
     e_h, e_s = _cumulative(tk, d), _cumulative(tk, d / tk)

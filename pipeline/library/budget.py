@@ -27,7 +27,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..core import chemistry
+from ..core import chemistry, gridcache
 from ..core.constants import GAS_CONSTANT as R
 from ..core.constants import REFERENCE_TEMPERATURE
 from ..core.gridcache import by_grid
@@ -95,9 +95,10 @@ def _cp_rows(t, powers, bps) -> np.ndarray:
     return basis.cp_rows(list(powers), t, list(bps))
 
 
-def own_shares(entry: dict, t) -> dict:
+def own_shares(entry: dict, t, extrap: dict | None = None) -> dict:
     """The shares of one entry's own fit at ``t`` [K]: its covariance components, its form's
-    misfit and its extrapolation model (H and S relative to its anchor temperature)."""
+    misfit and its extrapolation model (H and S relative to its anchor temperature;
+    ``extrap``: its ``extrapolation_share`` at ``t`` when made already)."""
     t = np.atleast_1d(np.asarray(t, dtype=float))
     unc = entry.get("uncertainty") or {}
     cov = np.asarray(unc.get("covariance") or [], dtype=float)
@@ -117,15 +118,17 @@ def own_shares(entry: dict, t) -> dict:
             out[("fit", sid, int(k))] = (dh[:, k], ds[:, k])
     zero = np.zeros_like(t)
     for name, share in (("model", model_share(unc.get("model_error") or [], bps, t, tref)),
-                        ("extrap", extrapolation_share(entry, t))):
+                        ("extrap", extrapolation_share(entry, t) if extrap is None
+                         else extrap)):
         if share:
             out[(f"{name}-h", sid)] = (share["u_H"], zero)
             out[(f"{name}-s", sid)] = (zero, share["u_S"])
     return out
 
 
-def cp_share(entry: dict, t) -> np.ndarray:
-    """u(Cp) [J/(mol K)] of one entry at ``t`` [K]: covariance, misfit and extrapolation."""
+def cp_share(entry: dict, t, extrap: dict | None = None) -> np.ndarray:
+    """u(Cp) [J/(mol K)] of one entry at ``t`` [K]: covariance, misfit and extrapolation
+    (``extrap``: its ``extrapolation_share`` at ``t`` when made already)."""
     t = np.atleast_1d(np.asarray(t, dtype=float))
     unc = entry.get("uncertainty") or {}
     cov = np.asarray(unc.get("covariance") or [], dtype=float)
@@ -133,7 +136,8 @@ def cp_share(entry: dict, t) -> np.ndarray:
     u = R * basis.standard_deviation(_cp_rows(t, tuple(unc.get("powers") or []), tuple(bps)),
                                      cov) if cov.size else np.zeros_like(t)
     for share in (model_share(unc.get("model_error") or [], bps, t),
-                  extrapolation_share(entry, t, integrals=False)):
+                  extrapolation_share(entry, t, integrals=False) if extrap is None
+                  else extrap):
         if share:
             u = np.hypot(u, share["u_Cp"])
     return u
@@ -143,14 +147,16 @@ def spread(shares: dict, t, anchors: bool = True) -> dict:
     """{'u_H', 'u_S', 'u_G'}: standard uncertainties of H [J/mol], S [J/(mol K)] and G = H − T S
     [J/mol] at ``t`` [K] from ``shares`` (those of the anchors left out unless ``anchors``)."""
     t = np.atleast_1d(np.asarray(t, dtype=float))
-    uh, us, ug = (np.zeros_like(t) for _ in range(3))
-    for name, (dh, ds) in shares.items():
-        if not anchors and name[0] in ANCHOR_SHARES:
-            continue
-        uh = uh + dh ** 2
-        us = us + ds ** 2
-        ug = ug + (dh - t * ds) ** 2
-    return {"u_H": np.sqrt(uh), "u_S": np.sqrt(us), "u_G": np.sqrt(ug)}
+    kept = [pair for name, pair in shares.items() if anchors or name[0] not in ANCHOR_SHARES]
+    if not kept:
+        return {key: np.zeros_like(t) for key in ("u_H", "u_S", "u_G")}
+    dh, ds = (np.array([np.broadcast_to(np.asarray(p[k], dtype=float), t.shape) for p in kept])
+              for k in (0, 1))
+    # the squares added share by share, in order (a cumulative sum is sequential: the same
+    # numbers as a loop over the shares; a sum over an axis need not be)
+    return {"u_H": np.sqrt(np.cumsum(dh ** 2, axis=0)[-1]),
+            "u_S": np.sqrt(np.cumsum(ds ** 2, axis=0)[-1]),
+            "u_G": np.sqrt(np.cumsum((dh - t * ds) ** 2, axis=0)[-1])}
 
 
 def combine(parts) -> dict:
@@ -249,37 +255,63 @@ def model_share(model_error, bps, t, tref=REFERENCE_TEMPERATURE) -> dict:
             "u_S": np.minimum(s, cp * np.abs(np.log(t / tref)))}
 
 
-def extrapolation_share(species: dict, t, steps: int = 48, integrals: bool = True) -> dict:
+def extrapolation_share(species: dict, t, steps: int = 256, integrals: bool = True) -> dict:
     """Inside each model-filled interval: u_rel(T) Cp(T), u_rel growing from its value at the
     data edge to its value at the far end in proportion to |ln(T/edge)|. The share is
     systematic, so u(H) at T adds up u_rel Cp over the part of 298.15 K..T it covers, and u(S)
-    u_rel Cp / T (trapezoids on ``steps`` points); without ``integrals``, u_Cp only."""
+    u_rel Cp / T: trapezoids on one geometric grid of ``steps`` points across the interval,
+    summed once and read at both ends of each part; without ``integrals``, u_Cp only."""
     guided = [e for e in species.get("extrapolated", []) if e.get("u_rel_end") is not None]
     if not guided:
         return {}
     tref = REFERENCE_TEMPERATURE
     high = species["data_range"]["t_max"]
-
-    def u_abs(x, e):
-        edge, far = (e["t_min"], e["t_max"]) if e["t_max"] >= high else (e["t_max"], e["t_min"])
-        start = e.get("u_rel_start") or 0.0
-        frac = np.abs(np.log(x / edge)) / (abs(np.log(far / edge)) or 1.0)
-        rel = start + (e["u_rel_end"] - start) * frac
-        inside = (x >= e["t_min"] * (1 - 1e-12)) & (x <= e["t_max"] * (1 + 1e-12))
-        cp = forms.cp_of_ranges(species["ranges"], x.ravel(), species["form"])
-        return np.where(inside, rel * cp.reshape(x.shape), 0.0)
-
     out = {"u_Cp": np.zeros_like(t), "u_H": np.zeros_like(t), "u_S": np.zeros_like(t)}
+    n = len(t)
     for e in guided:
-        out["u_Cp"] = out["u_Cp"] + u_abs(t, e)
+        # u_Cp from t alone, the very call made without integrals (the same numbers)
+        out["u_Cp"] = out["u_Cp"] + _u_abs(species, e, high, t)
         if not integrals:
             continue
-        a = np.clip(np.minimum(t, tref), e["t_min"], e["t_max"])
-        b = np.clip(np.maximum(t, tref), e["t_min"], e["t_max"])
-        grid = np.geomspace(a, np.maximum(b, a), steps, axis=-1)          # (n, steps)
-        f = u_abs(grid, e)
-        dx = np.diff(grid, axis=-1)
-        out["u_H"] = out["u_H"] + np.sum(dx * (f[:, 1:] + f[:, :-1]) / 2, axis=-1)
-        g = f / grid
-        out["u_S"] = out["u_S"] + np.sum(dx * (g[:, 1:] + g[:, :-1]) / 2, axis=-1)
+        lo, hi = e["t_min"], e["t_max"]
+        ends = np.concatenate([np.minimum(t, tref), np.maximum(t, tref)])
+        ends = np.minimum(np.maximum(ends, lo), hi)       # both ends of each part, inside
+        grid = gridcache.geomspace(lo, hi, steps) if hi > lo else np.array([lo])
+        f_ends, f_grid = np.split(_u_abs(species, e, high, np.concatenate([ends, grid])),
+                                  [2 * n])
+        # ∫ from the interval's start to each end: the trapezoids of the grid up to the
+        # grid point below it, and one from there to the end
+        k = np.minimum(np.searchsorted(grid, ends, side="right"), len(grid)) - 1
+        k = np.maximum(k, 0)
+        part = ends - grid[k]
+        for key, f, g in (("u_H", f_grid, f_ends), ("u_S", f_grid / grid, f_ends / ends)):
+            total = np.concatenate([[0.0], np.cumsum(np.diff(grid) * (f[1:] + f[:-1]) / 2)])
+            at = total[k] + part * (f[k] + g) / 2
+            out[key] = out[key] + (at[n:] - at[:n])
     return out
+
+
+def _u_abs(species: dict, e: dict, high: float, x) -> np.ndarray:
+    """u_rel(T) Cp(T) [J/(mol K)] of extrapolated interval ``e`` of ``species`` (whose data
+    end at ``high`` [K]) at ``x`` [K], zero outside the interval (Cp evaluated inside it
+    only)."""
+    edge, far = (e["t_min"], e["t_max"]) if e["t_max"] >= high else (e["t_max"], e["t_min"])
+    start = e.get("u_rel_start") or 0.0
+    inside = (x >= e["t_min"] * (1 - 1e-12)) & (x <= e["t_max"] * (1 + 1e-12))
+    xi = x[inside]
+    rel = start + (e["u_rel_end"] - start) * (np.abs(np.log(xi / edge))
+                                             / (abs(np.log(far / edge)) or 1.0))
+    out = np.zeros_like(x)
+    out[inside] = rel * _cp_across(species, e["t_min"], e["t_max"], xi)
+    return out
+
+
+def _cp_across(species: dict, lo: float, hi: float, x) -> np.ndarray:
+    """Cp [J/(mol K)] of ``species`` at ``x`` [K] inside lo..hi: from the one range that
+    holds lo..hi when there is one (at a breakpoint that ends it, that range's value: equal
+    to the other's to rounding, the fit being continuous there), else range by range."""
+    for r in species["ranges"]:
+        if r["t_min"] <= lo and hi <= r["t_max"]:
+            f = forms.FORMS[species["form"]]
+            return f.cp(f.unpack(r["coefficients"])[0], x)
+    return forms.cp_of_ranges(species["ranges"], x, species["form"])

@@ -187,9 +187,10 @@ def uncertainty(species: dict, t) -> dict:
     the stated u(ΔH_trs) of each transition on the way (u/T_trs for S); the shares are added
     in quadrature (library/budget.py names them)."""
     t = np.atleast_1d(np.asarray(t, dtype=float))
-    out = budget.spread(budget.own_shares(species, t), t)
+    extrap = budget.extrapolation_share(species, t)
+    out = budget.spread(budget.own_shares(species, t, extrap), t)
     anchor = species.get("anchor") or {}
-    return {"u_Cp": budget.cp_share(species, t),
+    return {"u_Cp": budget.cp_share(species, t, extrap),
             "u_H": np.hypot(out["u_H"], anchor.get("u_enthalpy", 0.0)),
             "u_S": np.hypot(out["u_S"], anchor.get("u_entropy", 0.0))}
 

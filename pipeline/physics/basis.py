@@ -9,6 +9,7 @@ so each observation or constraint is one row.
 import numpy as np
 
 from ..core.constants import REFERENCE_TEMPERATURE
+from ..core.gridcache import by_grid
 from .forms import T_SCALE, i0, i1, range_of
 
 
@@ -22,12 +23,20 @@ def powers_row(powers, tau, deriv=0):
     return coef * tau ** (p - deriv)
 
 
+@by_grid(size=16)
+def powers_at(t, powers: tuple, deriv: int = 0):
+    """``powers_row(powers, t / T_SCALE, deriv)`` at temperatures ``t`` [K] (1-d), the same
+    numbers, made once for each grid: the species of a catalogue share their temperatures,
+    their ranges of use and the grids their fits are checked on."""
+    return powers_row(powers, t / T_SCALE, deriv)
+
+
 def cp_rows(powers, t, breakpoints):
     """Rows of Cp/R at temperatures ``t`` [K] -> (n, nr*m)."""
     t = np.asarray(t, dtype=float)
     m, nr = len(powers), len(breakpoints) + 1
     idx = range_of(t, breakpoints)
-    v = powers_row(powers, t / T_SCALE)
+    v = powers_at(t, tuple(powers))
     a = np.zeros((len(t), nr * m))
     for j in range(nr):
         sel = idx == j
@@ -35,12 +44,30 @@ def cp_rows(powers, t, breakpoints):
     return a
 
 
+def values(powers, t, breakpoints, c, deriv: int = 0) -> np.ndarray:
+    """Cp/R (or its ``deriv``-th derivative with respect to τ) at temperatures ``t`` [K] of
+    the stacked coefficients ``c``: ``cp_rows(powers, t, breakpoints) @ c`` (or
+    ``slope_rows``) without the rows of the other ranges' zeros (equal to rounding)."""
+    t = np.asarray(t, dtype=float)
+    m = len(powers)
+    v = powers_at(t, tuple(powers), deriv)
+    idx = range_of(t, breakpoints)
+    lo, hi = (int(idx.min()), int(idx.max())) if len(t) else (0, -1)
+    if lo == hi:
+        return v @ c[lo * m:(lo + 1) * m]
+    out = np.empty(len(t))
+    for j in range(lo, hi + 1):
+        sel = idx == j
+        out[sel] = v[sel] @ c[j * m:(j + 1) * m]
+    return out
+
+
 def slope_rows(powers, t, breakpoints):
     """Rows of d(Cp/R)/dτ at temperatures ``t`` [K] -> (n, nr*m)."""
     t = np.atleast_1d(np.asarray(t, dtype=float))
     m, nr = len(powers), len(breakpoints) + 1
     idx = range_of(t, breakpoints)
-    v = powers_row(powers, t / T_SCALE, 1)
+    v = powers_at(t, tuple(powers), 1)
     a = np.zeros((len(t), nr * m))
     for j in range(nr):
         sel = idx == j

@@ -162,14 +162,12 @@ def evaluate_ranges(ranges, t, form):
     (t_min, t_max, coefficients) tuples, library entry ranges or FitRange records."""
     f, ranges, t, idx = _placed(ranges, t, form)
     cp, h, s = (np.empty_like(t) for _ in range(3))
-    for j, r in enumerate(ranges):
-        m = idx == j
-        if not m.any():
-            continue
-        a, h0, s0 = f.unpack(r[2])
-        cp[m] = f.cp(a, t[m])
-        h[m] = f.h_integral(a, t[m]) + h0
-        s[m] = f.s_integral(a, t[m]) + s0
+    for j, m in _by_range(idx):
+        a, h0, s0 = f.unpack(ranges[j][2])
+        tm = t[m]
+        cp[m] = f.cp(a, tm)
+        h[m] = f.h_integral(a, tm) + h0
+        s[m] = f.s_integral(a, tm) + s0
     return {"Cp": cp, "H": h, "S": s, "G": h - t * s}
 
 
@@ -178,10 +176,8 @@ def cp_of_ranges(ranges, t, form):
     same numbers, without the integrals."""
     f, ranges, t, idx = _placed(ranges, t, form)
     cp = np.empty_like(t)
-    for j, r in enumerate(ranges):
-        m = idx == j
-        if m.any():
-            cp[m] = f.cp(f.unpack(r[2])[0], t[m])
+    for j, m in _by_range(idx):
+        cp[m] = f.cp(f.unpack(ranges[j][2])[0], t[m])
     return cp
 
 
@@ -190,12 +186,22 @@ def h_of_ranges(ranges, t, form):
     numbers, without Cp and S."""
     f, ranges, t, idx = _placed(ranges, t, form)
     h = np.empty_like(t)
-    for j, r in enumerate(ranges):
-        m = idx == j
-        if m.any():
-            a, h0, _ = f.unpack(r[2])
-            h[m] = f.h_integral(a, t[m]) + h0
+    for j, m in _by_range(idx):
+        a, h0, _ = f.unpack(ranges[j][2])
+        h[m] = f.h_integral(a, t[m]) + h0
     return h
+
+
+def _by_range(idx):
+    """(range index, selector of its temperatures) of each range that ``idx`` (the range of
+    each temperature) holds, ascending; the selector is every temperature (a slice, no
+    mask to build) when they all lie in one range."""
+    if not len(idx):
+        return []
+    lo, hi = int(idx.min()), int(idx.max())
+    if lo == hi:
+        return [(lo, slice(None))]
+    return [(j, m) for j in range(lo, hi + 1) for m in [idx == j] if m.any()]
 
 
 def _placed(ranges, t, form) -> tuple:

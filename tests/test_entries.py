@@ -118,7 +118,28 @@ def test_library_parquet_written_a_row_group_at_a_time_is_the_table_written_whol
     given_back = []
     monkeypatch.setattr(arrowmem, "give_back", lambda: given_back.append(1))
 
-    rows = [r for sp in demo_doc["species"] for r in document._library_rows(sp)]
+    def rows_of(sp):          # the rows as the format describes them, one per range
+        a = sp.get("anchor") or {"basis": "own", "temperature": 298.15,
+                                 "enthalpy": sp["enthalpy_of_formation_298"],
+                                 "entropy": sp["entropy_298"],
+                                 "enthalpy_zero": sp["enthalpy_of_formation_298"]}
+        return [{"id": sp["id"], "formula": sp["formula"], "phase": sp["phase"],
+                 "geometry": sp["geometry"], "molar_mass": sp["molar_mass"],
+                 "enthalpy_of_formation_298": sp["enthalpy_of_formation_298"],
+                 "entropy_298": sp["entropy_298"], "anchor_basis": a["basis"],
+                 "anchor_temperature": a["temperature"], "anchor_enthalpy": a["enthalpy"],
+                 "anchor_entropy": a["entropy"], "enthalpy_zero": a["enthalpy_zero"],
+                 "form": sp["form"], "range_index": j, "t_min": r["t_min"],
+                 "t_max": r["t_max"], "data_t_min": sp["data_range"]["t_min"],
+                 "data_t_max": sp["data_range"]["t_max"],
+                 "cp_max_rel_dev": sp["quality"]["cp_max_rel_dev"],
+                 "cp_rms_rel_dev": sp["quality"]["cp_rms_rel_dev"],
+                 "points": sp["quality"]["points"], "coefficients": r["coefficients"],
+                 **{k: orjson.dumps(sp[k]).decode()
+                    for k in ("extrapolated", "sources", "findings")}}
+                for j, r in enumerate(sp["ranges"])]
+
+    rows = [r for sp in demo_doc["species"] for r in rows_of(sp)]
     kinds = {"string": pa.string(), "number": pa.float64(), "integer": pa.int32(),
              "array": pa.list_(pa.float64())}
 
@@ -346,3 +367,23 @@ def test_findings_added_to_an_entry_read_as_the_entry_put_back_with_them(tmp_pat
     assert kept[0] == {"id": "Z(g)", "findings": []}
     kept[1] = entry                        # put back: what was added goes
     assert kept[1] == entry
+
+
+def test_species_checked_as_library_parquet_reads_them_fail_as_the_whole_check_does(
+        monkeypatch, demo_doc):
+    """A release checks its species against the schema as library.parquet reads them (each
+    entry decoded once): a valid library passes with the same bytes as unchecked, and a bad
+    entry stops it with the message of the whole document's check."""
+    monkeypatch.setattr(document, "CHECKED_AT_ONCE", 2)
+    assert b"".join(document.library_parquet_chunks(demo_doc, check=True)) == \
+        document.library_parquet_bytes(demo_doc)
+    plain = list(demo_doc["species"])
+    plain[5]["ranges"][0]["t_min"] = "hot"
+    bad = {**demo_doc, "species": Entries.of(plain)}
+    document.require_valid(bad, "library.schema.json", "library.json", later=("species",))
+    with pytest.raises(OutputError) as whole:
+        document.require_valid_library(bad)
+    with pytest.raises(OutputError) as read:
+        b"".join(document.library_parquet_chunks(bad, check=True))
+    assert str(read.value) == str(whole.value)
+    assert "at species/5/ranges/0/t_min: 'hot' is not of type 'number'" in str(read.value)

@@ -150,8 +150,8 @@ def spread(shares: dict, t, anchors: bool = True) -> dict:
     kept = [pair for name, pair in shares.items() if anchors or name[0] not in ANCHOR_SHARES]
     if not kept:
         return {key: np.zeros_like(t) for key in ("u_H", "u_S", "u_G")}
-    dh, ds = (np.array([np.broadcast_to(np.asarray(p[k], dtype=float), t.shape) for p in kept])
-              for k in (0, 1))
+    dh, ds = (np.array([p[k] if np.shape(p[k]) == t.shape else np.broadcast_to(p[k], t.shape)
+                        for p in kept], dtype=float) for k in (0, 1))
     # the squares added share by share, in order (a cumulative sum is sequential: the same
     # numbers as a loop over the shares; a sum over an axis need not be)
     return {"u_H": np.sqrt(np.cumsum(dh ** 2, axis=0)[-1]),

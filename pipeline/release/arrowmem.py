@@ -12,6 +12,55 @@ file written into memory first held whole, and twice while it was copied out.
 """
 
 
+def arrow_array(values, arrow_type):
+    """``pyarrow.array(values, type=arrow_type)``, the same array, built from its buffers
+    (pyarrow.Array.from_buffers) for the types a release writes: float64, int32, bool,
+    string and list of float64, from a list (None: null) or a numpy array. pyarrow.array
+    asks pandas whether its argument is a pandas object, list or numpy array alike, and
+    importing pandas for it cost each process that wrote a release's Parquet files 0.15-0.2
+    s (python -X importtime); a build needs no pandas otherwise."""
+    import numpy as np
+    import pyarrow as pa
+
+    n = len(values)
+    if isinstance(values, np.ndarray) and values.dtype != object:
+        present = np.ones(n, dtype=bool)
+    else:
+        present = np.fromiter((v is not None for v in values), dtype=bool, count=n)
+    valid = None if present.all() else pa.py_buffer(np.packbits(present, bitorder="little"))
+    if pa.types.is_string(arrow_type):
+        encoded = [v.encode("utf-8") if v is not None else b"" for v in values]
+        return pa.Array.from_buffers(arrow_type, n, [valid, _offsets(map(len, encoded), n),
+                                                     pa.py_buffer(b"".join(encoded))])
+    if pa.types.is_list(arrow_type):
+        items = [v if v is not None else () for v in values]
+        child = arrow_array([x for v in items for x in v], arrow_type.value_type)
+        return pa.Array.from_buffers(arrow_type, n, [valid, _offsets(map(len, items), n)],
+                                     children=[child])
+    if pa.types.is_boolean(arrow_type):
+        bits = np.fromiter((bool(v) for v in values), dtype=bool, count=n) \
+            if not isinstance(values, np.ndarray) or values.dtype != bool else values
+        return pa.Array.from_buffers(arrow_type, n, [valid, pa.py_buffer(
+            np.packbits(bits, bitorder="little"))])
+    dtype = np.dtype(arrow_type.to_pandas_dtype())
+    if isinstance(values, np.ndarray) and values.dtype != object:
+        data = np.ascontiguousarray(values, dtype=dtype)
+    else:
+        data = np.array([v if v is not None else 0 for v in values], dtype=dtype)
+    return pa.Array.from_buffers(arrow_type, n, [valid, pa.py_buffer(data)])
+
+
+def _offsets(lengths, n: int):
+    """The int32 offsets buffer of ``n`` items of ``lengths``."""
+    import numpy as np
+    import pyarrow as pa
+
+    out = np.zeros(n + 1, dtype=np.int32)
+    np.cumsum(np.fromiter(lengths, dtype=np.int64, count=n), out=out[1:], dtype=np.int32) \
+        if n else None
+    return pa.py_buffer(out)
+
+
 def give_back() -> None:
     """Return to the operating system the memory Arrow's default pool holds unused (a few
     milliseconds; called after each row group a release writes)."""

@@ -209,12 +209,17 @@ def library_document(fitted, quarantined, inputs_sha256: str, settings: dict,
 CHECKED_AT_ONCE = 512
 
 
-def require_valid(doc: dict, name: str, what: str) -> None:
+def require_valid(doc: dict, name: str, what: str, later=()) -> None:
     """Raise OutputError naming the first field where ``doc`` breaks schemas/``name``. Its
     top-level LazyLists (core.lazy) are checked CHECKED_AT_ONCE items at a time, never made
-    all at once; its Rendered lists were checked when they were made (``render_list``); the
-    rest of the document once."""
+    all at once, except those named in ``later``, which the caller checks as it reads them
+    (``checked_parts``); its Rendered lists were checked when they were made
+    (``render_list``); the rest of the document once."""
     lazy = {k: v for k, v in doc.items() if isinstance(v, LazyList)}
+    for key in later:
+        if key in doc:
+            doc = {**doc, key: []}
+            lazy.pop(key, None)
     done = {k for k, v in doc.items() if isinstance(v, Rendered)}
     errors = schemas.errors_of({**doc, **{k: [] for k in lazy.keys() | done}}
                                if lazy or done else doc, name)
@@ -225,6 +230,16 @@ def require_valid(doc: dict, name: str, what: str) -> None:
     for key, items in lazy.items():
         for start in range(0, len(items), CHECKED_AT_ONCE):
             _require_part(items[start:start + CHECKED_AT_ONCE], name, key, start, what)
+
+
+def checked_parts(items, name: str, key: str, what: str):
+    """The items of the top-level list ``key`` of a document of schemas/``name`` (a list
+    or LazyList), each checked against the schema, CHECKED_AT_ONCE at a time, before it is
+    given: read once for both (``require_valid`` with ``later``)."""
+    for start in range(0, len(items), CHECKED_AT_ONCE):
+        part = items[start:start + CHECKED_AT_ONCE]
+        _require_part(part, name, key, start, what)
+        yield from part
 
 
 def _require_part(part: list, name: str, key: str, start: int, what: str) -> None:
@@ -395,18 +410,6 @@ LIBRARY_PARQUET_COLUMNS = [
 ]
 
 
-def _anchor_columns(sp: dict) -> dict:
-    """The anchor columns of library.parquet (an entry without 'anchor' is anchored at
-    298.15 K by its ΔfH° and S°)."""
-    a = sp.get("anchor") or {"basis": "own", "temperature": constants.REFERENCE_TEMPERATURE,
-                             "enthalpy": sp["enthalpy_of_formation_298"],
-                             "entropy": sp["entropy_298"],
-                             "enthalpy_zero": sp["enthalpy_of_formation_298"]}
-    return {"anchor_basis": a["basis"], "anchor_temperature": a["temperature"],
-            "anchor_enthalpy": a["enthalpy"], "anchor_entropy": a["entropy"],
-            "enthalpy_zero": a["enthalpy_zero"]}
-
-
 #: rows of each row group of library.parquet (one row per species and range): a group is
 #: made and written at a time, so a large library is never held as one Arrow table. A row
 #: holds its species' sources and findings as JSON text, some 5 KB in Arrow while its group
@@ -414,13 +417,15 @@ def _anchor_columns(sp: dict) -> dict:
 LIBRARY_ROW_GROUP = 16 * 1024
 
 
-def library_parquet_chunks(doc: dict):
+def library_parquet_chunks(doc: dict, check: bool = False):
     """library.parquet in byte pieces as it is written (release.arrowmem.parquet_chunks): one
     row per species and range, in row groups of LIBRARY_ROW_GROUP rows, each made and
-    written in turn; build metadata as key-value metadata."""
+    written in turn; build metadata as key-value metadata. With ``check``, each species
+    entry is checked against schemas/library.schema.json as it is read (``checked_parts``;
+    OutputError at the first that breaks it)."""
     import pyarrow as pa  # here: checking and reading load no pyarrow
 
-    from .arrowmem import parquet_chunks
+    from .arrowmem import arrow_array, parquet_chunks
 
     arrow = {"string": pa.string(), "number": pa.float64(), "integer": pa.int32(),
              "array": pa.list_(pa.float64())}
@@ -432,7 +437,7 @@ def library_parquet_chunks(doc: dict):
     cols = {name: [] for name, _, _ in LIBRARY_PARQUET_COLUMNS}
 
     def group(rows: int) -> tuple:
-        table = pa.table({name: pa.array(cols[name][:rows], type=schema.field(name).type)
+        table = pa.table({name: arrow_array(cols[name][:rows], schema.field(name).type)
                           for name in cols}, schema=schema)
         for name in cols:
             del cols[name][:rows]
@@ -440,10 +445,10 @@ def library_parquet_chunks(doc: dict):
 
     def groups():
         written = 0
-        for sp in doc["species"]:
-            for row in _library_rows(sp):
-                for key, v in row.items():
-                    cols[key].append(v)
+        species = doc["species"]
+        for sp in checked_parts(species, "library.schema.json", "species", "library.json") \
+                if check else species:
+            _add_library_rows(cols, sp)
             while len(cols["id"]) >= LIBRARY_ROW_GROUP:
                 yield group(LIBRARY_ROW_GROUP)
                 written += 1
@@ -458,36 +463,52 @@ def library_parquet_bytes(doc: dict) -> bytes:
     return b"".join(library_parquet_chunks(doc))
 
 
-def _library_rows(sp: dict) -> list:
-    """The library.parquet rows of species entry ``sp``: one per range."""
+def _add_library_rows(cols: dict, sp: dict) -> None:
+    """Add the library.parquet rows of species entry ``sp``, one per range, to the columns
+    ``cols`` (lists by column name): its own values repeated on each of its rows, those of
+    each range once (a column at a time: 0.17 instead of 0.30 s at 10 000 species). An entry
+    without 'anchor' is anchored at 298.15 K by its ΔfH° and S°."""
     import orjson
 
-    text = {key: orjson.dumps(sp[key]).decode() for key in ("extrapolated", "sources", "findings")}
-    return [{"id": sp["id"], "formula": sp["formula"], "phase": sp["phase"],
-             "geometry": sp["geometry"], "molar_mass": sp["molar_mass"],
-             "enthalpy_of_formation_298": sp["enthalpy_of_formation_298"],
-             "entropy_298": sp["entropy_298"], **_anchor_columns(sp),
-             "form": sp["form"], "range_index": j, "t_min": r["t_min"], "t_max": r["t_max"],
-             "data_t_min": sp["data_range"]["t_min"], "data_t_max": sp["data_range"]["t_max"],
-             "cp_max_rel_dev": sp["quality"]["cp_max_rel_dev"],
-             "cp_rms_rel_dev": sp["quality"]["cp_rms_rel_dev"],
-             "points": sp["quality"]["points"], "coefficients": list(r["coefficients"]),
-             "extrapolated": text["extrapolated"], "sources": text["sources"],
-             "findings": text["findings"]}
-            for j, r in enumerate(sp["ranges"])]
+    ranges = sp["ranges"]
+    n = len(ranges)
+    a = sp.get("anchor") or {"basis": "own", "temperature": constants.REFERENCE_TEMPERATURE,
+                             "enthalpy": sp["enthalpy_of_formation_298"],
+                             "entropy": sp["entropy_298"],
+                             "enthalpy_zero": sp["enthalpy_of_formation_298"]}
+    quality, data = sp["quality"], sp["data_range"]
+    for key, value in (
+            ("id", sp["id"]), ("formula", sp["formula"]), ("phase", sp["phase"]),
+            ("geometry", sp["geometry"]), ("molar_mass", sp["molar_mass"]),
+            ("enthalpy_of_formation_298", sp["enthalpy_of_formation_298"]),
+            ("entropy_298", sp["entropy_298"]), ("anchor_basis", a["basis"]),
+            ("anchor_temperature", a["temperature"]), ("anchor_enthalpy", a["enthalpy"]),
+            ("anchor_entropy", a["entropy"]), ("enthalpy_zero", a["enthalpy_zero"]),
+            ("form", sp["form"]), ("data_t_min", data["t_min"]), ("data_t_max", data["t_max"]),
+            ("cp_max_rel_dev", quality["cp_max_rel_dev"]),
+            ("cp_rms_rel_dev", quality["cp_rms_rel_dev"]), ("points", quality["points"]),
+            *((key, orjson.dumps(sp[key]).decode())
+              for key in ("extrapolated", "sources", "findings"))):
+        cols[key].extend([value] * n)
+    cols["range_index"].extend(range(n))
+    cols["t_min"].extend([r["t_min"] for r in ranges])
+    cols["t_max"].extend([r["t_max"] for r in ranges])
+    cols["coefficients"].extend([r["coefficients"] for r in ranges])
 
 
 SCHEMA_COPIES = ("library.schema.json", "findings.schema.json", "manifest.schema.json")
 
 
 def release_files(doc: dict, findings_doc: dict, release) -> None:
-    """The library checked against its schema, and library.parquet, findings.json (checked
-    too; written piece by piece) and the schemas they follow into ``release``
-    (publish.Release). library.json is written with the evaluated tables (release.assemble:
-    in another process while this one works, for a large library)."""
-    require_valid_library(doc)
+    """The library checked against its schema (its species as library.parquet reads them),
+    and library.parquet, findings.json (checked too; written piece by piece) and the
+    schemas they follow into ``release`` (publish.Release). library.json is written with
+    the evaluated tables (release.assemble: in another process while this one works, for a
+    large library)."""
+    # the species entries are checked as library.parquet reads them: each decoded once
+    require_valid(doc, "library.schema.json", "library.json", later=("species",))
     require_valid(findings_doc, "findings.schema.json", "findings.json")
-    release.add_chunks("library.parquet", library_parquet_chunks(doc))
+    release.add_chunks("library.parquet", library_parquet_chunks(doc, check=True))
     release.add_chunks("findings.json", json_chunks(findings_doc))
     for name in SCHEMA_COPIES:  # the release describes itself
         release.add(f"schemas/{name}", schemas.schema_bytes(name))

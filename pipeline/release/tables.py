@@ -16,7 +16,7 @@ from ..library import tables as evaluated
 from ..library.entries import ids_of
 from ..library.formation import Formation
 from ..library.tables import COLUMNS, FLAGS, HEADERS, TEXT, UNITS, species_rows, stable_rows
-from .arrowmem import parquet_chunks
+from .arrowmem import arrow_array, parquet_chunks
 
 DANGEROUS = ("=", "+", "-", "@", "\t", "\r")
 
@@ -75,7 +75,7 @@ def _columns(parts) -> dict:
 
 def _table(cols: dict, schema, rows: int):
     """The first ``rows`` rows of ``cols`` as an Arrow table of ``schema``."""
-    return pa.table({c: pa.array(cols[c][:rows], type=schema.field(c).type)
+    return pa.table({c: arrow_array(cols[c][:rows], schema.field(c).type)
                      for c in COLUMNS}, schema=schema)
 
 

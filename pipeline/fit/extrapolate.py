@@ -160,7 +160,7 @@ def _wilhoit_grid(t) -> tuple:
 
 def _back_substitution(r, b) -> np.ndarray:
     """x of r x = b, r upper triangular with a non-zero diagonal (a few unknowns: in Python
-    floats, a tenth of the time of numpy's small products)."""
+    floats, some 60 % of the time of numpy's products of a few elements)."""
     r, b = r.tolist(), b.tolist()
     x = [0.0] * len(b)
     for i in range(len(b) - 1, -1, -1):

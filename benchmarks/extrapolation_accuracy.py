@@ -26,6 +26,7 @@ from thermoledger.core.constants import GAS_CONSTANT as R
 from thermoledger.fit import extrapolate
 from thermoledger.physics import statmech
 from thermoledger.testing import coverage
+from thermoledger.testing.catalogue import random_molecule
 
 
 def _line(label, rows, seconds) -> str:
@@ -48,9 +49,7 @@ def molecules(n: int, seed: int) -> str:
     t = np.unique(np.append(np.geomspace(200.0, 2000.0, 80), 298.15))
     rows, seconds = [], 0.0
     for _ in range(n):
-        atoms = int(rng.integers(2, 9))
-        geometry = "linear" if atoms == 2 or rng.random() < 0.3 else "nonlinear"
-        nu = rng.uniform(300.0, 3500.0, 3 * atoms - (5 if geometry == "linear" else 6))
+        geometry, atoms, nu = random_molecule(rng)
 
         def truth(x, geometry=geometry, nu=nu):
             return R * statmech.rrho_cp_over_r(x, geometry, nu)

@@ -86,13 +86,12 @@ def _harmonic_molecules(n, seed):
     exact Cp (the textbook partition-function result, physics/statmech.py)."""
     from thermoledger.core.constants import GAS_CONSTANT as R
     from thermoledger.physics import statmech
+    from thermoledger.testing.catalogue import random_molecule
 
     rng = np.random.default_rng(seed)
     t = np.linspace(200.0, 3000.0, 100)
     for _ in range(n):
-        atoms = int(rng.integers(2, 7))
-        geometry = "linear" if atoms == 2 or rng.random() < 0.3 else "nonlinear"
-        nu = rng.uniform(300.0, 3500.0, 3 * atoms - (5 if geometry == "linear" else 6))
+        geometry, atoms, nu = random_molecule(rng, max_atoms=6)
 
         def truth(x, geometry=geometry, nu=nu):
             return R * statmech.rrho_cp_over_r(x, geometry, nu)

@@ -21,6 +21,16 @@ from ..physics import statmech
 SOURCE_TABLES = 2000
 
 
+def random_molecule(rng, max_atoms: int = 8) -> tuple:
+    """(geometry, atoms, wavenumbers [1/cm]) of a SYNTHETIC rigid-rotor/harmonic-oscillator
+    molecule drawn from ``rng``: 2 to ``max_atoms`` atoms, linear when two and for 30 % of
+    the others, its 3N − 5 or 3N − 6 wavenumbers uniform in 300-3500 cm⁻¹."""
+    atoms = int(rng.integers(2, max_atoms + 1))
+    geometry = "linear" if atoms == 2 or rng.random() < 0.3 else "nonlinear"
+    return geometry, atoms, rng.uniform(300.0, 3500.0, 3 * atoms - (5 if geometry == "linear"
+                                                                  else 6))
+
+
 def write_catalogue(raw: Path, n: int, points: int = 100, seed: int = 1,
                     flagged: bool = False) -> None:
     """Write n species into four sources, or one per SOURCE_TABLES species when there are
@@ -32,10 +42,7 @@ def write_catalogue(raw: Path, n: int, points: int = 100, seed: int = 1,
     t = np.unique(np.append(np.geomspace(200.0, 3000.0, points - 1), 298.15))
     per_source = {}
     for i in range(n):
-        atoms = int(rng.integers(2, 9))
-        geometry = "linear" if atoms == 2 or rng.random() < 0.3 else "nonlinear"
-        modes = 3 * atoms - (5 if geometry == "linear" else 6)
-        nu = rng.uniform(300.0, 3500.0, modes)
+        geometry, atoms, nu = random_molecule(rng)
         cp = GAS_CONSTANT * statmech.rrho_cp_over_r(t, geometry, nu)
         cp *= 1 + 1e-3 * rng.standard_normal(t.size)
         if flagged:

@@ -197,6 +197,31 @@ def test_a_standby_whose_preparing_fails_still_does_its_work_and_raises_what_it_
             ready.result()
 
 
+def _prepare_until(marker):
+    """Wait (up to 20 s) for file ``marker``: whether it came while preparing."""
+    for _ in range(2000):
+        if os.path.exists(marker):
+            _PREPARED.append("marker seen")
+            return
+        time.sleep(0.01)
+
+
+def _size_of(payload):
+    return {"prepared": list(_PREPARED), "size": len(payload)}
+
+
+def test_a_standby_takes_a_large_work_while_it_prepares(tmp_path):
+    """Giving a work larger than a pipe holds does not wait for the standby to finish
+    preparing: the marker file made once ``give`` returned is seen while it prepares."""
+    marker = tmp_path / "given"
+    payload = b"x" * (4 << 20)                   # 4 MB: some 60 times a pipe's buffer
+    with processes.standby(_prepare_until, str(marker)) as ready:
+        ready.give(_size_of, payload)
+        marker.touch()
+        got = ready.result()
+    assert got == {"prepared": ["marker seen"], "size": len(payload)}
+
+
 def test_a_standby_given_nothing_or_dismissed_is_killed_and_takes_one_work_only():
     with processes.standby(_prepare, "x") as ready:
         proc = ready._proc

@@ -17,6 +17,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from thermoledger.core import names
+from thermoledger.core.errors import OutputError
 from thermoledger.library import document
 from thermoledger.release import provenance, publish
 from thermoledger.testing import table_entry, write_source
@@ -536,7 +537,7 @@ def _first_non_finite_of(doc) -> str:
 def test_a_release_is_made_durable_at_once_before_it_is_renamed_into_place(
         tmp_path, monkeypatch):
     """Its files are written without an fsync each and synced together (one syncfs on
-    Linux) once they are checked, before the rename makes them a release."""
+    Linux) while they are checked, before the rename makes them a release."""
     from thermoledger.core import paths
 
     synced, fsyncs = [], []
@@ -557,6 +558,45 @@ def test_a_release_is_made_durable_at_once_before_it_is_renamed_into_place(
     assert synced == [(f".staging-{os.getpid()}", ["a/b.txt", "c.txt", "manifest.json"],
                        False)]
     assert (tmp_path / "current" / "c.txt").read_bytes() == b"twothree"
+
+
+def _staged_release(home: Path):
+    home.mkdir(exist_ok=True)
+    release = publish.Release.staged(home)
+    release.add("a.txt", b"new")
+    release.add("manifest.json", b"{}")
+    return release
+
+
+@pytest.mark.parametrize("fails", ["sync", "check", "both"])
+def test_a_release_whose_sync_or_check_fails_is_not_published(tmp_path, monkeypatch, fails):
+    """The check and the sync run at once (another thread syncs); either failing stops the
+    publication with its error (the check's first when both fail), both finished, and the
+    staged files are gone."""
+    from thermoledger.core import paths
+
+    ran = []
+
+    def sync_files(folder, rels):
+        ran.append("sync")
+        if fails in ("sync", "both"):
+            raise OSError(5, "the disk refused")
+
+    def check(folder):
+        assert (Path(folder) / "a.txt").read_bytes() == b"new"
+        ran.append("check")
+        if fails in ("check", "both"):
+            raise OutputError("the staged release fails its own manifest")
+
+    monkeypatch.setattr(paths, "sync_files", sync_files)
+    release = _staged_release(tmp_path / "home")
+    with pytest.raises(OSError if fails == "sync" else OutputError,
+                       match="disk refused" if fails == "sync" else "own manifest"):
+        publish.publish(tmp_path / "home", release, check=check)
+    assert sorted(ran) == ["check", "sync"]
+    assert not (tmp_path / "home" / "current").exists()
+    assert not any((tmp_path / "home").glob(".staging-*"))
+    assert not list((tmp_path / "home").glob("releases/*"))
 
 
 def test_without_syncfs_every_file_is_fsynced(tmp_path, monkeypatch):

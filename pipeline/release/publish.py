@@ -518,6 +518,33 @@ def _prune(target: Path, keep: set):
         shutil.rmtree(p, ignore_errors=True)
 
 
+def _checked_and_synced(release: Release, check=None) -> None:
+    """``check(release.folder)`` while another thread makes the release durable
+    (``Release.sync``): the check reads the files back and hashes them while the kernel
+    writes them out, both waiting outside the interpreter (at 10 000 species 0.1 s and
+    0.15 s, one after the other before). Returns when both are done; raises what either
+    raised, the check's first."""
+    import threading
+
+    failed = []
+
+    def sync():
+        try:
+            release.sync()
+        except BaseException as exc:  # noqa: BLE001 - raised in the publishing thread
+            failed.append(exc)
+
+    syncing = threading.Thread(target=sync, name="thermoledger-sync", daemon=True)
+    syncing.start()
+    try:
+        if check:
+            check(release.folder)
+    finally:
+        syncing.join()
+    if failed:
+        raise failed[0]
+
+
 def publish(target: Path, release: Release, check=None, on_swap=None) -> list:
     """Make ``release`` (``Release.staged`` in ``target``, every file written) the new
     current release of the locked release home ``target`` (see ``locked``).
@@ -534,9 +561,7 @@ def publish(target: Path, release: Release, check=None, on_swap=None) -> list:
     final = home / rid
     try:
         if not final.is_dir():
-            if check:
-                check(staging)
-            release.sync()
+            _checked_and_synced(release, check)
             home.mkdir(exist_ok=True)
             os.rename(staging, final)
         else:

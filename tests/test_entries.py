@@ -258,17 +258,19 @@ def test_a_mapping_made_item_by_item_writes_the_dict_s_bytes(items, rest):
             b"".join(document.json_chunks({**doc, "m": wrong}))
 
 
-def test_writing_a_library_decodes_each_entry_once_and_one_at_a_time(monkeypatch):
-    """json_chunks makes each entry of Entries once, as it writes it: never all of them
-    first (at 100 000 species that held 1.3 GB at once)."""
-    entries = [{"id": f"s{i}", "x": [float(i)]} for i in range(50)]
+def test_writing_a_library_decodes_each_entry_once_and_a_batch_at_a_time(monkeypatch):
+    """json_chunks makes each entry of Entries once, as it writes it, WRITTEN_AT_ONCE at a
+    time: never all of them first (at 100 000 species that held 1.3 GB at once)."""
+    n = 2 * document.WRITTEN_AT_ONCE + 50
+    entries = [{"id": f"s{i}", "x": [float(i)]} for i in range(n)]
     kept = Entries.of(entries)
     decoded, written = [], []
     monkeypatch.setattr(held, "_loads", lambda b: decoded.append(b) or orjson.loads(b))
     for piece in document.json_chunks({"a": 1, "species": kept, "more": []}):
         written.append(len(decoded))
-    assert len(decoded) == 50
+    assert len(decoded) == n
     assert written == sorted(written) and written[0] == 0     # none made before writing
+    assert max(b - a for a, b in zip(written, written[1:])) == document.WRITTEN_AT_ONCE
 
 
 def test_formulas_are_given_or_read_from_the_entries():

@@ -424,6 +424,50 @@ def test_the_fast_non_finite_check_names_the_first_bad_number(doc):
         _first_non_finite({"species": [0.5, {"cp": doc}]}, "")
 
 
+#: JSON_DOCS with the integers orjson writes (64 bits)
+ORJSON_DOCS = st.recursive(
+    st.one_of(st.none(), st.booleans(), st.integers(-2 ** 63, 2 ** 63 - 1), st.text(max_size=5),
+              st.floats(allow_nan=True, allow_infinity=True)),
+    lambda inner: st.one_of(st.lists(inner, max_size=4), st.tuples(inner, inner),
+                            st.dictionaries(st.text(max_size=3), inner, max_size=4)),
+    max_leaves=25)
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.dictionaries(st.text(max_size=3), ORJSON_DOCS, max_size=3),
+       st.lists(ORJSON_DOCS, min_size=1, max_size=8), st.integers(0, 600), st.booleans())
+def test_a_long_list_or_mapping_written_in_batches_is_the_document_written_whole(
+        rest, base, n, as_mapping):
+    """json_chunks writes the items of a top-level list or mapping WRITTEN_AT_ONCE per
+    orjson call: the bytes are orjson's of the whole document (indented by two, a final
+    newline), and a NaN or an infinity anywhere is refused. (``n`` items drawn in turn from
+    ``base``: long lists without drawing hundreds of documents.)"""
+    import orjson
+    from thermoledger.release.document import json_bytes
+
+    items = [base[i % len(base)] for i in range(n)]
+    doc = {**rest, "big": {f"k{i}": x for i, x in enumerate(items)} if as_mapping else items}
+    if _first_non_finite_of(doc):
+        with pytest.raises(OutputError, match="JSON cannot carry"):
+            json_bytes(doc)
+    else:
+        assert json_bytes(doc) == orjson.dumps(
+            doc, option=orjson.OPT_INDENT_2 | orjson.OPT_APPEND_NEWLINE)
+
+
+def test_a_number_json_cannot_carry_past_the_first_batch_is_refused_where_it_is():
+    from thermoledger.release.document import WRITTEN_AT_ONCE, json_bytes
+
+    items = [{"x": float(i), "line": None} for i in range(WRITTEN_AT_ONCE + 40)]
+    items[WRITTEN_AT_ONCE + 7]["x"] = float("inf")
+    with pytest.raises(OutputError, match=f"at /findings/{WRITTEN_AT_ONCE + 7}/x"):
+        json_bytes({"findings": items})
+    pairs = {f"r{i}": {"v": float(i)} for i in range(WRITTEN_AT_ONCE * 2)}
+    pairs["r300"]["v"] = float("nan")
+    with pytest.raises(OutputError, match="at /relation/r300/v"):
+        json_bytes({"relation": pairs})
+
+
 def test_release_files_are_written_as_they_are_made_and_a_failure_leaves_none(
         tmp_path, raw, capsys, monkeypatch):
     """The release is never held whole in memory: each file lands in the staging folder as

@@ -2,6 +2,7 @@
 
 import hashlib
 import re
+from functools import lru_cache
 
 from .errors import OutputError
 
@@ -14,10 +15,12 @@ def sha256(data: bytes) -> str:
     return hashlib.sha256(data).hexdigest()
 
 
+_UNSAFE, _DOTS = re.compile(r"[^A-Za-z0-9._-]+"), re.compile(r"\.{2,}")
+
+
 def safe_name(text: str) -> str:
     """A file-name and identifier-safe form of a species id: 'CO2(g)' -> 'CO2_g'."""
-    name = re.sub(r"[^A-Za-z0-9._-]+", "_", text)
-    name = re.sub(r"\.{2,}", "_", name).strip("._-")
+    name = _DOTS.sub("_", _UNSAFE.sub("_", text)).strip("._-")
     return name[:80] or "species"
 
 
@@ -27,13 +30,16 @@ def species_name(species_id: str) -> str:
     return species_id.rsplit("(", 1)[0]
 
 
+@lru_cache(maxsize=1 << 18)
 def file_stem(species_id: str) -> str:
     """The file name (without suffix) of a species' report page, plot or table.
 
     The readable part is ``safe_name``; the suffix is the first 10 hex digits of the sha256 of
     the exact id, so ids that sanitise alike ('NO(g)', 'NO+(g)') or differ only in case
     ('CO(g)', 'Co(g)', on case-insensitive file systems) never share a file, and a species
-    keeps its file names from release to release: 'CO2(g)' -> 'CO2_g-<10 hex>'.
+    keeps its file names from release to release: 'CO2(g)' -> 'CO2_g-<10 hex>'. Kept once
+    made: a release names each species' files several times (the check of their names,
+    the provenance, the report).
     """
     digest = sha256(species_id.encode("utf-8"))[:STEM_DIGEST_DIGITS]
     return f"{safe_name(species_id)[:60]}-{digest}"

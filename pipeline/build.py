@@ -11,7 +11,7 @@ from pathlib import Path
 
 import numpy as np
 
-from . import fit, ingest, partitions
+from . import __version__, fit, ingest, partitions
 from .checks import acknowledge, reconcile, references, registry, transitions
 from .core import paths, units
 from .core.errors import FitError, OutputError, let_through
@@ -22,7 +22,7 @@ from .core.settings import Settings, for_table
 from .core.spill import Spill, SpilledObjects
 from .library import document as library
 from .library.entries import compact, outline, outlines_of
-from .release import assemble, formation, held, provenance, publish
+from .release import assemble, formation, held, provenance, publish, reuse
 from .release import audit as audit_stage
 from .release import document as release_document
 from .release.pages import Drawn
@@ -46,6 +46,7 @@ class BuildResult:
     inputs: tuple = ()     # InputFile of every raw input read
     reused: tuple = (0, 1)  # (partitions taken from the last build, partitions)
     linked: int = 0         # species whose report pages were linked from the last release
+    placed: object = None   # release.reuse.Placed: where the species' pieces lie in its files
 
 
 def examine(raw_dir, ctx: Settings = Settings(), workers: int = 1,
@@ -295,15 +296,22 @@ def _planned_build(raw_dir, out_dir, ctx, write, progress, wait, previous, cut, 
                                                           previous, digests), use=not fresh)
         drawn = Drawn(real, partitions.code_digest(), use=not fresh) \
             if ctx.outputs.report else None
+        context = reuse.context(partitions.code_digest(), __version__, ctx.to_dict())
+        pieces = reuse.previous(real / partitions.STORE, real / publish.CURRENT, context,
+                                use=not fresh)
         try:
-            result = _build(raw_dir, real, ctx, progress, previous, cut, store, drawn, ready)
+            result = _build(raw_dir, real, ctx, progress, previous, cut, store, drawn, ready,
+                            pieces)
         except BaseException:
             store.discard()
             if drawn:
                 drawn.discard()
             raise
+        finally:
+            pieces.close()
         store.commit()
         keep_breakpoints(real, result.document)
+        reuse.keep(real / partitions.STORE, real / publish.CURRENT, context, result.placed)
         digests.save()
         if drawn:
             drawn.save()
@@ -403,14 +411,26 @@ def _build_part(raw_dir, ctx: Settings, previous: dict, say, part) -> partitions
     points = assemble.plot_points(entries.values(), checked)   # whatever the outputs
     rows = assemble.evaluated_rows(entries, checked.chains, ctx.outputs.table_step)
     checked, fitted = _without_rows(checked, _lineage_only(fitted))
+    lineages = tuple((sp.table.meta.species_id, compact(provenance.lineage(sp))) for sp in fitted)
+    blobs = tuple((sid, compact(e)) for sid, e in entries.items())
     return partitions.PartResult(
         checked=checked, fitted=tuple((held.brief(sp), held.pickled(sp)) for sp in fitted),
-        lineages=tuple((sp.table.meta.species_id, compact(provenance.lineage(sp)))
-                       for sp in fitted),
-        quarantined=tuple(quarantined), findings=tuple(findings),
-        entries=tuple((sid, compact(e)) for sid, e in entries.items()),
-        outlines=tuple((sid, compact(outline(e))) for sid, e in entries.items()),
-        points=tuple(points.items()), rows=(rows,))
+        lineages=lineages, quarantined=tuple(quarantined), findings=tuple(findings),
+        entries=blobs, outlines=tuple((sid, compact(outline(e))) for sid, e in entries.items()),
+        points=tuple(points.items()), rows=(rows,), digests=_digests(blobs, lineages))
+
+
+def _digests(entries, lineages) -> tuple:
+    """(species id, sha256 of its entry's compact JSON, of its lineage's) of a partition's
+    ``entries`` and ``lineages`` ((species id, compact JSON) each; the same ids), made where
+    the partition is: the keys of the pieces a release takes from the last
+    (release/reuse.py)."""
+    import hashlib
+
+    lines = dict(lineages)
+    return tuple((sid, hashlib.sha256(blob).hexdigest(),
+                  hashlib.sha256(lines[sid]).hexdigest() if sid in lines else None)
+                 for sid, blob in entries)
 
 
 def _without_rows(checked: CheckResult, fitted) -> tuple:
@@ -471,20 +491,21 @@ def _quiet(stage, i=0, n=0, label=""):
 
 
 def _build(raw_dir, out_dir, ctx: Settings, progress, previous: dict,
-           cut=partitions.Plan(), store=None, drawn=None, ready=None) -> BuildResult:
+           cut=partitions.Plan(), store=None, drawn=None, ready=None,
+           pieces=None) -> BuildResult:
     say = progress or _quiet
     # the release home is judged before the partitions kept for the next build appear in it
     files = publish.Release() if out_dir is None else publish.Release.staged(out_dir)
     try:
         return _build_into(files, raw_dir, out_dir, ctx, say, previous, cut, store, drawn,
-                           ready)
+                           ready, pieces)
     except BaseException:
         files.discard()
         raise
 
 
 def _build_into(files, raw_dir, out_dir, ctx: Settings, say, previous: dict, cut,
-                store, drawn=None, ready=None) -> BuildResult:
+                store, drawn=None, ready=None, pieces=None) -> BuildResult:
     say("read and check", 0, 0, str(raw_dir))
     spill = Spill(out_dir)         # unnamed: gone with the last entry of the library read
     done, reused = partitions.run(partial(_build_part, raw_dir, ctx, previous,
@@ -492,14 +513,17 @@ def _build_into(files, raw_dir, out_dir, ctx: Settings, say, previous: dict, cut
                                   keep=partial(_held, spill, ctx.outputs.report),
                                   ready=ready)
     checked, entries = done.checked, dict(done.entries)
-    fitted = held.HeldFitted(spill, done.fitted, done.lineages)
+    digests = {sid: (entry, lineage) for sid, entry, lineage in done.digests}
+    fitted = held.HeldFitted(spill, done.fitted, done.lineages,
+                             [digests.get(sid, (None, None))[1] for sid, _ in done.lineages])
     quarantined, findings = list(done.quarantined), list(done.findings)
     points, rows = SpilledObjects(spill, dict(done.points)), done.rows
     outlines = dict(done.outlines)
     del done        # the partitions' results are not needed whole from here on
     digest = ingest.inputs_digest(checked.inputs)
     doc = release_document.library_document(fitted, quarantined, digest, ctx.to_dict(), entries,
-                                            checked.chains, spill, outlines)
+                                            checked.chains, spill, outlines,
+                                            {sid: d[0] for sid, d in digests.items()})
     del outlines
     del entries
     findings += formation.attach(doc, checked.references, checked.tables,
@@ -508,14 +532,16 @@ def _build_into(files, raw_dir, out_dir, ctx: Settings, say, previous: dict, cut
                                quarantined=tuple(quarantined), checked=checked,
                                points=points, rows=rows)
     del points, rows
-    assemble.release_files(outcome, ctx, files, say, drawn)
+    placed = reuse.Placed() if pieces is not None else None
+    assemble.release_files(outcome, ctx, files, say, drawn, pieces, placed)
     say("publish", 0, 0, str(out_dir or ""))
     written = [] if out_dir is None else publish.publish(
         out_dir, files, check=_verify, on_swap=lambda: say("published"))
     return BuildResult(fitted=fitted, quarantined=tuple(quarantined),
                        findings=tuple(findings), document=doc, written=tuple(written),
                        files=files, held_back=checked.held_back, inputs=checked.inputs,
-                       reused=(reused, cut.parts), linked=drawn.linked if drawn else 0)
+                       reused=(reused, cut.parts), linked=drawn.linked if drawn else 0,
+                       placed=placed)
 
 
 def _verify(folder):

@@ -100,7 +100,8 @@ def aside_always(monkeypatch):
 def test_files_written_aside_are_those_written_here(tmp_path, monkeypatch, aside_always):
     """The demo with its report, built with library.json and tables.parquet written by the
     helper and by the build's own process: byte-identical releases, and the helper's files
-    taken in."""
+    taken in. Both make the manifest's lineages ahead (where each lies is kept for the next
+    build: release/reuse.py), the first while the helper writes."""
     rendered = []
     real = assemble.document.render_list
     monkeypatch.setattr(assemble.document, "render_list",
@@ -110,7 +111,7 @@ def test_files_written_aside_are_those_written_here(tmp_path, monkeypatch, aside
     assert rendered == ["species"]       # the manifest's lineages made while the helper wrote
     monkeypatch.setattr(assemble, "ASIDE_FROM", 10 ** 9)
     here = build.build(RAW, tmp_path / "here")
-    assert rendered == ["species"]
+    assert rendered == ["species", "species"]
     assert tree_hashes(tmp_path / "aside") == tree_hashes(tmp_path / "here")
     assert aside.files.sha256("tables.parquet") == here.files.sha256("tables.parquet")
 
@@ -121,7 +122,7 @@ def test_a_failure_in_the_helper_stops_the_build_and_leaves_the_last_release(
     assert run_cli(capsys, "build", "--raw", RAW, "--out", out, "--no-report", "--quiet")[0] == 0
     before = tree_hashes(out)
 
-    def full_disk(doc, step=100.0, points=None, own=None):
+    def full_disk(doc, step=100.0, points=None, own=None, taken=None):
         raise OutputError("tables.parquet: no space left on device (simulated)")
 
     monkeypatch.setattr(tables, "tables_parquet_chunks", full_disk)

@@ -14,7 +14,7 @@ import pytest
 from thermoledger import build, partitions
 from thermoledger.core.names import species_name
 from thermoledger.ingest import sources
-from thermoledger.release import pages
+from thermoledger.release import pages, reuse
 
 from .conftest import run_cli, tree_hashes
 
@@ -298,7 +298,8 @@ def test_kept_partitions_wait_on_disk_until_the_release_is_published(tmp_path, m
     names = sorted(p.name for p in (out / partitions.STORE).iterdir())
     assert names[:2] == [build.KEPT_BREAKPOINTS, partitions.Digests.FILE]
     assert names[2] == pages.KEPT.format((out / "current").resolve().name)
-    assert len(names) == 5 and all(n.startswith("part-") for n in names[3:])
+    assert len(names) == 6 and all(n.startswith("part-") for n in names[3:5])
+    assert names[5] == reuse.KEPT
 
 
 def test_a_loaded_partition_is_kept_as_the_caller_keeps_it_before_the_next_is_loaded(

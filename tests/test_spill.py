@@ -78,7 +78,7 @@ def test_a_build_holds_its_entries_in_a_scratch_file_that_leaves_nothing(tmp_pat
             (p.is_symlink() and os.readlink(p) == f"current/{p.name}")
     assert {p.name for p in (out / ".parts").iterdir()
             if not p.name.startswith(("part-", "pages-"))} == {"breakpoints.json",
-                                                               "digests.json"}
+                                                               "digests.json", "pieces.json"}
 
 
 def test_objects_in_a_spill_are_unpickled_when_read(tmp_path):

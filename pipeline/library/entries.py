@@ -64,17 +64,19 @@ class Entries(LazyList):
     give a fresh dict each time: changing it changes nothing held until it is put back
     (``entries[i] = entry``, into the spill when there is one)."""
 
-    __slots__ = ("_blobs", "_ids", "_index", "_spill", "_formulas", "_outlines", "_more")
+    __slots__ = ("_blobs", "_ids", "_index", "_spill", "_formulas", "_outlines", "_more",
+                 "_digests")
 
     #: its items are read from JSON: each reads back as itself when written again
     from_json = True
 
-    def __init__(self, pairs=(), spill=None, formulas=None, outlines=None):
+    def __init__(self, pairs=(), spill=None, formulas=None, outlines=None, digests=None):
         """``pairs``: (species id, compact JSON bytes of its entry, or its (offset, size) in
         ``spill``), in the document's order; ``formulas`` the entries' formulas and
         ``outlines`` the compact JSON of their ``outline`` (bytes, or (offset, size) in
         ``spill``), in the same order, when known (``formulas`` and ``outlines`` then need no
-        entry decoded)."""
+        entry decoded); ``digests`` the sha256 (hex) of each entry's compact JSON, or None
+        where not known (``key`` then reads and hashes it)."""
         self._ids, self._blobs = [], []
         for sid, blob in pairs:
             self._ids.append(sid)
@@ -82,7 +84,9 @@ class Entries(LazyList):
         self._index, self._spill, self._more = None, spill, None
         self._formulas = list(formulas) if formulas is not None else None
         self._outlines = list(outlines) if outlines is not None else None
-        for name, known in (("formulas", self._formulas), ("outlines", self._outlines)):
+        self._digests = list(digests) if digests is not None else None
+        for name, known in (("formulas", self._formulas), ("outlines", self._outlines),
+                            ("digests", self._digests)):
             if known is not None and len(known) != len(self._ids):
                 raise ValueError(f"{len(known)} {name} for {len(self._ids)} entries")
 
@@ -126,6 +130,8 @@ class Entries(LazyList):
         if entry["id"] != self._ids[i]:
             raise ValueError(f"entry {i} is {self._ids[i]}, not {entry['id']}")
         self._blobs[i] = self._put(compact(entry))
+        if self._digests is not None:
+            self._digests[i] = None
         if self._more is not None:
             self._more[2 * i] = -1
         if self._outlines is not None:
@@ -154,6 +160,37 @@ class Entries(LazyList):
             self._more = array("q", [-1]) * (2 * len(self))
         offset, size = self._spill.put(compact(self._added(i) + list(findings)))
         self._more[2 * i], self._more[2 * i + 1] = offset, size
+
+    def add_findings_to(self, added: dict) -> None:
+        """``add_findings`` of each entry of ``added`` ({index: findings}), those going to
+        the spill written there in one go (a build adds them to every species without
+        formation properties: 10 000 writes at 10 000 species, one by one)."""
+        added = {range(len(self))[i]: list(f) for i, f in added.items() if f}
+        if self._spill is None:
+            for i, findings in added.items():
+                self.add_findings(i, findings)
+            return
+        if self._more is None:
+            self._more = array("q", [-1]) * (2 * len(self))
+        order = sorted(added)
+        places = self._spill.put_many(compact(self._added(i) + added[i]) for i in order)
+        for i, (offset, size) in zip(order, places):
+            self._more[2 * i], self._more[2 * i + 1] = offset, size
+
+    def key(self, i: int) -> str:
+        """The key of entry ``i`` as it reads (sha256, hex; nothing decoded): of its compact
+        JSON, and with findings added to it, of that and their compact JSON. Two entries
+        of equal keys read as equal dicts: what release/reuse.py takes a piece of a release
+        by."""
+        import hashlib
+
+        own = self._digests[i] if self._digests is not None else None
+        if own is None:
+            own = hashlib.sha256(self._json(i)).hexdigest()
+        if self._more is None or self._more[2 * i] < 0:
+            return own
+        added = self._spill.get(self._more[2 * i], self._more[2 * i + 1])
+        return hashlib.sha256(own.encode() + b"\0" + added).hexdigest()
 
     def ids(self) -> list:
         """The species ids, in order (nothing decoded)."""

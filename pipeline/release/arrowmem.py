@@ -115,3 +115,70 @@ def parquet_chunks(schema, groups, **options):
             give_back()
             yield sink.take()
     yield sink.take()
+
+
+def regrouped(tables, size: int, schema):
+    """(Arrow table, rows) of each row group ``parquet_chunks`` is to write: the rows of
+    ``tables`` (Arrow tables of ``schema``, in order) cut into groups of ``size`` rows, the
+    last one smaller and given with rows None (the writer's own cut: one group); one empty
+    group when there are no rows. Each group's columns are one chunk (combine_chunks), so
+    its bytes do not depend on how its rows came: made, or read from another file."""
+    import pyarrow as pa
+
+    pending, count, written = [], 0, 0
+    for table in tables:
+        if not table.num_rows:
+            continue
+        pending.append(table)
+        count += table.num_rows
+        if count < size:
+            continue
+        whole, at = pa.concat_tables(pending), 0
+        pending = []
+        while count - at >= size:
+            yield whole.slice(at, size).combine_chunks(), size
+            at, written = at + size, written + 1
+        if count > at:
+            pending = [whole.slice(at)]
+        count -= at
+        del whole
+    if count or not written:
+        yield (pa.concat_tables(pending).combine_chunks() if pending
+               else schema.empty_table()), None
+
+
+class RowSource:
+    """Rows of an existing Parquet file of ``schema``, read a row group at a time (the last
+    one read kept) and given as Arrow tables of ``schema``."""
+
+    def __init__(self, path, schema):
+        import numpy as np
+        import pyarrow.parquet as pq
+
+        self._file, self._schema = pq.ParquetFile(path), schema
+        meta = self._file.metadata
+        self._ends = np.cumsum([meta.row_group(g).num_rows for g in range(meta.num_row_groups)],
+                               dtype=np.int64)
+        self._group, self._table = None, None
+
+    def rows(self, start: int, stop: int):
+        """Arrow tables of rows ``start`` to ``stop`` (excluded), in order (IndexError
+        beyond the file's rows)."""
+        import numpy as np
+
+        while start < stop:
+            g = int(np.searchsorted(self._ends, start, side="right"))
+            if g >= len(self._ends):
+                raise IndexError(f"row {start} is beyond the rows of the file")
+            if g != self._group:
+                self._table = None
+                self._table = self._file.read_row_group(g).cast(self._schema)
+                self._group = g
+            first = int(self._ends[g]) - self._table.num_rows
+            end = min(stop, int(self._ends[g]))
+            yield self._table.slice(start - first, end - start)
+            start = end
+
+    def close(self) -> None:
+        self._table = None
+        self._file.close()

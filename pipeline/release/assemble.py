@@ -16,7 +16,8 @@ from ..core.settings import Settings
 from ..library import document as library
 from ..library.entries import ids_of
 from ..physics import forms
-from . import document, provenance
+from . import document, provenance, reuse
+from .held import briefs_of
 
 
 @dataclass(frozen=True)
@@ -44,13 +45,16 @@ class Outcome:
 ASIDE_FROM, ASIDE_UNTIL = 2000, 40000
 
 
-def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None):
+def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None,
+                  previous=None, placed=None):
     """Every file of the release into ``release`` (publish.Release: each written as soon as
     it is made), each checked against its schema where it has one; ``say(stage, i, n,
     label)`` hears of each step (the report species by species). ``pages`` (pages.Drawn)
     offers the report pages of the last release, linked where drawn from the same inputs.
     library.json and tables.parquet of a large release are written by a process of their
-    own (``ASIDE_FROM``, ``ASIDE_UNTIL``): the same bytes, whichever process writes them."""
+    own (``ASIDE_FROM``, ``ASIDE_UNTIL``): the same bytes, whichever process writes them.
+    ``previous`` (reuse.Previous) offers the species' pieces of the last release, and
+    ``placed`` (reuse.Placed) hears where this release's lie (both or neither given)."""
 
     from ..library.tables import unpack_rows
     from . import report, tables
@@ -63,22 +67,34 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None
     own = unpack_rows(*outcome.rows)          # each species' rows made when written
     staging = release.staging() if ASIDE_FROM <= len(ids) < ASIDE_UNTIL and \
         (os.cpu_count() or 1) > 1 else None
+    takes = _takings(doc, outcome.fitted, previous, placed) if previous is not None else None
+    # library.json goes aside unless most of it is taken from the last release: then it
+    # costs less than tables.parquet, which is decompressed and compressed again
+    aside = ASIDE_NAMES if not takes or takes[0].share() < 0.5 else ("tables.parquet",)
     say("write tables", 0, 0, "library.json, library.parquet, tables.parquet")
     if staging:
         processes.give_back_memory()         # before the helper forks: it shares less
     with ExitStack() as kept:
         species = None         # the manifest's lineages, when made ahead
-        with (processes.aside(aside_files, doc, own, out.table_step, staging.write_chunks)
+        with (processes.aside(aside_files, doc, own, out.table_step, staging.write_chunks,
+                              takes and takes[:2], aside)
               if staging else nullcontext()) as helper:
-            document.release_files(doc, document.findings_document(outcome.findings), release)
-            if helper is None:
-                aside_files(doc, own, out.table_step, release.add_chunks)
-            else:       # while the helper writes: the manifest's lineages, checked, written
-                species = kept.enter_context(_lineages_ahead(outcome.fitted, release.folder))
+            document.release_files(doc, document.findings_document(outcome.findings), release,
+                                   takes and takes[2])
+            here = ASIDE_NAMES if helper is None else \
+                tuple(name for name in ASIDE_NAMES if name not in aside)
+            _, got = aside_files(doc, own, out.table_step, release.add_chunks,
+                                 takes and takes[:2], here)
+            if helper is not None or takes:    # the manifest's lineages, checked, written
+                species = kept.enter_context(_lineages_ahead(outcome.fitted, release.folder,
+                                                             takes and takes[3]))
             if out.tables_csv:
                 release.update(tables.csv_files(doc, out.table_step))
-            for rel, summed in (helper.result() if helper else {}).items():
-                release.adopt(rel, summed)     # before the report's workers fork
+            if helper is not None:
+                sums, got_aside = helper.result()
+                got.update(got_aside)
+                for rel, summed in sums.items():
+                    release.adopt(rel, summed)     # before the report's workers fork
         if out.report:
             report.report_files(doc, outcome.points, ctx.fit.accept_cp_max_rel, say=say,
                                 release=release,
@@ -91,17 +107,49 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None
                                   doc["build"]["inputs_sha256"], species)
         document.require_valid(man, "manifest.schema.json", "manifest.json")
         release.add_chunks("manifest.json", document.json_chunks(man))
+        if takes:
+            _placed(placed, takes, got, species)
     sources = {t.meta.source.id: t.meta.source for t in checked.tables}.values()
     release.add_chunks("datapackage.json", document.json_chunks(
         provenance.datapackage(release.outputs(), sources, document.NOTICE)))
     return release
 
 
+def _takings(doc: dict, fitted, previous, placed) -> tuple:
+    """(library.json, tables.parquet, library.parquet, manifest lineages) reuse.Takings of
+    a release of library document ``doc`` and ``fitted``: the species' pieces it may take
+    from the ``previous`` release (made before a helper forks: the keys read every entry)."""
+    keys, ids = reuse.keys_of(doc["species"]), ids_of(doc["species"])
+    lineages = provenance.lineages(fitted)
+    placed.contexts["tables.parquet"] = t_ctx = reuse.tables_context(doc, keys)
+    return (reuse.Taking(previous, "library.json", keys, ids),
+            reuse.Taking(previous, "tables.parquet", keys, ids,
+                         usable=previous.contexts.get("tables.parquet") == t_ctx),
+            reuse.Taking(previous, "library.parquet", keys, ids),
+            reuse.Taking(previous, "manifest.json", reuse.keys_of(lineages),
+                         [x.species_id for x in briefs_of(fitted)]))
+
+
+def _placed(placed, takes, got: dict, species) -> None:
+    """Tell ``placed`` where the pieces of the release just written lie: library.json's and
+    tables.parquet's as ``aside_files`` gave them (``got``), library.parquet's as its Taking
+    heard them, the manifest's lineages (``species``, document.Rendered) from where their
+    list begins in the file."""
+    json_t, tables_t, parquet_t, manifest_t = takes
+    placed.add("library.json", json_t.keys, got["library.json"])
+    placed.add("tables.parquet", tables_t.keys, got["tables.parquet"])
+    placed.add("library.parquet", parquet_t.keys, parquet_t.placed)
+    if species is not None and species.start is not None:
+        placed.add("manifest.json", manifest_t.keys,
+                   [(species.start + at, size) for at, size in species.placed])
+
+
 @contextmanager
-def _lineages_ahead(fitted, folder):
+def _lineages_ahead(fitted, folder, taken=None):
     """The manifest's lineages of ``fitted``, checked and written ahead into a scratch file
     in ``folder`` (release.document.render_list), for as long as the block lasts; None
-    when there are none."""
+    when there are none. ``taken`` (reuse.Taking) gives those it takes from the last
+    release."""
     from ..core.spill import Spill
 
     items = provenance.lineages(fitted)
@@ -111,21 +159,47 @@ def _lineages_ahead(fitted, folder):
     spill = Spill(folder)
     try:
         yield document.render_list(items, "manifest.schema.json", "species", "manifest.json",
-                                   spill)
+                                   spill, taken.piece if taken else None)
     finally:
         spill.close()
 
 
-def aside_files(doc: dict, own, step: float, write) -> dict:
-    """library.json and tables.parquet of library document ``doc`` (``own``: the species'
-    evaluated rows, library.tables.unpack_rows), each given to ``write(relative path, byte
-    pieces)``; {relative path: what ``write`` returned}. library.json is checked against
-    its schema by ``document.release_files``, which a build calls at the same time."""
+#: the files ``aside_files`` writes
+ASIDE_NAMES = ("library.json", "tables.parquet")
+
+
+def aside_files(doc: dict, own, step: float, write, takes=None, names=ASIDE_NAMES) -> tuple:
+    """The files ``names`` of library.json and tables.parquet of library document ``doc``
+    (``own``: the species' evaluated rows, library.tables.unpack_rows), each given to
+    ``write(relative path, byte pieces)``: ({relative path: what ``write`` returned},
+    {relative path: where each species' piece lies in it}, the latter only with ``takes``,
+    the reuse.Takings of the two files). library.json is checked against its schema by
+    ``document.release_files``, which a build calls at the same time."""
     from . import tables
 
-    return {"library.json": write("library.json", document.json_chunks(doc)),
-            "tables.parquet": write("tables.parquet",
-                                    tables.tables_parquet_chunks(doc, step, own=own))}
+    json_t, tables_t = takes or (None, None)
+    sums, placed = {}, {}
+    if "library.json" in names:
+        if json_t is None:
+            sums["library.json"] = write("library.json", document.json_chunks(doc))
+        else:
+            species = doc["species"]
+
+            def pieces():
+                for j in range(len(species)):
+                    yield json_t.piece(j) or document.item_bytes(species[j])
+
+            listed = document.Pieced(len(species), pieces)
+            sums["library.json"] = write("library.json",
+                                         document.json_chunks({**doc, "species": listed}))
+            placed["library.json"] = listed.placed
+    if "tables.parquet" in names:
+        sums["tables.parquet"] = write("tables.parquet", tables.tables_parquet_chunks(
+            doc, step, own=own, taken=tables_t))
+        if tables_t is not None:
+            tables_t.close()
+            placed["tables.parquet"] = tables_t.placed
+    return sums, placed
 
 
 def evaluated_rows(entries: dict, chains, step: float) -> dict:

@@ -164,15 +164,17 @@ def _source_ref(use) -> dict:
 
 
 def library_document(fitted, quarantined, inputs_sha256: str, settings: dict,
-                     entries=None, chains=(), spill=None, outlines=None) -> dict:
+                     entries=None, chains=(), spill=None, outlines=None, digests=None) -> dict:
     """The whole library.json document.
 
     ``quarantined`` is a sequence of (TableMeta, findings) for tables left out; ``entries``
     optionally maps species ids to their species_entry, already made, or to its compact
     JSON, as bytes or as its (offset, size) in ``spill`` (core.spill.Spill): the species are
     then held as library.entries.Entries, knowing their outlines when ``outlines`` maps
-    every species id to the compact JSON of its library.entries.outline; ``chains`` the
-    phase chains of the build (their transitions between fitted phases are listed).
+    every species id to the compact JSON of its library.entries.outline, and with
+    ``digests`` (species id: sha256 of the compact JSON given) their keys known
+    (library.entries.Entries.key); ``chains`` the phase chains of the build (their
+    transitions between fitted phases are listed).
     """
     entries = entries or {}
     ordered, briefs = in_order(fitted), briefs_of(fitted)
@@ -184,7 +186,9 @@ def library_document(fitted, quarantined, inputs_sha256: str, settings: dict,
         species = Entries(((sid, compact(e) if isinstance(e, dict) else e) for sid, e in made),
                           spill, [b.formula for b in briefs],
                           [known[sid] for sid, _ in made]
-                          if all(sid in known for sid, _ in made) else None)
+                          if all(sid in known for sid, _ in made) else None,
+                          [digests.get(sid) if isinstance(e, bytes | tuple) else None
+                           for sid, e in made] if digests else None)
     else:
         species = [e for _, e in made]
     return {
@@ -221,7 +225,7 @@ def require_valid(doc: dict, name: str, what: str, later=()) -> None:
         if key in doc:
             doc = {**doc, key: []}
             lazy.pop(key, None)
-    done = {k for k, v in doc.items() if isinstance(v, Rendered)}
+    done = {k for k, v in doc.items() if isinstance(v, (Rendered, Pieced))}
     errors = schemas.errors_of({**doc, **{k: [] for k in lazy.keys() | done}}
                                if lazy or done else doc, name)
     if errors:
@@ -258,10 +262,13 @@ class Rendered:
     """The top-level list of a document, checked against its schema and written as
     ``json_chunks`` writes it (from its "[" to its "]") ahead of the rest of the document
     (``render_list``); ``json_chunks`` writes these bytes again, read back from the
-    core.spill.Spill that holds them, and ``require_valid`` does not check it again."""
+    core.spill.Spill that holds them, and ``require_valid`` does not check it again.
+    ``placed`` is (offset, size) of each item (without its separator) from the start of
+    these bytes; ``json_chunks`` sets ``start``, where they begin in the file."""
 
-    def __init__(self, spill, where: list, items):
+    def __init__(self, spill, where: list, items, placed=()):
         self._spill, self._where, self.items = spill, where, items
+        self.placed, self.start = list(placed), None
 
     def __len__(self) -> int:
         return len(self.items)
@@ -272,26 +279,80 @@ class Rendered:
             yield self._spill.get(offset, size)
 
 
-def render_list(items, name: str, key: str, what: str, spill) -> Rendered:
+def render_list(items, name: str, key: str, what: str, spill, taken=None) -> Rendered:
     """The non-empty top-level list ``items`` (a list or core.lazy.LazyList) of the list
     ``key`` of a document of schemas/``name`` (``what`` names it in errors), checked and
     written into ``spill`` CHECKED_AT_ONCE items at a time, each item read once: the bytes
-    ``json_chunks`` would write for it, made while another process writes other files."""
+    ``json_chunks`` would write for it, made while another process writes other files.
+    ``taken(i)`` gives the bytes of item ``i`` taken from the last release
+    (release/reuse.py), or None: an item taken is neither read nor checked again."""
     trusted = getattr(items, "from_json", False)
-    n, where, first = len(items), [], b"[\n"
+    n, where, first, placed, at = len(items), [], b"[\n", [], 0
     if not n:
         raise OutputError(f"/{key} of {what} is empty: nothing to render")
     for start in range(0, n, CHECKED_AT_ONCE):
-        part = items[start:start + CHECKED_AT_ONCE]
-        _require_part(part, name, key, start, what)
-        out = [first]
-        for j, value in enumerate(part, start):
-            if not trusted:
-                _written_as_read(value, f"/{key}/{j}")
-            out.append(_item_bytes(None, value, b",\n" if j + 1 < n else b"\n  ]"))
+        stop = min(n, start + CHECKED_AT_ONCE)
+        got = [taken(j) for j in range(start, stop)] if taken else [None] * (stop - start)
+        values = _read_and_checked(items, start, stop, got, name, key, what)
+        out, at = [first], at + len(first)
+        for j, piece in enumerate(got, start):
+            if piece is None:
+                if not trusted:
+                    _written_as_read(values[j], f"/{key}/{j}")
+                piece = _item_bytes(None, values[j], b"")
+            placed.append((at, len(piece)))
+            sep = b",\n" if j + 1 < n else b"\n  ]"
+            out += (piece, sep)
+            at += len(piece) + len(sep)
         where += spill.put_many([b"".join(out)])
         first = b""
-    return Rendered(spill, where, items)
+    return Rendered(spill, where, items, placed)
+
+
+def _read_and_checked(items, start: int, stop: int, got: list, name: str, key: str,
+                      what: str) -> dict:
+    """{index: item} of the items ``start`` to ``stop`` of list ``key`` (of a document of
+    schemas/``name``) not given in ``got`` (None there), read and checked against the
+    schema (OutputError naming the first that breaks it)."""
+    fresh = [j for j, piece in enumerate(got, start) if piece is None]
+    if len(fresh) == stop - start:
+        part = items[start:stop]
+        _require_part(part, name, key, start, what)
+        return dict(enumerate(part, start))
+    values = {j: items[j] for j in fresh}
+    if values:
+        errors = schemas.part_errors(name, key, list(values.values()))
+        if errors:
+            path, message = errors[0]
+            steps = path.split("/")
+            if len(steps) > 1 and steps[0] == key and steps[1].isdigit():
+                steps[1] = str(fresh[int(steps[1])])
+            raise OutputError(f"{what} would break schemas/{name} at {'/'.join(steps)}: "
+                              f"{message} ({len(errors)} problem(s) in the {len(fresh)} "
+                              f"{key} items made anew of {start} to {stop - 1})")
+    return values
+
+
+class Pieced:
+    """A top-level list of a document given as the bytes of its items, each as
+    ``json_chunks`` writes an item (``_item_bytes`` without its separator), made or taken as
+    ``pieces()`` gives them; ``json_chunks`` writes them and notes in ``placed`` where each
+    lies in the file: (offset, size), in order. The caller checked them."""
+
+    def __init__(self, n: int, pieces):
+        self._n, self._pieces, self.placed = n, pieces, []
+
+    def __len__(self) -> int:
+        return self._n
+
+    def pieces(self):
+        return self._pieces()
+
+
+def item_bytes(value) -> bytes:
+    """One item of a top-level list as ``json_chunks`` writes it, without its separator
+    (a Pieced list's piece)."""
+    return _item_bytes(None, value, b"")
 
 
 def require_valid_library(doc: dict) -> None:
@@ -328,7 +389,7 @@ def json_chunks(doc):
 
     indent = orjson.OPT_INDENT_2
     lists = {k: v for k, v in doc.items() if isinstance(v, (list, LazyList, LazyMapping,
-                                                            Rendered))
+                                                            Rendered, Pieced))
              and len(v)} if isinstance(doc, dict) else {}
     marks = {k: f"\0thermoledger-list-{i}\0" for i, k in enumerate(lists)}
     head = {k: marks[k] if k in marks else _made(v) for k, v in doc.items()} \
@@ -340,21 +401,36 @@ def json_chunks(doc):
         doc = {k: _made(v) for k, v in doc.items()}
         _written_as_read(doc, "")
         text = orjson.dumps(doc, option=indent | orjson.OPT_APPEND_NEWLINE)
+    at = 0                                    # bytes given so far
     for key, items in lists.items():
         before, text = text.split(orjson.dumps(marks[key]), 1)
         if isinstance(items, Rendered):       # its bytes made before
             yield before
-            yield from items.pieces()
+            items.start = at = at + len(before)
+            for piece in items.pieces():
+                yield piece
+                at += len(piece)
             continue
         pairs = isinstance(items, LazyMapping)
-        yield before + (b"{\n" if pairs else b"[\n")
+        head = before + (b"{\n" if pairs else b"[\n")
+        yield head
+        at += len(head)
         n, i = len(items), -1
-        trusted = getattr(items, "from_json", False)
-        source = iter(items.items() if pairs else items)
-        while batch := list(islice(source, WRITTEN_AT_ONCE)):
-            piece = _batch_bytes(batch, pairs, trusted, key, i + 1)
-            i += len(batch)
-            yield piece + (b",\n" if i + 1 < n else (b"\n  }" if pairs else b"\n  ]"))
+        if isinstance(items, Pieced):
+            for i, piece in enumerate(items.pieces()):
+                sep = b",\n" if i + 1 < n else b"\n  ]"
+                items.placed.append((at, len(piece)))
+                yield piece + sep
+                at += len(piece) + len(sep)
+        else:
+            trusted = getattr(items, "from_json", False)
+            source = iter(items.items() if pairs else items)
+            while batch := list(islice(source, WRITTEN_AT_ONCE)):
+                piece = _batch_bytes(batch, pairs, trusted, key, i + 1)
+                i += len(batch)
+                piece += b",\n" if i + 1 < n else (b"\n  }" if pairs else b"\n  ]")
+                yield piece
+                at += len(piece)
         if i + 1 != n:
             raise OutputError(f"/{key} gave {i + 1} items where it counted {n}")
     yield text
@@ -399,9 +475,13 @@ def _item_bytes(name, value, sep: bytes) -> bytes:
 
 
 def _made(value):
-    """``value``, a LazyList, LazyMapping or Rendered made whole (a list, a dict)."""
+    """``value``, a LazyList, LazyMapping, Rendered or Pieced made whole (a list, a dict)."""
     if isinstance(value, Rendered):
         return list(value.items)
+    if isinstance(value, Pieced):
+        import orjson
+
+        return [orjson.loads(piece) for piece in value.pieces()]
     if isinstance(value, LazyList):
         return list(value)
     return dict(value.items()) if isinstance(value, LazyMapping) else value
@@ -447,15 +527,17 @@ LIBRARY_PARQUET_COLUMNS = [
 LIBRARY_ROW_GROUP = 16 * 1024
 
 
-def library_parquet_chunks(doc: dict, check: bool = False):
+def library_parquet_chunks(doc: dict, check: bool = False, taken=None):
     """library.parquet in byte pieces as it is written (release.arrowmem.parquet_chunks): one
     row per species and range, in row groups of LIBRARY_ROW_GROUP rows, each made and
     written in turn; build metadata as key-value metadata. With ``check``, each species
     entry is checked against schemas/library.schema.json as it is read (``checked_parts``;
-    OutputError at the first that breaks it)."""
+    OutputError at the first that breaks it). ``taken`` (release.reuse.Taking) gives the
+    rows of the species it can take from the last release's library.parquet (those are
+    neither read nor checked again) and hears where every species' rows lie."""
     import pyarrow as pa  # here: checking and reading load no pyarrow
 
-    from .arrowmem import arrow_array, parquet_chunks
+    from .arrowmem import arrow_array, parquet_chunks, regrouped
 
     arrow = {"string": pa.string(), "number": pa.float64(), "integer": pa.int32(),
              "array": pa.list_(pa.float64())}
@@ -465,27 +547,44 @@ def library_parquet_chunks(doc: dict, check: bool = False):
     schema = pa.schema([(name, arrow[kind]) for name, kind, _ in LIBRARY_PARQUET_COLUMNS],
                        metadata={f"thermoledger.{k}": v for k, v in meta.items()})
     cols = {name: [] for name, _, _ in LIBRARY_PARQUET_COLUMNS}
+    if taken is not None:
+        taken.schema = schema
 
-    def group(rows: int) -> tuple:
-        table = pa.table({name: arrow_array(cols[name][:rows], schema.field(name).type)
+    def made() -> pa.Table:
+        table = pa.table({name: arrow_array(cols[name], schema.field(name).type)
                           for name in cols}, schema=schema)
         for name in cols:
-            del cols[name][:rows]
-        return table, rows or None
+            cols[name].clear()
+        return table
 
-    def groups():
-        written = 0
+    def tables():
         species = doc["species"]
-        for sp in checked_parts(species, "library.schema.json", "species", "library.json") \
-                if check else species:
-            _add_library_rows(cols, sp)
-            while len(cols["id"]) >= LIBRARY_ROW_GROUP:
-                yield group(LIBRARY_ROW_GROUP)
-                written += 1
-        if cols["id"] or not written:          # an empty library is written as one too
-            yield group(len(cols["id"]))
+        for start in range(0, len(species), CHECKED_AT_ONCE):
+            stop = min(len(species), start + CHECKED_AT_ONCE)
+            got = [taken.rows(j) if taken else None for j in range(start, stop)]
+            values = _read_and_checked(species, start, stop, got, "library.schema.json",
+                                       "species", "library.json") if check else \
+                {j: species[j] for j, rows in enumerate(got, start) if rows is None}
+            for j, rows in enumerate(got, start):
+                if rows is None:
+                    if taken:
+                        yield from taken.flush()
+                        taken.made(j, _add_library_rows(cols, values[j]))
+                    else:
+                        _add_library_rows(cols, values[j])
+                    if len(cols["id"]) >= LIBRARY_ROW_GROUP:
+                        yield made()
+                    continue
+                if cols["id"]:
+                    yield made()
+                yield from taken.take(j, rows)
+        if taken:
+            yield from taken.flush()
+        if cols["id"]:
+            yield made()
 
-    return parquet_chunks(schema, groups(), compression="zstd", write_statistics=True)
+    return parquet_chunks(schema, regrouped(tables(), LIBRARY_ROW_GROUP, schema),
+                          compression="zstd", write_statistics=True)
 
 
 def library_parquet_bytes(doc: dict) -> bytes:
@@ -493,11 +592,11 @@ def library_parquet_bytes(doc: dict) -> bytes:
     return b"".join(library_parquet_chunks(doc))
 
 
-def _add_library_rows(cols: dict, sp: dict) -> None:
+def _add_library_rows(cols: dict, sp: dict) -> int:
     """Add the library.parquet rows of species entry ``sp``, one per range, to the columns
     ``cols`` (lists by column name): its own values repeated on each of its rows, those of
     each range once (a column at a time: 0.17 instead of 0.30 s at 10 000 species). An entry
-    without 'anchor' is anchored at 298.15 K by its ΔfH° and S°."""
+    without 'anchor' is anchored at 298.15 K by its ΔfH° and S°. Returns how many."""
     import orjson
 
     ranges = sp["ranges"]
@@ -524,12 +623,13 @@ def _add_library_rows(cols: dict, sp: dict) -> None:
     cols["t_min"].extend([r["t_min"] for r in ranges])
     cols["t_max"].extend([r["t_max"] for r in ranges])
     cols["coefficients"].extend([r["coefficients"] for r in ranges])
+    return n
 
 
 SCHEMA_COPIES = ("library.schema.json", "findings.schema.json", "manifest.schema.json")
 
 
-def release_files(doc: dict, findings_doc: dict, release) -> None:
+def release_files(doc: dict, findings_doc: dict, release, taken=None) -> None:
     """The library checked against its schema (its species as library.parquet reads them),
     and library.parquet, findings.json (checked too; written piece by piece) and the
     schemas they follow into ``release`` (publish.Release). library.json is written with
@@ -538,7 +638,9 @@ def release_files(doc: dict, findings_doc: dict, release) -> None:
     # the species entries are checked as library.parquet reads them: each decoded once
     require_valid(doc, "library.schema.json", "library.json", later=("species",))
     require_valid(findings_doc, "findings.schema.json", "findings.json")
-    release.add_chunks("library.parquet", library_parquet_chunks(doc, check=True))
+    release.add_chunks("library.parquet", library_parquet_chunks(doc, check=True, taken=taken))
+    if taken is not None:
+        taken.close()
     release.add_chunks("findings.json", json_chunks(findings_doc))
     for name in SCHEMA_COPIES:  # the release describes itself
         release.add(f"schemas/{name}", schemas.schema_bytes(name))

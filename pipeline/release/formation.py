@@ -54,14 +54,15 @@ def attach(doc: dict, declared, tables, u_stated: float) -> list:
             except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
                 let_through(exc)
                 new[t.meta.species_id].append(stage_failed("formation", exc, **t.meta.where))
+    added = {}
     for i, sid in enumerate(ids):
         if new[sid]:
-            added = [f.to_dict() for f in new[sid]]
-            if isinstance(species, Entries):   # merged into the entry whenever it is read
-                species.add_findings(i, added)
-            else:
-                species[i]["findings"] = merged_findings(species[i]["findings"], added)
+            added[i] = [f.to_dict() for f in new[sid]]
+            if not isinstance(species, Entries):
+                species[i]["findings"] = merged_findings(species[i]["findings"], added[i])
             out += new[sid]
+    if isinstance(species, Entries):          # merged into the entry whenever it is read
+        species.add_findings_to(added)
     return out
 
 

@@ -50,13 +50,14 @@ class HeldFitted(LazyList):
 
     __slots__ = ("_spill", "_where", "briefs", "lineages")
 
-    def __init__(self, spill, fitted=(), lineages=()):
+    def __init__(self, spill, fitted=(), lineages=(), digests=None):
         """``fitted``: (Brief, (offset, size) of the pickled FittedSpecies in ``spill``) in
-        species-id order; ``lineages``: (species id, (offset, size) of its compact JSON)."""
+        species-id order; ``lineages``: (species id, (offset, size) of its compact JSON);
+        ``digests`` the sha256 of each lineage's compact JSON, in order, when known."""
         self._spill = spill
         self.briefs = [b for b, _ in fitted]
         self._where = [w for _, w in fitted]
-        self.lineages = Entries(lineages, spill)
+        self.lineages = Entries(lineages, spill, digests=digests)
         if self.lineages.ids() != [b.species_id for b in self.briefs]:
             raise ValueError("the lineages are not those of the fitted species, in order")
 

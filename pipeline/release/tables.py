@@ -16,7 +16,7 @@ from ..library import tables as evaluated
 from ..library.entries import ids_of
 from ..library.formation import Formation
 from ..library.tables import COLUMNS, FLAGS, HEADERS, TEXT, UNITS, species_rows, stable_rows
-from .arrowmem import arrow_array, parquet_chunks
+from .arrowmem import arrow_array, parquet_chunks, regrouped
 
 DANGEROUS = ("=", "+", "-", "@", "\t", "\r")
 
@@ -26,37 +26,57 @@ DANGEROUS = ("=", "+", "-", "@", "\t", "\r")
 ROW_GROUP = 64 * 1024
 
 
-def tables_parquet_chunks(doc, step=100.0, points=None, own=None):
+def tables_parquet_chunks(doc, step=100.0, points=None, own=None, taken=None):
     """tables.parquet in byte pieces as it is written (arrowmem.parquet_chunks): the
     evaluated table of every species (T [K], Cp [J/(mol K)], ...), units in the key-value
     metadata. ``own`` maps species ids to their ``own_rows`` made where they were fitted
     (with this ``step``); only the formation properties are added here. Written a row group
     at a time (ROW_GROUP rows): at 100 000 species the table has some 3 million rows and
-    220 MB, never held whole."""
+    220 MB, never held whole. ``taken`` (release.reuse.Taking) gives the rows of the species
+    it can take from the last release's tables.parquet and hears where every species' rows
+    lie."""
     trs = evaluated.transitions_of(doc.get("transitions", []))
     made = Formation(doc)
     own = own or {}
-    schema = pa.schema([(c, pa.string() if c in TEXT else (
-        pa.bool_() if c in FLAGS else pa.float64())) for c in COLUMNS],
-        metadata={"thermoledger.units": str(UNITS), "thermoledger.notice": doc["notice"]})
+    schema = table_schema(doc)
+    if taken is not None:
+        taken.schema = schema
 
-    def groups():
-        pending, count, written = [], 0, 0
+    def tables():
+        pending, count = [], 0
         species = doc["species"]
         for i, sid in enumerate(ids_of(species)):      # an entry is read only when needed
+            place = taken.rows(i) if taken else None
+            if place is not None:
+                if pending:
+                    yield _table(_columns(pending), schema, count)
+                    pending, count = [], 0
+                yield from taken.take(i, place)
+                continue
+            if taken:
+                yield from taken.flush()
             part = evaluated.with_formation(own[sid], sid, made) if sid in own else \
                 species_rows(species[i], step, points, trs.get(sid, ()), made)
             pending.append(part)
             count += len(part["T"])
-            while count >= ROW_GROUP:
-                group = _columns(pending)
-                yield _table(group, schema, ROW_GROUP), ROW_GROUP
-                pending = [{c: v[ROW_GROUP:] for c, v in group.items()}]
-                count, written = count - ROW_GROUP, written + 1
-        if count or not written:                # an empty table is written as one too
-            yield _table(_columns(pending), schema, count), None
+            if taken:
+                taken.made(i, len(part["T"]))
+            if count >= ROW_GROUP:
+                yield _table(_columns(pending), schema, count)
+                pending, count = [], 0
+        if taken:
+            yield from taken.flush()
+        if pending:
+            yield _table(_columns(pending), schema, count)
 
-    return parquet_chunks(schema, groups(), compression="zstd")
+    return parquet_chunks(schema, regrouped(tables(), ROW_GROUP, schema), compression="zstd")
+
+
+def table_schema(doc):
+    """The Arrow schema of tables.parquet of library document ``doc``."""
+    return pa.schema([(c, pa.string() if c in TEXT else (
+        pa.bool_() if c in FLAGS else pa.float64())) for c in COLUMNS],
+        metadata={"thermoledger.units": str(UNITS), "thermoledger.notice": doc["notice"]})
 
 
 def tables_parquet_bytes(doc, step=100.0, points=None, own=None) -> bytes:

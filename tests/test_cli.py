@@ -169,6 +169,25 @@ def test_console_script_runs_the_demo_build(tmp_path):
     assert (tmp_path / "curated" / "library.parquet").is_file()
 
 
+@pytest.mark.parametrize("argv, status, said", [
+    (["check", "--raw", "raw"], 1, "thermoledger check:"),
+    (["props", "no-such-library.json", "N2", "300"], 2, "error:"),
+])
+def test_the_command_ends_with_its_status_and_all_it_printed(tmp_path, argv, status, said):
+    """``python -m thermoledger`` (entry.run, as the console script) ends the process with
+    the command's status, without the interpreter's shutdown, everything printed first."""
+    shutil.copytree(PROJECT / "raw", tmp_path / "raw")
+    done = subprocess.run([sys.executable, "-m", "thermoledger", *argv], cwd=tmp_path,
+                          capture_output=True, text=True, timeout=300)
+    assert done.returncode == status, done.stderr
+    assert said in done.stdout + done.stderr and "Traceback" not in done.stderr
+    if argv[0] == "check":
+        ran = subprocess.run([sys.executable, "-c", "import sys; from thermoledger.cli import "
+                              "main; sys.exit(main.main(sys.argv[1:]))", *argv], cwd=tmp_path,
+                             capture_output=True, text=True, timeout=300)
+        assert (done.returncode, done.stdout) == (ran.returncode, ran.stdout)
+
+
 def test_readme_commands_are_the_ones_ci_runs():
     readme = (PROJECT / "README.md").read_text()
     ci = (PROJECT / ".ci" / "run").read_text()

@@ -383,6 +383,22 @@ def test_a_stop_after_the_command_has_ended_changes_nothing(tmp_path):
     assert "Traceback" not in done.stderr, done.stderr
 
 
+def test_the_console_command_runs_without_the_cyclic_collector_and_freezes_what_is_left():
+    """entry.main runs the command with the cyclic garbage collector off (turned on after a
+    build, it walked every object the build held) and freezes what is left when it ends
+    (the interpreter's shutdown then does not walk it again)."""
+    code = ("import gc, sys\n"
+            "from thermoledger.cli import entry, main as cli\n"
+            "seen = []\n"
+            "cli.main = lambda: seen.append(gc.isenabled()) or 0\n"
+            "kept = [[i] for i in range(1000)]\n"
+            "status = entry.main()\n"
+            "print(status, seen, gc.isenabled(), gc.get_freeze_count() >= 1000)\n")
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                          timeout=60)
+    assert done.stdout.split() == ["0", "[False]", "False", "True"], done.stderr
+
+
 def test_a_folder_that_only_looks_like_a_release_home_is_refused(tmp_path, raw, capsys):
     fake = tmp_path / "fake"
     (fake / "releases" / "my-photos").mkdir(parents=True)

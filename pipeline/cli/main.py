@@ -16,6 +16,22 @@ from .parse import named_fit_options, parser, settings_of
 from .progress import Progress
 
 
+class _Held:
+    """What a command made that is kept until the process ends (``keep``: the console
+    command, entry.run, which ends it without freeing them), instead of being freed when
+    the command returns: a large build's result is millions of objects."""
+
+    def __init__(self):
+        self.keep, self.items = False, []
+
+    def __call__(self, obj) -> None:
+        if self.keep:
+            self.items.append(obj)
+
+
+HELD = _Held()
+
+
 def _say(lines, out=None) -> None:
     print("\n".join(lines), file=out or sys.stdout)
 
@@ -41,6 +57,7 @@ def cmd_build(args) -> int:
         return 128 + stop.signum
     finally:
         bar.close()
+    HELD(result)
     n_err = render.totals(result.findings)[0]
     held = bool(result.quarantined or result.held_back or n_err)
     notice = release_document.NOTICE
@@ -57,6 +74,7 @@ def cmd_check(args) -> int:
     from ..release import document as release_document
 
     result = build.examine(args.raw, settings_of(args), workers=args.workers, rows=False)
+    HELD(result)
     n_err = render.totals(result.findings)[0]
     doc = release_document.findings_document(result.findings)
     if args.json:

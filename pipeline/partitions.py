@@ -111,8 +111,25 @@ def _quarantine_order(q):
 
 
 def _merged_findings(groups) -> tuple:
-    """The findings of all ``groups``, each once, in the canonical order."""
-    return tuple(sorted(_unique(f for g in groups for f in g), key=_finding_order))
+    """The findings of all ``groups``, each once (by every field: ``_unique``, the first
+    kept), in the canonical order (``_finding_order``): sorted by sort key, and only among
+    findings of one sort key told apart and ordered by their repr (of the 10 002 findings of
+    the benchmark's 10 000 species, 2 share one: their reprs took 55 ms, all made)."""
+    items = sorted((f.sort_key(), k, f) for k, f in enumerate(f for g in groups for f in g))
+    out, i = [], 0
+    while i < len(items):
+        j = i + 1
+        while j < len(items) and items[j][0] == items[i][0]:
+            j += 1
+        if j == i + 1:
+            out.append(items[i][2])
+        else:                          # in the order they came: the first of a repr kept
+            first = {}
+            for _, _, f in items[i:j]:
+                first.setdefault(repr(f), f)
+            out.extend(f for _, f in sorted(first.items()))
+        i = j
+    return tuple(out)
 
 
 def _merged_quarantined(groups) -> tuple:

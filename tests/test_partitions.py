@@ -11,7 +11,10 @@ import sys
 from pathlib import Path
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from thermoledger import build, partitions
+from thermoledger.core.findings import Finding
 from thermoledger.core.names import species_name
 from thermoledger.ingest import sources
 from thermoledger.release import pages, reuse
@@ -598,3 +601,24 @@ def test_the_paths_a_key_lists_are_pathlib_s_recursive_listing(tmp_path):
     expected = sorted(str(p.relative_to(raw)) for p in raw.rglob("*"))
     assert partitions.listed_paths(raw) == expected
     assert "folder-link" in expected and "folder-link/t.csv" not in expected
+
+
+_FINDINGS = st.builds(
+    lambda code, file, line, message, species: Finding(
+        code, "warning" if code == "SMOOTH-OUTLIER" else "info", message, source="s",
+        file=file, line=line, extra={"species": species} if species else {}),
+    st.sampled_from(["SMOOTH-OUTLIER", "FIT-BREAKPOINT"]), st.sampled_from(["a.csv", "b.csv"]),
+    st.one_of(st.none(), st.integers(1, 3)), st.sampled_from(["m", "n"]),
+    st.sampled_from(["", "X(g)", "Y(g)"]))
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.lists(_FINDINGS, max_size=8), max_size=4))
+def test_merged_findings_are_each_finding_once_in_the_canonical_order(groups):
+    """The partitions' findings merged: those of equal repr once (the first), sorted by
+    (sort key, repr): what sorting them all by both gives, reprs made only where sort keys
+    meet (findings differing only in the species they are about share one)."""
+    want = tuple(sorted(partitions._unique(f for g in groups for f in g),
+                        key=partitions._finding_order))
+    got = partitions._merged_findings(groups)
+    assert got == want and [repr(f) for f in got] == [repr(f) for f in want]

@@ -172,8 +172,10 @@ class Entries(LazyList):
             return
         if self._more is None:
             self._more = array("q", [-1]) * (2 * len(self))
-        order = sorted(added)
-        places = self._spill.put_many(compact(self._added(i) + added[i]) for i in order)
+        import orjson
+
+        order = sorted(added)       # (orjson's bytes as they are: they are written at once)
+        places = self._spill.put_many(orjson.dumps(self._added(i) + added[i]) for i in order)
         for i, (offset, size) in zip(order, places):
             self._more[2 * i], self._more[2 * i + 1] = offset, size
 

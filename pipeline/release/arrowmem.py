@@ -147,6 +147,14 @@ def regrouped(tables, size: int, schema):
                else schema.empty_table()), None
 
 
+def _as_of(table, schema):
+    """Arrow table ``table`` with ``schema``: its metadata given, its columns cast only when
+    their types differ (a cast loads pyarrow.compute: 30 ms)."""
+    if table.schema.equals(schema, check_metadata=False):
+        return table.replace_schema_metadata(schema.metadata)
+    return table.cast(schema)
+
+
 class RowSource:
     """Rows of an existing Parquet file of ``schema``, read a row group at a time (the last
     one read kept) and given as Arrow tables of ``schema``."""
@@ -172,7 +180,7 @@ class RowSource:
                 raise IndexError(f"row {start} is beyond the rows of the file")
             if g != self._group:
                 self._table = None
-                self._table = self._file.read_row_group(g).cast(self._schema)
+                self._table = _as_of(self._file.read_row_group(g), self._schema)
                 self._group = g
             first = int(self._ends[g]) - self._table.num_rows
             end = min(stop, int(self._ends[g]))

@@ -239,19 +239,18 @@ class Taking:
         are not those of that file's rows)."""
         import numpy as np
         import pyarrow as pa
-        import pyarrow.compute as pc
 
         from ..core.errors import OutputError
-        from .arrowmem import RowSource
+        from .arrowmem import RowSource, arrow_array
 
         if self._source is None:
             self._source = RowSource(self.previous.path(self.name), self.schema)
         ids = np.repeat(np.array([sid for sid, _ in whose], dtype=object),
                         [rows for _, rows in whose])
         at = 0
-        for table in self._source.rows(start, stop):
-            want = pa.array(ids[at:at + table.num_rows], type=pa.string())
-            if not pc.all(pc.equal(table.column("id"), want)).as_py():
+        for table in self._source.rows(start, stop):    # (pyarrow.compute: 30 ms to load)
+            want = arrow_array(ids[at:at + table.num_rows].tolist(), pa.string())
+            if not table.column("id").equals(pa.chunked_array([want])):
                 raise OutputError(f"rows {start} to {stop - 1} of the last release's "
                                   f"{self.name} are not those its build kept "
                                   f"({KEPT}): build again with --fresh")

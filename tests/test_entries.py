@@ -149,7 +149,8 @@ def test_library_parquet_written_a_row_group_at_a_time_is_the_table_written_whol
         meta = pq.read_schema(io.BytesIO(document.library_parquet_bytes(demo_doc))).metadata
         buf = io.BytesIO()
         pq.write_table(table.replace_schema_metadata(meta), buf, compression="zstd",
-                       write_statistics=True, row_group_size=group)
+                       write_statistics=True, row_group_size=group,
+                       use_dictionary=list(document.LIBRARY_DICTIONARY_COLUMNS))
         return buf.getvalue()
 
     assert len(rows) > len(demo_doc["species"]) > 5

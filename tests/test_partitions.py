@@ -477,7 +477,8 @@ def test_the_tables_written_a_row_group_at_a_time_are_the_table_written_whole(
         table = table.replace_schema_metadata({"thermoledger.units": str(evaluated.UNITS),
                                                "thermoledger.notice": doc["notice"]})
         buf = io.BytesIO()
-        pq.write_table(table, buf, compression="zstd", row_group_size=group)
+        pq.write_table(table, buf, compression="zstd", row_group_size=group,
+                       use_dictionary=list(tables.DICTIONARY_COLUMNS))
         return buf.getvalue()
 
     rows = pq.read_metadata(io.BytesIO(tables.tables_parquet_bytes(doc))).num_rows

@@ -520,6 +520,13 @@ LIBRARY_PARQUET_COLUMNS = [
 ]
 
 
+#: the columns of library.parquet written dictionary-encoded (Parquet's default is every
+#: column): those of few distinct values. Tried on every column, the encoding is given up
+#: for the others when their dictionary grows past its page, and the rows of 10 000 species
+#: took 23 instead of 18 ms and 2.36 instead of 2.04 MB
+LIBRARY_DICTIONARY_COLUMNS = ("id", "formula", "phase", "geometry", "form", "anchor_basis")
+
+
 #: rows of each row group of library.parquet (one row per species and range): a group is
 #: made and written at a time, so a large library is never held as one Arrow table. A row
 #: holds its species' sources and findings as JSON text, some 5 KB in Arrow while its group
@@ -584,7 +591,8 @@ def library_parquet_chunks(doc: dict, check: bool = False, taken=None):
             yield made()
 
     return parquet_chunks(schema, regrouped(tables(), LIBRARY_ROW_GROUP, schema),
-                          compression="zstd", write_statistics=True)
+                          compression="zstd", write_statistics=True,
+                          use_dictionary=list(LIBRARY_DICTIONARY_COLUMNS))
 
 
 def library_parquet_bytes(doc: dict) -> bytes:

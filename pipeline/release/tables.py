@@ -26,6 +26,13 @@ DANGEROUS = ("=", "+", "-", "@", "\t", "\r")
 ROW_GROUP = 64 * 1024
 
 
+#: the columns of tables.parquet written dictionary-encoded (Parquet's default is every
+#: column): the species' ids and phases, repeated on each of their rows. Of the numbers,
+#: nearly all distinct, a dictionary was tried and given up page by page: at 10 000 species
+#: the file took 122 instead of 55 ms to write and was 22.2 instead of 17.7 MB
+DICTIONARY_COLUMNS = ("id", "phase")
+
+
 def tables_parquet_chunks(doc, step=100.0, points=None, own=None, taken=None):
     """tables.parquet in byte pieces as it is written (arrowmem.parquet_chunks): the
     evaluated table of every species (T [K], Cp [J/(mol K)], ...), units in the key-value
@@ -69,7 +76,8 @@ def tables_parquet_chunks(doc, step=100.0, points=None, own=None, taken=None):
         if pending:
             yield _table(_columns(pending), schema, count)
 
-    return parquet_chunks(schema, regrouped(tables(), ROW_GROUP, schema), compression="zstd")
+    return parquet_chunks(schema, regrouped(tables(), ROW_GROUP, schema), compression="zstd",
+                          use_dictionary=list(DICTIONARY_COLUMNS))
 
 
 def table_schema(doc):

@@ -380,8 +380,10 @@ class Digests:
     def save(self) -> None:
         """Remember the digests of this build's settled files, written atomically, when the
         store exists."""
+        import orjson
+
         if self.path.parent.is_dir():
-            paths.write_atomic(self.path, json.dumps(dict(sorted(self.seen.items()))).encode())
+            paths.write_atomic(self.path, orjson.dumps(self.seen, option=orjson.OPT_SORT_KEYS))
 
 
 def _file_digest(path: Path, raw: str, digests=None) -> str:

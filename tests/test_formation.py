@@ -255,3 +255,18 @@ def test_any_equation_text_is_refused_clearly_or_evaluated(text):
         reaction.check_balance(doc, reaction.parse(text))
     except (InputError, SpeciesNotFound) as exc:
         assert str(exc)
+
+
+def test_missing_reference_states_are_found_once_per_formula_and_given_anew():
+    """Formation.missing is found once per formula: species of one formula get the same
+    reasons, each call a list of its own."""
+    doc = {"species": [{"id": "X(g)", "formula": "XeF2", "ranges": []},
+                       {"id": "X(l)", "formula": "XeF2", "ranges": []},
+                       {"id": "Y(g)", "formula": "NO3-", "ranges": []}],
+           "reference_states": [], "transitions": []}
+    made = Formation(doc)
+    first = made.missing("X(g)")
+    assert first and made.missing("X(l)") == first
+    first.append("changed by the caller")
+    assert made.missing("X(g)") == made.missing("X(l)") != first
+    assert "charged" in made.missing("Y(g)")[0]

@@ -116,6 +116,20 @@ def test_files_written_aside_are_those_written_here(tmp_path, monkeypatch, aside
     assert aside.files.sha256("tables.parquet") == here.files.sha256("tables.parquet")
 
 
+def test_a_rebuild_taking_most_of_library_json_writes_it_here_and_findings_aside(
+        tmp_path, monkeypatch, aside_always):
+    """When most of library.json is taken from the last release, the build's own process
+    writes it and the helper writes findings.json with tables.parquet instead: the same
+    release as a build made here."""
+    build.build(RAW, tmp_path / "aside", parts=2)
+    aside_always.clear()
+    build.build(RAW, tmp_path / "aside", parts=2)       # every piece taken
+    assert sorted(aside_always) == ["findings.json", "tables.parquet"]
+    monkeypatch.setattr(assemble, "ASIDE_FROM", 10 ** 9)
+    build.build(RAW, tmp_path / "here", parts=2, fresh=True)
+    assert tree_hashes(tmp_path / "aside") == tree_hashes(tmp_path / "here")
+
+
 def test_a_failure_in_the_helper_stops_the_build_and_leaves_the_last_release(
         tmp_path, monkeypatch, capsys, aside_always):
     out = tmp_path / "out"

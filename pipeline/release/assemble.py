@@ -69,17 +69,21 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None
         (os.cpu_count() or 1) > 1 else None
     takes = _takings(doc, outcome.fitted, previous, placed) if previous is not None else None
     # library.json goes aside unless most of it is taken from the last release: then it
-    # costs less than tables.parquet, which is decompressed and compressed again
-    aside = ASIDE_NAMES if not takes or takes[0].share() < 0.5 else ("tables.parquet",)
+    # costs less than tables.parquet, which is decompressed and compressed again, and
+    # findings.json goes aside instead
+    aside = ASIDE_NAMES if not takes or takes[0].share() < 0.5 else \
+        ("tables.parquet", "findings.json")
+    findings_doc = document.findings_document(outcome.findings)
     say("write tables", 0, 0, "library.json, library.parquet, tables.parquet")
     if staging:
         processes.give_back_memory()         # before the helper forks: it shares less
     with ExitStack() as kept:
         species = None         # the manifest's lineages, when made ahead
         with (processes.aside(aside_files, doc, own, out.table_step, staging.write_chunks,
-                              takes and takes[:2], aside)
+                              takes and takes[:2], aside, findings_doc)
               if staging else nullcontext()) as helper:
-            document.release_files(doc, document.findings_document(outcome.findings), release,
+            aside_findings = helper is not None and "findings.json" in aside
+            document.release_files(doc, None if aside_findings else findings_doc, release,
                                    takes and takes[2])
             here = ASIDE_NAMES if helper is None else \
                 tuple(name for name in ASIDE_NAMES if name not in aside)
@@ -168,17 +172,21 @@ def _lineages_ahead(fitted, folder, taken=None):
 ASIDE_NAMES = ("library.json", "tables.parquet")
 
 
-def aside_files(doc: dict, own, step: float, write, takes=None, names=ASIDE_NAMES) -> tuple:
+def aside_files(doc: dict, own, step: float, write, takes=None, names=ASIDE_NAMES,
+                findings_doc=None) -> tuple:
     """The files ``names`` of library.json and tables.parquet of library document ``doc``
-    (``own``: the species' evaluated rows, library.tables.unpack_rows), each given to
-    ``write(relative path, byte pieces)``: ({relative path: what ``write`` returned},
-    {relative path: where each species' piece lies in it}, the latter only with ``takes``,
-    the reuse.Takings of the two files). library.json is checked against its schema by
+    (``own``: the species' evaluated rows, library.tables.unpack_rows), and findings.json
+    of ``findings_doc`` when named, each given to ``write(relative path, byte pieces)``:
+    ({relative path: what ``write`` returned}, {relative path: where each species' piece
+    lies in it}, the latter only with ``takes``, the reuse.Takings of library.json and
+    tables.parquet). library.json is checked against its schema by
     ``document.release_files``, which a build calls at the same time."""
     from . import tables
 
     json_t, tables_t = takes or (None, None)
     sums, placed = {}, {}
+    if "findings.json" in names:
+        sums["findings.json"] = document.findings_file(findings_doc, write)
     if "library.json" in names:
         if json_t is None:
             sums["library.json"] = write("library.json", document.json_chunks(doc))

@@ -637,18 +637,25 @@ def _add_library_rows(cols: dict, sp: dict) -> int:
 SCHEMA_COPIES = ("library.schema.json", "findings.schema.json", "manifest.schema.json")
 
 
-def release_files(doc: dict, findings_doc: dict, release, taken=None) -> None:
+def release_files(doc: dict, findings_doc, release, taken=None) -> None:
     """The library checked against its schema (its species as library.parquet reads them),
-    and library.parquet, findings.json (checked too; written piece by piece) and the
-    schemas they follow into ``release`` (publish.Release). library.json is written with
-    the evaluated tables (release.assemble: in another process while this one works, for a
-    large library)."""
+    and library.parquet, findings.json (unless ``findings_doc`` is None: another process
+    writes it, ``findings_file``) and the schemas they follow into ``release``
+    (publish.Release). library.json is written with the evaluated tables (release.assemble:
+    in another process while this one works, for a large library)."""
     # the species entries are checked as library.parquet reads them: each decoded once
     require_valid(doc, "library.schema.json", "library.json", later=("species",))
-    require_valid(findings_doc, "findings.schema.json", "findings.json")
     release.add_chunks("library.parquet", library_parquet_chunks(doc, check=True, taken=taken))
     if taken is not None:
         taken.close()
-    release.add_chunks("findings.json", json_chunks(findings_doc))
+    if findings_doc is not None:
+        findings_file(findings_doc, release.add_chunks)
     for name in SCHEMA_COPIES:  # the release describes itself
         release.add(f"schemas/{name}", schemas.schema_bytes(name))
+
+
+def findings_file(findings_doc: dict, write):
+    """findings.json of ``findings_doc``, checked against its schema, given to ``write(
+    relative path, byte pieces)`` (piece by piece); what ``write`` returned."""
+    require_valid(findings_doc, "findings.schema.json", "findings.json")
+    return write("findings.json", json_chunks(findings_doc))

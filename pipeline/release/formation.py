@@ -54,15 +54,15 @@ def attach(doc: dict, declared, tables, u_stated: float) -> list:
             except Exception as exc:  # noqa: BLE001 - one bad table never stops the rest
                 let_through(exc)
                 new[t.meta.species_id].append(stage_failed("formation", exc, **t.meta.where))
-    added = {}
     for i, sid in enumerate(ids):
         if new[sid]:
-            added[i] = [f.to_dict() for f in new[sid]]
             if not isinstance(species, Entries):
-                species[i]["findings"] = merged_findings(species[i]["findings"], added[i])
+                species[i]["findings"] = merged_findings(species[i]["findings"],
+                                                         [f.to_dict() for f in new[sid]])
             out += new[sid]
     if isinstance(species, Entries):          # merged into the entry whenever it is read
-        species.add_findings_to(added)
+        species.add_findings_to((i, [f.to_dict() for f in new[sid]])
+                                for i, sid in enumerate(ids) if new[sid])
     return out
 
 

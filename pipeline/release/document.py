@@ -9,6 +9,7 @@ same inputs give byte-identical files.
 
 import json
 import math
+from array import array
 from itertools import islice
 from operator import methodcaller
 
@@ -263,12 +264,13 @@ class Rendered:
     ``json_chunks`` writes it (from its "[" to its "]") ahead of the rest of the document
     (``render_list``); ``json_chunks`` writes these bytes again, read back from the
     core.spill.Spill that holds them, and ``require_valid`` does not check it again.
-    ``placed`` is (offset, size) of each item (without its separator) from the start of
-    these bytes; ``json_chunks`` sets ``start``, where they begin in the file."""
+    ``placed`` is the offset and size of each item (without its separator) from the start
+    of these bytes, one after the other (an array of 8-byte integers); ``json_chunks`` sets
+    ``start``, where they begin in the file."""
 
     def __init__(self, spill, where: list, items, placed=()):
         self._spill, self._where, self.items = spill, where, items
-        self.placed, self.start = list(placed), None
+        self.placed, self.start = placed, None
 
     def __len__(self) -> int:
         return len(self.items)
@@ -287,7 +289,7 @@ def render_list(items, name: str, key: str, what: str, spill, taken=None) -> Ren
     ``taken(i)`` gives the bytes of item ``i`` taken from the last release
     (release/reuse.py), or None: an item taken is neither read nor checked again."""
     trusted = getattr(items, "from_json", False)
-    n, where, first, placed, at = len(items), [], b"[\n", [], 0
+    n, where, first, placed, at = len(items), [], b"[\n", array("q"), 0
     if not n:
         raise OutputError(f"/{key} of {what} is empty: nothing to render")
     for start in range(0, n, CHECKED_AT_ONCE):
@@ -300,7 +302,7 @@ def render_list(items, name: str, key: str, what: str, spill, taken=None) -> Ren
                 if not trusted:
                     _written_as_read(values[j], f"/{key}/{j}")
                 piece = _item_bytes(None, values[j], b"")
-            placed.append((at, len(piece)))
+            placed += array("q", (at, len(piece)))
             sep = b",\n" if j + 1 < n else b"\n  ]"
             out += (piece, sep)
             at += len(piece) + len(sep)
@@ -337,10 +339,11 @@ class Pieced:
     """A top-level list of a document given as the bytes of its items, each as
     ``json_chunks`` writes an item (``_item_bytes`` without its separator), made or taken as
     ``pieces()`` gives them; ``json_chunks`` writes them and notes in ``placed`` where each
-    lies in the file: (offset, size), in order. The caller checked them."""
+    lies in the file: its offset and size, one after the other (an array of 8-byte
+    integers). The caller checked them."""
 
     def __init__(self, n: int, pieces):
-        self._n, self._pieces, self.placed = n, pieces, []
+        self._n, self._pieces, self.placed = n, pieces, array("q")
 
     def __len__(self) -> int:
         return self._n
@@ -419,7 +422,7 @@ def json_chunks(doc):
         if isinstance(items, Pieced):
             for i, piece in enumerate(items.pieces()):
                 sep = b",\n" if i + 1 < n else b"\n  ]"
-                items.placed.append((at, len(piece)))
+                items.placed += array("q", (at, len(piece)))
                 yield piece + sep
                 at += len(piece) + len(sep)
         else:
@@ -557,11 +560,14 @@ def library_parquet_chunks(doc: dict, check: bool = False, taken=None):
     if taken is not None:
         taken.schema = schema
 
-    def made() -> pa.Table:
-        table = pa.table({name: arrow_array(cols[name], schema.field(name).type)
+    def made(rows: int = 0) -> pa.Table:
+        """The first ``rows`` rows of ``cols`` (all by default) as an Arrow table, taken out
+        of them."""
+        rows = rows or len(cols["id"])
+        table = pa.table({name: arrow_array(cols[name][:rows], schema.field(name).type)
                           for name in cols}, schema=schema)
         for name in cols:
-            cols[name].clear()
+            del cols[name][:rows]
         return table
 
     def tables():
@@ -580,7 +586,7 @@ def library_parquet_chunks(doc: dict, check: bool = False, taken=None):
                     else:
                         _add_library_rows(cols, values[j])
                     if len(cols["id"]) >= LIBRARY_ROW_GROUP:
-                        yield made()
+                        yield made(LIBRARY_ROW_GROUP)
                     continue
                 if cols["id"]:
                     yield made()

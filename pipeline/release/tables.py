@@ -68,9 +68,11 @@ def tables_parquet_chunks(doc, step=100.0, points=None, own=None, taken=None):
             count += len(part["T"])
             if taken:
                 taken.made(i, len(part["T"]))
-            if count >= ROW_GROUP:
-                yield _table(_columns(pending), schema, count)
-                pending, count = [], 0
+            while count >= ROW_GROUP:          # a whole group, the rest kept as columns
+                group = _columns(pending)
+                yield _table(group, schema, ROW_GROUP)
+                pending = [{c: v[ROW_GROUP:] for c, v in group.items()}]
+                count -= ROW_GROUP
         if taken:
             yield from taken.flush()
         if pending:

@@ -107,9 +107,8 @@ def _swap_places(out, name):
     """Swap where the first two species' pieces of ``name`` lie in the kept places."""
     path = out / partitions.STORE / reuse.KEPT
     kept = orjson.loads(path.read_bytes())
-    at = kept["files"][name]["at"]
-    a, b = list(at)[:2]
-    at[a], at[b] = at[b], at[a]
+    at = kept["files"][name]["places"]
+    at[0:2], at[2:4] = at[2:4], at[0:2]
     path.write_bytes(orjson.dumps(kept))
 
 
@@ -147,3 +146,29 @@ def test_an_entry_s_key_is_the_same_known_or_read_and_follows_its_added_findings
     assert reuse.keys_of(entries) == digests
     known[0] = {"id": "A(g)", "findings": [], "more": 1}           # put back changed
     assert known.key(0) == hashlib.sha256(orjson.dumps(known[0])).hexdigest() != digests[0]
+
+
+def _set_place(out, name, place):
+    """Give the first species' piece of ``name`` the kept place ``place``."""
+    path = out / partitions.STORE / reuse.KEPT
+    kept = orjson.loads(path.read_bytes())
+    kept["files"][name]["places"][0:2] = place
+    path.write_bytes(orjson.dumps(kept))
+
+
+def test_a_kept_place_that_is_not_one_is_made_anew_or_refused(tmp_path, counted):
+    """A negative place is not taken; places not written as a build writes them leave
+    nothing taken from their file; a place beyond a Parquet file's rows stops the build."""
+    raw, out = _home(tmp_path, parts=2)
+    twin = _fresh_twin(tmp_path, out)
+    _set_place(out, "library.json", ["not", "a place"])
+    _set_place(out, "manifest.json", [-5, 10])
+    counted.clear()
+    build.build(raw, out, parts=2)
+    assert ("library.json", "taken") not in counted
+    assert counted[("manifest.json", "made")] == 1 and counted[("manifest.json", "taken")] > 1
+    build.build(raw, twin, parts=2, fresh=True)
+    assert tree_hashes(out) == tree_hashes(twin)
+    _set_place(out, "tables.parquet", [10 ** 6, 3])       # beyond the file's rows
+    with pytest.raises(OutputError, match="tables.parquet are not those its build kept"):
+        build.build(raw, out, parts=2)

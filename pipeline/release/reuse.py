@@ -33,7 +33,7 @@ from ..library.entries import Entries, compact
 
 #: the file of the store of partitions (publish.STORE) that keeps where the pieces lie
 KEPT = "pieces.json"
-KEPT_FORMAT = 1
+KEPT_FORMAT = 2
 #: the files pieces are taken from: JSON files by (byte offset, size), Parquet by (first
 #: row, rows)
 JSON_FILES = ("library.json", "manifest.json")
@@ -74,7 +74,8 @@ def tables_context(doc: dict, keys: list) -> str:
 class Previous:
     """The pieces of the last release that a build may take: ``json(name, key)`` the bytes
     of a JSON file's item, ``rows(name, key)`` a Parquet file's (first row, rows); None
-    where there is none to take. ``none()`` takes nothing."""
+    where there is none to take. ``none()`` takes nothing. ``at`` maps each file to ({key:
+    index}, places: a flat int64 array, (start, size) of the index-th piece at 2 index)."""
 
     def __init__(self, folder=None, at=None, contexts=None):
         self.folder, self._at, self.contexts = folder, at or {}, contexts or {}
@@ -85,25 +86,39 @@ class Previous:
         return cls()
 
     def has(self, name: str) -> bool:
-        return bool(self._at.get(name))
+        return name in self._at
 
     def path(self, name: str) -> Path:
         return Path(self.folder) / name
 
+    def share(self, name: str, keys) -> float:
+        """The share of ``keys`` (0 to 1) with a piece of ``name`` to take."""
+        index = self._at[name][0] if name in self._at else {}
+        return sum(k in index for k in keys) / len(keys) if len(keys) else 0.0
+
     def json(self, name: str, key: str):
-        place = self._at.get(name, {}).get(key)
+        place = self.rows(name, key)
         if place is None:
             return None
-        if name not in self._maps:
-            with open(self.path(name), "rb") as fh:
-                self._maps[name] = mmap.mmap(fh.fileno(), 0, access=mmap.ACCESS_READ)
+        try:
+            if name not in self._maps:
+                with open(self.path(name), "rb") as fh:
+                    self._maps[name] = mmap.mmap(fh.fileno(), 0, access=mmap.ACCESS_READ)
+        except (OSError, ValueError):       # gone, or empty: nothing to take from it
+            del self._at[name]
+            return None
         start, size = place
         piece = self._maps[name][start:start + size]
         return piece if len(piece) == size else None
 
     def rows(self, name: str, key: str):
-        place = self._at.get(name, {}).get(key)
-        return None if place is None else tuple(place)
+        """The place kept for ``key`` in file ``name``: (start, size), or None."""
+        index, places = self._at.get(name, ({}, None))
+        i = index.get(key)
+        if i is None:
+            return None
+        start, size = int(places[2 * i]), int(places[2 * i + 1])
+        return (start, size) if start >= 0 and size >= 0 else None
 
     def close(self) -> None:
         for m in self._maps.values():
@@ -115,7 +130,9 @@ def previous(store, release_folder, ctx: str, use: bool = True) -> Previous:
     """The pieces kept in ``store`` (the folder of stored partitions) of the release in
     ``release_folder`` (the current release of the home), taken in context ``ctx``; none
     when not ``use`` (--fresh), when nothing was kept, or for a file that is not the one
-    kept (its identity changed) or was kept in another context."""
+    kept (its identity changed), was kept in another context, or whose places are not one
+    pair of integers per key."""
+    import numpy as np
     import orjson
 
     if not use or release_folder is None:
@@ -126,38 +143,50 @@ def previous(store, release_folder, ctx: str, use: bool = True) -> Previous:
         if not isinstance(kept, dict) or kept.get("format") != KEPT_FORMAT or \
                 kept.get("release") != folder.name or kept.get("context") != ctx:
             return Previous.none()
-        at, contexts = {}, {}
-        for name in JSON_FILES + PARQUET_FILES:
-            got = kept.get("files", {}).get(name)
-            if not isinstance(got, dict) or not isinstance(got.get("at"), dict):
-                continue
-            if list(paths.identity(os.stat(folder / name))) != got.get("identity"):
-                continue
-            at[name], contexts[name] = got["at"], got.get("context")
-        return Previous(folder, at, contexts)
-    except (OSError, ValueError, TypeError, AttributeError):
+        indexes = {kind: {k: i for i, k in enumerate(keys)}
+                   for kind, keys in kept["keys"].items()
+                   if isinstance(keys, list) and all(isinstance(k, str) for k in keys)}
+        files = kept["files"]
+    except (OSError, ValueError, TypeError, AttributeError, KeyError):
         return Previous.none()
+    at, contexts = {}, {}
+    for name in JSON_FILES + PARQUET_FILES:
+        got = files.get(name) if isinstance(files, dict) else None
+        try:
+            index = indexes[got["keys"]]
+            places = np.array(got["places"], dtype=np.int64)
+            if places.shape != (2 * len(index),) or \
+                    list(paths.identity(os.stat(folder / name))) != got["identity"]:
+                continue
+        except (OSError, ValueError, TypeError, KeyError, OverflowError):
+            continue                     # not written as ``keep`` writes it: not taken from
+        at[name], contexts[name] = (index, places), got.get("context")
+    return Previous(folder, at, contexts)
 
 
 class Placed:
-    """Where this release's pieces lie, as its files are written: per file, {key: (start,
-    size)}, and the context of each file's pieces."""
+    """Where this release's pieces lie, as its files are written: per file, the name of
+    its list of keys (``keys``: "entries" or "lineages") and its places (a flat int64
+    array: (start, size) of each key's piece), and the context of each file's pieces."""
 
     def __init__(self):
-        self.at = {name: {} for name in JSON_FILES + PARQUET_FILES}
-        self.contexts = {}
+        self.keys, self.files, self.contexts = {}, {}, {}
 
-    def add(self, name: str, keys, places) -> None:
-        """The pieces of ``keys`` lie at ``places`` of file ``name`` (in the same order)."""
-        got = self.at[name]
-        for key, place in zip(keys, places):
-            got[key] = place
+    def add(self, name: str, kind: str, keys: list, places) -> None:
+        """The pieces of ``keys`` (of kind ``kind``) lie at ``places`` of file ``name``
+        (a flat sequence of integers, or (start, size) pairs, in the order of ``keys``)."""
+        import numpy as np
+
+        self.keys[kind] = keys
+        self.files[name] = (kind, np.asarray(places, dtype=np.int64).reshape(-1))
 
 
 def keep(store, release_folder, ctx: str, placed: Placed) -> None:
     """Keep where the pieces of the release just published into ``release_folder`` lie
     (``placed``), with each file's identity, in the store of partitions ``store`` (written
-    atomically; nothing when the store does not exist)."""
+    atomically; nothing when the store does not exist). Kept compactly: each list of keys
+    once, each file's places as one list of integers (a map of key to place per file made
+    a dict entry, a tuple and two integers per species and file)."""
     import orjson
 
     store = Path(store)
@@ -165,14 +194,15 @@ def keep(store, release_folder, ctx: str, placed: Placed) -> None:
         return
     folder = Path(release_folder).resolve()
     files = {}
-    for name, at in placed.at.items():
-        if not at or not (folder / name).is_file():
+    for name, (kind, places) in placed.files.items():
+        if places.size != 2 * len(placed.keys[kind]) or not (folder / name).is_file():
             continue
         files[name] = {"identity": list(paths.identity(os.stat(folder / name))),
-                       "context": placed.contexts.get(name),
-                       "at": {k: list(v) for k, v in at.items()}}
-    paths.write_atomic(store / KEPT, orjson.dumps({"format": KEPT_FORMAT, "release": folder.name,
-                                                   "context": ctx, "files": files}))
+                       "context": placed.contexts.get(name), "keys": kind, "places": places}
+    paths.write_atomic(store / KEPT, orjson.dumps(
+        {"format": KEPT_FORMAT, "release": folder.name, "context": ctx,
+         "keys": {kind: placed.keys[kind] for kind in {k for k, _ in placed.files.values()}},
+         "files": files}, option=orjson.OPT_SERIALIZE_NUMPY))
 
 
 class Taking:
@@ -186,15 +216,16 @@ class Taking:
 
     def __init__(self, previous: Previous, name: str, keys: list, ids: list, schema=None,
                  usable: bool = True):
+        import numpy as np
+
         self.previous, self.name, self.keys, self.ids = previous, name, keys, ids
         self.schema, self.usable = schema, usable and previous.has(name)
-        self.placed = [None] * len(keys)
+        self.placed = np.zeros(2 * len(keys), dtype=np.int64)     # (row, rows) of each
         self._row, self._run, self._source = 0, None, None
 
     def share(self) -> float:
         """The share of the items that can be taken (0 to 1)."""
-        at = self.previous._at.get(self.name, {}) if self.usable else {}
-        return sum(k in at for k in self.keys) / len(self.keys) if self.keys else 0.0
+        return self.previous.share(self.name, self.keys) if self.usable else 0.0
 
     def piece(self, j: int):
         """The bytes of item ``j`` taken, or None; a piece that does not begin with its
@@ -211,14 +242,14 @@ class Taking:
         return self.previous.rows(self.name, self.keys[j]) if self.usable else None
 
     def made(self, j: int, rows: int) -> None:
-        self.placed[j] = (self._row, rows)
+        self.placed[2 * j], self.placed[2 * j + 1] = self._row, rows
         self._row += rows
 
     def take(self, j: int, place):
         """Place the taken rows ``place`` of item ``j``; the rows taken before, as Arrow
         tables, when these do not follow them in the last file."""
         start, rows = place
-        self.placed[j] = (self._row, rows)
+        self.placed[2 * j], self.placed[2 * j + 1] = self._row, rows
         self._row += rows
         if self._run is not None and self._run[1] == start:
             self._run[1] = start + rows
@@ -247,15 +278,18 @@ class Taking:
             self._source = RowSource(self.previous.path(self.name), self.schema)
         ids = np.repeat(np.array([sid for sid, _ in whose], dtype=object),
                         [rows for _, rows in whose])
-        at = 0
-        for table in self._source.rows(start, stop):    # (pyarrow.compute: 30 ms to load)
-            want = arrow_array(ids[at:at + table.num_rows].tolist(), pa.string())
-            if not table.column("id").equals(pa.chunked_array([want])):
-                raise OutputError(f"rows {start} to {stop - 1} of the last release's "
-                                  f"{self.name} are not those its build kept "
-                                  f"({KEPT}): build again with --fresh")
-            at += table.num_rows
-            yield table
+        at, wrong = 0, OutputError(f"rows {start} to {stop - 1} of the last release's "
+                                   f"{self.name} are not those its build kept ({KEPT}): "
+                                   "build again with --fresh")
+        try:
+            for table in self._source.rows(start, stop):    # (pyarrow.compute: 30 ms)
+                want = arrow_array(ids[at:at + table.num_rows].tolist(), pa.string())
+                if not table.column("id").equals(pa.chunked_array([want])):
+                    raise wrong
+                at += table.num_rows
+                yield table
+        except (IndexError, OSError, ValueError):  # beyond its rows, or not a Parquet file
+            raise wrong from None
 
     def close(self) -> None:
         if self._source is not None:

@@ -139,13 +139,16 @@ def _placed(placed, takes, got: dict, species) -> None:
     tables.parquet's as ``aside_files`` gave them (``got``), library.parquet's as its Taking
     heard them, the manifest's lineages (``species``, document.Rendered) from where their
     list begins in the file."""
+    import numpy as np
+
     json_t, tables_t, parquet_t, manifest_t = takes
-    placed.add("library.json", json_t.keys, got["library.json"])
-    placed.add("tables.parquet", tables_t.keys, got["tables.parquet"])
-    placed.add("library.parquet", parquet_t.keys, parquet_t.placed)
+    placed.add("library.json", "entries", json_t.keys, got["library.json"])
+    placed.add("tables.parquet", "entries", tables_t.keys, got["tables.parquet"])
+    placed.add("library.parquet", "entries", parquet_t.keys, parquet_t.placed)
     if species is not None and species.start is not None:
-        placed.add("manifest.json", manifest_t.keys,
-                   [(species.start + at, size) for at, size in species.placed])
+        at = np.frombuffer(species.placed, dtype=np.int64).copy()
+        at[0::2] += species.start
+        placed.add("manifest.json", "lineages", manifest_t.keys, at)
 
 
 @contextmanager

@@ -36,7 +36,9 @@ class Outcome:
 #: a release of ASIDE_FROM species or more, and fewer than ASIDE_UNTIL, has library.json and
 #: tables.parquet written by a forked process (core.processes.aside) while the build's own
 #: process checks the library against its schema and writes library.parquet and
-#: findings.json: at 10 000 species some 0.6 s of 1.8 s after the partitions. The helper
+#: findings.json (the two trade library.json and findings.json when most of library.json is
+#: taken from the last release): at 10 000 species some 0.6 s of 1.8 s after the
+#: partitions of a full build. The helper
 #: shares the build's memory, but every page of it that the helper touches (an object read
 #: raises its reference count) is copied: some 3.7 KB per species (375 MB at 100 000, where
 #: a rebuild then peaked at 1 118 instead of 742 MiB). library.parquet, whose row groups

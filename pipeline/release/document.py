@@ -219,7 +219,7 @@ def require_valid(doc: dict, name: str, what: str, later=()) -> None:
     """Raise OutputError naming the first field where ``doc`` breaks schemas/``name``. Its
     top-level LazyLists (core.lazy) are checked CHECKED_AT_ONCE items at a time, never made
     all at once, except those named in ``later``, which the caller checks as it reads them
-    (``checked_parts``); its Rendered lists were checked when they were made
+    (``_read_and_checked``); its Rendered lists were checked when they were made
     (``render_list``); the rest of the document once."""
     lazy = {k: v for k, v in doc.items() if isinstance(v, LazyList)}
     for key in later:
@@ -236,16 +236,6 @@ def require_valid(doc: dict, name: str, what: str, later=()) -> None:
     for key, items in lazy.items():
         for start in range(0, len(items), CHECKED_AT_ONCE):
             _require_part(items[start:start + CHECKED_AT_ONCE], name, key, start, what)
-
-
-def checked_parts(items, name: str, key: str, what: str):
-    """The items of the top-level list ``key`` of a document of schemas/``name`` (a list
-    or LazyList), each checked against the schema, CHECKED_AT_ONCE at a time, before it is
-    given: read once for both (``require_valid`` with ``later``)."""
-    for start in range(0, len(items), CHECKED_AT_ONCE):
-        part = items[start:start + CHECKED_AT_ONCE]
-        _require_part(part, name, key, start, what)
-        yield from part
 
 
 def _require_part(part: list, name: str, key: str, start: int, what: str) -> None:
@@ -541,7 +531,7 @@ def library_parquet_chunks(doc: dict, check: bool = False, taken=None):
     """library.parquet in byte pieces as it is written (release.arrowmem.parquet_chunks): one
     row per species and range, in row groups of LIBRARY_ROW_GROUP rows, each made and
     written in turn; build metadata as key-value metadata. With ``check``, each species
-    entry is checked against schemas/library.schema.json as it is read (``checked_parts``;
+    entry is checked against schemas/library.schema.json as it is read (``_read_and_checked``;
     OutputError at the first that breaks it). ``taken`` (release.reuse.Taking) gives the
     rows of the species it can take from the last release's library.parquet (those are
     neither read nor checked again) and hears where every species' rows lie."""

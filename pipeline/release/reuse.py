@@ -73,7 +73,7 @@ def tables_context(doc: dict, keys: list) -> str:
 
 class Previous:
     """The pieces of the last release that a build may take: ``json(name, key)`` the bytes
-    of a JSON file's item, ``rows(name, key)`` a Parquet file's (first row, rows); None
+    of a JSON file's item, ``place(name, key)`` where a piece lies, (start, size); None
     where there is none to take. ``none()`` takes nothing. ``at`` maps each file to ({key:
     index}, places: a flat int64 array, (start, size) of the index-th piece at 2 index)."""
 
@@ -97,7 +97,7 @@ class Previous:
         return sum(k in index for k in keys) / len(keys) if len(keys) else 0.0
 
     def json(self, name: str, key: str):
-        place = self.rows(name, key)
+        place = self.place(name, key)
         if place is None:
             return None
         try:
@@ -111,8 +111,9 @@ class Previous:
         piece = self._maps[name][start:start + size]
         return piece if len(piece) == size else None
 
-    def rows(self, name: str, key: str):
-        """The place kept for ``key`` in file ``name``: (start, size), or None."""
+    def place(self, name: str, key: str):
+        """The place kept for ``key`` in file ``name``: (start, size) — bytes of a JSON
+        file, rows of a Parquet file — or None."""
         index, places = self._at.get(name, ({}, None))
         i = index.get(key)
         if i is None:
@@ -239,7 +240,7 @@ class Taking:
         return got
 
     def rows(self, j: int):
-        return self.previous.rows(self.name, self.keys[j]) if self.usable else None
+        return self.previous.place(self.name, self.keys[j]) if self.usable else None
 
     def made(self, j: int, rows: int) -> None:
         self.placed[2 * j], self.placed[2 * j + 1] = self._row, rows

@@ -30,13 +30,23 @@ def stop_workers(pool) -> None:
 
 
 @contextmanager
-def worker_pool(count: int):
+def worker_pool(count: int, fresh: tuple = ()):
     """A ProcessPoolExecutor of ``count`` workers that die with this process; whatever
-    stops the block (an error, an interrupt) kills them instead of waiting for them."""
+    stops the block (an error, an interrupt) kills them instead of waiting for them.
+    Workers are forked from this process, sharing what it holds; with ``fresh`` (module
+    names), where the machine can, from a server process that imported them instead
+    (core.fresh)."""
     from concurrent.futures import ProcessPoolExecutor
 
-    pool = ProcessPoolExecutor(count, initializer=workers_die_with_parent,
-                               initargs=(os.getpid(),))
+    from . import fresh as fresh_start
+
+    server = fresh_start.server(fresh) if fresh else None
+    if server is None:
+        pool = ProcessPoolExecutor(count, initializer=workers_die_with_parent,
+                                   initargs=(os.getpid(),))
+    else:
+        pool = ProcessPoolExecutor(count, mp_context=server,
+                                   initializer=fresh_start.die_with_asker)
     try:
         yield pool
     except BaseException:

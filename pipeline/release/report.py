@@ -451,8 +451,10 @@ def report_files(doc, points, accept, workers=None, say=None, pages=None,
 
     if workers > 1 and len(species) > 60:
         staging = release.staging() if release is not None else None
-        give_back_memory()                   # before the workers fork: they share less
-        with worker_pool(workers) as pool:   # an interrupted build waits for no worker
+        give_back_memory()
+        # the workers start from a server process that holds nothing of this one (core.
+        # fresh); an interrupted build waits for no worker
+        with worker_pool(workers, fresh=DRAWING) as pool:
             out = deque()
             for args in chunks():
                 out.append((args[0], pool.submit(_species_files, *args, staging)))
@@ -478,6 +480,8 @@ def report_files(doc, points, accept, workers=None, say=None, pages=None,
 
 #: species drawn by one task of the report
 CHUNK = 25
+#: what the report's workers import before they start
+DRAWING = (__name__,)
 #: the build's own process gives back the heap its freed pages leave (core.processes.
 #: give_back_memory) after about this many species, whose pages passed through it (all of
 #: them when they are drawn here or kept in memory; the linked ones otherwise)

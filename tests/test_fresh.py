@@ -1,0 +1,72 @@
+"""Workers that start fresh (core.fresh): forked from a server process, they hold nothing of
+the process that asked for them, never run its script again, and die with it."""
+
+import os
+import signal
+import subprocess
+import sys
+import types
+import uuid
+from pathlib import Path
+
+import pytest
+from thermoledger.core.processes import worker_pool
+
+from .test_release_safety import _processes_tagged, _wait_for
+
+FRESH = ("thermoledger.core.limits",)   # what their server imports: anything small
+PROBE = "thermoledger_test_probe"
+SEEN = f"__import__('sys').modules.get('{PROBE}') is not None"
+PARENT = "__import__('os').getppid()"
+
+pytestmark = pytest.mark.skipif(sys.platform == "win32", reason="no forkserver")
+
+
+def test_fresh_workers_hold_nothing_of_this_process(monkeypatch):
+    """A module this process holds (put in sys.modules after the server could have started)
+    is seen by a forked worker and not by a fresh one, whose parent is the server."""
+    monkeypatch.setitem(sys.modules, PROBE, types.ModuleType(PROBE))
+    with worker_pool(1) as pool:
+        assert pool.submit(eval, SEEN).result() is True
+        assert pool.submit(eval, PARENT).result() == os.getpid()
+    with worker_pool(2, fresh=FRESH) as pool:
+        assert pool.submit(eval, SEEN).result() is False
+        assert pool.submit(eval, PARENT).result() != os.getpid()
+        assert list(pool.map(abs, [-1, -2, -3])) == [1, 2, 3]
+
+
+def test_a_script_without_a_main_guard_runs_once(tmp_path):
+    """Processes of multiprocessing's server import the asking process's __main__ again,
+    unless it is hidden from them (core.fresh.FreshProcess): a script that makes a fresh pool
+    at its top level would run once more in each worker."""
+    script = tmp_path / "unguarded.py"
+    script.write_text(
+        "from thermoledger.core.processes import worker_pool\n"
+        "print('ran', flush=True)\n"
+        f"with worker_pool(2, fresh={FRESH!r}) as pool:\n"
+        "    print(sum(pool.map(abs, [-1, -2, -3])), flush=True)\n")
+    got = subprocess.run([sys.executable, str(script)], capture_output=True, text=True,
+                         timeout=120, cwd=tmp_path)
+    assert (got.returncode, got.stdout) == (0, "ran\n6\n"), got.stderr
+
+
+@pytest.mark.skipif(not Path("/proc/self/environ").exists(), reason="needs /proc")
+def test_fresh_workers_and_their_server_never_outlive_a_killed_process(tmp_path):
+    tag = f"THERMOLEDGER_TEST_TAG={uuid.uuid4().hex}"
+    key, value = tag.split("=")
+    script = tmp_path / "busy.py"
+    script.write_text(
+        "import time\n"
+        "from thermoledger.core.processes import worker_pool\n"
+        "if __name__ == '__main__':\n"
+        f"    with worker_pool(2, fresh={FRESH!r}) as pool:\n"
+        "        pool.map(time.sleep, [600] * 2)\n"
+        "        time.sleep(600)\n")
+    p = subprocess.Popen([sys.executable, str(script)], env={**os.environ, key: value})
+    try:
+        # the process itself, the server and two workers
+        assert _wait_for(lambda: len(_processes_tagged(tag)) >= 4), _processes_tagged(tag)
+    finally:
+        p.send_signal(signal.SIGKILL)
+        p.wait(60)
+    assert _wait_for(lambda: not _processes_tagged(tag), 30), _processes_tagged(tag)

@@ -35,6 +35,21 @@ def test_fresh_workers_hold_nothing_of_this_process(monkeypatch):
         assert list(pool.map(abs, [-1, -2, -3])) == [1, 2, 3]
 
 
+def test_without_a_server_the_workers_are_forked(monkeypatch):
+    """A server that cannot be started (no such method, or its process fails to start)
+    leaves the pool's workers forked from this process, doing the same work."""
+    from multiprocessing import forkserver
+
+    def fails():
+        raise OSError("no server here")
+
+    monkeypatch.setattr(forkserver, "ensure_running", fails)
+    monkeypatch.setitem(sys.modules, PROBE, types.ModuleType(PROBE))
+    with worker_pool(2, fresh=FRESH) as pool:
+        assert pool.submit(eval, PARENT).result() == os.getpid()
+        assert list(pool.map(abs, [-1, -2, -3])) == [1, 2, 3]
+
+
 def test_a_script_without_a_main_guard_runs_once(tmp_path):
     """Processes of multiprocessing's server import the asking process's __main__ again,
     unless it is hidden from them (core.fresh.FreshProcess): a script that makes a fresh pool

@@ -47,11 +47,15 @@ class FreshContext(context.ForkServerContext):
 def server(modules) -> FreshContext | None:
     """The context whose processes are FreshProcess, its server started (once per process:
     it lives as long as this one) with ``modules`` imported; None where the machine has no
-    such method."""
+    such method or the server cannot be started (workers are then forked as before: they
+    cost memory, not results)."""
     if "forkserver" not in multiprocessing.get_all_start_methods():
         return None
     forkserver.set_forkserver_preload(list(modules))
-    forkserver.ensure_running()
+    try:
+        forkserver.ensure_running()
+    except OSError:
+        return None
     return FreshContext()
 
 

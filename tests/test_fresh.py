@@ -85,3 +85,22 @@ def test_fresh_workers_and_their_server_never_outlive_a_killed_process(tmp_path)
         p.send_signal(signal.SIGKILL)
         p.wait(60)
     assert _wait_for(lambda: not _processes_tagged(tag), 30), _processes_tagged(tag)
+
+
+def test_the_reports_server_is_started_only_for_a_report_drawn_by_workers(monkeypatch):
+    """release.report.start_drawing (called before the release's other files are written)
+    starts the server of the report's workers when the report will have them: from
+    POOL_FROM species on a machine of several cores."""
+    from thermoledger.core import fresh
+    from thermoledger.release import report
+
+    started = []
+    monkeypatch.setattr(fresh, "server", started.append)
+    monkeypatch.setattr(report, "default_workers", lambda: 2)
+    report.start_drawing(report.POOL_FROM - 1)
+    assert started == []
+    report.start_drawing(report.POOL_FROM)
+    assert started == [report.DRAWING]
+    monkeypatch.setattr(report, "default_workers", lambda: 1)
+    report.start_drawing(100 * report.POOL_FROM)
+    assert started == [report.DRAWING]

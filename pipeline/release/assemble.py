@@ -76,6 +76,8 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None
     aside = ASIDE_NAMES if not takes or takes[0].share() < 0.5 else \
         ("tables.parquet", "findings.json")
     findings_doc = document.findings_document(outcome.findings)
+    if out.report:
+        report.start_drawing(len(ids))   # its workers' server imports while the files go
     say("write tables", 0, 0, "library.json, library.parquet, tables.parquet")
     if staging:
         processes.give_back_memory()         # before the helper forks: it shares less

@@ -432,6 +432,38 @@ def test_a_partition_is_kept_whole_but_held_as_the_caller_keeps_it(tmp_path):
     assert partitions.run(work, cut, store=again)[0].points == (("s0", {}), ("s1", {}))
 
 
+def _marked_part(part):
+    """A partition's result marked with its index (sent from a worker: module level)."""
+    return partitions.PartResult(checked=build.examine_part(RAW, part=part),
+                                 points=((f"s{part.index}", {"t": part.index}),))
+
+
+def test_a_partition_pickled_by_a_worker_is_kept_as_those_bytes(tmp_path):
+    """Workers send each partition pickled (``_pickled``), and the store keeps those bytes
+    after a header of its format and key: the result loads as computed; a file whose
+    header names another key or format is not read further, and a damaged body is as
+    absent."""
+    keys = ["a" * 64, "b" * 64]
+    store = partitions.PartStore(tmp_path / "store", keys)
+    merged, _ = partitions.run(_marked_part, partitions.Plan(parts=2, workers=2), store=store)
+    store.commit()
+    assert merged.points == (("s0", {"t": 0}), ("s1", {"t": 1}))
+    for k in range(2):
+        data = (tmp_path / "store" / f"part-{keys[k]}.pickle").read_bytes()
+        head = pickle.dumps((partitions.STORE_FORMAT, keys[k]),
+                            protocol=pickle.HIGHEST_PROTOCOL)
+        assert data.startswith(head)
+        assert pickle.loads(data[len(head):]).points == ((f"s{k}", {"t": k}),)
+        assert store.load(k).points == ((f"s{k}", {"t": k}),)
+    other = tmp_path / "store" / f"part-{keys[0]}.pickle"
+    other.write_bytes(pickle.dumps((partitions.STORE_FORMAT, "c" * 64)) + b"not a pickle")
+    assert store.load(0) is None
+    other.write_bytes(pickle.dumps((partitions.STORE_FORMAT, keys[0])) + b"not a pickle")
+    assert store.load(0) is None
+    other.write_bytes(pickle.dumps((partitions.STORE_FORMAT - 1, keys[0], merged)))
+    assert store.load(0) is None
+
+
 def test_a_build_holds_the_numbers_of_a_fit_once_in_its_library_entry(tmp_path):
     """Until its release is written a large build holds every species: the numbers of each
     fit once, in its library entry, and of the fitted species only their lineage (what the

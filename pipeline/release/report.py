@@ -483,6 +483,10 @@ CHUNK = 25
 #: what the report's workers import before they start, and from how many species a report
 #: is drawn by workers
 DRAWING, POOL_FROM = (__name__,), 61
+#: the build's own process gives back the heap its freed pages leave (core.processes.
+#: give_back_memory) after about this many species, whose pages passed through it (all of
+#: them when they are drawn here or kept in memory; the linked ones otherwise)
+TRIM_EVERY = 2000
 
 
 def default_workers() -> int:
@@ -500,10 +504,6 @@ def start_drawing(species: int) -> None:
     ready when the report begins."""
     if default_workers() > 1 and species >= POOL_FROM:
         fresh.server(DRAWING)
-#: the build's own process gives back the heap its freed pages leave (core.processes.
-#: give_back_memory) after about this many species, whose pages passed through it (all of
-#: them when they are drawn here or kept in memory; the linked ones otherwise)
-TRIM_EVERY = 2000
 
 
 def _species_files(species, points, accept, transitions=(), formed=None, staging=None) -> dict:

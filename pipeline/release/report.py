@@ -449,7 +449,7 @@ def report_files(doc, points, accept, workers=None, say=None, pages=None,
         if done % TRIM_EVERY < len(chunk):
             give_back_memory()
 
-    if workers > 1 and len(species) >= POOL_FROM:
+    if drawn_by_workers(len(species), workers):
         staging = release.staging() if release is not None else None
         give_back_memory()
         # the workers start from a server process that holds nothing of this one (core.
@@ -496,13 +496,19 @@ def default_workers() -> int:
     return min(os.cpu_count() or 1, 4)
 
 
+def drawn_by_workers(species: int, workers: int) -> bool:
+    """Whether the report of ``species`` species is drawn by ``workers`` worker processes
+    (else in the build's own process)."""
+    return workers > 1 and species >= POOL_FROM
+
+
 def start_drawing(species: int) -> None:
     """Start the server the report's workers of a release of ``species`` species start from
     (core.fresh), when it will have workers: a new interpreter that imports this module,
     which took some 0.14 s before the first two of them answered (against 0.014 s forked
     from the asking process); started while the release's other files are written, it is
     ready when the report begins."""
-    if default_workers() > 1 and species >= POOL_FROM:
+    if drawn_by_workers(species, default_workers()):
         fresh.server(DRAWING)
 
 

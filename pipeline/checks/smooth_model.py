@@ -96,23 +96,31 @@ def _inside(n, j, k):
 
 
 @by_grid
-def _end_design(x, j, k):
-    """np.polyfit's scaled Vandermonde matrix, its column scales and rcond for a quadratic
-    in x − x[j] through the rows ``_inside(len(x), j, k)`` (made once per grid)."""
+def _end_weights(x, j, k):
+    """Weights w of the rows ``_inside(len(x), j, k)``: w @ y there is the value at x[j] of
+    the least-squares quadratic in x − x[j] through them (np.polyfit's, with its column
+    scaling and rcond: its pseudo-inverse's row of the constant term), made once per grid."""
     idx = _inside(len(x), j, k)
     lhs = np.vander(x[idx] - x[j] + 0.0, min(2, len(idx) - 1) + 1)
     scale = np.sqrt((lhs * lhs).sum(axis=0))
-    return lhs / scale, scale, np.array(len(idx) * np.finfo(float).eps)
+    return np.linalg.pinv(lhs / scale, rcond=len(idx) * np.finfo(float).eps)[-1] / scale[-1]
 
 
 def _quadratic_extrapolation(x, y, j, k=5):
     """ln Cp at x[j] from a quadratic through the k nearest points on the inside: the value
-    at x[j] of ``np.polyfit(x[idx] − x[j], y[idx], 2)``, to the last bit (its scaled
-    least-squares solve, the design made once per grid; the polynomial at 0 is its constant
-    term)."""
-    lhs, scale, rcond = _end_design(x, j, k)
-    c = np.linalg.lstsq(lhs, y[_inside(len(x), j, k)] + 0.0, rcond=float(rcond))[0]
-    return float((c / scale)[-1])
+    at x[j] of ``np.polyfit(x[idx] − x[j], y[idx], 2)`` (to rounding: one dot product with
+    weights made once per grid)."""
+    return float(_end_weights(x, j, k) @ y[_inside(len(x), j, k)])
+
+
+def _economic_q(m):
+    """Q of the economic QR decomposition of the tall matrix ``m`` (LAPACK dgeqrf and dorgqr
+    called directly, as np.linalg.qr calls them: numpy's general wrapper costs twice the
+    work on a table's few columns)."""
+    from scipy.linalg.lapack import dgeqrf, dorgqr
+
+    fact, tau, _, _ = dgeqrf(m)
+    return dorgqr(fact, tau)[0]
 
 
 def loo_residuals(t, cp):
@@ -125,7 +133,7 @@ def loo_residuals(t, cp):
     e = 1.0 - a @ c
     active = a[:, c > 0]
     if active.shape[1]:
-        q, _ = np.linalg.qr(active)
+        q = _economic_q(active)
         h = np.minimum((q * q).sum(axis=1), 0.99)
     else:
         h = np.zeros(len(t))

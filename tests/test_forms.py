@@ -57,3 +57,43 @@ def test_cp_or_h_alone_is_that_of_the_full_evaluation_to_the_last_bit(form, t, s
     full = forms.evaluate_ranges(ranges, t, form)
     np.testing.assert_array_equal(forms.cp_of_ranges(ranges, t, form), full["Cp"])
     np.testing.assert_array_equal(forms.h_of_ranges(ranges, t, form), full["H"])
+
+
+def _range_by_range(ranges, t, f):
+    """The reference: each range's Form methods on the temperatures that fall in it (a
+    temperature at a breakpoint in the lower range, outside all in the nearest end range)."""
+    t = np.asarray(t, dtype=float)
+    idx = forms.range_of(t, [r[1] for r in ranges[:-1]])
+    out = {k: np.empty(len(t)) for k in ("Cp", "H", "S")}
+    for j, (_, _, coeffs) in enumerate(ranges):
+        m = idx == j
+        a, h0, s0 = f.unpack(coeffs)
+        out["Cp"][m] = f.cp(a, t[m])
+        out["H"][m] = f.h_integral(a, t[m]) + h0
+        out["S"][m] = f.s_integral(a, t[m]) + s0
+    out["G"] = out["H"] - t * out["S"]
+    return out
+
+
+@settings(max_examples=60, deadline=None)
+@given(form=st.sampled_from(sorted(forms.FORMS)),
+       species=st.lists(st.tuples(st.integers(1, 3), st.floats(-3.0, 3.0),
+                                  st.lists(st.floats(150.0, 7000.0), min_size=1, max_size=25)),
+                        min_size=1, max_size=6))
+def test_many_species_in_one_pass_give_each_one_s_numbers_to_the_last_bit(form, species):
+    """evaluate_many (the batched evaluation of a partition's tables) gives every species
+    the numbers of its ranges' own Form methods, range by range, alone."""
+    f = forms.FORMS[form]
+    items = []
+    for n_ranges, scale, t in species:
+        edges = np.geomspace(200.0, 6000.0, n_ranges + 1)
+        ranges = [(edges[j], edges[j + 1],
+                   f.pack([(k + j + 1) * 10.0 ** (scale - 3 * k) for k in range(len(f.powers))],
+                          -1000.0 * (j + 1), 4.0 + j, 0.0)) for j in range(n_ranges)]
+        items.append((ranges, t))
+    together = forms.evaluate_many(items, form)
+    for (ranges, t), got in zip(items, together):
+        want = _range_by_range(ranges, t, f)
+        for k in ("Cp", "H", "S", "G"):
+            np.testing.assert_array_equal(got[k], want[k])
+            np.testing.assert_array_equal(forms.evaluate_ranges(ranges, t, form)[k], want[k])

@@ -248,6 +248,30 @@ def test_check_keeps_no_rows_and_finds_the_same():
     assert [s.species_id for s in bare.selections] == [s.species_id for s in full.selections]
 
 
+def test_a_partition_s_tables_evaluated_together_are_each_species_own_to_the_last_bit():
+    """own_rows_of (a partition's species evaluated in one pass) gives each species of the
+    demo library, its phases linked by transitions among them, the rows own_rows gives it
+    alone."""
+    import numpy as np
+    from thermoledger.library import document, tables
+
+    doc = document.load(RAW.parent / "curated")
+    trs = tables.transitions_of(doc["transitions"])
+    assert any(sp.get("anchor") for sp in doc["species"])       # phases reached by transitions
+    together = tables.own_rows_of(doc["species"], 50.0, None, trs)
+    assert list(together) == [sp["id"] for sp in doc["species"]]
+    for sp in doc["species"]:
+        alone = tables.own_rows(sp, 50.0, None, trs.get(sp["id"], ()))
+        assert list(together[sp["id"]]) == list(alone)
+        for c, v in alone.items():
+            got = together[sp["id"]][c]
+            if c in tables.TEXT:
+                assert got == v
+            else:
+                assert np.asarray(got).dtype == np.asarray(v).dtype
+                np.testing.assert_array_equal(got, v)
+
+
 def test_packed_tables_give_back_every_species_rows():
     """A partition keeps its evaluated tables packed in a few arrays; unpacked they are
     each species' own_rows, value for value and type for type."""

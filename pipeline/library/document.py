@@ -169,12 +169,28 @@ def check_range(species: dict, t) -> None:
 def evaluate_entry(species: dict, temperatures) -> dict:
     """Cp, H, S, G at ``temperatures`` [K], their standard uncertainties (u_Cp, u_H, u_S) and
     an 'extrapolated' flag; raises InputError outside the range of use."""
-    t = np.atleast_1d(np.asarray(temperatures, dtype=float))
-    check_range(species, t)
-    out = forms.evaluate_ranges(ranges_of(species), t, species["form"])
-    out.update(uncertainty(species, t))
-    data = species["data_range"]
-    out["extrapolated"] = (t < data["t_min"]) | (t > data["t_max"])
+    return evaluate_entries([(species, temperatures)])[0]
+
+
+def evaluate_entries(items) -> list:
+    """``evaluate_entry(species, temperatures)`` of each (species, temperatures) of
+    ``items``, the polynomials of the species of one form evaluated in one pass
+    (forms.evaluate_many: the same numbers as one by one)."""
+    ts = [np.atleast_1d(np.asarray(t, dtype=float)) for _, t in items]
+    for (species, _), t in zip(items, ts):
+        check_range(species, t)
+    out = [None] * len(ts)
+    by_form = {}
+    for k, (species, _) in enumerate(items):
+        by_form.setdefault(species["form"], []).append(k)
+    for form, ks in by_form.items():
+        got = forms.evaluate_many([(ranges_of(items[k][0]), ts[k]) for k in ks], form)
+        for k, ev in zip(ks, got):
+            out[k] = ev
+    for (species, _), t, ev in zip(items, ts, out):
+        ev.update(uncertainty(species, t))
+        data = species["data_range"]
+        ev["extrapolated"] = (t < data["t_min"]) | (t > data["t_max"])
     return out
 
 

@@ -15,6 +15,7 @@ from collections.abc import Mapping
 import numpy as np
 
 from ..core.constants import REFERENCE_TEMPERATURE
+from ..physics import forms
 from . import document as library
 from .entries import by_id as entries_by_id
 from .formation import COLUMNS as FORMATION
@@ -79,18 +80,52 @@ def species_rows(sp, step=100.0, points=None, transitions=(), formation=None) ->
 def own_rows(sp, step=100.0, points=None, transitions=()) -> dict:
     """``species_rows`` without the formation properties (NaN): what the entry alone gives,
     so that it can be evaluated where the species was fitted."""
-    mine = [x["temperature"] for x in transitions if sp["id"] in (x["from"], x["to"])]
-    t = grid(sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"], step, points, mine)
-    ev = library.evaluate_entry(sp, t)
-    h298 = library.enthalpy_zero(sp)
-    lo, hi = stable_interval(sp, transitions)
-    nothing = np.full(len(t), np.nan)
-    return {"id": [sp["id"]] * len(t), "phase": [sp.get("phase", "")] * len(t), "T": t,
+    return own_rows_of([sp], step, points, {sp["id"]: transitions})[sp["id"]]
+
+
+def own_rows_of(entries, step=100.0, points=None, transitions=None) -> dict:
+    """{id: ``own_rows``} of library species ``entries`` (``transitions``: {id: its
+    transitions}, as ``transitions_of`` gives them), their polynomials evaluated in one pass
+    (library.document.evaluate_entries: the same numbers as one by one)."""
+    transitions = transitions or {}
+    grids = []
+    for sp in entries:
+        mine = [x["temperature"] for x in transitions.get(sp["id"], ())
+                if sp["id"] in (x["from"], x["to"])]
+        grids.append(grid(sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"], step, points,
+                          mine))
+    # H(298.15 K) of the entries that count H − H298 from their own coefficients
+    # (library.enthalpy_zero), evaluated with the rest
+    own_zero = [sp for sp in entries if not sp.get("anchor")]
+    evs = library.evaluate_entries(list(zip(entries, grids)))
+    zeros = {sp["id"]: float(h[0]) for sp, h in zip(own_zero, _h_at_reference(own_zero))}
+    out = {}
+    for sp, t, ev in zip(entries, grids, evs):
+        h298 = zeros[sp["id"]] if sp["id"] in zeros else library.enthalpy_zero(sp)
+        lo, hi = stable_interval(sp, transitions.get(sp["id"], ()))
+        nothing = np.full(len(t), np.nan)
+        out[sp["id"]] = {
+            "id": [sp["id"]] * len(t), "phase": [sp.get("phase", "")] * len(t), "T": t,
             "Cp": ev["Cp"], "u_Cp": ev["u_Cp"], "H_minus_H298": ev["H"] - h298,
             "u_H": ev["u_H"], "S": ev["S"], "u_S": ev["u_S"], "gef": -(ev["G"] - h298) / t,
             "H": ev["H"], **{k: nothing for k in FORMATION},
             "stable": (t >= lo) & (t <= hi),
             "extrapolated": ev["extrapolated"].astype(bool)}
+    return out
+
+
+def _h_at_reference(entries) -> list:
+    """H at 298.15 K [J/mol] of each entry's coefficients (forms.h_of_ranges, its species of
+    one form in one pass)."""
+    out, by_form = [None] * len(entries), {}
+    for k, sp in enumerate(entries):
+        by_form.setdefault(sp["form"], []).append(k)
+    for form, ks in by_form.items():
+        got = forms.evaluate_many([(library.ranges_of(entries[k]), [REFERENCE_TEMPERATURE])
+                                   for k in ks], form, ("H",))
+        for k, ev in zip(ks, got):
+            out[k] = ev["H"]
+    return out
 
 
 def pack_rows(rows_by_id: dict) -> dict:

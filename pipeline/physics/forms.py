@@ -160,56 +160,68 @@ def range_index(ranges, t):
 def evaluate_ranges(ranges, t, form):
     """Cp [J/(mol K)], H [J/mol], S [J/(mol K)] and G [J/mol] at ``t`` [K] of ``ranges``:
     (t_min, t_max, coefficients) tuples, library entry ranges or FitRange records."""
-    f, ranges, t, idx = _placed(ranges, t, form)
-    cp, h, s = (np.empty_like(t) for _ in range(3))
-    for j, m in _by_range(idx):
-        a, h0, s0 = f.unpack(ranges[j][2])
-        tm = t[m]
-        cp[m] = f.cp(a, tm)
-        h[m] = f.h_integral(a, tm) + h0
-        s[m] = f.s_integral(a, tm) + s0
-    return {"Cp": cp, "H": h, "S": s, "G": h - t * s}
+    return evaluate_many([(ranges, t)], form)[0]
+
+
+def evaluate_many(items, form, columns=("Cp", "H", "S", "G")) -> list:
+    """``evaluate_ranges(ranges, t, form)`` of every (ranges, t) of ``items`` (of one form),
+    in one pass over all their temperatures: each temperature takes the coefficients of its
+    own range, and every number is the one ``evaluate_ranges`` gives alone, to the last bit
+    (the same operations on each element, in the same order). ``columns``: those wanted of
+    Cp, H, S and G (H and S are made for G)."""
+    f = FORMS[form] if isinstance(form, str) else form
+    ts, idxs, packed = [], [], []
+    for ranges, t in items:
+        ranges = as_ranges(ranges)
+        t = np.atleast_1d(np.asarray(t, dtype=float))
+        ts.append(t)
+        idxs.append(range_of(t, [r[1] for r in ranges[:-1]]) + len(packed)
+                    if len(ranges) > 1 else np.full(len(t), len(packed)))
+        packed += [f.unpack(r[2]) for r in ranges]
+    one = len(ts) == 1
+    t = ts[0] if one else np.concatenate(ts) if ts else np.zeros(0)
+    idx = idxs[0] if one else np.concatenate(idxs) if ts else np.zeros(0, dtype=int)
+    m = len(f.powers)
+    table = np.array([list(a[:m]) + [h0, s0] for a, h0, s0 in packed], dtype=float)
+    at = table.T[:, idx] if len(packed) > 1 else np.broadcast_to(table.T, (m + 2, len(t)))
+    x = t / f.x_scale
+    want, out = set(columns), {}
+    if "Cp" in want:
+        out["Cp"] = f.multiplier * _series(f, at, x, _power)
+    if want & {"H", "G"}:
+        out["H"] = f.multiplier * f.x_scale * _series(f, at, x, i1) + at[m]
+    if want & {"S", "G"}:
+        out["S"] = f.multiplier * _series(f, at, x, i0) + at[m + 1]
+    if "G" in want:
+        out["G"] = out["H"] - t * out["S"]
+    if one:
+        return [{k: out[k] for k in columns}]
+    ends = np.cumsum([len(x) for x in ts])[:-1]
+    split = {k: np.split(out[k], ends) for k in columns}
+    return [{k: split[k][i] for k in columns} for i in range(len(ts))]
+
+
+def _power(p, x):
+    return x ** p
+
+
+def _series(f, at, x, term):
+    """Σ_p a_p term(p, x), element by element with its coefficients a column of ``at`` (one
+    row per power), summed in the order of the form's powers (as the Form's own methods
+    sum them)."""
+    return sum(at[k] * term(p, x) for k, p in enumerate(f.powers))
 
 
 def cp_of_ranges(ranges, t, form):
     """Cp [J/(mol K)] at ``t`` [K] of ``ranges`` alone: ``evaluate_ranges(...)["Cp"]``, the
     same numbers, without the integrals."""
-    f, ranges, t, idx = _placed(ranges, t, form)
-    cp = np.empty_like(t)
-    for j, m in _by_range(idx):
-        cp[m] = f.cp(f.unpack(ranges[j][2])[0], t[m])
-    return cp
+    return evaluate_many([(ranges, t)], form, ("Cp",))[0]["Cp"]
 
 
 def h_of_ranges(ranges, t, form):
     """H [J/mol] at ``t`` [K] of ``ranges`` alone: ``evaluate_ranges(...)["H"]``, the same
     numbers, without Cp and S."""
-    f, ranges, t, idx = _placed(ranges, t, form)
-    h = np.empty_like(t)
-    for j, m in _by_range(idx):
-        a, h0, _ = f.unpack(ranges[j][2])
-        h[m] = f.h_integral(a, t[m]) + h0
-    return h
-
-
-def _by_range(idx):
-    """(range index, selector of its temperatures) of each range that ``idx`` (the range of
-    each temperature) holds, ascending; the selector is every temperature (a slice, no
-    mask to build) when they all lie in one range."""
-    if not len(idx):
-        return []
-    lo, hi = int(idx.min()), int(idx.max())
-    if lo == hi:
-        return [(lo, slice(None))]
-    return [(j, m) for j in range(lo, hi + 1) for m in [idx == j] if m.any()]
-
-
-def _placed(ranges, t, form) -> tuple:
-    """(Form, ranges as tuples, t as a 1-d float array, range index of each t)."""
-    f = FORMS[form] if isinstance(form, str) else form
-    ranges = as_ranges(ranges)
-    t = np.atleast_1d(np.asarray(t, dtype=float))
-    return f, ranges, t, range_index(ranges, t)
+    return evaluate_many([(ranges, t)], form, ("H",))[0]["H"]
 
 
 # --- nasa7 helpers kept for callers that work in its published form ----------------------

@@ -221,11 +221,10 @@ def evaluated_rows(entries: dict, chains, step: float) -> dict:
     """library.tables.own_rows of the fitted ``entries`` of one partition, packed in one
     block (library.tables.pack_rows), with the transitions between its fitted phases
     (``chains``: a species' phases are fitted in one partition), every ``step`` K."""
-    from ..library.tables import own_rows, pack_rows, transitions_of
+    from ..library.tables import own_rows_of, pack_rows, transitions_of
 
     trs = transitions_of(document.transition_entries(chains, set(entries)))
-    return pack_rows({sid: own_rows(sp, step, None, trs.get(sid, ()))
-                      for sid, sp in entries.items()})
+    return pack_rows(own_rows_of(list(entries.values()), step, None, trs))
 
 
 def plot_points(species, checked: CheckResult) -> dict:

@@ -223,17 +223,18 @@ def batch_objectives(v, y, sigma, starts, c, norm="max"):
         sl = slice(j * m, (j + 1) * m)
         kkt[:, :, sl, sl] = pg[table, hi] - pg[table, lo]
         rhs[:, :, sl] = pq[table, hi] - pq[table, lo]
-    cs = np.concatenate([c[:, :, :, j * m:(j + 1) * m] @ scale[:, None] for j in range(nr)],
-                        axis=3)
+    # each table's constraint rows of all its candidates in one product with its scale
+    cs = np.concatenate([(c[:, :, :, j * m:(j + 1) * m].reshape(ss, kk * r, m) @ scale)
+                         .reshape(ss, kk, r, m) for j in range(nr)], axis=3)
     kkt[:, :, nr * m:, :nr * m] = cs
     kkt[:, :, :nr * m, nr * m:] = np.swapaxes(cs, 2, 3)
     sol = np.linalg.solve(kkt, rhs[..., None])[..., 0][..., :nr * m].reshape(ss, kk, nr, m)
     pos = np.arange(n)[None, None, :]
     vt = np.swapaxes(vw, 1, 2)                                     # (S, m, n)
-    res = np.where(pos < starts[:, :, 1:2], sol[:, :, 0, :] @ vt, 0.0) - b[:, None, :]
+    fitted = sol[:, :, 0, :] @ vt                                  # each point: its range's
     for j in range(1, nr):
-        inside = (pos >= starts[:, :, j:j + 1]) & (pos < starts[:, :, j + 1:j + 2])
-        res += np.where(inside, sol[:, :, j, :] @ vt, 0.0)
+        fitted = np.where(pos >= starts[:, :, j:j + 1], sol[:, :, j, :] @ vt, fitted)
+    res = np.subtract(fitted, b[:, None, :], out=fitted)
     if norm == "rms":
         return np.sqrt(np.mean(res ** 2, axis=2))
-    return np.max(np.abs(res), axis=2)
+    return np.max(np.abs(res, out=res), axis=2)

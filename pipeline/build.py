@@ -386,6 +386,8 @@ def rows_used(data) -> tuple:
     the lines an array of 8-byte integers (a large build keeps these until its release is
     written: one string per file, not per row, and 8 bytes per line, not a Python int)."""
     files, lines = data["file"], data["line"]
+    if len(files) and (files == files[0]).all():        # rows of one file: the usual case
+        return ((str(files[0]), array("q", np.sort(lines).tolist())),)
     return tuple((str(f), array("q", np.sort(lines[files == f]).tolist()))
                  for f in np.unique(files))
 

@@ -100,3 +100,18 @@ def test_the_valid_rows_and_the_first_of_each_temperature_are_numpy_s_selections
         assert np.array_equal(first[name], got[name][keep])
         assert not first[name].flags.writeable
     assert len(first) == int(keep.sum()) and len(got) == len(order)
+
+
+def test_the_rows_a_fit_used_are_named_file_by_file_lines_ascending():
+    """build.rows_used: each file once, in order, with its lines sorted (the provenance of a
+    species); rows of one file take a shortcut that must give the same answer."""
+    from array import array
+
+    from thermoledger.build import rows_used
+
+    one = {"file": np.array(["a.csv"] * 4), "line": np.array([7, 3, 5, 4])}
+    assert rows_used(one) == (("a.csv", array("q", [3, 4, 5, 7])),)
+    two = {"file": np.array(["b.csv", "a.csv", "b.csv", "a.csv"]),
+           "line": np.array([9, 8, 2, 3])}
+    assert rows_used(two) == (("a.csv", array("q", [3, 8])), ("b.csv", array("q", [2, 9])))
+    assert rows_used({"file": np.array([], dtype=str), "line": np.array([], dtype=int)}) == ()

@@ -78,10 +78,15 @@ class FitSettings:
     def recorded(self) -> dict:
         """``to_dict``, one dict for all settings that are written alike (records.alike: 6000
         and 6000.0 are equal settings but not the same JSON): every fitted species records
-        its settings, some 3 KB each. Read only: never change it."""
-        from .records import alike  # here: reading the settings loads no numpy
+        its settings, some 3 KB each. Read only: never change it. Made once per settings
+        object (kept beside its fields: equal settings need not be written alike)."""
+        got = self.__dict__.get("_recorded")
+        if got is None:
+            from .records import alike  # here: reading the settings loads no numpy
 
-        return alike(self.to_dict())
+            got = alike(self.to_dict())
+            object.__setattr__(self, "_recorded", got)
+        return got
 
 
 _FIT_FIELDS = tuple(f.name for f in fields(FitSettings))

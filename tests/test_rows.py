@@ -115,3 +115,20 @@ def test_the_rows_a_fit_used_are_named_file_by_file_lines_ascending():
            "line": np.array([9, 8, 2, 3])}
     assert rows_used(two) == (("a.csv", array("q", [3, 8])), ("b.csv", array("q", [2, 9])))
     assert rows_used({"file": np.array([], dtype=str), "line": np.array([], dtype=int)}) == ()
+
+
+def test_rows_without_rows_pickle_as_names_and_dtypes_and_come_back_alike():
+    """A partition keeps its tables without their rows; pickled, they carry each column's
+    name and dtype alone and come back the same empty read-only columns."""
+    empty = Rows({"T": np.zeros(0), "file": np.array([], dtype="<U12"),
+                  "phase": np.array([], dtype=object), "line": np.zeros(0, dtype=np.int64)})
+    data = pickle.dumps(empty, protocol=pickle.HIGHEST_PROTOCOL)
+    assert b"numpy" not in data
+    back = pickle.loads(data)
+    assert back.columns == empty.columns and len(back) == 0
+    for name in empty.columns:
+        assert back[name].dtype == empty[name].dtype and not back[name].flags.writeable
+    full = rows_of([300.0, 400.0], [29.1, 29.3])
+    again = pickle.loads(pickle.dumps(full))
+    assert again.columns == full.columns
+    np.testing.assert_array_equal(again["Cp"], full["Cp"])

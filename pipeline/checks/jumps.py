@@ -29,20 +29,21 @@ SIDE_FIT = 0.25
 
 @by_grid
 def _window_design(x, w):
-    """The quadratic design of every window of ``w`` consecutive ``x`` (k, w, 3) and its
-    normal matrices (k, 3, 3), slightly regularised: of the grid alone."""
+    """The quadratic design of every window of ``w`` consecutive ``x`` (k, w, 3) and the
+    least-squares solution operator of each (k, 3, w), from its normal equations slightly
+    regularised: of the grid alone."""
     xs = sliding_window_view(x, w)
     a = np.stack([np.ones_like(xs), xs, xs ** 2], axis=-1)          # (k, w, 3)
-    return a, np.einsum("kwi,kwj->kij", a, a) + 1e-12 * np.eye(3)
+    normal = np.einsum("kwi,kwj->kij", a, a) + 1e-12 * np.eye(3)
+    return a, np.linalg.solve(normal, np.swapaxes(a, 1, 2))
 
 
 def _side_fits(x, y, w):
     """Quadratic least-squares coefficients of every window of ``w`` consecutive points, and
     the rms residual of each -> ((k, 3), (k,))."""
-    a, normal = _window_design(x, w)
+    a, solution = _window_design(x, w)
     ys = sliding_window_view(y, w)
-    aty = np.einsum("kwi,kw->ki", a, ys)
-    c = np.linalg.solve(normal, aty[..., None])[..., 0]
+    c = np.einsum("kiw,kw->ki", solution, ys)
     resid = np.einsum("kwi,ki->kw", a, c) - ys
     return c, np.sqrt(np.mean(resid ** 2, axis=1))
 

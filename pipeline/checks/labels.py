@@ -95,14 +95,14 @@ def check_frozen_vibrations(table, ctx):
         return []
     meta = table.meta
     d = table.valid
-    d = d.take(d["T"] <= LOW_END)
-    t, cp, lines = d["T"], d["Cp"], d["line"]
+    low = d["T"] <= LOW_END
+    t, cp, lines, u = d["T"][low], d["Cp"][low], d["line"][low], d["u_Cp"][low]
     keep = t >= rotors.excited_from(meta.formula, _elements(meta))
     t, cp, lines = t[keep], cp[keep], lines[keep]
     if len(t) < 5 or t.min() > 0.6 * LOW_END:
         return []
     modes = bounds.vibrational_modes(meta.geometry, meta.atoms)
-    noise = _noise(d["u_Cp"][keep], cp)
+    noise = _noise(u[keep], cp)
     given = _misfit(t, cp / R - bounds.cp_zero(meta.geometry) / R, modes)
     if _per_mass(meta):
         if given <= max(3.0 * noise / R, MODEL_ALLOWANCE):

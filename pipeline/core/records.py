@@ -62,8 +62,8 @@ def first_of_each_t(rows: Rows) -> Rows:
     """The first row of each temperature of T-sorted ``rows`` (the first of each run of
     equal T)."""
     t = rows["T"]
-    first = np.r_[True, t[1:] != t[:-1]] if len(t) else None
-    return rows.take(first) if len(t) and not first.all() else rows
+    again = t[1:] == t[:-1]
+    return rows.take(np.concatenate(([True], ~again))) if again.any() else rows
 
 
 def given(rows: Rows, column: str, *, every: bool = False):

@@ -164,3 +164,19 @@ def test_the_reference_spline_is_scipy_s_weighted_least_squares_spline(n, seed):
 def test_the_quantile_of_the_model_share_is_numpy_s_to_the_last_bit(values, q):
     v = np.array(values)
     assert uncertainty.quantile(v.copy(), q) == float(np.quantile(v, q))
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.integers(1, 3), st.integers(0, 40), st.integers(-6, 6), st.booleans(),
+       st.integers(0, 2 ** 32 - 1))
+def test_the_quantiles_of_several_rows_at_once_are_each_row_s_to_the_last_bit(
+        k, n, scale, nan, seed):
+    """The model share takes the 95th percentiles of Cp, H and S misfits of a range in one
+    partition; each is the one np.quantile gives that row alone."""
+    rows = np.random.default_rng(seed).standard_normal((k, n)) * 10.0 ** scale
+    if nan and n:
+        rows[0, n // 2] = np.nan
+    got = uncertainty._half_quantiles(rows)
+    for row, value in zip(rows, got):
+        want = float(np.quantile(np.abs(row), uncertainty.COVERAGE)) / 2.0 if n else 0.0
+        assert value == want or (np.isnan(value) and np.isnan(want))

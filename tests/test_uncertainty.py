@@ -180,3 +180,23 @@ def test_the_quantiles_of_several_rows_at_once_are_each_row_s_to_the_last_bit(
     for row, value in zip(rows, got):
         want = float(np.quantile(np.abs(row), uncertainty.COVERAGE)) / 2.0 if n else 0.0
         assert value == want or (np.isnan(value) and np.isnan(want))
+
+
+def test_an_entry_s_own_uncertainties_are_those_of_its_named_shares_to_the_last_bit():
+    """own_spread (what every evaluated table takes) gives the u(H) and u(S) that spread
+    gives of the entry's named shares, and the u(Cp) of cp_share, for every entry of the
+    demo library (anchored at 298.15 K or at a transition, extrapolated or not)."""
+    from pathlib import Path
+
+    from thermoledger.library import document
+
+    doc = document.load(Path(__file__).resolve().parent.parent / "curated")
+    assert any(sp["extrapolated"] for sp in doc["species"])
+    for sp in doc["species"]:
+        lo, hi = sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"]
+        t = np.geomspace(lo, hi, 37)
+        got = budget.own_spread(sp, t)
+        named = budget.spread(budget.own_shares(sp, t), t)
+        for key in ("u_H", "u_S"):
+            np.testing.assert_array_equal(got[key], named[key])
+        np.testing.assert_array_equal(got["u_Cp"], budget.cp_share(sp, t))

@@ -100,42 +100,75 @@ def own_shares(entry: dict, t, extrap: dict | None = None) -> dict:
     misfit and its extrapolation model (H and S relative to its anchor temperature;
     ``extrap``: its ``extrapolation_share`` at ``t`` when made already)."""
     t = np.atleast_1d(np.asarray(t, dtype=float))
-    unc = entry.get("uncertainty") or {}
-    cov = np.asarray(unc.get("covariance") or [], dtype=float)
-    powers = unc.get("powers") or []
-    bps = entry.get("breakpoints", [])
-    edges = [entry["ranges"][0]["t_min"]] + list(bps) + [entry["ranges"][-1]["t_max"]]
-    tref = (entry.get("anchor") or {}).get("temperature", REFERENCE_TEMPERATURE)
     sid = entry.get("id", "")
+    fit, model, extrap = _own_parts(entry, t, extrap)
     out = {}
-    if cov.size:
-        w, v = np.linalg.eigh((cov + cov.T) / 2)
-        root = v * np.sqrt(np.clip(w, 0.0, None))            # cov = root @ root.T
-        key = (tuple(powers), tuple(bps), tuple(edges), tref)
-        dh = _integral_rows(t, "H", *key) @ root
-        ds = _integral_rows(t, "S", *key) @ root
+    if fit is not None:
+        dh, ds, w = fit
         for k in np.flatnonzero(w > 0):
             out[("fit", sid, int(k))] = (dh[:, k], ds[:, k])
     zero = np.zeros_like(t)
-    for name, share in (("model", model_share(unc.get("model_error") or [], bps, t, tref)),
-                        ("extrap", extrapolation_share(entry, t) if extrap is None
-                         else extrap)):
+    for name, share in (("model", model), ("extrap", extrap)):
         if share:
             out[(f"{name}-h", sid)] = (share["u_H"], zero)
             out[(f"{name}-s", sid)] = (zero, share["u_S"])
     return out
 
 
-def cp_share(entry: dict, t, extrap: dict | None = None) -> np.ndarray:
+def own_spread(entry: dict, t, extrap: dict | None = None) -> dict:
+    """{'u_Cp', 'u_H', 'u_S'} of one entry's own fit at ``t`` [K]: ``cp_share`` and the u_H
+    and u_S of ``spread(own_shares(...))``, the same numbers (the squares of the same shares
+    summed in the same order), made without naming each share (an evaluated table of every
+    species takes them)."""
+    t = np.atleast_1d(np.asarray(t, dtype=float))
+    fit, model, extrap = _own_parts(entry, t, extrap)
+    zero = np.zeros_like(t)[None]
+    h, s = [], []
+    if fit is not None:
+        dh, ds, w = fit
+        keep = np.flatnonzero(w > 0)
+        h.append(dh[:, keep].T)
+        s.append(ds[:, keep].T)
+    for share in (model, extrap):
+        if share:
+            h += [share["u_H"][None], zero]
+            s += [zero, share["u_S"][None]]
+    out = {"u_H": np.sqrt(np.cumsum(np.concatenate(h) ** 2, axis=0)[-1]) if h else zero[0],
+           "u_S": np.sqrt(np.cumsum(np.concatenate(s) ** 2, axis=0)[-1]) if s else zero[0]}
+    out["u_Cp"] = cp_share(entry, t, extrap or {}, model)
+    return out
+
+
+def _own_parts(entry: dict, t, extrap) -> tuple:
+    """((dH, dS, eigenvalues) of the covariance's components at ``t`` or None, the model
+    share, the extrapolation share) of one entry (``own_shares``)."""
+    unc = entry.get("uncertainty") or {}
+    cov = np.asarray(unc.get("covariance") or [], dtype=float)
+    powers = unc.get("powers") or []
+    bps = entry.get("breakpoints", [])
+    edges = [entry["ranges"][0]["t_min"]] + list(bps) + [entry["ranges"][-1]["t_max"]]
+    tref = (entry.get("anchor") or {}).get("temperature", REFERENCE_TEMPERATURE)
+    fit = None
+    if cov.size:
+        w, v = np.linalg.eigh((cov + cov.T) / 2)
+        root = v * np.sqrt(np.clip(w, 0.0, None))            # cov = root @ root.T
+        key = (tuple(powers), tuple(bps), tuple(edges), tref)
+        fit = (_integral_rows(t, "H", *key) @ root, _integral_rows(t, "S", *key) @ root, w)
+    model = model_share(unc.get("model_error") or [], bps, t, tref)
+    return fit, model, extrapolation_share(entry, t) if extrap is None else extrap
+
+
+def cp_share(entry: dict, t, extrap: dict | None = None, model: dict | None = None) -> np.ndarray:
     """u(Cp) [J/(mol K)] of one entry at ``t`` [K]: covariance, misfit and extrapolation
-    (``extrap``: its ``extrapolation_share`` at ``t`` when made already)."""
+    (``extrap``: its ``extrapolation_share`` at ``t``, ``model`` its ``model_share``, when
+    made already)."""
     t = np.atleast_1d(np.asarray(t, dtype=float))
     unc = entry.get("uncertainty") or {}
     cov = np.asarray(unc.get("covariance") or [], dtype=float)
     bps = entry.get("breakpoints", [])
     u = R * basis.standard_deviation(_cp_rows(t, tuple(unc.get("powers") or []), tuple(bps)),
                                      cov) if cov.size else np.zeros_like(t)
-    for share in (model_share(unc.get("model_error") or [], bps, t),
+    for share in (model_share(unc.get("model_error") or [], bps, t) if model is None else model,
                   extrapolation_share(entry, t, integrals=False) if extrap is None
                   else extrap):
         if share:

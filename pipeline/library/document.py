@@ -204,9 +204,9 @@ def uncertainty(species: dict, t) -> dict:
     in quadrature (library/budget.py names them)."""
     t = np.atleast_1d(np.asarray(t, dtype=float))
     extrap = budget.extrapolation_share(species, t)
-    out = budget.spread(budget.own_shares(species, t, extrap), t)
+    out = budget.own_spread(species, t, extrap)
     anchor = species.get("anchor") or {}
-    return {"u_Cp": budget.cp_share(species, t, extrap),
+    return {"u_Cp": out["u_Cp"],
             "u_H": np.hypot(out["u_H"], anchor.get("u_enthalpy", 0.0)),
             "u_S": np.hypot(out["u_S"], anchor.get("u_entropy", 0.0))}
 

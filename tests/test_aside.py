@@ -301,3 +301,38 @@ def test_a_rebuild_whose_prepared_process_is_gone_forks_another(monkeypatch):
                                         store=_StoreOfAllBut(1), ready=ready)
     assert reused == 3 and merged[1][0] == "s1" and merged[1][1] not in (os.getpid(),
                                                                           ready._proc.pid)
+
+
+def _faults_of_batched_arrays(rounds: int = 10) -> int:
+    """Minor page faults of arrays made and freed as a partition's batched searches make
+    them (three of 5.9 MB at once), after a first round."""
+    import resource
+
+    import numpy as np
+
+    def once():
+        for _ in range(rounds):
+            arrays = [np.ones((64, 80, 144)) for _ in range(3)]
+            sum(float(a.sum()) for a in arrays)
+            del arrays
+
+    once()
+    before = resource.getrusage(resource.RUSAGE_SELF).ru_minflt
+    once()
+    return resource.getrusage(resource.RUSAGE_SELF).ru_minflt - before
+
+
+def _glibc() -> bool:
+    try:
+        return os.confstr("CS_GNU_LIBC_VERSION") is not None
+    except (AttributeError, ValueError, OSError):
+        return False
+
+
+@pytest.mark.skipif(not _glibc(), reason="the allocator's settings are glibc's")
+def test_a_partition_worker_takes_its_freed_memory_again_without_page_faults():
+    """A worker of the partitions keeps what it frees (processes.keep_freed_heap): arrays
+    made again come from its heap, not from fresh mappings faulted in page by page (one
+    round maps some 4 300 pages anew)."""
+    with processes.worker_pool(1) as pool:
+        assert pool.submit(_faults_of_batched_arrays).result() < 500

@@ -20,6 +20,26 @@ def workers_die_with_parent(parent_pid: int) -> None:
         pass  # not Linux: the parent's interrupt handler still stops the workers
     if os.getppid() != parent_pid:
         os._exit(1)
+    keep_freed_heap()
+
+
+def keep_freed_heap() -> None:
+    """Have glibc's allocator keep what this process frees for its next arrays (mallopt; a
+    no-op where there is none): blocks of up to 32 MB from its heap instead of fresh
+    mappings, and the heap's top given back only beyond 128 MB free. A worker's batched
+    arrays (a few MB each, tens of MB at once) were otherwise mapped anew and faulted in page
+    by page: 62 page faults and 0.13 ms of system time per species, 8 % of a partition's
+    time. Called in the processes that compute partitions, whose peak it does not raise
+    (what they free they would take again); never in a build's own process, which gives
+    its heap back on purpose (``give_back_memory``)."""
+    import ctypes
+
+    try:
+        mallopt = ctypes.CDLL(None).mallopt
+    except (OSError, AttributeError):
+        return
+    mallopt(-3, 32 << 20)          # M_MMAP_THRESHOLD (its largest value)
+    mallopt(-1, 128 << 20)         # M_TRIM_THRESHOLD
 
 
 def stop_workers(pool) -> None:
@@ -218,6 +238,7 @@ def _stand_by(prepare, args, parent: int, jobs, reply) -> None:
     import threading
 
     _as_helper(parent)
+    keep_freed_heap()
     given = []        # the work's bytes, read as soon as they come: the giver never waits
 
     def receive():

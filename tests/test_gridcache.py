@@ -166,3 +166,22 @@ def test_wilhoit_s_back_substitution_solves_the_triangular_system():
         b = rng.uniform(-5.0, 5.0, n)
         np.testing.assert_allclose(extrapolate._back_substitution(r, b),
                                    np.linalg.solve(r, b), rtol=1e-13, atol=1e-13)
+
+
+def test_a_fit_s_rows_are_made_once_for_a_grid_and_breakpoints_and_read_only():
+    """The Cp rows and continuity constraints of a fit are shared by the fits of one grid
+    and breakpoints (a catalogue's species, and a fit that asks twice): the numbers made
+    anew, and nobody can change them."""
+    from thermoledger.physics import basis
+
+    t = np.geomspace(200.0, 3000.0, 101)
+    powers = (0, 1, 2, 3, 4)
+    rows = basis.cp_rows(powers, t, [1000.0])
+    assert basis.cp_rows(list(powers), t.copy(), [np.float64(1000.0)]) is rows
+    np.testing.assert_array_equal(rows, basis._cp_rows.__wrapped__(t, powers, (1000.0,)))
+    cons = basis.continuity_rows(powers, [1000.0], 1)
+    assert basis.continuity_rows(list(powers), (1000.0,), 1) is cons
+    np.testing.assert_array_equal(cons, basis.continuity_rows_of_sets(powers, [[1000.0]], 1)[0])
+    for made in (rows, cons):
+        with pytest.raises(ValueError):
+            made[0, 0] = 1.0

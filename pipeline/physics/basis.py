@@ -6,6 +6,8 @@ Cp, its derivatives, and H(T) − H(298.15 K) and S(T) − S(298.15 K) are all l
 so each observation or constraint is one row.
 """
 
+from functools import lru_cache
+
 import numpy as np
 
 from ..core.constants import REFERENCE_TEMPERATURE
@@ -32,8 +34,15 @@ def powers_at(t, powers: tuple, deriv: int = 0):
 
 
 def cp_rows(powers, t, breakpoints):
-    """Rows of Cp/R at temperatures ``t`` [K] -> (n, nr*m)."""
-    t = np.asarray(t, dtype=float)
+    """Rows of Cp/R at temperatures ``t`` [K] -> (n, nr*m), read-only: made once for each
+    grid and breakpoints (a fit asks twice, and the species of a catalogue share their
+    grid and often their breakpoints, chosen among the same candidates)."""
+    return _cp_rows(np.asarray(t, dtype=float), tuple(powers),
+                    tuple(float(b) for b in breakpoints))
+
+
+@by_grid(size=16)
+def _cp_rows(t, powers: tuple, breakpoints: tuple):
     m, nr = len(powers), len(breakpoints) + 1
     idx = range_of(t, breakpoints)
     v = powers_at(t, tuple(powers))
@@ -83,8 +92,15 @@ def standard_deviation(rows, cov) -> np.ndarray:
 
 def continuity_rows(powers, breakpoints, order=1):
     """Equality constraints: Cp and its derivatives up to ``order`` equal on both sides of
-    every breakpoint [K] -> (nb * (order + 1), nr * m)."""
-    return continuity_rows_of_sets(powers, [list(breakpoints)], order)[0]
+    every breakpoint [K] -> (nb * (order + 1), nr * m), read-only (made once for each)."""
+    return _continuity_rows(tuple(powers), tuple(float(b) for b in breakpoints), order)
+
+
+@lru_cache(maxsize=256)
+def _continuity_rows(powers: tuple, breakpoints: tuple, order: int) -> np.ndarray:
+    rows = continuity_rows_of_sets(powers, [list(breakpoints)], order)[0]
+    rows.flags.writeable = False
+    return rows
 
 
 def continuity_rows_of_sets(powers, sets, order=1):

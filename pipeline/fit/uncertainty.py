@@ -65,12 +65,7 @@ def _half_quantiles(rows) -> list:
         return [_half_quantile(row) for row in v]
     lo = int(np.floor(at))
     part = np.partition(v, (lo, lo + 1), axis=1)
-    gamma = at - lo
-    out = []
-    for a, b in part[:, lo:lo + 2].tolist():
-        step = b - a
-        out.append((a + step * gamma if gamma < 0.5 else b - step * (1.0 - gamma)) / 2.0)
-    return out
+    return [_between(a, b, at - lo) / 2.0 for a, b in part[:, lo:lo + 2].tolist()]
 
 
 def quantile(v, q: float) -> float:
@@ -84,7 +79,13 @@ def quantile(v, q: float) -> float:
         return float(np.quantile(v, q))
     lo = int(np.floor(at))
     a, b = (float(x) for x in np.partition(v, (lo, lo + 1))[lo:lo + 2])
-    gamma, step = at - lo, b - a
+    return _between(a, b, at - lo)
+
+
+def _between(a: float, b: float, gamma: float) -> float:
+    """The point ``gamma`` of the way from ``a`` to ``b``, as np.quantile takes it: from the
+    nearer of the two."""
+    step = b - a
     return a + step * gamma if gamma < 0.5 else b - step * (1.0 - gamma)
 
 

@@ -133,8 +133,8 @@ def own_spread(entry: dict, t, extrap: dict | None = None) -> dict:
         if share:
             h += [share["u_H"][None], zero]
             s += [zero, share["u_S"][None]]
-    out = {"u_H": np.sqrt(np.cumsum(np.concatenate(h) ** 2, axis=0)[-1]) if h else zero[0],
-           "u_S": np.sqrt(np.cumsum(np.concatenate(s) ** 2, axis=0)[-1]) if s else zero[0]}
+    out = {"u_H": _quadrature(np.concatenate(h)) if h else zero[0],
+           "u_S": _quadrature(np.concatenate(s)) if s else zero[0]}
     out["u_Cp"] = cp_share(entry, t, extrap or {}, model)
     return out
 
@@ -185,11 +185,14 @@ def spread(shares: dict, t, anchors: bool = True) -> dict:
         return {key: np.zeros_like(t) for key in ("u_H", "u_S", "u_G")}
     dh, ds = (np.array([p[k] if np.shape(p[k]) == t.shape else np.broadcast_to(p[k], t.shape)
                         for p in kept], dtype=float) for k in (0, 1))
-    # the squares added share by share, in order (a cumulative sum is sequential: the same
-    # numbers as a loop over the shares; a sum over an axis need not be)
-    return {"u_H": np.sqrt(np.cumsum(dh ** 2, axis=0)[-1]),
-            "u_S": np.sqrt(np.cumsum(ds ** 2, axis=0)[-1]),
-            "u_G": np.sqrt(np.cumsum((dh - t * ds) ** 2, axis=0)[-1])}
+    return {"u_H": _quadrature(dh), "u_S": _quadrature(ds), "u_G": _quadrature(dh - t * ds)}
+
+
+def _quadrature(rows) -> np.ndarray:
+    """The rows (shares) of ``rows`` added in quadrature, column by column: the squares
+    summed share by share, in order (a cumulative sum is sequential: the same numbers as a
+    loop over the shares; a sum over an axis need not be)."""
+    return np.sqrt(np.cumsum(rows ** 2, axis=0)[-1])
 
 
 def combine(parts) -> dict:

@@ -179,14 +179,8 @@ def evaluate_entries(items) -> list:
     ts = [np.atleast_1d(np.asarray(t, dtype=float)) for _, t in items]
     for (species, _), t in zip(items, ts):
         check_range(species, t)
-    out = [None] * len(ts)
-    by_form = {}
-    for k, (species, _) in enumerate(items):
-        by_form.setdefault(species["form"], []).append(k)
-    for form, ks in by_form.items():
-        got = forms.evaluate_many([(ranges_of(items[k][0]), ts[k]) for k in ks], form)
-        for k, ev in zip(ks, got):
-            out[k] = ev
+    out = forms.evaluate_forms([(species["form"], ranges_of(species), t)
+                                for (species, _), t in zip(items, ts)])
     for (species, _), t, ev in zip(items, ts, out):
         ev.update(uncertainty(species, t))
         data = species["data_range"]

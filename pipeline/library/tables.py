@@ -98,7 +98,9 @@ def own_rows_of(entries, step=100.0, points=None, transitions=None) -> dict:
     # (library.enthalpy_zero), evaluated with the rest
     own_zero = [sp for sp in entries if not sp.get("anchor")]
     evs = library.evaluate_entries(list(zip(entries, grids)))
-    zeros = {sp["id"]: float(h[0]) for sp, h in zip(own_zero, _h_at_reference(own_zero))}
+    at_zero = forms.evaluate_forms([(sp["form"], library.ranges_of(sp), [REFERENCE_TEMPERATURE])
+                                    for sp in own_zero], ("H",))
+    zeros = {sp["id"]: float(ev["H"][0]) for sp, ev in zip(own_zero, at_zero)}
     out = {}
     for sp, t, ev in zip(entries, grids, evs):
         h298 = zeros[sp["id"]] if sp["id"] in zeros else library.enthalpy_zero(sp)
@@ -111,20 +113,6 @@ def own_rows_of(entries, step=100.0, points=None, transitions=None) -> dict:
             "H": ev["H"], **{k: nothing for k in FORMATION},
             "stable": (t >= lo) & (t <= hi),
             "extrapolated": ev["extrapolated"].astype(bool)}
-    return out
-
-
-def _h_at_reference(entries) -> list:
-    """H at 298.15 K [J/mol] of each entry's coefficients (forms.h_of_ranges, its species of
-    one form in one pass)."""
-    out, by_form = [None] * len(entries), {}
-    for k, sp in enumerate(entries):
-        by_form.setdefault(sp["form"], []).append(k)
-    for form, ks in by_form.items():
-        got = forms.evaluate_many([(library.ranges_of(entries[k]), [REFERENCE_TEMPERATURE])
-                                   for k in ks], form, ("H",))
-        for k, ev in zip(ks, got):
-            out[k] = ev["H"]
     return out
 
 

@@ -201,6 +201,18 @@ def evaluate_many(items, form, columns=("Cp", "H", "S", "G")) -> list:
     return [{k: split[k][i] for k in columns} for i in range(len(ts))]
 
 
+def evaluate_forms(items, columns=("Cp", "H", "S", "G")) -> list:
+    """``evaluate_many`` of (form, ranges, t) ``items`` of any forms: those of one form in
+    one pass, the results in the order of ``items``."""
+    by_form, out = {}, [None] * len(items)
+    for k, (form, _, _) in enumerate(items):
+        by_form.setdefault(form, []).append(k)
+    for form, ks in by_form.items():
+        for k, ev in zip(ks, evaluate_many([items[k][1:] for k in ks], form, columns)):
+            out[k] = ev
+    return out
+
+
 def _power(p, x):
     return x ** p
 

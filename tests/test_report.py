@@ -138,7 +138,10 @@ def test_species_page_shows_its_sections(release):
     for section in ("At a glance", "Outside the data", "Curves", "Against the H and S columns",
                     "Findings", "Where the numbers came from", "Coefficients"):
         assert f"<h2>{section}" in text
-    assert f"{N2}-cp.svg" in text and f"{N2}-hs.svg" in text
+    # the page holds its two figures (ids of their own: one page, two svg elements)
+    assert text.count("<svg ") == 2 and "clip-path=\"url(#cp-c72-34)\"" in text
+    assert "clip-path=\"url(#hs-c72-34)\"" in text and "<img" not in text
+    assert "aria-label=\"Cp and deviation of N2(g)\"" in text
 
 
 def test_progress_is_plain_lines_off_a_terminal_and_silent_when_quiet(demo_raw, tmp_path,
@@ -186,7 +189,7 @@ def test_report_renders_in_a_real_headless_browser(release, tmp_path):
     assert shot.is_file() and shot.stat().st_size > 20000
     page = (release / "report" / "species" / f"{N2}.html").as_uri()
     dom = chromium("--dump-dom", page).stdout
-    assert dom.count("<img src=\"../img/N2_g-") == 2
+    assert dom.count("<svg ") == 2 and "aria-label=\"H and S deviation of N2(g)\"" in dom
     shot = tmp_path / "species.png"
     chromium("--window-size=1200,1800", f"--screenshot={shot}", page)
     assert shot.is_file() and shot.stat().st_size > 50000
@@ -253,6 +256,7 @@ def test_index_filters_and_pages_in_a_real_headless_browser(release, tmp_path):
 
 
 def test_plots_are_plain_svg_with_the_data_drawn(release):
+    import re
     import xml.etree.ElementTree as ET
 
     for svg in (release / "report" / "img").glob("*.svg"):
@@ -260,10 +264,17 @@ def test_plots_are_plain_svg_with_the_data_drawn(release):
         assert root.tag == "{http://www.w3.org/2000/svg}svg"
     lib = json.loads((release / "library.json").read_text())
     n2 = next(s for s in lib["species"] if s["id"] == "N2(g)")
-    text = (release / "report" / "img" / f"{N2}-cp.svg").read_text()
+    page = (release / "report" / "species" / f"{N2}.html").read_text()
+    figures = re.findall(r"<svg .*?</svg>", page)
+    for figure in figures:                            # each a well-formed svg element
+        assert ET.fromstring(figure).tag == "svg"
+    text = figures[0]
     assert "N2(g): heat capacity" in text and "<polyline" in text
     assert text.count("<rect") >= 3          # background, frames, and the extrapolated span
     assert len(n2["breakpoints"]) == 2 and text.count("stroke-dasharray=\"2,2\"") == 4
+    points = next(x for x in ET.fromstring(text).iter("path")
+                  if x.get("stroke-linecap") == "round")       # the rows used, one dot each
+    assert points.get("d").count("h0") == n2["quality"]["points"]
 
 
 def test_workers_write_the_pages_into_the_staged_release_themselves(tmp_path, monkeypatch):

@@ -56,7 +56,10 @@ def test_a_chart_is_deterministic_well_formed_and_breaks_lines_at_nan():
     root = ET.fromstring(svg)
     ns = "{http://www.w3.org/2000/svg}"
     assert len(root.findall(f".//{ns}polyline")) == 2       # the NaN splits the line
-    assert len(root.findall(f".//{ns}circle")) == 1
+    dots = [x for x in root.iter(f"{ns}path") if x.get("stroke-linecap") == "round"]
+    assert len(dots) == 1 and dots[0].get("stroke") == "#111"    # the NaN point is not drawn
+    # x = 1 of 0-10 over 240 px from 40, y = 0.5 of 0-1 over 150 px up from 170
+    assert dots[0].get("d") == "M64.00 95.00h0" and dots[0].get("stroke-width") == "4.4"
     assert b"a &lt;b&gt; &amp; c" in svg
     span = [r for r in root.iter(f"{ns}rect") if r.get("fill") == "#222"][0]
     assert float(span.get("x")) + float(span.get("width")) == pytest.approx(280.0)

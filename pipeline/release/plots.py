@@ -1,7 +1,8 @@
 """Plots of the build report, drawn at build time as plain SVG (svgchart.py).
 
-Each function takes the numbers of one species (or of the whole build) and returns the bytes
-of one SVG file; the same inputs give the same bytes."""
+Each function takes the numbers of one species (or of the whole build) and returns one
+figure: a species' figures as ``svg`` elements its HTML page holds, the others as the bytes
+of an SVG file; the same inputs give the same text."""
 
 import numpy as np
 
@@ -14,10 +15,10 @@ INK, DATA, FIT, BAD, SHADE, GRID = "#22313f", "#1f7a8c", "#d1495b", "#8f2d56", "
 EMPTY = np.zeros(0)
 
 
-def species_figure(sp, t, cp, t_out, cp_out, accept) -> bytes:
+def species_figure(sp, t, cp, t_out, cp_out, accept) -> str:
     """Cp of library entry ``sp`` with the rows used (t [K], cp [J/(mol K)]), the rows left
     out, breakpoints and extrapolated intervals, over the relative deviation of the fit with
-    the acceptance threshold ``accept`` (a fraction)."""
+    the acceptance threshold ``accept`` (a fraction): the ``svg`` element of its page."""
     lo, hi = sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"]
     ranges = library.ranges_of(sp)
     tf = np.geomspace(lo, hi, 300)
@@ -27,7 +28,7 @@ def species_figure(sp, t, cp, t_out, cp_out, accept) -> bytes:
         dev = 100 * (forms.cp_of_ranges(ranges, t, sp["form"]) - cp) / cp
     span = max(float(np.max(np.abs(dev))) if len(dev) else 0.0, 100 * accept) * 1.2
     xlim = (lo - 0.02 * (hi - lo), hi + 0.02 * (hi - lo))
-    chart = Chart(720, 500, grid=GRID, ink=INK)
+    chart = Chart(720, 500, grid=GRID, ink=INK, ids="cp-")
     top = chart.panel((72, 34, 626, 266), xlim, span_of(cp_fit, cp, cp_out),
                       title=f"{sp['id']}: heat capacity and deviation of the fit",
                       ylabel="Cp [J/(mol K)]", x_labels=False)
@@ -46,13 +47,14 @@ def species_figure(sp, t, cp, t_out, cp_out, accept) -> bytes:
     bottom.hline(0.0, INK, width=0.6)
     bottom.line(t, dev, DATA, width=0.8)
     bottom.dots(t, dev, DATA)
-    return chart.to_bytes()
+    return chart.element(f"Cp and deviation of {sp['id']}")
 
 
-def deviation_figure(t_h, dh_dev, t_s, s_dev) -> bytes:
-    """Fit − column for H − H298 [J/mol] at t_h [K] and S [J/(mol K)] at t_s [K]; a table
-    without the column gets no panel."""
-    chart = Chart(720, 260, grid=GRID, ink=INK)
+def deviation_figure(t_h, dh_dev, t_s, s_dev, species_id: str) -> str:
+    """Fit − column for H − H298 [J/mol] at t_h [K] and S [J/(mol K)] at t_s [K] of species
+    ``species_id`` (the ``svg`` element of its page); a table without the column gets no
+    panel."""
+    chart = Chart(720, 260, grid=GRID, ink=INK, ids="hs-")
     for k, (t, d, title) in enumerate(((t_h, dh_dev, "H - H298: fit - column [J/mol]"),
                                        (t_s, s_dev, "S: fit - column [J/(mol K)]"))):
         if not len(t):
@@ -62,7 +64,7 @@ def deviation_figure(t_h, dh_dev, t_s, s_dev) -> bytes:
         panel.hline(0.0, INK, width=0.6)
         panel.line(t, d, DATA, width=0.8)
         panel.dots(t, d, DATA)
-    return chart.to_bytes()
+    return chart.element(f"H and S deviation of {species_id}")
 
 def phase_figure(name, all_transitions, by_id) -> bytes:
     """SVG of every phase of species ``name``: Cp [J/(mol K)] over each phase's range of use

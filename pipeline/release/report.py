@@ -33,7 +33,7 @@ th{background:#e8eef0;cursor:pointer}
 td.num{text-align:right;font-variant-numeric:tabular-nums}
 .tag{border-radius:8px;padding:1px 8px;font-size:12px}
 .ok{background:#d6ebe0}.watch{background:#fbe7c2}.held{background:#f3c9cf}
-figure{margin:8px 0}img{max-width:100%;background:#fff}
+figure{margin:8px 0}img,figure svg{max-width:100%;height:auto;background:#fff}
 code{font-size:12px;word-break:break-all}
 .overview{display:flex;flex-wrap:wrap;gap:12px}
 .pager{margin:8px 0}.pager input{padding:3px 6px;min-width:16em}.pager .info{font-size:13px}
@@ -275,10 +275,10 @@ def _origin_section(sp) -> list:
     return out
 
 
-def species_page(sp, points, has_dev, transitions=None, formation=None) -> bytes:
-    """The HTML page of one library species entry; ``transitions`` those of the library,
-    ``formation`` its entry of ``formation_rows``."""
-    name = file_stem(sp["id"])
+def species_page(sp, figures, transitions=None, formation=None) -> bytes:
+    """The HTML page of one library species entry with its ``figures`` (the ``svg`` elements
+    of plots.species_figure and, or None, plots.deviation_figure); ``transitions`` those of
+    the library, ``formation`` its entry of ``formation_rows``."""
     q = sp["quality"]
     rows = [("form", sp["form"]), ("range of use", f"{sp['ranges'][0]['t_min']:g}-"
                                                    f"{sp['ranges'][-1]['t_max']:g} K"),
@@ -306,11 +306,10 @@ def species_page(sp, points, has_dev, transitions=None, formation=None) -> bytes
             body.append(f"<tr><td>{x['t_min']:g}-{x['t_max']:g}</td><td>{e(x['model'])}</td>"
                         f"<td>{e(he)}</td><td>{e(ue)}</td></tr>")
         body.append("</table>")
-    body.append(f"<h2>Curves</h2><figure><img src=\"../img/{e(name)}-cp.svg\" alt=\"Cp and "
-                f"deviation of {e(sp['id'])}\"/><figcaption>{LEGEND}</figcaption></figure>")
-    if has_dev:
-        body.append(f"<h2>Against the H and S columns</h2><figure><img src=\"../img/"
-                    f"{e(name)}-hs.svg\" alt=\"H and S deviation of {e(sp['id'])}\"/></figure>")
+    cp_figure, hs_figure = figures
+    body.append(f"<h2>Curves</h2><figure>{cp_figure}<figcaption>{LEGEND}</figcaption></figure>")
+    if hs_figure is not None:
+        body.append(f"<h2>Against the H and S columns</h2><figure>{hs_figure}</figure>")
     body.append("<h2>Findings</h2>")
     if sp["findings"]:
         body.append("<table><tr><th>severity</th><th>code</th><th>where</th><th>what</th></tr>")
@@ -524,16 +523,16 @@ def _species_files(species, points, accept, transitions=(), formed=None, staging
 def _drawn(species, points, accept, transitions=(), formed=None) -> dict:
     files = {}
     for sp in species:
-        cp_plot, hs_plot, html_page = page_paths(sp["id"])
+        (html_page,) = page_paths(sp["id"])
         p = points.get(sp["id"], {})
-        files[cp_plot] = plots.species_figure(
+        cp_figure = plots.species_figure(
             sp, p.get("t", np.zeros(0)), p.get("cp", np.zeros(0)), p.get("t_out", np.zeros(0)),
             p.get("cp_out", np.zeros(0)), accept)
-        has_dev = "dh" in p or "s" in p
-        if has_dev:
+        hs_figure = None
+        if "dh" in p or "s" in p:
             th, dh = p.get("dh", (np.zeros(0), np.zeros(0)))
             ts, ds = p.get("s", (np.zeros(0), np.zeros(0)))
-            files[hs_plot] = plots.deviation_figure(th, dh, ts, ds)
-        files[html_page] = species_page(sp, p, has_dev, transitions,
+            hs_figure = plots.deviation_figure(th, dh, ts, ds, sp["id"])
+        files[html_page] = species_page(sp, (cp_figure, hs_figure), transitions,
                                         (formed or {}).get(sp["id"]))
     return files

@@ -231,3 +231,62 @@ def test_rows_under_a_header_with_spaces_are_split_as_the_csv_module_splits_them
     numbers = [2 * k + 1 for k in range(len(lines))]
     assert csvtable._records(lines, numbers, delimiter) == _records_by_csv(lines, numbers,
                                                                            delimiter)
+
+
+def _same_parse(a, b) -> bool:
+    """Whether two ParsedTables hold the same rows (to the last bit, NaN where NaN), header,
+    notes, findings and record of how the file was read."""
+    names = ("T", "Cp", "u_Cp", "H-H298", "S", "line")
+    same_rows = len(a.data) == len(b.data) and all(
+        np.array_equal(a.data[c], b.data[c], equal_nan=c != "line") for c in names
+        if c in a.data or c in b.data)
+    return same_rows and (a.columns, a.notes, a.findings, a.reading) == \
+        (b.columns, b.notes, b.findings, b.reading)
+
+
+BLOCK_CELLS = st.one_of(
+    st.floats(1e-3, 1e5, allow_nan=False).map(lambda v: f"{v:.6g}"),
+    st.integers(-50, 5000).map(str),
+    st.sampled_from(["", "-", "1e999", "nan", "inf", "1.5.2", ".5", "5.", "+3e-2", "1_0",
+                     "0x1A", " 7", "7 ", "٣", "1.0e", "−1", "\"2\"", "'2'", "2;3", "3\t4",
+                     "g", "cr"]))
+BLOCK_HEADERS = st.sampled_from([
+    ["T [K]", "Cp [J/(mol*K)]"], ["T [K]", "Cp [J/(mol*K)]", "u(Cp) [J/(mol*K)]"],
+    [" T [degC] ", "Cp [cal/(mol*K)]"], ["T [K]", "Cp [J/(g*K)]"], ["T [K]", "H-H298 [kJ/mol]"],
+    ["T [K]", "Cp [J/(mol*K)]", "S [J/(mol*K)]"], ["T [K]", "Cp [J/(mol*K)]", "phase"],
+    ["T [K]", "Cp [J/(mol*K)]", ""], ["T", "Cp"], ["T [K]", "notes"], ["T [K]", "Cp [K]"],
+    ["T [K]", "Cp [J/(mol*K)]", "T [K]"]])
+
+
+@settings(max_examples=500, deadline=None)
+@given(BLOCK_HEADERS, st.lists(st.lists(BLOCK_CELLS, min_size=1, max_size=4), min_size=0,
+                               max_size=8),
+       st.sampled_from(["\n", "", "\n\n", "\r\n"]), st.sampled_from(["", "\n", "# c\n"]),
+       st.booleans())
+def test_a_numeric_block_is_read_as_the_line_by_line_reader_reads_it(header, rows, end, lead,
+                                                                      units_row):
+    """A file that is a header line over plain numbers is split and read as one block
+    (``_numeric_block``); whatever the file, the table, notes, findings and reading record
+    are those the line-by-line reader gives, to the last bit."""
+    lines = [",".join(header)] + (["K,J/(mol*K)"] if units_row else []) + \
+        [",".join(r) for r in rows]
+    text = lead + "\n".join(lines) + end
+    for molar_mass in (None, 28.0):
+        fast = csvtable.parse_table(text, file="x.csv", molar_mass=molar_mass)
+        slow = csvtable.parse_table(text, file="x.csv", molar_mass=molar_mass, _fast=False)
+        assert _same_parse(fast, slow), text
+
+
+def test_a_catalogue_table_is_read_as_one_block():
+    """The form of a computed catalogue's table takes the block reader, and gives the
+    line-by-line reader's table."""
+    text = "T [K],Cp [J/(mol*K)]\n" + "".join(f"{200 + 10 * k},{29.1 + 0.01 * k:.6f}\n"
+                                            for k in range(101))
+    header, (numbers, rows) = csvtable._numeric_block(text)
+    assert header == ["T [K]", "Cp [J/(mol*K)]"] and rows == 101 and numbers[:2] == [200.0, 29.1]
+    fast = csvtable.parse_table(text, file="x.csv")
+    assert _same_parse(fast, csvtable.parse_table(text, file="x.csv", _fast=False))
+    assert list(fast.data["line"]) == list(range(2, 103))
+    for spoilt in (text.replace("\n", "\r\n"), text + "\n", "# c\n" + text,
+                   text.replace("29.1", "29,1", 1), text.replace("200,", "200, ", 1)):
+        assert csvtable._numeric_block(spoilt) is None

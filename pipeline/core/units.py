@@ -57,9 +57,10 @@ def registry():
 
 
 _EXPONENT = re.compile(r"(\*\*|\^)\s*(\([^()]*\)|[+-]?[0-9.eE]*)")
-_PLAIN = r"[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?"
-_NUMBER = re.compile(rf"^{_PLAIN}$")
-_PLAIN_LINES = re.compile(rf"(?:{_PLAIN}\n)*{_PLAIN}")
+#: a plain ASCII decimal literal (the pattern of ``is_plain_number``)
+PLAIN_NUMBER = r"[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?"
+_NUMBER = re.compile(rf"^{PLAIN_NUMBER}$")
+_PLAIN_LINES = re.compile(rf"(?:{PLAIN_NUMBER}\n)*{PLAIN_NUMBER}")
 
 
 def check_complexity(text: str) -> None:

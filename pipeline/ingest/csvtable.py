@@ -16,6 +16,7 @@ import csv
 import math
 import re
 from dataclasses import dataclass, field, replace
+from functools import lru_cache
 from operator import itemgetter
 
 import numpy as np
@@ -120,7 +121,7 @@ def _records(lines, numbers, delimiter):
 def parse_table(text: str, *, file: str, molar_mass: float | None = None,
                 standard_pressure: float = constants.STANDARD_PRESSURE,
                 phase: str = "g", columns: dict | None = None,
-                encoding: str = "utf-8") -> ParsedTable:
+                encoding: str = "utf-8", _fast: bool = True) -> ParsedTable:
     """Parse CSV ``text`` into a clean table in SI units.
 
     Parameters
@@ -132,6 +133,10 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
     phase : str, 'g' for an ideal gas (its S column is moved to 1 bar)
     columns : the table's ``columns`` mapping of source.json (header cell -> quantity, unit)
     encoding : how the bytes were decoded (recorded in ``reading``)
+
+    A file that is one comma-separated header line over a block of plain numbers (the form
+    of a computed catalogue's tables) is split and read as one block (``_numeric_block``);
+    the result is the one the line-by-line reader gives (tests/test_csvtable.py).
 
     Notes
     -----
@@ -146,25 +151,32 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
         line = text[: text.index("\0")].count("\n") + 1
         return _refused(finding("TAB-SYNTAX", "the file contains NUL characters (a binary file?)",
                                 file=file, line=line, expected="plain comma-separated text"))
-    lines, numbers, comments = dialects.content_lines(text)
-    delimiter = dialects.sniff_delimiter(lines)
-    reading = dialects.Dialect(encoding, delimiter, ".", comments)
-    try:
-        rows = _records(lines[: MAX_ROWS + 3], numbers, delimiter)
-    except csv.Error as exc:
-        return _refused(finding("TAB-SYNTAX", f"the CSV cannot be split into rows ({exc})",
-                                file=file), reading.to_dict())
-    if not rows:
-        return _refused(finding("TAB-EMPTY", "the file is empty", file=file,
-                                expected="a header row and data rows"), reading.to_dict())
-    header_line, header = rows[0]
-    while header and not header[-1]:                # a trailing delimiter
-        header = header[:-1]
-    units_row = None
-    if len(rows) > 1 and looks_like_units_row(rows[1][1], lambda c: parse_number(c) is not None
-                                              or parse_number(c, ",") is not None):
-        units_row = rows[1][1]
-        rows = [rows[0]] + rows[2:]
+    block = _numeric_block(text) if _fast else None
+    if block is not None:              # one header line over plain numbers (rows: the header)
+        header, block = block
+        delimiter, header_line, units_row, rows = ",", 1, None, [(1, header)]
+        reading = dialects.Dialect(encoding, delimiter, ".", ())
+    else:
+        lines, numbers, comments = dialects.content_lines(text)
+        delimiter = dialects.sniff_delimiter(lines)
+        reading = dialects.Dialect(encoding, delimiter, ".", comments)
+        try:
+            rows = _records(lines[: MAX_ROWS + 3], numbers, delimiter)
+        except csv.Error as exc:
+            return _refused(finding("TAB-SYNTAX", f"the CSV cannot be split into rows ({exc})",
+                                    file=file), reading.to_dict())
+        if not rows:
+            return _refused(finding("TAB-EMPTY", "the file is empty", file=file,
+                                    expected="a header row and data rows"), reading.to_dict())
+        header_line, header = rows[0]
+        while header and not header[-1]:                # a trailing delimiter
+            header = header[:-1]
+        units_row = None
+        if len(rows) > 1 and looks_like_units_row(
+                rows[1][1], lambda c: parse_number(c) is not None
+                or parse_number(c, ",") is not None):
+            units_row = rows[1][1]
+            rows = [rows[0]] + rows[2:]
     if len(header) > MAX_COLUMNS or len(rows) - 1 > MAX_ROWS:
         return _refused(finding(
             "TAB-TOO-LARGE", f"{len(header)} columns and {len(rows) - 1}"
@@ -203,14 +215,21 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
               "columns": [c.to_dict() for c in cols]}
     notes += [f"column '{c.header}' read as {c.quantity} [{c.unit}] by the columns mapping of "
               "source.json" for c in cols if c.origin == "mapping"]
-    if len(rows) == 1:
+    if len(rows) == 1 and block is None:
         findings.append(finding("TAB-EMPTY", "the table has a header but no data rows",
                                 file=file, line=header_line, expected="data rows"))
     have = {c.quantity for c, _ in usable}
     if "T" not in have or not have & {"Cp", "H-H298"}:
-        rows = rows[:1]                 # no rows without T and Cp (or H-H298)
-    values, lines_read, row_problems = _read_rows(rows[1:], len(header), usable, mark,
-                                                  delimiter, file)
+        rows, block = rows[:1], None    # no rows without T and Cp (or H-H298)
+    if block is not None:
+        if any(COLUMNS[c.quantity][1] is None for c, _ in usable):     # a phase column
+            return parse_table(text, file=file, molar_mass=molar_mass,
+                               standard_pressure=standard_pressure, phase=phase,
+                               columns=columns, encoding=encoding, _fast=False)
+        values, lines_read, row_problems = _block_values(block, len(header), usable)
+    else:
+        values, lines_read, row_problems = _read_rows(rows[1:], len(header), usable, mark,
+                                                      delimiter, file)
     if not lines_read and len(row_problems) > 1:
         row_problems = [_root_cause(row_problems, len(rows) - 1, len(header), delimiter, file)]
     findings += row_problems
@@ -284,6 +303,46 @@ def _read_clean(rows, width, usable, mark):
             return None
         values.append(column)
     return values, list(lines)
+
+
+#: what a file may not hold to be read as one block: quotes, comments, other delimiters,
+#: carriage returns and the whitespace ``str.strip`` takes off a cell (a space only in the
+#: header line, whose cells are stripped)
+_NOT_A_BLOCK = re.compile("[\"'#;\t\r\x0b\x0c\x1c-\x1f]")
+
+
+@lru_cache(maxsize=64)
+def _block_pattern(width: int):
+    """Rows of ``width`` plain numbers (units.is_plain_number) between commas, one a line,
+    the last line break optional."""
+    row = rf"{units.PLAIN_NUMBER}(?:,{units.PLAIN_NUMBER}){{{width - 1}}}"
+    return re.compile(rf"(?:{row}\n)*{row}\n?")
+
+
+def _numeric_block(text: str):
+    """(header cells, (numbers, rows)) of ``text`` when it is one comma-separated header
+    line (its cells stripped, none of them empty at the end) over 1 to MAX_ROWS lines of
+    as many plain finite numbers, in ASCII, with no blank line; else None. The numbers are
+    those of every cell row by row, each read by ``float`` as ``parse_number`` reads it."""
+    if len(text) > csv.field_size_limit() or not text.isascii() or _NOT_A_BLOCK.search(text):
+        return None                   # (a longer line is the csv module's to refuse)
+    first, _, body = text.partition("\n")
+    header = [c.strip() for c in first.split(",")]
+    width = len(header)
+    if width < 2 or width > MAX_COLUMNS or not header[-1] or " " in body or \
+            body.count("\n") > MAX_ROWS + 1 or not _block_pattern(width).fullmatch(body):
+        return None
+    numbers = list(map(float, body.replace("\n", ",").rstrip(",").split(",")))
+    rows = len(numbers) // width
+    if rows > MAX_ROWS or not all(map(math.isfinite, numbers)):
+        return None
+    return header, (numbers, rows)
+
+
+def _block_values(block, width, usable):
+    """``_read_rows`` of a ``_numeric_block``: every row read, from line 2 on."""
+    numbers, n = block
+    return [numbers[c.position::width] for c, _ in usable], list(range(2, n + 2)), []
 
 
 def _read_rows(rows, width, usable, mark, delimiter, file):

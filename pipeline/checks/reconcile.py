@@ -246,8 +246,9 @@ def _select(sid, tables, about, ctx):
             keep_row &= ~np.isin(table.data["line"], [ln for ln, _ in ex])
         if covered is not None:
             keep_row &= (t < covered[0]) | (t > covered[1])
-        if keep_row.any():
-            d = table.data.take(keep_row).with_columns(file=table.meta.file)
+        if keep_row.any():              # (read-only columns: all rows kept are shared)
+            d = (table.data if keep_row.all() else table.data.take(keep_row)).with_columns(
+                file=table.meta.file)
             rows.append(d)
             lo, hi = float(t[keep_row].min()), float(t[keep_row].max())
             covered = (lo, hi) if covered is None else (min(covered[0], lo),
@@ -270,7 +271,9 @@ def _select(sid, tables, about, ctx):
                                      **table.meta.where))
     if rows:
         data = concat(rows) if len(rows) > 1 else rows[0]
-        data = data.take(np.argsort(data["T"], kind="stable"))
+        t = data["T"]
+        if not (t[1:] >= t[:-1]).all():     # sorted already (one table, as a rule): as it is
+            data = data.take(np.argsort(t, kind="stable"))
     else:
         data = primary.data.head(0).with_columns(file=np.empty(0, dtype=str))
     shared = {t.meta.file for t in tables if t.meta.shared}   # files of several species

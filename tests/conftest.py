@@ -70,3 +70,17 @@ def run_cli(capsys, *argv):
     code = cli.main([str(a) for a in argv])
     out = capsys.readouterr()
     return code, out.out, out.err
+
+
+def species_page(home: Path, species_id: str) -> str:
+    """The page of ``species_id`` in the report of release ``home`` (a release folder, or a
+    release home through its links): its section of the page file that holds it."""
+    import json
+
+    from thermoledger.release import pages
+
+    n = len(json.loads((home / "library.json").read_bytes())["species"])
+    path, section = pages.page_of(species_id, pages.page_files(n))
+    text = (home / path).read_text()
+    start = text.index(f"<section class=\"sp\" id=\"{section}\">")
+    return text[start:text.index("</section>", start) + len("</section>")]

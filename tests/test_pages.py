@@ -1,16 +1,23 @@
-"""Report pages taken from the last release (release/pages.py): a rebuild links the pages of
-every species whose inputs are unchanged, draws the others, and publishes the release a
-fresh build makes."""
+"""Report pages taken from the last release (release/pages.py): a rebuild links the page
+files whose species' inputs are unchanged, draws the others, and publishes the release a
+fresh build makes. The demo's pages are spread over many files here (pages.GROUP 1: some
+32 files for its species), so that each test tells one species' file from the others'."""
 
 import hashlib
 import json
 import os
 from pathlib import Path
 
+import pytest
 from thermoledger import build
 from thermoledger.release import pages, publish
 
 from .conftest import run_cli, tree_hashes
+
+
+@pytest.fixture(autouse=True)
+def one_species_a_file(monkeypatch):
+    monkeypatch.setattr(pages, "GROUP", 1)
 
 
 def _edit(raw: Path, rel: str) -> None:
@@ -31,39 +38,46 @@ def _inodes(home: Path) -> dict:
 
 
 def _species_pages(home: Path) -> dict:
-    """{species id: its page paths} of the current release of ``home``."""
+    """{species id: the path of its page file} of the current release of ``home``."""
     doc = json.loads((home / "current" / "library.json").read_bytes())
-    return {sp["id"]: [p for p in pages.page_paths(sp["id"]) if
-                       (home / "current" / p).exists()] for sp in doc["species"]}
+    files = pages.page_files(len(doc["species"]))
+    return {sp["id"]: pages.page_of(sp["id"], files)[0] for sp in doc["species"]}
+
+
+def _sharing(by_species: dict, *ids) -> set:
+    """The species whose page file holds the page of one of ``ids``."""
+    return {sid for sid, f in by_species.items() if f in {by_species[i] for i in ids}}
 
 
 def test_a_rebuild_links_the_pages_of_species_whose_inputs_are_unchanged(demo_raw, tmp_path):
-    """After one table is edited, the pages of every other species are hard links to those
-    of the last release; the edited species is drawn again, and so is every species whose
-    formation properties count from it (Ar is the reference of no other species' element,
-    H2 of every species with hydrogen); the release is the one a fresh build makes."""
+    """After one table is edited, every page file without its species is a hard link to
+    the one of the last release; the edited species' file is drawn again, and so is the
+    file of every species whose formation properties count from it (Ar is the reference of
+    no other species' element, H2 of every species with hydrogen); the release is the one a
+    fresh build makes."""
     out = tmp_path / "out"
     build.build(demo_raw, out)
     before = _inodes(out)
     by_species = _species_pages(out)
+    assert len(by_species) > 10 and len(set(by_species.values())) > 10
     _edit(demo_raw, "isru-rrho-2026/ar.csv")
-    assert build.build(demo_raw, out).linked == len(by_species) - 1
+    ar = _sharing(by_species, "Ar(g)")
+    assert build.build(demo_raw, out).linked == len(by_species) - len(ar)
     after = _inodes(out)
-    drawn = {sid for sid, files in by_species.items()
-             if any(after[f] != before[f] for f in files)}
-    assert drawn == {"Ar(g)"}
-    assert len(by_species) > 10 and all(by_species.values())
+    drawn = {sid for sid, f in by_species.items() if after[f] != before[f]}
+    assert drawn == ar
     kept = sorted((out / publish.STORE).glob("pages-*.jsonl"))
     assert [p.name for p in kept] == [pages.KEPT.format((out / "current").resolve().name)]
     lines = [json.loads(line) for line in kept[0].read_text().splitlines()]
-    assert [line[0] for line in lines] == sorted(by_species)
-    assert all(sorted(rel for rel, _, _ in files) == sorted(by_species[sid])
-               for sid, _, files in lines)
+    assert [line[0] for line in lines] == sorted(set(by_species.values()))
+    assert all([rel for rel, _, _ in files] == [name] for name, _, files in lines)
     _edit(demo_raw, "isru-rrho-2026/h2.csv")
     build.build(demo_raw, out)
     again = _inodes(out)
-    drawn = {sid for sid, files in by_species.items() if any(again[f] != after[f] for f in files)}
-    assert {"H2(g)", "CH4(g)", "C2H4(g)"} <= drawn and "Ar(g)" not in drawn and "CO(g)" not in drawn
+    drawn = {sid for sid, f in by_species.items() if again[f] != after[f]}
+    hydrogen = _sharing(by_species, "H2(g)", "CH4(g)", "C2H4(g)")
+    assert hydrogen <= drawn
+    assert not {"Ar(g)", "CO(g)"} & drawn - hydrogen
     fresh = tmp_path / "fresh"
     build.build(demo_raw, fresh, fresh=True)
     assert tree_hashes(out) == tree_hashes(fresh)
@@ -76,14 +90,15 @@ def test_a_page_changed_in_the_last_release_is_drawn_again_never_written_through
     build with --fresh, or a kept list made for another release, links nothing."""
     out = tmp_path / "out"
     build.build(demo_raw, out)
-    page = next(p for p in pages.page_paths("CO(g)") if p.endswith(".html"))
+    by_species = _species_pages(out)
+    page = by_species["CO(g)"]
     old = (out / "current").resolve() / page
     old.write_bytes(b"changed")
     _edit(demo_raw, "isru-rrho-2026/ar.csv")
     code, said, _ = run_cli(capsys, "build", "--raw", demo_raw, "--out", out)
-    n = len(_species_pages(out))
-    assert code in (0, 1) and f"linked the report pages of {n - 2} species from the last " \
-        "release" in said         # all but Ar(g), edited, and CO(g), whose page changed
+    n = len(by_species) - len(_sharing(by_species, "Ar(g)", "CO(g)"))
+    assert code in (0, 1) and f"linked the report pages of {n} species from the last " \
+        "release" in said         # all but Ar(g)'s, edited, and CO(g)'s, whose file changed
     new = (out / "current").resolve() / page
     assert old.read_bytes() == b"changed" and new.stat().st_ino != old.stat().st_ino
     fresh = tmp_path / "fresh"
@@ -126,26 +141,36 @@ def test_a_release_links_a_file_only_when_it_holds_what_was_kept(tmp_path):
 
 
 def test_the_kept_pages_are_written_in_the_order_the_species_came(tmp_path):
-    """Pages drawn by worker processes come back later than those linked at once: each
-    species' line waits for those before it, so the kept list is in the report's order,
+    """Page files drawn by worker processes come back later than those linked at once: each
+    file's line waits for those before it, so the kept list is in the order of the paths,
     which the next build reads forward."""
     home = tmp_path / "home"
     (home / publish.STORE).mkdir(parents=True)
     release = publish.Release()
     drawn = pages.Drawn(home, "code").into(release)
-    for sid in ("A(g)", "B(g)", "C(g)"):
-        release.add(pages.page_paths(sid)[0], sid.encode())
-        drawn.wait(sid, f"key of {sid}")
-    drawn.drew("C(g)")
-    drawn.drew("A(g)")
-    drawn.drew("B(g)")
+    names = [f"report/species/4-{k}.html" for k in range(3)]
+    for name in names:
+        release.add(name, name.encode())
+        drawn.wait(name, f"key of {name}")
+    for k in (2, 0, 1):
+        drawn.drew(names[k])
     drawn.save()
     (kept,) = (home / publish.STORE).glob("pages-*.jsonl")
     lines = [json.loads(line) for line in kept.read_text().splitlines()]
-    assert [(sid, key) for sid, key, _ in lines] == [(s, f"key of {s}") for s in
-                                                     ("A(g)", "B(g)", "C(g)")]
-    assert lines[1][2] == [[pages.page_paths("B(g)")[0],
-                            hashlib.sha256(b"B(g)").hexdigest(), 4]]
+    assert [(name, key) for name, key, _ in lines] == [(n, f"key of {n}") for n in names]
+    assert lines[1][2] == [[names[1], hashlib.sha256(names[1].encode()).hexdigest(),
+                            len(names[1])]]
+
+
+def test_a_species_page_file_is_chosen_by_its_id_alone(monkeypatch):
+    """The page file of a species depends on its id and the number of files only: the
+    same on every machine; the files double as the species do, some GROUP a file."""
+    monkeypatch.setattr(pages, "GROUP", 16)               # as built
+    assert [pages.page_files(n) for n in (0, 1, 16, 17, 32, 33, 10_000, 100_000)] == \
+        [1, 1, 1, 2, 2, 4, 1024, 8192]
+    assert pages.page_of("N2(g)", 1) == ("report/species/1-0.html", "N2_g-87e625cc9a")
+    spread = {pages.page_of(f"S{k}(g)", 64)[0] for k in range(2000)}
+    assert len(spread) == 64 and all(p.startswith("report/species/64-") for p in spread)
 
 
 def test_the_kept_pages_are_read_forward_past_species_added_or_gone(tmp_path):

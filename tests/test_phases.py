@@ -16,7 +16,7 @@ from thermoledger.core.names import file_stem
 from thermoledger.core.settings import OutputSettings, Settings
 from thermoledger.testing import condensed as C
 
-from .conftest import run_cli
+from .conftest import run_cli, species_page
 
 QUICK = Settings(outputs=OutputSettings(report=False))
 
@@ -69,7 +69,7 @@ def test_crystal_liquid_gas_is_one_coherent_entry_set_without_invented_anchors(a
         ("Al(cr)", "Al(l)"), ("Al(l)", "Al(g)")]
     codes = {f["code"] for f in result.findings}
     assert not codes & {"TRS-GIBBS-MISMATCH", "TRS-ORDER", "ANCHOR-MISSING", "FIT-FAILED"}
-    page = next((out / "current" / "report" / "species").glob("Al_l-*.html")).read_text()
+    page = species_page(out / "current", "Al(l)")
     assert "Phases of Al" in page and "Al(cr) → Al(l)" in page and "10.71 ± 0.2" in page
     svg = next((out / "current" / "report" / "img").glob("Al-*-phases.svg")).read_text()
     assert svg.count("stroke-dasharray") >= 2 and "H - H298" in svg     # transitions marked

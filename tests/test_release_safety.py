@@ -275,9 +275,12 @@ def test_species_ids_that_sanitise_alike_get_their_own_files(tmp_path, capsys):
     raw = small_raw(tmp_path / "raw", first=["NO", "NO+", "CO", "Co"])
     out = tmp_path / "out"
     assert run(capsys, "build", "--raw", raw, "--out", out, "--quiet", "--tables-csv")[0] == 0
-    pages = sorted(os.listdir(out / "report" / "species"))
+    index = (out / "report" / "index.html").read_text()
+    links = re.findall(r"<a href=\"(species/[^\"#]+)#([^\"]+)\">", index)
     csvs = sorted(os.listdir(out / "tables"))
-    assert len(pages) == 4 and len({p.lower() for p in pages}) == 4
+    assert len(links) == 4 and len({s.lower() for _, s in links}) == 4   # sections of their own
+    for file, section in links:
+        assert f"<section class=\"sp\" id=\"{section}\">" in (out / "report" / file).read_text()
     assert len(csvs) == 4 and len({c.lower() for c in csvs}) == 4
     assert names.file_stem("NO+(g)") == names.file_stem("NO+(g)")   # stable
     assert names.file_stem("NO(g)").startswith("NO_g-")

@@ -15,8 +15,9 @@ from thermoledger.core.constants import GAS_CONSTANT as R
 from thermoledger.release import tables
 
 from .conftest import run_cli as run
+from .conftest import species_page
 
-N2 = names.file_stem("N2(g)")  # the file name of N2(g)'s page, plot and table
+N2 = names.file_stem("N2(g)")  # the file stem of N2(g): its page's section id and its table
 
 
 @pytest.fixture
@@ -121,7 +122,9 @@ class Strict(HTMLParser):
 
 def test_html_is_well_formed_and_every_reference_exists(release):
     pages = sorted((release / "report").rglob("*.html"))
-    assert (release / "report" / "index.html") in pages and len(pages) >= 10
+    n = len(json.loads((release / "library.json").read_text())["species"])
+    assert (release / "report" / "index.html") in pages and len(pages) >= 3   # index, 2 files
+    assert sum(p.read_text().count("<section class=\"sp\"") for p in pages) == n
     for page in pages:
         text = page.read_text()
         p = Strict()
@@ -130,11 +133,15 @@ def test_html_is_well_formed_and_every_reference_exists(release):
         assert "qualified person" in text
         assert "http://" not in text and "https://" not in text
         for ref in p.refs:
-            assert (page.parent / ref).resolve().is_file(), (page, ref)
+            target, _, section = ref.partition("#")
+            target = page if not target else (page.parent / target).resolve()
+            assert target.is_file(), (page, ref)
+            if section:                        # a species' page: a section of that file
+                assert f"id=\"{section}\"" in target.read_text(), (page, ref)
 
 
 def test_species_page_shows_its_sections(release):
-    text = (release / "report" / "species" / f"{N2}.html").read_text()
+    text = species_page(release, "N2(g)")
     for section in ("At a glance", "Outside the data", "Curves", "Against the H and S columns",
                     "Findings", "Where the numbers came from", "Coefficients"):
         assert f"<h2>{section}" in text
@@ -180,6 +187,7 @@ def test_report_renders_in_a_real_headless_browser(release, tmp_path):
                               capture_output=True, text=True, timeout=120)
 
     index = (release / "report" / "index.html").as_uri()
+    index_text = (release / "report" / "index.html").read_text()
     dom = chromium("--dump-dom", "--virtual-time-budget=2000", index).stdout
     assert "<table class=\"paged\" id=\"summary\">" in dom
     n = len(json.loads((release / "library.json").read_text())["species"])
@@ -187,12 +195,18 @@ def test_report_renders_in_a_real_headless_browser(release, tmp_path):
     shot = tmp_path / "index.png"           # kept out of the repository
     chromium("--window-size=1200,1400", f"--screenshot={shot}", index)
     assert shot.is_file() and shot.stat().st_size > 20000
-    page = (release / "report" / "species" / f"{N2}.html").as_uri()
-    dom = chromium("--dump-dom", page).stdout
-    assert dom.count("<svg ") == 2 and "aria-label=\"H and S deviation of N2(g)\"" in dom
-    shot = tmp_path / "species.png"
-    chromium("--window-size=1200,1800", f"--screenshot={shot}", page)
-    assert shot.is_file() and shot.stat().st_size > 50000
+    link = re.search(rf"<a href=\"(species/[^\"#]+)#{N2}\">", index_text).group(1)
+    page = (release / "report" / link).as_uri()
+    dom = chromium("--dump-dom", f"{page}#{N2}").stdout
+    assert f"<section class=\"sp\" id=\"{N2}\">" in dom and \
+        "aria-label=\"H and S deviation of N2(g)\"" in dom
+    shots = {}
+    for name, address in (("list", page), ("N2", f"{page}#{N2}")):
+        shots[name] = tmp_path / f"species-{name}.png"
+        chromium("--window-size=1200,1800", f"--screenshot={shots[name]}", address)
+    # the page file alone shows the list of its species; with N2's id in the address, N2's
+    # page with its plots (a far larger picture)
+    assert shots["N2"].stat().st_size > 50000 > shots["list"].stat().st_size
 
 
 def test_progress_bar_on_a_terminal_shows_stage_and_eta():
@@ -264,7 +278,7 @@ def test_plots_are_plain_svg_with_the_data_drawn(release):
         assert root.tag == "{http://www.w3.org/2000/svg}svg"
     lib = json.loads((release / "library.json").read_text())
     n2 = next(s for s in lib["species"] if s["id"] == "N2(g)")
-    page = (release / "report" / "species" / f"{N2}.html").read_text()
+    page = species_page(release, "N2(g)")
     figures = re.findall(r"<svg .*?</svg>", page)
     for figure in figures:                            # each a well-formed svg element
         assert ET.fromstring(figure).tag == "svg"
@@ -317,8 +331,9 @@ def test_a_report_drawn_by_worker_processes_is_the_one_drawn_in_one(monkeypatch)
     how many (the demo's species four times over, under other ids, to pass the size at
     which workers are used)."""
     import copy
+    from collections import Counter
 
-    from thermoledger.release import report
+    from thermoledger.release import pages, report
 
     from .conftest import PROJECT
 
@@ -331,9 +346,11 @@ def test_a_report_drawn_by_worker_processes_is_the_one_drawn_in_one(monkeypatch)
     monkeypatch.setattr(report, "give_back_memory", lambda: trims.append(1))
     monkeypatch.setattr(report, "TRIM_EVERY", 20)
     assert report.report_files(doc, {}, 0.01, workers=2) == one
-    assert sum(p.startswith("report/species/") for p in one) == len(doc["species"])
+    files = pages.page_files(len(doc["species"]))
+    held = Counter(pages.page_of(sp["id"], files)[0] for sp in doc["species"])
+    assert sorted(p for p in one if p.startswith("report/species/")) == sorted(held)
     # the build's own process gives its freed heap back before the workers fork and after
-    # every TRIM_EVERY species drawn (each chunk of CHUNK species counted when it returns)
-    ends = list(range(report.CHUNK, len(doc["species"]), report.CHUNK)) + [len(doc["species"])]
+    # every TRIM_EVERY species drawn (each page file's species counted when it returns)
+    ends = list(np.cumsum([held[name] for name in sorted(held)]))
     crossed = [end // 20 > start // 20 for start, end in zip([0] + ends, ends)]
     assert len(trims) == 1 + sum(crossed) and sum(crossed) >= 2

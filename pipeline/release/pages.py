@@ -1,19 +1,24 @@
 """Report pages taken from the release a build replaces instead of drawn again.
 
-The page of one species (its HTML page, which holds its Cp plot and its H and S deviation
-plot) is made from what ``report._species_files`` is given for it alone — its library entry,
-its plot points, its formation rows — and from what is the same for every species: the
-acceptance threshold, the library's transitions and the code. A build that draws a report
-keeps, beside its partitions, per species the sha256 of those inputs and the path, sha256
-and size of each of its pages: one JSON line per species, in the report's order (by species id), in
+The species pages of a report are held in page files of about GROUP species each
+(``page_of``: the file of a species is chosen by a hash of its id; each species is a
+section of its file, shown alone when the address names it, ``file.html#<its stem>``):
+creating a file cost 0.1-0.9 ms of system time on the benchmark machine, more than drawing
+a species, and a report of 100 000 species in 100 000 files is unwieldy to copy or serve.
+A page file is made from what ``report._species_files`` is given for its species alone —
+their library entries, plot points and formation rows — and from what is the same for
+every file: the acceptance threshold, the library's transitions and the code. A build that
+draws a report keeps, beside its partitions, per page file the sha256 of those inputs and
+its path, sha256 and size: one JSON line per file, in the order of their paths, in
 ``pages-<release>.jsonl`` of the store, named for the release it published. The next build
 into the same release home, when that release is still the current one, hard-links (no
-copy: releases are never changed in place) the pages of every species whose inputs have the
-same sha256 from it, and draws the others: after one table of 10 000 is edited, a handful of
-species are drawn instead of 10 000. A linked page is read once to check its sha256 against
-the one kept (a page changed since is drawn again), and the staged release is checked
-against its manifest as always, so the release is the one a fresh build makes. Both lists
-are read and written a line at a time, in the same order: nothing is held per species.
+copy: releases are never changed in place) every page file whose inputs have the same
+sha256 from it, and draws the others: after one table of 10 000 is edited, one file of
+some GROUP species is drawn instead of all. A linked file is read once to check its sha256
+against the one kept (a file changed since is drawn again), and the staged release is
+checked against its manifest as always, so the release is the one a fresh build makes.
+Both lists are read and written a line at a time, in the same order: nothing is held per
+file.
 """
 
 import hashlib
@@ -31,18 +36,31 @@ KEPT = "pages-{}.jsonl"
 _KEPT = re.compile(r"^pages-[0-9a-f]{16}\.jsonl$")
 _PENDING = re.compile(r"^\.pending-\d+-pages\.jsonl$")
 
+#: species pages in one page file, at most on average: a report of n species has the
+#: smallest power of two of files that is at least n / GROUP
+GROUP = 16
 
-def page_paths(species_id: str) -> tuple:
-    """The paths of the report files of a species: its page, which holds its plots (one
-    file to create instead of three: creating a file cost 0.2-0.9 ms of system time on the
-    benchmark machine, more than drawing the species)."""
-    return (f"report/species/{file_stem(species_id)}.html",)
+
+def page_files(species: int) -> int:
+    """How many page files hold the pages of a report of ``species`` species."""
+    files = 1
+    while files * GROUP < species:
+        files *= 2
+    return files
+
+
+def page_of(species_id: str, files: int) -> tuple:
+    """(path of the page file of ``species_id`` among ``files`` page files, the id of its
+    section there): the file chosen by a hash of the id, the same on every machine and in
+    every report of as many files."""
+    k = int.from_bytes(hashlib.sha256(species_id.encode("utf-8")).digest()[:8], "big") % files
+    return f"report/species/{files}-{k:0{len(str(files - 1))}d}.html", file_stem(species_id)
 
 
 class Drawn:
-    """The report pages of the last release of ``home`` that a build may link (``take``),
-    and those of the build (``wait`` as sent to be drawn, ``drew`` when drawn), kept for the
-    next one in the order the species came when its release is published (``save``;
+    """The page files of the last release of ``home`` that a build may link (``take``), and
+    those of the build (``wait`` as sent to be drawn, ``drew`` when drawn), kept for the
+    next one in the order of their paths when its release is published (``save``;
     ``discard`` when it is not). ``shared`` is what all pages depend on besides
     their own inputs (the code's digest); with ``use`` False (--fresh) nothing is taken."""
 
@@ -74,15 +92,16 @@ class Drawn:
         h.update(pickle.dumps((accept, transitions), protocol=5))
         return h
 
-    def key(self, base, sp, points, formed) -> str:
-        """The sha256 of the inputs of the pages of entry ``sp``."""
+    def key(self, base, species, points, formed) -> str:
+        """The sha256 of the inputs of a page file: its ``species`` (library entries), their
+        plot ``points`` and formation rows ``formed``."""
         h = base.copy()
-        h.update(pickle.dumps((sp, points, formed), protocol=5))
+        h.update(pickle.dumps((species, points, formed), protocol=5))
         return h.hexdigest()
 
-    def _kept(self, species_id: str):
-        """The kept line of ``species_id`` (species id, key, [[path, sha256, size]...]), or
-        None: the kept lines are read forward, in the order the species come."""
+    def _kept(self, name: str):
+        """The kept line of page file ``name`` (its path, key, [[path, sha256, size]]), or
+        None: the kept lines are read forward, in the order of the paths."""
         import orjson
 
         while self._lines is not None:
@@ -97,44 +116,43 @@ class Drawn:
                     self._lines.close()
                     self._lines = self._ahead = None
                     return None
-            if self._ahead[0] > species_id:
+            if self._ahead[0] > name:
                 return None
             ahead, self._ahead = self._ahead, None
-            if ahead[0] == species_id:
+            if ahead[0] == name:
                 return ahead
         return None
 
-    def take(self, species_id: str, key: str) -> bool:
-        """Link the pages of ``species_id`` from the last release into the release (``into``)
-        when they were drawn from inputs of sha256 ``key`` and are as they were; False
-        otherwise (a page linked before one found changed is written over when drawn)."""
-        kept = self._kept(species_id)
+    def take(self, name: str, key: str, species: int) -> bool:
+        """Link page file ``name`` (of ``species`` species) from the last release into the
+        release (``into``) when it was drawn from inputs of sha256 ``key`` and is as it was;
+        False otherwise."""
+        kept = self._kept(name)
         if kept is None or kept[1] != key:
             return False
         try:
             files = [(str(rel), str(sha), int(size)) for rel, sha, size in kept[2]]
-            if not files or any(rel not in page_paths(species_id) for rel, _, _ in files):
+            if [rel for rel, _, _ in files] != [name]:
                 return False
             for rel, sha, size in files:
                 if not self.release.link(rel, self.folder / rel, sha, size):
                     return False
         except (TypeError, ValueError):
             return False
-        self._queue.append([species_id, key, files])
+        self._queue.append([name, key, files])
         self._flush()
-        self.linked += 1
+        self.linked += species
         return True
 
-    def wait(self, species_id: str, key: str) -> None:
-        """``species_id``, whose pages are not taken, is being drawn from inputs of sha256
-        ``key`` (its line is kept in its place, after those before it)."""
-        self._waiting[species_id] = [species_id, key, None]
-        self._queue.append(self._waiting[species_id])
+    def wait(self, name: str, key: str) -> None:
+        """Page file ``name``, not taken, is being drawn from inputs of sha256 ``key`` (its
+        line is kept in its place, after those before it)."""
+        self._waiting[name] = [name, key, None]
+        self._queue.append(self._waiting[name])
 
-    def drew(self, species_id: str) -> None:
-        """Remember the pages of ``species_id`` (``wait``) just drawn into the release."""
-        self._waiting.pop(species_id)[2] = [(rel, *self.release.summary(rel)) for rel in
-                                            page_paths(species_id) if rel in self.release]
+    def drew(self, name: str) -> None:
+        """Remember page file ``name`` (``wait``) just drawn into the release."""
+        self._waiting.pop(name)[2] = [(name, *self.release.summary(name))]
         self._flush()
 
     def _flush(self) -> None:

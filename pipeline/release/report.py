@@ -19,7 +19,7 @@ from ..core.records import PublishedSet
 from ..physics import forms
 from . import plots
 from .document import NOTICE
-from .pages import page_paths
+from .pages import page_files, page_of
 
 CSS = """
 body{font-family:system-ui,sans-serif;margin:0;color:#22313f;background:#f7f5f0}
@@ -37,6 +37,8 @@ figure{margin:8px 0}img,figure svg{max-width:100%;height:auto;background:#fff}
 code{font-size:12px;word-break:break-all}
 .overview{display:flex;flex-wrap:wrap;gap:12px}
 .pager{margin:8px 0}.pager input{padding:3px 6px;min-width:16em}.pager .info{font-size:13px}
+.sp{display:none;scroll-margin-top:100vh}.sp:target{display:block}nav.sp-list{font-size:14px}
+main:has(.sp:target)>nav.sp-list{display:none}
 """
 
 PAGE_ROWS = 100   # rows of a long index table shown at once
@@ -113,14 +115,17 @@ def e(text) -> str:
     return html.escape(str(text), quote=True)
 
 
-def page(title, body, depth=0, script="") -> bytes:
-    """A complete HTML page with the report's style, header and caution, as UTF-8 bytes."""
+def page(title, body, depth=0, script="", heading=True) -> bytes:
+    """A complete HTML page with the report's style, header and caution, as UTF-8 bytes;
+    ``title`` its heading too unless not ``heading`` (a page file of species sections, each
+    with its own)."""
     up = "../" * depth
     js = f"<script>{script}</script>" if script else ""
+    h1 = f"<h1>{e(title)}</h1>" if heading else ""
     return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"/>"
             f"<title>{e(title)}</title><style>{CSS}</style></head><body>"
             f"<header><strong>thermoledger build report</strong> · <a href=\"{up}index.html\">"
-            f"all species</a></header><main><h1>{e(title)}</h1>"
+            f"all species</a></header><main>{h1}"
             f"<p class=\"caution\"><strong>Caution.</strong> {e(NOTICE)}</p>{body}</main>"
             f"{js}</body></html>\n").encode("utf-8")
 
@@ -275,10 +280,12 @@ def _origin_section(sp) -> list:
     return out
 
 
-def species_page(sp, figures, transitions=None, formation=None) -> bytes:
-    """The HTML page of one library species entry with its ``figures`` (the ``svg`` elements
-    of plots.species_figure and, or None, plots.deviation_figure); ``transitions`` those of
-    the library, ``formation`` its entry of ``formation_rows``."""
+def species_page(sp, figures, transitions=None, formation=None) -> str:
+    """The page of one library species entry with its ``figures`` (the ``svg`` elements of
+    plots.species_figure and, or None, plots.deviation_figure): a section of its page file
+    (``page_file``) whose id is the species' file stem, shown alone when the address names
+    it; ``transitions`` those of the library, ``formation`` its entry of
+    ``formation_rows``."""
     q = sp["quality"]
     rows = [("form", sp["form"]), ("range of use", f"{sp['ranges'][0]['t_min']:g}-"
                                                    f"{sp['ranges'][-1]['t_max']:g} K"),
@@ -338,19 +345,35 @@ def species_page(sp, figures, transitions=None, formation=None) -> bytes:
         body.append(f"<tr><td>{r['t_min']:g}-{r['t_max']:g}</td><td><code>"
                     + e(", ".join(repr(c) for c in r["coefficients"])) + "</code></td></tr>")
     body.append("</table>")
-    return page(sp["id"], "".join(body), depth=1)
+    return (f"<section class=\"sp\" id=\"{e(file_stem(sp['id']))}\"><h1>{e(sp['id'])}</h1>"
+            + "".join(body) + "</section>")
+
+
+def page_file(name, species, sections) -> bytes:
+    """Page file ``name`` (pages.page_of) of the library entries ``species`` with their
+    ``sections`` (``species_page``): the list of its species, each a link that shows its
+    page alone."""
+    links = ", ".join(f"<a href=\"#{e(file_stem(sp['id']))}\">{e(sp['id'])}</a>"
+                      for sp in species)
+    nav = (f"<nav class=\"sp-list\"><p>Species on this page (each link shows its page): "
+           f"{links}</p></nav>")
+    title = "Species pages " + name.rsplit("/", 1)[-1].removesuffix(".html")
+    return page(title, nav + "".join(sections), depth=1, heading=False)
 
 
 def index_page(doc) -> bytes:
     """The report's index: overview plots, then every species and every table held back in
     paged tables that filter and sort (PAGE_ROWS rows at a time)."""
     rows = []
+    files = page_files(len(doc["species"]))
     for sp in doc["species"]:
         cls, label = status(sp)
+        path, section = page_of(sp["id"], files)
         worst = 100 * sp["quality"]["cp_max_rel_dev"]
         lo, hi = sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"]
         n = len(sp["findings"])
-        html_row = (f"<tr><td><a href=\"species/{e(file_stem(sp['id']))}.html\">{e(sp['id'])}"
+        html_row = (f"<tr><td><a href=\"{e(path.removeprefix('report/'))}#{e(section)}\">"
+                    f"{e(sp['id'])}"
                     f"</a></td><td>{e(sp['form'])}</td><td>{lo:g}-{hi:g}</td><td class=\"num\">"
                     f"{worst:.4f}</td><td class=\"num\">{n}</td><td><span class=\"tag {cls}\">"
                     f"{e(label)}</span></td></tr>")
@@ -390,8 +413,9 @@ def report_files(doc, points, accept, workers=None, say=None, pages=None,
     out), and optional (t, deviation) pairs 'dh' and 's' against the table's columns.
     Large reports are drawn by up to ``workers`` processes (default: the cores of the
     machine); the files do not depend on how many.
-    The species are read CHUNK at a time, and at most twice as many chunks as workers are
-    out at once. ``say(stage, i, n, label)`` hears of every species drawn."""
+    The species are read a page file (pages.page_of: some pages.GROUP species) at a time,
+    and at most twice as many files as workers are out at once. ``say(stage, i, n,
+    label)`` hears of every species drawn."""
     from collections import deque
 
     from ..library.entries import by_id as entries_by_id
@@ -405,31 +429,28 @@ def report_files(doc, points, accept, workers=None, say=None, pages=None,
     files = {}
     add = release.add if release is not None else files.__setitem__
     done, worst, per_source = 0, [], Counter()
+    ids = species.ids() if hasattr(species, "ids") else [sp["id"] for sp in species]
+    held_in = page_files(len(ids))
+    groups = {}
+    for i, sid in enumerate(ids):
+        groups.setdefault(page_of(sid, held_in)[0], []).append(i)
 
     base = pages.base(accept, transitions) if pages else None
 
     def chunks():
-        for i in range(0, len(species), CHUNK):
-            chunk = species[i:i + CHUNK]
+        for name in sorted(groups):
+            chunk = [species[i] for i in groups[name]]
             worst.extend(100 * s["quality"]["cp_max_rel_dev"] for s in chunk)
             per_source.update(s["sources"][0]["source"] for s in chunk)
             own = {s["id"]: points.get(s["id"], {}) for s in chunk}
             formed = formation_rows(made, chunk)
-            if pages:                      # pages drawn from the same inputs are linked
-                taken = set()
-                for s in chunk:
-                    key = pages.key(base, s, own[s["id"]], formed.get(s["id"]))
-                    if pages.take(s["id"], key):
-                        taken.add(s["id"])
-                    else:
-                        pages.wait(s["id"], key)
-                counted([s for s in chunk if s["id"] in taken])
-                chunk = [s for s in chunk if s["id"] not in taken]
-                if not chunk:
+            if pages:                      # a file drawn from the same inputs is linked
+                key = pages.key(base, chunk, own, formed)
+                if pages.take(name, key, len(chunk)):
+                    counted(chunk)
                     continue
-                own = {s["id"]: own[s["id"]] for s in chunk}
-                formed = {s["id"]: formed[s["id"]] for s in chunk if s["id"] in formed}
-            yield chunk, own, accept, transitions, formed
+                pages.wait(name, key)
+            yield chunk, own, accept, transitions, formed, name
 
     def counted(chunk):
         nonlocal done
@@ -437,13 +458,12 @@ def report_files(doc, points, accept, workers=None, say=None, pages=None,
             done += 1
             say("write report", done, len(species), sp["id"])
 
-    def added(chunk, part, adopt=False):
+    def added(chunk, name, part, adopt=False):
         for path, data in part.items():     # with ``adopt``, written: their sha256 and size
             (release.adopt if adopt else add)(path, data)
         del part
-        for sp in chunk:
-            if pages:
-                pages.drew(sp["id"])
+        if pages:
+            pages.drew(name)
         counted(chunk)
         if done % TRIM_EVERY < len(chunk):
             give_back_memory()
@@ -456,16 +476,16 @@ def report_files(doc, points, accept, workers=None, say=None, pages=None,
         with worker_pool(workers, fresh=DRAWING) as pool:
             out = deque()
             for args in chunks():
-                out.append((args[0], pool.submit(_species_files, *args, staging)))
+                out.append((args[0], args[-1], pool.submit(_species_files, *args, staging)))
                 if len(out) >= 2 * workers:
-                    chunk, future = out.popleft()
-                    added(chunk, future.result(), staging is not None)
+                    chunk, name, future = out.popleft()
+                    added(chunk, name, future.result(), staging is not None)
             while out:
-                chunk, future = out.popleft()
-                added(chunk, future.result(), staging is not None)
+                chunk, name, future = out.popleft()
+                added(chunk, name, future.result(), staging is not None)
     else:
         for args in chunks():
-            added(args[0], _species_files(*args))
+            added(args[0], args[-1], _species_files(*args))
     by_id = entries_by_id(doc)
     for name in sorted({x["species"] for x in transitions}):
         add(f"report/img/{file_stem(name)}-phases.svg", plots.phase_figure(
@@ -477,8 +497,6 @@ def report_files(doc, points, accept, workers=None, say=None, pages=None,
     return dict(sorted(files.items()))
 
 
-#: species drawn by one task of the report
-CHUNK = 25
 #: what the report's workers import before they start, and from how many species a report
 #: is drawn by workers
 DRAWING, POOL_FROM = (__name__,), 61
@@ -511,19 +529,20 @@ def start_drawing(species: int) -> None:
         fresh.server(DRAWING)
 
 
-def _species_files(species, points, accept, transitions=(), formed=None, staging=None) -> dict:
-    """{relative path: bytes} of the report pages of ``species``; with ``staging``
-    (publish.Staging), each written into it and given as its sha256 and size instead."""
-    files = _drawn(species, points, accept, transitions, formed)
+def _species_files(species, points, accept, transitions=(), formed=None, name=None,
+                   staging=None) -> dict:
+    """{``name``: bytes} of the page file ``name`` holding the pages of ``species``; with
+    ``staging`` (publish.Staging), written into it and given as its sha256 and size
+    instead."""
+    files = _drawn(species, points, accept, transitions, formed, name)
     if staging is None:
         return files
     return {rel: staging.write(rel, data) for rel, data in files.items()}
 
 
-def _drawn(species, points, accept, transitions=(), formed=None) -> dict:
-    files = {}
+def _drawn(species, points, accept, transitions=(), formed=None, name=None) -> dict:
+    sections = []
     for sp in species:
-        (html_page,) = page_paths(sp["id"])
         p = points.get(sp["id"], {})
         cp_figure = plots.species_figure(
             sp, p.get("t", np.zeros(0)), p.get("cp", np.zeros(0)), p.get("t_out", np.zeros(0)),
@@ -533,6 +552,6 @@ def _drawn(species, points, accept, transitions=(), formed=None) -> dict:
             th, dh = p.get("dh", (np.zeros(0), np.zeros(0)))
             ts, ds = p.get("s", (np.zeros(0), np.zeros(0)))
             hs_figure = plots.deviation_figure(th, dh, ts, ds, sp["id"])
-        files[html_page] = species_page(sp, (cp_figure, hs_figure), transitions,
-                                        (formed or {}).get(sp["id"]))
-    return files
+        sections.append(species_page(sp, (cp_figure, hs_figure), transitions,
+                                     (formed or {}).get(sp["id"])))
+    return {name: page_file(name, species, sections)}

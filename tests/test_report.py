@@ -200,6 +200,7 @@ def test_report_renders_in_a_real_headless_browser(release, tmp_path):
     dom = chromium("--dump-dom", f"{page}#{N2}").stdout
     assert f"<section class=\"sp\" id=\"{N2}\">" in dom and \
         "aria-label=\"H and S deviation of N2(g)\"" in dom
+    assert "<title>N2(g)</title>" in dom            # the tab is named for the species shown
     shots = {}
     for name, address in (("list", page), ("N2", f"{page}#{N2}")):
         shots[name] = tmp_path / f"species-{name}.png"

@@ -358,7 +358,18 @@ def page_file(name, species, sections) -> bytes:
     nav = (f"<nav class=\"sp-list\"><p>Species on this page (each link shows its page): "
            f"{links}</p></nav>")
     title = "Species pages " + name.rsplit("/", 1)[-1].removesuffix(".html")
-    return page(title, nav + "".join(sections), depth=1, heading=False)
+    return page(title, nav + "".join(sections), depth=1, heading=False, script=TITLE_JS)
+
+
+#: a page file's title becomes that of the species its address names (tabs, bookmarks)
+TITLE_JS = """
+var first = document.title;
+function named(){
+  var s = document.getElementById(decodeURIComponent(location.hash.slice(1)));
+  document.title = s && s.tagName === 'SECTION' ? s.querySelector('h1').textContent : first;
+}
+named(); window.addEventListener('hashchange', named);
+"""
 
 
 def index_page(doc) -> bytes:

@@ -540,8 +540,7 @@ def start_drawing(species: int) -> None:
         fresh.server(DRAWING)
 
 
-def _species_files(species, points, accept, transitions=(), formed=None, name=None,
-                   staging=None) -> dict:
+def _species_files(species, points, accept, transitions, formed, name, staging=None) -> dict:
     """{``name``: bytes} of the page file ``name`` holding the pages of ``species``; with
     ``staging`` (publish.Staging), written into it and given as its sha256 and size
     instead."""
@@ -551,7 +550,7 @@ def _species_files(species, points, accept, transitions=(), formed=None, name=No
     return {rel: staging.write(rel, data) for rel, data in files.items()}
 
 
-def _drawn(species, points, accept, transitions=(), formed=None, name=None) -> dict:
+def _drawn(species, points, accept, transitions, formed, name) -> dict:
     sections = []
     for sp in species:
         p = points.get(sp["id"], {})

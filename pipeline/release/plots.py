@@ -6,6 +6,7 @@ of an SVG file; the same inputs give the same text."""
 
 import numpy as np
 
+from ..core import gridcache
 from ..library import document as library
 from ..physics import forms
 from .svgchart import Chart, span_of
@@ -21,7 +22,7 @@ def species_figure(sp, t, cp, t_out, cp_out, accept) -> str:
     the acceptance threshold ``accept`` (a fraction): the ``svg`` element of its page."""
     lo, hi = sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"]
     ranges = library.ranges_of(sp)
-    tf = np.geomspace(lo, hi, 300)
+    tf = gridcache.geomspace(lo, hi, 300)    # (read-only: made once for each range of use)
     cp_fit = forms.cp_of_ranges(ranges, tf, sp["form"])
     dev = EMPTY
     if len(t):

@@ -72,3 +72,16 @@ def test_points_are_written_as_an_f_string_would(points):
 
     a, b = (np.array(v) for v in zip(*points))
     assert _repeat("%.2f,%.2f", " ", a, b) == " ".join(f"{x:.2f},{y:.2f}" for x, y in points)
+
+
+@given(st.tuples(st.floats(-1e6, 1e6), st.floats(-1e6, 1e6)),
+       st.tuples(st.floats(-1e6, 1e6), st.floats(-1e6, 1e6)),
+       st.lists(st.floats(-1e7, 1e7), min_size=1, max_size=20))
+def test_one_value_is_placed_as_numpy_places_it(xlim, ylim, values):
+    """``Panel.x`` and ``Panel.y`` (Python floats, for the ticks and lines of a frame) give
+    the very numbers ``px`` and ``py`` give (numpy), to the last bit."""
+    from thermoledger.release.svgchart import Panel
+
+    p = Panel((72, 34, 626, 266), xlim, ylim)
+    assert [p.x(v).hex() for v in values] == [float(a).hex() for a in p.px(values)]
+    assert [p.y(v).hex() for v in values] == [float(b).hex() for b in p.py(values)]

@@ -130,5 +130,5 @@ def overview_figures(worst_percent, per_source) -> tuple:
     for k, n in enumerate(names):
         y = rows - k - 0.5
         panel.hbar(y, per_source[n], 0.7, SHADE)
-        chart.text(panel.left - 6, float(panel.py(y)) + 3, n, anchor="end")
+        chart.text(panel.left - 6, panel.y(y) + 3, n, anchor="end")
     return hist, chart.to_bytes()

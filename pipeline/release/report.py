@@ -430,6 +430,7 @@ def report_files(doc, points, accept, workers=None, say=None, pages=None,
     from collections import deque
 
     from ..library.entries import by_id as entries_by_id
+    from ..library.entries import ids_of
     from ..library.formation import Formation
 
     species = doc["species"]
@@ -440,7 +441,7 @@ def report_files(doc, points, accept, workers=None, say=None, pages=None,
     files = {}
     add = release.add if release is not None else files.__setitem__
     done, worst, per_source = 0, [], Counter()
-    ids = species.ids() if hasattr(species, "ids") else [sp["id"] for sp in species]
+    ids = ids_of(species)
     held_in = page_files(len(ids))
     groups = {}
     for i, sid in enumerate(ids):

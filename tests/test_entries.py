@@ -341,6 +341,16 @@ FINDINGS = st.lists(st.builds(
     max_size=5)
 
 
+def _held_entries(plain: list, folder=None) -> Entries:
+    """Entries of the dicts ``plain``: held in a spill in ``folder``, or in memory."""
+    from thermoledger.core.spill import Spill
+
+    if folder is None:
+        return Entries.of(plain)
+    spill = Spill(folder)
+    return Entries(((e["id"], spill.put(held.compact(e))) for e in plain), spill)
+
+
 @settings(max_examples=200, deadline=None)
 @given(FINDINGS, FINDINGS, FINDINGS, st.booleans())
 def test_findings_added_to_an_entry_read_as_the_entry_put_back_with_them(tmp_path_factory, own,
@@ -349,18 +359,13 @@ def test_findings_added_to_an_entry_read_as_the_entry_put_back_with_them(tmp_pat
     decoding the entry) reads as the entry put back with the Finding objects merged and
     sorted, as the build did before; dict_sort_key is Finding.sort_key."""
     from thermoledger.core.findings import Finding, dict_sort_key
-    from thermoledger.core.spill import Spill
 
     own = sorted(own, key=dict_sort_key)
     for d in own + new + more:
         assert dict_sort_key(d) == Finding.from_dict(d).sort_key()
     entry = {"id": "A(g)", "findings": own}
     plain = [{"id": "Z(g)", "findings": []}, entry]
-    if spilled:
-        spill = Spill(tmp_path_factory.mktemp("spill"))
-        kept = Entries(((e["id"], spill.put(held.compact(e))) for e in plain), spill)
-    else:
-        kept = Entries.of(plain)
+    kept = _held_entries(plain, tmp_path_factory.mktemp("spill") if spilled else None)
     kept.add_findings(1, new)
     kept.add_findings(-1, more)
     merged = [Finding.from_dict(d) for d in own + new + more]
@@ -390,3 +395,26 @@ def test_species_checked_as_library_parquet_reads_them_fail_as_the_whole_check_d
         b"".join(document.library_parquet_chunks(bad, check=True))
     assert str(read.value) == str(whole.value)
     assert "at species/5/ranges/0/t_min: 'hot' is not of type 'number'" in str(read.value)
+
+
+@settings(max_examples=100, deadline=None)
+@given(FINDINGS, FINDINGS, st.booleans())
+def test_an_entry_as_held_reads_as_the_entry_and_keys_as_it(tmp_path_factory, own, new,
+                                                            spilled):
+    """What the report's workers are sent of an entry (held_of: its compact JSON and the
+    findings added to it, nothing decoded) reads as the entry (of_held), and key_of is its
+    key, for Entries in a spill or in memory and for a plain list."""
+    import hashlib
+
+    from thermoledger.core.findings import dict_sort_key
+
+    plain = [{"id": "Z(g)", "findings": []},
+             {"id": "A(g)", "findings": sorted(own, key=dict_sort_key)}]
+    kept = _held_entries(plain, tmp_path_factory.mktemp("spill") if spilled else None)
+    kept.add_findings(1, new)
+    for i in range(2):
+        assert held.of_held(held.held_of(kept, i)) == kept[i]
+        assert held.key_of(kept, i) == kept.key(i)
+        assert held.of_held(held.held_of(plain, i)) == plain[i]
+        assert held.key_of(plain, i) == hashlib.sha256(orjson.dumps(plain[i])).hexdigest()
+    assert (held.held_of(kept, 1)[1] is not None) == (spilled and bool(new))

@@ -355,3 +355,36 @@ def test_a_report_drawn_by_worker_processes_is_the_one_drawn_in_one(monkeypatch)
     ends = list(np.cumsum([held[name] for name in sorted(held)]))
     crossed = [end // 20 > start // 20 for start, end in zip([0] + ends, ends)]
     assert len(trims) == 1 + sum(crossed) and sum(crossed) >= 2
+
+
+def test_a_report_drawn_from_spilled_points_by_workers_is_the_one_drawn_here(tmp_path):
+    """The report's workers are sent each page file's entries as held and its plot points
+    as pickled in the build's scratch file, and decode them there: the demo's species four
+    times over (under other ids, to pass the size at which workers are used), with their
+    real plot points, give the same files as drawn in this process from the points
+    themselves."""
+    import copy
+
+    from thermoledger import build
+    from thermoledger.core.settings import Settings
+    from thermoledger.core.spill import Spill, SpilledObjects
+    from thermoledger.library.entries import Entries
+    from thermoledger.release import report
+    from thermoledger.release.assemble import plot_points
+
+    from .conftest import PROJECT
+
+    raw = PROJECT / "raw"
+    doc = build.build(raw, None, write=False).document
+    drawn = plot_points(doc["species"], build.examine(raw, Settings()))
+    species, points = [], {}
+    for k in range(4):
+        for s in doc["species"]:
+            species.append(dict(copy.deepcopy(s), id=f"{s['id']}#{k}"))
+            points[species[-1]["id"]] = drawn[s["id"]]
+    here = report.report_files({**doc, "species": species}, points, 0.01, workers=1)
+    spill = Spill(tmp_path)
+    spilled = SpilledObjects(spill, dict(zip(points, spill.put_objects(points.values()))))
+    assert report.report_files({**doc, "species": Entries.of(species)}, spilled, 0.01,
+                               workers=2) == here
+    assert any(b"<path" in data for rel, data in here.items() if rel.startswith("report/species"))

@@ -79,7 +79,11 @@ class SpilledObjects(Mapping):
         self._spill, self._where = spill, where
 
     def __getitem__(self, key):
-        return pickle.loads(self._spill.get(*self._where[key]))
+        return pickle.loads(self.pickled(key))
+
+    def pickled(self, key) -> bytes:
+        """The pickle of the object of ``key``, as written (KeyError when there is none)."""
+        return self._spill.get(*self._where[key])
 
     def __iter__(self):
         return iter(self._where)

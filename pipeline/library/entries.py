@@ -112,11 +112,7 @@ class Entries(LazyList):
         return len(self._blobs)
 
     def _entry(self, i: int) -> dict:
-        entry = _loads(self._json(i))
-        more = self._added(i)
-        if more:
-            entry["findings"] = merged_findings(entry["findings"], more)
-        return entry
+        return of_held(self.held(i))
 
     def _added(self, i: int) -> list:
         """The findings added to entry ``i`` (``add_findings``) and not yet in it."""
@@ -194,6 +190,13 @@ class Entries(LazyList):
         added = self._spill.get(self._more[2 * i], self._more[2 * i + 1])
         return hashlib.sha256(own.encode() + b"\0" + added).hexdigest()
 
+    def held(self, i: int) -> tuple:
+        """(compact JSON of entry ``i`` as held, compact JSON of the findings added to it or
+        None): what ``of_held`` reads as entry ``i``, nothing decoded."""
+        added = None if self._more is None or self._more[2 * i] < 0 else \
+            self._spill.get(self._more[2 * i], self._more[2 * i + 1])
+        return self._json(i), added
+
     def ids(self) -> list:
         """The species ids, in order (nothing decoded)."""
         return list(self._ids)
@@ -263,6 +266,34 @@ def by_id(doc: dict) -> Mapping:
     if isinstance(species, Entries):
         return species.by_id()
     return {s["id"]: s for s in species}
+
+
+def held_of(species, i: int) -> tuple:
+    """``Entries.held(i)`` of ``species`` (a document's list of entries, or Entries): for a
+    list, the compact JSON of its entry and None."""
+    if isinstance(species, Entries):
+        return species.held(i)
+    return compact(species[i]), None
+
+
+def of_held(held: tuple) -> dict:
+    """The entry that ``held_of`` gave as held: its JSON decoded, with the findings added
+    to it merged in (``Entries.add_findings``)."""
+    blob, added = held
+    entry = _loads(blob)
+    if added is not None:
+        entry["findings"] = merged_findings(entry["findings"], _loads(added))
+    return entry
+
+
+def key_of(species, i: int) -> str:
+    """The key of entry ``i`` of ``species`` as it reads (sha256, hex): ``Entries.key``,
+    or that of a list's entry by its compact JSON."""
+    import hashlib
+
+    if isinstance(species, Entries):
+        return species.key(i)
+    return hashlib.sha256(compact(species[i])).hexdigest()
 
 
 def ids_of(species) -> list:

@@ -93,8 +93,9 @@ class Drawn:
         return h
 
     def key(self, base, species, points, formed) -> str:
-        """The sha256 of the inputs of a page file: its ``species`` (library entries), their
-        plot ``points`` and formation rows ``formed``."""
+        """The sha256 of the inputs of a page file: its ``species`` (the keys of their
+        library entries: library.entries.key_of), their plot ``points`` (pickled) and
+        formation rows ``formed``."""
         h = base.copy()
         h.update(pickle.dumps((species, points, formed), protocol=5))
         return h.hexdigest()

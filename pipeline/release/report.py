@@ -7,6 +7,7 @@ safety caution. Wording, sections and colours are our own.
 
 import html
 import json
+import pickle
 from collections import Counter
 
 import numpy as np
@@ -16,6 +17,7 @@ from ..core import fresh
 from ..core.names import file_stem
 from ..core.processes import give_back_memory, worker_pool
 from ..core.records import PublishedSet
+from ..core.spill import SpilledObjects
 from ..physics import forms
 from . import plots
 from .document import NOTICE
@@ -372,24 +374,35 @@ named(); window.addEventListener('hashchange', named);
 """
 
 
-def index_page(doc) -> bytes:
+def summary(sp) -> tuple:
+    """What the report's index shows of the library entry ``sp``: (id, form, first and last
+    temperature of its range of use [K], worst |dCp/Cp| [%], findings, status class and
+    label)."""
+    cls, label = status(sp)
+    return (sp["id"], sp["form"], sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"],
+            100 * sp["quality"]["cp_max_rel_dev"], len(sp["findings"]), cls, label)
+
+
+def index_page(doc, summaries=None) -> bytes:
     """The report's index: overview plots, then every species and every table held back in
-    paged tables that filter and sort (PAGE_ROWS rows at a time)."""
+    paged tables that filter and sort (PAGE_ROWS rows at a time). ``summaries`` ({species
+    id: ``summary``}, of every species) spares decoding the entries again."""
     rows = []
     files = page_files(len(doc["species"]))
-    for sp in doc["species"]:
-        cls, label = status(sp)
-        path, section = page_of(sp["id"], files)
-        worst = 100 * sp["quality"]["cp_max_rel_dev"]
-        lo, hi = sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"]
-        n = len(sp["findings"])
+    if summaries is None:
+        listed = map(summary, doc["species"])
+    else:
+        from ..library.entries import ids_of
+
+        listed = (summaries[sid] for sid in ids_of(doc["species"]))
+    for sid, form, lo, hi, worst, n, cls, label in listed:
+        path, section = page_of(sid, files)
         html_row = (f"<tr><td><a href=\"{e(path.removeprefix('report/'))}#{e(section)}\">"
-                    f"{e(sp['id'])}"
-                    f"</a></td><td>{e(sp['form'])}</td><td>{lo:g}-{hi:g}</td><td class=\"num\">"
+                    f"{e(sid)}"
+                    f"</a></td><td>{e(form)}</td><td>{lo:g}-{hi:g}</td><td class=\"num\">"
                     f"{worst:.4f}</td><td class=\"num\">{n}</td><td><span class=\"tag {cls}\">"
                     f"{e(label)}</span></td></tr>")
-        rows.append((html_row, (sp["id"], sp["form"], lo, worst, n, label),
-                     f"{sp['id']} {sp['form']} {label}"))
+        rows.append((html_row, (sid, form, lo, worst, n, label), f"{sid} {form} {label}"))
     body = [f"<p>{len(doc['species'])} species fitted, {len(doc['quarantined'])} table(s) held "
             "back. Type in a box to filter a table; click a column heading to sort.</p>",
             "<div class=\"overview\"><figure><img src=\"img/overview-deviation.svg\" alt=\""
@@ -425,12 +438,15 @@ def report_files(doc, points, accept, workers=None, say=None, pages=None,
     Large reports are drawn by up to ``workers`` processes (default: the cores of the
     machine); the files do not depend on how many.
     The species are read a page file (pages.page_of: some pages.GROUP species) at a time,
-    and at most twice as many files as workers are out at once. ``say(stage, i, n,
+    and at most twice as many files as workers are out at once; a file's entries go to its
+    drawing as held and its points as pickled (decoded there: here they would cost the
+    build's own process 1 s of CPU at 10 000 species), and the drawing gives back what the
+    overview and the index show of them (``summary``). ``say(stage, i, n,
     label)`` hears of every species drawn."""
     from collections import deque
 
     from ..library.entries import by_id as entries_by_id
-    from ..library.entries import ids_of
+    from ..library.entries import held_of, ids_of, key_of
     from ..library.formation import Formation
 
     species = doc["species"]
@@ -440,7 +456,7 @@ def report_files(doc, points, accept, workers=None, say=None, pages=None,
     workers = workers or default_workers()
     files = {}
     add = release.add if release is not None else files.__setitem__
-    done, worst, per_source = 0, [], Counter()
+    done, tallies = 0, {}
     ids = ids_of(species)
     held_in = page_files(len(ids))
     groups = {}
@@ -450,34 +466,38 @@ def report_files(doc, points, accept, workers=None, say=None, pages=None,
     base = pages.base(accept, transitions) if pages else None
 
     def chunks():
+        # each file's entries go to its drawing as held (compact JSON, nothing decoded
+        # here) and its plot points as pickled: the drawing decodes them
         for name in sorted(groups):
-            chunk = [species[i] for i in groups[name]]
-            worst.extend(100 * s["quality"]["cp_max_rel_dev"] for s in chunk)
-            per_source.update(s["sources"][0]["source"] for s in chunk)
-            own = {s["id"]: points.get(s["id"], {}) for s in chunk}
-            formed = formation_rows(made, chunk)
+            at = groups[name]
+            own = [_pickled_points(points, ids[i]) for i in at]
+            # only a species with formation properties is decoded for its rows here
+            formed = formation_rows(made, [{"id": ids[i]} if made.missing(ids[i])
+                                           else species[i] for i in at])
             if pages:                      # a file drawn from the same inputs is linked
-                key = pages.key(base, chunk, own, formed)
-                if pages.take(name, key, len(chunk)):
-                    counted(chunk)
+                key = pages.key(base, [key_of(species, i) for i in at], own, formed)
+                if pages.take(name, key, len(at)):
+                    tallies[name] = _tally([species[i] for i in at])
+                    counted(name)
                     continue
                 pages.wait(name, key)
-            yield chunk, own, accept, transitions, formed, name
+            yield [held_of(species, i) for i in at], own, accept, transitions, formed, name
 
-    def counted(chunk):
+    def counted(name):
         nonlocal done
-        for sp in chunk:
+        for i in groups[name]:
             done += 1
-            say("write report", done, len(species), sp["id"])
+            say("write report", done, len(species), ids[i])
 
-    def added(chunk, name, part, adopt=False):
-        for path, data in part.items():     # with ``adopt``, written: their sha256 and size
+    def added(name, part, adopt=False):
+        drawn, tallies[name] = part
+        for path, data in drawn.items():    # with ``adopt``, written: their sha256 and size
             (release.adopt if adopt else add)(path, data)
-        del part
+        del part, drawn
         if pages:
             pages.drew(name)
-        counted(chunk)
-        if done % TRIM_EVERY < len(chunk):
+        counted(name)
+        if done % TRIM_EVERY < len(groups[name]):
             give_back_memory()
 
     if drawn_by_workers(len(species), workers):
@@ -488,16 +508,23 @@ def report_files(doc, points, accept, workers=None, say=None, pages=None,
         with worker_pool(workers, fresh=DRAWING) as pool:
             out = deque()
             for args in chunks():
-                out.append((args[0], args[-1], pool.submit(_species_files, *args, staging)))
+                out.append((args[-1], pool.submit(_species_files, *args, staging)))
                 if len(out) >= 2 * workers:
-                    chunk, name, future = out.popleft()
-                    added(chunk, name, future.result(), staging is not None)
+                    name, future = out.popleft()
+                    added(name, future.result(), staging is not None)
             while out:
-                chunk, name, future = out.popleft()
-                added(chunk, name, future.result(), staging is not None)
+                name, future = out.popleft()
+                added(name, future.result(), staging is not None)
     else:
         for args in chunks():
-            added(args[0], args[-1], _species_files(*args))
+            added(args[-1], _species_files(*args))
+    # the overview counts every species in the order of the page files, however drawn
+    worst, per_source, summaries = [], Counter(), {}
+    for name in sorted(tallies):
+        sources, shown = tallies[name]
+        per_source.update(sources)
+        worst += [x[4] for x in shown]
+        summaries.update((x[0], x) for x in shown)
     by_id = entries_by_id(doc)
     for name in sorted({x["species"] for x in transitions}):
         add(f"report/img/{file_stem(name)}-phases.svg", plots.phase_figure(
@@ -505,7 +532,7 @@ def report_files(doc, points, accept, workers=None, say=None, pages=None,
     hist, bars = plots.overview_figures(worst, per_source)
     add("report/img/overview-deviation.svg", hist)
     add("report/img/overview-sources.svg", bars)
-    add("report/index.html", index_page(doc))
+    add("report/index.html", index_page(doc, summaries))
     return dict(sorted(files.items()))
 
 
@@ -541,14 +568,35 @@ def start_drawing(species: int) -> None:
         fresh.server(DRAWING)
 
 
-def _species_files(species, points, accept, transitions, formed, name, staging=None) -> dict:
-    """{``name``: bytes} of the page file ``name`` holding the pages of ``species``; with
-    ``staging`` (publish.Staging), written into it and given as its sha256 and size
-    instead."""
-    files = _drawn(species, points, accept, transitions, formed, name)
-    if staging is None:
-        return files
-    return {rel: staging.write(rel, data) for rel, data in files.items()}
+def _species_files(held, points, accept, transitions, formed, name, staging=None) -> tuple:
+    """({``name``: bytes} of the page file ``name`` holding the pages of the species held
+    as ``held`` (library.entries.held_of) with their ``points`` pickled (b"" for none);
+    with ``staging`` (publish.Staging), written into it and given as its sha256 and size
+    instead) and ``_tally`` of the species."""
+    from ..library.entries import of_held
+
+    species = [of_held(h) for h in held]
+    files = _drawn(species, {sp["id"]: pickle.loads(p) for sp, p in zip(species, points) if p},
+                   accept, transitions, formed, name)
+    if staging is not None:
+        files = {rel: staging.write(rel, data) for rel, data in files.items()}
+    return files, _tally(species)
+
+
+def _tally(species) -> tuple:
+    """(first source, ``summary``) of each of the entries ``species``: what the report's
+    overview counts and its index shows."""
+    return [s["sources"][0]["source"] for s in species], [summary(s) for s in species]
+
+
+def _pickled_points(points, sid: str) -> bytes:
+    """The plot points of ``sid`` in ``points`` pickled (as a build's scratch file holds
+    them: core.spill.SpilledObjects), or b"" when it has none."""
+    if sid not in points:
+        return b""
+    if isinstance(points, SpilledObjects):
+        return points.pickled(sid)
+    return pickle.dumps(points[sid], protocol=pickle.HIGHEST_PROTOCOL)
 
 
 def _drawn(species, points, accept, transitions, formed, name) -> dict:

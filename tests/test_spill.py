@@ -2,6 +2,7 @@
 written lies there, reads back as written, and leaves nothing behind."""
 
 import os
+import pickle
 
 import numpy as np
 import orjson
@@ -93,6 +94,18 @@ def test_objects_in_a_spill_are_unpickled_when_read(tmp_path):
     assert spill.put_many([]) == [] and spill.put_objects([]) == []
     assert held["b"] == {} and held["a"]["dh"][1].tolist() == [1.0, 1.0]
     assert held["a"] is not held["a"]                   # a fresh object at each read
+    assert held.pickled("a") == pickle.dumps(objs["a"], protocol=pickle.HIGHEST_PROTOCOL)
+
+
+def test_asking_whether_a_spill_holds_an_object_reads_nothing(tmp_path, monkeypatch):
+    """``key in`` SpilledObjects looks at the keys alone (the report asks it of every
+    species before it sends their points on as pickled)."""
+    from thermoledger.core import spill as spill_module
+
+    spill = Spill(tmp_path)
+    held = spill_module.SpilledObjects(spill, {"a": spill.put_object({"t": np.ones(2)})})
+    monkeypatch.setattr(spill, "get", lambda *a: pytest.fail("read"))
+    assert "a" in held and "b" not in held
 
 
 def test_a_spill_nobody_reads_any_more_is_closed_without_a_warning(tmp_path):

@@ -85,6 +85,9 @@ class SpilledObjects(Mapping):
         """The pickle of the object of ``key``, as written (KeyError when there is none)."""
         return self._spill.get(*self._where[key])
 
+    def __contains__(self, key) -> bool:
+        return key in self._where          # (Mapping's own would unpickle the object)
+
     def __iter__(self):
         return iter(self._where)
 

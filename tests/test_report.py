@@ -388,3 +388,35 @@ def test_a_report_drawn_from_spilled_points_by_workers_is_the_one_drawn_here(tmp
     assert report.report_files({**doc, "species": Entries.of(species)}, spilled, 0.01,
                                workers=2) == here
     assert any(b"<path" in data for rel, data in here.items() if rel.startswith("report/species"))
+
+
+def test_a_report_drawn_while_the_release_is_written_is_the_one_drawn_after(tmp_path,
+                                                                          monkeypatch):
+    """A release the build's own process writes alone has its report drawn meanwhile: page
+    files go to the workers between the pieces of the other files (Release.between). The
+    release is byte for byte the one whose report is drawn in this process afterwards."""
+    from thermoledger import build
+    from thermoledger.core.settings import Settings
+    from thermoledger.release import report
+    from thermoledger.testing.catalogue import write_catalogue
+
+    raw = tmp_path / "raw"
+    write_catalogue(raw, report.POOL_FROM + 9, points=30)
+    sent = []
+    real_finish = report.Drawing.finish
+
+    def finish(self):
+        sent.append(len(self.out) + len(self.tallies))   # files sent before finishing
+        return real_finish(self)
+
+    monkeypatch.setattr(report.Drawing, "finish", finish)
+    build.build(raw, tmp_path / "early", Settings())
+    assert sent and sent[0] > 0
+    monkeypatch.setattr(report, "default_workers", lambda: 1)
+    build.build(raw, tmp_path / "after", Settings())
+    early, after = (sorted(p.relative_to(tmp_path / k / "current")
+                           for p in (tmp_path / k / "current").rglob("*") if p.is_file())
+                    for k in ("early", "after"))
+    assert early == after and any(str(p).startswith("report/species/") for p in early)
+    assert all((tmp_path / "early" / "current" / p).read_bytes()
+               == (tmp_path / "after" / "current" / p).read_bytes() for p in early)

@@ -81,8 +81,18 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None
     say("write tables", 0, 0, "library.json, library.parquet, tables.parquet")
     if staging:
         processes.give_back_memory()         # before the helper forks: it shares less
+    # a release written by this process alone has the report drawn meanwhile: its workers
+    # take the other core, and are sent page files between the pieces written
+    early = out.report and staging is None and \
+        report.drawn_by_workers(len(ids), report.default_workers())
     with ExitStack() as kept:
         species = None         # the manifest's lineages, when made ahead
+        drawing = ExitStack()
+        kept.enter_context(drawing)
+        drawn = drawing.enter_context(report.drawing(
+            doc, outcome.points, ctx.fit.accept_cp_max_rel, say=say, release=release,
+            pages=pages.into(release) if pages else None)) if early else None
+        release.between = drawn.pump if drawn else None
         with (processes.aside(aside_files, doc, own, out.table_step, staging.write_chunks,
                               takes and takes[:2], aside, findings_doc)
               if staging else nullcontext()) as helper:
@@ -103,7 +113,11 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None
                 got.update(got_aside)
                 for rel, summed in sums.items():
                     release.adopt(rel, summed)     # before the report's workers fork
-        if out.report:
+        release.between = None
+        if drawn is not None:
+            drawn.finish()
+            drawing.close()                        # its workers end here
+        elif out.report:
             report.report_files(doc, outcome.points, ctx.fit.accept_cp_max_rel, say=say,
                                 release=release,
                                 pages=pages.into(release) if pages else None)

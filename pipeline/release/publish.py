@@ -352,6 +352,13 @@ def write_summed(path: Path, chunks, mode: str = "wb") -> bytes:
     return summed(digest.digest(), size)
 
 
+def _between(chunks, call):
+    """The pieces ``chunks``, ``call()`` made after each is taken."""
+    for chunk in chunks:
+        yield chunk
+        call()
+
+
 class Release:
     """The files of a release as they are made, each with its sha256 and size: written at
     once into the staging folder of a locked release home (``Release.staged``), or kept in
@@ -362,6 +369,9 @@ class Release:
         self.flat = flat           # files of a flat release in the home, to take over
         self._kept = {} if folder is None else None
         self._sums = {}
+        #: called after each piece written by ``add_chunks`` when set (what else the build
+        #: does meanwhile: the report's drawing, release.report.Drawing.pump)
+        self.between = None
 
     @classmethod
     def staged(cls, target: Path) -> "Release":
@@ -390,6 +400,8 @@ class Release:
         path = self.folder / rel
         if rel in self._sums:              # never written through a link (``link``)
             path.unlink(missing_ok=True)
+        if self.between is not None:
+            chunks = _between(chunks, self.between)
         self._sums[rel] = write_summed(path, chunks)
 
     def sync(self) -> None:

@@ -8,7 +8,8 @@ safety caution. Wording, sections and colours are our own.
 import html
 import json
 import pickle
-from collections import Counter
+from collections import Counter, deque
+from contextlib import contextmanager
 
 import numpy as np
 
@@ -18,6 +19,8 @@ from ..core.names import file_stem
 from ..core.processes import give_back_memory, worker_pool
 from ..core.records import PublishedSet
 from ..core.spill import SpilledObjects
+from ..library.entries import by_id as entries_by_id
+from ..library.entries import held_of, ids_of, key_of
 from ..physics import forms
 from . import plots
 from .document import NOTICE
@@ -443,97 +446,154 @@ def report_files(doc, points, accept, workers=None, say=None, pages=None,
     build's own process 1 s of CPU at 10 000 species), and the drawing gives back what the
     overview and the index show of them (``summary``). ``say(stage, i, n,
     label)`` hears of every species drawn."""
-    from collections import deque
+    with drawing(doc, points, accept, workers, say, pages, release) as report:
+        return report.finish()
 
-    from ..library.entries import by_id as entries_by_id
-    from ..library.entries import held_of, ids_of, key_of
-    from ..library.formation import Formation
 
-    species = doc["species"]
-    transitions = doc.get("transitions", [])
-    made = Formation(doc)
-    say = say or (lambda *a: None)
-    workers = workers or default_workers()
-    files = {}
-    add = release.add if release is not None else files.__setitem__
-    done, tallies = 0, {}
-    ids = ids_of(species)
-    held_in = page_files(len(ids))
-    groups = {}
-    for i, sid in enumerate(ids):
-        groups.setdefault(page_of(sid, held_in)[0], []).append(i)
+@contextmanager
+def drawing(doc, points, accept, workers=None, say=None, pages=None, release=None):
+    """The report of ``report_files`` drawn while the block runs: what it gives
+    (``Drawing``) sends page files to the workers and takes in those drawn when its
+    ``pump`` is called (the writing of other files calls it between their pieces:
+    publish.Release.between), and ``finish`` draws the rest, then the overview and the
+    index. The workers, when there are any, are stopped when the block ends (killed when
+    it raises)."""
+    report = Drawing(doc, points, accept, workers, say, pages, release)
+    if not drawn_by_workers(len(report.ids), report.workers):
+        yield report
+        return
+    give_back_memory()
+    # the workers start from a server process that holds nothing of this one (core.
+    # fresh); an interrupted build waits for no worker
+    with worker_pool(report.workers, fresh=DRAWING) as pool:
+        report.pool = pool
+        yield report
+        report.pool = None
 
-    base = pages.base(accept, transitions) if pages else None
 
-    def chunks():
+class Drawing:
+    """A report being drawn (``drawing``): page files sent a file at a time, at most twice
+    as many out as there are workers; a file's entries go to its drawing as held and its
+    points as pickled (decoded there: here they would cost the build's own process 1 s of
+    CPU at 10 000 species), and the drawing gives back what the overview and the index
+    show of them (``summary``)."""
+
+    def __init__(self, doc, points, accept, workers=None, say=None, pages=None,
+                 release=None):
+        from ..library.formation import Formation
+
+        self.doc, self.points, self.accept, self.pages = doc, points, accept, pages
+        self.species = doc["species"]
+        self.transitions = doc.get("transitions", [])
+        self.made = Formation(doc)
+        self.say = say or (lambda *a: None)
+        self.workers = workers or default_workers()
+        self.release, self.files = release, {}
+        self.add = release.add if release is not None else self.files.__setitem__
+        self.staging = None
+        self.pool, self.out, self.done, self.tallies = None, deque(), 0, {}
+        self.heard = []                     # species drawn while pumped, told at ``finish``
+        self.finishing = False
+        self.ids = ids_of(self.species)
+        held_in = page_files(len(self.ids))
+        self.groups = {}
+        for i, sid in enumerate(self.ids):
+            self.groups.setdefault(page_of(sid, held_in)[0], []).append(i)
+        self.base = pages.base(accept, self.transitions) if pages else None
+        self.todo = self._chunks()
+
+    def _chunks(self):
         # each file's entries go to its drawing as held (compact JSON, nothing decoded
         # here) and its plot points as pickled: the drawing decodes them
-        for name in sorted(groups):
-            at = groups[name]
-            own = [_pickled_points(points, ids[i]) for i in at]
+        species, ids, made, pages = self.species, self.ids, self.made, self.pages
+        for name in sorted(self.groups):
+            at = self.groups[name]
+            own = [_pickled_points(self.points, ids[i]) for i in at]
             # only a species with formation properties is decoded for its rows here
             formed = formation_rows(made, [{"id": ids[i]} if made.missing(ids[i])
                                            else species[i] for i in at])
             if pages:                      # a file drawn from the same inputs is linked
-                key = pages.key(base, [key_of(species, i) for i in at], own, formed)
+                key = pages.key(self.base, [key_of(species, i) for i in at], own, formed)
                 if pages.take(name, key, len(at)):
-                    tallies[name] = _tally([species[i] for i in at])
-                    counted(name)
+                    self.tallies[name] = _tally([species[i] for i in at])
+                    self._counted(name)
                     continue
                 pages.wait(name, key)
-            yield [held_of(species, i) for i in at], own, accept, transitions, formed, name
+            yield ([held_of(species, i) for i in at], own, self.accept, self.transitions,
+                   formed, name)
 
-    def counted(name):
-        nonlocal done
-        for i in groups[name]:
-            done += 1
-            say("write report", done, len(species), ids[i])
+    def _counted(self, name):
+        for i in self.groups[name]:
+            self.done += 1
+            if self.finishing:
+                self.say("write report", self.done, len(self.species), self.ids[i])
+            else:
+                self.heard.append(i)
 
-    def added(name, part, adopt=False):
-        drawn, tallies[name] = part
+    def _added(self, name, part):
+        drawn, self.tallies[name] = part
+        adopt = self.pool is not None and self.staging is not None
         for path, data in drawn.items():    # with ``adopt``, written: their sha256 and size
-            (release.adopt if adopt else add)(path, data)
+            (self.release.adopt if adopt else self.add)(path, data)
         del part, drawn
-        if pages:
-            pages.drew(name)
-        counted(name)
-        if done % TRIM_EVERY < len(groups[name]):
+        if self.pages:
+            self.pages.drew(name)
+        self._counted(name)
+        if self.done % TRIM_EVERY < len(self.groups[name]):
             give_back_memory()
 
-    if drawn_by_workers(len(species), workers):
-        staging = release.staging() if release is not None else None
-        give_back_memory()
-        # the workers start from a server process that holds nothing of this one (core.
-        # fresh); an interrupted build waits for no worker
-        with worker_pool(workers, fresh=DRAWING) as pool:
-            out = deque()
-            for args in chunks():
-                out.append((args[-1], pool.submit(_species_files, *args, staging)))
-                if len(out) >= 2 * workers:
-                    name, future = out.popleft()
-                    added(name, future.result(), staging is not None)
-            while out:
-                name, future = out.popleft()
-                added(name, future.result(), staging is not None)
-    else:
-        for args in chunks():
-            added(args[-1], _species_files(*args))
-    # the overview counts every species in the order of the page files, however drawn
-    worst, per_source, summaries = [], Counter(), {}
-    for name in sorted(tallies):
-        sources, shown = tallies[name]
-        per_source.update(sources)
-        worst += [x[4] for x in shown]
-        summaries.update((x[0], x) for x in shown)
-    by_id = entries_by_id(doc)
-    for name in sorted({x["species"] for x in transitions}):
-        add(f"report/img/{file_stem(name)}-phases.svg", plots.phase_figure(
-            name, transitions, by_id))
-    hist, bars = plots.overview_figures(worst, per_source)
-    add("report/img/overview-deviation.svg", hist)
-    add("report/img/overview-sources.svg", bars)
-    add("report/index.html", index_page(doc, summaries))
-    return dict(sorted(files.items()))
+    def pump(self, wait: bool = False) -> None:
+        """Take in the page files drawn and send more, keeping twice as many out as there
+        are workers; never waits, unless ``wait``: then until every file is drawn. Without
+        workers, only ``wait`` draws (here)."""
+        if self.pool is None:
+            if wait:
+                for args in self.todo:
+                    self._added(args[-1], _species_files(*args))
+            return
+        if self.staging is None and self.release is not None:
+            self.staging = self.release.staging()
+        while True:
+            while self.out and self.out[0][1].done():
+                name, future = self.out.popleft()
+                self._added(name, future.result())
+            if len(self.out) < 2 * self.workers:
+                args = next(self.todo, None)
+                if args is not None:
+                    self.out.append((args[-1], self.pool.submit(_species_files, *args,
+                                                                self.staging)))
+                    continue
+                if not self.out:
+                    return
+            if not wait:
+                return
+            name, future = self.out.popleft()
+            self._added(name, future.result())
+
+    def finish(self) -> dict:
+        """Draw every page file not drawn yet, then the overview and the index: {relative
+        path: bytes} of the report, empty when written into a release."""
+        self.finishing = True
+        for k, i in enumerate(self.heard, 1):
+            self.say("write report", k, len(self.species), self.ids[i])
+        self.heard = []
+        self.pump(wait=True)
+        # the overview counts every species in the order of the page files, however drawn
+        worst, per_source, summaries = [], Counter(), {}
+        for name in sorted(self.tallies):
+            sources, shown = self.tallies[name]
+            per_source.update(sources)
+            worst += [x[4] for x in shown]
+            summaries.update((x[0], x) for x in shown)
+        by_id = entries_by_id(self.doc)
+        for name in sorted({x["species"] for x in self.transitions}):
+            self.add(f"report/img/{file_stem(name)}-phases.svg", plots.phase_figure(
+                name, self.transitions, by_id))
+        hist, bars = plots.overview_figures(worst, per_source)
+        self.add("report/img/overview-deviation.svg", hist)
+        self.add("report/img/overview-sources.svg", bars)
+        self.add("report/index.html", index_page(self.doc, summaries))
+        return dict(sorted(self.files.items()))
 
 
 #: what the report's workers import before they start, and from how many species a report

@@ -439,12 +439,8 @@ def report_files(doc, points, accept, workers=None, say=None, pages=None,
     ``points`` maps species id to its data: t, cp (rows used), t_out, cp_out (rows left
     out), and optional (t, deviation) pairs 'dh' and 's' against the table's columns.
     Large reports are drawn by up to ``workers`` processes (default: the cores of the
-    machine); the files do not depend on how many.
-    The species are read a page file (pages.page_of: some pages.GROUP species) at a time,
-    and at most twice as many files as workers are out at once; a file's entries go to its
-    drawing as held and its points as pickled (decoded there: here they would cost the
-    build's own process 1 s of CPU at 10 000 species), and the drawing gives back what the
-    overview and the index show of them (``summary``). ``say(stage, i, n,
+    machine); the files do not depend on how many. The species are read a page file
+    (pages.page_of: some pages.GROUP species) at a time (``Drawing``). ``say(stage, i, n,
     label)`` hears of every species drawn."""
     with drawing(doc, points, accept, workers, say, pages, release) as report:
         return report.finish()

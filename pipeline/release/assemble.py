@@ -87,8 +87,7 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None
         report.drawn_by_workers(len(ids), report.default_workers())
     with ExitStack() as kept:
         species = None         # the manifest's lineages, when made ahead
-        drawing = ExitStack()
-        kept.enter_context(drawing)
+        drawing = kept.enter_context(ExitStack())
         drawn = drawing.enter_context(report.drawing(
             doc, outcome.points, ctx.fit.accept_cp_max_rel, say=say, release=release,
             pages=pages.into(release) if pages else None)) if early else None

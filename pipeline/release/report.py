@@ -392,12 +392,8 @@ def index_page(doc, summaries=None) -> bytes:
     id: ``summary``}, of every species) spares decoding the entries again."""
     rows = []
     files = page_files(len(doc["species"]))
-    if summaries is None:
-        listed = map(summary, doc["species"])
-    else:
-        from ..library.entries import ids_of
-
-        listed = (summaries[sid] for sid in ids_of(doc["species"]))
+    listed = map(summary, doc["species"]) if summaries is None else \
+        (summaries[sid] for sid in ids_of(doc["species"]))
     for sid, form, lo, hi, worst, n, cls, label in listed:
         path, section = page_of(sid, files)
         html_row = (f"<tr><td><a href=\"{e(path.removeprefix('report/'))}#{e(section)}\">"
@@ -463,6 +459,7 @@ def drawing(doc, points, accept, workers=None, say=None, pages=None, release=Non
     # fresh); an interrupted build waits for no worker
     with worker_pool(report.workers, fresh=DRAWING) as pool:
         report.pool = pool
+        report.staging = release.staging() if release is not None else None
         yield report
         report.pool = None
 
@@ -486,7 +483,7 @@ class Drawing:
         self.workers = workers or default_workers()
         self.release, self.files = release, {}
         self.add = release.add if release is not None else self.files.__setitem__
-        self.staging = None
+        self.staging = None                 # where the workers write (``drawing``)
         self.pool, self.out, self.done, self.tallies = None, deque(), 0, {}
         self.heard = []                     # species drawn while pumped, told at ``finish``
         self.finishing = False
@@ -528,9 +525,8 @@ class Drawing:
 
     def _added(self, name, part):
         drawn, self.tallies[name] = part
-        adopt = self.pool is not None and self.staging is not None
-        for path, data in drawn.items():    # with ``adopt``, written: their sha256 and size
-            (self.release.adopt if adopt else self.add)(path, data)
+        for path, data in drawn.items():    # written by a worker: their sha256 and size
+            (self.add if self.staging is None else self.release.adopt)(path, data)
         del part, drawn
         if self.pages:
             self.pages.drew(name)
@@ -547,8 +543,6 @@ class Drawing:
                 for args in self.todo:
                     self._added(args[-1], _species_files(*args))
             return
-        if self.staging is None and self.release is not None:
-            self.staging = self.release.staging()
         while True:
             while self.out and self.out[0][1].done():
                 name, future = self.out.popleft()

@@ -29,7 +29,7 @@ import os
 from pathlib import Path
 
 from ..core import paths
-from ..library.entries import Entries, compact
+from ..library.entries import key_of
 
 #: the file of the store of partitions (publish.STORE) that keeps where the pieces lie
 KEPT = "pieces.json"
@@ -43,9 +43,7 @@ PARQUET_FILES = ("library.parquet", "tables.parquet")
 def keys_of(items) -> list:
     """The key (sha256, hex) of each item of ``items``: Entries by ``Entries.key``, dicts by
     their compact JSON."""
-    if isinstance(items, Entries):
-        return [items.key(i) for i in range(len(items))]
-    return [hashlib.sha256(compact(x)).hexdigest() for x in items]
+    return [key_of(items, i) for i in range(len(items))]
 
 
 def context(code: str, version: str, settings: dict) -> str:

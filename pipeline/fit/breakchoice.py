@@ -151,7 +151,11 @@ def choose_many(t, ys, sigmas, form, settings: FitSettings, previous) -> list:
     if plan.nr != 2:
         return [_attempt(choose, t, y, sig, form, settings, prev)
                 for y, sig, prev in zip(ys, sigmas, previous)]
-    bests = breakpoints.optimise_many(t, ys, sigmas, form.powers, plan.rules)
+    # the two batched calls share what they make of the tables before the candidates (when
+    # there are points enough for the search: the calls make it themselves otherwise)
+    made = breakpoints.prepared(t, ys, sigmas, form.powers) \
+        if len(t) >= max(2 * plan.rules.need, len(form.powers)) else None
+    bests = breakpoints.optimise_many(t, ys, sigmas, form.powers, plan.rules, made)
     conv = breakpoints.conventional(t, plan.nr, settings.breakpoint, plan.rules.need,
                                     plan.rules.ratio)
     out = [None] * len(ys)
@@ -167,7 +171,8 @@ def choose_many(t, ys, sigmas, form, settings: FitSettings, previous) -> list:
     if conv:
         sets = np.array([[conv, bests[i]] for i in ok], dtype=float)
         rms = breakpoints.objectives_for(t, ys[ok], sigmas[ok], form.powers, sets,
-                                         replace(plan.rules, norm="rms"))
+                                         replace(plan.rules, norm="rms"),
+                                         made and made.rows(ok))
     for row, i in enumerate(ok):
         obs = breakpoints.Observations(t, ys[i], sigmas[i])
         steady = _settled(obs, bests[i], settings, (tuple(conv), "conventional"), rms[row]) \

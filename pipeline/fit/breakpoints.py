@@ -71,28 +71,40 @@ def objective_for(obs: Observations, powers, sets, rules: SearchRules):
                           np.asarray(sets, dtype=float)[None], rules)[0]
 
 
-def objectives_for(t, ys, sigmas, powers, sets, rules: SearchRules):
+def prepared(t, ys, sigmas, powers) -> lsq.Prefixed:
+    """What every search of S tables at the same temperatures ``t`` [K] (``ys`` ±
+    ``sigmas``, (S, n)) in the basis ``powers`` starts from (lsq.prefixed), made once for
+    several calls of ``objectives_for``."""
+    return lsq.prefixed(_rows(t, powers), ys, sigmas)
+
+
+def _rows(t, powers):
+    return basis.powers_row(powers, np.asarray(t, dtype=float) / forms.T_SCALE)
+
+
+def objectives_for(t, ys, sigmas, powers, sets, rules: SearchRules, made=None):
     """``objective_for`` of S tables at the same temperatures ``t`` [K] at once: ``ys`` ±
-    ``sigmas`` (S, n) and each table's breakpoint sets [K] (S, K, nb) -> (S, K)."""
+    ``sigmas`` (S, n) and each table's breakpoint sets [K] (S, K, nb) -> (S, K); ``made``:
+    ``prepared(t, ys, sigmas, powers)`` when made already."""
     order = rules.order
     sets = np.asarray(sets, dtype=float)
     ss, kk, nb = sets.shape
-    tau = np.asarray(t, dtype=float) / forms.T_SCALE
-    v = basis.powers_row(powers, tau)
+    v = _rows(t, powers)
     n = len(t)
     starts = np.zeros((ss, kk, nb + 2), dtype=int)
     starts[:, :, 1:-1] = np.searchsorted(t, sets, side="right")   # points <= b: lower range
     starts[:, :, -1] = n
     c = basis.continuity_rows_of_sets(powers, sets.reshape(ss * kk, nb), order)
     return lsq.batch_objectives(v, ys, sigmas, starts, c.reshape(ss, kk, *c.shape[1:]),
-                                rules.norm)
+                                rules.norm, made)
 
 
-def optimise_many(t, ys, sigmas, powers, rules: SearchRules = SearchRules()) -> list:
+def optimise_many(t, ys, sigmas, powers, rules: SearchRules = SearchRules(),
+                  made=None) -> list:
     """``optimise`` with two ranges of S tables at the same temperatures ``t`` [K]: for each
     row of ``ys`` ± ``sigmas`` (S, n), its breakpoint [K] (a list of one) or the ValueError
     ``optimise`` raises; every table's candidates solved in one batched call, and each
-    pick made as ``optimise`` makes it."""
+    pick made as ``optimise`` makes it (``made`` as for ``objectives_for``)."""
     n = len(t)
     if n < 2 * rules.need:
         return [_too_few(n, 2, rules)] * len(ys)
@@ -100,7 +112,8 @@ def optimise_many(t, ys, sigmas, powers, rules: SearchRules = SearchRules()) -> 
     cands = _candidates(t, 0, n - 1, rules)
     if len(cands):
         obj = objectives_for(t, ys, sigmas, powers,
-                             np.broadcast_to(cands[:, None], (len(ys), len(cands), 1)), rules)
+                             np.broadcast_to(cands[:, None], (len(ys), len(cands), 1)), rules,
+                             made)
         picks = [float(cands[_pick(row, cands, here)]) for row in obj]
     else:
         picks = [here] * len(ys)

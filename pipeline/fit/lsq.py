@@ -179,27 +179,29 @@ def batch_objective(v, y, sigma, starts, c, norm="max"):
         sigma, dtype=float)[None], np.asarray(starts)[None], np.asarray(c)[None], norm)[0]
 
 
-def batch_objectives(v, y, sigma, starts, c, norm="max"):
-    """Objective of many candidate problems of many tables at once, from prefix sums of the
-    normal equations.
+@dataclass(frozen=True)
+class Prefixed:
+    """What ``batch_objectives`` makes of S tables before it looks at any candidate: each
+    table's basis orthonormalised over all its points ``vw`` (S, n, m) with ``scale`` (S, m,
+    m) back to the old coefficients, its weighted observations ``b`` (S, n), and the prefix
+    sums of the normal matrix ``pg`` (S, n + 1, m, m) and right-hand side ``pq`` (S, n + 1,
+    m). Made once, it serves every set of candidates of the same tables."""
 
-    v : (n, m) basis rows of every point (one range's columns), points sorted by T, the
-        same for every table (the tables share their temperatures)
-    y, sigma : (S, n) the observations of each of S tables and their σ
-    starts : (S, K, nr + 1) indices into the points where each range begins (last = n)
-    c : (S, K, r, nr*m) continuity constraints of each candidate
-    Returns (S, K) — the largest |weighted residual| ('max') or the rms ('rms').
+    vw: np.ndarray
+    scale: np.ndarray
+    b: np.ndarray
+    pg: np.ndarray
+    pq: np.ndarray
 
-    Each candidate's block-diagonal normal matrix comes from differences of prefix sums, and
-    its KKT system [[G, Cᵀ], [C, 0]] is solved for all candidates of all tables in one
-    batched call, in a basis orthonormalised over all points of each table (the same
-    functions, better conditioned). Every table's figures are computed by the same
-    operations whatever else is in the batch (stacked LAPACK and matrix products act on
-    each table alone), so a table gets the same objective alone or in a batch. The objective
-    only ranks candidates; the chosen one is solved again by ``solve``.
-    """
+    def rows(self, tables) -> "Prefixed":
+        """The same of the tables ``tables`` (indices) only: copies of their rows."""
+        return Prefixed(*(a[tables] for a in (self.vw, self.scale, self.b, self.pg, self.pq)))
+
+
+def prefixed(v, y, sigma) -> Prefixed:
+    """The Prefixed of S tables: ``v`` (n, m) basis rows, ``y``, ``sigma`` (S, n)."""
     v = np.asarray(v, dtype=float)
-    n, m = v.shape
+    m = v.shape[1]
     w = 1.0 / np.asarray(sigma, dtype=float)                       # (S, n)
     ss = w.shape[0]
     # a fixed change of basis spans the same functions on every subset of points: the
@@ -211,6 +213,33 @@ def batch_objectives(v, y, sigma, starts, c, norm="max"):
     pg = np.concatenate([np.zeros((ss, 1, m, m)),
                          np.cumsum(vw[:, :, :, None] * vw[:, :, None, :], 1)], axis=1)
     pq = np.concatenate([np.zeros((ss, 1, m)), np.cumsum(vw * b[:, :, None], 1)], axis=1)
+    return Prefixed(vw, scale, b, pg, pq)
+
+
+def batch_objectives(v, y, sigma, starts, c, norm="max", made: Prefixed | None = None):
+    """Objective of many candidate problems of many tables at once, from prefix sums of the
+    normal equations.
+
+    v : (n, m) basis rows of every point (one range's columns), points sorted by T, the
+        same for every table (the tables share their temperatures)
+    y, sigma : (S, n) the observations of each of S tables and their σ
+    starts : (S, K, nr + 1) indices into the points where each range begins (last = n)
+    c : (S, K, r, nr*m) continuity constraints of each candidate
+    made : ``prefixed(v, y, sigma)`` when made already (``y`` and ``sigma`` are then not
+        read): the same objectives
+    Returns (S, K) — the largest |weighted residual| ('max') or the rms ('rms').
+
+    Each candidate's block-diagonal normal matrix comes from differences of prefix sums, and
+    its KKT system [[G, Cᵀ], [C, 0]] is solved for all candidates of all tables in one
+    batched call, in a basis orthonormalised over all points of each table (the same
+    functions, better conditioned). Every table's figures are computed by the same
+    operations whatever else is in the batch (stacked LAPACK and matrix products act on
+    each table alone), so a table gets the same objective alone or in a batch. The objective
+    only ranks candidates; the chosen one is solved again by ``solve``.
+    """
+    made = made if made is not None else prefixed(v, y, sigma)
+    vw, scale, b, pg, pq = made.vw, made.scale, made.b, made.pg, made.pq
+    ss, n, m = vw.shape
     _, kk, nr1 = starts.shape
     nr = nr1 - 1
     r = c.shape[2]

@@ -291,9 +291,11 @@ def _planned_build(raw_dir, out_dir, ctx, write, progress, wait, previous, cut, 
         if previous is None:
             previous = previous_breakpoints(real)
         digests = partitions.Digests(real / partitions.STORE, use=not fresh)
+        # the keys are made when first needed: before the workers start when there is a
+        # store to look in, while they work on a first or fresh build
         store = partitions.PartStore(
-            real / partitions.STORE, partitions.part_keys(raw_dir, cut.parts, ctx.to_dict(),
-                                                          previous, digests), use=not fresh)
+            real / partitions.STORE, partial(partitions.part_keys, raw_dir, cut.parts,
+                                             ctx.to_dict(), previous, digests), use=not fresh)
         drawn = Drawn(real, partitions.code_digest(), use=not fresh) \
             if ctx.outputs.report else None
         context = reuse.context(partitions.code_digest(), __version__, ctx.to_dict())

@@ -491,12 +491,22 @@ class PartStore:
     """The partitions of the last build kept in a release home (``STORE``): a partition whose
     key (``part_keys``) is unchanged is loaded instead of computed. The files are pickles
     written by thermoledger, trusted like its code; ``load`` treats a file it cannot read as
-    absent."""
+    absent. ``keys`` may be given as a function that makes them, called when they are first
+    needed: a store that holds nothing (no folder yet, or not used) needs them only to save
+    the first result, so that a first build's workers start while this process makes them."""
 
-    def __init__(self, folder: Path, keys: list, use: bool = True):
-        self.folder, self.keys, self.use = Path(folder), keys, use
+    def __init__(self, folder: Path, keys, use: bool = True):
+        self.folder, self._keys, self.use = Path(folder), keys, use
         self.pending = []
         self._made = False         # this build made the folder
+
+    @property
+    def keys(self) -> list:
+        """The key of each partition (``part_keys``), made on first use when given as a
+        function."""
+        if callable(self._keys):
+            self._keys = self._keys()
+        return self._keys
 
     def _path(self, k: int) -> Path:
         return self.folder / f"part-{self.keys[k]}.pickle"
@@ -505,8 +515,9 @@ class PartStore:
         return self.folder / f".pending-{os.getpid()}-part-{self.keys[k]}.pickle"
 
     def holds(self, k: int) -> bool:
-        """Whether partition ``k`` has a stored file (``load`` may still find it damaged)."""
-        return self.use and self._path(k).is_file()
+        """Whether partition ``k`` has a stored file (``load`` may still find it damaged); no
+        key is made to say so when there is no store."""
+        return self.use and self.folder.is_dir() and self._path(k).is_file()
 
     def load(self, k: int):
         """The result kept for partition ``k``: a file holds two pickles, its format and key,

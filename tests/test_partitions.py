@@ -456,6 +456,28 @@ def test_a_partition_is_kept_whole_but_held_as_the_caller_keeps_it(tmp_path):
     assert partitions.run(work, cut, store=again)[0].points == (("s0", {}), ("s1", {}))
 
 
+def test_a_store_makes_its_keys_only_when_it_has_to(tmp_path):
+    """Keys given as a function are made when first needed: a store with no folder yet says
+    it holds nothing without them (a first build's workers start while they are made), and
+    makes them once, to save; a store with a folder makes them to answer."""
+    made = []
+
+    def keys():
+        made.append(1)
+        return ["a" * 64, "b" * 64]
+
+    store = partitions.PartStore(tmp_path / "store", keys)
+    assert not store.holds(0) and not store.holds(1) and made == []
+    store.save(1, partitions.PartResult(checked=None, points=(("s1", {}),)))
+    store.save(0, partitions.PartResult(checked=None, points=(("s0", {}),)))
+    store.commit()
+    assert len(made) == 1
+    again = partitions.PartStore(tmp_path / "store", keys)
+    assert again.holds(0) and again.holds(1) and len(made) == 2
+    assert again.load(1).points == (("s1", {}),)
+    assert not partitions.PartStore(tmp_path / "store", keys, use=False).holds(0)
+
+
 def _marked_part(part):
     """A partition's result marked with its index (sent from a worker: module level)."""
     return partitions.PartResult(checked=build.examine_part(RAW, part=part),

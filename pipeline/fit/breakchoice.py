@@ -172,7 +172,7 @@ def choose_many(t, ys, sigmas, form, settings: FitSettings, previous) -> list:
         sets = np.array([[conv, bests[i]] for i in ok], dtype=float)
         rms = breakpoints.objectives_for(t, ys[ok], sigmas[ok], form.powers, sets,
                                          replace(plan.rules, norm="rms"),
-                                         made and made.rows(ok))
+                                         None if made is None else made.rows(ok))
     for row, i in enumerate(ok):
         obs = breakpoints.Observations(t, ys[i], sigmas[i])
         steady = _settled(obs, bests[i], settings, (tuple(conv), "conventional"), rms[row]) \

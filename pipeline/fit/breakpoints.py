@@ -89,7 +89,7 @@ def objectives_for(t, ys, sigmas, powers, sets, rules: SearchRules, made=None):
     order = rules.order
     sets = np.asarray(sets, dtype=float)
     ss, kk, nb = sets.shape
-    v = _rows(t, powers)
+    v = _rows(t, powers) if made is None else None     # the rows are in ``made``
     n = len(t)
     starts = np.zeros((ss, kk, nb + 2), dtype=int)
     starts[:, :, 1:-1] = np.searchsorted(t, sets, side="right")   # points <= b: lower range

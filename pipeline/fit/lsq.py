@@ -225,8 +225,8 @@ def batch_objectives(v, y, sigma, starts, c, norm="max", made: Prefixed | None =
     y, sigma : (S, n) the observations of each of S tables and their σ
     starts : (S, K, nr + 1) indices into the points where each range begins (last = n)
     c : (S, K, r, nr*m) continuity constraints of each candidate
-    made : ``prefixed(v, y, sigma)`` when made already (``y`` and ``sigma`` are then not
-        read): the same objectives
+    made : ``prefixed(v, y, sigma)`` when made already (``v``, ``y`` and ``sigma`` are
+        then not read): the same objectives
     Returns (S, K) — the largest |weighted residual| ('max') or the rms ('rms').
 
     Each candidate's block-diagonal normal matrix comes from differences of prefix sums, and

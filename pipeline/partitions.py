@@ -46,13 +46,21 @@ STAGE = "read, check and fit"
 PART_SIZE, MAX_PARTS = 64, 1024
 
 
-@lru_cache(maxsize=1 << 17)
-def partition_of(name: str, parts: int) -> int:
+def hashed_partition(name: str, parts: int) -> int:
     """The partition (0 .. parts-1) of species name ``name``: a hash, the same in every
-    process and on every machine."""
+    process and on every machine. For names seen once per process (a source.json's tables
+    grouped, the partitions' keys); ``partition_of`` remembers them."""
     if parts <= 1:
         return 0
     return int.from_bytes(hashlib.sha256(name.encode("utf-8")).digest()[:8], "big") % parts
+
+
+@lru_cache(maxsize=1 << 17)
+def partition_of(name: str, parts: int) -> int:
+    """``hashed_partition``, remembered: for names every partition asks about (the
+    transitions and sets each one reads). Not for a catalogue's every species name: at
+    100 000 species the memory held 21 MB in each process that computes partitions."""
+    return hashed_partition(name, parts)
 
 
 @dataclass(frozen=True)
@@ -66,8 +74,9 @@ class Part:
         return partition_of(name, self.count) == self.index
 
     def index_of(self, name: str) -> int:
-        """The partition of species name ``name`` in this cut."""
-        return partition_of(name, self.count)
+        """The partition of species name ``name`` in this cut (not remembered: asked once
+        for each name)."""
+        return hashed_partition(name, self.count)
 
 
 @dataclass(frozen=True)
@@ -463,7 +472,7 @@ def part_keys(raw_dir, parts: int, settings: dict, previous: dict, digests=None)
     shared.update("\n".join(listed_paths(raw)).encode())
     own = [hashlib.sha256() for _ in range(parts)]
     for sid, points in sorted(previous.items()):
-        own[partition_of(species_name(sid), parts)].update(f"{sid}{points}\n".encode())
+        own[hashed_partition(species_name(sid), parts)].update(f"{sid}{points}\n".encode())
 
     def digest(path: Path) -> str:
         return _file_digest(path, real, digests)
@@ -477,7 +486,7 @@ def part_keys(raw_dir, parts: int, settings: dict, previous: dict, digests=None)
             for entry in doc.get("coefficient_sets", ()):
                 shared.update(f"{entry['file']}\0{digest(src.parent / entry['file'])}\n".encode())
             for entry in doc.get("tables", ()):
-                part = partition_of(str(entry["species"]), parts)
+                part = hashed_partition(str(entry["species"]), parts)
                 own[part].update(f"{entry['file']}\0{digest(src.parent / entry['file'])}\n"
                                  .encode())
         except (OSError, ValueError, AttributeError, TypeError, KeyError, RecursionError):

@@ -7,9 +7,11 @@ each problem. Nothing under raw/ is ever written; paths are confined to it.
 
 import hashlib
 import os
+from collections import OrderedDict
 from dataclasses import dataclass
 from functools import lru_cache
 from pathlib import Path
+from threading import Lock
 from typing import NamedTuple
 
 from ..core import chemistry, jsonread, paths, phases, schemas, units
@@ -337,14 +339,13 @@ def ingest(raw_dir, part=None) -> IngestResult:
             findings.append(finding("SRC-TOO-LARGE", f"source.json is {size} bytes", file=rel,
                                     seen=str(size), expected=f"<= {MAX_SOURCE_BYTES} bytes"))
             continue
-        digest, size, text = _source_text(meta_path)
+        digest, size, parsed = _source(meta_path, rel, folder.name,
+                                       type(part)(0, part.count) if part is not None else None)
         inputs.append(InputFile(path=rel, sha256=digest, size=size))
-        if text is None:
+        if parsed is None:
             findings.append(finding("SRC-UNREADABLE", "source.json is not UTF-8", file=rel))
             continue
-        parsed = _parsed_source(text, rel, folder.name, digest,
-                                type(part)(0, part.count) if part is not None else None)
-        source, doc, problems, listed = parsed.source, parsed.doc, parsed.problems, parsed.listed
+        source, doc, problems = parsed.source, parsed.doc, parsed.problems
         findings += problems
         if source is None:
             continue
@@ -372,6 +373,7 @@ def ingest(raw_dir, part=None) -> IngestResult:
                 tables += read
         if part is not None and part.index != 0:
             continue          # a file-level scan: the first part reports it for all
+        listed = _listed(parsed)
         for csv_path in sorted(folder.glob("*.csv")):
             if csv_path.name not in listed:
                 findings.append(finding("TAB-UNLISTED", f"{csv_path.name} is not listed in "
@@ -388,15 +390,53 @@ def ingest(raw_dir, part=None) -> IngestResult:
 SOURCES_REMEMBERED = 4096
 
 
-def _source_text(path: Path) -> tuple:
-    """(sha256, size, text, or None when not UTF-8) of the source.json at ``path``: read
-    once per process for a file as it is on disk (core.paths.identity), the same text
-    object each time, so that ``_parsed_source`` finds it at once; read again each time
-    while it is not settled (core.paths.settled)."""
+class _Remembered:
+    """The last SOURCES_REMEMBERED values put, by key (least recently asked for forgotten
+    first); safe across threads."""
+
+    def __init__(self):
+        self._seen, self._lock = OrderedDict(), Lock()
+
+    def get(self, key, default=None):
+        with self._lock:
+            if key not in self._seen:
+                return default
+            self._seen.move_to_end(key)
+            return self._seen[key]
+
+    def put(self, key, value) -> None:
+        with self._lock:
+            self._seen[key] = value
+            if len(self._seen) > SOURCES_REMEMBERED:
+                self._seen.popitem(last=False)
+
+
+#: (sha256, size) of each settled source.json by its identity on disk; its _Parsed (None:
+#: not UTF-8) by its sha256, name and cut
+_DIGESTS, _PARSED = _Remembered(), _Remembered()
+_UNSEEN = object()
+
+
+def _source(path: Path, file: str, folder: str, cut) -> tuple:
+    """(sha256, size, ``_parsed_source`` or None when not UTF-8) of the source.json at
+    ``path``, its tables grouped by ``cut``: parsed once per process for each content, and
+    read once for a file as it is on disk (core.paths.identity), again each time while it
+    is not settled (core.paths.settled). The text is not kept: at 100 000 species it was
+    17 MB in every process that computes partitions."""
     st = path.stat()
-    if not paths.settled(st):
-        return _read_source_text(str(path))
-    return _settled_source_text(str(path), *paths.identity(st))
+    known = _DIGESTS.get((str(path), *paths.identity(st))) if paths.settled(st) else None
+    if known is not None:
+        parsed = _PARSED.get((known[0], file, folder, cut), _UNSEEN)
+        if parsed is not _UNSEEN:
+            return (*known, parsed)
+    digest, size, text = _read_source_text(str(path))
+    if paths.settled(st):
+        _DIGESTS.put((str(path), *paths.identity(st)), (digest, size))
+    parsed = _PARSED.get((digest, file, folder, cut), _UNSEEN)
+    if parsed is _UNSEEN:
+        parsed = None if text is None else _parsed_source(text, file, folder, digest, cut)
+        _PARSED.put((digest, file, folder, cut), parsed)
+    return digest, size, parsed
 
 
 def _read_source_text(path: str) -> tuple:
@@ -408,39 +448,41 @@ def _read_source_text(path: str) -> tuple:
     return sha256(raw), len(raw), text
 
 
-@lru_cache(maxsize=SOURCES_REMEMBERED)
-def _settled_source_text(path: str, *identity) -> tuple:
-    return _read_source_text(path)
-
-
 class _Parsed(NamedTuple):
     """A source.json as a process remembers it (``_parsed_source``)."""
 
     source: object       # SourceMeta, or None when the file is refused
     doc: dict            # the document without its tables
     problems: list       # findings
-    listed: frozenset    # every file it lists
     tables: dict         # {partition: its (index, table entry) pairs, pickled}
 
 
-@lru_cache(maxsize=SOURCES_REMEMBERED)
 def _parsed_source(text: str, file: str, folder: str, digest: str, cut=None) -> _Parsed:
-    """``parse_source``, remembered: every partition of a build reads every source.json.
-    Its tables grouped by the partitions of ``cut`` (a partitions.Part of the same count;
-    None: all in one). The tables are grouped by
+    """``parse_source``, as a process remembers it (``_source``): every partition of a build
+    reads every source.json. Its tables grouped by the partitions of ``cut`` (a
+    partitions.Part of the same count; None: all in one). The tables are grouped by
     partition once per process, not walked through for each partition, and held pickled: a
     worker of a 100 000-species build held every table entry of every source as Python
     objects, some 150 MB. Callers must not change the document it returns."""
     import pickle
 
     source, doc, problems = parse_source(text, file=file, folder=folder, digest=digest)
-    listed = frozenset(e["file"] for k in ("tables", "coefficient_sets") for e in doc.get(k, []))
     by_part = {}
     for i, e in enumerate(doc.get("tables", [])):
         by_part.setdefault(cut.index_of(e["species"]) if cut else 0, []).append((i, e))
     slim = {k: v for k, v in doc.items() if k != "tables"}
-    return _Parsed(source, slim, problems, listed,
+    return _Parsed(source, slim, problems,
                    {k: pickle.dumps(v, pickle.HIGHEST_PROTOCOL) for k, v in by_part.items()})
+
+
+def _listed(parsed: _Parsed) -> frozenset:
+    """Every file a ``_parsed_source`` lists (its tables and coefficient sets), made when
+    asked: only the partition that scans for unlisted files needs them, and every process
+    held them for every source (12 MB at 100 000 species)."""
+    import pickle
+
+    tables = (e for blob in parsed.tables.values() for _, e in pickle.loads(blob))
+    return frozenset(e["file"] for e in (*tables, *parsed.doc.get("coefficient_sets", [])))
 
 
 def _own_tables(parsed: _Parsed, part) -> list:

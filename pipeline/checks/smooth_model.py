@@ -82,11 +82,18 @@ def nnls(a, b, maxiter: int):
 
 def _fit(b, cp):
     a = b / cp[:, None]
+    return a, _solved(a)
+
+
+def _solved(a):
+    """The non-negative coefficients of the relative fit whose rows are ``a`` (the basis
+    over Cp): rows of ``_fit``'s matrix may be left out by slicing it, the same numbers as
+    made anew from the rows kept."""
     try:
-        c, _ = nnls(a, np.ones(len(cp)), maxiter=50 * b.shape[1])
+        c, _ = nnls(a, np.ones(len(a)), maxiter=50 * a.shape[1])
     except RuntimeError:  # no convergence: fall back to the unconstrained solution
-        c = np.linalg.lstsq(a, np.ones(len(cp)), rcond=None)[0]
-    return a, c
+        c = np.linalg.lstsq(a, np.ones(len(a)), rcond=None)[0]
+    return c
 
 
 def _inside(n, j, k):
@@ -141,9 +148,7 @@ def loo_residuals(t, cp):
     spread = np.zeros(len(t))
     x, y = np.log(t), np.log(cp)
     for j in (0, len(t) - 1):
-        keep = np.ones(len(t), dtype=bool)
-        keep[j] = False
-        _, cj = _fit(b[keep], cp[keep])
+        cj = _solved(a[1:] if j == 0 else a[:-1])     # refitted without the end row
         pred_a = float(b[j] @ cj)
         pred_b = float(np.exp(_quadratic_extrapolation(x, y, j)))
         loo[j] = cp[j] / pred_a - 1.0

@@ -70,7 +70,7 @@ def band_factor(cp, band, tight, molar_mass, strict=False):
     inside it — preferring one that brings it inside the ``tight`` band, and only such a one
     when ``strict`` — or None. Returns (name, factor, fix, alternatives)."""
     lo, hi = band
-    if np.all((cp >= lo) & (cp <= hi)):
+    if ((cp >= lo) & (cp <= hi)).all():
         return None
     fits = {False: [], True: []}
     for name, f, fix in factor_candidates(molar_mass):

@@ -55,7 +55,7 @@ def median(values) -> float:
     numpy's general machinery; numpy's own for an empty array or one with NaN."""
     v = np.asarray(values, dtype=float)
     n = len(v)
-    if not n or not np.all(np.isfinite(v)):
+    if not n or not np.isfinite(v).all():
         return float(np.median(v))
     h = n // 2
     if n % 2:

@@ -18,7 +18,7 @@ def sorted_valid(table):
     """(t [K], cp [J/(mol K)], u or None, lines) sorted by T, only finite positive values."""
     d = table.valid
     u = d["u_Cp"]
-    return d["T"], d["Cp"], (u if np.all(np.isfinite(u)) else None), \
+    return d["T"], d["Cp"], (u if np.isfinite(u).all() else None), \
         d["line"]
 
 
@@ -27,7 +27,7 @@ def check_smoothness(table, ctx):
     smooth model of its Cp(T) (smooth_model.py)."""
     s = ctx.checks
     t, cp, u, lines = sorted_valid(table)
-    if len(t) < 8 or np.any(np.diff(t) <= 0):
+    if len(t) < 8 or (np.diff(t) <= 0).any():
         return []
     found, sigma = smooth.find_outliers(t, cp, sigmas=s.outlier_sigmas, floor=s.outlier_floor)
     where = dict(table.meta.where, column="Cp")

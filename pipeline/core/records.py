@@ -52,7 +52,7 @@ def valid_columns(data: Rows) -> Rows:
     T (stable, so equal temperatures keep their file order)."""
     t, cp = data["T"], data["Cp"]
     good = np.isfinite(t) & np.isfinite(cp) & (t > 0) & (cp > 0)
-    if good.all() and np.all(t[1:] >= t[:-1]):
+    if good.all() and (t[1:] >= t[:-1]).all():
         return data                  # all valid and sorted already: the same rows
     ok = np.flatnonzero(good)
     return data.take(ok[np.argsort(t[ok], kind="stable")])

@@ -192,7 +192,7 @@ def _solve(who, form, rows, data: CpData, span, settings: FitSettings, fixed=Non
         cons.append(basis.slope_rows(form.powers, pins, bps))
     cons = np.vstack(cons) if cons else None
     sol = lsq.minimax(a, y, sig, cons) if settings.minimax else lsq.solve(a, y, sig, cons)
-    if not np.all(np.isfinite(sol.c)):
+    if not np.isfinite(sol.c).all():
         raise FitError(who.species_id, "the least-squares solution is not finite")
     return beyond.Fitted(list(bps), edges, sol, list(notes), choice)
 
@@ -392,7 +392,7 @@ def _judge(who: SpeciesIdentity, solved: Solved, data: CpData,
                        breakpoint_choice=solved.choice.to_dict() if solved.choice else None,
                        powers=tuple(form.powers), extrapolated=extrap,
                        settings=settings.recorded(), notes=solved.notes)
-    if np.any(cp_dense <= 0) or not np.all(np.isfinite(cp_dense)):
+    if (cp_dense <= 0).any() or not np.isfinite(cp_dense).all():
         bad = dense[~(cp_dense > 0)].min()
         raise FitRejected(species_id, f"fitted Cp is not positive at {bad:.6g} K inside the "
                           "range of use")

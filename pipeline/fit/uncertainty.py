@@ -61,7 +61,7 @@ def _half_quantiles(rows) -> list:
     at = (n - 1) * COVERAGE
     if not n:
         return [0.0] * len(v)
-    if not np.all(np.isfinite(v)) or not 0.0 <= at < n - 1:
+    if not np.isfinite(v).all() or not 0.0 <= at < n - 1:
         return [_half_quantile(row) for row in v]
     lo = int(np.floor(at))
     part = np.partition(v, (lo, lo + 1), axis=1)
@@ -124,7 +124,7 @@ def reference_values(x, y, sigma) -> np.ndarray:
     k = b.shape[1]
     fact, _, _, _ = dgeqrf(np.concatenate((b * w[:, None], (y * w)[:, None]), axis=1))
     c, info = dtrtrs(fact[:k, :k], fact[:k, k])          # reads the upper triangle only
-    if info != 0 or not np.all(np.isfinite(c)):
+    if info != 0 or not np.isfinite(c).all():
         c = np.linalg.lstsq(b * w[:, None], y * w, rcond=None)[0]
     return b @ c
 

@@ -90,7 +90,7 @@ def check_unlisted_transition(table, ctx):
     if not len(jump):
         return []
     size = np.abs(jump)
-    k = int(np.argmax(size))
+    k = int(size.argmax())
     typical = median(size)
     if size[k] < max(STEP_MIN, STEP_OVER_MEDIAN * typical) or side[k] > SIDE_FIT * size[k] \
             or not apart[k] * jump[k] > 0.5 * jump[k] ** 2:

@@ -170,7 +170,7 @@ def _entropy_shortfall(t, cp, meta):
     cp_grid = np.interp(grid, t, cp)
     # ∫ Cp d ln T from each row up to 298.15 K (trapezoids in ln T)
     steps = np.diff(np.log(grid)) * (cp_grid[1:] + cp_grid[:-1]) / 2
-    s = meta.entropy_298 - np.cumsum(steps[::-1])[::-1]
+    s = meta.entropy_298 - steps[::-1].cumsum()[::-1]
     theta_mean, _ = rotors.rotational_temperature(meta.formula, _elements(meta))
     tb = t[below]
     floor = rotors.translational_entropy(meta.molar_mass, tb) + \
@@ -179,8 +179,8 @@ def _entropy_shortfall(t, cp, meta):
     if not ok.any():
         return None
     gap = np.where(ok, floor - s, -np.inf)
-    i = int(np.argmax(gap))
-    return float(gap[i]), int(np.flatnonzero(below)[i]), float(s[i]), float(floor[i])
+    i = int(gap.argmax())
+    return float(gap[i]), int(below.nonzero()[0][i]), float(s[i]), float(floor[i])
 
 
 def _isolated(mask):

@@ -50,7 +50,7 @@ def check_duplicate_temperatures(table: Table, ctx: Settings):
     data = table.data
     t = data["T"]
     out = []
-    order = np.argsort(t, kind="stable")
+    order = t.argsort(kind="stable")
     ts, lines = t[order], data["line"][order]
     # the same temperature to 1e-9 K after conversion counts as repeated
     same = np.abs(np.diff(ts)) <= 1e-9 * np.maximum(1.0, np.abs(ts[1:]))

@@ -54,8 +54,8 @@ def valid_columns(data: Rows) -> Rows:
     good = np.isfinite(t) & np.isfinite(cp) & (t > 0) & (cp > 0)
     if good.all() and (t[1:] >= t[:-1]).all():
         return data                  # all valid and sorted already: the same rows
-    ok = np.flatnonzero(good)
-    return data.take(ok[np.argsort(t[ok], kind="stable")])
+    ok = good.nonzero()[0]
+    return data.take(ok[t[ok].argsort(kind="stable")])
 
 
 def first_of_each_t(rows: Rows) -> Rows:
@@ -298,7 +298,7 @@ class CpData:
 
     def __post_init__(self):
         t = np.asarray(self.t, dtype=float)
-        order = np.argsort(t, kind="stable")
+        order = t.argsort(kind="stable")
         object.__setattr__(self, "t", t[order])
         for name in ("cp", "u_cp", "dh", "s", "u_dh", "u_s"):
             v = getattr(self, name)

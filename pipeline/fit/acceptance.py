@@ -39,7 +39,7 @@ def judge(t, cp, fitted, u, free: int, settings) -> tuple:
     [J/(mol K)], stated u(Cp) [J/(mol K)] or None, with ``free`` free coefficients."""
     rel = (fitted - cp) / cp
     if u is None:
-        worst = int(np.argmax(np.abs(rel)))
+        worst = int(np.abs(rel).argmax())
         record = {"rule": "threshold", "max_rel_dev": float(abs(rel[worst])),
                   "bound": settings.accept_cp_max_rel}
         if abs(rel[worst]) > settings.accept_cp_max_rel:
@@ -52,7 +52,7 @@ def judge(t, cp, fitted, u, free: int, settings) -> tuple:
     chi2 = float(z @ z)
     p_value = float(chdtrc(dof, chi2))      # the chi-squared tail, chi2.sf
     bound = point_bound(n, alpha)
-    worst = int(np.argmax(np.abs(z)))
+    worst = int(np.abs(z).argmax())
     record = {"rule": "stated-u", "chi2": chi2, "dof": dof, "p_value": p_value,
               "max_z": float(abs(z[worst])), "z_bound": bound, "alpha": alpha}
     fails = []

@@ -35,7 +35,7 @@ def integration_constants(form, cp_coeffs, edges, h298, s298, tref=REFERENCE_TEM
     """h0 [J/mol], s0 [J/(mol K)] per range: H = ``h298`` and S = ``s298`` at ``tref`` [K]
     (298.15 K, or the transition a phase is anchored at), continuous at breakpoints."""
     nr = len(cp_coeffs)
-    j0 = int(np.clip(np.searchsorted(np.asarray(edges[1:-1]), tref, side="left"), 0, nr - 1))
+    j0 = min(max(int(np.asarray(edges[1:-1]).searchsorted(tref, side="left")), 0), nr - 1)
     h0, s0 = [0.0] * nr, [0.0] * nr
     a = cp_coeffs
     h0[j0] = h298 - float(form.h_integral(a[j0], tref))
@@ -255,7 +255,7 @@ def prepare(who: SpeciesIdentity, data: CpData, settings: FitSettings) -> Prepar
     ext_u = np.array([x for e in extensions for x in e.u_rel])
     all_sig = np.concatenate([sigma, np.maximum(settings.inferred_cp_uncertainty, ext_u)
                               * ext_cp])
-    srt = np.argsort(all_t, kind="stable")
+    srt = all_t.argsort(kind="stable")
     return Prepared(form=form, span=(lo, hi), extensions=tuple(extensions),
                     notes=tuple(ext_notes), rows=(all_t[srt], all_cp[srt], all_sig[srt]),
                     weighting="u(Cp)" if u is not None else "relative")
@@ -355,7 +355,7 @@ def _judge(who: SpeciesIdentity, solved: Solved, data: CpData,
     ev = forms.evaluate_ranges(ranges, t, form) if columns else \
         {"Cp": forms.cp_of_ranges(ranges, t, form)}
     rel = (ev["Cp"] - cp) / cp
-    worst = int(np.argmax(np.abs(rel)))
+    worst = int(np.abs(rel).argmax())
     h_dev = s_dev = None
     if dh is not None and np.isfinite(dh).any():
         m = np.isfinite(dh)

@@ -91,7 +91,7 @@ def _between(a: float, b: float, gamma: float) -> float:
 
 def _cumulative(t, f):
     """∫ f dT from 298.15 K to each t (trapezoids; t sorted)."""
-    steps = np.concatenate([[0.0], np.cumsum(np.diff(t) * (f[1:] + f[:-1]) / 2.0)])
+    steps = np.concatenate([[0.0], (np.diff(t) * (f[1:] + f[:-1]) / 2.0).cumsum()])
     return steps - np.interp(REFERENCE_TEMPERATURE, t, steps)
 
 

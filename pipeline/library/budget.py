@@ -126,7 +126,7 @@ def own_spread(entry: dict, t, extrap: dict | None = None) -> dict:
     h, s = [], []
     if fit is not None:
         dh, ds, w = fit
-        keep = np.flatnonzero(w > 0)
+        keep = (w > 0).nonzero()[0]
         h.append(dh[:, keep].T)
         s.append(ds[:, keep].T)
     for share in (model, extrap):
@@ -151,7 +151,7 @@ def _own_parts(entry: dict, t, extrap) -> tuple:
     fit = None
     if cov.size:
         w, v = np.linalg.eigh((cov + cov.T) / 2)
-        root = v * np.sqrt(np.clip(w, 0.0, None))            # cov = root @ root.T
+        root = v * np.sqrt(w.clip(0.0, None))            # cov = root @ root.T
         key = (tuple(powers), tuple(bps), tuple(edges), tref)
         fit = (_integral_rows(t, "H", *key) @ root, _integral_rows(t, "S", *key) @ root, w)
     model = model_share(unc.get("model_error") or [], bps, t, tref)
@@ -192,7 +192,7 @@ def _quadrature(rows) -> np.ndarray:
     """The rows (shares) of ``rows`` added in quadrature, column by column: the squares
     summed share by share, in order (a cumulative sum is sequential: the same numbers as a
     loop over the shares; a sum over an axis need not be)."""
-    return np.sqrt(np.cumsum(rows ** 2, axis=0)[-1])
+    return np.sqrt((rows ** 2).cumsum(axis=0)[-1])
 
 
 def combine(parts) -> dict:

@@ -134,8 +134,8 @@ def get(name: str) -> Form:
 def range_of(t, breakpoints):
     """Range index of each temperature [K] (a point at a breakpoint belongs to the lower
     range; temperatures outside all ranges get the nearest end range)."""
-    return np.searchsorted(np.asarray(breakpoints, dtype=float), np.asarray(t, dtype=float),
-                           side="left")
+    return np.asarray(breakpoints, dtype=float).searchsorted(np.asarray(t, dtype=float),
+                                                             side="left")
 
 
 def as_ranges(ranges) -> list:

@@ -169,7 +169,8 @@ def _entropy_shortfall(t, cp, meta):
     grid = np.append(t[below], REFERENCE_TEMPERATURE)
     cp_grid = np.interp(grid, t, cp)
     # ∫ Cp d ln T from each row up to 298.15 K (trapezoids in ln T)
-    steps = np.diff(np.log(grid)) * (cp_grid[1:] + cp_grid[:-1]) / 2
+    lg = np.log(grid)
+    steps = (lg[1:] - lg[:-1]) * (cp_grid[1:] + cp_grid[:-1]) / 2
     s = meta.entropy_298 - steps[::-1].cumsum()[::-1]
     theta_mean, _ = rotors.rotational_temperature(meta.formula, _elements(meta))
     tb = t[below]
@@ -200,7 +201,7 @@ def _noise(u, cp) -> float:
     """The scale of the data's scatter [J/(mol K)]: the stated u(Cp), else 0.1 % of Cp
     (the usual precision of tabulated heat capacities, common practice)."""
     u = u[np.isfinite(u)]
-    return float(np.sqrt(np.mean(u ** 2))) if len(u) else float(1e-3 * np.sqrt(np.mean(cp ** 2)))
+    return float(np.sqrt((u ** 2).mean())) if len(u) else float(1e-3 * np.sqrt((cp ** 2).mean()))
 
 
 #: the weight of the row that holds the sum of the vibrations' weights
@@ -222,4 +223,4 @@ def _misfit(t, y, modes) -> float:
     a, big = _misfit_design(t)
     rhs = np.append(y, SUM_WEIGHT * modes)
     w, _ = nnls(big, rhs, maxiter=50 * big.shape[1])
-    return float(np.sqrt(np.mean((a @ w[:-1] - y) ** 2)))
+    return float(np.sqrt(((a @ w[:-1] - y) ** 2).mean()))

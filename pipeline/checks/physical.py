@@ -213,7 +213,8 @@ def check_unit_blocks(table, ctx):
     if len(d["T"]) < 4:
         return []
     cp, lines = d["Cp"], d["line"]
-    d = np.diff(np.log(cp))
+    lc = np.log(cp)
+    d = lc[1:] - lc[:-1]
     cands = [(n, f, fix) for n, f, fix in factor_candidates(table.meta.molar_mass) if f > 1]
     tol = settings.factor_tolerance + 2.0 * median(np.abs(d))
     level = np.zeros(len(cp))

@@ -53,7 +53,7 @@ def check_duplicate_temperatures(table: Table, ctx: Settings):
     order = t.argsort(kind="stable")
     ts, lines = t[order], data["line"][order]
     # the same temperature to 1e-9 K after conversion counts as repeated
-    same = np.abs(np.diff(ts)) <= 1e-9 * np.maximum(1.0, np.abs(ts[1:]))
+    same = np.abs(ts[1:] - ts[:-1]) <= 1e-9 * np.maximum(1.0, np.abs(ts[1:]))
     for i in np.nonzero(same)[0]:
         out.append(finding("T-DUPLICATE", f"T = {ts[i + 1]:.6g} K repeats line {int(lines[i])}",
                            **table.meta.where,

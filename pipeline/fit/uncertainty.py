@@ -91,7 +91,7 @@ def _between(a: float, b: float, gamma: float) -> float:
 
 def _cumulative(t, f):
     """∫ f dT from 298.15 K to each t (trapezoids; t sorted)."""
-    steps = np.concatenate([[0.0], (np.diff(t) * (f[1:] + f[:-1]) / 2.0).cumsum()])
+    steps = np.concatenate([[0.0], ((t[1:] - t[:-1]) * (f[1:] + f[:-1]) / 2.0).cumsum()])
     return steps - np.interp(REFERENCE_TEMPERATURE, t, steps)
 
 
@@ -138,7 +138,7 @@ def model_error(t, cp, sigma, fitted, u_param, edges) -> tuple:
     edges : the range limits [K]
     """
     t, cp, sigma = (np.asarray(a, dtype=float) for a in (t, cp, sigma))
-    keep = np.concatenate([[True], np.diff(t) > 0])
+    keep = np.concatenate([[True], t[1:] - t[:-1] > 0])
     x = np.log(t[keep])
     if len(x) < 2 * ROWS_PER_KNOT:
         return tuple({"cp": 0.0, "h": 0.0, "s": 0.0} for _ in range(len(edges) - 1))
@@ -149,8 +149,8 @@ def model_error(t, cp, sigma, fitted, u_param, edges) -> tuple:
     out = []
     for j in range(len(edges) - 1):
         inside = (tk >= edges[j]) & (tk <= edges[j + 1])
-        share = float(np.mean(noise[inside] ** 2)) if inside.any() else 0.0
-        q_cp, q_h, q_s = _half_quantiles(np.stack((d[inside], e_h[inside], e_s[inside])))
+        share = float((noise[inside] ** 2).mean()) if inside.any() else 0.0
+        q_cp, q_h, q_s = _half_quantiles(np.array((d[inside], e_h[inside], e_s[inside])))
         u_cp = np.sqrt(max(0.0, q_cp ** 2 - share))
         out.append({"cp": float(u_cp), "h": q_h, "s": q_s})
     return tuple(out)

@@ -233,7 +233,8 @@ def parse_table(text: str, *, file: str, molar_mass: float | None = None,
     if not lines_read and len(row_problems) > 1:
         row_problems = [_root_cause(row_problems, len(rows) - 1, len(header), delimiter, file)]
     findings += row_problems
-    frame = {c: np.full(len(lines_read), np.nan) for c in DATA_COLUMNS if c != "line"}
+    blank = np.full(len(lines_read), np.nan)
+    frame = {c: blank.copy() for c in DATA_COLUMNS if c != "line"}
     frame["line"] = np.asarray(lines_read, dtype="int64")
     keep = np.ones(len(lines_read), dtype=bool)
     for k, (col, basis) in enumerate(usable):

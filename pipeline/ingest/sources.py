@@ -424,18 +424,20 @@ def _source(path: Path, file: str, folder: str, cut) -> tuple:
     is not settled (core.paths.settled). The text is not kept: at 100 000 species it was
     17 MB in every process that computes partitions."""
     st = path.stat()
-    known = _DIGESTS.get((str(path), *paths.identity(st))) if paths.settled(st) else None
+    on_disk = (str(path), *paths.identity(st)) if paths.settled(st) else None
+    known = _DIGESTS.get(on_disk) if on_disk else None
     if known is not None:
         parsed = _PARSED.get((known[0], file, folder, cut), _UNSEEN)
         if parsed is not _UNSEEN:
             return (*known, parsed)
     digest, size, text = _read_source_text(str(path))
-    if paths.settled(st):
-        _DIGESTS.put((str(path), *paths.identity(st)), (digest, size))
-    parsed = _PARSED.get((digest, file, folder, cut), _UNSEEN)
+    if on_disk:
+        _DIGESTS.put(on_disk, (digest, size))
+    key = (digest, file, folder, cut)
+    parsed = _PARSED.get(key, _UNSEEN)
     if parsed is _UNSEEN:
         parsed = None if text is None else _parsed_source(text, file, folder, digest, cut)
-        _PARSED.put((digest, file, folder, cut), parsed)
+        _PARSED.put(key, parsed)
     return digest, size, parsed
 
 

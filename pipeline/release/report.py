@@ -20,7 +20,7 @@ from ..core.processes import give_back_memory, worker_pool
 from ..core.records import PublishedSet
 from ..core.spill import SpilledObjects
 from ..library.entries import by_id as entries_by_id
-from ..library.entries import held_of, ids_of, key_of
+from ..library.entries import held_of, ids_of, key_of, of_held
 from ..physics import forms
 from . import plots
 from .document import NOTICE
@@ -623,8 +623,6 @@ def _species_files(held, points, accept, transitions, formed, name, staging=None
     as ``held`` (library.entries.held_of) with their ``points`` pickled (b"" for none);
     with ``staging`` (publish.Staging), written into it and given as its sha256 and size
     instead) and ``_tally`` of the species."""
-    from ..library.entries import of_held
-
     species = [of_held(h) for h in held]
     files = _drawn(species, {sp["id"]: pickle.loads(p) for sp, p in zip(species, points) if p},
                    accept, transitions, formed, name)

@@ -200,3 +200,42 @@ def test_an_entry_s_own_uncertainties_are_those_of_its_named_shares_to_the_last_
         for key in ("u_H", "u_S"):
             np.testing.assert_array_equal(got[key], named[key])
         np.testing.assert_array_equal(got["u_Cp"], budget.cp_share(sp, t))
+
+
+def test_entries_evaluated_together_get_the_uncertainties_each_gets_alone():
+    """own_spreads of many entries (the evaluated tables of a partition: entries of one grid
+    and breakpoints summed together) gives each entry the numbers own_spread gives it alone
+    and those of its named shares (spread, cp_share), to the last bit: for every entry of
+    the demo library with two variants of the same breakpoints (another covariance, with a
+    component below zero, and other model errors), the three at the same temperatures."""
+    import copy
+    from pathlib import Path
+
+    from thermoledger.library import document
+
+    doc = document.load(Path(__file__).resolve().parent.parent / "curated")
+    rng = np.random.default_rng(7)
+    items = []
+    for sp in doc["species"]:
+        lo, hi = sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"]
+        t = np.geomspace(lo, hi, 23)
+        items.append((sp, t, None))
+        for scale in (2.5, 0.3):
+            other = copy.deepcopy(sp)
+            unc = other["uncertainty"]
+            cov = np.asarray(unc["covariance"])
+            turn = np.linalg.qr(rng.standard_normal(cov.shape))[0]
+            w = np.linalg.eigvalsh(cov) * scale
+            w[0] = -abs(w[-1]) * 1e-3                      # a component below zero
+            unc["covariance"] = (turn @ np.diag(w) @ turn.T).tolist()
+            unc["model_error"] = [{k: v * (1.0 + scale) for k, v in m.items()}
+                                  for m in unc["model_error"]]
+            items.append((other, t, None))
+    together = budget.own_spreads(items)
+    assert sum(not sp["extrapolated"] for sp, _, _ in items) > 10
+    for (sp, t, _), got in zip(items, together):
+        alone = budget.own_spread(sp, t)
+        named = {**budget.spread(budget.own_shares(sp, t), t), "u_Cp": budget.cp_share(sp, t)}
+        for key in ("u_Cp", "u_H", "u_S"):
+            assert got[key].tobytes() == alone[key].tobytes() == named[key].tobytes(), \
+                (sp["id"], key)

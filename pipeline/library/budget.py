@@ -104,7 +104,7 @@ def own_shares(entry: dict, t, extrap: dict | None = None) -> dict:
     fit, model, extrap = _own_parts(entry, t, extrap)
     out = {}
     if fit is not None:
-        dh, ds, w = fit
+        dh, ds, w, _ = fit
         for k in np.flatnonzero(w > 0):
             out[("fit", sid, int(k))] = (dh[:, k], ds[:, k])
     zero = np.zeros_like(t)
@@ -120,12 +120,44 @@ def own_spread(entry: dict, t, extrap: dict | None = None) -> dict:
     and u_S of ``spread(own_shares(...))``, the same numbers (the squares of the same shares
     summed in the same order), made without naming each share (an evaluated table of every
     species takes them)."""
-    t = np.atleast_1d(np.asarray(t, dtype=float))
-    fit, model, extrap = _own_parts(entry, t, extrap)
+    return own_spreads([(entry, t, extrap)])[0]
+
+
+def own_spreads(items) -> list:
+    """``own_spread(entry, t, extrap)`` of each (entry, t, extrap) of ``items``, the same
+    numbers to the last bit: the covariances of the entries taken apart in one stacked call
+    per size, and their components at the temperatures in one stacked product per grid and
+    breakpoints (numpy's stacked eigh and matrix product act on each matrix alone); the
+    entries of one grid and breakpoints with a model error and no extrapolation (a
+    partition's evaluated tables, mostly) then summed together (``_spreads_alike``)."""
+    ts = [np.atleast_1d(np.asarray(t, dtype=float)) for _, t, _ in items]
+    entries = [entry for entry, _, _ in items]
+    fits = _fits(entries, ts)
+    out, alike = [None] * len(items), {}
+    for i, ((entry, _, extrap), t, fit) in enumerate(zip(items, ts, fits)):
+        extrap = extrapolation_share(entry, t) if extrap is None else extrap
+        model = (entry.get("uncertainty") or {}).get("model_error")
+        if fit is not None and not extrap and model:
+            alike.setdefault((t.tobytes(), _fit_key(entry), fit[0].shape, len(model)),
+                             []).append(i)
+        else:
+            out[i] = _spread(entry, t, fit, extrap)
+    for (_, key, _, _), idx in alike.items():
+        for i, got in zip(idx, _spreads_alike([entries[i] for i in idx], ts[idx[0]], key,
+                                              [fits[i] for i in idx])):
+            out[i] = got
+    return out
+
+
+def _spread(entry: dict, t, fit, extrap: dict) -> dict:
+    """``own_spread`` of one entry from its ``_fits`` item and extrapolation share."""
+    unc = entry.get("uncertainty") or {}
+    model = model_share(unc.get("model_error") or [], entry.get("breakpoints", []), t,
+                        _anchor_t(entry))
     zero = np.zeros_like(t)[None]
     h, s = [], []
     if fit is not None:
-        dh, ds, w = fit
+        dh, ds, w, _ = fit
         keep = (w > 0).nonzero()[0]
         h.append(dh[:, keep].T)
         s.append(ds[:, keep].T)
@@ -133,42 +165,105 @@ def own_spread(entry: dict, t, extrap: dict | None = None) -> dict:
         if share:
             h += [share["u_H"][None], zero]
             s += [zero, share["u_S"][None]]
-    out = {"u_H": _quadrature(np.concatenate(h)) if h else zero[0],
-           "u_S": _quadrature(np.concatenate(s)) if s else zero[0]}
-    out["u_Cp"] = cp_share(entry, t, extrap or {}, model)
+    return {"u_H": _quadrature(np.concatenate(h)) if h else zero[0],
+            "u_S": _quadrature(np.concatenate(s)) if s else zero[0],
+            "u_Cp": cp_share(entry, t, extrap or {}, model, fit)}
+
+
+def _spreads_alike(entries, t, key, fits) -> list:
+    """``_spread`` of entries at the same temperatures ``t`` [K] with the same ``_fit_key``
+    ``key``, each with a covariance (``fits``) and a model error and no extrapolation share:
+    the same sums in the same order, every entry at once. The squares of the components
+    left out (eigenvalue ≤ 0) are zeros in the running sum, which leave it as it is."""
+    _, bps, _, tref = key
+    j = forms.range_of(t, bps)
+    errors = np.array([[[m[k] for k in ("cp", "h", "s")] for m in e["uncertainty"]
+                        ["model_error"]] for e in entries])[:, j]              # (B, n, 3)
+    cp, h, s = errors[:, :, 0], errors[:, :, 1], errors[:, :, 2]
+    model_h = np.minimum(h, cp * np.abs(t - tref))                          # model_share's
+    model_s = np.minimum(s, cp * np.abs(np.log(t / tref)))
+    kept = np.stack([f[2] for f in fits])[:, None, :] > 0
+    u_h = np.where(kept, np.stack([f[0] for f in fits]) ** 2, 0.0).cumsum(axis=2)[:, :, -1]
+    u_s = np.where(kept, np.stack([f[1] for f in fits]) ** 2, 0.0).cumsum(axis=2)[:, :, -1]
+    u_h = np.sqrt(u_h + model_h ** 2)            # then the model's row (and a zero one)
+    u_s = np.sqrt(u_s + model_s ** 2)            # a zero row, then the model's
+    u_cp = np.hypot(np.stack([f[3] for f in fits]), cp)
+    return [{"u_H": u_h[k], "u_S": u_s[k], "u_Cp": u_cp[k]} for k in range(len(entries))]
+
+
+def _anchor_t(entry: dict) -> float:
+    """The temperature [K] H and S of ``entry`` are exact at (its anchor's)."""
+    return (entry.get("anchor") or {}).get("temperature", REFERENCE_TEMPERATURE)
+
+
+def _fit_key(entry: dict) -> tuple:
+    """(powers, breakpoints, edges, anchor temperature) of an entry's ``_integral_rows``."""
+    unc = entry.get("uncertainty") or {}
+    bps = entry.get("breakpoints", [])
+    edges = [entry["ranges"][0]["t_min"]] + list(bps) + [entry["ranges"][-1]["t_max"]]
+    return tuple(unc.get("powers") or []), tuple(bps), tuple(edges), _anchor_t(entry)
+
+
+def _fits(entries, ts) -> list:
+    """(dH, dS, eigenvalues, u(Cp)) of the covariance of each of ``entries`` at its
+    temperatures ``ts[i]``: its components' shares of H and S, and the standard deviation of
+    Cp it gives (``cp_share``'s first term); or None without a covariance."""
+    covs = [np.asarray((e.get("uncertainty") or {}).get("covariance") or [], dtype=float)
+            for e in entries]
+    by_shape = {}
+    for i, cov in enumerate(covs):
+        if cov.size:
+            by_shape.setdefault(cov.shape, []).append(i)
+    roots, ws = {}, {}
+    for idx in by_shape.values():
+        stack = np.stack([covs[i] for i in idx])
+        w, v = np.linalg.eigh((stack + np.swapaxes(stack, 1, 2)) / 2)
+        root = v * np.sqrt(w.clip(0.0, None))[:, None, :]          # cov = root @ root.T
+        for k, i in enumerate(idx):
+            roots[i], ws[i] = root[k], w[k]
+    by_rows = {}
+    for i in roots:
+        by_rows.setdefault((ts[i].tobytes(), _fit_key(entries[i]), covs[i].shape),
+                           []).append(i)
+    out = [None] * len(entries)
+    for (_, key, _), idx in by_rows.items():
+        t = ts[idx[0]]
+        stack = np.stack([roots[i] for i in idx])
+        dh, ds = (_integral_rows(t, kind, *key) @ stack for kind in ("H", "S"))
+        rows = _cp_rows(t, *key[:2])
+        # basis.standard_deviation of each covariance (the same sums, stacked)
+        u_cp = R * np.sqrt(np.maximum(np.einsum("ni,bij,nj->bn", rows,
+                                                np.stack([covs[i] for i in idx]), rows), 0.0))
+        for k, i in enumerate(idx):
+            out[i] = (dh[k], ds[k], ws[i], u_cp[k])
     return out
 
 
 def _own_parts(entry: dict, t, extrap) -> tuple:
-    """((dH, dS, eigenvalues) of the covariance's components at ``t`` or None, the model
-    share, the extrapolation share) of one entry (``own_shares``)."""
+    """(``_fits`` of the entry at ``t``, the model share, the extrapolation share) of one
+    entry (``own_shares``)."""
     unc = entry.get("uncertainty") or {}
-    cov = np.asarray(unc.get("covariance") or [], dtype=float)
-    powers = unc.get("powers") or []
-    bps = entry.get("breakpoints", [])
-    edges = [entry["ranges"][0]["t_min"]] + list(bps) + [entry["ranges"][-1]["t_max"]]
-    tref = (entry.get("anchor") or {}).get("temperature", REFERENCE_TEMPERATURE)
-    fit = None
-    if cov.size:
-        w, v = np.linalg.eigh((cov + cov.T) / 2)
-        root = v * np.sqrt(w.clip(0.0, None))            # cov = root @ root.T
-        key = (tuple(powers), tuple(bps), tuple(edges), tref)
-        fit = (_integral_rows(t, "H", *key) @ root, _integral_rows(t, "S", *key) @ root, w)
-    model = model_share(unc.get("model_error") or [], bps, t, tref)
+    fit = _fits([entry], [t])[0]
+    model = model_share(unc.get("model_error") or [], entry.get("breakpoints", []), t,
+                        _anchor_t(entry))
     return fit, model, extrapolation_share(entry, t) if extrap is None else extrap
 
 
-def cp_share(entry: dict, t, extrap: dict | None = None, model: dict | None = None) -> np.ndarray:
+#: ``cp_share``'s default ``fit``: made there
+_MADE_HERE = object()
+
+
+def cp_share(entry: dict, t, extrap: dict | None = None, model: dict | None = None,
+             fit=_MADE_HERE) -> np.ndarray:
     """u(Cp) [J/(mol K)] of one entry at ``t`` [K]: covariance, misfit and extrapolation
-    (``extrap``: its ``extrapolation_share`` at ``t``, ``model`` its ``model_share``, when
-    made already)."""
+    (``extrap``: its ``extrapolation_share`` at ``t``, ``model`` its ``model_share``, ``fit``
+    its ``_fits`` item, when made already)."""
     t = np.atleast_1d(np.asarray(t, dtype=float))
     unc = entry.get("uncertainty") or {}
-    cov = np.asarray(unc.get("covariance") or [], dtype=float)
-    bps = entry.get("breakpoints", [])
-    u = R * basis.standard_deviation(_cp_rows(t, tuple(unc.get("powers") or []), tuple(bps)),
-                                     cov) if cov.size else np.zeros_like(t)
-    for share in (model_share(unc.get("model_error") or [], bps, t) if model is None else model,
+    fit = _fits([entry], [t])[0] if fit is _MADE_HERE else fit
+    u = fit[3] if fit is not None else np.zeros_like(t)
+    for share in (model_share(unc.get("model_error") or [], entry.get("breakpoints", []), t)
+                  if model is None else model,
                   extrapolation_share(entry, t, integrals=False) if extrap is None
                   else extrap):
         if share:

@@ -181,8 +181,9 @@ def evaluate_entries(items) -> list:
         check_range(species, t)
     out = forms.evaluate_forms([(species["form"], ranges_of(species), t)
                                 for (species, _), t in zip(items, ts)])
-    for (species, _), t, ev in zip(items, ts, out):
-        ev.update(uncertainty(species, t))
+    uncs = uncertainties([species for species, _ in items], ts)
+    for (species, _), t, ev, u in zip(items, ts, out, uncs):
+        ev.update(u)
         data = species["data_range"]
         ev["extrapolated"] = (t < data["t_min"]) | (t > data["t_max"])
     return out
@@ -196,13 +197,22 @@ def uncertainty(species: dict, t) -> dict:
     whose integral from 298.15 K enters H and S, and for a phase reached through transitions
     the stated u(ΔH_trs) of each transition on the way (u/T_trs for S); the shares are added
     in quadrature (library/budget.py names them)."""
-    t = np.atleast_1d(np.asarray(t, dtype=float))
-    extrap = budget.extrapolation_share(species, t)
-    out = budget.own_spread(species, t, extrap)
-    anchor = species.get("anchor") or {}
-    return {"u_Cp": out["u_Cp"],
-            "u_H": np.hypot(out["u_H"], anchor.get("u_enthalpy", 0.0)),
-            "u_S": np.hypot(out["u_S"], anchor.get("u_entropy", 0.0))}
+    return uncertainties([species], [t])[0]
+
+
+def uncertainties(species, ts) -> list:
+    """``uncertainty(species[i], ts[i])`` of each entry, their fits' shares made together
+    (budget.own_spreads: the same numbers)."""
+    ts = [np.atleast_1d(np.asarray(t, dtype=float)) for t in ts]
+    spreads = budget.own_spreads([(sp, t, budget.extrapolation_share(sp, t))
+                                  for sp, t in zip(species, ts)])
+    out = []
+    for sp, got in zip(species, spreads):
+        anchor = sp.get("anchor") or {}
+        out.append({"u_Cp": got["u_Cp"],
+                    "u_H": np.hypot(got["u_H"], anchor.get("u_enthalpy", 0.0)),
+                    "u_S": np.hypot(got["u_S"], anchor.get("u_entropy", 0.0))})
+    return out
 
 
 def anchor_temperature(species: dict) -> float:

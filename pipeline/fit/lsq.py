@@ -250,8 +250,8 @@ def batch_objectives(v, y, sigma, starts, c, norm="max", made: Prefixed | None =
     for j in range(nr):
         lo, hi = starts[:, :, j], starts[:, :, j + 1]
         sl = slice(j * m, (j + 1) * m)
-        kkt[:, :, sl, sl] = pg[table, hi] - pg[table, lo]
-        rhs[:, :, sl] = pq[table, hi] - pq[table, lo]
+        np.subtract(pg[table, hi], pg[table, lo], out=kkt[:, :, sl, sl])
+        np.subtract(pq[table, hi], pq[table, lo], out=rhs[:, :, sl])
     # each table's constraint rows of all its candidates in one product with its scale
     cs = np.concatenate([(c[:, :, :, j * m:(j + 1) * m].reshape(ss, kk * r, m) @ scale)
                          .reshape(ss, kk, r, m) for j in range(nr)], axis=3)
@@ -262,7 +262,7 @@ def batch_objectives(v, y, sigma, starts, c, norm="max", made: Prefixed | None =
     vt = np.swapaxes(vw, 1, 2)                                     # (S, m, n)
     fitted = sol[:, :, 0, :] @ vt                                  # each point: its range's
     for j in range(1, nr):
-        fitted = np.where(pos >= starts[:, :, j:j + 1], sol[:, :, j, :] @ vt, fitted)
+        np.copyto(fitted, sol[:, :, j, :] @ vt, where=pos >= starts[:, :, j:j + 1])
     res = np.subtract(fitted, b[:, None, :], out=fitted)
     if norm == "rms":
         return np.sqrt(np.mean(res ** 2, axis=2))

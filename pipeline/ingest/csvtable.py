@@ -467,7 +467,15 @@ def _summarise(findings):
     return out
 
 
-def _conversion_notes(name, unit, kind, basis, molar_mass):
+def _conversion_notes(name, unit, kind, basis, molar_mass) -> list:
+    """The notes of a column read as ``name`` [``unit``] (of ``kind``, per ``basis``): what it
+    was converted from, a bare calorie, a per-mass column multiplied by ``molar_mass``;
+    made once per column, unit and molar mass (a catalogue's tables share them)."""
+    return list(_notes_of(name, unit, kind, basis, molar_mass))
+
+
+@lru_cache(maxsize=1024)
+def _notes_of(name, unit, kind, basis, molar_mass) -> tuple:
     out = []
     si = units.KINDS[kind][2]
     if units.to_si([0.0, 1.0], unit, kind, molar_mass or 1.0).tolist() != [0.0, 1.0] or \
@@ -477,4 +485,4 @@ def _conversion_notes(name, unit, kind, basis, molar_mass):
         out.append(f"{name}: 'cal' read as the thermochemical calorie (4.184 J)")
     if basis == "mass":
         out.append(f"{name}: per-mass values multiplied by the molar mass {molar_mass:.6g} g/mol")
-    return out
+    return tuple(out)

@@ -14,6 +14,7 @@ A ``phase`` column (no unit) gives the phase of each row of a table that holds s
 
 import re
 from dataclasses import dataclass
+from functools import lru_cache
 
 from ..core import units
 from ..core.findings import Finding, clip, finding
@@ -64,9 +65,23 @@ class Column:
                 "from": self.origin}
 
 
+#: header cells up to this long are remembered by ``split_cell`` (a catalogue's tables share
+#: a few headers; a long cell, a malformed file's, is split anew each time)
+REMEMBERED_CELL = 200
+
+
 def split_cell(cell: str) -> tuple[str | None, str | None]:
     """(quantity, unit text or None) of a header cell; (None, None) when it names no
     known quantity; the unit is '' when the cell has a quantity but a malformed unit."""
+    return _split_remembered(cell) if len(cell) <= REMEMBERED_CELL else _split(cell)
+
+
+@lru_cache(maxsize=1024)
+def _split_remembered(cell: str) -> tuple[str | None, str | None]:
+    return _split(cell)
+
+
+def _split(cell: str) -> tuple[str | None, str | None]:
     text = cell.strip().replace("−", "-")
     for name, pattern in _NAME_PATTERNS:
         m = pattern.match(text)

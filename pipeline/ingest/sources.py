@@ -5,12 +5,14 @@ units, with provenance), every input file with its hash, and a finding for
 each problem. Nothing under raw/ is ever written; paths are confined to it.
 """
 
+import errno
 import hashlib
 import os
 from collections import OrderedDict
 from dataclasses import dataclass
 from functools import lru_cache
 from pathlib import Path
+from stat import S_ISDIR, S_ISLNK, S_ISREG
 from threading import Lock
 from typing import NamedTuple
 
@@ -170,29 +172,45 @@ def _expected(error) -> str:
 def _open_listed(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, listed: str):
     """(raw bytes or None, InputFile or None, findings) of a file listed in source.json at
     ``listed`` (e.g. 'tables/3'): confined to raw/, present, a plain file, within the size
-    limit."""
+    limit. One os.lstat tells what pathlib's is_symlink, exists, is_file and stat would (the
+    name is a plain file name, by the schema: never a link's target is followed)."""
     rel = f"{source.folder}/{entry['file']}"
     where = dict(source=source.id, file=rel)
-    path = folder / entry["file"]
-    if path.is_symlink() or not _inside(path, raw_dir):
+    folder_text, name = os.fspath(folder), entry["file"]
+    path = os.path.join(folder_text, name)
+    try:
+        st = os.lstat(path)
+    except OSError as exc:
+        if exc.errno not in _ABSENT:
+            raise
+        st = None
+    except ValueError:                      # a NUL in the name: nothing there, for pathlib
+        st = None
+    if (st is not None and S_ISLNK(st.st_mode)) or not _inside_folder(folder_text, name,
+                                                                      raw_dir):
         return None, None, [finding("SRC-PATH", "table is a link or lies outside raw/; not "
                                     "read", **where)]
     listed_at = dict(source=source.id, file=f"{source.folder}/source.json",
                      column=f"{listed}/file", seen=entry["file"], extra={"table": rel})
-    if not path.exists():
+    if st is None:
         return None, None, [finding("TAB-MISSING", f"listed table {entry['file']} does not "
                                     "exist", **listed_at)]
-    if not path.is_file():
-        kind = "a folder" if path.is_dir() else "not a regular file (a pipe or device?)"
+    if not S_ISREG(st.st_mode):
+        kind = "a folder" if S_ISDIR(st.st_mode) else "not a regular file (a pipe or device?)"
         return None, None, [finding("TAB-NOT-FILE", f"listed table {entry['file']} is {kind}",
                                     expected="a plain CSV file", **listed_at)]
-    size = path.stat().st_size
+    size = st.st_size
     if size > MAX_TABLE_BYTES:
         return None, None, [finding("TAB-TOO-LARGE", f"the file is {size} bytes; the limit is "
                                     f"{MAX_TABLE_BYTES}", seen=str(size),
                                     expected=f"<= {MAX_TABLE_BYTES} bytes", **where)]
-    raw = path.read_bytes()
+    with open(path, "rb") as fh:
+        raw = fh.read()
     return raw, InputFile(path=rel, sha256=sha256(raw), size=len(raw)), []
+
+
+#: the errors of os.lstat that mean nothing is there (those pathlib's exists ignores)
+_ABSENT = (errno.ENOENT, errno.ENOTDIR, errno.EBADF, errno.ELOOP)
 
 
 def read_sets(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, index: int = 0):
@@ -303,9 +321,18 @@ def _inside(path: Path, root: Path) -> bool:
     tables in a few folders."""
     name = path.name
     if name in ("", ".", "..") or os.path.islink(path):
-        real = os.path.realpath(path)
-    else:
-        real = os.path.join(_real_dir(str(path.parent)), name)
+        return _within(os.path.realpath(path), root)
+    return _inside_folder(str(path.parent), name, root)
+
+
+def _inside_folder(folder: str, name: str, root: Path) -> bool:
+    """``_inside`` of the file ``name`` in ``folder``, which is no link."""
+    if name in ("", ".", ".."):
+        return _inside(Path(folder) / name, root)
+    return _within(os.path.join(_real_dir(folder), name), root)
+
+
+def _within(real: str, root: Path) -> bool:
     top = _real_dir(str(root))
     return real == top or real.startswith(top.rstrip(os.sep) + os.sep)
 

@@ -56,7 +56,7 @@ def _side_fits(x, y, w):
     ys = y[_windows(len(y), w)]
     c = np.einsum("kiw,kw->ki", solution, ys)
     resid = np.einsum("kwi,ki->kw", a, c) - ys
-    return c, np.sqrt((resid ** 2).mean(axis=1))
+    return c, np.sqrt((resid ** 2).sum(axis=1) / w)
 
 
 def steps(t, cp, w=WINDOW):

@@ -201,7 +201,8 @@ def _noise(u, cp) -> float:
     """The scale of the data's scatter [J/(mol K)]: the stated u(Cp), else 0.1 % of Cp
     (the usual precision of tabulated heat capacities, common practice)."""
     u = u[np.isfinite(u)]
-    return float(np.sqrt((u ** 2).mean())) if len(u) else float(1e-3 * np.sqrt((cp ** 2).mean()))
+    return float(np.sqrt((u ** 2).sum() / len(u))) if len(u) else \
+        float(1e-3 * np.sqrt((cp ** 2).sum() / len(cp)))
 
 
 #: the weight of the row that holds the sum of the vibrations' weights
@@ -223,4 +224,4 @@ def _misfit(t, y, modes) -> float:
     a, big = _misfit_design(t)
     rhs = np.append(y, SUM_WEIGHT * modes)
     w, _ = nnls(big, rhs, maxiter=50 * big.shape[1])
-    return float(np.sqrt(((a @ w[:-1] - y) ** 2).mean()))
+    return float(np.sqrt(((a @ w[:-1] - y) ** 2).sum() / len(y)))

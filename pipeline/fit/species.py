@@ -382,7 +382,7 @@ def _judge(who: SpeciesIdentity, solved: Solved, data: CpData,
     result = FitResult(form=form.name, ranges=ranges, breakpoints=solved.breakpoints,
                        data_t_min=float(t[0]), data_t_max=float(t[-1]), points=len(t),
                        cp_max_rel_dev=float(np.abs(rel).max()),
-                       cp_rms_rel_dev=float(np.sqrt((rel ** 2).mean())),
+                       cp_rms_rel_dev=float(np.sqrt((rel ** 2).sum() / len(rel))),
                        worst_t=float(t[worst]), weighting=solved.weighting, h_max_dev=h_dev,
                        s_max_dev=s_dev, covariance=tuple(map(tuple, np.asarray(
                            solved.covariance, dtype=float).tolist())),

@@ -149,7 +149,8 @@ def model_error(t, cp, sigma, fitted, u_param, edges) -> tuple:
     out = []
     for j in range(len(edges) - 1):
         inside = (tk >= edges[j]) & (tk <= edges[j + 1])
-        share = float((noise[inside] ** 2).mean()) if inside.any() else 0.0
+        near = noise[inside]
+        share = float((near ** 2).sum() / len(near)) if len(near) else 0.0
         q_cp, q_h, q_s = _half_quantiles(np.array((d[inside], e_h[inside], e_s[inside])))
         u_cp = np.sqrt(max(0.0, q_cp ** 2 - share))
         out.append({"cp": float(u_cp), "h": q_h, "s": q_s})

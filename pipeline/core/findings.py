@@ -272,7 +272,7 @@ READING_PREFIXES = ("SRC-", "TAB-", "COL-", "ROW-", "CELL-", "UNIT-UNKNOWN", "UN
                     "UNIT-TOO-COMPLEX", "VALUE-RANGE", "UCP-PARTIAL")
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)
 class Finding:
     """One reported problem or decision.
 

@@ -116,7 +116,7 @@ class PublishedSet:
         return tuple(r[1] for r in self.ordered[:-1])
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)
 class TableMeta:
     """One table as listed in source.json, with what ingest learnt while reading it."""
 
@@ -313,7 +313,7 @@ class CpData:
                    s=given(rows, "S"), u_dh=given(rows, "u_dH"), u_s=given(rows, "u_S"))
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)
 class InputFile:
     """One raw input file: its path under raw/, sha256 and size."""
 

@@ -104,3 +104,34 @@ def test_the_reports_server_is_started_only_for_a_report_drawn_by_workers(monkey
     monkeypatch.setattr(report, "default_workers", lambda: 1)
     report.start_drawing(100 * report.POOL_FROM)
     assert started == [report.DRAWING]
+
+
+def test_a_fresh_worker_that_cannot_start_leaves_no_traceback(tmp_path):
+    """A process of the server that fails before its work begins, while unpickling what it
+    was sent (as when its asker lets go of its pool meanwhile: a build stopped by Ctrl-C
+    while the report's workers start), ends with exit code 1 and says nothing: the asker,
+    if still there, sees it gone."""
+    script = tmp_path / "unstartable.py"
+    script.write_text(
+        "import os\n"
+        "from thermoledger.core import fresh\n"
+        "class Gone:\n"                 # unpickled by looking up a file that is not there,
+        "    def __reduce__(self):\n"   # as a lock its asker let go of is looked up
+        f"        return os.stat, ({str(tmp_path / 'gone')!r},)\n"
+        "if __name__ == '__main__':\n"
+        f"    ctx = fresh.server({FRESH!r})\n"
+        "    p = ctx.Process(target=print, args=(Gone(),))\n"
+        "    p.start()\n"
+        "    p.join(60)\n"
+        "    print(p.exitcode, flush=True)\n")
+    got = subprocess.run([sys.executable, str(script)], capture_output=True, text=True,
+                         timeout=120, cwd=tmp_path)
+    assert (got.returncode, got.stdout) == (0, "1\n"), got.stderr
+    assert "Traceback" not in got.stderr and got.stderr == ""
+
+
+def test_an_error_of_a_fresh_worker_s_work_reaches_the_asker():
+    """What fails in the work a fresh worker was given is sent back to the asker (the
+    server's quiet start, core.fresh.quiet_start, silences only failures to start)."""
+    with worker_pool(1, fresh=FRESH) as pool:
+        assert isinstance(pool.submit(int, "not a number").exception(60), ValueError)

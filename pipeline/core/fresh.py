@@ -56,12 +56,28 @@ def server(modules):
     cost memory, not results). The server imports while this process goes on."""
     if not AVAILABLE:
         return None
-    forkserver.set_forkserver_preload(list(modules))
+    forkserver.set_forkserver_preload([f"{__package__}.fresh_server", *modules])
     try:
         forkserver.ensure_running()
     except OSError:
         return None
     return FreshContext()
+
+
+def quiet_start() -> None:
+    """Have this process, the server, and those it forks tell a failure to start by their
+    exit code alone. multiprocessing's server prints the traceback of a process it forked
+    that fails before its work begins, while unpickling what its asker sent it: that fails
+    when the asker has let go of its pool meanwhile (a build stopped by Ctrl-C while the
+    report's workers start: the pool's locks are gone, and so is the asker by the time the
+    traceback would reach its terminal). An asker still there sees the worker gone (a
+    broken pool) and says so; errors of the work itself are sent back to it as before."""
+    sys.excepthook = _silent
+
+
+def _silent(kind, value, tb) -> None:
+    if not issubclass(kind, Exception):
+        sys.__excepthook__(kind, value, tb)
 
 
 def die_with_asker() -> None:

@@ -180,3 +180,34 @@ def test_a_rebuild_keeps_pint_definitions_in_its_store_of_partitions(tmp_path):
     assert not kept.exists()
     assert build() == first and any(kept.iterdir())
     assert build() == first
+
+
+def test_the_settled_units_convert_as_pint_converts_them():
+    """Each unit of units.SETTLED, converted without pint's registry, has the basis, scale
+    and offset pint gives it, and pint reads it as a unit of its kind."""
+    for (text, kind), got in units.SETTLED.items():
+        assert got == units.pint_affine(text, kind), (text, kind)
+        assert units._dimension_of(units._parse_unit(text), kind, text) == got[0]
+        assert units.is_unit(text) and units._parse_unit(text) is not None
+
+
+def test_reading_and_checking_a_catalogue_of_settled_units_builds_no_pint_registry(tmp_path):
+    """A process that reads, checks and fits tables whose files and source.json state only
+    units of units.SETTLED (as a computed catalogue's do) never imports pint: a worker's
+    first partition is some 0.2 s shorter."""
+    import subprocess
+    import sys
+
+    from thermoledger.testing.catalogue import write_catalogue
+
+    write_catalogue(tmp_path / "raw", 20)
+    code = ("import sys\nfrom pathlib import Path\nfrom thermoledger import build, partitions\n"
+            "from thermoledger.core.settings import OutputSettings, Settings\n"
+            "ctx = Settings(outputs=OutputSettings(report=False))\n"
+            f"r = build._build_part(Path({str(tmp_path / 'raw')!r}), ctx, {{}}, build._quiet, "
+            "partitions.Part(0, 1))\n"
+            "assert len(r.entries) == 20, len(r.entries)\n"
+            "print('pint' in sys.modules)\n")
+    got = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         check=True)
+    assert got.stdout.strip() == "False"

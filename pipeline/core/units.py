@@ -130,6 +130,8 @@ def _parse_unit(text: str):
 
 def is_unit(text: str) -> bool:
     """True when pint reads ``text`` (after ``normalise``) as a unit of any dimension."""
+    if any(text == unit for unit, _ in SETTLED):
+        return True
     try:
         _parse_unit(text)
     except UnitError:
@@ -156,6 +158,8 @@ def _dimension_of(unit, kind: str, text: str) -> str:
 def check_unit(text: str, kind: str) -> str:
     """Raise UnitError unless ``text`` is a unit for ``kind``; return 'molar' or 'mass'
     (remembered: every table of a catalogue names the same few units)."""
+    if (text, kind) in SETTLED:
+        return SETTLED[text, kind][0]
     return _dimension_of(_parse_unit(text), kind, text)
 
 
@@ -225,9 +229,30 @@ def from_si(values, unit_text: str, kind: str, molar_mass: float | None = None) 
     return (arr - offset) / scale
 
 
+#: (unit as written, kind) -> (basis, scale, offset) of the units nearly every table and
+#: source.json states, as pint gives them (``pint_affine``; tests/test_units.py compares
+#: each with pint): a process that meets no other unit never builds pint's registry (some
+#: 0.2 s of a worker's first partition with pint's import)
+SETTLED = {
+    ("K", "temperature"): ("molar", 1.0, 0.0),
+    ("J/(mol*K)", "heat_capacity"): ("molar", 1.0, 0.0),
+    ("J/mol", "enthalpy"): ("molar", 1.0, 0.0),
+    ("kJ/mol", "enthalpy"): ("molar", 1000.0, 0.0),
+    ("Pa", "pressure"): ("molar", 1.0, 0.0),
+    ("bar", "pressure"): ("molar", 100000.0, 0.0),
+}
+
+
 @lru_cache(maxsize=512)
 def _affine(unit_text: str, kind: str):
-    """(basis, scale, offset) with SI = value * scale + offset, derived once from pint.
+    """(basis, scale, offset) with SI = value * scale + offset: ``SETTLED``'s, else
+    ``pint_affine``'s."""
+    settled = SETTLED.get((unit_text, kind))
+    return settled if settled is not None else pint_affine(unit_text, kind)
+
+
+def pint_affine(unit_text: str, kind: str):
+    """(basis, scale, offset) with SI = value * scale + offset, derived from pint.
 
     Every supported conversion is affine (temperatures) or linear; deriving the map from
     pint's own conversion of 0 and 1 keeps pint the single source of unit definitions.

@@ -13,7 +13,6 @@ A release home keeps the partitions of its last build (``PartStore``); a rebuild
 those whose key (``part_keys``: everything a partition's result depends on) is unchanged.
 """
 
-import errno
 import hashlib
 import json
 import os
@@ -415,7 +414,7 @@ def _file_digest(path: Path, raw: str, digests=None) -> str:
     try:
         st = os.lstat(text)            # one call tells a link, a file, its size and identity
     except OSError as exc:             # as pathlib's is_symlink and is_file
-        if exc.errno not in (errno.ENOENT, errno.ENOTDIR, errno.EBADF, errno.ELOOP):
+        if exc.errno not in paths.ABSENT:
             raise
         st = None
     if st is not None and stat.S_ISLNK(st.st_mode):

@@ -1,5 +1,6 @@
 """Writing files atomically, and knowing a file again by its identity on disk."""
 
+import errno
 import os
 import tempfile
 import time
@@ -7,6 +8,11 @@ from functools import lru_cache
 from pathlib import Path
 
 from . import limits
+
+#: the errors of os.lstat and os.stat that mean nothing is there, those for which pathlib's
+#: exists and is_symlink say False (no such file, a path through a file, a bad descriptor,
+#: a loop of links)
+ABSENT = (errno.ENOENT, errno.ENOTDIR, errno.EBADF, errno.ELOOP)
 
 
 @lru_cache(maxsize=1)

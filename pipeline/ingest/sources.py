@@ -5,7 +5,6 @@ units, with provenance), every input file with its hash, and a finding for
 each problem. Nothing under raw/ is ever written; paths are confined to it.
 """
 
-import errno
 import hashlib
 import os
 from collections import OrderedDict
@@ -181,7 +180,7 @@ def _open_listed(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, l
     try:
         st = os.lstat(path)
     except OSError as exc:
-        if exc.errno not in _ABSENT:
+        if exc.errno not in paths.ABSENT:
             raise
         st = None
     except ValueError:                      # a NUL in the name: nothing there, for pathlib
@@ -207,10 +206,6 @@ def _open_listed(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, l
     with open(path, "rb") as fh:
         raw = fh.read()
     return raw, InputFile(path=rel, sha256=sha256(raw), size=len(raw)), []
-
-
-#: the errors of os.lstat that mean nothing is there (those pathlib's exists ignores)
-_ABSENT = (errno.ENOENT, errno.ENOTDIR, errno.EBADF, errno.ELOOP)
 
 
 def read_sets(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, index: int = 0):

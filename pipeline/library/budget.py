@@ -176,12 +176,9 @@ def _spreads_alike(entries, t, key, fits) -> list:
     the same sums in the same order, every entry at once. The squares of the components
     left out (eigenvalue ≤ 0) are zeros in the running sum, which leave it as it is."""
     _, bps, _, tref = key
-    j = forms.range_of(t, bps)
-    errors = np.array([[[m[k] for k in ("cp", "h", "s")] for m in e["uncertainty"]
-                        ["model_error"]] for e in entries])[:, j]              # (B, n, 3)
-    cp, h, s = errors[:, :, 0], errors[:, :, 1], errors[:, :, 2]
-    model_h = np.minimum(h, cp * np.abs(t - tref))                          # model_share's
-    model_s = np.minimum(s, cp * np.abs(np.log(t / tref)))
+    cp, model_h, model_s = _model_bounds(
+        _model_errors([e["uncertainty"]["model_error"] for e in entries]),
+        forms.range_of(t, bps), t, tref)
     kept = np.stack([f[2] for f in fits])[:, None, :] > 0
     u_h = np.where(kept, np.stack([f[0] for f in fits]) ** 2, 0.0).cumsum(axis=2)[:, :, -1]
     u_s = np.where(kept, np.stack([f[1] for f in fits]) ** 2, 0.0).cumsum(axis=2)[:, :, -1]
@@ -380,10 +377,22 @@ def model_share(model_error, bps, t, tref=REFERENCE_TEMPERATURE) -> dict:
     from the anchor temperature ``tref`` [K] (they are exact there)."""
     if not model_error:
         return {}
-    j = forms.range_of(t, bps)
-    cp, h, s = (np.array([m[k] for m in model_error])[j] for k in ("cp", "h", "s"))
-    return {"u_Cp": cp, "u_H": np.minimum(h, cp * np.abs(t - tref)),
-            "u_S": np.minimum(s, cp * np.abs(np.log(t / tref)))}
+    cp, h, s = _model_bounds(_model_errors([model_error]), forms.range_of(t, bps), t, tref)
+    return {"u_Cp": cp[0], "u_H": h[0], "u_S": s[0]}
+
+
+def _model_errors(model_errors) -> np.ndarray:
+    """(entries, ranges, 3): the cp, h and s of each range of each entry's model error."""
+    return np.array([[[m[k] for k in ("cp", "h", "s")] for m in me] for me in model_errors])
+
+
+def _model_bounds(errors, j, t, tref) -> tuple:
+    """``model_share``'s u_Cp, u_H and u_S (entries, temperatures) of the ``_model_errors``
+    ``errors`` at ``t`` [K] in ranges ``j``, exact at ``tref`` [K]."""
+    at = errors[:, j]
+    cp = at[:, :, 0]
+    return (cp, np.minimum(at[:, :, 1], cp * np.abs(t - tref)),
+            np.minimum(at[:, :, 2], cp * np.abs(np.log(t / tref))))
 
 
 def extrapolation_share(species: dict, t, steps: int = 256, integrals: bool = True) -> dict:

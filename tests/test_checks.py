@@ -6,6 +6,8 @@ give no error and no warning. Sources of the references: tests/trials.py.
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from thermoledger import build
 from thermoledger.checks import reconcile
 from thermoledger.core import chemistry
@@ -261,3 +263,25 @@ def test_outlier_rows_are_left_out_of_the_fit(tmp_path):
     assert sp["excluded"] == [{"file": "lab/co2.csv", "line": 22, "code": "SMOOTH-OUTLIER"}]
     assert sp["quality"]["points"] == len(t) - 1
     assert sp["quality"]["cp_max_rel_dev"] < 0.01
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.integers(5, 60), st.floats(60.0, 400.0), st.integers(1, 40),
+       st.lists(st.floats(0.0, 3.0), min_size=3, max_size=3), st.floats(-0.5, 0.5),
+       st.integers(0, 2 ** 31))
+def test_the_coarse_misfit_bounds_the_frozen_vibrations_misfit(n, lo, modes, weights, shift,
+                                                               seed):
+    """labels._misfit_bound, the problem on every other θ, is never below labels._misfit (to
+    round-off at the data's scale), whatever the data: sums of Einstein functions off the θ
+    grid, shifted (as Cv under a Cp label is) or not, with noise, on 5 to 60 points (the
+    fewest fitted exactly)."""
+    from thermoledger.checks import labels
+    from thermoledger.physics.statmech import einstein
+
+    t = np.geomspace(lo, labels.LOW_END, n)
+    rng = np.random.default_rng(seed)
+    theta = rng.uniform(100.0, 5000.0, 3)
+    y = (np.asarray(weights)[None, :] * einstein(theta[None, :] / t[:, None])).sum(axis=1)
+    y = y + shift + rng.normal(0.0, 0.01, n)
+    slack = 1e-9 * np.abs(y).max()                 # round-off, at the data's scale
+    assert labels._misfit(t, y, modes) <= labels._misfit_bound(t, y, modes) + slack

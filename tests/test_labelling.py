@@ -137,3 +137,15 @@ def test_sources_whose_anchors_disagree_get_a_warning_with_both_values(tmp_path,
     (hit,) = [f for f in found if f["code"] == "SRC-ANCHOR-DISAGREE"]
     assert hit["severity"] == "warning" and hit["file"] == "other/n2.csv"
     assert "192.5" in hit["message"] and "191.609" in hit["message"]
+
+
+def test_the_frozen_vibrations_check_decides_as_without_its_bound(monkeypatch):
+    """check_frozen_vibrations passes a table when the coarse problem's misfit
+    (labels._misfit_bound) is below the threshold, without solving the whole one: the
+    mistakes caught and missed and the false alarms over seeded trials of real gases are
+    those of the check that always solves the whole problem."""
+    from thermoledger.checks import labels
+
+    with_bound = labelling.labelling_rates(trials=40, seed=19)
+    monkeypatch.setattr(labels, "_misfit_bound", lambda t, y, modes: float("inf"))
+    assert labelling.labelling_rates(trials=40, seed=19) == with_bound

@@ -444,7 +444,10 @@ def _without_rows(checked: CheckResult, fitted) -> tuple:
     bare, no_rows = {}, {}
 
     def nothing(data):
-        return no_rows.setdefault(data.columns, data.head(0))
+        key = data.columns
+        if key not in no_rows:                    # (made once: setdefault would make each)
+            no_rows[key] = data.head(0)
+        return no_rows[key]
 
     def empty(table):
         if id(table) not in bare:

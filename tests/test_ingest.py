@@ -215,3 +215,16 @@ def test_a_path_is_inside_raw_as_pathlib_resolves_it(tmp_path):
     assert [ingest._inside(p, raw) for p in cases] == [resolved_inside(p) for p in cases]
     assert [resolved_inside(p) for p in cases] == [True, False, False, True, True, False,
                                                    True, True, True]
+
+
+def test_the_unlisted_file_scan_sees_the_csv_names_pathlib_s_glob_sees(tmp_path):
+    """sources.csv_names gives the names of sorted(folder.glob('*.csv')), in that order:
+    hidden, upper-case, odd and non-ASCII names, a folder and a link among them."""
+    names = ["b.csv", "a.csv", ".hidden.csv", "C.CSV", "c.Csv", "z.csv.bak", "x.csv~",
+             "10.csv", "9.csv", "é.csv", "a b.csv", "[x].csv"]
+    for name in names:
+        (tmp_path / name).write_text("T [K],Cp [J/(mol*K)]\n")
+    (tmp_path / "dir.csv").mkdir()
+    (tmp_path / "link.csv").symlink_to(tmp_path / "a.csv")
+    assert ingest.csv_names(tmp_path) == [p.name for p in sorted(tmp_path.glob("*.csv"))]
+    assert "dir.csv" in ingest.csv_names(tmp_path) and "C.CSV" not in ingest.csv_names(tmp_path)

@@ -285,3 +285,28 @@ def test_the_coarse_misfit_bounds_the_frozen_vibrations_misfit(n, lo, modes, wei
     y = y + shift + rng.normal(0.0, 0.01, n)
     slack = 1e-9 * np.abs(y).max()                 # round-off, at the data's scale
     assert labels._misfit(t, y, modes) <= labels._misfit_bound(t, y, modes) + slack
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.floats(0.002, 0.2), st.floats(0.2, 0.8), st.floats(0.0, 0.004),
+       st.integers(0, 2 ** 31))
+def test_the_jump_check_reports_by_its_rule_whatever_its_shortcut(step, where, scatter, seed):
+    """check_unlisted_transition passes a table whose every jump is below STEP_MIN without
+    the rest of its figures; what it reports is what its rule says of jumps.steps, for jumps
+    around STEP_MIN at any place, with scatter (a smooth Cp of a linear molecule, the rows
+    above a temperature raised by ``step``)."""
+    from thermoledger.checks import jumps
+    from thermoledger.core.settings import Settings
+    from thermoledger.physics.statmech import einstein
+
+    t = np.geomspace(200.0, 3000.0, 60)
+    cp = R * (3.5 + einstein(3000.0 / t) + 2 * einstein(1000.0 / t))
+    cp = cp * (1 + np.random.default_rng(seed).normal(0.0, scatter, len(t)))
+    cp[int(where * len(t)):] *= 1 + step
+    jump, side, apart, _ = jumps.steps(t, cp)
+    size = np.abs(jump)
+    k = int(size.argmax())
+    rule = not (size[k] < max(jumps.STEP_MIN, jumps.STEP_OVER_MEDIAN * np.median(size))
+                or side[k] > jumps.SIDE_FIT * size[k] or not apart[k] * jump[k] > 0.5 * jump[k] ** 2)
+    found = jumps.check_unlisted_transition(make_table(t, cp, "CO2", "linear"), Settings())
+    assert [f.code for f in found] == (["TRS-UNLISTED"] if rule else [])

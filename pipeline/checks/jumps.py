@@ -49,14 +49,38 @@ def _windows(n: int, w: int) -> np.ndarray:
     return idx
 
 
-def _side_fits(x, y, w):
+def _coefficients(x, y, w):
     """Quadratic least-squares coefficients of every window of ``w`` consecutive points, and
-    the rms residual of each -> ((k, 3), (k,))."""
-    a, solution = _window_design(x, w)
+    the windows' values -> ((k, 3), (k, w))."""
+    _, solution = _window_design(x, w)
     ys = y[_windows(len(y), w)]
-    c = np.einsum("kiw,kw->ki", solution, ys)
+    return np.einsum("kiw,kw->ki", solution, ys), ys
+
+
+def _rms(x, c, ys, w):
+    """The rms residual of each window's fit ``c`` to its values ``ys`` -> (k,)."""
+    a, _ = _window_design(x, w)
     resid = np.einsum("kwi,ki->kw", a, c) - ys
-    return c, np.sqrt((resid ** 2).sum(axis=1) / w)
+    return np.sqrt((resid ** 2).sum(axis=1) / w)
+
+
+def _at(c, m):
+    """The quadratics ``c`` (k, 3) at ``m`` (k,)."""
+    return c[:, 0] + c[:, 1] * m + c[:, 2] * m ** 2
+
+
+def _gaps(t, cp, w):
+    """(ln T, window coefficients and values, gaps k, ln T in their middle, the jump in ln Cp
+    at each) of ``steps``; None when the table is too short."""
+    t, cp = np.asarray(t, dtype=float), np.asarray(cp, dtype=float)
+    n = len(t)
+    if n < 2 * w + 2:
+        return None
+    x = np.log(t)
+    c, ys = _coefficients(x, np.log(cp), w)
+    k = np.arange(w + 1, n - w)                       # gaps with room for the second look
+    mid = 0.5 * (x[k - 1] + x[k])
+    return x, c, ys, k, mid, _at(c[k], mid) - _at(c[k - w], mid)
 
 
 def steps(t, cp, w=WINDOW):
@@ -64,20 +88,16 @@ def steps(t, cp, w=WINDOW):
     of its two side fits [-], the jump again with the row next to the gap left out on both
     sides [-], T in the middle of the gap [K]); empty when the table is too short. A slipped
     row next to the gap makes the first jump but not the second; a transition makes both."""
-    t, cp = np.asarray(t, dtype=float), np.asarray(cp, dtype=float)
-    n = len(t)
-    if n < 2 * w + 2:
+    return _steps_of(_gaps(t, cp, w), w)
+
+
+def _steps_of(gaps, w):
+    """``steps`` of what ``_gaps`` gave."""
+    if gaps is None:
         return (np.zeros(0),) * 4
-    x, y = np.log(t), np.log(cp)
-    c, rms = _side_fits(x, y, w)
-    k = np.arange(w + 1, n - w)                       # gaps with room for the second look
-    mid = 0.5 * (x[k - 1] + x[k])
-
-    def value(cc, m):
-        return cc[:, 0] + cc[:, 1] * m + cc[:, 2] * m ** 2
-
-    jump = value(c[k], mid) - value(c[k - w], mid)
-    apart = value(c[k + 1], mid) - value(c[k - w - 1], mid)
+    x, c, ys, k, mid, jump = gaps
+    rms = _rms(x, c, ys, w)
+    apart = _at(c[k + 1], mid) - _at(c[k - w - 1], mid)
     return jump, np.maximum(rms[k - w], rms[k]), apart, np.exp(mid)
 
 
@@ -86,9 +106,10 @@ def check_unlisted_transition(table, ctx):
     rest; reported with the temperature, instead of as a bad fit."""
     d = first_of_each_t(table.valid)
     t, cp, lines = d["T"], d["Cp"], d["line"]
-    jump, side, apart, at = steps(t, cp)
-    if not len(jump):
-        return []
+    gaps = _gaps(t, cp, WINDOW)
+    if gaps is None or not len(gaps[-1]) or np.abs(gaps[-1]).max() < STEP_MIN:
+        return []                       # no jump reaches STEP_MIN: the common case, done
+    jump, side, apart, at = _steps_of(gaps, WINDOW)
     size = np.abs(jump)
     k = int(size.argmax())
     typical = median(size)

@@ -310,3 +310,29 @@ def test_the_jump_check_reports_by_its_rule_whatever_its_shortcut(step, where, s
                 or side[k] > jumps.SIDE_FIT * size[k] or not apart[k] * jump[k] > 0.5 * jump[k] ** 2)
     found = jumps.check_unlisted_transition(make_table(t, cp, "CO2", "linear"), Settings())
     assert [f.code for f in found] == (["TRS-UNLISTED"] if rule else [])
+
+
+@settings(max_examples=80, deadline=None)
+@given(st.sampled_from(["N2", "CO2", "CH4", "H2", "SF6"]), st.floats(0.0, 0.05),
+       st.sampled_from([1.0, 4.184, 1000.0, 8.314462618, 1.02, 0.5]), st.integers(0, 2 ** 31))
+def test_the_unit_block_check_passes_early_only_where_no_step_is_near_a_factor(
+        formula, scatter, factor, seed):
+    """check_unit_blocks passes a table at once when even its largest step in ln Cp, plus the
+    tolerance, stays below the smallest factor's logarithm: then no step is within the
+    tolerance of any factor, and the check finds nothing, as its full comparison would."""
+    from thermoledger.checks import physical
+    from thermoledger.checks.smooth_model import median
+    from thermoledger.core.settings import Settings
+
+    rng = np.random.default_rng(seed)
+    t = np.geomspace(200.0, 3000.0, 50)
+    cp = R * 4.5 * (1 + t / 3000.0) * (1 + rng.normal(0.0, scatter, len(t)))
+    cp[15:25] *= factor
+    table = make_table(t, cp, formula, "linear")
+    found = physical.check_unit_blocks(table, Settings())
+    size = np.abs(np.diff(np.log(table.valid["Cp"])))
+    tol = Settings().checks.factor_tolerance + 2.0 * median(size)
+    logs = np.log([f for _, f, _ in physical.factor_candidates(table.meta.molar_mass) if f > 1])
+    near = bool((np.abs(size[:, None] - logs[None, :]) < tol).any())
+    if (size.max() + tol) * (1.0 + 1e-9) < logs.min():
+        assert not near and found == []

@@ -216,10 +216,13 @@ def check_unit_blocks(table, ctx):
     lc = np.log(cp)
     d = lc[1:] - lc[:-1]
     cands = [(n, f, fix) for n, f, fix in factor_candidates(table.meta.molar_mass) if f > 1]
-    tol = settings.factor_tolerance + 2.0 * median(np.abs(d))
-    level = np.zeros(len(cp))
+    size = np.abs(d)
+    tol = settings.factor_tolerance + 2.0 * median(size)
     logs = np.log([f for _, f, _ in cands])
-    off = np.abs(np.abs(d)[:, None] - logs[None, :])     # (steps, candidates)
+    if len(logs) and (size.max() + tol) * (1.0 + 1e-9) < logs.min():
+        return []                       # no step comes near a factor: the common case, done
+    level = np.zeros(len(cp))
+    off = np.abs(size[:, None] - logs[None, :])          # (steps, candidates)
     nearest = np.argmin(off, axis=1)
     hits = np.nonzero(off[np.arange(len(d)), nearest] < tol)[0]
     if not len(hits):

@@ -206,6 +206,13 @@ def check_condensed_bounds(table, ctx):
                     **meta.where)]
 
 
+def _no_step_near(size, tol, logs) -> bool:
+    """Whether no step of ``size`` (|Δ ln Cp|) can lie within ``tol`` of any of ``logs`` (the
+    candidate factors' logarithms, all > 0): the largest step and the tolerance stay below
+    the smallest (with a relative margin of 1e-9 for round-off)."""
+    return bool(len(logs)) and (size.max() + tol) * (1.0 + 1e-9) < logs.min()
+
+
 def check_unit_blocks(table, ctx):
     """A block of rows off by a recognisable factor, seen as jumps in ln Cp."""
     settings = ctx.checks
@@ -219,8 +226,8 @@ def check_unit_blocks(table, ctx):
     size = np.abs(d)
     tol = settings.factor_tolerance + 2.0 * median(size)
     logs = np.log([f for _, f, _ in cands])
-    if len(logs) and (size.max() + tol) * (1.0 + 1e-9) < logs.min():
-        return []                       # no step comes near a factor: the common case, done
+    if _no_step_near(size, tol, logs):
+        return []                       # the common case, done
     level = np.zeros(len(cp))
     off = np.abs(size[:, None] - logs[None, :])          # (steps, candidates)
     nearest = np.argmin(off, axis=1)

@@ -411,12 +411,7 @@ def _file_digest(path: Path, raw: str, digests=None) -> str:
     size). A file that is not a link lies where its folder really is: one real path per
     folder, not per file."""
     text = os.fspath(path)             # (a string: pathlib's parts cost more than the rest)
-    try:
-        st = os.lstat(text)            # one call tells a link, a file, its size and identity
-    except OSError as exc:             # as pathlib's is_symlink and is_file
-        if exc.errno not in paths.ABSENT:
-            raise
-        st = None
+    st = paths.lstat_or_none(text)
     if st is not None and stat.S_ISLNK(st.st_mode):
         return "link:" + os.readlink(text)
     folder, name = os.path.split(text)

@@ -215,45 +215,40 @@ SUM_WEIGHT = 1e3
 
 
 @by_grid
-def _misfit_design(t):
-    """E(θ_j/T) of every θ of THETA at ``t`` [K], and the same with the slack column and the
-    weighted sum row below (made once per grid)."""
-    a = einstein(THETA[None, :] / t[:, None])
+def _misfit_design(t, every=1):
+    """E(θ_j/T) of every ``every``-th θ of THETA at ``t`` [K], and the same with the slack
+    column and the weighted sum row below (made once per grid)."""
+    theta = THETA[::every]
+    a = einstein(theta[None, :] / t[:, None])
     return a, np.vstack([np.hstack([a, np.zeros((len(t), 1))]),
-                         SUM_WEIGHT * np.ones((1, len(THETA) + 1))])
+                         SUM_WEIGHT * np.ones((1, len(theta) + 1))])
+
+
+def _sum_bounded(big, y, modes):
+    """(weights, the slack last; residual norm) of the NNLS fit of ``y`` by the columns of
+    ``big`` (a ``_misfit_design``), their sum held to at most ``modes``."""
+    return nnls(big, np.append(y, SUM_WEIGHT * modes), maxiter=50 * big.shape[1])
 
 
 def _misfit(t, y, modes) -> float:
     """RMS misfit [R] of y(T) by Σ w_j E(θ_j/T), w ≥ 0, Σ w ≤ ``modes`` (NNLS, the sum held
     by a slack variable on a heavily weighted row)."""
     a, big = _misfit_design(t)
-    rhs = np.append(y, SUM_WEIGHT * modes)
-    w, _ = nnls(big, rhs, maxiter=50 * big.shape[1])
+    w, _ = _sum_bounded(big, y, modes)
     return float(np.sqrt(((a @ w[:-1] - y) ** 2).sum() / len(y)))
 
 
-#: every other θ of THETA: the problem of ``_misfit`` on these alone bounds its misfit
-THETA_COARSE = THETA[::2]
 #: how far below the threshold ``_misfit_bound`` must be to stand for the misfit, relative to
 #: the largest |y| (the scale of both residuals' round-off, which is far smaller; the bound
 #: is never above that scale, the residual of all weights zero)
 BOUND_MARGIN = 1e-6
 
 
-@by_grid
-def _coarse_design(t):
-    """``_misfit_design``'s weighted matrix with the columns of THETA_COARSE only."""
-    a = einstein(THETA_COARSE[None, :] / t[:, None])
-    return np.vstack([np.hstack([a, np.zeros((len(t), 1))]),
-                      SUM_WEIGHT * np.ones((1, len(THETA_COARSE) + 1))])
-
-
 def _misfit_bound(t, y, modes) -> float:
     """An upper bound [R] of ``_misfit(t, y, modes)`` at half its cost: the rms residual of
-    the same problem on THETA_COARSE alone, its weighted sum row included. A solution of it
-    is one of the whole problem (the other weights zero), whose optimum, and the data's
+    the same problem on every other θ of THETA, its weighted sum row included. A solution of
+    it is one of the whole problem (the other weights zero), whose optimum, and the data's
     share of that optimum's residual, can only be smaller [the least-squares objective over
     a larger set of columns]."""
-    big = _coarse_design(t)
-    _, rnorm = nnls(big, np.append(y, SUM_WEIGHT * modes), maxiter=50 * big.shape[1])
+    _, rnorm = _sum_bounded(_misfit_design(t, 2)[1], y, modes)
     return float(rnorm / np.sqrt(len(y)))

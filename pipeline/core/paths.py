@@ -15,6 +15,18 @@ from . import limits
 ABSENT = (errno.ENOENT, errno.ENOTDIR, errno.EBADF, errno.ELOOP)
 
 
+def lstat_or_none(path: str):
+    """os.lstat of ``path``, or None when nothing is there (``ABSENT``): one call tells a
+    link, a file, a folder, its size and identity, as pathlib's is_symlink, exists, is_file
+    and stat would; other errors raise."""
+    try:
+        return os.lstat(path)
+    except OSError as exc:
+        if exc.errno not in ABSENT:
+            raise
+        return None
+
+
 @lru_cache(maxsize=1)
 def _sync_file_range():
     """libc's sync_file_range (Linux), or None."""

@@ -179,11 +179,7 @@ def _open_listed(folder: Path, entry: dict, source: SourceMeta, raw_dir: Path, l
     folder_text, name = os.fspath(folder), entry["file"]
     path = os.path.join(folder_text, name)
     try:
-        st = os.lstat(path)
-    except OSError as exc:
-        if exc.errno not in paths.ABSENT:
-            raise
-        st = None
+        st = paths.lstat_or_none(path)
     except ValueError:                      # a NUL in the name: nothing there, for pathlib
         st = None
     if (st is not None and S_ISLNK(st.st_mode)) or not _inside_folder(folder_text, name,

@@ -4,11 +4,14 @@ build's own process, and a failure there stops the build as one here does."""
 
 import os
 import time
+from contextlib import contextmanager
+from dataclasses import replace
 from pathlib import Path
 
+import orjson
 import pytest
-from thermoledger import build
-from thermoledger.core import processes
+from thermoledger import build, partitions
+from thermoledger.core import processes, spill
 from thermoledger.core.errors import OutputError
 from thermoledger.release import assemble, publish, tables
 
@@ -147,17 +150,87 @@ def test_a_failure_in_the_helper_stops_the_build_and_leaves_the_last_release(
     assert not [p for p in out.iterdir() if p.name.startswith(".staging-")]
 
 
-def test_a_release_beyond_the_helper_s_window_is_written_here(tmp_path, monkeypatch,
-                                                             aside_always):
-    """From ASIDE_UNTIL species on, the helper would copy too much of the build's memory:
-    the files are written by the build's own process (the demo's 17 species, the window
-    moved to end there)."""
+@pytest.fixture
+def beyond_the_window(monkeypatch, aside_always):
+    """Every release of the demo's 17 species beyond the forked helper's window (from
+    ASIDE_UNTIL species on, it would copy too much of the build's memory); what
+    core.processes.fresh_aside gave the build is recorded after the adopted paths."""
     monkeypatch.setattr(assemble, "ASIDE_UNTIL", 17)
-    build.build(RAW, tmp_path / "out")
-    assert aside_always == []
-    monkeypatch.setattr(assemble, "ASIDE_UNTIL", 18)
-    build.build(RAW, tmp_path / "again")
-    assert sorted(aside_always) == ["library.json", "tables.parquet"]
+    gave = []
+    real = processes.fresh_aside
+
+    @contextmanager
+    def recorded(*args):
+        with real(*args) as helper:
+            gave.append(helper)
+            yield helper
+
+    monkeypatch.setattr(processes, "fresh_aside", recorded)
+    return aside_always, gave
+
+
+def test_beyond_the_window_tables_parquet_is_written_by_a_fresh_process(
+        tmp_path, monkeypatch, beyond_the_window):
+    """Beyond ASIDE_UNTIL, tables.parquet is written by a process started fresh, which reads
+    the evaluated tables and the entries from the build's scratch file itself; library.json
+    is written here. The release, and where each species' rows lie (kept for the next
+    build), are those of a release written here alone."""
+    adopted, gave = beyond_the_window
+    build.build(RAW, tmp_path / "fresh")
+    assert adopted == ["tables.parquet"]
+    assert len(gave) == 1 and gave[0] is not None and gave[0].done()
+    monkeypatch.setattr(assemble, "ASIDE_FROM", 10 ** 9)
+    monkeypatch.setattr(assemble, "ASIDE_UNTIL", 10 ** 9)
+    build.build(RAW, tmp_path / "here")
+    assert len(adopted) == 1 and len(gave) == 1
+    assert tree_hashes(tmp_path / "fresh") == tree_hashes(tmp_path / "here")
+    kept = [orjson.loads((tmp_path / home / partitions.STORE / "pieces.json").read_bytes())
+            for home in ("fresh", "here")]
+    for name in ("tables.parquet", "library.json"):
+        assert kept[0]["files"][name]["places"] == kept[1]["files"][name]["places"]
+
+
+def test_beyond_the_window_a_scratch_file_no_other_process_can_open_keeps_the_work_here(
+        tmp_path, monkeypatch, beyond_the_window):
+    """Where another process cannot open the build's scratch file (no /proc), every file is
+    written by the build's own process: the same release."""
+    adopted, gave = beyond_the_window
+    monkeypatch.setattr(spill, "readable_elsewhere", lambda s: False)
+    build.build(RAW, tmp_path / "here")
+    assert adopted == [] and gave == []
+    monkeypatch.undo()
+    build.build(RAW, tmp_path / "plain")
+    assert tree_hashes(tmp_path / "here") == tree_hashes(tmp_path / "plain")
+
+
+def test_beyond_the_window_a_rebuild_taking_rows_from_the_last_release_writes_here(
+        tmp_path, beyond_the_window):
+    """A rebuild that takes species' rows of tables.parquet from the last release writes
+    it here (the fresh process would need the last release's pieces too)."""
+    adopted, gave = beyond_the_window
+    build.build(RAW, tmp_path / "out", parts=2)
+    assert adopted == ["tables.parquet"]
+    adopted.clear()
+    build.build(RAW, tmp_path / "out", parts=2)
+    assert adopted == [] and len(gave) == 1
+
+
+def test_a_failure_in_the_fresh_process_stops_the_build_and_leaves_the_last_release(
+        tmp_path, monkeypatch, capsys, beyond_the_window):
+    """A fresh process that cannot read the scratch file it was sent to (here: told the
+    wrong inode) stops the build with one line, and the last release stays."""
+    out = tmp_path / "out"
+    assert run_cli(capsys, "build", "--raw", RAW, "--out", out, "--no-report", "--quiet")[0] == 0
+    before = tree_hashes(out)
+    real_at = spill.Spill.at
+    monkeypatch.setattr(spill, "readable_elsewhere", lambda s: True)
+    monkeypatch.setattr(spill.Spill, "at", lambda self: replace(real_at(self),
+                                                                inode=real_at(self).inode + 1))
+    code, _, err = run_cli(capsys, "build", "--raw", RAW, "--out", out, "--no-report",
+                           "--quiet", "--fresh")
+    assert code != 0 and "no longer its scratch file" in err and "Traceback" not in err
+    assert tree_hashes(out) == before
+    assert not [p for p in out.iterdir() if p.name.startswith(".staging-")]
 
 
 def _how_ctrl_c_is_taken():

@@ -123,3 +123,64 @@ def test_a_spill_nobody_reads_any_more_is_closed_without_a_warning(tmp_path):
         gc.collect()
     assert not [w for w in seen if issubclass(w.category, ResourceWarning)]
     assert os.listdir(tmp_path) == []
+
+
+def test_another_process_reads_a_spill_by_where_it_is(tmp_path):
+    """A process of its own (a new interpreter, holding nothing of this one) opens the
+    unnamed file by its SpillAt and reads what was written, by (offset, size)."""
+    import subprocess
+    import sys
+
+    spill = Spill(tmp_path)
+    where = spill.put_many([b"first piece", b"\x00\x01 second"])
+    at = spill.at()
+    code = ("import sys; from thermoledger.core.spill import SpillAt, SpillReader; "
+            f"r = SpillReader(SpillAt({at.pid}, {at.fd}, {at.device}, {at.inode})); "
+            f"sys.stdout.buffer.write(r.get{where[1]!r} + b'|' + r.get{where[0]!r})")
+    got = subprocess.run([sys.executable, "-c", code], capture_output=True, check=True)
+    assert got.stdout == b"\x00\x01 second|first piece"
+    spill.close()
+
+
+def test_a_descriptor_that_is_no_longer_the_spill_is_refused(tmp_path):
+    """The descriptor named by a SpillAt may by then be another file (the spill closed and
+    its number reused): the device and inode tell, and nothing is read from it."""
+    from dataclasses import replace
+
+    from thermoledger.core.spill import SpillReader, readable_elsewhere
+
+    spill = Spill(tmp_path)
+    spill.put(b"data")
+    assert readable_elsewhere(spill)
+    with pytest.raises(OSError, match="no longer its scratch file"):
+        SpillReader(replace(spill.at(), inode=spill.at().inode + 1))
+    spill.close()
+
+
+def test_what_is_pickled_across_reads_its_spills_from_the_file_itself(tmp_path):
+    """Entries and packed rows that point into a spill, pickled across (dumps_across), read
+    back as themselves; each spill crosses as where it is, not as its bytes, and opens once
+    however often it is named."""
+    from thermoledger.core.spill import SpillReader, dumps_across, loads_across
+
+    spill = Spill(tmp_path)
+    entries = [{"id": f"s{i}", "formula": "N2", "x": [0.5 * i]} for i in range(50)]
+    kept = Entries(((e["id"], spill.put(orjson.dumps(e))) for e in entries), spill,
+                   formulas=["N2"] * 50, digests=["d"] * 50)
+    own = {f"s{i}": {"id": [f"s{i}"] * 3, "phase": ["g"] * 3,
+                     **{c: np.linspace(1.0, 2.0 + i, 3) if c not in tables.FLAGS
+                        else np.array([True, False, True])
+                        for c in tables.COLUMNS if c not in tables.TEXT}} for i in range(3)}
+    rows = tables.unpack_rows(tables.spill_rows(tables.pack_rows(own), spill))
+    data = dumps_across((kept.read_only(), rows))
+    assert len(data) < 20 * 50 + 2000       # places, ids and formulas: no entry's bytes
+    back, back_rows = loads_across(data)
+    assert back == entries and back.formulas() == kept.formulas()
+    assert back._digests is None and back._outlines is None
+    assert isinstance(back._spill, SpillReader)
+    assert back_rows["s1"]["id"] == own["s1"]["id"]
+    for c in own["s2"]:
+        if c not in ("id", "phase"):
+            assert np.array_equal(back_rows["s2"][c], own["s2"][c])
+    assert back_rows._blocks[0]["spill"] is back._spill     # one reader for the one file
+    spill.close()

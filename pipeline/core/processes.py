@@ -196,6 +196,22 @@ def aside(work, *args):
         answer.close()
 
 
+@contextmanager
+def fresh_aside(modules: tuple, work, *args):
+    """``aside`` in a process started fresh (core.fresh: from a server that imported
+    ``modules``, sharing nothing of this one's heap), ``args`` pickled on the way; the block
+    gets an object whose ``result()`` waits for it. For work on a large build's data that a
+    forked helper would copy page by page from this process as it touches them. None is
+    given where the machine cannot start such a process: the caller then does the work."""
+    from . import fresh
+
+    if fresh.server(modules) is None:
+        yield None
+        return
+    with worker_pool(1, fresh=modules) as pool:
+        yield pool.submit(work, *args)
+
+
 def _forked(target, *args):
     """A started daemon process forked to run ``target(*args)``, with Ctrl-C held back from
     it until it ignores it (``_as_helper``): one arriving in between would print a traceback

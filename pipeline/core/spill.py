@@ -8,10 +8,12 @@ disk the release goes to): nothing is left behind, whatever stops the build, and
 back is a pread from the page cache.
 """
 
+import io
 import os
 import pickle
 import tempfile
 from collections.abc import Mapping
+from dataclasses import dataclass
 
 
 class Spill:
@@ -60,6 +62,11 @@ class Spill:
         return self.put_many(pickle.dumps(obj, protocol=pickle.HIGHEST_PROTOCOL)
                              for obj in objs)
 
+    def at(self) -> "SpillAt":
+        """Where another process of this machine opens this file to read it (SpillReader)."""
+        st = os.fstat(self._fd)
+        return SpillAt(os.getpid(), self._fd, st.st_dev, st.st_ino)
+
     def close(self) -> None:
         self._file.close()
 
@@ -93,3 +100,86 @@ class SpilledObjects(Mapping):
 
     def __len__(self) -> int:
         return len(self._where)
+
+
+@dataclass(frozen=True)
+class SpillAt:
+    """A Spill as another process finds it: the process that holds it, its descriptor there,
+    and the file's device and inode (told apart from whatever else the descriptor may be
+    by the time it is opened)."""
+
+    pid: int
+    fd: int
+    device: int
+    inode: int
+
+
+class SpillReader:
+    """A Spill of another process read from this one (``get`` alone): opened through
+    /proc/<pid>/fd/<fd>, which opens the file itself though it has no name (Linux)."""
+
+    def __init__(self, at: SpillAt):
+        self._fd = None
+        fd = os.open(f"/proc/{at.pid}/fd/{at.fd}", os.O_RDONLY)
+        st = os.fstat(fd)
+        if (st.st_dev, st.st_ino) != (at.device, at.inode):
+            os.close(fd)
+            raise OSError(f"descriptor {at.fd} of process {at.pid} is no longer its scratch "
+                          "file")
+        self._fd = fd
+
+    get = Spill.get
+
+    def close(self) -> None:
+        if self._fd is not None:
+            os.close(self._fd)
+            self._fd = None
+
+    def __del__(self):
+        self.close()
+
+
+def readable_elsewhere(spill: Spill) -> bool:
+    """Whether another process could open ``spill`` by its SpillAt (this process tries)."""
+    try:
+        SpillReader(spill.at()).close()
+    except OSError:
+        return False
+    return True
+
+
+def dumps_across(obj) -> bytes:
+    """``obj`` pickled for another process of this machine, every Spill in it by its SpillAt
+    (read back by ``loads_across``): a build's document and evaluated tables, which point
+    into its scratch file, go to a process that reads them from the file itself. OSError
+    when a Spill in it cannot be opened so (``readable_elsewhere``)."""
+    out = io.BytesIO()
+    pickler = pickle.Pickler(out, protocol=pickle.HIGHEST_PROTOCOL)
+    seen = {}
+
+    def persistent_id(x):
+        if not isinstance(x, Spill):
+            return None
+        if id(x) not in seen:
+            if not readable_elsewhere(x):
+                raise OSError("the build's scratch file cannot be opened by another process")
+            seen[id(x)] = x.at()
+        return seen[id(x)]
+
+    pickler.persistent_id = persistent_id
+    pickler.dump(obj)
+    return out.getvalue()
+
+
+def loads_across(data: bytes):
+    """What ``dumps_across`` pickled, each Spill in it a SpillReader (one per file)."""
+    opened = {}
+
+    def persistent_load(at):
+        if at not in opened:
+            opened[at] = SpillReader(at)
+        return opened[at]
+
+    unpickler = pickle.Unpickler(io.BytesIO(data))
+    unpickler.persistent_load = persistent_load
+    return unpickler.load()

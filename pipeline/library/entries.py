@@ -197,6 +197,15 @@ class Entries(LazyList):
             self._spill.get(self._more[2 * i], self._more[2 * i + 1])
         return self._json(i), added
 
+    def read_only(self) -> "Entries":
+        """These entries as reading them needs, for another process (core.spill.dumps_across):
+        without their outlines and digests (made again from the entries if asked for)."""
+        out = Entries.__new__(Entries)
+        out._ids, out._blobs, out._formulas, out._more = \
+            self._ids, self._blobs, self._formulas, self._more
+        out._spill, out._index, out._outlines, out._digests = self._spill, None, None, None
+        return out
+
     def ids(self) -> list:
         """The species ids, in order (nothing decoded)."""
         return list(self._ids)

@@ -222,6 +222,12 @@ class Taking:
         self.placed = np.zeros(2 * len(keys), dtype=np.int64)     # (row, rows) of each
         self._row, self._run, self._source = 0, None, None
 
+    @classmethod
+    def placing(cls, name: str, count: int) -> "Taking":
+        """A Taking of file ``name`` of ``count`` items that takes nothing: it only hears
+        where each item's rows lie (``made``)."""
+        return cls(Previous.none(), name, range(count), (), usable=False)
+
     def share(self) -> float:
         """The share of the items that can be taken (0 to 1)."""
         return self.previous.share(self.name, self.keys) if self.usable else 0.0

@@ -171,18 +171,18 @@ def beyond_the_window(monkeypatch, aside_always):
 
 def test_beyond_the_window_tables_parquet_is_written_by_a_fresh_process(
         tmp_path, monkeypatch, beyond_the_window):
-    """Beyond ASIDE_UNTIL, tables.parquet is written by a process started fresh, which reads
-    the evaluated tables and the entries from the build's scratch file itself; library.json
-    is written here. The release, and where each species' rows lie (kept for the next
-    build), are those of a release written here alone."""
+    """Beyond ASIDE_UNTIL, library.json and tables.parquet are written by a process started
+    fresh, which reads the entries and the evaluated tables from the build's scratch file
+    itself. The release, and where each species' pieces lie (kept for the next build), are
+    those of a release written here alone."""
     adopted, gave = beyond_the_window
     build.build(RAW, tmp_path / "fresh")
-    assert adopted == ["tables.parquet"]
+    assert sorted(adopted) == ["library.json", "tables.parquet"]
     assert len(gave) == 1 and gave[0] is not None and gave[0].done()
     monkeypatch.setattr(assemble, "ASIDE_FROM", 10 ** 9)
     monkeypatch.setattr(assemble, "ASIDE_UNTIL", 10 ** 9)
     build.build(RAW, tmp_path / "here")
-    assert len(adopted) == 1 and len(gave) == 1
+    assert len(adopted) == 2 and len(gave) == 1
     assert tree_hashes(tmp_path / "fresh") == tree_hashes(tmp_path / "here")
     kept = [orjson.loads((tmp_path / home / partitions.STORE / "pieces.json").read_bytes())
             for home in ("fresh", "here")]
@@ -203,13 +203,13 @@ def test_beyond_the_window_a_scratch_file_no_other_process_can_open_keeps_the_wo
     assert tree_hashes(tmp_path / "here") == tree_hashes(tmp_path / "plain")
 
 
-def test_beyond_the_window_a_rebuild_taking_rows_from_the_last_release_writes_here(
+def test_beyond_the_window_a_rebuild_taking_pieces_of_the_last_release_writes_here(
         tmp_path, beyond_the_window):
-    """A rebuild that takes species' rows of tables.parquet from the last release writes
-    it here (the fresh process would need the last release's pieces too)."""
+    """A rebuild that takes species' pieces of library.json and tables.parquet from the last
+    release writes them here (the fresh process would need the last release's pieces too)."""
     adopted, gave = beyond_the_window
     build.build(RAW, tmp_path / "out", parts=2)
-    assert adopted == ["tables.parquet"]
+    assert sorted(adopted) == ["library.json", "tables.parquet"]
     adopted.clear()
     build.build(RAW, tmp_path / "out", parts=2)
     assert adopted == [] and len(gave) == 1

@@ -184,3 +184,17 @@ def test_what_is_pickled_across_reads_its_spills_from_the_file_itself(tmp_path):
             assert np.array_equal(back_rows["s2"][c], own["s2"][c])
     assert back_rows._blocks[0]["spill"] is back._spill     # one reader for the one file
     spill.close()
+
+
+def test_places_read_as_the_pairs_they_hold_and_a_mixed_list_stays_as_it_is():
+    from thermoledger.core.spill import Places
+
+    pairs = [(0, 12), (12, 3), (2 ** 40, 7)]
+    held = Places.of(pairs)
+    assert isinstance(held, Places) and len(held) == 3
+    assert list(held) == pairs and held[1] == (12, 3) and held[-1] == (2 ** 40, 7)
+    assert pickle.loads(pickle.dumps(held))[2] == (2 ** 40, 7)
+    mixed = [b"in memory", (5, 6)]
+    assert Places.of(mixed) is mixed
+    with pytest.raises(IndexError):
+        held[3]

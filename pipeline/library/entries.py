@@ -199,10 +199,13 @@ class Entries(LazyList):
 
     def read_only(self) -> "Entries":
         """These entries as reading them needs, for another process (core.spill.dumps_across):
-        without their outlines and digests (made again from the entries if asked for)."""
+        without their outlines and digests (made again from the entries if asked for), the
+        places of those in a spill held compact (core.spill.Places)."""
+        from ..core.spill import Places
+
         out = Entries.__new__(Entries)
         out._ids, out._blobs, out._formulas, out._more = \
-            self._ids, self._blobs, self._formulas, self._more
+            self._ids, Places.of(self._blobs), self._formulas, self._more
         out._spill, out._index, out._outlines, out._digests = self._spill, None, None, None
         return out
 

@@ -168,6 +168,14 @@ class PackedRows(Mapping):
             at += n * dtype.itemsize
         return rows
 
+    def read_only(self) -> "PackedRows":
+        """The same rows for another process (core.spill.dumps_across): the places of the
+        spilled records held compact (core.spill.Places)."""
+        from ..core.spill import Places
+
+        return PackedRows({**b, "spilled": Places(b["spilled"])} if "spilled" in b else b
+                          for b in self._blocks)
+
     def __contains__(self, sid) -> bool:
         return sid in self._where        # (Mapping's own would unpack the species' rows)
 

@@ -45,14 +45,12 @@ class Outcome:
 #: hold the most, is made here as without a helper. The report waits for the helper: its
 #: workers take both cores, and more processes at once hold more memory
 ASIDE_FROM, ASIDE_UNTIL = 2000, 40000
-#: a larger release, written without the report drawn meanwhile and with nothing taken from
-#: the last release, has tables.parquet written by a process started fresh instead
-#: (core.processes.fresh_aside), which reads the evaluated tables and the entries from the
-#: build's scratch file itself (core.spill.dumps_across). At 100 000 species tables.parquet
-#: took 9 of the 27 s the build's own process spent after the partitions; written so, the
-#: build took 91-92 instead of 107-110 s and peaked at 929-937 MiB, where a forked helper
-#: (which copies the build's pages as it touches them) made it peak at 1 021 MiB
-FRESH_NAMES = ("tables.parquet",)
+# A larger release, written without the report drawn meanwhile and taking nothing of
+# library.json and tables.parquet from the last release, has both written by a process
+# started fresh instead (``_fresh_aside``, core.processes.fresh_aside), which reads the
+# entries and the evaluated tables from the build's scratch file itself (core.spill.
+# dumps_across) and copies nothing of the build's heap: see ``_fresh_aside`` for what it
+# saves. A forked helper at 100 000 species made the build peak at 1 021 MiB.
 
 
 def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None,
@@ -102,13 +100,11 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None
         release.between = drawn.pump if drawn else None
         fresh = staging is None and not early and len(ids) >= ASIDE_UNTIL and \
             (os.cpu_count() or 1) > 1 and release.staging() is not None and \
-            not (takes and takes[1].usable)
-        if fresh:
-            aside = FRESH_NAMES
+            not (takes and (takes[0].usable or takes[1].usable))
         with (processes.aside(aside_files, doc, own, out.table_step, staging.write_chunks,
                               takes and takes[:2], aside, findings_doc)
               if staging else _fresh_aside(doc, own, out.table_step, release.staging(),
-                                           takes and takes[1])
+                                           takes and takes[:2])
               if fresh else nullcontext()) as helper:
             aside_findings = helper is not None and "findings.json" in aside
             document.release_files(doc, None if aside_findings else findings_doc, release,
@@ -152,37 +148,40 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None
 
 
 @contextmanager
-def _fresh_aside(doc: dict, own, step: float, staging, taking=None):
-    """``aside_files`` of FRESH_NAMES in a process started fresh (``FRESH_NAMES``), written
-    into ``staging``; ``taking`` (reuse.Taking of tables.parquet, taking nothing) hears
-    where each species' rows lie, given back with the files. None when no such process can
-    read the build's scratch file or be started (the build's own process then writes
-    them)."""
+def _fresh_aside(doc: dict, own, step: float, staging, takes=None):
+    """``aside_files`` of ASIDE_NAMES in a process started fresh (core.processes.fresh_aside),
+    written into ``staging``; with ``takes`` (the reuse.Takings of library.json and
+    tables.parquet, taking nothing), where each species' pieces lie comes back with the
+    files. None when no such process can read the build's scratch file or be started (the
+    build's own process then writes them). At 100 000 species the release after the
+    partitions took 15.9-16.6 instead of 22.4-23.0 s (the two codes in turn, twice each),
+    and the build peaked at 913-921 MiB; what crosses is 1.4 MB at 10 000 species (the
+    places of the entries and rows held compact: ``Entries.read_only``,
+    ``PackedRows.read_only``)."""
     from ..core.spill import dumps_across
 
-    placing = reuse.Taking.placing("tables.parquet", len(taking.keys)) \
-        if taking is not None else None
+    placing = tuple(reuse.Taking.placing(t.name, len(t.keys)) for t in takes) \
+        if takes else None
     try:
         species = doc["species"]
         data = dumps_across(({**doc, "species": species.read_only() if isinstance(
-            species, Entries) else species}, own, placing))
+            species, Entries) else species}, own.read_only(), placing))
     except OSError:
         yield None
         return
-    with processes.fresh_aside((__name__,), _aside_across, data, step,
+    with processes.fresh_aside((__name__,), _aside_across, [data], step,
                                staging.write_chunks) as helper:
         yield helper
 
 
-def _aside_across(data: bytes, step: float, write) -> tuple:
-    """``aside_files`` of FRESH_NAMES of the (document, evaluated tables, tables.parquet's
-    Taking or None) ``data`` (core.spill.dumps_across), in the fresh process of
-    ``_fresh_aside``."""
+def _aside_across(box: list, step: float, write) -> tuple:
+    """``aside_files`` of ASIDE_NAMES of the (document, evaluated tables, the Takings of
+    ``_fresh_aside`` or None) pickled in ``box`` (core.spill.dumps_across; taken out of it,
+    so that its bytes go once read), in the fresh process of ``_fresh_aside``."""
     from ..core.spill import loads_across
 
-    doc, own, placing = loads_across(data)
-    return aside_files(doc, own, step, write, None if placing is None else (None, placing),
-                       FRESH_NAMES)
+    doc, own, placing = loads_across(box.pop())
+    return aside_files(doc, own, step, write, placing, ASIDE_NAMES)
 
 
 def _takings(doc: dict, fitted, previous, placed) -> tuple:

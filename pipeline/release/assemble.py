@@ -73,8 +73,9 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None
     out = ctx.outputs
     say = say or (lambda *a: None)
     own = unpack_rows(*outcome.rows)          # each species' rows made when written
-    staging = release.staging() if ASIDE_FROM <= len(ids) < ASIDE_UNTIL and \
-        (os.cpu_count() or 1) > 1 else None
+    cores = os.cpu_count() or 1
+    staging = release.staging() if ASIDE_FROM <= len(ids) < ASIDE_UNTIL and cores > 1 \
+        else None
     takes = _takings(doc, outcome.fitted, previous, placed) if previous is not None else None
     # library.json goes aside unless most of it is taken from the last release: then it
     # costs less than tables.parquet, which is decompressed and compressed again, and
@@ -98,13 +99,14 @@ def release_files(outcome: Outcome, ctx: Settings, release, say=None, pages=None
             doc, outcome.points, ctx.fit.accept_cp_max_rel, say=say, release=release,
             pages=pages.into(release) if pages else None)) if early else None
         release.between = drawn.pump if drawn else None
-        fresh = staging is None and not early and len(ids) >= ASIDE_UNTIL and \
-            (os.cpu_count() or 1) > 1 and release.staging() is not None and \
-            not (takes and (takes[0].usable or takes[1].usable))
+        # beyond the window: the staging a fresh process writes into, when nothing of the
+        # two files is taken from the last release
+        fresh = release.staging() if staging is None and not early and \
+            len(ids) >= ASIDE_UNTIL and cores > 1 and \
+            not (takes and (takes[0].usable or takes[1].usable)) else None
         with (processes.aside(aside_files, doc, own, out.table_step, staging.write_chunks,
                               takes and takes[:2], aside, findings_doc)
-              if staging else _fresh_aside(doc, own, out.table_step, release.staging(),
-                                           takes and takes[:2])
+              if staging else _fresh_aside(doc, own, out.table_step, fresh, takes and takes[:2])
               if fresh else nullcontext()) as helper:
             aside_findings = helper is not None and "findings.json" in aside
             document.release_files(doc, None if aside_findings else findings_doc, release,

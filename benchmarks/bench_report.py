@@ -37,9 +37,9 @@ def main(argv=None) -> int:
         tables.tables_parquet_bytes(result.document)
         t_tables = time.perf_counter() - t0
     size = sum(len(b) for b in files.values()) / 2**20
-    print(f"report for {args.species} species: {t_report:.1f} s "
-          f"({1000 * t_report / args.species:.1f} ms per species, {len(files)} files, "
-          f"{size:.0f} MiB)")
+    print(f"report for {args.species} species: {t_report:.2f} s "
+          f"({1000 * t_report / args.species:.3f} ms per species, {len(files)} files, "
+          f"{size:.1f} MiB)")
     print(f"tables.parquet for {args.species} species: {t_tables:.2f} s")
     return 0
 

@@ -12,7 +12,7 @@ The package's stages are sub-packages that follow the data flow: ``core`` → ``
 use.
 """
 
-__version__ = "0.4.13"
+__version__ = "0.4.14"
 
 _API = ("load_library", "Library", "Species", "SpeciesNotFound")
 __all__ = ["__version__", *_API]

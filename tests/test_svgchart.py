@@ -58,20 +58,56 @@ def test_a_chart_is_deterministic_well_formed_and_breaks_lines_at_nan():
     assert len(root.findall(f".//{ns}polyline")) == 2       # the NaN splits the line
     dots = [x for x in root.iter(f"{ns}path") if x.get("stroke-linecap") == "round"]
     assert len(dots) == 1 and dots[0].get("stroke") == "#111"    # the NaN point is not drawn
-    # x = 1 of 0-10 over 240 px from 40, y = 0.5 of 0-1 over 150 px up from 170
-    assert dots[0].get("d") == "M64.00 95.00h0" and dots[0].get("stroke-width") == "4.4"
+    # x = 1 of 0-10 over 240 px from 40, y = 0.5 of 0-1 over 150 px up from 170, written in
+    # hundredths of a pixel in a shape scaled by 0.01 (its stroke 4.4 px wide)
+    assert dots[0].get("d") == "M6400,9500h0" and dots[0].get("stroke-width") == "440"
+    assert dots[0].get("transform") == "scale(.01)"
+    lines = root.findall(f".//{ns}polyline")
+    assert lines[0].get("points") == "4000,15500 6400,14000 8800,12500"
+    assert {x.get("stroke-width") for x in lines} == {"140"}
     assert b"a &lt;b&gt; &amp; c" in svg
     span = [r for r in root.iter(f"{ns}rect") if r.get("fill") == "#222"][0]
     assert float(span.get("x")) + float(span.get("width")) == pytest.approx(280.0)
     assert not [x for x in root.iter(f"{ns}line") if x.get("stroke") == "#333"]
 
 
-@given(st.lists(st.tuples(st.floats(-1e9, 1e9), st.floats(-1e9, 1e9)), min_size=1, max_size=50))
-def test_points_are_written_as_an_f_string_would(points):
-    from thermoledger.release.svgchart import _repeat
+@given(st.lists(st.tuples(st.floats(-1e12, 1e12), st.floats(-1e12, 1e12)), min_size=1,
+                max_size=50))
+def test_points_are_written_in_hundredths_of_a_pixel_rounded_half_to_even(points):
+    from thermoledger.release.svgchart import _hundredths
+
+    def held(v):      # beyond 10⁹ px a point is held there (its line leaves the panel anyway)
+        return round(min(max(v, -1e9), 1e9) * 100)
 
     a, b = (np.array(v) for v in zip(*points))
-    assert _repeat("%.2f,%.2f", " ", a, b) == " ".join(f"{x:.2f},{y:.2f}" for x, y in points)
+    assert _hundredths(a, b) == "".join(f"{held(x)},{held(y)}\n" for x, y in points)
+    assert _hundredths(np.zeros(0), np.zeros(0)) == ""
+
+
+def test_a_line_with_its_dots_is_the_line_and_the_dots_drawn_apart():
+    x = np.array([1.0, 2.0, np.nan, 4.0, 5.0, 6.0])
+    y = np.array([0.2, 0.4, 0.5, np.inf, 0.3, 0.1])
+
+    def drawn(together):
+        chart = Chart(300, 200)
+        p = chart.panel((40, 20, 240, 150), (0, 10), (0, 1))
+        if together:
+            p.line(x, y, "#000", width=0.8, dash="5,3", dots=2.2)
+        else:
+            p.line(x, y, "#000", width=0.8, dash="5,3")
+            p.dots(x, y, "#000")
+        return chart.to_bytes()
+
+    svg = drawn(True)
+    assert svg == drawn(False)
+    root = ET.fromstring(svg)
+    ns = "{http://www.w3.org/2000/svg}"
+    # broken at the NaN and at the infinity: the pieces (1, 2) and (5, 6), dashed 5,3 px
+    lines = root.findall(f".//{ns}polyline")
+    assert [x.get("points") for x in lines] == ["6400,14000 8800,11000", "16000,12500 18400,15500"]
+    assert {x.get("stroke-dasharray") for x in lines} == {"500,300"}
+    dots = [x for x in root.iter(f"{ns}path") if x.get("stroke-linecap") == "round"]
+    assert dots[0].get("d") == "M6400,14000h0M8800,11000h0M16000,12500h0M18400,15500h0"
 
 
 @given(st.tuples(st.floats(-1e6, 1e6), st.floats(-1e6, 1e6)),

@@ -23,10 +23,10 @@ def species_figure(sp, t, cp, t_out, cp_out, accept) -> str:
     lo, hi = sp["ranges"][0]["t_min"], sp["ranges"][-1]["t_max"]
     ranges = library.ranges_of(sp)
     tf = gridcache.geomspace(lo, hi, 300)    # (read-only: made once for each range of use)
-    cp_fit = forms.cp_of_ranges(ranges, tf, sp["form"])
-    dev = EMPTY
-    if len(t):
-        dev = 100 * (forms.cp_of_ranges(ranges, t, sp["form"]) - cp) / cp
+    # the curve and the fit at the rows in one pass (the same numbers as each alone)
+    cp_fit, cp_at = (ev["Cp"] for ev in forms.evaluate_many([(ranges, tf), (ranges, t)],
+                                                            sp["form"], ("Cp",)))
+    dev = 100 * (cp_at - cp) / cp if len(t) else EMPTY
     span = max(float(np.max(np.abs(dev))) if len(dev) else 0.0, 100 * accept) * 1.2
     xlim = (lo - 0.02 * (hi - lo), hi + 0.02 * (hi - lo))
     chart = Chart(720, 500, grid=GRID, ink=INK, ids="cp-")
@@ -46,8 +46,7 @@ def species_figure(sp, t, cp, t_out, cp_out, accept) -> str:
     for y in (100 * accept, -100 * accept):
         bottom.hline(y, BAD, dash="5,3")
     bottom.hline(0.0, INK, width=0.6)
-    bottom.line(t, dev, DATA, width=0.8)
-    bottom.dots(t, dev, DATA)
+    bottom.line(t, dev, DATA, width=0.8, dots=2.2)
     return chart.element(f"Cp and deviation of {sp['id']}")
 
 
@@ -63,8 +62,7 @@ def deviation_figure(t_h, dh_dev, t_s, s_dev, species_id: str) -> str:
         panel = chart.panel((72 + 360 * k, 34, 270, 168), span_of(t, pad=0.03),
                             span_of(d, [0.0]), title=title, xlabel="T [K]", xticks=5)
         panel.hline(0.0, INK, width=0.6)
-        panel.line(t, d, DATA, width=0.8)
-        panel.dots(t, d, DATA)
+        panel.line(t, d, DATA, width=0.8, dots=2.2)
     return chart.element(f"H and S deviation of {species_id}")
 
 def phase_figure(name, all_transitions, by_id) -> bytes:

@@ -116,8 +116,12 @@ LEGEND = ("<span style=\"color:#d1495b\">&#9473;</span> fitted curve · "
 
 
 def e(text) -> str:
-    """``text`` escaped for HTML (quotes included)."""
-    return html.escape(str(text), quote=True)
+    """``text`` escaped for HTML (quotes included); text without any of the five characters
+    to escape is given back as it is (``html.escape`` would look for each in turn)."""
+    text = str(text)
+    if "&" in text or "<" in text or ">" in text or '"' in text or "'" in text:
+        return html.escape(text, quote=True)
+    return text
 
 
 def page(title, body, depth=0, script="", heading=True) -> bytes:

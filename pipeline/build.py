@@ -295,7 +295,8 @@ def _planned_build(raw_dir, out_dir, ctx, write, progress, wait, previous, cut, 
         # store to look in, while they work on a first or fresh build
         store = partitions.PartStore(
             real / partitions.STORE, partial(partitions.part_keys, raw_dir, cut.parts,
-                                             ctx.to_dict(), previous, digests), use=not fresh)
+                                             ctx.to_dict(), previous, digests), use=not fresh,
+            through=cut.parts >= partitions.THROUGH_FROM)
         drawn = Drawn(real, partitions.code_digest(), use=not fresh) \
             if ctx.outputs.report else None
         context = reuse.context(partitions.code_digest(), __version__, ctx.to_dict())

@@ -731,3 +731,64 @@ def test_merged_findings_are_each_finding_once_in_the_canonical_order(groups):
                         key=partitions._finding_order))
     got = partitions._merged_findings(groups)
     assert got == want and [repr(f) for f in got] == [repr(f) for f in want]
+
+
+def test_a_store_written_through_drops_each_file_it_synced_and_loads_as_kept(tmp_path,
+                                                                              monkeypatch):
+    """A store of a large build (``through``) tells the kernel, file by file once synced,
+    that it will not read them soon (core.paths.drop_cached); what it kept loads as saved.
+    A store of a smaller build leaves its files in the page cache (a rebuild reads them)."""
+    from thermoledger.core import paths
+
+    dropped, real = [], paths.drop_cached
+    monkeypatch.setattr(paths, "drop_cached",
+                        lambda fd: dropped.append(os.fstat(fd).st_ino) or real(fd))
+    keys = ["a" * 64, "b" * 64]
+    for through in (True, False):
+        dropped.clear()
+        folder = tmp_path / f"store-{through}"
+        store = partitions.PartStore(folder, keys, through=through)
+        store.save(1, partitions.PartResult(checked=None, points=(("s1", {"t": 1}),)))
+        store.save(0, partitions.PartResult(checked=None, points=(("s0", {"t": 0}),)))
+        store.commit()
+        kept = {(folder / f"part-{k}.pickle").stat().st_ino for k in keys}
+        assert set(dropped) == (kept if through else set()) and len(dropped) == len(set(dropped))
+        again = partitions.PartStore(folder, keys)
+        assert [again.load(k).points for k in range(2)] == [(("s0", {"t": 0}),),
+                                                            (("s1", {"t": 1}),)]
+
+
+def test_the_kernel_is_told_where_it_can_be_and_nothing_breaks_where_it_cannot(tmp_path,
+                                                                              monkeypatch):
+    from thermoledger.core import paths
+
+    (tmp_path / "x").write_bytes(b"z" * 10000)
+    with open(tmp_path / "x", "rb+") as fh:
+        assert paths.drop_cached(fh.fileno()) is hasattr(os, "posix_fadvise")
+    assert paths.drop_cached(-1) is False                   # the call fails: not told
+    monkeypatch.delattr(os, "posix_fadvise", raising=False)
+    with open(tmp_path / "x", "rb+") as fh:
+        assert paths.drop_cached(fh.fileno()) is False
+    assert (tmp_path / "x").read_bytes() == b"z" * 10000
+
+
+def test_a_build_of_as_many_partitions_as_a_large_one_writes_its_store_through(
+        tmp_path, capsys, monkeypatch):
+    """From THROUGH_FROM partitions on, the build's store is written through the page cache:
+    the same store and release as without (the threshold moved down to the demo's)."""
+    from thermoledger.core import paths
+
+    dropped, real = [], paths.drop_cached
+    monkeypatch.setattr(paths, "drop_cached", lambda fd: dropped.append(fd) or real(fd))
+    homes = {}
+    for through_from in (10 ** 9, 1):
+        monkeypatch.setattr(partitions, "THROUGH_FROM", through_from)
+        homes[through_from] = tmp_path / f"out-{through_from}"
+        code, _, _ = run_cli(capsys, "build", "--raw", RAW, "--out", homes[through_from],
+                             "--quiet", "--no-report", "--workers", 3)
+        assert code == 0
+        assert len(dropped) == (0 if through_from > 1 else 3)
+    assert tree_hashes(homes[1]) == tree_hashes(homes[10 ** 9])
+    stores = [sorted(p.name for p in (home / partitions.STORE).glob("part-*.pickle"))
+              for home in homes.values()]
+    assert stores[0] == stores[1] and len(stores[0]) == 3

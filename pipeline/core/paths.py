@@ -55,6 +55,20 @@ def start_writeback(fd: int) -> bool:
     return call is not None and call(fd, 0, 0, SYNC_FILE_RANGE_WRITE) == 0
 
 
+def drop_cached(fd: int) -> bool:
+    """Tell the kernel that the pages of the file open as ``fd``, written and synced, will
+    not be read soon (posix_fadvise DONTNEED; nothing where it is missing): they are freed
+    at once, and the build's next writes take them instead of pages the machine has yet to
+    give (common practice for large write-once files). Whether the kernel was told."""
+    if not hasattr(os, "posix_fadvise"):
+        return False
+    try:
+        os.posix_fadvise(fd, 0, 0, os.POSIX_FADV_DONTNEED)
+    except OSError:
+        return False
+    return True
+
+
 def sync_files(folder: Path, rels) -> None:
     """Make the files ``rels`` (relative paths) under ``folder``, and the folders that hold
     them, durable before anything points at them. On Linux one syncfs(2) of the file system

@@ -121,3 +121,19 @@ def test_one_value_is_placed_as_numpy_places_it(xlim, ylim, values):
     p = Panel((72, 34, 626, 266), xlim, ylim)
     assert [p.x(v).hex() for v in values] == [float(a).hex() for a in p.px(values)]
     assert [p.y(v).hex() for v in values] == [float(b).hex() for b in p.py(values)]
+
+
+def test_a_species_without_rows_gets_its_fitted_curve_alone():
+    import json
+    from pathlib import Path
+
+    from thermoledger.release import plots
+
+    library = Path(__file__).resolve().parent.parent / "curated" / "library.json"
+    sp = json.loads(library.read_text())["species"][0]
+    empty = np.zeros(0)
+    svg = plots.species_figure(sp, empty, empty, empty, empty, 0.01)
+    root = ET.fromstring(svg.replace("<svg", "<svg xmlns=\"http://www.w3.org/2000/svg\"", 1))
+    ns = "{http://www.w3.org/2000/svg}"
+    assert len(root.findall(f".//{ns}polyline")) == 1          # the fit, no deviation line
+    assert not [x for x in root.iter(f"{ns}path") if x.get("stroke-linecap") == "round"]

@@ -130,7 +130,7 @@ class Panel:
     def dots(self, x, y, colour, radius=2.2) -> None:
         """A round dot of ``radius`` [px] at each finite (x, y): one path of zero-length
         subpaths with round caps (SVG 1.1, 11.4: such a subpath is drawn as a disc), some
-        12 bytes a dot instead of a circle element's 55."""
+        14 bytes a dot ("M12345,23456h0") instead of a circle element's 55."""
         self._dots(_hundredths(*self._finite(x, y)), colour, radius)
 
     def _dots(self, text: str, colour, radius) -> None:

@@ -17,7 +17,11 @@ a temporary folder, then runs the real commands in a child process and measures,
 
 ``--flagged`` plants one outlier in every table and acknowledges it in source.json, so that
 every table carries a finding (a quadratic scan of the findings would show at once).
-Start-up of ``check`` (an empty folder) and ``props`` (the demo library) is printed too.
+Start-up of ``check`` (an empty folder) and ``props`` (the demo library) is printed too, and
+the time of a fixed reference workload in this process at the start and at the end
+(``host_speed``): figures taken on two machines, or hours apart, compare only beside it (the
+same code ran half as fast on one machine of this kind as on another, and the workload took
+60 % longer on one machine from one minute to the next).
 """
 
 import argparse
@@ -92,6 +96,31 @@ def timed(argv, expect: str = "") -> tuple:
     return wall, peak[0] / 1024.0, proc.returncode
 
 
+def host_speed(repeat: int = 5) -> tuple:
+    """(pure Python [ms], small numpy solves [ms]) of a fixed workload, the fastest of
+    ``repeat``: a sum of 200 000 squares in a generator, and 2 000 solves of a 12 x 12
+    system (a build's work is made of both kinds)."""
+    rng = np.random.default_rng(0)
+    a = rng.standard_normal((12, 12)) + 12.0 * np.eye(12)
+    b = rng.standard_normal(12)
+
+    def best(f) -> float:
+        times = []
+        for _ in range(repeat):
+            t0 = time.perf_counter()
+            f()
+            times.append(time.perf_counter() - t0)
+        return 1e3 * min(times)
+
+    return (best(lambda: sum(i * i for i in range(200_000))),
+            best(lambda: [np.linalg.solve(a, b) for _ in range(2_000)]))
+
+
+def _speed() -> str:
+    py_ms, np_ms = host_speed()
+    return f"python {py_ms:.1f} ms, numpy {np_ms:.1f} ms (reference workload; lower is faster)"
+
+
 def naive(raw: Path, limit: int) -> float:
     """Species per second of the naive script on the first ``limit`` tables of ``raw``."""
     import pandas as pd
@@ -134,6 +163,7 @@ def main(argv=None) -> int:
         start_props = min(timed(["props", str(ROOT / "curated"), "N2", "1000"])[0]
                           for _ in range(3))
         print(f"start-up: check {start_check:.2f} s (empty folder), props {start_props:.2f} s")
+        print(f"host speed at the start: {_speed()}")
         print(f"{'species':>8} {'command':<22} {'wall [s]':>9} {'species/s':>10} {'peak [MiB]':>11}")
         for n in sizes:
             raw, out = Path(tmp) / f"raw{n}", Path(tmp) / f"out{n}"
@@ -157,6 +187,7 @@ def main(argv=None) -> int:
 
             for folder in (raw, out, Path(str(out) + "r")):
                 shutil.rmtree(folder, ignore_errors=True)
+    print(f"host speed at the end: {_speed()}")
     return 0
 
 

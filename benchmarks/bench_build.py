@@ -116,7 +116,8 @@ def host_speed(repeat: int = 5) -> tuple:
             best(lambda: [np.linalg.solve(a, b) for _ in range(2_000)]))
 
 
-def _speed() -> str:
+def speed_line() -> str:
+    """``host_speed`` as the benchmarks print it."""
     py_ms, np_ms = host_speed()
     return f"python {py_ms:.1f} ms, numpy {np_ms:.1f} ms (reference workload; lower is faster)"
 
@@ -163,7 +164,7 @@ def main(argv=None) -> int:
         start_props = min(timed(["props", str(ROOT / "curated"), "N2", "1000"])[0]
                           for _ in range(3))
         print(f"start-up: check {start_check:.2f} s (empty folder), props {start_props:.2f} s")
-        print(f"host speed at the start: {_speed()}")
+        print(f"host speed at the start: {speed_line()}")
         print(f"{'species':>8} {'command':<22} {'wall [s]':>9} {'species/s':>10} {'peak [MiB]':>11}")
         for n in sizes:
             raw, out = Path(tmp) / f"raw{n}", Path(tmp) / f"out{n}"
@@ -187,7 +188,7 @@ def main(argv=None) -> int:
 
             for folder in (raw, out, Path(str(out) + "r")):
                 shutil.rmtree(folder, ignore_errors=True)
-    print(f"host speed at the end: {_speed()}")
+    print(f"host speed at the end: {speed_line()}")
     return 0
 
 

@@ -11,7 +11,8 @@ noise, 100 points 200-3000 K), prints:
   extension models, the fit with its extension, the extrapolated uncertainty in the release);
 * in this process, ``extrapolate.extend`` of each table to 6000 K: the share of species
   whose linear models fail their hold-out test (the non-linear search runs), and the mean
-  and median time per species [ms].
+  and median time per species [ms];
+* the time of bench_build's reference workload (``host_speed``) at the start and the end.
 """
 
 import argparse
@@ -24,7 +25,7 @@ import time
 from pathlib import Path
 
 import numpy as np
-from bench_build import COMMAND, make_raw
+from bench_build import COMMAND, make_raw, speed_line
 from thermoledger.core import chemistry
 from thermoledger.fit import extrapolate
 
@@ -64,6 +65,7 @@ def main(argv=None) -> int:
                    help="builds of each kind, taken in turn; the fastest of each counts")
     args = p.parse_args(argv)
     n = args.species
+    print(f"host speed at the start: {speed_line()}")
     with tempfile.TemporaryDirectory() as tmp:
         raw = Path(tmp) / "raw"
         make_raw(raw, n, 100)
@@ -79,6 +81,7 @@ def main(argv=None) -> int:
         print(f"extend to 6000 K: {100 * sum(slow) / n:.1f} % of species take the non-linear "
               f"search; {1e3 * statistics.mean(times):.2f} ms per species on average, "
               f"median {1e3 * statistics.median(times):.2f} ms")
+    print(f"host speed at the end: {speed_line()}")
     return 0
 
 

@@ -16,7 +16,8 @@ breakpoints), then times, as the command line runs them (start-up included) [s]:
 
 What earlier commands and the copy wrote is flushed (os.sync) before each timed command:
 unflushed, the 160 MB copy of a 10 000-species release home was written back during the
-rebuild after it and added some 0.7 s to it.
+rebuild after it and added some 0.7 s to it. The time of bench_build's reference workload
+(``host_speed``) is printed at the start and the end.
 """
 
 import argparse
@@ -29,7 +30,7 @@ import tempfile
 import time
 from pathlib import Path
 
-from bench_build import COMMAND, make_raw
+from bench_build import COMMAND, make_raw, speed_line
 
 
 def _run(*argv) -> tuple:
@@ -69,6 +70,7 @@ def main(argv=None) -> int:
     p.add_argument("--repeat", type=int, default=3,
                    help="rebuilds of each kind (each edit another value of the same table)")
     args = p.parse_args(argv)
+    print(f"host speed at the start: {speed_line()}")
     with tempfile.TemporaryDirectory() as tmp:
         raw, out, copy = Path(tmp) / "raw", Path(tmp) / "out", Path(tmp) / "copy"
         make_raw(raw, args.species, 100)
@@ -90,6 +92,7 @@ def main(argv=None) -> int:
         same_bytes = _tree(out) == _tree(copy)
         print(f"one table edited: {_times([t for t, _ in edited])} ({edited[-1][1]}); "
               f"--fresh: {fresh:.1f} s; byte-identical: {same_bytes}")
+    print(f"host speed at the end: {speed_line()}")
     return 0
 
 

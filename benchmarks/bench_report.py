@@ -2,7 +2,8 @@
 
     .venv/bin/python benchmarks/bench_report.py --species 1000
 
-Builds the library without the report, then times the report alone and the tables [s].
+Builds the library without the report, then times the report alone and the tables [s], and
+prints the time of bench_build's reference workload (``host_speed``).
 """
 
 import argparse
@@ -11,7 +12,7 @@ import tempfile
 import time
 from pathlib import Path
 
-from bench_build import make_raw
+from bench_build import make_raw, speed_line
 from thermoledger import build
 from thermoledger.core.settings import OutputSettings, Settings
 from thermoledger.release import report, tables
@@ -41,6 +42,7 @@ def main(argv=None) -> int:
           f"({1000 * t_report / args.species:.3f} ms per species, {len(files)} files, "
           f"{size:.1f} MiB)")
     print(f"tables.parquet for {args.species} species: {t_tables:.2f} s")
+    print(f"host speed: {speed_line()}")
     return 0
 
 

@@ -23,7 +23,8 @@ With --checks, each registered check alone (checks.registry.CHECKS) over every t
 table], best of --repeat runs: where the check stage's time goes.
 
 What a build adds beyond its partitions (the release files, the report) is timed by
-bench_build.py as a whole.
+bench_build.py as a whole. The time of its reference workload (bench_build.host_speed) is
+printed after the runs.
 """
 
 import argparse
@@ -33,6 +34,7 @@ import time
 from dataclasses import replace
 from pathlib import Path
 
+from bench_build import speed_line
 from thermoledger import build, fit, ingest, partitions
 from thermoledger.checks import registry, transitions
 from thermoledger.core.processes import collector_paused
@@ -107,6 +109,7 @@ def main(argv=None) -> int:
             build._build_part(raw, ctx, {}, build._quiet, partitions.Part(0, 1))   # warm
             runs = [stages(raw, ctx) for _ in range(args.repeat)]
             checks = [each_check(raw, ctx) for _ in range(args.repeat)] if args.checks else []
+    speed = speed_line()
     n = runs[0].pop("species")
     for r in runs[1:]:
         r.pop("species")
@@ -127,6 +130,7 @@ def main(argv=None) -> int:
         for name, seconds in sorted(each.items(), key=lambda kv: -kv[1]):
             print(f"  {name:30s} {1e3 * seconds / tables:7.4f}")
         print(f"  {'sum':30s} {1e3 * sum(each.values()) / tables:7.4f}")
+    print(f"host speed after the runs: {speed}")
     return 0
 
 

@@ -224,12 +224,12 @@ def _processes_tagged(tag: str) -> list:
     return pids
 
 
-def _wait_for(predicate, limit=120.0):
+def _wait_for(predicate, limit=120.0, step=0.05):
     t0 = time.monotonic()
     while time.monotonic() - t0 < limit:
         if predicate():
             return True
-        time.sleep(0.05)
+        time.sleep(step)
     return False
 
 
@@ -329,20 +329,19 @@ def test_check_names_a_whole_source_held_back(tmp_path, raw, capsys):
     assert code == 1 and "  held back: broken/source.json (SRC-TOO-DEEP)" in out
 
 
-def _loading_numpy(pid: int, timeout: float = 60.0) -> bool:
+def _loading_numpy(pid: int) -> bool:
     """Wait until process ``pid`` has mapped one of numpy's extension modules (its imports
     under way, so that thermoledger's own start-up code runs); False where /proc cannot
     tell or when the process ended first."""
     maps = Path(f"/proc/{pid}/maps")
-    end = time.monotonic() + timeout
-    while time.monotonic() < end:
+
+    def mapped() -> bool | None:
         try:
-            if "numpy" in maps.read_text():
-                return True
+            return "numpy" in maps.read_text()
         except OSError:
-            return False
-        time.sleep(0.005)
-    return False
+            return None          # no /proc, or the process is gone: stop waiting
+
+    return _wait_for(lambda: mapped() is not False, 60.0, 0.005) and bool(mapped())
 
 
 def test_ctrl_c_while_starting_never_prints_a_traceback(tmp_path, raw):

@@ -1,6 +1,7 @@
 """Orchestration: ingest -> validate -> reconcile -> fit -> release. Only wires the stages;
 each stage's work, and its tests, live in its own sub-package."""
 
+import pickle
 import tempfile
 from array import array
 from collections.abc import Sequence
@@ -410,19 +411,24 @@ def _build_part(raw_dir, ctx: Settings, previous: dict, say, part) -> partitions
     reference species of every partition); the tables go on without their rows (what
     follows needs their metadata only), the library entries and the manifest's lineages as
     compact JSON (library.entries: 4.9 instead of 11.8 KB per species) and the fitted
-    species as (release.held.Brief, pickle), put in the build's scratch file by ``_held``."""
+    species and the plot points pickled (the fitted species as (release.held.Brief,
+    pickle)), put in the build's scratch file by ``_held``; no selections (what follows
+    needs none: some 1.6 of the 4.5 ms the build's process took to unpickle a stored
+    partition of 64 species, and as much for one a worker sent)."""
     checked = examine_part(raw_dir, ctx, part)
     fitted, quarantined, findings, entries = _fit_all(checked, ctx, say, previous)
     points = assemble.plot_points(entries.values(), checked)   # whatever the outputs
     rows = assemble.evaluated_rows(entries, checked.chains, ctx.outputs.table_step)
-    checked, fitted = _without_rows(checked, _lineage_only(fitted))
+    checked, fitted = _without_rows(replace(checked, selections=()), _lineage_only(fitted))
     lineages = tuple((sp.table.meta.species_id, compact(provenance.lineage(sp))) for sp in fitted)
     blobs = tuple((sid, compact(e)) for sid, e in entries.items())
     return partitions.PartResult(
         checked=checked, fitted=tuple((held.brief(sp), held.pickled(sp)) for sp in fitted),
         lineages=lineages, quarantined=tuple(quarantined), findings=tuple(findings),
         entries=blobs, outlines=tuple((sid, compact(outline(e))) for sid, e in entries.items()),
-        points=tuple(points.items()), rows=(rows,), digests=_digests(blobs, lineages))
+        points=tuple((sid, pickle.dumps(p, protocol=pickle.HIGHEST_PROTOCOL))
+                     for sid, p in points.items()),
+        rows=(rows,), digests=_digests(blobs, lineages))
 
 
 def _digests(entries, lineages) -> tuple:
@@ -478,10 +484,10 @@ def _held(spill, report: bool, result: partitions.PartResult) -> partitions.Part
     species, their lineages, library entries and outlines, evaluated tables and report's
     plot points in the build's scratch file (core.spill.Spill, one write for each kind;
     some 14 KB per species, 19 with the plot points), only where they lie held; without a
-    report, no plot points; no selections (what follows needs none). The partition kept for
-    the next build has them all. Its species' file names are made now (core.names.file_stem
-    keeps them): the release names every species' files, and the build's process, which
-    waits on the partitions computed elsewhere, has the time now (0.05 s at 10 000)."""
+    report, no plot points (the partition kept for the next build has them). Its species'
+    file names are made now (core.names.file_stem keeps them): the release names every
+    species' files, and the build's process, which waits on the partitions computed
+    elsewhere, has the time now (0.05 s at 10 000)."""
     from .core.names import file_stem
     from .library.tables import spill_rows
 
@@ -491,13 +497,10 @@ def _held(spill, report: bool, result: partitions.PartResult) -> partitions.Part
     def put(pairs):
         return tuple(zip((key for key, _ in pairs), spill.put_many(blob for _, blob in pairs)))
 
-    return replace(result, checked=replace(result.checked, selections=()),
-                   fitted=put(result.fitted), lineages=put(result.lineages),
+    return replace(result, fitted=put(result.fitted), lineages=put(result.lineages),
                    entries=put(result.entries), outlines=put(result.outlines),
                    rows=tuple(spill_rows(block, spill) for block in result.rows),
-                   points=tuple(zip((sid for sid, _ in result.points),
-                                    spill.put_objects(p for _, p in result.points)))
-                   if report else ())
+                   points=put(result.points) if report else ())
 
 
 def _quiet(stage, i=0, n=0, label=""):

@@ -92,7 +92,7 @@ class PartResult:
     quarantined: tuple = ()   # (TableMeta, findings), after fitting
     findings: tuple = ()      # every finding, after fitting
     entries: tuple = ()       # (species id, compact JSON of its library entry)
-    points: tuple = ()        # (species id, report plot points), when there is a report
+    points: tuple = ()        # (species id, report plot points; a build's pickled)
     rows: tuple = ()          # library.tables.pack_rows blocks: its species' evaluated tables
     outlines: tuple = ()      # (species id, compact JSON of library.entries.outline), as entries
     digests: tuple = ()       # (species id, sha256 of its entry's compact JSON, of its lineage's)

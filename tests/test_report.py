@@ -384,7 +384,7 @@ def test_a_report_drawn_from_spilled_points_by_workers_is_the_one_drawn_here(tmp
             points[species[-1]["id"]] = drawn[s["id"]]
     here = report.report_files({**doc, "species": species}, points, 0.01, workers=1)
     spill = Spill(tmp_path)
-    spilled = SpilledObjects(spill, dict(zip(points, spill.put_objects(points.values()))))
+    spilled = SpilledObjects(spill, {sid: spill.put_object(p) for sid, p in points.items()})
     assert report.report_files({**doc, "species": Entries.of(species)}, spilled, 0.01,
                                workers=2) == here
     assert any(b"<path" in data for rel, data in here.items() if rel.startswith("report/species"))

@@ -89,9 +89,10 @@ def test_objects_in_a_spill_are_unpickled_when_read(tmp_path):
     objs = {"a": {"t": np.arange(3.0), "dh": (np.zeros(2), np.ones(2))}, "b": {}}
     held = SpilledObjects(spill, {k: spill.put_object(v) for k, v in objs.items()})
     assert list(held) == ["a", "b"] and len(held) == 2 and held.get("c", 7) == 7
-    at_once = SpilledObjects(spill, dict(zip(objs, spill.put_objects(objs.values()))))
+    pickled = [pickle.dumps(v, protocol=pickle.HIGHEST_PROTOCOL) for v in objs.values()]
+    at_once = SpilledObjects(spill, dict(zip(objs, spill.put_many(pickled))))
     assert at_once["a"]["t"].tolist() == [0.0, 1.0, 2.0] and at_once["b"] == {}
-    assert spill.put_many([]) == [] and spill.put_objects([]) == []
+    assert spill.put_many([]) == []
     assert held["b"] == {} and held["a"]["dh"][1].tolist() == [1.0, 1.0]
     assert held["a"] is not held["a"]                   # a fresh object at each read
     assert held.pickled("a") == pickle.dumps(objs["a"], protocol=pickle.HIGHEST_PROTOCOL)

@@ -57,11 +57,6 @@ class Spill:
         """(offset, size) of ``obj`` pickled (read back by SpilledObjects)."""
         return self.put(pickle.dumps(obj, protocol=pickle.HIGHEST_PROTOCOL))
 
-    def put_objects(self, objs) -> list:
-        """[(offset, size)] of each of ``objs`` pickled, as ``put_object`` (one write)."""
-        return self.put_many(pickle.dumps(obj, protocol=pickle.HIGHEST_PROTOCOL)
-                             for obj in objs)
-
     def at(self) -> "SpillAt":
         """Where another process of this machine opens this file to read it (SpillReader)."""
         st = os.fstat(self._fd)
@@ -79,8 +74,9 @@ class Spill:
 
 
 class SpilledObjects(Mapping):
-    """{key: object} of objects this process pickled into a Spill (``put_object``), each
-    unpickled when it is read: ``where`` maps the keys to their (offset, size)."""
+    """{key: object} of objects pickled into a Spill (``put_object``, or their pickles
+    made elsewhere and ``put_many``), each unpickled when it is read: ``where`` maps the
+    keys to their (offset, size)."""
 
     def __init__(self, spill: Spill, where: dict):
         self._spill, self._where = spill, where

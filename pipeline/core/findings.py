@@ -11,6 +11,8 @@ source was preferred).
 
 from dataclasses import dataclass, field, replace
 
+from .slotstate import quick_state
+
 ERROR, WARNING, INFO = "error", "warning", "info"
 SEVERITY_ORDER = {ERROR: 0, WARNING: 1, INFO: 2}
 
@@ -272,6 +274,7 @@ READING_PREFIXES = ("SRC-", "TAB-", "COL-", "ROW-", "CELL-", "UNIT-UNKNOWN", "UN
                     "UNIT-TOO-COMPLEX", "VALUE-RANGE", "UCP-PARTIAL")
 
 
+@quick_state
 @dataclass(frozen=True, slots=True)
 class Finding:
     """One reported problem or decision.

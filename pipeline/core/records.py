@@ -26,6 +26,7 @@ from functools import cached_property
 import numpy as np
 
 from .rows import Rows
+from .slotstate import quick_state
 
 #: the values ``alike`` hands out, by type and repr
 _ALIKE = {}
@@ -116,6 +117,7 @@ class PublishedSet:
         return tuple(r[1] for r in self.ordered[:-1])
 
 
+@quick_state
 @dataclass(frozen=True, slots=True)
 class TableMeta:
     """One table as listed in source.json, with what ingest learnt while reading it."""
@@ -313,6 +315,7 @@ class CpData:
                    s=given(rows, "S"), u_dh=given(rows, "u_dH"), u_s=given(rows, "u_S"))
 
 
+@quick_state
 @dataclass(frozen=True, slots=True)
 class InputFile:
     """One raw input file: its path under raw/, sha256 and size."""

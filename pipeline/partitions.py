@@ -384,19 +384,17 @@ class Digests:
             except (OSError, ValueError):
                 pass
 
-    def of(self, path: Path, st=None, text=None) -> str:
-        """The sha256 of file ``path`` (hex); ``st``: its os.stat result, and ``text`` the
-        path as a string, when already made."""
-        st = path.stat() if st is None else st
-        text = str(path) if text is None else text
+    def of(self, path: str, st) -> str:
+        """The sha256 of file ``path`` (hex; a string: pathlib's objects cost more than the
+        rest), whose os.stat result is ``st``."""
         identity = list(paths.identity(st))
-        kept = self.known.get(text)
+        kept = self.known.get(path)
         if isinstance(kept, list) and kept[:-1] == identity:
             digest = kept[-1]
         else:
-            digest = hashlib.sha256(path.read_bytes()).hexdigest()
+            digest = _sha256_of(path)
         if paths.settled(st):
-            self.seen[text] = identity + [digest]
+            self.seen[path] = identity + [digest]
         return digest
 
     def save(self) -> None:
@@ -408,7 +406,12 @@ class Digests:
             paths.write_atomic(self.path, orjson.dumps(self.seen, option=orjson.OPT_SORT_KEYS))
 
 
-def _file_digest(path: Path, raw: str, digests=None) -> str:
+def _sha256_of(path: str) -> str:
+    with open(path, "rb") as fh:
+        return hashlib.sha256(fh.read()).hexdigest()
+
+
+def _file_digest(path, raw: str, digests=None) -> str:
     """What a listed file contributes to a key: its sha256 (remembered by ``digests``, a
     Digests, when given), or what ingest sees instead of content (a link, a folder,
     nothing, a path outside ``raw`` (a real path), a file too large to be read, by its
@@ -426,8 +429,7 @@ def _file_digest(path: Path, raw: str, digests=None) -> str:
     if st is not None and stat.S_ISREG(st.st_mode):
         if st.st_size > MAX_TABLE_BYTES:
             return f"size:{st.st_size}"
-        return digests.of(Path(text), st, text) if digests else \
-            hashlib.sha256(Path(text).read_bytes()).hexdigest()
+        return digests.of(text, st) if digests else _sha256_of(text)
     return "dir" if st is not None and stat.S_ISDIR(st.st_mode) else "absent"
 
 
@@ -472,21 +474,25 @@ def part_keys(raw_dir, parts: int, settings: dict, previous: dict, digests=None)
     for sid, points in sorted(previous.items()):
         own[hashed_partition(species_name(sid), parts)].update(f"{sid}{points}\n".encode())
 
-    def digest(path: Path) -> str:
-        return _file_digest(path, real, digests)
+    def digest(folder: str, name) -> str:
+        # a plain file name joined as a string (pathlib's objects cost more than the rest,
+        # 10 000 times); any other as pathlib joins it, as ingest reads it
+        plain = isinstance(name, str) and "/" not in name and name not in ("", ".", "..")
+        return _file_digest(os.path.join(folder, name) if plain else Path(folder) / name,
+                            real, digests)
 
     for src in sorted(raw.glob("*/source.json")):
-        shared.update(f"{src.parent.name}\0{digest(src)}\n".encode())
+        shared.update(f"{src.parent.name}\0{_file_digest(src, real, digests)}\n".encode())
+        folder = str(src.parent)
         try:
             if src.stat().st_size > MAX_SOURCE_BYTES:
                 continue      # refused by ingest: its size is in the key
             doc = json.loads(src.read_bytes())
             for entry in doc.get("coefficient_sets", ()):
-                shared.update(f"{entry['file']}\0{digest(src.parent / entry['file'])}\n".encode())
+                shared.update(f"{entry['file']}\0{digest(folder, entry['file'])}\n".encode())
             for entry in doc.get("tables", ()):
                 part = hashed_partition(str(entry["species"]), parts)
-                own[part].update(f"{entry['file']}\0{digest(src.parent / entry['file'])}\n"
-                                 .encode())
+                own[part].update(f"{entry['file']}\0{digest(folder, entry['file'])}\n".encode())
         except (OSError, ValueError, AttributeError, TypeError, KeyError, RecursionError):
             continue      # such a source.json is refused by ingest; its bytes are in the key
     base = shared.hexdigest()

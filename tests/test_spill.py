@@ -49,18 +49,26 @@ def test_entries_in_a_spill_read_and_are_put_back_there(tmp_path):
     assert kept[2] == changed and isinstance(kept._blobs[2], tuple)
 
 
-def test_packed_rows_in_a_spill_are_the_rows_packed(tmp_path):
-    own = {f"s{i}": {"id": [f"s{i}"] * (i + 1), "phase": ["g"] * (i + 1),
-                     **{c: np.linspace(1.0, 2.0, i + 1) if c not in tables.FLAGS
-                        else np.arange(i + 1) % 2 == 0
+@pytest.mark.parametrize("rows_of", [lambda i: i + 1, lambda i: 4],
+                         ids=["rows of each species", "the same rows for all"])
+def test_packed_rows_in_a_spill_are_the_rows_packed(tmp_path, rows_of):
+    """Each species' record in the spill is its columns' bytes one after another, whether
+    the species have as many rows each (written as one array) or not."""
+    own = {f"s{i}": {"id": [f"s{i}"] * rows_of(i), "phase": ["g"] * rows_of(i),
+                     **{c: np.linspace(1.0 + i, 2.0, rows_of(i)) if c not in tables.FLAGS
+                        else np.arange(rows_of(i)) % 2 == i % 2
                         for c in tables.COLUMNS if c not in tables.TEXT}} for i in range(5)}
     block = tables.pack_rows(own)
-    kept = tables.unpack_rows(tables.spill_rows(block, Spill(tmp_path)))
+    spill = Spill(tmp_path)
+    spilled = tables.spill_rows(block, spill)
+    kept = tables.unpack_rows(spilled)
     plain = tables.unpack_rows(block)
-    for sid in own:
+    for k, sid in enumerate(own):
         assert list(kept[sid]) == list(plain[sid])
         for c, v in plain[sid].items():
             assert np.asarray(kept[sid][c]).tobytes() == np.asarray(v).tobytes()
+        assert spill.get(*spilled["spilled"][k]) == b"".join(
+            np.asarray(own[sid][c]).tobytes() for c in tables.COLUMNS if c not in tables.TEXT)
 
 
 def test_a_build_holds_its_entries_in_a_scratch_file_that_leaves_nothing(tmp_path):

@@ -230,6 +230,25 @@ def test_a_key_never_reads_outside_raw_nor_a_file_ingest_refuses(tmp_path, monke
     assert limits.MAX_TABLE_BYTES > 10
 
 
+@pytest.mark.parametrize("name", ["{f}", "./{f}", "sub/../{f}", "{f}/", "sub//../{f}"])
+def test_a_table_s_key_follows_its_content_however_source_json_writes_its_name(tmp_path,
+                                                                                name):
+    """A table listed by a plain name (joined as a string) or by one that pathlib
+    normalises (joined as pathlib joins it, as ingest reads it) gives its partition the
+    key of its content: an edit of the file changes the key."""
+    raw = tmp_path / "raw"
+    shutil.copytree(RAW, raw)
+    (raw / "isru-rrho-2026" / "sub").mkdir()
+    src = raw / "isru-rrho-2026" / "source.json"
+    doc = json.loads(src.read_text())
+    table = raw / "isru-rrho-2026" / doc["tables"][0]["file"]
+    doc["tables"][0]["file"] = name.format(f=table.name)
+    src.write_text(json.dumps(doc))
+    before = partitions.part_keys(raw, 3, {}, {})
+    table.write_text(table.read_text().replace("1000,", "1000.0,", 1))
+    assert partitions.part_keys(raw, 3, {}, {}) != before
+
+
 def test_the_progress_counts_partitions_in_partitions():
     from thermoledger.cli.progress import UNITS
 

@@ -136,7 +136,6 @@ def spill_rows(block: dict, spill) -> dict:
     only the columns' dtypes and each record's (offset, size) are held."""
     cols = block["columns"]
     ends = block["ends"].tolist()
-    starts = [0] + ends[:-1]
     n = ends[0] if ends else 0
     if n and ends == list(range(n, n * len(ends) + 1, n)):
         # every species the same number of rows (a catalogue's grid): the records are the
@@ -149,7 +148,7 @@ def spill_rows(block: dict, spill) -> dict:
     else:
         where = spill.put_many(b"".join(np.ascontiguousarray(v[start:end]).tobytes()
                                         for v in cols.values())
-                               for start, end in zip(starts, ends))
+                               for start, end in zip([0] + ends[:-1], ends))
     return {**block, "columns": {c: v.dtype for c, v in cols.items()}, "spill": spill,
             "spilled": where}
 
